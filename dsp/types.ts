@@ -1,0 +1,194 @@
+/**
+ * Shared types of the analysis pipeline and its report (the contract of DESIGN.md).
+ * Units are in the names: Hz, S (seconds), PerS (amplitude e-folding rate, 1/s), Dbfs.
+ * Rates: positive grows, negative decays; `decayRatePerS` fields are positive numbers.
+ */
+
+/** Version of the report layout; bump when a field is renamed or dropped. */
+export const REPORT_VERSION = 1;
+
+export type RegimeKind = 'quiet' | 'growth' | 'steady' | 'decay';
+
+/** A 95 % interval [low, high] in the unit of the value it belongs to. */
+export type Interval = [number, number];
+
+/** Configuration of one analysis run. Only sampleRateHz is required. */
+export interface AnalysisConfig {
+  /** Rate of the samples given to push(), Hz (8 000 to 192 000). */
+  sampleRateHz: number;
+  /** Band of interest, Hz. Defaults 20 and 4000. */
+  bandLowHz?: number;
+  bandHighHz?: number;
+}
+
+/** A user marker typed while recording ("driving off", "firing rate 60 %"). */
+export interface Marker {
+  timeS: number;
+  /** 'driving-on' | 'driving-off' | 'setting' | 'note' (free for other uses). */
+  kind: string;
+  label: string;
+  /** Optional numeric control value (firing rate %, heater power W, ...). */
+  value?: number;
+  unit?: string;
+}
+
+/** One row of the per-frame track (about 50-100 rows per second). */
+export interface TrackFrame {
+  timeS: number;
+  /** Tracked main tone, Hz; NaN when no tone. */
+  frequencyHz: number;
+  /** Band-limited envelope amplitude of the main tone, dBFS (full scale sine = 0 dBFS, RMS-based). */
+  amplitudeDbfs: number;
+  /** Broadband level of the frame, dBFS (RMS re full scale). */
+  levelDbfs: number;
+  state: RegimeKind;
+  /** True when the frame held clipped samples. */
+  isClipped: boolean;
+  /** True for the first frame after a gap in the input (suspended capture). */
+  isAfterGap: boolean;
+}
+
+export interface Onset {
+  timeS: number;
+  frequencyHz: number;
+}
+
+export interface Segment {
+  kind: RegimeKind;
+  startS: number;
+  endS: number;
+  frequencyHz: number;
+  /** Linear (small-amplitude) rate, 1/s; null for quiet segments. */
+  ratePerS: number | null;
+  rateCi95PerS: Interval | null;
+  /** Which model produced the rate: 'exponential', 'stuart-landau', 'generalised-saturation', or null. */
+  model?: string | null;
+  /** Limit-cycle amplitude in dBFS for growth-into-saturation and steady segments. */
+  limitAmplitudeDbfs?: number | null;
+}
+
+export interface NoiseDriven {
+  startS: number;
+  endS: number;
+  frequencyHz: number;
+  decayRatePerS: number;
+  decayRateCi95PerS: Interval;
+  /** The two estimates behind decayRatePerS. */
+  lorentzianDecayRatePerS?: number;
+  lorentzianCi95PerS?: Interval;
+  autocorrelationDecayRatePerS?: number;
+  autocorrelationCi95PerS?: Interval;
+}
+
+export interface Summary {
+  frequencyHz: number | null;
+  growthRatePerS: number | null;
+  decayRatePerS: number | null;
+  effectiveGainPerS: number | null;
+  dampingRatio: number | null;
+  qFactor: number | null;
+  growthRateCi95PerS?: Interval | null;
+  decayRateCi95PerS?: Interval | null;
+  effectiveGainCi95PerS?: Interval | null;
+  dampingRatioCi95?: Interval | null;
+  qFactorCi95?: Interval | null;
+  eFoldingTimeS?: number | null;
+  doublingTimeS?: number | null;
+  t60S?: number | null;
+  limitAmplitudeDbfs?: number | null;
+}
+
+export interface ClippedSpan {
+  startS: number;
+  endS: number;
+}
+
+export interface Report {
+  reportVersion: number;
+  sampleRateHz: number;
+  durationS: number;
+  onsets: Onset[];
+  segments: Segment[];
+  noiseDriven: NoiseDriven[];
+  summary: Summary;
+  /** Candidate tones seen (steady lines such as mains hum included), strongest first. */
+  tones?: { frequencyHz: number; isSteadyLine: boolean }[];
+  clipped?: ClippedSpan[];
+  warnings?: string[];
+}
+
+/** What push() reports: the rows added since the previous call and events that closed. Valid until the next push(). */
+export interface AnalysisUpdate {
+  frames: TrackFrame[];
+  onsets: Onset[];
+  segments: Segment[];
+  /** Latest magnitude spectrum (dBFS per bin) of the analysis frame, and its bin width. */
+  spectrumDbfs: Float32Array | null;
+  spectrumBinHz: number;
+  /** Peak absolute sample value of this block (0-1 full scale) and whether it clipped. */
+  peakAbs: number;
+  isClipped: boolean;
+}
+
+/** The streaming analysis: one object for the live microphone and for files. */
+export interface Analysis {
+  push(block: Float32Array): AnalysisUpdate;
+  /** Input missing for this many samples (suspended capture): the track shows a gap, fits do not join across it. */
+  gap(missingSamples: number): void;
+  mark(marker: Marker): void;
+  finish(): Report;
+}
+
+/**
+ * Envelope samples handed to the fits (dsp/fit.ts). `power` is the mean-square envelope A² of the
+ * tone in a narrow band (background included), sampled at `timeS`; `bandwidthHz` is the envelope
+ * low-pass bandwidth, which sets how correlated neighbouring samples are.
+ */
+export interface EnvelopeSeries {
+  timeS: Float64Array;
+  power: Float64Array;
+  bandwidthHz: number;
+}
+
+/** Result of fitting A²(t) = P0·exp(2 s (t − t0)) + N² (dsp/fit.ts fitExponential). */
+export interface RateFit {
+  isValid: boolean;
+  ratePerS: number;
+  ci95PerS: Interval;
+  /** Amplitude A at refTimeS (same unit as sqrt(power)). */
+  amplitudeAtRef: number;
+  refTimeS: number;
+  backgroundPower: number;
+  /** Effective number of independent envelope samples used for the interval. */
+  nEffective: number;
+  /** Why the fit is invalid, when it is. */
+  reason?: string;
+}
+
+/** Growth into saturation (Stuart–Landau closed form, or a more flexible model when the data reject it). */
+export interface SaturationFit extends RateFit {
+  model: 'stuart-landau' | 'generalised-saturation';
+  limitAmplitude: number;
+  /** Time at which A reaches half the limit amplitude, s. */
+  halfTimeS: number;
+}
+
+/** One decay-rate estimate with its interval (positive number, 1/s). */
+export interface DecayEstimate {
+  isValid: boolean;
+  decayRatePerS: number;
+  ci95PerS: Interval;
+  reason?: string;
+}
+
+/** Duct geometry and gas state, as stored with a session and used by dsp/duct.ts. Lengths in m, temperatures in °C. */
+export interface DuctGeometry {
+  lengthM: number;
+  diameterM: number;
+  ends: 'open-open' | 'open-closed' | 'closed-closed';
+  openEnd: 'unflanged' | 'flanged' | 'none';
+  gasTemperatureC: number;
+  /** Heater (compact heat source) position from the upstream (lower) end, m, and the gas temperature downstream of it, °C. */
+  heaterPositionM?: number;
+  hotTemperatureC?: number;
+}

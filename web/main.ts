@@ -1,0 +1,79 @@
+import './styles.css';
+import type { AppContext, MountScreen, NoticeKind, ScreenName } from './app-context';
+import { mountListenScreen } from './views/listen-screen';
+import { mountSessionsScreen } from './views/sessions-screen';
+import { mountDuctScreen } from './views/duct-screen';
+import { mountSettingsScreen } from './views/settings-screen';
+import { mountCautionsScreen } from './views/cautions-screen';
+
+// The app shell: one section per screen, switched by the URL hash (#listen, #sessions/<id>, ...).
+const SCREENS: { name: ScreenName; label: string; mount: MountScreen }[] = [
+  { name: 'listen', label: 'Listen', mount: mountListenScreen },
+  { name: 'sessions', label: 'Sessions', mount: mountSessionsScreen },
+  { name: 'duct', label: 'Duct', mount: mountDuctScreen },
+  { name: 'settings', label: 'Settings', mount: mountSettingsScreen },
+  { name: 'cautions', label: 'Cautions', mount: mountCautionsScreen },
+];
+
+const main = document.getElementById('main') as HTMLElement;
+const nav = document.getElementById('nav') as HTMLElement;
+const status = document.getElementById('status') as HTMLElement;
+const showListeners = new Map<ScreenName, Set<(param: string | undefined) => void>>();
+const sections = new Map<ScreenName, HTMLElement>();
+const navButtons = new Map<ScreenName, HTMLAnchorElement>();
+
+function parseHash(): { screen: ScreenName; param: string | undefined } {
+  const [name, ...rest] = location.hash.replace(/^#/, '').split('/');
+  const known = SCREENS.find((s) => s.name === name);
+  return { screen: known ? known.name : 'listen', param: rest.length ? decodeURIComponent(rest.join('/')) : undefined };
+}
+
+function show(): void {
+  const { screen, param } = parseHash();
+  for (const [name, el] of sections) el.hidden = name !== screen;
+  for (const [name, a] of navButtons) {
+    if (name === screen) a.setAttribute('aria-current', 'page');
+    else a.removeAttribute('aria-current');
+  }
+  for (const fn of showListeners.get(screen) ?? []) fn(param);
+}
+
+const app: AppContext = {
+  navigate(screen, param) {
+    const hash = `#${screen}${param ? `/${encodeURIComponent(param)}` : ''}`;
+    if (location.hash === hash) show();
+    else location.hash = hash;
+  },
+  onShow(screen, fn) {
+    let set = showListeners.get(screen);
+    if (!set) showListeners.set(screen, (set = new Set()));
+    set.add(fn);
+    return () => set.delete(fn);
+  },
+  notify(message: string, kind: NoticeKind = 'info') {
+    status.textContent = message;
+    status.dataset.kind = kind;
+  },
+};
+
+for (const s of SCREENS) {
+  const a = document.createElement('a');
+  a.href = `#${s.name}`;
+  a.textContent = s.label;
+  a.className = 'navlink';
+  nav.append(a);
+  navButtons.set(s.name, a);
+  const section = document.createElement('section');
+  section.className = `screen screen-${s.name}`;
+  section.setAttribute('aria-label', s.label);
+  section.hidden = true;
+  main.append(section);
+  sections.set(s.name, section);
+  try {
+    s.mount(section, app);
+  } catch (err) {
+    section.textContent = `This screen failed to start: ${err instanceof Error ? err.message : String(err)}`;
+  }
+}
+window.addEventListener('hashchange', show);
+show();
