@@ -4,7 +4,7 @@ import { mkdirSync, mkdtempSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 
-export const APP_URL = 'http://127.0.0.1:4173/';
+export const APP_URL = `http://127.0.0.1:${process.env.E2E_PORT ?? 4173}/`;
 export const SCREEN_DIR = resolve('e2e-out/screens');
 
 const BASE_FLAGS = [

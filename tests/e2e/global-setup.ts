@@ -3,12 +3,13 @@ import { existsSync } from 'node:fs';
 
 // Serves the built app (dist/) on loopback for the browser tests; loopback is a secure context,
 // so the service worker, getUserMedia and IndexedDB behave as on an installed phone app.
-export const PREVIEW_PORT = 4173;
+export const PREVIEW_PORT = Number(process.env.E2E_PORT ?? 4173);
+const DIST = process.env.E2E_DIST ?? "dist";
 let server: ChildProcess | undefined;
 
 export async function setup(): Promise<void> {
-  if (!existsSync('dist/index.html')) throw new Error('dist/ is missing: run `npx vite build` before the browser tests');
-  server = spawn('npx', ['vite', 'preview', '--host', '127.0.0.1', '--port', String(PREVIEW_PORT), '--strictPort'], {
+  if (!existsSync(`${DIST}/index.html`)) throw new Error(`${DIST}/ is missing: run \`npx vite build\` before the browser tests`);
+  server = spawn('npx', ['vite', 'preview', '--outDir', `../${DIST}`, '--host', '127.0.0.1', '--port', String(PREVIEW_PORT), '--strictPort'], {
     stdio: ['ignore', 'pipe', 'pipe'],
     detached: true,
   });
