@@ -1,0 +1,742 @@
+/**
+ * Fits of the tone envelope (DESIGN.md stage 6): exponential growth or decay, and growth into a
+ * limit cycle (Stuart–Landau, or a more flexible saturation when the data reject that shape),
+ * each with a 95 % interval on the linear rate.
+ *
+ * Derivation (kept next to the code it justifies)
+ * -----------------------------------------------
+ * Data. The pipeline demodulates the tone (heterodyne + low-pass, one-sided noise-equivalent
+ * bandwidth B = `series.bandwidthHz`) and hands over the mean-square envelope y_i = |z_i|² at
+ * times t_i, with z_i = a(t_i)·e^{iφ} + n_i: tone amplitude a(t) plus the band noise n_i, a
+ * circular complex Gaussian of power N² = E|n|².
+ *
+ * Model. E[y_i] = a²(t_i) + N² exactly, whatever the SNR, because the cross term 2a·Re(n) has
+ * zero mean. Exponential: a² = P0·exp(2 s (t − t_ref)). Saturation: the Stuart–Landau equation
+ * dA/dt = sA − kA³ (Landau 1944; Stuart 1960) integrates to a logistic curve in A²,
+ * A² = A∞² / (1 + exp(−2 s (t − t_c))), t_c the time at which A² = A∞²/2 (REFERENCES.md §6). The
+ * flexible form dA/dt = sA(1 − (A/A∞)^p) integrates the same way in u = (A/A∞)^p:
+ * A² = A∞²·(1 + exp(−p s (t − t_c)))^(−2/p); p = 2 is Stuart–Landau, larger p a sharper knee.
+ * In every form s is the small-amplitude (linear) rate: early on A² ∝ exp(2 s t).
+ *
+ * Noise. y is a scaled noncentral chi-square variable with 2 degrees of freedom, variance
+ * Var(y) = 2a²N² + N⁴ = N²(2m − N²), m = E[y]. We use the quasi-likelihood approximation: keep
+ * this mean–variance relation, drop the higher moments, and scale it by a dispersion φ fitted
+ * from the residuals (φ absorbs any extra smoothing of y by the pipeline and mild model error).
+ * The estimating equations Σ (y − m)/V(m)·∂m/∂θ = 0 are solved by iteratively reweighted least
+ * squares (weights 1/V(m̂) from the previous iterate), each pass by a grid over the nonlinear
+ * parameters with the linear ones (amplitude, background) solved in closed form, then
+ * Levenberg–Marquardt polish. Because E[y] = m holds exactly, the fit is not biased by the noise
+ * floor, unlike a straight line through ln y, which bends towards the floor (and towards the
+ * limit cycle) at the ends of its window.
+ *
+ * Correlation and N_eff. Neighbouring envelope samples share noise. For complex noise through
+ * a low-pass H, the integral of the normalised autocorrelation of n is
+ * τ_int = |H(0)|² / ∫|H(f)|² df = 1/(2B) (two-sided integral over f, B one-sided noise-equivalent
+ * bandwidth). The term |n|² has correlation |ρ|², whose integral is also 1/(2B) for an ideal
+ * low-pass and smaller for smoother ones (so the choice below is conservative there). A record
+ * of duration D therefore holds N_eff = 2·B·D independent samples (at most n). When the fit's
+ * regressors vary slowly over τ_int, the sandwich covariance of weighted least squares reduces
+ * to cov(θ̂) ≈ φ·(JᵀWJ)⁻¹·n/N_eff, and E[RSS] ≈ φ·(n − p·n/N_eff), which fixes φ̂. The interval
+ * is s ± t(0.975, N_eff − p)·sd(s), Student-t with N_eff − p degrees of freedom. Its coverage
+ * is checked on simulation in tests/dsp/fit.test.ts and by the bench.
+ */
+import type { EnvelopeSeries, Interval, RateFit, SaturationFit } from './types';
+
+/** Standard normal 0.975 quantile (Abramowitz & Stegun 1964, Table 26.5). */
+export const Z_975 = 1.959963984540054;
+
+/** 0.99 quantile of the chi-square distribution with 1 degree of freedom (= 2.5758²; A&S Table 26.8). */
+const CHI2_1DOF_99 = 6.634896601021214;
+
+// ---------------------------------------------------------------------------------------------
+// Small statistics helpers (exported for the damping estimators and the bench)
+
+/** Natural log of the gamma function, x > 0 (Lanczos 1964 approximation, g = 7, 9 terms). */
+export function logGamma(x: number): number {
+  const c = [
+    0.99999999999980993, 676.5203681218851, -1259.1392167224028, 771.32342877765313, -176.61502916214059,
+    12.507343278686905, -0.13857109526572012, 9.9843695780195716e-6, 1.5056327351493116e-7,
+  ];
+  if (x < 0.5) return Math.log(Math.PI / Math.abs(Math.sin(Math.PI * x))) - logGamma(1 - x);
+  const xx = x - 1;
+  let a = c[0];
+  const t = xx + 7.5;
+  for (let i = 1; i < 9; i++) a += c[i] / (xx + i);
+  return 0.5 * Math.log(2 * Math.PI) + (xx + 0.5) * Math.log(t) - t + Math.log(a);
+}
+
+/** Continued fraction of the incomplete beta function (modified Lentz; Press et al. 2007, Numerical Recipes 3rd ed., §6.4). */
+function betaContinuedFraction(a: number, b: number, x: number): number {
+  const tiny = 1e-300;
+  let c = 1;
+  let d = 1 - ((a + b) * x) / (a + 1);
+  if (Math.abs(d) < tiny) d = tiny;
+  d = 1 / d;
+  let h = d;
+  for (let m = 1; m <= 300; m++) {
+    const m2 = 2 * m;
+    let aa = (m * (b - m) * x) / ((a + m2 - 1) * (a + m2));
+    d = 1 + aa * d;
+    if (Math.abs(d) < tiny) d = tiny;
+    c = 1 + aa / c;
+    if (Math.abs(c) < tiny) c = tiny;
+    d = 1 / d;
+    h *= d * c;
+    aa = (-(a + m) * (a + b + m) * x) / ((a + m2) * (a + m2 + 1));
+    d = 1 + aa * d;
+    if (Math.abs(d) < tiny) d = tiny;
+    c = 1 + aa / c;
+    if (Math.abs(c) < tiny) c = tiny;
+    d = 1 / d;
+    const del = d * c;
+    h *= del;
+    if (Math.abs(del - 1) < 1e-15) break;
+  }
+  return h;
+}
+
+/** Regularised incomplete beta I_x(a, b), 0 ≤ x ≤ 1 (Press et al. 2007, Numerical Recipes, §6.4). */
+export function incompleteBeta(x: number, a: number, b: number): number {
+  if (x <= 0) return 0;
+  if (x >= 1) return 1;
+  const lnFront = logGamma(a + b) - logGamma(a) - logGamma(b) + a * Math.log(x) + b * Math.log(1 - x);
+  if (x < (a + 1) / (a + b + 2)) return (Math.exp(lnFront) * betaContinuedFraction(a, b, x)) / a;
+  return 1 - (Math.exp(lnFront) * betaContinuedFraction(b, a, 1 - x)) / b;
+}
+
+/** Student-t cumulative distribution P(T ≤ t) for ν > 0 degrees of freedom (A&S 1964, 26.7.1 via 26.5.27). */
+export function studentTCdf(t: number, dof: number): number {
+  const tail = 0.5 * incompleteBeta(dof / (dof + t * t), dof / 2, 0.5);
+  return t >= 0 ? 1 - tail : tail;
+}
+
+/** Quantile of the Student-t distribution (p in (0.5, 1)), ν ≥ 1 (real ν allowed), by bisection on the CDF. */
+export function studentTQuantile(p: number, dof: number): number {
+  if (!(dof > 0)) return Number.NaN;
+  let lo = 0;
+  let hi = 1;
+  while (studentTCdf(hi, dof) < p && hi < 1e12) hi *= 2;
+  for (let i = 0; i < 200 && hi - lo > 1e-12 * hi; i++) {
+    const mid = 0.5 * (lo + hi);
+    if (studentTCdf(mid, dof) < p) lo = mid;
+    else hi = mid;
+  }
+  return 0.5 * (lo + hi);
+}
+
+/** Inverts a small symmetric positive-definite matrix (row-major, size k) by Gauss–Jordan with pivoting; null if singular. */
+export function invertSmallMatrix(m: Float64Array, k: number): Float64Array | null {
+  const a = Float64Array.from(m);
+  const inv = new Float64Array(k * k);
+  for (let i = 0; i < k; i++) inv[i * k + i] = 1;
+  for (let col = 0; col < k; col++) {
+    let piv = col;
+    for (let r = col + 1; r < k; r++) if (Math.abs(a[r * k + col]) > Math.abs(a[piv * k + col])) piv = r;
+    const pv = a[piv * k + col];
+    if (!(Math.abs(pv) > 0) || !Number.isFinite(pv)) return null;
+    if (piv !== col) {
+      for (let j = 0; j < k; j++) {
+        let tmp = a[col * k + j];
+        a[col * k + j] = a[piv * k + j];
+        a[piv * k + j] = tmp;
+        tmp = inv[col * k + j];
+        inv[col * k + j] = inv[piv * k + j];
+        inv[piv * k + j] = tmp;
+      }
+    }
+    for (let j = 0; j < k; j++) {
+      a[col * k + j] /= pv;
+      inv[col * k + j] /= pv;
+    }
+    for (let r = 0; r < k; r++) {
+      if (r === col) continue;
+      const f = a[r * k + col];
+      if (f === 0) continue;
+      for (let j = 0; j < k; j++) {
+        a[r * k + j] -= f * a[col * k + j];
+        inv[r * k + j] -= f * inv[col * k + j];
+      }
+    }
+  }
+  return inv;
+}
+
+/**
+ * Effective number of independent envelope samples: N_eff = min(n, 2·B·D), B the one-sided
+ * noise-equivalent bandwidth of the envelope low-pass (Hz), D = n·Δt the span the n samples
+ * cover (s). Derivation in the header of this file.
+ */
+export function effectiveSampleCount(n: number, sampleSpacingS: number, bandwidthHz: number): number {
+  return Math.min(n, 2 * bandwidthHz * n * sampleSpacingS);
+}
+
+// ---------------------------------------------------------------------------------------------
+// The envelope models (mean of y) with analytic gradients
+
+/** Numerically safe logistic 1/(1 + e^(−z)). */
+function logistic(z: number): number {
+  if (z >= 0) return 1 / (1 + Math.exp(-z));
+  const e = Math.exp(z);
+  return e / (1 + e);
+}
+
+/** ln(logistic(z)) without overflow. */
+function logLogistic(z: number): number {
+  return z >= 0 ? -Math.log1p(Math.exp(-z)) : z - Math.log1p(Math.exp(z));
+}
+
+/**
+ * A model of the tone's mean-square envelope without background: value and gradient with respect
+ * to the nonlinear parameters, times the amplitude parameter. The background N² enters linearly.
+ */
+interface ShapeModel {
+  /** Number of nonlinear parameters (after ln L). */
+  nNonlinear: number;
+  /** Unit-amplitude shape g(t) and ∂g/∂θ_j (j over nonlinear parameters) into grad. */
+  shape(t: number, theta: Float64Array, grad: Float64Array): number;
+}
+
+/** g = exp(2 s (t − tm)); θ = [s]. */
+function exponentialShape(tm: number): ShapeModel {
+  return {
+    nNonlinear: 1,
+    shape(t, theta, grad) {
+      const g = Math.exp(2 * theta[0] * (t - tm));
+      grad[0] = 2 * (t - tm) * g;
+      return g;
+    },
+  };
+}
+
+/** g = logistic(p s (t − tc))^(2/p); θ = [s, tc] with p fixed (2 = Stuart–Landau), or [s, tc, ln p]. */
+function saturationShape(fixedP: number | null): ShapeModel {
+  return {
+    nNonlinear: fixedP === null ? 3 : 2,
+    shape(t, theta, grad) {
+      const s = theta[0];
+      const tc = theta[1];
+      const p = fixedP === null ? Math.exp(theta[2]) : fixedP;
+      const z = p * s * (t - tc);
+      const lnq = logLogistic(z);
+      const g = Math.exp((2 / p) * lnq);
+      const oneMinusQ = logistic(-z);
+      grad[0] = 2 * g * oneMinusQ * (t - tc);
+      grad[1] = -2 * g * oneMinusQ * s;
+      if (fixedP === null) grad[2] = g * (2 * oneMinusQ * s * (t - tc) - (2 / p) * lnq);
+      return g;
+    },
+  };
+}
+
+// ---------------------------------------------------------------------------------------------
+// Weighted least squares machinery
+
+interface FitState {
+  /** Full parameter vector: [ln L, nonlinear..., N²]. */
+  params: Float64Array;
+  isBackgroundFixed: boolean;
+  rss: number;
+}
+
+interface Prepared {
+  t: Float64Array;
+  y: Float64Array;
+  n: number;
+  spacingS: number;
+  nEff: number;
+}
+
+function prepare(series: EnvelopeSeries): Prepared | string {
+  const n = series.timeS.length;
+  if (series.power.length !== n) return 'timeS and power differ in length';
+  if (n < 6) return 'too few envelope samples (need at least 6)';
+  if (!(series.bandwidthHz > 0) || !Number.isFinite(series.bandwidthHz)) return 'bandwidthHz must be a positive number';
+  for (let i = 0; i < n; i++) {
+    if (!Number.isFinite(series.timeS[i]) || !Number.isFinite(series.power[i])) return 'non-finite envelope sample';
+    if (series.power[i] < 0) return 'negative envelope power';
+    if (i > 0 && !(series.timeS[i] > series.timeS[i - 1])) return 'times must increase';
+  }
+  const spacingS = (series.timeS[n - 1] - series.timeS[0]) / (n - 1);
+  return { t: series.timeS, y: series.power, n, spacingS, nEff: effectiveSampleCount(n, spacingS, series.bandwidthHz) };
+}
+
+/** Variance function of the envelope power: V(m) = N²(2m − N²), floored for a noise-free record. */
+function varianceOf(m: number, bg: number, bgFloor: number): number {
+  const b = Math.max(bg, bgFloor);
+  return Math.max(b * (2 * m - b), b * b);
+}
+
+/**
+ * For fixed nonlinear parameters: weighted linear fit of y ≈ L·g + N² with L > 0, N² ≥ 0 (or N²
+ * fixed). Writes ln L and N² into params; returns the weighted RSS (Infinity if L ≤ 0).
+ */
+function solveLinear(
+  d: Prepared,
+  w: Float64Array,
+  g: Float64Array,
+  fixedBg: number | null,
+  out: { lnL: number; bg: number },
+): number {
+  let sw = 0;
+  let sg = 0;
+  let sy = 0;
+  let sgg = 0;
+  let sgy = 0;
+  for (let i = 0; i < d.n; i++) {
+    const wi = w[i];
+    sw += wi;
+    sg += wi * g[i];
+    sy += wi * d.y[i];
+    sgg += wi * g[i] * g[i];
+    sgy += wi * g[i] * d.y[i];
+  }
+  let amp: number;
+  let bg: number;
+  if (fixedBg !== null) {
+    bg = fixedBg;
+    amp = (sgy - bg * sg) / sgg;
+  } else {
+    const det = sw * sgg - sg * sg;
+    amp = det > 0 ? (sw * sgy - sg * sy) / det : Number.NaN;
+    bg = det > 0 ? (sgg * sy - sg * sgy) / det : Number.NaN;
+    if (!(bg >= 0)) {
+      bg = 0;
+      amp = sgy / sgg;
+    }
+  }
+  if (!(amp > 0) || !Number.isFinite(amp)) return Number.POSITIVE_INFINITY;
+  let rss = 0;
+  for (let i = 0; i < d.n; i++) {
+    const r = d.y[i] - amp * g[i] - bg;
+    rss += w[i] * r * r;
+  }
+  out.lnL = Math.log(amp);
+  out.bg = bg;
+  return rss;
+}
+
+/** Weighted RSS of a full parameter vector. */
+function rssOf(d: Prepared, w: Float64Array, model: ShapeModel, params: Float64Array, grad: Float64Array): number {
+  const k = model.nNonlinear;
+  const amp = Math.exp(params[0]);
+  const bg = params[k + 1];
+  const theta = params.subarray(1, k + 1);
+  let rss = 0;
+  for (let i = 0; i < d.n; i++) {
+    const r = d.y[i] - amp * model.shape(d.t[i], theta, grad) - bg;
+    rss += w[i] * r * r;
+  }
+  return Number.isFinite(rss) ? rss : Number.POSITIVE_INFINITY;
+}
+
+/** Jacobian products JᵀWJ and JᵀWr for the full parameter vector (free parameters only). */
+function normalEquations(
+  d: Prepared,
+  w: Float64Array,
+  model: ShapeModel,
+  params: Float64Array,
+  nFree: number,
+  jtj: Float64Array,
+  jtr: Float64Array,
+): void {
+  const k = model.nNonlinear;
+  const amp = Math.exp(params[0]);
+  const bg = params[k + 1];
+  const theta = params.subarray(1, k + 1);
+  const grad = new Float64Array(k);
+  const row = new Float64Array(nFree);
+  jtj.fill(0);
+  jtr.fill(0);
+  for (let i = 0; i < d.n; i++) {
+    const g = model.shape(d.t[i], theta, grad);
+    row[0] = amp * g;
+    for (let j = 0; j < k; j++) row[j + 1] = amp * grad[j];
+    if (nFree === k + 2) row[k + 1] = 1;
+    const r = d.y[i] - amp * g - bg;
+    for (let a = 0; a < nFree; a++) {
+      jtr[a] += w[i] * row[a] * r;
+      for (let b = 0; b <= a; b++) jtj[a * nFree + b] += w[i] * row[a] * row[b];
+    }
+  }
+  for (let a = 0; a < nFree; a++) for (let b = a + 1; b < nFree; b++) jtj[a * nFree + b] = jtj[b * nFree + a];
+}
+
+/** Levenberg–Marquardt polish of all parameters (Marquardt 1963), N² kept ≥ 0. */
+function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState): void {
+  const k = model.nNonlinear;
+  const nFree = state.isBackgroundFixed ? k + 1 : k + 2;
+  const jtj = new Float64Array(nFree * nFree);
+  const jtr = new Float64Array(nFree);
+  const grad = new Float64Array(k);
+  const trial = new Float64Array(state.params.length);
+  let lambda = 1e-3;
+  let rss = rssOf(d, w, model, state.params, grad);
+  for (let iter = 0; iter < 100; iter++) {
+    normalEquations(d, w, model, state.params, nFree, jtj, jtr);
+    let isImproved = false;
+    for (let attempt = 0; attempt < 12; attempt++) {
+      const a = Float64Array.from(jtj);
+      for (let j = 0; j < nFree; j++) a[j * nFree + j] *= 1 + lambda;
+      const inv = invertSmallMatrix(a, nFree);
+      if (inv === null) {
+        lambda *= 10;
+        continue;
+      }
+      trial.set(state.params);
+      for (let r = 0; r < nFree; r++) {
+        let step = 0;
+        for (let c = 0; c < nFree; c++) step += inv[r * nFree + c] * jtr[c];
+        trial[r] += step;
+      }
+      if (!state.isBackgroundFixed && trial[k + 1] < 0) trial[k + 1] = 0;
+      const rssTrial = rssOf(d, w, model, trial, grad);
+      if (rssTrial < rss) {
+        const drop = (rss - rssTrial) / rss;
+        state.params.set(trial);
+        rss = rssTrial;
+        lambda = Math.max(lambda / 3, 1e-12);
+        isImproved = drop > 1e-12;
+        break;
+      }
+      lambda *= 4;
+    }
+    if (!isImproved) break;
+  }
+  state.rss = rss;
+}
+
+interface GridSpec {
+  /** Candidate values of each nonlinear parameter. */
+  values: Float64Array[];
+}
+
+/** Exhaustive grid over the nonlinear parameters with the linear ones in closed form. */
+function gridSearch(
+  d: Prepared,
+  w: Float64Array,
+  model: ShapeModel,
+  grid: GridSpec,
+  fixedBg: number | null,
+): FitState | null {
+  const k = model.nNonlinear;
+  const theta = new Float64Array(k);
+  const grad = new Float64Array(k);
+  const g = new Float64Array(d.n);
+  const lin = { lnL: 0, bg: 0 };
+  let best: FitState | null = null;
+  const counts = grid.values.map((v) => v.length);
+  const total = counts.reduce((a, b) => a * b, 1);
+  for (let idx = 0; idx < total; idx++) {
+    let rem = idx;
+    for (let j = 0; j < k; j++) {
+      theta[j] = grid.values[j][rem % counts[j]];
+      rem = Math.floor(rem / counts[j]);
+    }
+    for (let i = 0; i < d.n; i++) g[i] = model.shape(d.t[i], theta, grad);
+    const rss = solveLinear(d, w, g, fixedBg, lin);
+    if (rss < (best?.rss ?? Number.POSITIVE_INFINITY)) {
+      const params = new Float64Array(k + 2);
+      params[0] = lin.lnL;
+      params.set(theta, 1);
+      params[k + 1] = lin.bg;
+      best = { params, isBackgroundFixed: fixedBg !== null, rss };
+    }
+  }
+  return best;
+}
+
+/** Updates the IRLS weights 1/V(m̂) from the current parameters. */
+function updateWeights(d: Prepared, model: ShapeModel, state: FitState, w: Float64Array, bgFloor: number): void {
+  const k = model.nNonlinear;
+  const amp = Math.exp(state.params[0]);
+  const bg = state.params[k + 1];
+  const theta = state.params.subarray(1, k + 1);
+  const grad = new Float64Array(k);
+  for (let i = 0; i < d.n; i++) w[i] = 1 / varianceOf(amp * model.shape(d.t[i], theta, grad) + bg, bg, bgFloor);
+  // Normalise so that RSS values stay of order n (the scale of w is irrelevant to the estimates).
+  let mean = 0;
+  for (let i = 0; i < d.n; i++) mean += w[i];
+  mean /= d.n;
+  for (let i = 0; i < d.n; i++) w[i] /= mean;
+}
+
+interface IrlsResult {
+  state: FitState;
+  weights: Float64Array;
+  /** Covariance of the free parameters, corrected for correlation (φ̂·(JᵀWJ)⁻¹·n/N_eff). */
+  cov: Float64Array | null;
+  nFree: number;
+  dispersion: number;
+}
+
+/** Iteratively reweighted fit: grid initialisation, LM polish, reweighting, covariance. */
+function fitIrls(
+  d: Prepared,
+  model: ShapeModel,
+  grid: GridSpec,
+  fixedBg: number | null,
+  start: FitState | null,
+): IrlsResult | null {
+  let maxY = 0;
+  for (let i = 0; i < d.n; i++) maxY = Math.max(maxY, d.y[i]);
+  // Numerical guard only: keeps V(m) > 0 for a record with no noise at all.
+  const bgFloor = 1e-12 * maxY;
+  const w = new Float64Array(d.n);
+  // First pass: weights of a constant relative error, 1/y² smoothed (the log-fit weighting), then IRLS.
+  for (let i = 0; i < d.n; i++) {
+    const lo = Math.max(0, i - 2);
+    const hi = Math.min(d.n - 1, i + 2);
+    let s = 0;
+    for (let j = lo; j <= hi; j++) s += d.y[j];
+    const ym = Math.max(s / (hi - lo + 1), 1e-9 * maxY, 1e-300);
+    w[i] = 1 / (ym * ym);
+  }
+  let mean = 0;
+  for (let i = 0; i < d.n; i++) mean += w[i];
+  for (let i = 0; i < d.n; i++) w[i] /= mean / d.n;
+  let state = start ?? gridSearch(d, w, model, grid, fixedBg);
+  if (state === null) return null;
+  if (fixedBg !== null) state.params[model.nNonlinear + 1] = fixedBg;
+  polish(d, w, model, state);
+  for (let pass = 0; pass < 8; pass++) {
+    const before = Float64Array.from(state.params);
+    updateWeights(d, model, state, w, bgFloor);
+    if (pass === 0 && start === null) {
+      const regrid = gridSearch(d, w, model, grid, fixedBg);
+      if (regrid !== null) {
+        polish(d, w, model, regrid);
+        state.rss = rssOf(d, w, model, state.params, new Float64Array(model.nNonlinear));
+        if (regrid.rss < state.rss) state = regrid;
+      }
+    }
+    polish(d, w, model, state);
+    let change = 0;
+    for (let j = 1; j <= model.nNonlinear; j++) change = Math.max(change, Math.abs(state.params[j] - before[j]) / (Math.abs(before[j]) + 1e-9));
+    if (change < 1e-7) break;
+  }
+  const k = model.nNonlinear;
+  const nFree = fixedBg === null && state.params[k + 1] > 0 ? k + 2 : k + 1;
+  const jtj = new Float64Array(nFree * nFree);
+  const jtr = new Float64Array(nFree);
+  normalEquations(d, w, model, state.params, nFree, jtj, jtr);
+  const inv = invertSmallMatrix(jtj, nFree);
+  const inflation = d.n / d.nEff;
+  const dofResidual = d.n - nFree * inflation;
+  const dispersion = dofResidual > 0 ? state.rss / dofResidual : Number.NaN;
+  let cov: Float64Array | null = null;
+  if (inv !== null && dispersion > 0) {
+    cov = new Float64Array(nFree * nFree);
+    for (let i = 0; i < cov.length; i++) cov[i] = inv[i] * dispersion * inflation;
+  }
+  return { state, weights: w, cov, nFree, dispersion };
+}
+
+function invalidRateFit(reason: string, refTimeS: number, nEffective: number): RateFit {
+  return {
+    isValid: false,
+    ratePerS: Number.NaN,
+    ci95PerS: [Number.NaN, Number.NaN],
+    amplitudeAtRef: Number.NaN,
+    refTimeS,
+    backgroundPower: Number.NaN,
+    nEffective,
+    reason,
+  };
+}
+
+/** Rates whose e-folding covers more than this many times the record are outside what the record can tell. */
+const MAX_RATE_TIMES_SPAN = 150;
+
+/** Symmetric-in-u grid 2·s·span/2 = ±(e^v − 1), dense near 0, up to ±MAX_RATE_TIMES_SPAN. */
+function rateGrid(spanS: number, count: number): Float64Array {
+  const out = new Float64Array(count);
+  const vMax = Math.log(MAX_RATE_TIMES_SPAN + 1);
+  for (let j = 0; j < count; j++) {
+    const v = -vMax + (2 * vMax * j) / (count - 1);
+    out[j] = (Math.sign(v) * (Math.exp(Math.abs(v)) - 1)) / spanS;
+  }
+  return out;
+}
+
+/**
+ * Fits A²(t) = P0·exp(2 s (t − ref)) + N² to the envelope power by quasi-likelihood (see the
+ * header of this file): s in 1/s (positive grows), P0 = A² at ref, N² the background power in the
+ * band, fixed when `backgroundPower` is given and fitted (≥ 0) otherwise. The 95 % interval on s
+ * is Student-t with N_eff − p degrees of freedom, N_eff = 2·bandwidthHz·duration.
+ * `refTimeS` defaults to the first sample time.
+ */
+export function fitExponential(series: EnvelopeSeries, opts?: { backgroundPower?: number; refTimeS?: number }): RateFit {
+  const refTimeS = opts?.refTimeS ?? (series.timeS.length > 0 ? series.timeS[0] : 0);
+  const d = prepare(series);
+  if (typeof d === 'string') return invalidRateFit(d, refTimeS, 0);
+  const fixedBg = opts?.backgroundPower ?? null;
+  if (fixedBg !== null && !(fixedBg >= 0)) return invalidRateFit('backgroundPower must be ≥ 0', refTimeS, d.nEff);
+  const nParams = fixedBg === null ? 3 : 2;
+  if (d.nEff - nParams < 1) return invalidRateFit(`record too short for the envelope bandwidth (N_eff = ${d.nEff.toFixed(1)})`, refTimeS, d.nEff);
+  const t0 = d.t[0];
+  const spanS = d.t[d.n - 1] - t0;
+  const tm = t0 + spanS / 2;
+  const model = exponentialShape(tm);
+  const grid: GridSpec = { values: [rateGrid(spanS / 2, 241)] };
+  const fit = fitIrls(d, model, grid, fixedBg, null);
+  if (fit === null) return invalidRateFit('no tone above the background', refTimeS, d.nEff);
+  const s = fit.state.params[1];
+  const p0Mid = Math.exp(fit.state.params[0]);
+  const bg = fit.state.params[2];
+  if (Math.abs(s) * spanS >= MAX_RATE_TIMES_SPAN * 0.999) return invalidRateFit('rate outside the range the record can resolve', refTimeS, d.nEff);
+  if (fit.cov === null) return invalidRateFit('fit covariance is singular', refTimeS, d.nEff);
+  const sdRate = Math.sqrt(fit.cov[1 * fit.nFree + 1]);
+  const q = studentTQuantile(0.975, Math.max(1, d.nEff - fit.nFree));
+  const ci: Interval = [s - q * sdRate, s + q * sdRate];
+  return {
+    isValid: Number.isFinite(sdRate),
+    ratePerS: s,
+    ci95PerS: ci,
+    amplitudeAtRef: Math.sqrt(p0Mid * Math.exp(2 * s * (refTimeS - tm))),
+    refTimeS,
+    backgroundPower: bg,
+    nEffective: d.nEff,
+    ...(Number.isFinite(sdRate) ? {} : { reason: 'rate variance undefined' }),
+  };
+}
+
+/** Quantities of a saturation fit shared by both saturation models. */
+interface SaturationCandidate {
+  fit: IrlsResult;
+  p: number;
+}
+
+function saturationGrid(d: Prepared): GridSpec {
+  const spanS = d.t[d.n - 1] - d.t[0];
+  const rates = new Float64Array(36);
+  // 2·s·span from 1 to 300: log-spaced.
+  for (let j = 0; j < rates.length; j++) rates[j] = (0.5 * Math.exp((Math.log(300) * j) / (rates.length - 1))) / spanS;
+  const centres = new Float64Array(41);
+  for (let j = 0; j < centres.length; j++) centres[j] = d.t[0] - 0.25 * spanS + (1.5 * spanS * j) / (centres.length - 1);
+  return { values: [rates, centres] };
+}
+
+/**
+ * Fits growth into a limit cycle to the envelope power: Stuart–Landau closed form
+ * A² = A∞² / (1 + exp(−2 s (t − t_c))) + N² (Landau 1944; Stuart 1960, J. Fluid Mech. 9, 353;
+ * REFERENCES.md §6), where s is the linear growth rate (1/s) and A∞ the limit amplitude. When the
+ * data reject that shape (likelihood-ratio test on the weighted residuals, corrected by N_eff,
+ * at the 1 % level), the flexible form A² = A∞²·(1 + exp(−p s (t − t_c)))^(−2/p) from
+ * dA/dt = sA(1 − (A/A∞)^p) is used and `model` is 'generalised-saturation'.
+ * `halfTimeS` is when A = A∞/2; `amplitudeAtRef` is the fitted A (background excluded) at the
+ * first sample time.
+ */
+export function fitSaturation(series: EnvelopeSeries, opts?: { backgroundPower?: number }): SaturationFit {
+  const ref = series.timeS.length > 0 ? series.timeS[0] : 0;
+  const fail = (reason: string, nEff: number): SaturationFit => ({
+    ...invalidRateFit(reason, ref, nEff),
+    model: 'stuart-landau',
+    limitAmplitude: Number.NaN,
+    halfTimeS: Number.NaN,
+  });
+  const d = prepare(series);
+  if (typeof d === 'string') return fail(d, 0);
+  const fixedBg = opts?.backgroundPower ?? null;
+  if (fixedBg !== null && !(fixedBg >= 0)) return fail('backgroundPower must be ≥ 0', d.nEff);
+  if (d.nEff - 5 < 1) return fail(`record too short for the envelope bandwidth (N_eff = ${d.nEff.toFixed(1)})`, d.nEff);
+  const grid = saturationGrid(d);
+  const landau = fitIrls(d, saturationShape(2), grid, fixedBg, null);
+  if (landau === null) return fail('no tone above the background', d.nEff);
+  let chosen: SaturationCandidate = { fit: landau, p: 2 };
+  let model: SaturationFit['model'] = 'stuart-landau';
+
+  // Flexible model, started from the Stuart–Landau solution at several knee sharpness values,
+  // compared with the same weights (nested models: p = 2 is the Stuart–Landau case).
+  const general = saturationShape(null);
+  let bestGeneral: IrlsResult | null = null;
+  for (const p of [0.5, 1, 2, 4, 8, 16, 32]) {
+    const params = new Float64Array(5);
+    params[0] = landau.state.params[0];
+    params[1] = landau.state.params[1];
+    params[2] = landau.state.params[2];
+    params[3] = Math.log(p);
+    params[4] = landau.state.params[3];
+    const start: FitState = { params, isBackgroundFixed: fixedBg !== null, rss: Number.POSITIVE_INFINITY };
+    polish(d, landau.weights, general, start);
+    if (start.rss < (bestGeneral?.state.rss ?? Number.POSITIVE_INFINITY)) {
+      bestGeneral = { state: start, weights: landau.weights, cov: null, nFree: 0, dispersion: Number.NaN };
+    }
+  }
+  if (bestGeneral !== null && Number.isFinite(bestGeneral.state.rss)) {
+    const inflation = d.n / d.nEff;
+    const nFreeGeneral = fixedBg === null ? 5 : 4;
+    const dispersion = bestGeneral.state.rss / (d.n - nFreeGeneral * inflation);
+    const statistic = (landau.state.rss - bestGeneral.state.rss) / (dispersion * inflation);
+    if (statistic > CHI2_1DOF_99) {
+      const refit = fitIrls(d, general, { values: [] }, fixedBg, bestGeneral.state);
+      if (refit !== null) {
+        chosen = { fit: refit, p: Math.exp(refit.state.params[3]) };
+        model = 'generalised-saturation';
+      }
+    }
+  }
+  const k = model === 'stuart-landau' ? 2 : 3;
+  const params = chosen.fit.state.params;
+  const s = params[1];
+  const tc = params[2];
+  const limitPower = Math.exp(params[0]);
+  const bg = params[k + 1];
+  const p = chosen.p;
+  if (!(s > 0)) return fail('no growth found', d.nEff);
+  if (chosen.fit.cov === null) return { ...fail('fit covariance is singular', d.nEff), model };
+  const sdRate = Math.sqrt(chosen.fit.cov[1 * chosen.fit.nFree + 1]);
+  const q = studentTQuantile(0.975, Math.max(1, d.nEff - chosen.fit.nFree));
+  const grad = new Float64Array(3);
+  const shape = saturationShape(p);
+  const theta = Float64Array.of(s, tc);
+  return {
+    isValid: Number.isFinite(sdRate),
+    ratePerS: s,
+    ci95PerS: [s - q * sdRate, s + q * sdRate],
+    amplitudeAtRef: Math.sqrt(limitPower * shape.shape(ref, theta, grad)),
+    refTimeS: ref,
+    backgroundPower: bg,
+    nEffective: d.nEff,
+    model,
+    limitAmplitude: Math.sqrt(limitPower),
+    // (1 + e^{−p s (t − tc)})^{−1/p} = 1/2  ⇔  t = tc − ln(2^p − 1)/(p s); p = 2 gives ln 3/(2 s).
+    halfTimeS: tc - Math.log(2 ** p - 1) / (p * s),
+    ...(Number.isFinite(sdRate) ? {} : { reason: 'rate variance undefined' }),
+  };
+}
+
+/**
+ * Time (s) at which a fitted growth curve meets the background: A²(t) = N² (the onset of
+ * DESIGN.md). For an exponential fit t = ref + ln(N²/A_ref²)/(2 s); for a saturation fit the same
+ * on its early, exponential part. NaN when there is no background or no growth.
+ */
+export function backgroundCrossingTimeS(fit: RateFit): number {
+  if (!fit.isValid || !(fit.ratePerS > 0) || !(fit.backgroundPower > 0) || !(fit.amplitudeAtRef > 0)) return Number.NaN;
+  const ratio = fit.backgroundPower / (fit.amplitudeAtRef * fit.amplitudeAtRef);
+  return fit.refTimeS + Math.log(ratio) / (2 * fit.ratePerS);
+}
+
+/**
+ * Naive straight line through ln A = ½ ln y against t (ordinary least squares), returning the
+ * slope in 1/s. Common practice, kept only as the baseline the tests show to be biased when
+ * the window runs into the noise floor or into saturation; not used by the pipeline.
+ */
+export function fitLogLine(series: EnvelopeSeries): number {
+  const n = series.timeS.length;
+  let st = 0;
+  let sl = 0;
+  let stt = 0;
+  let stl = 0;
+  let m = 0;
+  for (let i = 0; i < n; i++) {
+    if (!(series.power[i] > 0)) continue;
+    const t = series.timeS[i];
+    const l = 0.5 * Math.log(series.power[i]);
+    st += t;
+    sl += l;
+    stt += t * t;
+    stl += t * l;
+    m++;
+  }
+  return (m * stl - st * sl) / (m * stt - st * st);
+}
