@@ -1,0 +1,299 @@
+/**
+ * Streaming reader of pressure-sensor CSV exports: `time_s,pressure_pa` with a header line, or a
+ * single column of values at a sample rate given by the caller. Bytes go in as they arrive; the
+ * pressure values come out as Float32 blocks, so a file is read in bounded memory.
+ *
+ * Rules (stated so a user can fix the file):
+ * - separator `,` `;` or tab; `.` as decimal point; UTF-8, an optional byte-order mark;
+ *   blank lines and lines starting with `#` are skipped;
+ * - a first line with a non-numeric field is the header; with two or more columns the time column
+ *   is the one named `time…`/`t…` (else the first) and the value column the one named
+ *   `pressure…`/`p…` (else the next);
+ * - time must rise on every line; a step may differ from the mean step so far by at most 1 % plus
+ *   the resolution of the printed timestamps (rounding to 1 µs of a 48 kHz series moves single
+ *   steps by ±5 %, which is not jitter); larger differences are an error naming the line;
+ * - the sample rate is 1 / mean step over all rows, (t_last − t_first)/(rows − 1): a rate from a
+ *   single rounded step is off by up to a few per cent (common practice).
+ */
+
+import { InputError, checkDuration } from './errors';
+
+export interface CsvDecodeOptions {
+  /** Sample rate of a one-column file, Hz. Required when there is no time column; for a file with a time column, it overrides the timestamps' rate. */
+  rateHz?: number | null;
+  /** Multiplies every value (e.g. to bring pascals near full scale). Default 1. */
+  scale?: number;
+  /** Reject files shorter than MIN_DURATION_S and constant files at end(). Default true. */
+  checkContent?: boolean;
+}
+
+export interface CsvSummary {
+  rows: number;
+  hasTimeColumn: boolean;
+  /** Names from the header, or null. */
+  timeColumnName: string | null;
+  valueColumnName: string | null;
+  /** Sample rate: from the time column (mean spacing over all rows) or the one given. */
+  sampleRateHz: number;
+  /** Largest step deviation from the running mean step, as a fraction of the mean step. */
+  maxJitter: number;
+  durationS: number;
+  /** Extremes of the raw values (before scaling). */
+  minValue: number;
+  maxValue: number;
+}
+
+export interface CsvDecoder {
+  /** Decodes the next bytes; returns the values of the lines they completed (maybe none). Throws InputError. */
+  push(bytes: Uint8Array): Float32Array;
+  /** Call after the last byte: decodes a last line without newline (its values in `samples`) and checks the whole file; throws InputError. */
+  end(): { samples: Float32Array; summary: CsvSummary };
+}
+
+/** Allowed step deviation from the mean step (fraction), before the timestamp resolution is added. */
+export const CSV_JITTER_TOLERANCE = 0.01;
+
+const MAX_LINE_BYTES = 1 << 16;
+
+/** Creates a streaming CSV decoder. */
+export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
+  const rateOpt = options.rateHz ?? null;
+  if (rateOpt !== null && !(rateOpt > 0 && Number.isFinite(rateOpt))) {
+    throw new RangeError(`createCsvDecoder: rateHz must be a positive number, got ${rateOpt}`);
+  }
+  const scale = options.scale ?? 1;
+  const checkContent = options.checkContent ?? true;
+
+  let lineBuf = new Uint8Array(256);
+  let lineLen = 0;
+  let lineNo = 0;
+  let isFirstByte = true;
+  let sawContent = false;
+  let sep = '';
+  let columns = 0;
+  let timeCol = -1;
+  let valueCol = 0;
+  let timeName: string | null = null;
+  let valueName: string | null = null;
+  let rows = 0;
+  let t0 = 0;
+  let tPrev = 0;
+  let stepQuantumS = 0;
+  let maxJitter = 0;
+  let minValue = Infinity;
+  let maxValue = -Infinity;
+  let pending: number[] = [];
+
+  function fail(message: string): never {
+    throw new InputError('bad-csv', `line ${lineNo}: ${message}`);
+  }
+
+  function readHeaderOrFirst(fields: string[]): boolean {
+    // Decides the layout from the first content line; returns true when it was a header.
+    const isHeader = fields.some((f) => f.trim() !== '' && !isNumberText(f.trim()));
+    columns = fields.length;
+    if (columns >= 2) {
+      timeCol = 0;
+      valueCol = 1;
+      if (isHeader) {
+        const names = fields.map((f) => f.trim().replace(/^"|"$/g, '').toLowerCase());
+        const ti = names.findIndex((n) => n.startsWith('time') || n === 't' || n.startsWith('t_') || n.startsWith('t ') || n.startsWith('t['));
+        if (ti >= 0) timeCol = ti;
+        const pi = names.findIndex((n, i) => i !== timeCol && (n.startsWith('pressure') || n === 'p' || n.startsWith('p_') || n.startsWith('p ') || n.startsWith('p[')));
+        valueCol = pi >= 0 ? pi : timeCol === 0 ? 1 : 0;
+        timeName = fields[timeCol].trim();
+        valueName = fields[valueCol].trim();
+      }
+    } else {
+      timeCol = -1;
+      valueCol = 0;
+      if (isHeader) valueName = fields[0].trim();
+    }
+    if (timeCol < 0 && rateOpt === null) {
+      throw new InputError('bad-csv', 'one-column CSV without a time column: give the sample rate (--rate HZ)');
+    }
+    return isHeader;
+  }
+
+  function readRow(line: string): void {
+    const fields = line.split(sep);
+    if (fields.length !== columns) fail(`expected ${columns} field${columns === 1 ? '' : 's'}, found ${fields.length}`);
+    const vText = fields[valueCol].trim();
+    const v = parseField(vText, valueName ?? 'value');
+    if (timeCol >= 0) {
+      const tText = fields[timeCol].trim();
+      const t = parseField(tText, timeName ?? 'time');
+      const q = decimalQuantum(tText);
+      if (q > stepQuantumS) stepQuantumS = q;
+      if (rows === 0) t0 = t;
+      else {
+        const step = t - tPrev;
+        if (!(step > 0)) fail(`time ${tText} s does not rise above the previous ${formatNum(tPrev)} s`);
+        if (rows >= 2) {
+          const meanStep = (tPrev - t0) / (rows - 1);
+          const dev = Math.abs(step - meanStep);
+          const rel = dev / meanStep;
+          if (dev > CSV_JITTER_TOLERANCE * meanStep + stepQuantumS) {
+            fail(
+              `time step ${formatNum(step)} s differs from the mean step ${formatNum(meanStep)} s by ${(rel * 100).toFixed(1)} % ` +
+                `(more than ${CSV_JITTER_TOLERANCE * 100} % plus the ${formatNum(stepQuantumS)} s timestamp resolution): irregular sampling`,
+            );
+          }
+          if (rel > maxJitter) maxJitter = rel;
+        }
+      }
+      tPrev = t;
+    }
+    if (v < minValue) minValue = v;
+    if (v > maxValue) maxValue = v;
+    rows++;
+    pending.push(v * scale);
+  }
+
+  function parseField(text: string, what: string): number {
+    if (text === '') fail(`missing ${what}`);
+    if (!isNumberText(text)) fail(`${what} "${text.length > 24 ? `${text.slice(0, 24)}…` : text}" is not a number`);
+    const x = Number(text);
+    if (!Number.isFinite(x)) fail(`${what} "${text}" is not a finite number`);
+    return x;
+  }
+
+  function handleLine(): void {
+    lineNo++;
+    let end = lineLen;
+    if (end > 0 && lineBuf[end - 1] === 0x0d) end--;
+    let start = 0;
+    if (lineNo === 1 && end >= 3 && lineBuf[0] === 0xef && lineBuf[1] === 0xbb && lineBuf[2] === 0xbf) start = 3;
+    const line = utf8(lineBuf, start, end);
+    lineLen = 0;
+    const trimmed = line.trim();
+    if (trimmed === '' || trimmed.startsWith('#')) return;
+    if (!sawContent) {
+      sawContent = true;
+      sep = line.includes(',') ? ',' : line.includes(';') ? ';' : line.includes('\t') ? '\t' : ',';
+      if (readHeaderOrFirst(line.split(sep))) return;
+    }
+    readRow(line);
+  }
+
+  function push(bytes: Uint8Array): Float32Array {
+    if (bytes.length > 0 && isFirstByte) {
+      isFirstByte = false;
+      if (looksBinary(bytes)) throw new InputError('bad-csv', 'line 1: binary data, not a CSV text file');
+    }
+    for (let i = 0; i < bytes.length; i++) {
+      const b = bytes[i];
+      if (b === 0x0a) {
+        handleLine();
+        continue;
+      }
+      if (lineLen === lineBuf.length) {
+        if (lineLen >= MAX_LINE_BYTES) throw new InputError('bad-csv', `line ${lineNo + 1}: longer than ${MAX_LINE_BYTES} bytes`);
+        const bigger = new Uint8Array(lineBuf.length * 2);
+        bigger.set(lineBuf);
+        lineBuf = bigger;
+      }
+      lineBuf[lineLen++] = b;
+    }
+    return drain();
+  }
+
+  function drain(): Float32Array {
+    const out = Float32Array.from(pending);
+    pending = [];
+    return out;
+  }
+
+  function end(): { samples: Float32Array; summary: CsvSummary } {
+    if (lineLen > 0) handleLine();
+    const samples = drain();
+    if (!sawContent) throw new InputError('empty-or-truncated', 'the file is empty (no data lines)');
+    if (rows === 0) throw new InputError('empty-or-truncated', 'the file holds a header but no data rows');
+    let sampleRateHz: number;
+    if (rateOpt !== null) sampleRateHz = rateOpt;
+    else {
+      if (rows < 2) throw new InputError('too-short', 'one data row: at least two are needed to know the sample rate');
+      sampleRateHz = (rows - 1) / (tPrev - t0);
+    }
+    if (checkContent) {
+      checkDuration(rows, sampleRateHz, 'the CSV file');
+      if (maxValue === minValue) throw new InputError('silent', `silent: every value is ${formatNum(minValue)}`);
+    }
+    const summary: CsvSummary = {
+      rows,
+      hasTimeColumn: timeCol >= 0,
+      timeColumnName: timeName,
+      valueColumnName: valueName,
+      sampleRateHz,
+      maxJitter,
+      durationS: rows / sampleRateHz,
+      minValue,
+      maxValue,
+    };
+    return { samples, summary };
+  }
+
+  return { push, end };
+}
+
+/** Decodes a whole CSV held in memory. Throws InputError. */
+export function decodeCsv(bytes: Uint8Array, options: CsvDecodeOptions = {}): { samples: Float32Array; summary: CsvSummary } {
+  const dec = createCsvDecoder(options);
+  const a = dec.push(bytes);
+  const { samples: b, summary } = dec.end();
+  const samples = new Float32Array(a.length + b.length);
+  samples.set(a);
+  samples.set(b, a.length);
+  return { samples, summary };
+}
+
+const NUMBER_RE = /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/;
+
+function isNumberText(s: string): boolean {
+  return NUMBER_RE.test(s);
+}
+
+/** Resolution of a printed decimal number: 10^−(digits after the point), scaled by an exponent. */
+function decimalQuantum(s: string): number {
+  const m = /^[+-]?\d*(?:\.(\d*))?(?:[eE]([+-]?\d+))?$/.exec(s);
+  if (!m) return 0;
+  const decimals = m[1] ? m[1].length : 0;
+  const exp = m[2] ? Number(m[2]) : 0;
+  return 10 ** (exp - decimals);
+}
+
+function formatNum(x: number): string {
+  return Number(x.toPrecision(6)).toString();
+}
+
+function looksBinary(b: Uint8Array): boolean {
+  const n = Math.min(b.length, 512);
+  for (let i = 0; i < n; i++) if (b[i] === 0) return true;
+  return false;
+}
+
+/** Minimal UTF-8 decoding of bytes[start, end) (lib ES2022 has no TextDecoder). */
+function utf8(b: Uint8Array, start: number, end: number): string {
+  let s = '';
+  let i = start;
+  while (i < end) {
+    const c = b[i];
+    if (c < 0x80) {
+      s += String.fromCharCode(c);
+      i++;
+    } else if (c >= 0xc0 && c < 0xe0 && i + 1 < end) {
+      s += String.fromCharCode(((c & 0x1f) << 6) | (b[i + 1] & 0x3f));
+      i += 2;
+    } else if (c >= 0xe0 && c < 0xf0 && i + 2 < end) {
+      s += String.fromCharCode(((c & 0x0f) << 12) | ((b[i + 1] & 0x3f) << 6) | (b[i + 2] & 0x3f));
+      i += 3;
+    } else if (c >= 0xf0 && i + 3 < end) {
+      s += String.fromCodePoint(((c & 0x07) << 18) | ((b[i + 1] & 0x3f) << 12) | ((b[i + 2] & 0x3f) << 6) | (b[i + 3] & 0x3f));
+      i += 4;
+    } else {
+      s += '\ufffd';
+      i++;
+    }
+  }
+  return s;
+}
