@@ -1,0 +1,548 @@
+/**
+ * Damping of a stable mode excited by its own noise (DESIGN.md stage 7, REFERENCES.md §7): the
+ * decay rate α of x'' + 2αx' + ω0²x = ξ from a quiet record, by two estimators with 95 % intervals.
+ *
+ * 1. Narrow band first. x (possibly 120 s at 8–48 kHz) is mixed down by centreHz and low-passed
+ *    and decimated in one pass by a Blackman-windowed-sinc FIR evaluated only at the output
+ *    instants (complex taps h[k]·e^{−iωk}), to a complex baseband z at about 8 × the search
+ *    half-width. The FIR is flat (ripple ~1e-4) over the search band and rejects everything that
+ *    would alias into it by about 74 dB (Blackman window; Harris 1978, Proc. IEEE 66(1)).
+ * 2. Lorentzian + floor by Whittle likelihood. Near the peak the spectrum of z is
+ *    S(f) = C/((f − f0)² + γ²) + B with γ = α/2π (half-power full width α/π). The periodogram
+ *    ordinates I_k at the Fourier frequencies of the whole record are nearly independent, each
+ *    S(f_k)·Exp(1) for complex data, so −ln L = Σ ln S_k + I_k/S_k (Whittle 1953, "Estimation
+ *    and information in stationary time series", Ark. Mat. 2). It is minimised by Fisher scoring
+ *    over (ln C, f0, ln γ, ln B) on the bins within the search band; the interval on α comes from
+ *    the inverse Fisher information of ln γ, normal quantile (asymptotic likelihood theory),
+ *    mapped through exp so it stays positive. REFERENCES.md §7 shows this fit nearly unbiased
+ *    with a spread close to √(α/T).
+ * 3. Autocorrelation envelope. For the band-passed analytic signal |R(τ)| ∝ e^{−α|τ|}; the slope
+ *    of ln|R(τ)| over a lag window (from about one band-pass response time, over 1.5 e-folds)
+ *    gives α; each lag is normalised by its number of products. Its interval is a delete-one-segment jackknife (Efron & Stein 1981, "The
+ *    jackknife estimate of variance", Ann. Stat. 9(3)): the lag products are sums over segments,
+ *    α is a smooth function of these sums, so dropping one segment at a time gives replicates
+ *    whose spread estimates the variance; Student-t with K − 1 degrees of freedom.
+ * 4. Combined. The Whittle estimate is asymptotically efficient (it reaches the information
+ *    bound). For an efficient unbiased estimator T1 and any other unbiased T2 of the same
+ *    quantity, cov(T1, T2) = var(T1), so the minimum-variance linear combination puts all the
+ *    weight on T1: averaging with the autocorrelation estimate (same data, strongly correlated)
+ *    cannot narrow the interval, and an inverse-variance average that assumed independence would
+ *    understate it. `combined` is therefore the Lorentzian estimate, or the autocorrelation one
+ *    when the Lorentzian fit fails.
+ */
+import { invertSmallMatrix, studentTQuantile, Z_975 } from './fit';
+import type { DecayEstimate } from './types';
+
+export interface NoiseDrivenDamping {
+  /** Frequency of the resonance peak, Hz. */
+  frequencyHz: number;
+  lorentzian: DecayEstimate;
+  autocorrelation: DecayEstimate;
+  combined: DecayEstimate;
+}
+
+/** Complex baseband after mixing and decimation. */
+export interface Baseband {
+  re: Float64Array;
+  im: Float64Array;
+  rateHz: number;
+  /** Time of the first output sample, s, relative to the start of x. */
+  startS: number;
+}
+
+/**
+ * Mixes x down by centreHz, low-passes and decimates to a complex baseband whose flat band covers
+ * ±halfWidthHz; output rate ≈ 8 × halfWidthHz. Blackman-windowed sinc FIR (Harris 1978), length
+ * chosen for a transition from halfWidthHz to (rate − halfWidthHz), unit gain at centreHz.
+ */
+export function mixDownDecimate(x: Float32Array, sampleRateHz: number, centreHz: number, halfWidthHz: number): Baseband {
+  const factor = Math.max(1, Math.floor(sampleRateHz / (8 * halfWidthHz)));
+  const rateHz = sampleRateHz / factor;
+  const transitionHz = rateHz - 2 * halfWidthHz;
+  let taps = Math.ceil((6.6 * sampleRateHz) / transitionHz);
+  if (taps % 2 === 0) taps++;
+  const half = (taps - 1) / 2;
+  const fc = rateHz / 2 / sampleRateHz;
+  const hr = new Float64Array(taps);
+  const hi = new Float64Array(taps);
+  const w = (2 * Math.PI * centreHz) / sampleRateHz;
+  let sum = 0;
+  const h = new Float64Array(taps);
+  for (let k = 0; k < taps; k++) {
+    const m = k - half;
+    const sinc = m === 0 ? 2 * fc : Math.sin(2 * Math.PI * fc * m) / (Math.PI * m);
+    const win = 0.42 - 0.5 * Math.cos((2 * Math.PI * k) / (taps - 1)) + 0.08 * Math.cos((4 * Math.PI * k) / (taps - 1));
+    h[k] = sinc * win;
+    sum += h[k];
+  }
+  for (let k = 0; k < taps; k++) {
+    hr[k] = (h[k] / sum) * Math.cos(w * k);
+    hi[k] = (-h[k] / sum) * Math.sin(w * k);
+  }
+  const count = x.length >= taps ? Math.floor((x.length - taps) / factor) + 1 : 0;
+  const re = new Float64Array(count);
+  const im = new Float64Array(count);
+  for (let j = 0; j < count; j++) {
+    const n0 = j * factor;
+    let ar = 0;
+    let ai = 0;
+    for (let k = 0; k < taps; k++) {
+      const v = x[n0 + k];
+      ar += hr[k] * v;
+      ai += hi[k] * v;
+    }
+    // Mixer phase at the first tap (float64: error ~ n0·w·1e-16 rad, negligible).
+    const ph = -w * n0;
+    const c = Math.cos(ph);
+    const s = Math.sin(ph);
+    re[j] = ar * c - ai * s;
+    im[j] = ar * s + ai * c;
+  }
+  return { re, im, rateHz, startS: half / sampleRateHz };
+}
+
+/** In-place iterative radix-2 complex FFT (Cooley & Tukey 1965); inverse when sign = +1 (unscaled). */
+export function fftInPlace(re: Float64Array, im: Float64Array, sign: -1 | 1): void {
+  const n = re.length;
+  for (let i = 1, j = 0; i < n; i++) {
+    let bit = n >> 1;
+    for (; j & bit; bit >>= 1) j ^= bit;
+    j ^= bit;
+    if (i < j) {
+      let t = re[i];
+      re[i] = re[j];
+      re[j] = t;
+      t = im[i];
+      im[i] = im[j];
+      im[j] = t;
+    }
+  }
+  for (let len = 2; len <= n; len <<= 1) {
+    const ang = (sign * 2 * Math.PI) / len;
+    const wr = Math.cos(ang);
+    const wi = Math.sin(ang);
+    const halfLen = len >> 1;
+    for (let i = 0; i < n; i += len) {
+      let cr = 1;
+      let ci = 0;
+      for (let k = 0; k < halfLen; k++) {
+        const a = i + k;
+        const b = a + halfLen;
+        const tr = re[b] * cr - im[b] * ci;
+        const ti = re[b] * ci + im[b] * cr;
+        re[b] = re[a] - tr;
+        im[b] = im[a] - ti;
+        re[a] += tr;
+        im[a] += ti;
+        // Recompute the twiddle directly every 64 steps to stop the recurrence drifting.
+        if ((k & 63) === 63) {
+          cr = Math.cos(ang * (k + 1));
+          ci = Math.sin(ang * (k + 1));
+        } else {
+          const nr = cr * wr - ci * wi;
+          ci = cr * wi + ci * wr;
+          cr = nr;
+        }
+      }
+    }
+  }
+}
+
+function nextPow2(n: number): number {
+  let m = 1;
+  while (m < n) m <<= 1;
+  return m;
+}
+
+/**
+ * DFT of any length N by Bluestein's chirp-z identity nk = (n² + k² − (k − n)²)/2 (Bluestein
+ * 1970, "A linear filtering approach to the computation of the discrete Fourier transform",
+ * IEEE Trans. Audio Electroacoust. 18(4)), through radix-2 FFTs; returns new arrays.
+ */
+export function dftAnyLength(re: Float64Array, im: Float64Array): { re: Float64Array; im: Float64Array } {
+  const n = re.length;
+  const m = nextPow2(2 * n - 1);
+  const cr = new Float64Array(n);
+  const ci = new Float64Array(n);
+  const twoN = 2 * n;
+  for (let k = 0; k < n; k++) {
+    // n² mod 2N in exact integer arithmetic keeps the chirp phase accurate for long records.
+    const r = (k * k) % twoN;
+    const ang = (Math.PI * r) / n;
+    cr[k] = Math.cos(ang);
+    ci[k] = -Math.sin(ang);
+  }
+  const ar = new Float64Array(m);
+  const ai = new Float64Array(m);
+  for (let k = 0; k < n; k++) {
+    ar[k] = re[k] * cr[k] - im[k] * ci[k];
+    ai[k] = re[k] * ci[k] + im[k] * cr[k];
+  }
+  const br = new Float64Array(m);
+  const bi = new Float64Array(m);
+  br[0] = cr[0];
+  bi[0] = -ci[0];
+  for (let k = 1; k < n; k++) {
+    br[k] = cr[k];
+    bi[k] = -ci[k];
+    br[m - k] = cr[k];
+    bi[m - k] = -ci[k];
+  }
+  fftInPlace(ar, ai, -1);
+  fftInPlace(br, bi, -1);
+  for (let k = 0; k < m; k++) {
+    const tr = ar[k] * br[k] - ai[k] * bi[k];
+    ai[k] = ar[k] * bi[k] + ai[k] * br[k];
+    ar[k] = tr;
+  }
+  fftInPlace(ar, ai, 1);
+  const outR = new Float64Array(n);
+  const outI = new Float64Array(n);
+  for (let k = 0; k < n; k++) {
+    const vr = ar[k] / m;
+    const vi = ai[k] / m;
+    outR[k] = vr * cr[k] - vi * ci[k];
+    outI[k] = vr * ci[k] + vi * cr[k];
+  }
+  return { re: outR, im: outI };
+}
+
+function invalid(reason: string): DecayEstimate {
+  return { isValid: false, decayRatePerS: Number.NaN, ci95PerS: [Number.NaN, Number.NaN], reason };
+}
+
+/** Result of the Whittle fit of a Lorentzian + floor. */
+export interface LorentzianFit {
+  estimate: DecayEstimate;
+  /** Peak position relative to the band centre, Hz. */
+  offsetHz: number;
+  /** Fitted floor and peak spectral density (same unit as the periodogram). */
+  floorDensity: number;
+  peakDensity: number;
+}
+
+/**
+ * Whittle (1953) likelihood fit of S(f) = C/((f − f0)² + γ²) + B to periodogram ordinates
+ * `periodogram` at frequencies `freqHz` (complex data: each ordinate ~ S·Exp(1)); α = 2πγ in 1/s
+ * with a 95 % interval from the inverse Fisher information (normal quantile, log scale).
+ */
+export function fitLorentzianWhittle(freqHz: Float64Array, periodogram: Float64Array): LorentzianFit {
+  const n = freqHz.length;
+  const fail = (reason: string): LorentzianFit => ({ estimate: invalid(reason), offsetHz: Number.NaN, floorDensity: Number.NaN, peakDensity: Number.NaN });
+  if (n < 16) return fail('too few spectral bins in the search band (record too short)');
+  const binHz = Math.abs(freqHz[1] - freqHz[0]);
+  // Smoothed periodogram for the starting values (running mean over ~0.5 Hz, at least 3 bins).
+  const half = Math.max(1, Math.round(0.25 / binHz));
+  const smooth = new Float64Array(n);
+  let kPeak = 0;
+  for (let k = 0; k < n; k++) {
+    let s = 0;
+    let c = 0;
+    for (let j = Math.max(0, k - half); j <= Math.min(n - 1, k + half); j++) {
+      s += periodogram[j];
+      c++;
+    }
+    smooth[k] = s / c;
+    if (smooth[k] > smooth[kPeak]) kPeak = k;
+  }
+  const sorted = Float64Array.from(periodogram).sort();
+  // The median of an Exp(1) variable is ln 2 times its mean.
+  const floor0 = Math.max(sorted[Math.floor(n / 2)] / Math.LN2, 1e-300);
+  const peak0 = smooth[kPeak];
+  const nll = (th: Float64Array): number => {
+    const c = Math.exp(th[0]);
+    const g2 = Math.exp(2 * th[2]);
+    const b = Math.exp(th[3]);
+    let v = 0;
+    for (let k = 0; k < n; k++) {
+      const df = freqHz[k] - th[1];
+      const s = c / (df * df + g2) + b;
+      v += Math.log(s) + periodogram[k] / s;
+    }
+    return v;
+  };
+  const fisher = new Float64Array(16);
+  const score = new Float64Array(4);
+  const dl = new Float64Array(4);
+  const scoreAndFisher = (th: Float64Array): void => {
+    const c = Math.exp(th[0]);
+    const g2 = Math.exp(2 * th[2]);
+    const b = Math.exp(th[3]);
+    fisher.fill(0);
+    score.fill(0);
+    for (let k = 0; k < n; k++) {
+      const df = freqHz[k] - th[1];
+      const den = df * df + g2;
+      const lor = c / den;
+      const s = lor + b;
+      dl[0] = lor / s;
+      dl[1] = (lor * 2 * df) / den / s;
+      dl[2] = (-lor * 2 * g2) / den / s;
+      dl[3] = b / s;
+      const u = periodogram[k] / s - 1;
+      for (let a = 0; a < 4; a++) {
+        score[a] += u * dl[a];
+        for (let e = 0; e < 4; e++) fisher[a * 4 + e] += dl[a] * dl[e];
+      }
+    }
+  };
+  let best: Float64Array | null = null;
+  let bestNll = Number.POSITIVE_INFINITY;
+  // Multi-start over the half-width; Fisher scoring with step halving from each.
+  for (const gammaHz of [0.05, 0.3, 1, 3, 8]) {
+    if (gammaHz < binHz / 4) continue;
+    const th = Float64Array.of(Math.log(Math.max(peak0 - floor0, peak0 * 0.5) * gammaHz * gammaHz), freqHz[kPeak], Math.log(gammaHz), Math.log(floor0));
+    let cur = nll(th);
+    for (let iter = 0; iter < 200; iter++) {
+      scoreAndFisher(th);
+      const inv = invertSmallMatrix(fisher, 4);
+      if (inv === null) break;
+      const step = new Float64Array(4);
+      for (let a = 0; a < 4; a++) for (let e = 0; e < 4; e++) step[a] += inv[a * 4 + e] * score[e];
+      let t = 1;
+      let isAccepted = false;
+      for (let h = 0; h < 30; h++) {
+        const trial = Float64Array.from(th);
+        for (let a = 0; a < 4; a++) trial[a] += t * step[a];
+        const v = nll(trial);
+        if (v <= cur) {
+          const gain = cur - v;
+          th.set(trial);
+          cur = v;
+          isAccepted = gain > 1e-10;
+          break;
+        }
+        t /= 2;
+      }
+      if (!isAccepted) break;
+    }
+    if (cur < bestNll && Number.isFinite(cur)) {
+      bestNll = cur;
+      best = th;
+    }
+  }
+  if (best === null) return fail("Lorentzian fit did not converge");
+  scoreAndFisher(best);
+  // A floor far below the Lorentzian tails carries less than one bin's worth of information
+  // (Σ (B/S)² < 1): it is not identified, so treat it as zero and invert the other three.
+  const isFloorIdentified = fisher[15] >= 1;
+  const cov = isFloorIdentified ? invertSmallMatrix(fisher, 4) : invertSmallMatrix(leadingBlock(fisher, 4, 3), 3);
+  const alpha = 2 * Math.PI * Math.exp(best[2]);
+  const f0 = best[1];
+  const span = Math.abs(freqHz[n - 1] - freqHz[0]);
+  const lo = Math.min(freqHz[0], freqHz[n - 1]);
+  const result = {
+    offsetHz: f0,
+    floorDensity: isFloorIdentified ? Math.exp(best[3]) : 0,
+    peakDensity: Math.exp(best[0] - 2 * best[2]) + Math.exp(best[3]),
+  };
+  const varLogGamma = cov === null ? Number.NaN : isFloorIdentified ? cov[10] : cov[8];
+  if (!(varLogGamma > 0)) return { ...result, estimate: invalid('Lorentzian fit information is singular') };
+  if (f0 < lo + 0.1 * span || f0 > lo + 0.9 * span) return { ...result, estimate: invalid('spectral peak at the edge of the search band') };
+  if (alpha / Math.PI > 0.5 * span) return { ...result, estimate: invalid('peak wider than the search band; widen searchHalfWidthHz') };
+  const sdLog = Math.sqrt(varLogGamma);
+  return {
+    ...result,
+    estimate: { isValid: true, decayRatePerS: alpha, ci95PerS: [alpha * Math.exp(-Z_975 * sdLog), alpha * Math.exp(Z_975 * sdLog)] },
+  };
+}
+
+/** The leading k×k block of a row-major size×size matrix. */
+function leadingBlock(m: Float64Array, size: number, k: number): Float64Array {
+  const out = new Float64Array(k * k);
+  for (let r = 0; r < k; r++) for (let c = 0; c < k; c++) out[r * k + c] = m[r * size + c];
+  return out;
+}
+
+/** Least-squares slope of ln|R| against lag over [from, to] (lag indices), from lagged-product sums. */
+function acfSlopePerLag(rr: Float64Array, ri: Float64Array, from: number, to: number): number {
+  let st = 0;
+  let sl = 0;
+  let stt = 0;
+  let stl = 0;
+  const m = to - from + 1;
+  for (let k = from; k <= to; k++) {
+    const l = 0.5 * Math.log(rr[k] * rr[k] + ri[k] * ri[k]);
+    st += k;
+    sl += l;
+    stt += k * k;
+    stl += k * l;
+  }
+  return (m * stl - st * sl) / (m * stt - st * st);
+}
+
+/**
+ * Decay rate from the autocorrelation envelope of the baseband z (complex, at rateHz):
+ * band-pass with a Hann-tapered mask of half-width 2·halfWidthHz around the peak offset, lag
+ * window from 0.4/halfWidthHz (where the mask's response has mostly died; checked unbiased on
+ * simulation in tests/dsp/damping.test.ts) over 1.5 e-folds of |R|, slope of
+ * ln|R|; 95 % interval by delete-one-segment jackknife, Student-t with K − 1 degrees of freedom.
+ */
+export function decayFromAutocorrelation(z: Baseband, offsetHz: number, halfWidthHz: number): DecayEstimate {
+  const n = z.re.length;
+  const fs = z.rateHz;
+  const m = nextPow2(2 * n);
+  const ar = new Float64Array(m);
+  const ai = new Float64Array(m);
+  ar.set(z.re);
+  ai.set(z.im);
+  fftInPlace(ar, ai, -1);
+  const maskHalfHz = 2 * halfWidthHz;
+  for (let k = 0; k < m; k++) {
+    const f = (k < m / 2 ? k : k - m) * (fs / m);
+    const d = Math.abs(f - offsetHz);
+    const g = d < maskHalfHz ? 0.5 + 0.5 * Math.cos((Math.PI * d) / maskHalfHz) : 0;
+    ar[k] *= g;
+    ai[k] *= g;
+  }
+  fftInPlace(ar, ai, 1);
+  // Band-passed signal (the padding half carries filter tails only; keep the record span).
+  const br = new Float64Array(n);
+  const bi = new Float64Array(n);
+  for (let k = 0; k < n; k++) {
+    br[k] = ar[k] / m;
+    bi[k] = ai[k] / m;
+  }
+  // Whole-record autocorrelation by FFT, to choose the lag window.
+  ar.fill(0);
+  ai.fill(0);
+  ar.set(br);
+  ai.set(bi);
+  fftInPlace(ar, ai, -1);
+  for (let k = 0; k < m; k++) {
+    ar[k] = ar[k] * ar[k] + ai[k] * ai[k];
+    ai[k] = 0;
+  }
+  fftInPlace(ar, ai, 1);
+  const lagMin = Math.max(2, Math.ceil(fs / (2.5 * halfWidthHz)));
+  const maxLag = Math.floor(n / 4);
+  if (lagMin + 4 >= maxLag) return invalid('record too short for the autocorrelation estimate');
+  const magAt = (k: number): number => Math.hypot(ar[k], ai[k]);
+  // The window ends 1.5 e-folds past lagMin, placed from the first e^-1 crossing (ending it at a
+  // crossing itself would favour windows where noise happens to dip, biasing α upwards).
+  const target = magAt(lagMin) * Math.exp(-1);
+  let lagE1 = -1;
+  for (let k = lagMin + 1; k <= maxLag; k++) {
+    if (magAt(k) < target) {
+      lagE1 = k;
+      break;
+    }
+  }
+  const lagMax = lagE1 < 0 ? -1 : lagMin + Math.round(1.5 * (lagE1 - lagMin));
+  if (lagMax < 0 || lagMax > maxLag) return invalid('autocorrelation does not decay within a quarter of the record');
+  if (lagMax - lagMin < 4) return invalid('decay too fast for the search band; widen searchHalfWidthHz');
+  // Lagged products per segment, for the jackknife.
+  const segments = Math.min(20, Math.floor(n / (5 * lagMax)));
+  if (segments < 5) return invalid('record too short for an autocorrelation interval (needs 25 × the lag window)');
+  const lags = lagMax + 1;
+  const segR = new Float64Array(segments * lags);
+  const segI = new Float64Array(segments * lags);
+  // Number of products per lag: sums are divided by it (each segment loses k pairs at lag k,
+  // which would otherwise tilt ln|R| by about −K/T per second and bias α upwards).
+  const segN = new Float64Array(segments * lags);
+  const segLen = Math.floor(n / segments);
+  for (let s = 0; s < segments; s++) {
+    const a = s * segLen;
+    const b = s === segments - 1 ? n : a + segLen;
+    for (let k = 0; k < lags; k++) {
+      let sr = 0;
+      let si = 0;
+      for (let i = a; i + k < b; i++) {
+        // z[i + k] · conj(z[i])
+        sr += br[i + k] * br[i] + bi[i + k] * bi[i];
+        si += bi[i + k] * br[i] - br[i + k] * bi[i];
+      }
+      segR[s * lags + k] = sr;
+      segI[s * lags + k] = si;
+      segN[s * lags + k] = Math.max(0, b - a - k);
+    }
+  }
+  const totR = new Float64Array(lags);
+  const totI = new Float64Array(lags);
+  const totN = new Float64Array(lags);
+  for (let s = 0; s < segments; s++) {
+    for (let k = 0; k < lags; k++) {
+      totR[k] += segR[s * lags + k];
+      totI[k] += segI[s * lags + k];
+      totN[k] += segN[s * lags + k];
+    }
+  }
+  const meanR = new Float64Array(lags);
+  const meanI = new Float64Array(lags);
+  for (let k = 0; k < lags; k++) {
+    meanR[k] = totR[k] / totN[k];
+    meanI[k] = totI[k] / totN[k];
+  }
+  const alpha = -acfSlopePerLag(meanR, meanI, lagMin, lagMax) * fs;
+  const repR = new Float64Array(lags);
+  const repI = new Float64Array(lags);
+  const reps = new Float64Array(segments);
+  let mean = 0;
+  for (let s = 0; s < segments; s++) {
+    for (let k = 0; k < lags; k++) {
+      const count = totN[k] - segN[s * lags + k];
+      repR[k] = (totR[k] - segR[s * lags + k]) / count;
+      repI[k] = (totI[k] - segI[s * lags + k]) / count;
+    }
+    reps[s] = -acfSlopePerLag(repR, repI, lagMin, lagMax) * fs;
+    mean += reps[s] / segments;
+  }
+  let ss = 0;
+  for (let s = 0; s < segments; s++) ss += (reps[s] - mean) ** 2;
+  const sd = Math.sqrt(((segments - 1) / segments) * ss);
+  if (!(alpha > 0) || !Number.isFinite(sd)) return invalid('autocorrelation envelope does not decay');
+  const q = studentTQuantile(0.975, segments - 1);
+  return { isValid: true, decayRatePerS: alpha, ci95PerS: [alpha - q * sd, alpha + q * sd] };
+}
+
+/**
+ * Decay rate α (1/s, positive) of a stable resonance near centreHz excited by broadband noise,
+ * from a quiet record x at sampleRateHz: Whittle Lorentzian fit to the periodogram and the
+ * autocorrelation envelope, each with a 95 % interval, and their combination (the Lorentzian
+ * estimate; see the header for why). `searchHalfWidthHz` (default 20 Hz) bounds the band
+ * around centreHz that holds the peak; it must exceed a few half-power widths α/π.
+ */
+export function estimateNoiseDrivenDamping(
+  x: Float32Array,
+  sampleRateHz: number,
+  opts: { centreHz: number; searchHalfWidthHz?: number },
+): NoiseDrivenDamping {
+  const halfWidthHz = opts.searchHalfWidthHz ?? 20;
+  const failAll = (reason: string): NoiseDrivenDamping => ({
+    frequencyHz: Number.NaN,
+    lorentzian: invalid(reason),
+    autocorrelation: invalid(reason),
+    combined: invalid(reason),
+  });
+  if (!(sampleRateHz > 0)) return failAll('sample rate must be positive');
+  if (!(halfWidthHz > 0)) return failAll('searchHalfWidthHz must be positive');
+  if (!(opts.centreHz - halfWidthHz > 0) || !(opts.centreHz + halfWidthHz < sampleRateHz / 2)) {
+    return failAll('search band must lie between 0 Hz and half the sample rate');
+  }
+  const z = mixDownDecimate(x, sampleRateHz, opts.centreHz, halfWidthHz);
+  const n = z.re.length;
+  if (n < 64) return failAll('record too short');
+  const spec = dftAnyLength(z.re, z.im);
+  const binHz = z.rateHz / n;
+  const kMax = Math.floor(halfWidthHz / binHz);
+  const count = 2 * kMax + 1;
+  const freqHz = new Float64Array(count);
+  const periodogram = new Float64Array(count);
+  const norm = 1 / (n * z.rateHz);
+  for (let j = 0; j < count; j++) {
+    const k = j - kMax;
+    const idx = k < 0 ? k + n : k;
+    freqHz[j] = k * binHz;
+    periodogram[j] = (spec.re[idx] * spec.re[idx] + spec.im[idx] * spec.im[idx]) * norm;
+  }
+  const lor = fitLorentzianWhittle(freqHz, periodogram);
+  let offsetHz = lor.offsetHz;
+  if (!Number.isFinite(offsetHz)) {
+    let kPeak = 0;
+    for (let j = 1; j < count; j++) if (periodogram[j] > periodogram[kPeak]) kPeak = j;
+    offsetHz = freqHz[kPeak];
+  }
+  const acf = decayFromAutocorrelation(z, offsetHz, halfWidthHz);
+  const combined = lor.estimate.isValid ? lor.estimate : acf;
+  return { frequencyHz: opts.centreHz + offsetHz, lorentzian: lor.estimate, autocorrelation: acf, combined };
+}
