@@ -351,3 +351,115 @@ export function simulateRig(spec: SimulationSpec): SimulationResult {
   }
   return { pressure, heaterVelocity };
 }
+
+/** A recording made from the simulator: options beyond the simulation itself. */
+export interface ScenarioSpec {
+  params: RigParams;
+  schedule: PowerStep[];
+  /** Simulated time, s (exact zeros follow for silenceS). */
+  durationS: number;
+  sampleRateHz: number;
+  /** Largest absolute sample of the simulated part, full scale = 1 (default 0.5). */
+  peakLevel?: number;
+  /** White measurement noise, dBFS (RMS re a full-scale sine, whose RMS is 1/√2); -Infinity for none. Default −60. */
+  noiseDbfs?: number;
+  /** Exact digital silence appended at the end, s (default 0.5; a WAV used as a fake microphone needs ≥ 0.25 s). */
+  silenceS?: number;
+  micPositionM?: number;
+  excitationRms?: number;
+  seed?: number;
+}
+
+/** What the recording holds, from the characteristic equation: one entry per schedule step. */
+export interface ScenarioTruth {
+  model: string;
+  sampleRateHz: number;
+  durationS: number;
+  silenceFromS: number;
+  speedOfSoundMPerS: number;
+  timeScaleS: number;
+  heatLagS: number;
+  /** Heater power at which the fundamental turns unstable; null if it stays stable up to K = 10. */
+  criticalHeaterPower: number | null;
+  noiseDbfs: number;
+  seed: number;
+  params: RigParams;
+  steps: {
+    atS: number;
+    heaterPower: number;
+    /** Fundamental's linear rate, 1/s (> 0 grows) and frequency, Hz. */
+    growthRatePerS: number;
+    frequencyHz: number;
+    /** Positive decay rate, 1/s, when the step lowers the power and the fundamental is then stable. */
+    decayRatePerS: number | null;
+    isUnstable: boolean;
+    modes: LinearMode[];
+  }[];
+}
+
+/**
+ * Renders a heater-power scenario as audio (scaled to peakLevel, with white measurement noise and
+ * trailing exact zeros) together with its truth from the characteristic equation.
+ */
+export function renderScenario(spec: ScenarioSpec): { samples: Float32Array; truth: ScenarioTruth } {
+  const rig = createRig(spec.params);
+  const peakLevel = spec.peakLevel ?? 0.5;
+  if (!Number.isFinite(peakLevel) || peakLevel <= 0 || peakLevel > 1) throw new RangeError(`peakLevel must lie in (0, 1], got ${peakLevel}`);
+  const noiseDbfs = spec.noiseDbfs ?? -60;
+  if (Number.isNaN(noiseDbfs) || noiseDbfs > 0) throw new RangeError(`noiseDbfs must be ≤ 0 dBFS, got ${noiseDbfs}`);
+  const silenceS = spec.silenceS ?? 0.5;
+  if (!Number.isFinite(silenceS) || silenceS < 0) throw new RangeError(`silenceS must be ≥ 0 s, got ${silenceS}`);
+  const seed = spec.seed ?? 1;
+  const sim = simulateRig({
+    rig,
+    schedule: spec.schedule,
+    durationS: spec.durationS,
+    sampleRateHz: spec.sampleRateHz,
+    micPositionM: spec.micPositionM,
+    excitationRms: spec.excitationRms,
+    seed,
+  });
+  let peak = 0;
+  for (let i = 0; i < sim.pressure.length; i++) peak = Math.max(peak, Math.abs(sim.pressure[i]));
+  const gain = peak > 0 ? peakLevel / peak : 0;
+  const nSim = sim.pressure.length;
+  const samples = new Float32Array(nSim + Math.round(silenceS * spec.sampleRateHz));
+  const noiseRms = Number.isFinite(noiseDbfs) ? 10 ** (noiseDbfs / 20) / Math.SQRT2 : 0;
+  const rng = createRng(seed + 7919);
+  for (let i = 0; i < nSim; i++) samples[i] = gain * sim.pressure[i] + (noiseRms > 0 ? noiseRms * rng.normal() : 0);
+  const kc = criticalHeaterPower(rig);
+  const sorted = [...spec.schedule].sort((a, b) => a.atS - b.atS);
+  let previous = 0;
+  const steps = sorted.map((st) => {
+    const modes = linearModes(rig, st.heaterPower, 3);
+    const m1 = modes[0];
+    const isDrop = st.heaterPower < previous;
+    previous = st.heaterPower;
+    return {
+      atS: st.atS,
+      heaterPower: st.heaterPower,
+      growthRatePerS: m1.growthRatePerS,
+      frequencyHz: m1.frequencyHz,
+      decayRatePerS: isDrop && m1.growthRatePerS < 0 ? -m1.growthRatePerS : null,
+      isUnstable: m1.growthRatePerS > 0,
+      modes,
+    };
+  });
+  return {
+    samples,
+    truth: {
+      model: 'Galerkin heated-tube model with time-lagged modified King\'s law (Balasubramanian & Sujith 2008, from memory)',
+      sampleRateHz: spec.sampleRateHz,
+      durationS: samples.length / spec.sampleRateHz,
+      silenceFromS: nSim / spec.sampleRateHz,
+      speedOfSoundMPerS: rig.cMPerS,
+      timeScaleS: rig.timeScaleS,
+      heatLagS: rig.tau * rig.timeScaleS,
+      criticalHeaterPower: Number.isFinite(kc) ? kc : null,
+      noiseDbfs,
+      seed,
+      params: spec.params,
+      steps,
+    },
+  };
+}

@@ -1,0 +1,253 @@
+/**
+ * `humgauge modes`: plane-wave modes of a duct from its length, diameter, ends and gas temperature
+ * (uniform, with a heater splitting it into a cold and a hot zone, or a measured temperature
+ * profile), the Rayleigh reading of the heater for each mode, and, given a measured tone, the
+ * matching mode and the mean gas temperature it implies. Also holds the small argument helpers
+ * that `humgauge simulate` shares.
+ */
+import { readFile } from 'node:fs/promises';
+import {
+  AIR,
+  ductModelFromGeometry,
+  gasFromMolarMass,
+  matchMeasuredFrequency,
+  predictModes,
+  rayleighReading,
+  speedOfSoundMPerS,
+  zonesFromProfile,
+  type DuctModel,
+  type GasProperties,
+  type MeanFlow,
+  type ProfilePoint,
+} from '../duct';
+import type { DuctGeometry } from '../types';
+import { num } from './format';
+import { CliError, EXIT, type CliIo } from './io';
+
+export const MODES_HELP = `Usage: humgauge modes --length M --diameter M [options]
+
+Predicts the plane-wave modes of a straight duct, with end corrections and the
+gas temperature; with a heater, the duct is split into a cold zone below it and
+a hot zone above it and solved by transfer matrices.
+
+Options
+  --length M            duct length, m (required)
+  --diameter M          inner diameter, m (required)
+  --ends KIND           open-open (default), open-closed, closed-closed
+  --closed-end WHICH    for open-closed: upstream (default; closed at the bottom) or downstream
+  --open-end KIND       end correction of open ends: unflanged (default, 0.6133 a),
+                        flanged (0.8216 a) or none
+  --temp C              gas temperature, °C (default 20); below the heater with --heater
+  --heater M            heater position from the upstream (lower) end, m
+  --hot-temp C          gas temperature above the heater, °C (with --heater)
+  --flow DIR            mean flow through the heater: upward (default), downward, none
+  --profile FILE        temperature profile, CSV "x_m,temp_c" (linear between points)
+  --gamma G             ratio of specific heats (default 1.4, air)
+  --molar-mass G_MOL    molar mass, g/mol (default: air, R = 287.05 J/(kg K))
+  --count N             number of modes (default 5, at most 200)
+  --measured HZ         a measured tone: matching mode and inferred mean gas temperature
+  --measured-std HZ     standard uncertainty of the measured frequency (default 0.5 Hz)
+  --length-std M        standard uncertainty of the length (default 0.005 m)
+  --json                print JSON: { "modes": [{ "n", "frequencyHz", ... }], ... }
+  -h, --help            this text
+
+Example
+  humgauge modes --length 1.2 --diameter 0.048 --temp 20
+  humgauge modes --length 1 --diameter 0.04 --heater 0.25 --hot-temp 200 --open-end none
+  humgauge modes --length 1.2 --diameter 0.048 --measured 171 --json
+`;
+
+/** Splits `--name value` / `--name=value` / `--flag` arguments; names in `flags` take no value. */
+export function parseOptions(args: string[], known: string[], flags: string[]): Map<string, string> {
+  const out = new Map<string, string>();
+  for (let i = 0; i < args.length; i++) {
+    const a = args[i];
+    if (a === '-h' || a === '--help') {
+      out.set('help', '');
+      continue;
+    }
+    if (!a.startsWith('--')) throw new CliError(`unexpected argument "${a}" (see --help)`, EXIT.USAGE);
+    const eq = a.indexOf('=');
+    const name = eq > 0 ? a.slice(2, eq) : a.slice(2);
+    if (!known.includes(name) && !flags.includes(name)) throw new CliError(`unknown option --${name} (see --help)`, EXIT.USAGE);
+    if (flags.includes(name)) {
+      out.set(name, '');
+      continue;
+    }
+    const value = eq > 0 ? a.slice(eq + 1) : args[++i];
+    if (value === undefined || value === '') throw new CliError(`--${name} needs a value`, EXIT.USAGE);
+    if (out.has(name)) throw new CliError(`--${name} given twice`, EXIT.USAGE);
+    out.set(name, value);
+  }
+  return out;
+}
+
+/** A finite number from option `name`, or undefined when absent; BAD_PARAMETER if it is not a number. */
+export function numberOption(opts: Map<string, string>, name: string, unit: string): number | undefined {
+  const raw = opts.get(name);
+  if (raw === undefined) return undefined;
+  const v = Number(raw);
+  if (raw.trim() === '' || !Number.isFinite(v)) throw new CliError(`--${name} must be a number${unit ? ` of ${unit}` : ''}, got "${raw}"`, EXIT.BAD_PARAMETER);
+  return v;
+}
+
+/** One of the allowed words for option `name` (USAGE otherwise). */
+export function choiceOption<T extends string>(opts: Map<string, string>, name: string, allowed: readonly T[], fallback: T): T {
+  const raw = opts.get(name);
+  if (raw === undefined) return fallback;
+  if (!(allowed as readonly string[]).includes(raw)) throw new CliError(`--${name} must be one of ${allowed.join(', ')}, got "${raw}"`, EXIT.USAGE);
+  return raw as T;
+}
+
+/** One line on stderr and the exit code: model RangeErrors become BAD_PARAMETER, root-finder failures NO_CONVERGENCE. */
+export function failWith(e: unknown, io: CliIo, command: string): number {
+  if (e instanceof RangeError) {
+    io.err(`humgauge ${command}: ${e.message}\n`);
+    return /root finder|converge/.test(e.message) ? EXIT.NO_CONVERGENCE : EXIT.BAD_PARAMETER;
+  }
+  if (e instanceof CliError) {
+    io.err(`humgauge ${command}: ${e.message}\n`);
+    return e.exitCode;
+  }
+  const msg = e instanceof Error ? e.message : String(e);
+  io.err(`humgauge ${command}: internal error: ${msg.split('\n')[0]}\n`);
+  return EXIT.INTERNAL;
+}
+
+/** Parses a profile CSV "x_m,temp_c" (optional header line, '#' comments); BAD_CSV with the line number on error. */
+export function parseProfileCsv(text: string): ProfilePoint[] {
+  const points: ProfilePoint[] = [];
+  const lines = text.split(/\r?\n/);
+  for (let i = 0; i < lines.length; i++) {
+    const line = lines[i].trim();
+    if (line === '' || line.startsWith('#')) continue;
+    const cells = line.split(/[,;\t]/).map((c) => c.trim());
+    if (cells.length < 2) throw new CliError(`profile line ${i + 1}: expected "x_m,temp_c", got "${line}"`, EXIT.BAD_CSV);
+    const x = Number(cells[0]);
+    const t = Number(cells[1]);
+    if (!Number.isFinite(x) || !Number.isFinite(t) || cells[0] === '' || cells[1] === '') {
+      if (points.length === 0 && Number.isNaN(x)) continue; // header line
+      throw new CliError(`profile line ${i + 1}: "${line}" is not two numbers`, EXIT.BAD_CSV);
+    }
+    points.push({ xM: x, temperatureC: t });
+  }
+  if (points.length === 0) throw new CliError('profile: no data rows (expected lines "x_m,temp_c")', EXIT.BAD_CSV);
+  return points;
+}
+
+const KNOWN = ['length', 'diameter', 'ends', 'closed-end', 'open-end', 'temp', 'heater', 'hot-temp', 'flow', 'profile', 'gamma', 'molar-mass', 'count', 'measured', 'measured-std', 'length-std'];
+
+/** Runs `humgauge modes`; returns the exit code. */
+export async function runModes(args: string[], io: CliIo): Promise<number> {
+  try {
+    const o = parseOptions(args, KNOWN, ['json']);
+    if (o.has('help')) {
+      io.out(MODES_HELP);
+      return EXIT.OK;
+    }
+    const lengthM = numberOption(o, 'length', 'm');
+    const diameterM = numberOption(o, 'diameter', 'm');
+    if (lengthM === undefined) throw new CliError('--length is required (duct length in m)', EXIT.USAGE);
+    if (diameterM === undefined) throw new CliError('--diameter is required (inner diameter in m)', EXIT.USAGE);
+    const ends = choiceOption(o, 'ends', ['open-open', 'open-closed', 'closed-closed'] as const, 'open-open');
+    const closedEnd = choiceOption(o, 'closed-end', ['upstream', 'downstream'] as const, 'upstream');
+    const openEnd = choiceOption(o, 'open-end', ['unflanged', 'flanged', 'none'] as const, 'unflanged');
+    const flow = choiceOption(o, 'flow', ['upward', 'downward', 'none'] as const, 'upward') as MeanFlow;
+    const gasTemperatureC = numberOption(o, 'temp', '°C') ?? 20;
+    const heaterPositionM = numberOption(o, 'heater', 'm');
+    const hotTemperatureC = numberOption(o, 'hot-temp', '°C');
+    const count = numberOption(o, 'count', '') ?? 5;
+    if (!Number.isInteger(count) || count < 1 || count > 200) throw new CliError(`--count must be a whole number from 1 to 200, got ${count}`, EXIT.BAD_PARAMETER);
+    const gamma = numberOption(o, 'gamma', '');
+    const molarMassG = numberOption(o, 'molar-mass', 'g/mol');
+    let gas: GasProperties = AIR;
+    if (gamma !== undefined || molarMassG !== undefined) {
+      gas = gasFromMolarMass(gamma ?? AIR.gamma, molarMassG !== undefined ? molarMassG / 1000 : 8.314462618 / AIR.specificGasConstantJPerKgK);
+    }
+    if (o.has('profile') && (heaterPositionM !== undefined || hotTemperatureC !== undefined)) {
+      throw new CliError('--profile and --heater/--hot-temp exclude each other', EXIT.USAGE);
+    }
+    const geom: DuctGeometry = { lengthM, diameterM, ends, openEnd, gasTemperatureC, heaterPositionM, hotTemperatureC };
+    if (heaterPositionM === undefined) delete geom.heaterPositionM;
+    if (hotTemperatureC === undefined) delete geom.hotTemperatureC;
+    let model: DuctModel = { ...ductModelFromGeometry(geom, gas), closedEnd };
+    const profilePath = o.get('profile');
+    if (profilePath !== undefined) {
+      let text: string;
+      try {
+        text = await readFile(profilePath, 'utf8');
+      } catch (e) {
+        throw new CliError(`${profilePath}: cannot be read (${(e as { code?: string }).code ?? 'error'})`, EXIT.UNREADABLE);
+      }
+      model = { ...model, zones: zonesFromProfile(parseProfileCsv(text), lengthM) };
+    }
+    const pred = predictModes(model, count);
+    const heaterX = heaterPositionM;
+    const rayleigh = heaterX === undefined ? null : pred.modes.map((m) => rayleighReading(model, m.frequencyHz, heaterX, flow));
+    const measuredHz = numberOption(o, 'measured', 'Hz');
+    const match =
+      measuredHz === undefined
+        ? null
+        : matchMeasuredFrequency(model, measuredHz, { frequencyStdHz: numberOption(o, 'measured-std', 'Hz') ?? 0.5, lengthStdM: numberOption(o, 'length-std', 'm') ?? 0.005 }, Math.max(count, 12));
+    const cEnds = model.zones.map((z) => speedOfSoundMPerS(z.temperatureC, gas));
+    const warnings = [...pred.warnings, ...(match ? match.warnings.filter((w) => !pred.warnings.includes(w)) : [])];
+    if (o.has('json')) {
+      const json = {
+        modes: pred.modes.map((m, i) => ({
+          n: m.n,
+          frequencyHz: m.frequencyHz,
+          isAboveCutOn: m.isAboveCutOn,
+          ...(rayleigh ? { rayleighIndex: rayleigh[i].index, rayleighReading: rayleigh[i].reading } : {}),
+        })),
+        method: pred.method,
+        effectiveLengthM: pred.effectiveLengthM,
+        speedOfSoundMPerS: cEnds.length === 1 ? cEnds[0] : null,
+        speedOfSoundRangeMPerS: [Math.min(...cEnds), Math.max(...cEnds)],
+        cutOnHz: pred.cutOnHz,
+        ...(match
+          ? {
+              measured: {
+                frequencyHz: measuredHz,
+                n: match.n,
+                predictedHz: match.predictedHz,
+                relativeDeviation: match.relativeDeviation,
+                temperatureC: match.temperatureC,
+                temperatureStdK: match.temperatureStdK,
+                temperatureCi95C: match.temperatureCi95C,
+              },
+            }
+          : {}),
+        warnings,
+      };
+      io.out(JSON.stringify(json, null, 2) + '\n');
+      return EXIT.OK;
+    }
+    const lines: string[] = [];
+    const cText = cEnds.length === 1 ? `${num(cEnds[0], 5)} m/s` : `${num(Math.min(...cEnds), 5)} to ${num(Math.max(...cEnds), 5)} m/s`;
+    lines.push(`Duct ${num(lengthM, 4)} m long, ${num(diameterM * 1000, 4)} mm inner diameter, ${ends}${ends === 'open-closed' ? ` (closed ${closedEnd})` : ''}, open ends ${openEnd}`);
+    lines.push(`Speed of sound ${cText}; effective length ${num(pred.effectiveLengthM, 5)} m; cross-mode cut-on ${num(pred.cutOnHz, 4)} Hz`);
+    lines.push(`Solved by ${pred.method === 'closed-form' ? 'the closed form f = κ c / L_eff' : 'transfer matrices and Brent root finding'}`);
+    lines.push('');
+    const header = ['n', 'frequency (Hz)', ...(rayleigh ? [`heater (${flow} flow)`] : []), 'note'];
+    const rows = pred.modes.map((m, i) => [
+      String(m.n),
+      m.frequencyHz.toFixed(3),
+      ...(rayleigh ? [`${rayleigh[i].reading} (${rayleigh[i].index >= 0 ? '+' : ''}${rayleigh[i].index.toFixed(3)})`] : []),
+      m.isAboveCutOn ? 'above cut-on' : '',
+    ]);
+    const widths = header.map((h, c) => Math.max(h.length, ...rows.map((r) => r[c].length)));
+    const fmt = (cells: string[]): string => cells.map((c, k) => (k <= 1 ? c.padStart(widths[k]) : c.padEnd(widths[k]))).join('  ').trimEnd();
+    lines.push(fmt(header), widths.map((w) => '-'.repeat(w)).join('  '), ...rows.map(fmt));
+    if (match) {
+      const [lo, hi] = match.temperatureCi95C;
+      lines.push('');
+      lines.push(`Measured ${num(measuredHz, 5)} Hz: mode ${match.n} (predicted ${match.predictedHz.toFixed(3)} Hz, ${(match.relativeDeviation * 100).toFixed(2)} %)`);
+      lines.push(`Mean gas temperature for an exact match: ${match.temperatureC.toFixed(1)} °C ± ${(1.96 * match.temperatureStdK).toFixed(1)} K (95 % ${lo.toFixed(1)} to ${hi.toFixed(1)} °C)`);
+    }
+    for (const w of warnings) lines.push(`warning: ${w}`);
+    io.out(lines.join('\n') + '\n');
+    return EXIT.OK;
+  } catch (e) {
+    return failWith(e, io, 'modes');
+  }
+}
