@@ -1,0 +1,143 @@
+/**
+ * Exports: a bundle (zip) of one or more sessions, each as session JSON, track CSV, audio WAV and
+ * a printable HTML report; or the track CSV or the WAV alone. Shared through the Web Share API
+ * where the device can share files, else downloaded.
+ */
+import { strToU8, zipSync, type Zippable } from 'fflate';
+import type { TrackFrame } from '../../dsp/types';
+import { encodeWav } from '../../dsp/io/wav-write';
+import { BUNDLE_FORMAT, BUNDLE_SCHEMA_VERSION, SESSION_FORMAT, encodeNumber } from './bundle-schema';
+import type { SessionRecord } from './db';
+import { buildReportHtml } from './report-html';
+import type { FullSession } from './sessions';
+
+/** JSON text in which NaN and ±∞ travel as "NaN", "Infinity", "-Infinity" (see bundle-schema.ts). */
+export function toJsonText(value: unknown): string {
+  return JSON.stringify(value, (_k, x: unknown) => (typeof x === 'number' && !Number.isFinite(x) ? encodeNumber(x) : x), 2);
+}
+
+/** The session.json object of a bundle (storage details such as chunk counts left out). */
+export function toSessionFile(full: FullSession, exportedAtMs: number): object {
+  const r = full.record;
+  const t = full.track;
+  return {
+    format: SESSION_FORMAT,
+    schemaVersion: BUNDLE_SCHEMA_VERSION,
+    exportedAtMs: Math.round(exportedAtMs),
+    session: {
+      id: r.id,
+      createdAtMs: r.createdAtMs,
+      updatedAtMs: r.updatedAtMs,
+      // A session still being written is exported as what it is on disk: interrupted.
+      status: r.status === 'recording' ? 'interrupted' : r.status,
+      meta: r.meta,
+      markers: r.markers,
+      gaps: r.gaps,
+      report: r.report,
+      durationS: r.durationS,
+      audio: { isKept: r.audio.isKept, sampleCount: full.audio?.length ?? 0, ...(r.audio.stoppedReason ? { stoppedReason: r.audio.stoppedReason } : {}) },
+      history: r.history,
+    },
+    track: {
+      timeS: t.map((f) => f.timeS),
+      frequencyHz: t.map((f) => f.frequencyHz),
+      amplitudeDbfs: t.map((f) => f.amplitudeDbfs),
+      levelDbfs: t.map((f) => f.levelDbfs),
+      state: t.map((f) => f.state),
+      isClipped: t.map((f) => f.isClipped),
+      isAfterGap: t.map((f) => f.isAfterGap),
+    },
+  };
+}
+
+/** A number for CSV: shortest text that reads back to the same double; empty for NaN. */
+function csvNumber(x: number): string {
+  if (Number.isNaN(x)) return '';
+  return String(x);
+}
+
+/**
+ * The track as CSV (RFC 4180: comma separated, CRLF line ends, one header line). Empty field =
+ * no value (no tone). With a calibration, an amplitude column in dB SPL is added.
+ */
+export function trackCsv(track: readonly TrackFrame[], calibrationOffsetDb?: number): string {
+  const hasSpl = typeof calibrationOffsetDb === 'number' && Number.isFinite(calibrationOffsetDb);
+  const header = ['time_s', 'frequency_hz', 'amplitude_dbfs', ...(hasSpl ? ['amplitude_db_spl'] : []), 'level_dbfs', 'state', 'is_clipped', 'is_after_gap'];
+  const lines = [header.join(',')];
+  for (const f of track) {
+    const cells = [csvNumber(f.timeS), csvNumber(f.frequencyHz), csvNumber(f.amplitudeDbfs)];
+    if (hasSpl) cells.push(csvNumber(f.amplitudeDbfs + (calibrationOffsetDb as number)));
+    cells.push(csvNumber(f.levelDbfs), f.state, f.isClipped ? '1' : '0', f.isAfterGap ? '1' : '0');
+    lines.push(cells.join(','));
+  }
+  return lines.join('\r\n') + '\r\n';
+}
+
+/** A file-name-safe short form of user text. */
+function slug(text: string): string {
+  return text.normalize('NFKD').replace(/[^A-Za-z0-9]+/g, '-').replace(/^-+|-+$/g, '').slice(0, 40).toLowerCase();
+}
+
+/** Base file name of a session: humgauge-<date>-<site>-<id prefix>. */
+export function sessionBaseName(r: SessionRecord): string {
+  const date = new Date(r.createdAtMs).toISOString().slice(0, 10);
+  const site = slug(r.meta.site);
+  return ['humgauge', date, site, r.id.slice(0, 8)].filter(Boolean).join('-');
+}
+
+/** The zip bundle of one or more sessions: manifest.json plus one folder per session. */
+export function buildBundle(sessions: readonly FullSession[], exportedAtMs = Date.now()): Uint8Array {
+  if (sessions.length === 0) throw new RangeError('buildBundle: no session given');
+  const files: Zippable = {};
+  const listed: { id: string; folder: string; hasAudio: boolean }[] = [];
+  for (const s of sessions) {
+    let folder = sessionBaseName(s.record);
+    while (listed.some((l) => l.folder === folder)) folder += '-x';
+    const hasAudio = !!s.audio && s.audio.length > 0;
+    listed.push({ id: s.record.id, folder, hasAudio });
+    files[`${folder}/session.json`] = strToU8(toJsonText(toSessionFile(s, exportedAtMs)));
+    files[`${folder}/track.csv`] = strToU8(trackCsv(s.track, s.record.meta.calibrationOffsetDb));
+    files[`${folder}/report.html`] = strToU8(buildReportHtml(s.record, s.track, exportedAtMs));
+    // Float WAV keeps every stored sample exactly; deflate gains little on it, so level 1.
+    if (hasAudio) files[`${folder}/audio.wav`] = [encodeWav(s.audio as Float32Array, s.record.meta.sampleRateHz, 'float32'), { level: 1 }];
+  }
+  files['manifest.json'] = strToU8(toJsonText({ format: BUNDLE_FORMAT, schemaVersion: BUNDLE_SCHEMA_VERSION, exportedAtMs: Math.round(exportedAtMs), sessions: listed }));
+  // Zip (DOS) dates start in 1980.
+  return zipSync(files, { level: 6, mtime: new Date(Math.max(exportedAtMs, Date.UTC(1980, 0, 2))) });
+}
+
+/** The WAV alone (16-bit PCM, the most widely readable form). */
+export function sessionWav(audio: Float32Array, sampleRateHz: number): Uint8Array {
+  return encodeWav(audio, sampleRateHz, 'pcm16');
+}
+
+export type DeliveryResult = 'shared' | 'downloaded' | 'cancelled';
+
+/**
+ * Hands a file to the user: the share sheet where navigator.canShare({ files }) allows it, else a
+ * download through a blob URL on an <a download>.
+ */
+export async function shareOrDownload(bytes: Uint8Array, fileName: string, mimeType: string): Promise<DeliveryResult> {
+  const file = new File([bytes as Uint8Array<ArrayBuffer>], fileName, { type: mimeType });
+  const nav = navigator as Navigator & { canShare?: (data: ShareData) => boolean };
+  if (typeof nav.canShare === 'function' && typeof nav.share === 'function' && nav.canShare({ files: [file] })) {
+    try {
+      await nav.share({ files: [file], title: fileName });
+      return 'shared';
+    } catch (err) {
+      if (err instanceof DOMException && err.name === 'AbortError') return 'cancelled';
+      // Any other refusal (not allowed, too large): fall back to a download.
+    }
+  }
+  const url = URL.createObjectURL(file);
+  const a = document.createElement('a');
+  a.href = url;
+  a.download = fileName;
+  a.rel = 'noopener';
+  a.hidden = true;
+  document.body.append(a);
+  a.click();
+  a.remove();
+  setTimeout(() => URL.revokeObjectURL(url), 60_000);
+  return 'downloaded';
+}

@@ -1,0 +1,175 @@
+/**
+ * Import of session bundles. Everything is read and validated before anything is written; then
+ * all new sessions are written in one transaction (all or nothing). A session already stored
+ * (same id) is recognised and left as it is.
+ */
+import * as v from 'valibot';
+import type { TrackFrame } from '../../dsp/types';
+import { ManifestSchema, SessionFileSchema, type SessionFile } from './bundle-schema';
+import type { SessionDb } from './db';
+import { putFullSessions, type FullSession } from './sessions';
+import { DEFAULT_ZIP_LIMITS, listZip, readZipEntry, ZipError, type ZipEntry, type ZipLimits } from './zip-read';
+
+/** A bundle was refused; the message says why, for the user. Nothing was written. */
+export class ImportError extends Error {
+  constructor(message: string) {
+    super(message);
+    this.name = 'ImportError';
+  }
+}
+
+const FORBIDDEN_KEYS = new Set(['__proto__', 'constructor', 'prototype']);
+
+/** JSON.parse that refuses keys able to reach object prototypes (__proto__, constructor, prototype). */
+export function parseJsonSafely(text: string, where: string): unknown {
+  try {
+    return JSON.parse(text, (key, value: unknown) => {
+      if (FORBIDDEN_KEYS.has(key)) throw new ImportError(`${where}: the key "${key}" is not allowed.`);
+      return value;
+    });
+  } catch (err) {
+    if (err instanceof ImportError) throw err;
+    throw new ImportError(`${where} is not valid JSON (${err instanceof Error ? err.message : String(err)}).`);
+  }
+}
+
+function firstIssue(issues: readonly v.BaseIssue<unknown>[], where: string): ImportError {
+  const issue = issues[0];
+  const path = v.getDotPath(issue);
+  const more = issues.length > 1 ? ` (and ${issues.length - 1} more problem${issues.length > 2 ? 's' : ''})` : '';
+  const message = issue.message.startsWith('Invalid key') || issue.type === 'strict_object' ? `unexpected field${path ? ` at ${path}` : ''}` : issue.message;
+  return new ImportError(`${where}${path ? `, ${path}` : ''}: ${message}${more}.`);
+}
+
+/** Reads a mono WAV (16-bit PCM or 32-bit float) into samples, full scale ±1. */
+export function parseWav(bytes: Uint8Array, where: string): { sampleRateHz: number; samples: Float32Array } {
+  const dv = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+  const tag = (at: number): string => String.fromCharCode(bytes[at], bytes[at + 1], bytes[at + 2], bytes[at + 3]);
+  if (bytes.length < 12 || tag(0) !== 'RIFF' || tag(8) !== 'WAVE') throw new ImportError(`${where} is not a WAV file.`);
+  let p = 12;
+  let fmt: { format: number; channels: number; rate: number; bits: number } | null = null;
+  while (p + 8 <= bytes.length) {
+    const id = tag(p);
+    const size = dv.getUint32(p + 4, true);
+    const body = p + 8;
+    if (body + size > bytes.length) throw new ImportError(`${where} is cut short.`);
+    if (id === 'fmt ') {
+      if (size < 16) throw new ImportError(`${where} has a damaged format block.`);
+      fmt = { format: dv.getUint16(body, true), channels: dv.getUint16(body + 2, true), rate: dv.getUint32(body + 4, true), bits: dv.getUint16(body + 14, true) };
+    } else if (id === 'data') {
+      if (!fmt) throw new ImportError(`${where} has its data before its format block.`);
+      if (fmt.channels !== 1) throw new ImportError(`${where} has ${fmt.channels} channels; session audio is mono.`);
+      const isFloat = fmt.format === 3 && fmt.bits === 32;
+      const isPcm16 = fmt.format === 1 && fmt.bits === 16;
+      if (!isFloat && !isPcm16) throw new ImportError(`${where} is neither 16-bit PCM nor 32-bit float.`);
+      const n = Math.floor(size / (isFloat ? 4 : 2));
+      const out = new Float32Array(n);
+      for (let i = 0; i < n; i++) {
+        const x = isFloat ? dv.getFloat32(body + 4 * i, true) : dv.getInt16(body + 2 * i, true) / 32768;
+        if (!Number.isFinite(x) || Math.abs(x) > 16) throw new ImportError(`${where} holds a sample out of range at ${i}.`);
+        out[i] = x;
+      }
+      return { sampleRateHz: fmt.rate, samples: out };
+    }
+    p = body + size + (size & 1);
+  }
+  throw new ImportError(`${where} has no audio data.`);
+}
+
+function toFullSession(file: SessionFile, audio: Float32Array | null): FullSession {
+  const s = file.session;
+  const t = file.track;
+  const track: TrackFrame[] = new Array(t.timeS.length);
+  for (let i = 0; i < t.timeS.length; i++) {
+    track[i] = { timeS: t.timeS[i], frequencyHz: t.frequencyHz[i], amplitudeDbfs: t.amplitudeDbfs[i], levelDbfs: t.levelDbfs[i], state: t.state[i], isClipped: t.isClipped[i], isAfterGap: t.isAfterGap[i] };
+  }
+  return {
+    record: {
+      ...s,
+      heartbeatAtMs: s.updatedAtMs,
+      frameCount: track.length,
+      frameChunkCount: 0,
+      audio: { ...s.audio, chunkCount: 0 },
+      siteKey: s.meta.site.toLowerCase(),
+      equipmentKey: s.meta.equipment.toLowerCase(),
+    },
+    track,
+    audio,
+  };
+}
+
+/** Reads and validates every session of a bundle. Throws ImportError; writes nothing. */
+export function readBundle(bytes: Uint8Array, limits: ZipLimits = DEFAULT_ZIP_LIMITS): FullSession[] {
+  let entries: ZipEntry[];
+  const files = new Map<string, ZipEntry>();
+  const read = (name: string): Uint8Array => {
+    const e = files.get(name);
+    if (!e) throw new ImportError(`The bundle has no ${name}.`);
+    try {
+      return readZipEntry(bytes, e);
+    } catch (err) {
+      throw new ImportError(err instanceof Error ? err.message : String(err));
+    }
+  };
+  try {
+    entries = listZip(bytes, limits);
+  } catch (err) {
+    if (err instanceof ZipError) throw new ImportError(err.message);
+    throw err;
+  }
+  for (const e of entries) files.set(e.name, e);
+  const text = (name: string): string => {
+    try {
+      return new TextDecoder('utf-8', { fatal: true }).decode(read(name));
+    } catch (err) {
+      if (err instanceof ImportError) throw err;
+      throw new ImportError(`${name} is not valid UTF-8 text.`);
+    }
+  };
+  const manifestResult = v.safeParse(ManifestSchema, parseJsonSafely(text('manifest.json'), 'manifest.json'));
+  if (!manifestResult.success) throw firstIssue(manifestResult.issues, 'manifest.json');
+  const manifest = manifestResult.output;
+  const ids = new Set<string>();
+  const out: FullSession[] = [];
+  for (const item of manifest.sessions) {
+    if (ids.has(item.id)) throw new ImportError(`manifest.json lists session ${item.id} twice.`);
+    ids.add(item.id);
+    const where = `${item.folder}/session.json`;
+    const parsed = v.safeParse(SessionFileSchema, parseJsonSafely(text(where), where));
+    if (!parsed.success) throw firstIssue(parsed.issues, where);
+    const file = parsed.output;
+    if (file.session.id !== item.id) throw new ImportError(`${where} holds session ${file.session.id}, but the manifest says ${item.id}.`);
+    let audio: Float32Array | null = null;
+    if (item.hasAudio) {
+      const wavName = `${item.folder}/audio.wav`;
+      const wav = parseWav(read(wavName), wavName);
+      if (wav.sampleRateHz !== file.session.meta.sampleRateHz) throw new ImportError(`${wavName} runs at ${wav.sampleRateHz} Hz, but the session says ${file.session.meta.sampleRateHz} Hz.`);
+      if (wav.samples.length !== file.session.audio.sampleCount) throw new ImportError(`${wavName} holds ${wav.samples.length} samples, but the session says ${file.session.audio.sampleCount}.`);
+      audio = wav.samples;
+    } else if (file.session.audio.sampleCount !== 0) {
+      throw new ImportError(`${where} says it has ${file.session.audio.sampleCount} audio samples, but the bundle holds no audio for it.`);
+    }
+    out.push(toFullSession(file, audio));
+  }
+  return out;
+}
+
+export interface ImportResult {
+  /** Sessions written now. */
+  imported: string[];
+  /** Sessions recognised as already stored (same id); left unchanged. */
+  alreadyPresent: string[];
+}
+
+/** Validates the whole bundle, then writes its new sessions in one transaction. */
+export async function importBundle(db: SessionDb, bytes: Uint8Array, limits: ZipLimits = DEFAULT_ZIP_LIMITS): Promise<ImportResult> {
+  const sessions = readBundle(bytes, limits);
+  const fresh: FullSession[] = [];
+  const alreadyPresent: string[] = [];
+  for (const s of sessions) {
+    if (await db.getKey('sessions', s.record.id)) alreadyPresent.push(s.record.id);
+    else fresh.push(s);
+  }
+  if (fresh.length) await putFullSessions(db, fresh);
+  return { imported: fresh.map((s) => s.record.id), alreadyPresent };
+}
