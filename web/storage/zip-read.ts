@@ -122,7 +122,7 @@ export function listZip(bytes: Uint8Array, limits: ZipLimits = DEFAULT_ZIP_LIMIT
     if (seen.has(name)) throw new ZipError(`The zip holds ${name} twice.`);
     seen.add(name);
     if (name.endsWith('/')) continue;
-    if (size > limits.maxEntryBytes) throw new ZipError(`${name} would expand to ${size} bytes, more than the ${limits.maxEntryBytes} accepted.`);
+    if (size > limits.maxEntryBytes) throw new ZipError(`${name} would expand to ${size} bytes, more than the ${limits.maxEntryBytes} bytes accepted.`);
     total += size;
     if (total > limits.maxTotalBytes) throw new ZipError(`The zip would expand to more than the ${limits.maxTotalBytes} bytes accepted.`);
     if (localOffset + 30 + compressedSize > cdOffset) throw new ZipError(`The zip is damaged (${name} lies outside the file).`);
@@ -153,7 +153,7 @@ export function readZipEntry(bytes: Uint8Array, entry: ZipEntry): Uint8Array {
     let isFinal = false;
     const inflater = new Inflate((chunk, final) => {
       if (filled + chunk.length > entry.size) {
-        throw new ZipError(`${entry.name} expands beyond the ${entry.size} bytes its header declares; the file is rejected.`);
+        throw new ZipError(`The zip is damaged or hostile: ${entry.name} inflates beyond the ${entry.size} bytes its header declares.`);
       }
       out.set(chunk, filled);
       filled += chunk.length;

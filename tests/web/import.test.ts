@@ -1,0 +1,178 @@
+import 'fake-indexeddb/auto';
+import { describe, expect, it } from 'vitest';
+import { strFromU8, strToU8, unzipSync, zipSync, type Unzipped } from 'fflate';
+import { openSessionDb, type SessionDb } from '../../web/storage/db';
+import { buildBundle } from '../../web/storage/export';
+import { importBundle, parseJsonSafely } from '../../web/storage/import';
+import { DEFAULT_ZIP_LIMITS, listZip } from '../../web/storage/zip-read';
+import { sampleSession } from './export-sample';
+
+let dbCount = 0;
+const uniqueName = (): string => `humgauge-import-${process.pid}-${Date.now()}-${dbCount++}`;
+const AT = Date.UTC(2026, 11, 1);
+
+async function nothingWritten(db: SessionDb): Promise<void> {
+  expect(await db.count('sessions')).toBe(0);
+  expect(await db.count('frames')).toBe(0);
+  expect(await db.count('audio')).toBe(0);
+}
+
+/** Imports into a fresh database, expecting a refusal whose message matches; checks nothing was written. */
+async function expectRefused(bytes: Uint8Array, message: RegExp, limits = DEFAULT_ZIP_LIMITS): Promise<void> {
+  const db = await openSessionDb({ name: uniqueName() });
+  await expect(importBundle(db, bytes, limits)).rejects.toThrow(message);
+  await nothingWritten(db);
+  db.close();
+}
+
+/** A valid two-session bundle, unpacked, for editing. */
+function unpacked(): { files: Unzipped; folders: string[] } {
+  const files = unzipSync(buildBundle([sampleSession(), sampleSession({ id: 'second-0001', site: 'Boiler room' })], AT));
+  const folders = JSON.parse(strFromU8(files['manifest.json'])).sessions.map((s: { folder: string }) => s.folder);
+  return { files, folders };
+}
+
+/** Edits the session.json of the second session (as parsed JSON) and re-zips. */
+function withSecondSession(edit: (json: Record<string, any>) => void): Uint8Array {
+  const { files, folders } = unpacked();
+  const name = `${folders[1]}/session.json`;
+  const json = JSON.parse(strFromU8(files[name]));
+  edit(json);
+  files[name] = strToU8(JSON.stringify(json));
+  return zipSync(files);
+}
+
+function withSecondSessionText(edit: (text: string) => string): Uint8Array {
+  const { files, folders } = unpacked();
+  const name = `${folders[1]}/session.json`;
+  const before = strFromU8(files[name]);
+  const after = edit(before);
+  expect(after).not.toBe(before);
+  files[name] = strToU8(after);
+  return zipSync(files);
+}
+
+describe('a valid bundle imports', () => {
+  it('writes both sessions', async () => {
+    const db = await openSessionDb({ name: uniqueName() });
+    const r = await importBundle(db, zipSync(unpacked().files));
+    expect(r.imported).toHaveLength(2);
+    db.close();
+  });
+});
+
+describe('broken or hostile zips are refused and nothing is written', () => {
+  it('bytes that are not a zip', async () => {
+    await expectRefused(new TextEncoder().encode('this is a text file, not a bundle at all'), /not a zip/);
+  });
+
+  it('a zip cut short', async () => {
+    const good = buildBundle([sampleSession()], AT);
+    await expectRefused(good.subarray(0, Math.floor(good.length * 0.6)), /not a zip|damaged/);
+  });
+
+  it('a member whose compressed data was altered (CRC-32 or inflate fails)', async () => {
+    const bytes = buildBundle([sampleSession({ withAudio: false })], AT).slice();
+    const entry = listZip(bytes).find((e) => e.name.endsWith('session.json'))!;
+    // Flip bytes in the middle of the deflate stream (30-byte local header plus the name precede the data).
+    const mid = entry.localOffset + 30 + entry.name.length + Math.floor(entry.compressedSize / 2);
+    for (let i = 0; i < 8; i++) bytes[mid + i] ^= 0x5a;
+    await expectRefused(bytes, /damaged|CRC-32/);
+  });
+
+  it('a zip whose declared contents exceed the limit (checked before inflating)', async () => {
+    const bytes = buildBundle([sampleSession()], AT);
+    await expectRefused(bytes, /would expand to more than/, { ...DEFAULT_ZIP_LIMITS, maxTotalBytes: 100_000 });
+    await expectRefused(bytes, /more than the 50000 bytes accepted/, { ...DEFAULT_ZIP_LIMITS, maxEntryBytes: 50_000 });
+  });
+
+  it('a zip bomb whose headers understate the inflated size is stopped while inflating', async () => {
+    // session.json padded with 64 MiB of JSON whitespace deflates to ~64 KiB; the headers then claim 1000 bytes.
+    const { files, folders } = unpacked();
+    const name = `${folders[1]}/session.json`;
+    const padded = new Uint8Array(files[name].length + 64 * 1024 * 1024).fill(0x20);
+    padded.set(files[name]);
+    files[name] = padded;
+    const bomb = zipSync(files, { level: 9 });
+    expect(bomb.length).toBeLessThan(1024 * 1024);
+    const dv = new DataView(bomb.buffer, bomb.byteOffset, bomb.byteLength);
+    const entry = listZip(bomb).find((e) => e.name === name)!;
+    expect(entry.size).toBe(padded.length);
+    // APPNOTE 4.3.7 / 4.3.12: uncompressed size at offset 22 of the local header and 24 of the central record.
+    dv.setUint32(entry.localOffset + 22, 1000, true);
+    for (let p = 0; p + 46 < bomb.length; p++) {
+      if (dv.getUint32(p, true) === 0x02014b50 && strFromU8(bomb.subarray(p + 46, p + 46 + name.length)) === name) dv.setUint32(p + 24, 1000, true);
+    }
+    expect(listZip(bomb).find((e) => e.name === name)!.size).toBe(1000);
+    await expectRefused(bomb, /inflates beyond the 1000 bytes its header declares/);
+  });
+
+  it('a member with an unsafe path', async () => {
+    const { files } = unpacked();
+    files['../outside.json'] = strToU8('{}');
+    await expectRefused(zipSync(files), /unsafe name/);
+  });
+
+  it('no manifest', async () => {
+    const { files } = unpacked();
+    delete files['manifest.json'];
+    await expectRefused(zipSync(files), /no manifest\.json/);
+  });
+});
+
+describe('hostile or broken session JSON is refused and nothing is written (not even the valid first session)', () => {
+  it('a __proto__ key', async () => {
+    await expectRefused(withSecondSessionText((t) => t.replace(/"meta": \{/, '"meta": {"__proto__": {"isAdmin": true},')), /"__proto__" is not allowed/);
+  });
+
+  it('a constructor key', async () => {
+    await expectRefused(withSecondSessionText((t) => t.replace(/"report": \{/, '"report": {"constructor": {"name": "x"},')), /"constructor" is not allowed/);
+    expect(() => parseJsonSafely('{"a":{"prototype":1}}', 'x.json')).toThrow(/"prototype" is not allowed/);
+  });
+
+  it('an unexpected key', async () => {
+    await expectRefused(withSecondSession((j) => (j.session.meta.colour = 'red')), /session\.meta\.colour: unexpected field/);
+    await expectRefused(withSecondSession((j) => (j.extra = 1)), /extra: unexpected field/);
+  });
+
+  it('HTML or script in a text field', async () => {
+    await expectRefused(withSecondSession((j) => (j.session.meta.notes = 'ok <script>alert(1)</script>')), /notes holds HTML or script markup/);
+    await expectRefused(withSecondSession((j) => (j.session.markers[0].label = '<img src=x onerror=alert(1)>')), /marker label holds HTML/);
+    await expectRefused(withSecondSession((j) => (j.session.meta.site = 'javascript:alert(1)')), /site holds HTML or script/);
+  });
+
+  it('text that merely uses "<" as less-than is accepted', async () => {
+    const db = await openSessionDb({ name: uniqueName() });
+    const r = await importBundle(db, withSecondSession((j) => (j.session.meta.notes = 'flow < 2 m/s, ΔT <5 K')));
+    expect(r.imported).toHaveLength(2);
+    db.close();
+  });
+
+  it('numbers out of range', async () => {
+    await expectRefused(withSecondSession((j) => (j.session.meta.sampleRateHz = 5e6)), /sample rate must be at most 768000/);
+    await expectRefused(withSecondSession((j) => (j.track.timeS[3] = -1)), /track time must be at least 0/);
+    await expectRefused(withSecondSession((j) => (j.track.frequencyHz[300] = 1e9)), /track frequency must be at most/);
+    await expectRefused(withSecondSession((j) => (j.session.markers[0].value = 1e300)), /marker control value must be at most/);
+    await expectRefused(withSecondSession((j) => (j.session.report.summary.growthRatePerS = 'lots')), /growth rate must be a number/);
+    await expectRefused(withSecondSession((j) => (j.session.meta.geometry.gasTemperatureC = -300)), /gas temperature must be at least -273.15/);
+  });
+
+  it('a track whose columns differ in length', async () => {
+    await expectRefused(withSecondSession((j) => j.track.state.pop()), /columns differ in length/);
+  });
+
+  it('a wrong format or a future schema version', async () => {
+    await expectRefused(withSecondSession((j) => (j.schemaVersion = 3)), /schemaVersion must be 2/);
+    await expectRefused(withSecondSession((j) => (j.format = 'other')), /format must be/);
+  });
+
+  it('session and manifest disagree, or the audio does not match', async () => {
+    await expectRefused(withSecondSession((j) => (j.session.id = 'someone-else')), /but the manifest says/);
+    await expectRefused(withSecondSession((j) => (j.session.audio.sampleCount = 5)), /holds 24000 samples, but the session says 5/);
+    await expectRefused(withSecondSession((j) => (j.session.meta.sampleRateHz = 16000)), /runs at 8000 Hz, but the session says 16000 Hz/);
+  });
+
+  it('invalid JSON', async () => {
+    await expectRefused(withSecondSessionText((t) => t.slice(0, -20)), /is not valid JSON/);
+  });
+});
