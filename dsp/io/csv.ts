@@ -21,7 +21,9 @@ import { InputError, checkDuration } from './errors';
 export interface CsvDecodeOptions {
   /** Sample rate of a one-column file, Hz. Required when there is no time column; for a file with a time column, it overrides the timestamps' rate. */
   rateHz?: number | null;
-  /** Multiplies every value (e.g. to bring pascals near full scale). Default 1. */
+  /** Output value = (value − offset) · scale, computed in double precision (e.g. to remove the
+   * static pressure and bring pascals near full scale before the Float32 conversion). Defaults 0 and 1. */
+  offset?: number;
   scale?: number;
   /** Reject files shorter than MIN_DURATION_S and constant files at end(). Default true. */
   checkContent?: boolean;
@@ -33,14 +35,17 @@ export interface CsvSummary {
   /** Names from the header, or null. */
   timeColumnName: string | null;
   valueColumnName: string | null;
-  /** Sample rate: from the time column (mean spacing over all rows) or the one given. */
+  /** Sample rate: the one given, else from the time column (mean spacing over all rows). */
   sampleRateHz: number;
+  /** Rate from the time column alone, or null without one. */
+  timeRateHz: number | null;
   /** Largest step deviation from the running mean step, as a fraction of the mean step. */
   maxJitter: number;
   durationS: number;
-  /** Extremes of the raw values (before scaling). */
+  /** Extremes and mean of the raw values (before offset and scale). */
   minValue: number;
   maxValue: number;
+  meanValue: number;
 }
 
 export interface CsvDecoder {
@@ -61,6 +66,7 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
   if (rateOpt !== null && !(rateOpt > 0 && Number.isFinite(rateOpt))) {
     throw new RangeError(`createCsvDecoder: rateHz must be a positive number, got ${rateOpt}`);
   }
+  const offset = options.offset ?? 0;
   const scale = options.scale ?? 1;
   const checkContent = options.checkContent ?? true;
 
@@ -82,6 +88,7 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
   let maxJitter = 0;
   let minValue = Infinity;
   let maxValue = -Infinity;
+  let sumValue = 0;
   let pending: number[] = [];
 
   function fail(message: string): never {
@@ -146,8 +153,9 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
     }
     if (v < minValue) minValue = v;
     if (v > maxValue) maxValue = v;
+    sumValue += v;
     rows++;
-    pending.push(v * scale);
+    pending.push((v - offset) * scale);
   }
 
   function parseField(text: string, what: string): number {
@@ -209,12 +217,11 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
     const samples = drain();
     if (!sawContent) throw new InputError('empty-or-truncated', 'the file is empty (no data lines)');
     if (rows === 0) throw new InputError('empty-or-truncated', 'the file holds a header but no data rows');
+    const timeRateHz = timeCol >= 0 && rows >= 2 ? (rows - 1) / (tPrev - t0) : null;
     let sampleRateHz: number;
     if (rateOpt !== null) sampleRateHz = rateOpt;
-    else {
-      if (rows < 2) throw new InputError('too-short', 'one data row: at least two are needed to know the sample rate');
-      sampleRateHz = (rows - 1) / (tPrev - t0);
-    }
+    else if (timeRateHz === null) throw new InputError('too-short', 'one data row: at least two are needed to know the sample rate');
+    else sampleRateHz = timeRateHz;
     if (checkContent) {
       checkDuration(rows, sampleRateHz, 'the CSV file');
       if (maxValue === minValue) throw new InputError('silent', `silent: every value is ${formatNum(minValue)}`);
@@ -225,10 +232,12 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
       timeColumnName: timeName,
       valueColumnName: valueName,
       sampleRateHz,
+      timeRateHz,
       maxJitter,
       durationS: rows / sampleRateHz,
       minValue,
       maxValue,
+      meanValue: sumValue / rows,
     };
     return { samples, summary };
   }

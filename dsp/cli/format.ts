@@ -1,0 +1,203 @@
+/**
+ * Terminal output of the command line: aligned text tables and numbers with their unit and 95 %
+ * interval. The report's summary carries the derived figures (dsp/derived.ts); when one is
+ * missing it is derived here by the same relations (REFERENCES.md §5–6, standard vibration texts,
+ * e.g. Rao, Mechanical Vibrations): damping ratio ζ = α/ωn, Q = 1/(2ζ), T60 = 3 ln 10 / α,
+ * e-folding time 1/s, doubling time ln 2 / s, effective gain β = s + α.
+ */
+
+import { dampingRatio } from '../derived';
+import type { Interval, Report, Segment } from '../types';
+
+/** A table: header row and body rows of cells; `alignRight` per column. */
+export function renderTable(header: string[], rows: string[][], alignRight: boolean[] = []): string {
+  const widths = header.map((h, c) => Math.max(width(h), ...rows.map((r) => width(r[c] ?? ''))));
+  const line = (cells: string[]): string =>
+    cells
+      .map((cell, c) => (alignRight[c] ? ' '.repeat(widths[c] - width(cell)) + cell : cell + ' '.repeat(widths[c] - width(cell))))
+      .join('  ')
+      .trimEnd();
+  const rule = widths.map((w) => '-'.repeat(w)).join('  ');
+  return [line(header), rule, ...rows.map(line)].join('\n') + '\n';
+}
+
+/** Display width (code points; the units used here are all narrow). */
+function width(s: string): number {
+  return [...s].length;
+}
+
+/** A number to `sig` significant digits, without exponent for everyday magnitudes. */
+export function num(x: number | null | undefined, sig = 4): string {
+  if (x === null || x === undefined || !Number.isFinite(x)) return '—';
+  if (x === 0) return '0';
+  const a = Math.abs(x);
+  if (a >= 1e-4 && a < 1e7) {
+    const decimals = Math.max(0, sig - 1 - Math.floor(Math.log10(a)));
+    return x.toFixed(Math.min(decimals, 10));
+  }
+  return x.toExponential(sig - 1);
+}
+
+/** "[low, high]" with the same precision as the value. */
+export function interval(ci: Interval | null | undefined, sig = 4): string {
+  if (!ci || !Number.isFinite(ci[0]) || !Number.isFinite(ci[1])) return '—';
+  return `[${num(ci[0], sig)}, ${num(ci[1], sig)}]`;
+}
+
+/** "8.100 1/s (95 % 7.600 to 8.600)"; unit '' for dimensionless figures. */
+export function valueWithCi(x: number | null | undefined, unit: string, ci?: Interval | null, sig = 4): string {
+  if (x === null || x === undefined || !Number.isFinite(x)) return 'not measured';
+  const u = unit ? ` ${unit}` : '';
+  const c = ci && Number.isFinite(ci[0]) && Number.isFinite(ci[1]) ? `  (95 % ${num(ci[0], sig)} to ${num(ci[1], sig)}${u})` : '';
+  return `${num(x, sig)}${u}${c}`;
+}
+
+/** Time in s with millisecond resolution. */
+export function timeS(x: number): string {
+  return Number.isFinite(x) ? x.toFixed(3) : '—';
+}
+
+/** A figure derived from the report, with its 95 % interval when one follows from the fitted ones. */
+export interface DerivedFigure {
+  label: string;
+  value: number | null;
+  unit: string;
+  ci: Interval | null;
+  note?: string;
+}
+
+/** Interval of 1/x from the interval of x (monotone map, valid when x's interval excludes 0). */
+function inverseCi(ci: Interval | null | undefined, k: number): Interval | null {
+  if (!ci || !(ci[0] > 0) || !(ci[1] > 0)) return null;
+  return [k / ci[1], k / ci[0]];
+}
+
+/**
+ * Derived figures of the main tone. Intervals of monotone functions of one fitted rate map through
+ * the function; the effective gain (sum of two independent fits) combines the half-widths in
+ * quadrature (normal approximation) when the report gives no interval of its own.
+ */
+export function derivedFigures(report: Report): DerivedFigure[] {
+  const s = report.summary;
+  const f = s.frequencyHz;
+  const g = s.growthRatePerS;
+  const a = s.decayRatePerS;
+  const gCi = s.growthRateCi95PerS ?? null;
+  const aCi = s.decayRateCi95PerS ?? null;
+  let gainCi = s.effectiveGainCi95PerS ?? null;
+  if (!gainCi && gCi && aCi && g !== null && a !== null) {
+    const h = Math.hypot((gCi[1] - gCi[0]) / 2, (aCi[1] - aCi[0]) / 2);
+    gainCi = [g + a - h, g + a + h];
+  }
+  const gain = s.effectiveGainPerS ?? (g !== null && a !== null ? g + a : null);
+  const zeta = s.dampingRatio ?? (a !== null && f ? dampingRatio(a, f) : null);
+  const zetaCi = s.dampingRatioCi95 ?? (f && aCi ? ([dampingRatio(aCi[0], f), dampingRatio(aCi[1], f)] as Interval) : null);
+  const q = s.qFactor ?? (zeta ? 1 / (2 * zeta) : null);
+  const qCi = s.qFactorCi95 ?? inverseCi(zetaCi, 0.5);
+  const growthPositive = g !== null && g > 0;
+  return [
+    { label: 'frequency', value: f, unit: 'Hz', ci: null },
+    { label: 'growth rate', value: g, unit: '1/s', ci: gCi, note: g !== null ? `${num(g * 20 * Math.LOG10E, 3)} dB/s` : undefined },
+    { label: 'decay rate', value: a, unit: '1/s', ci: aCi, note: a !== null ? `${num(a * 20 * Math.LOG10E, 3)} dB/s` : undefined },
+    { label: 'effective gain (growth + decay)', value: gain, unit: '1/s', ci: gainCi },
+    { label: 'damping ratio', value: zeta, unit: '', ci: zetaCi },
+    { label: 'Q', value: q, unit: '', ci: qCi },
+    { label: 'e-folding time (growth)', value: s.eFoldingTimeS ?? (growthPositive ? 1 / (g as number) : null), unit: 's', ci: inverseCi(gCi, 1) },
+    { label: 'doubling time', value: s.doublingTimeS ?? (growthPositive ? Math.LN2 / (g as number) : null), unit: 's', ci: inverseCi(gCi, Math.LN2) },
+    { label: 'T60 (decay)', value: s.t60S ?? (a !== null && a > 0 ? (3 * Math.LN10) / a : null), unit: 's', ci: inverseCi(aCi, 3 * Math.LN10) },
+  ];
+}
+
+/** Rows of the segment table. */
+export function segmentRows(segments: Segment[]): string[][] {
+  return segments.map((seg) => [
+    seg.kind,
+    timeS(seg.startS),
+    timeS(seg.endS),
+    num(seg.frequencyHz, 5),
+    seg.ratePerS === null ? '—' : (seg.ratePerS > 0 ? '+' : '') + num(seg.ratePerS, 3),
+    interval(seg.rateCi95PerS, 3),
+    seg.model ?? '',
+  ]);
+}
+
+/** Rows of the segment table and warning lines shown before pointing to --json. */
+const MAX_SEGMENT_ROWS = 60;
+const MAX_WARNINGS = 8;
+
+/** Facts about the input file shown above the analysis. */
+export interface InputFacts {
+  fileName: string;
+  description: string;
+  /** dB added to a dBFS level to give dB SPL, when the input is calibrated in pascals. */
+  splOffsetDb?: number;
+}
+
+/** The readable summary of one analysis. */
+export function renderSummary(report: Report, input: InputFacts): string {
+  const out: string[] = [];
+  out.push(`${input.fileName}: ${input.description}, ${num(report.durationS, 4)} s analysed`);
+  if (input.splOffsetDb !== undefined) {
+    out.push(`levels: dB SPL = dBFS + ${num(input.splOffsetDb, 4)} dB (pressure values in Pa)`);
+  }
+  out.push('');
+  const tones = report.tones ?? [];
+  if (tones.length > 0) {
+    out.push(`Tones: ${tones.map((t) => `${num(t.frequencyHz, 5)} Hz${t.isSteadyLine ? ' (steady line)' : ''}`).join(', ')}`);
+  } else if (report.summary.frequencyHz !== null) {
+    out.push(`Tone: ${num(report.summary.frequencyHz, 5)} Hz`);
+  } else out.push('Tones: none found');
+  if (report.onsets.length === 0) out.push('Onsets: none');
+  else {
+    const shown = report.onsets.slice(0, 20).map((o) => `${timeS(o.timeS)} s (${num(o.frequencyHz, 5)} Hz)`);
+    const more = report.onsets.length > 20 ? `, … ${report.onsets.length - 20} more (see --json)` : '';
+    out.push(`Onsets (${report.onsets.length}): ${shown.join(', ')}${more}`);
+  }
+  out.push('');
+  if (report.segments.length > 0) {
+    const shown = report.segments.slice(0, MAX_SEGMENT_ROWS);
+    out.push(`Segments${report.segments.length > shown.length ? ` (first ${shown.length} of ${report.segments.length}; all in --json)` : ''}`);
+    out.push(
+      renderTable(
+        ['state', 'start s', 'end s', 'frequency Hz', 'rate 1/s', '95 % interval 1/s', 'model'],
+        segmentRows(shown),
+        [false, true, true, true, true, false, false],
+      ),
+    );
+  } else out.push('Segments: none\n');
+  if (report.noiseDriven.length > 0) {
+    out.push('Noise-driven resonance (damping of a quiet mode)');
+    out.push(
+      renderTable(
+        ['start s', 'end s', 'frequency Hz', 'decay rate 1/s', '95 % interval 1/s'],
+        report.noiseDriven.map((n) => [timeS(n.startS), timeS(n.endS), num(n.frequencyHz, 5), num(n.decayRatePerS, 3), interval(n.decayRateCi95PerS, 3)]),
+        [true, true, true, true, false],
+      ),
+    );
+  }
+  const figures = derivedFigures(report);
+  out.push('Main tone');
+  out.push(
+    renderTable(
+      ['figure', 'value', 'unit', '95 % interval', ''],
+      figures.map((d) => [d.label, num(d.value, 4), d.value === null ? '' : d.unit || '(ratio)', interval(d.ci, 4), d.note ?? '']),
+      [false, true, false, false, false],
+    ),
+  );
+  if (report.summary.limitAmplitudeDbfs !== undefined && report.summary.limitAmplitudeDbfs !== null) {
+    const spl = input.splOffsetDb !== undefined ? ` (${num(report.summary.limitAmplitudeDbfs + input.splOffsetDb, 4)} dB SPL)` : '';
+    out.push(`limit-cycle amplitude: ${num(report.summary.limitAmplitudeDbfs, 4)} dBFS${spl}`);
+  }
+  const clipped = report.clipped ?? [];
+  if (clipped.length > 0) {
+    const total = clipped.reduce((t, c) => t + (c.endS - c.startS), 0);
+    const list = clipped.slice(0, 10).map((c) => `${timeS(c.startS)}–${timeS(c.endS)} s`);
+    out.push(
+      `CLIPPED: ${clipped.length} stretch${clipped.length === 1 ? '' : 'es'} (${num(total, 3)} s in all): ${list.join(', ')}${clipped.length > 10 ? ', …' : ''}; levels and rates there are unreliable`,
+    );
+  }
+  const warnings = report.warnings ?? [];
+  for (const w of warnings.slice(0, MAX_WARNINGS)) out.push(`warning: ${w}`);
+  if (warnings.length > MAX_WARNINGS) out.push(`… ${warnings.length - MAX_WARNINGS} more warnings (see --json)`);
+  return out.join('\n').replace(/\n{3,}/g, '\n\n').trimEnd() + '\n';
+}

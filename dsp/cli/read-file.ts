@@ -1,0 +1,92 @@
+/**
+ * File access for the command line (Node): opening with clear messages, sniffing the kind of file,
+ * and streaming its bytes in fixed-size pieces so any length is read in bounded memory.
+ */
+
+import { open, stat } from 'node:fs/promises';
+import { extname } from 'node:path';
+import { CliError, EXIT } from './io';
+
+/** Bytes per read: large enough to amortise system calls, small enough to keep memory flat. */
+export const CHUNK_BYTES = 1 << 16;
+
+export type InputKind = 'wav' | 'csv';
+
+/** Turns a Node file-system error into a one-line message with the UNREADABLE exit code. */
+export function fsProblem(e: unknown): CliError {
+  const code = (e as { code?: string }).code;
+  const text =
+    code === 'ENOENT'
+      ? 'no such file'
+      : code === 'EACCES' || code === 'EPERM'
+        ? 'permission denied'
+        : code === 'EISDIR'
+          ? 'is a directory, not a file'
+          : `cannot be read (${code ?? (e as Error).message})`;
+  return new CliError(text, EXIT.UNREADABLE);
+}
+
+/** Size in bytes of a regular file; throws CliError(UNREADABLE) for a missing file or a directory. */
+export async function fileSize(path: string): Promise<number> {
+  try {
+    const s = await stat(path);
+    if (s.isDirectory()) throw Object.assign(new Error('directory'), { code: 'EISDIR' });
+    return s.size;
+  } catch (e) {
+    throw fsProblem(e);
+  }
+}
+
+/**
+ * Decides WAV or CSV from the first bytes (RIFF/RF64/RIFX magic) and, failing that, from the name.
+ * Anything else with NUL bytes is neither; text goes to the CSV reader, which says what is wrong.
+ */
+export async function sniffKind(path: string): Promise<InputKind> {
+  let head: Uint8Array;
+  try {
+    const fh = await open(path, 'r');
+    try {
+      const buf = new Uint8Array(512);
+      const { bytesRead } = await fh.read(buf, 0, buf.length, 0);
+      head = buf.subarray(0, bytesRead);
+    } finally {
+      await fh.close();
+    }
+  } catch (e) {
+    throw fsProblem(e);
+  }
+  const magic = String.fromCharCode(...head.subarray(0, 4));
+  if (magic === 'RIFF' || magic === 'RF64' || magic === 'RIFX') return 'wav';
+  const ext = extname(path).toLowerCase();
+  if (ext === '.wav' || ext === '.wave') return 'wav';
+  if (ext === '.csv' || ext === '.txt' || ext === '.tsv' || ext === '.dat') return 'csv';
+  if (head.includes(0)) {
+    throw new CliError('neither a WAV file (no RIFF header) nor a CSV text file', EXIT.BAD_HEADER);
+  }
+  return 'csv';
+}
+
+/** Streams the file's bytes in pieces of CHUNK_BYTES (one buffer, reused: consume each piece before the next). */
+export async function* readChunks(path: string, chunkBytes = CHUNK_BYTES): AsyncGenerator<Uint8Array> {
+  let fh;
+  try {
+    fh = await open(path, 'r');
+  } catch (e) {
+    throw fsProblem(e);
+  }
+  try {
+    const buf = new Uint8Array(chunkBytes);
+    for (;;) {
+      let bytesRead: number;
+      try {
+        ({ bytesRead } = await fh.read(buf, 0, chunkBytes, null));
+      } catch (e) {
+        throw fsProblem(e);
+      }
+      if (bytesRead === 0) return;
+      yield buf.subarray(0, bytesRead);
+    }
+  } finally {
+    await fh.close();
+  }
+}
