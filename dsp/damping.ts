@@ -207,6 +207,15 @@ export function dftAnyLength(re: Float64Array, im: Float64Array): { re: Float64A
   return { re: outR, im: outI };
 }
 
+/**
+ * Mean-square envelope E[A²] = G/(2 ω0² α) of a stable mode x'' + 2αx' + ω0²x = ξ driven by white
+ * noise of intensity G (⟨ξ(t)ξ(t+τ)⟩ = G δ(τ)); var(x) is half of it (REFERENCES.md §7(c)).
+ */
+export function noiseDrivenMeanSquare(p: { forcingIntensity: number; frequencyHz: number; decayRatePerS: number }): number {
+  const w0 = 2 * Math.PI * p.frequencyHz;
+  return p.forcingIntensity / (2 * w0 * w0 * p.decayRatePerS);
+}
+
 function invalid(reason: string): DecayEstimate {
   return { isValid: false, decayRatePerS: Number.NaN, ci95PerS: [Number.NaN, Number.NaN], reason };
 }

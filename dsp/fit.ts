@@ -46,7 +46,7 @@ import type { EnvelopeSeries, Interval, RateFit, SaturationFit } from './types';
 export const Z_975 = 1.959963984540054;
 
 /** 0.99 quantile of the chi-square distribution with 1 degree of freedom (= 2.5758²; A&S Table 26.8). */
-const CHI2_1DOF_99 = 6.634896601021214;
+export const CHI2_1DOF_99 = 6.634896601021214;
 
 // ---------------------------------------------------------------------------------------------
 // Small statistics helpers (exported for the damping estimators and the bench)
@@ -361,6 +361,24 @@ function normalEquations(
   for (let a = 0; a < nFree; a++) for (let b = a + 1; b < nFree; b++) jtj[a * nFree + b] = jtj[b * nFree + a];
 }
 
+/**
+ * One damped Gauss–Newton step on the leading `m` of `size` parameters: solves
+ * (A + λ·diag A)·δ = g on that block and adds δ to params. False when the block is singular.
+ */
+function levenbergStep(jtj: Float64Array, jtr: Float64Array, size: number, m: number, lambda: number, params: Float64Array): boolean {
+  const a = new Float64Array(m * m);
+  for (let r = 0; r < m; r++) for (let c = 0; c < m; c++) a[r * m + c] = jtj[r * size + c];
+  for (let j = 0; j < m; j++) a[j * m + j] *= 1 + lambda;
+  const inv = invertSmallMatrix(a, m);
+  if (inv === null) return false;
+  for (let r = 0; r < m; r++) {
+    let step = 0;
+    for (let c = 0; c < m; c++) step += inv[r * m + c] * jtr[c];
+    params[r] += step;
+  }
+  return true;
+}
+
 /** Levenberg–Marquardt polish of all parameters (Marquardt 1963), N² kept ≥ 0. */
 function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState): void {
   const k = model.nNonlinear;
@@ -375,27 +393,27 @@ function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState
     normalEquations(d, w, model, state.params, nFree, jtj, jtr);
     let isImproved = false;
     for (let attempt = 0; attempt < 12; attempt++) {
-      const a = Float64Array.from(jtj);
-      for (let j = 0; j < nFree; j++) a[j * nFree + j] *= 1 + lambda;
-      const inv = invertSmallMatrix(a, nFree);
-      if (inv === null) {
+      trial.set(state.params);
+      if (!levenbergStep(jtj, jtr, nFree, nFree, lambda, trial)) {
         lambda *= 10;
         continue;
       }
-      trial.set(state.params);
-      for (let r = 0; r < nFree; r++) {
-        let step = 0;
-        for (let c = 0; c < nFree; c++) step += inv[r * nFree + c] * jtr[c];
-        trial[r] += step;
+      if (!state.isBackgroundFixed && trial[k + 1] < 0) {
+        // Active set: the background would go negative, so hold it at 0 and step in the others.
+        trial.set(state.params);
+        trial[k + 1] = 0;
+        if (!levenbergStep(jtj, jtr, nFree, nFree - 1, lambda, trial)) {
+          lambda *= 10;
+          continue;
+        }
       }
-      if (!state.isBackgroundFixed && trial[k + 1] < 0) trial[k + 1] = 0;
       const rssTrial = rssOf(d, w, model, trial, grad);
       if (rssTrial < rss) {
         const drop = (rss - rssTrial) / rss;
         state.params.set(trial);
         rss = rssTrial;
         lambda = Math.max(lambda / 3, 1e-12);
-        isImproved = drop > 1e-12;
+        isImproved = drop > 1e-9;
         break;
       }
       lambda *= 4;
@@ -501,7 +519,9 @@ function fitIrls(
   for (let pass = 0; pass < 8; pass++) {
     const before = Float64Array.from(state.params);
     updateWeights(d, model, state, w, bgFloor);
-    if (pass === 0 && start === null) {
+    // The exponential grid is cheap: search it again under the IRLS weights in case they move
+    // the optimum to another basin. (The saturation grid is 20× larger; its LM polish suffices.)
+    if (pass === 0 && start === null && model.nNonlinear === 1) {
       const regrid = gridSearch(d, w, model, grid, fixedBg);
       if (regrid !== null) {
         polish(d, w, model, regrid);
@@ -608,10 +628,10 @@ interface SaturationCandidate {
 
 function saturationGrid(d: Prepared): GridSpec {
   const spanS = d.t[d.n - 1] - d.t[0];
-  const rates = new Float64Array(36);
+  const rates = new Float64Array(28);
   // 2·s·span from 1 to 300: log-spaced.
   for (let j = 0; j < rates.length; j++) rates[j] = (0.5 * Math.exp((Math.log(300) * j) / (rates.length - 1))) / spanS;
-  const centres = new Float64Array(41);
+  const centres = new Float64Array(33);
   for (let j = 0; j < centres.length; j++) centres[j] = d.t[0] - 0.25 * spanS + (1.5 * spanS * j) / (centres.length - 1);
   return { values: [rates, centres] };
 }
@@ -703,6 +723,28 @@ export function fitSaturation(series: EnvelopeSeries, opts?: { backgroundPower?:
     halfTimeS: tc - Math.log(2 ** p - 1) / (p * s),
     ...(Number.isFinite(sdRate) ? {} : { reason: 'rate variance undefined' }),
   };
+}
+
+/**
+ * Stuart–Landau amplitude dA/dt = sA − kA³ in closed form (Landau 1944; Stuart 1960; REFERENCES.md
+ * §6): A(t) = A0·e^{s τ} / √(1 + (k A0²/s)(e^{2 s τ} − 1)), τ = t − startS; limit A∞ = √(s/k).
+ */
+export function landauAmplitude(
+  timeS: number,
+  p: { ratePerS: number; cubicCoefficient: number; startAmplitude: number; startS?: number },
+): number {
+  const tau = timeS - (p.startS ?? 0);
+  const a0 = p.startAmplitude;
+  const s = p.ratePerS;
+  // Written with e^{−2sτ} so that large τ does not overflow.
+  const e = Math.exp(-2 * s * tau);
+  return a0 / Math.sqrt(e + ((p.cubicCoefficient * a0 * a0) / s) * (1 - e));
+}
+
+/** Time (s) at which the Stuart–Landau amplitude reaches A∞/2: t0 + ln((A∞²/A0² − 1)/3)/(2 s) (REFERENCES.md §6). */
+export function landauHalfLimitTimeS(p: { ratePerS: number; cubicCoefficient: number; startAmplitude: number; startS?: number }): number {
+  const limit2 = p.ratePerS / p.cubicCoefficient;
+  return (p.startS ?? 0) + Math.log((limit2 / (p.startAmplitude * p.startAmplitude) - 1) / 3) / (2 * p.ratePerS);
 }
 
 /**

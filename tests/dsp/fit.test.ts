@@ -1,0 +1,281 @@
+import { describe, expect, it } from 'vitest';
+import {
+  backgroundCrossingTimeS,
+  CHI2_1DOF_99,
+  fitExponential,
+  fitLogLine,
+  fitSaturation,
+  incompleteBeta,
+  landauAmplitude,
+  landauHalfLimitTimeS,
+  logGamma,
+  studentTQuantile,
+  Z_975,
+} from '../../dsp/fit';
+import { createRng, exponentialEnvelope, synthesize } from '../../dsp/synth';
+import type { EnvelopeSeries } from '../../dsp/types';
+import { expectedList, expectedScalar, ref } from '../reference/values';
+import { envelopePowerSeries } from './fit-fixtures';
+
+/** Mean and standard deviation of a list. */
+function meanSd(v: number[]): { mean: number; sd: number } {
+  const mean = v.reduce((a, b) => a + b, 0) / v.length;
+  const sd = Math.sqrt(v.reduce((a, b) => a + (b - mean) ** 2, 0) / (v.length - 1));
+  return { mean, sd };
+}
+
+describe('statistics helpers against scipy 1.17.1 (tests/reference/compute_values.py)', () => {
+  it('Student-t 0.975 quantiles, including non-integer degrees of freedom', () => {
+    const dofs = ref('scipy_studentT975').inputs.dof as number[];
+    const want = expectedList('scipy_studentT975');
+    dofs.forEach((nu, i) => expect(Math.abs(studentTQuantile(0.975, nu) - want[i])).toBeLessThan(1e-8 * want[i]));
+  });
+  it('normal and chi-square quantiles used by the intervals and the model choice', () => {
+    expect(Math.abs(Z_975 - expectedScalar('scipy_normal975'))).toBeLessThan(1e-14);
+    expect(Math.abs(CHI2_1DOF_99 - expectedScalar('scipy_chi2_99_1dof'))).toBeLessThan(1e-12);
+  });
+  it('regularised incomplete beta and log-gamma', () => {
+    const cases = ref('scipy_betainc').inputs.cases as number[][];
+    const want = expectedList('scipy_betainc');
+    cases.forEach(([x, a, b], i) => expect(Math.abs(incompleteBeta(x, a, b) - want[i])).toBeLessThan(1e-12));
+    const xs = ref('scipy_gammaln').inputs.x as number[];
+    const lg = expectedList('scipy_gammaln');
+    xs.forEach((x, i) => expect(Math.abs(logGamma(x) - lg[i])).toBeLessThan(1e-12));
+  });
+});
+
+describe('Stuart–Landau closed form (REFERENCES.md §6, s = 5, k = 5, A0 = 0.01)', () => {
+  const p = { ratePerS: 5, cubicCoefficient: 5, startAmplitude: 0.01 };
+  it('A(0.5) and A(1.0) (test vector 23) and A(2.0) (§6)', () => {
+    expect(Math.abs(landauAmplitude(0.5, p) - expectedScalar('v23_landauAt0p5'))).toBeLessThanOrEqual(ref('v23_landauAt0p5').tol);
+    expect(Math.abs(landauAmplitude(1.0, p) - expectedScalar('v23_landauAt1p0'))).toBeLessThanOrEqual(ref('v23_landauAt1p0').tol);
+    expect(Math.abs(landauAmplitude(2.0, p) - expectedScalar('s6_landauAt2p0'))).toBeLessThanOrEqual(ref('s6_landauAt2p0').tol);
+  });
+  it('half-limit time 0.811163 s (test vector 24)', () => {
+    expect(Math.abs(landauHalfLimitTimeS(p) - expectedScalar('v24_landauHalfTimeS'))).toBeLessThanOrEqual(ref('v24_landauHalfTimeS').tol);
+  });
+});
+
+// Envelope sampling used below: 200 samples/s, one-sided noise bandwidth 20 Hz, as a complex
+// demodulator with a ~20 Hz low-pass would deliver (DESIGN.md stage 4).
+const ENV = { envelopeRateHz: 200, bandwidthHz: 20 };
+
+describe('fitExponential', () => {
+  it('recovers rate, amplitude and background exactly from a noise-free curve (tolerance = solver convergence)', () => {
+    const n = 300;
+    const timeS = new Float64Array(n);
+    const power = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      timeS[i] = 1 + i / 200;
+      power[i] = 4e-4 * Math.exp(2 * 6 * (timeS[i] - 1)) + 2e-3;
+    }
+    const fit = fitExponential({ timeS, power, bandwidthHz: 20 }, { refTimeS: 1 });
+    expect(fit.isValid).toBe(true);
+    expect(fit.ratePerS / 6 - 1).toBeCloseTo(0, 6);
+    expect(fit.amplitudeAtRef / 0.02 - 1).toBeCloseTo(0, 5);
+    expect(fit.backgroundPower / 2e-3 - 1).toBeCloseTo(0, 5);
+    expect(backgroundCrossingTimeS(fit)).toBeCloseTo(1 + Math.log(2e-3 / 4e-4) / 12, 5);
+  });
+
+  it('a growth rising out of the noise floor: unbiased, where a straight line on ln A is biased low', () => {
+    // Truth s = 8 1/s; the tone starts 10 dB below the band noise and ends ~45 dB above it.
+    const ours: number[] = [];
+    const naive: number[] = [];
+    const sdReported: number[] = [];
+    for (let k = 0; k < 30; k++) {
+      const series = envelopePowerSeries({ ...ENV, amplitude: (t) => 0.01 * Math.exp(8 * t), noisePower: 1e-3, startS: 0, durationS: 0.8, seed: 500 + k });
+      const fit = fitExponential(series);
+      expect(fit.isValid).toBe(true);
+      ours.push(fit.ratePerS);
+      naive.push(fitLogLine(series));
+      sdReported.push((fit.ci95PerS[1] - fit.ci95PerS[0]) / (2 * 1.96));
+    }
+    const o = meanSd(ours);
+    const seMean = meanSd(sdReported).mean / Math.sqrt(ours.length);
+    // Consistent estimator (E[y] = A² + N² holds exactly): the mean of 30 fits lies within 4 standard errors.
+    expect(Math.abs(o.mean - 8)).toBeLessThan(4 * seMean);
+    // The log-line fit flattens where the noise floor dominates: biased low by far more than that.
+    expect(meanSd(naive).mean).toBeLessThan(8 - 20 * seMean);
+    // The reported interval width matches the actual spread (ratio within ±35 % for 30 draws).
+    expect(o.sd / meanSd(sdReported).mean).toBeGreaterThan(0.65);
+    expect(o.sd / meanSd(sdReported).mean).toBeLessThan(1.35);
+  });
+
+  it('a ring-down running into the noise floor, background known or fitted', () => {
+    const ours: number[] = [];
+    const fixed: number[] = [];
+    const naive: number[] = [];
+    for (let k = 0; k < 20; k++) {
+      const series = envelopePowerSeries({ ...ENV, amplitude: (t) => 0.5 * Math.exp(-6 * t), noisePower: 1e-4, startS: 0, durationS: 1.2, seed: 900 + k });
+      const fit = fitExponential(series);
+      const fitFixed = fitExponential(series, { backgroundPower: 1e-4 });
+      expect(fit.isValid && fitFixed.isValid).toBe(true);
+      expect(fitFixed.backgroundPower).toBe(1e-4);
+      ours.push(fit.ratePerS);
+      fixed.push(fitFixed.ratePerS);
+      naive.push(fitLogLine(series));
+    }
+    const o = meanSd(ours);
+    const f = meanSd(fixed);
+    expect(Math.abs(o.mean + 6)).toBeLessThan((4 * o.sd) / Math.sqrt(20));
+    expect(Math.abs(f.mean + 6)).toBeLessThan((4 * f.sd) / Math.sqrt(20));
+    // Knowing the background can only help.
+    expect(f.sd).toBeLessThan(o.sd * 1.1);
+    // The straight line bends into the floor: decay rate underestimated.
+    expect(meanSd(naive).mean).toBeGreaterThan(-5);
+  });
+
+  it('95 % interval coverage on 200 seeded growth records is 88–99 % (N_eff correction at work)', () => {
+    let covered = 0;
+    let coveredNoCorrection = 0;
+    const trials = 200;
+    for (let k = 0; k < trials; k++) {
+      const series = envelopePowerSeries({ ...ENV, amplitude: (t) => 0.02 * Math.exp(5 * t), noisePower: 2e-3, startS: 0, durationS: 1, seed: 10_000 + k });
+      const fit = fitExponential(series);
+      if (fit.ci95PerS[0] <= 5 && 5 <= fit.ci95PerS[1]) covered++;
+      // The same interval without the correlation correction: narrower by √(n/N_eff).
+      const half = (fit.ci95PerS[1] - fit.ci95PerS[0]) / 2 / Math.sqrt(series.timeS.length / fit.nEffective);
+      if (Math.abs(fit.ratePerS - 5) <= half) coveredNoCorrection++;
+    }
+    // Binomial sd at 95 % and n = 200 is 1.5 %: 88–99 % is ±4.5 sd low, +2.5 sd high.
+    expect(covered / trials).toBeGreaterThanOrEqual(0.88);
+    expect(covered / trials).toBeLessThanOrEqual(0.99);
+    // Treating correlated samples as independent would give intervals that are far too narrow.
+    expect(coveredNoCorrection / trials).toBeLessThan(0.8);
+  });
+
+  it('decay-record coverage with a fixed background, 100 seeds: 88–99 %', () => {
+    let covered = 0;
+    for (let k = 0; k < 100; k++) {
+      // Starts 22 dB above the band noise at t = 2 s and sinks ~4 dB below it by the end.
+      const series = envelopePowerSeries({ ...ENV, amplitude: (t) => 0.3 * Math.exp(-4 * (t - 2)), noisePower: 5e-4, startS: 2, durationS: 1.5, seed: 20_000 + k });
+      const fit = fitExponential(series, { backgroundPower: 5e-4 });
+      if (fit.ci95PerS[0] <= -4 && -4 <= fit.ci95PerS[1]) covered++;
+    }
+    expect(covered).toBeGreaterThanOrEqual(88);
+    expect(covered).toBeLessThanOrEqual(99);
+  });
+
+  it('ignores the time origin and the power scale (property, 20 seeded cases)', () => {
+    const rng = createRng(77);
+    for (let k = 0; k < 20; k++) {
+      const rate = 2 + 10 * rng.uniform();
+      const series = envelopePowerSeries({ ...ENV, amplitude: (t) => 0.01 * Math.exp(rate * t), noisePower: 1e-3, startS: 0, durationS: 0.8, seed: 40_000 + k });
+      const shift = 100 * rng.uniform();
+      const scale = 10 ** (4 * rng.uniform() - 2);
+      const moved: EnvelopeSeries = {
+        timeS: series.timeS.map((t) => t + shift),
+        power: series.power.map((p) => p * scale),
+        bandwidthHz: series.bandwidthHz,
+      };
+      const a = fitExponential(series);
+      const b = fitExponential(moved);
+      expect(Math.abs(b.ratePerS - a.ratePerS)).toBeLessThan(1e-5 * Math.abs(a.ratePerS));
+      expect(b.amplitudeAtRef / (a.amplitudeAtRef * Math.sqrt(scale)) - 1).toBeCloseTo(0, 4);
+    }
+  });
+
+  it('on a tone from dsp/synth.ts demodulated in the test: rate within the reported interval', () => {
+    // 170 Hz tone growing at 6 1/s in white noise, 8 kHz. Demodulation: heterodyne, then a 40-sample
+    // moving average evaluated every 40 samples (200 envelope samples/s). A moving average of M
+    // samples has a one-sided noise-equivalent bandwidth of fs/(2M) = 100 Hz.
+    const fs = 8000;
+    const x = synthesize({ sampleRateHz: fs, durationS: 1.2, tones: [{ frequencyHz: 170, envelope: exponentialEnvelope(0.003, 6, 0) }], noiseRms: 0.02, seed: 3 });
+    const m = 40;
+    const count = Math.floor(x.length / m);
+    const timeS = new Float64Array(count);
+    const power = new Float64Array(count);
+    for (let j = 0; j < count; j++) {
+      let re = 0;
+      let im = 0;
+      for (let i = j * m; i < (j + 1) * m; i++) {
+        const ph = (2 * Math.PI * 170 * i) / fs;
+        re += x[i] * Math.cos(ph);
+        im -= x[i] * Math.sin(ph);
+      }
+      // Mean of x·e^{−iωt} is A/2 for a tone of amplitude A: scale by 2 so power is A².
+      re = (2 * re) / m;
+      im = (2 * im) / m;
+      timeS[j] = (j * m + (m - 1) / 2) / fs;
+      power[j] = re * re + im * im;
+    }
+    const fit = fitExponential({ timeS, power, bandwidthHz: fs / (2 * m) });
+    expect(fit.isValid).toBe(true);
+    expect(fit.ci95PerS[0]).toBeLessThanOrEqual(6);
+    expect(fit.ci95PerS[1]).toBeGreaterThanOrEqual(6);
+    // Background: white noise of variance σ² mixed and averaged over M samples gives E|2·mean|² = 4σ²/M.
+    expect(fit.backgroundPower / ((4 * 0.02 ** 2) / m)).toBeGreaterThan(0.7);
+    expect(fit.backgroundPower / ((4 * 0.02 ** 2) / m)).toBeLessThan(1.4);
+  });
+
+  it('refuses bad input with a clear reason', () => {
+    const t = Float64Array.from({ length: 50 }, (_, i) => i / 100);
+    const p = Float64Array.from({ length: 50 }, () => 1);
+    expect(fitExponential({ timeS: t, power: p.subarray(0, 40), bandwidthHz: 20 }).reason).toMatch(/length/);
+    expect(fitExponential({ timeS: t.subarray(0, 3), power: p.subarray(0, 3), bandwidthHz: 20 }).reason).toMatch(/too few/);
+    const bad = Float64Array.from(p);
+    bad[7] = Number.NaN;
+    expect(fitExponential({ timeS: t, power: bad, bandwidthHz: 20 }).reason).toMatch(/non-finite/);
+    bad[7] = -1;
+    expect(fitExponential({ timeS: t, power: bad, bandwidthHz: 20 }).reason).toMatch(/negative/);
+    expect(fitExponential({ timeS: t, power: p, bandwidthHz: 0 }).reason).toMatch(/bandwidth/);
+    // 0.5 s at 2 Hz bandwidth holds only 2 independent samples.
+    const short = fitExponential({ timeS: t, power: p, bandwidthHz: 2 });
+    expect(short.isValid).toBe(false);
+    expect(short.reason).toMatch(/N_eff/);
+  });
+});
+
+describe('fitSaturation', () => {
+  // Truth: the Stuart–Landau curve of test vectors 23/24 (s = 5, k = 5, A0 = 0.01, A∞ = 1).
+  const landau = { ratePerS: 5, cubicCoefficient: 5, startAmplitude: 0.01 };
+
+  it('recovers s, A∞ and the half-limit time from growth into a limit cycle; the log-line slope is not s', () => {
+    let covered = 0;
+    const rates: number[] = [];
+    for (let k = 0; k < 10; k++) {
+      const series = envelopePowerSeries({ ...ENV, amplitude: (t) => landauAmplitude(t, landau), noisePower: 1e-4, startS: 0, durationS: 2, seed: 60_000 + k });
+      const fit = fitSaturation(series);
+      expect(fit.isValid).toBe(true);
+      expect(fit.model).toBe('stuart-landau');
+      rates.push(fit.ratePerS);
+      if (fit.ci95PerS[0] <= 5 && 5 <= fit.ci95PerS[1]) covered++;
+      // A∞ from the plateau (≈ 240 near-independent samples of relative sd ~1 %): within 2 %.
+      expect(Math.abs(fit.limitAmplitude - 1)).toBeLessThan(0.02);
+      // Half-limit time: the curve crosses A∞/2 at ~0.1 A∞ per 10 ms, well resolved: within 10 ms.
+      expect(Math.abs(fit.halfTimeS - expectedScalar('v24_landauHalfTimeS'))).toBeLessThan(0.01);
+      // The window holds noise floor, growth and plateau: a straight line on ln A says ~2 1/s.
+      expect(fitLogLine(series)).toBeLessThan(3);
+    }
+    // 10 draws at 95 %: P(fewer than 8 covered) ≈ 1 %.
+    expect(covered).toBeGreaterThanOrEqual(8);
+    expect(Math.abs(meanSd(rates).mean - 5)).toBeLessThan(0.1);
+  });
+
+  it('selects the generalised model for a sharp knee (p = 8) and still recovers the linear rate', () => {
+    // dA/dt = sA(1 − (A/A∞)^p): A² = A∞²·(1 + e^{−p s (t − tc)})^{−2/p}, s = 5, p = 8.
+    const p = 8;
+    const amp = (t: number): number => (1 + Math.exp(-p * 5 * (t - 1))) ** (-1 / p);
+    let selected = 0;
+    let covered = 0;
+    for (let k = 0; k < 6; k++) {
+      const series = envelopePowerSeries({ ...ENV, amplitude: amp, noisePower: 1e-4, startS: 0, durationS: 2, seed: 70_000 + k });
+      const fit = fitSaturation(series);
+      if (fit.model === 'generalised-saturation') selected++;
+      if (fit.ci95PerS[0] <= 5 && 5 <= fit.ci95PerS[1]) covered++;
+      // Half-limit time of the flexible form: tc − ln(2^p − 1)/(p s).
+      expect(Math.abs(fit.halfTimeS - (1 - Math.log(2 ** p - 1) / (p * 5)))).toBeLessThan(0.02);
+    }
+    expect(selected).toBe(6);
+    expect(covered).toBeGreaterThanOrEqual(5);
+  });
+
+  it('keeps Stuart–Landau when the data follow it (test at the 1 % level: at most 1 of 10 switches)', () => {
+    let switched = 0;
+    for (let k = 0; k < 10; k++) {
+      const series = envelopePowerSeries({ ...ENV, amplitude: (t) => landauAmplitude(t, landau), noisePower: 3e-3, startS: 0, durationS: 2, seed: 80_000 + k });
+      if (fitSaturation(series).model !== 'stuart-landau') switched++;
+    }
+    expect(switched).toBeLessThanOrEqual(1);
+  });
+});
