@@ -1,0 +1,335 @@
+/**
+ * Stage 1, input conditioning: anti-aliased decimation by a power of two to an analysis rate that
+ * covers the band of interest, DC removal, and clipping detection on the raw input.
+ *
+ * Decimation is a cascade of half-band FIR stages (each halves the rate). Each stage is a
+ * Kaiser-windowed sinc whose transition band runs from the top of the band of interest to the
+ * image of that edge, so nothing aliases into the band (Kaiser 1974, "Nonrecursive digital filter
+ * design using the I0-sinh window function"; half-band structure: every second tap is zero).
+ * Every filter runs sample by sample on its own state, so the output does not depend on how the
+ * input is cut into blocks.
+ */
+
+/** Largest block the conditioner takes in one step; longer input is fed in chunks by the caller. */
+export const CONDITION_MAX_BLOCK = 8192;
+
+/** |x| at or above this counts as full scale (−0.009 dBFS). */
+export const CLIP_LEVEL = 0.999;
+/** Consecutive full-scale samples that make a clipped stretch. */
+export const CLIP_RUN_SAMPLES = 3;
+/** Clipped stretches closer than this are merged into one span, s. */
+const CLIP_MERGE_S = 0.05;
+/** Most clipped spans kept (a warning says when more occurred). */
+export const CLIP_MAX_SPANS = 2048;
+
+/** Stop-band attenuation of each half-band stage, dB. */
+const STOPBAND_DB = 80;
+
+export interface ConditionConfig {
+  sampleRateHz: number;
+  bandLowHz: number;
+  bandHighHz: number;
+}
+
+interface HalfBandStage {
+  /** Coefficients of the non-zero odd offsets k = 1, 3, 5, ... from the centre (symmetric). */
+  oddTaps: Float64Array;
+  centreTap: number;
+  length: number;
+  /** Linear work buffer: the last length − 1 inputs, then the current block. */
+  work: Float64Array;
+  /** Parity of the inputs seen: an output is produced on every second input. */
+  parity: number;
+}
+
+export interface ConditionState {
+  readonly inputRateHz: number;
+  readonly outputRateHz: number;
+  /** Input samples per output sample (a power of two, 1 when the input rate is already low). */
+  readonly decimation: number;
+  /** Group delay of the decimation chain, s (linear phase, exact). */
+  readonly delayS: number;
+  /** Band actually analysed, Hz (the high edge may be lowered for low input rates). */
+  readonly bandLowHz: number;
+  readonly bandHighHz: number;
+  stages: HalfBandStage[];
+  scratchA: Float64Array;
+  scratchB: Float64Array;
+  clipScratch: Uint8Array;
+  /** DC blocker: y = x − x1 + r·y1. */
+  dcR: number;
+  dcX1: number;
+  dcY1: number;
+  /** Outputs of the last step (valid up to outCount). */
+  out: Float32Array;
+  /** 1 where the input samples that fed this output held clipping. */
+  outClipped: Uint8Array;
+  outCount: number;
+  /** Peak |x| of the last step's input. */
+  peakAbs: number;
+  isClipped: boolean;
+  /** Input samples since the start or the latest gap (gaps excluded); keeps the decimation phase. */
+  inputCount: number;
+  /** Current run of full-scale samples. */
+  clipRun: number;
+  /** Clipping seen in the output window still being filled. */
+  clipCarry: number;
+  /** Clipped spans, in input sample time (s), with the time offset of gaps applied. */
+  clipStartS: Float64Array;
+  clipEndS: Float64Array;
+  clipCount: number;
+  clipDropped: number;
+  /** Offset added to input time by gaps, s. */
+  timeOffsetS: number;
+}
+
+/** Zeroth-order modified Bessel function of the first kind, power series (for the Kaiser window). */
+function besselI0(x: number): number {
+  let sum = 1;
+  let term = 1;
+  const q = (x * x) / 4;
+  for (let k = 1; k < 60; k++) {
+    term *= q / (k * k);
+    sum += term;
+    if (term < 1e-17 * sum) break;
+  }
+  return sum;
+}
+
+/**
+ * Designs one half-band low-pass stage (cut-off at a quarter of its input rate) whose pass band
+ * reaches passHz at input rate rateHz. Length from Kaiser's formula N = (A − 7.95)/(2.285 Δω).
+ */
+function createHalfBandStage(rateHz: number, passHz: number): HalfBandStage {
+  const transition = (rateHz / 2 - 2 * passHz) / rateHz;
+  if (!(transition > 0)) throw new RangeError(`bandHighHz too close to the analysis Nyquist frequency (${passHz} Hz at ${rateHz} Hz)`);
+  const estimate = Math.ceil((STOPBAND_DB - 7.95) / (2.285 * 2 * Math.PI * transition)) + 1;
+  // Half-band length 4K + 3: the outermost taps sit at odd offsets and are non-zero.
+  const k = Math.max(0, Math.ceil((estimate - 3) / 4));
+  const length = 4 * k + 3;
+  const half = (length - 1) / 2;
+  const beta = 0.1102 * (STOPBAND_DB - 8.7);
+  const i0b = besselI0(beta);
+  const oddTaps = new Float64Array((half + 1) / 2);
+  let sum = 0.5;
+  for (let j = 0; j < oddTaps.length; j++) {
+    const off = 2 * j + 1;
+    const r = off / half;
+    const w = besselI0(beta * Math.sqrt(1 - r * r)) / i0b;
+    const h = (Math.sin((Math.PI * off) / 2) / (Math.PI * off)) * w;
+    oddTaps[j] = h;
+    sum += 2 * h;
+  }
+  // Unit gain at DC.
+  for (let j = 0; j < oddTaps.length; j++) oddTaps[j] /= sum;
+  return { oddTaps, centreTap: 0.5 / sum, length, work: new Float64Array(length - 1 + CONDITION_MAX_BLOCK), parity: 0 };
+}
+
+/** Creates the conditioner; throws RangeError for an unusable rate or band. */
+export function createConditionState(cfg: ConditionConfig): ConditionState {
+  const fs = cfg.sampleRateHz;
+  if (!Number.isFinite(fs) || fs < 8000 || fs > 192000) throw new RangeError(`sampleRateHz must be 8000-192000 Hz, got ${fs}`);
+  if (!(cfg.bandLowHz > 0) || !(cfg.bandHighHz > cfg.bandLowHz)) {
+    throw new RangeError(`band must satisfy 0 < bandLowHz < bandHighHz, got ${cfg.bandLowHz}-${cfg.bandHighHz} Hz`);
+  }
+  // The analysed band never reaches closer than 10 % to the Nyquist frequency of the input.
+  const bandHighHz = Math.min(cfg.bandHighHz, 0.4 * fs);
+  if (cfg.bandLowHz >= bandHighHz) throw new RangeError(`bandLowHz ${cfg.bandLowHz} Hz is above the usable band at ${fs} Hz`);
+  // Largest power-of-two decimation keeping the output rate ≥ 2.5 × the band's top.
+  let decimation = 1;
+  while (fs / (decimation * 2) >= 2.5 * bandHighHz) decimation *= 2;
+  const passHz = Math.min(1.1 * bandHighHz, 0.45 * (fs / decimation));
+  const stages: HalfBandStage[] = [];
+  let delayS = 0;
+  let rate = fs;
+  for (let d = decimation; d > 1; d /= 2) {
+    const st = createHalfBandStage(rate, passHz);
+    stages.push(st);
+    delayS += (st.length - 1) / 2 / rate;
+    rate /= 2;
+  }
+  const outRate = fs / decimation;
+  const outCap = Math.ceil(CONDITION_MAX_BLOCK / decimation) + 2;
+  return {
+    inputRateHz: fs,
+    outputRateHz: outRate,
+    decimation,
+    delayS,
+    bandLowHz: cfg.bandLowHz,
+    bandHighHz,
+    stages,
+    scratchA: new Float64Array(CONDITION_MAX_BLOCK),
+    scratchB: new Float64Array(CONDITION_MAX_BLOCK),
+    clipScratch: new Uint8Array(CONDITION_MAX_BLOCK),
+    // Corner a quarter of the band's low edge: removes offset and drift, leaves the band flat.
+    dcR: Math.exp((-2 * Math.PI * (cfg.bandLowHz / 4)) / outRate),
+    dcX1: 0,
+    dcY1: 0,
+    out: new Float32Array(outCap),
+    outClipped: new Uint8Array(outCap),
+    outCount: 0,
+    peakAbs: 0,
+    isClipped: false,
+    inputCount: 0,
+    clipRun: 0,
+    clipCarry: 0,
+    clipStartS: new Float64Array(CLIP_MAX_SPANS),
+    clipEndS: new Float64Array(CLIP_MAX_SPANS),
+    clipCount: 0,
+    clipDropped: 0,
+    timeOffsetS: 0,
+  };
+}
+
+function recordClippedSample(st: ConditionState, timeS: number, runStartS: number): void {
+  const n = st.clipCount;
+  if (n > 0 && runStartS - st.clipEndS[n - 1] <= CLIP_MERGE_S) {
+    st.clipEndS[n - 1] = timeS;
+    return;
+  }
+  if (n >= CLIP_MAX_SPANS) {
+    st.clipDropped++;
+    return;
+  }
+  st.clipStartS[n] = runStartS;
+  st.clipEndS[n] = timeS;
+  st.clipCount = n + 1;
+}
+
+/** Runs one half-band stage over src[0 .. n) into dst; returns the number of outputs. */
+function runHalfBand(stg: HalfBandStage, src: Float64Array | null, n: number, dst: Float64Array): number {
+  const L = stg.length;
+  const w = stg.work;
+  const hist = L - 1;
+  // src null: the input is already in the work buffer.
+  if (src !== null) for (let i = 0; i < n; i++) w[hist + i] = src[i];
+  const taps = stg.oddTaps;
+  const nt = taps.length;
+  const c0 = stg.centreTap;
+  const h = (L - 1) / 2;
+  let m = 0;
+  // Input i completes a pair when the running count is odd; its window is w[i .. i + L − 1].
+  for (let i = stg.parity === 1 ? 0 : 1; i < n; i += 2) {
+    const centre = i + h;
+    let acc = c0 * w[centre];
+    for (let j = 0; j < nt; j++) {
+      const off = 2 * j + 1;
+      acc += taps[j] * (w[centre - off] + w[centre + off]);
+    }
+    dst[m++] = acc;
+  }
+  stg.parity = (stg.parity + n) & 1;
+  w.copyWithin(0, n, n + hist);
+  return m;
+}
+
+/** Marks the clipped samples of a block (slow path, only for blocks that reach full scale). */
+function scanClipping(st: ConditionState, block: Float32Array): void {
+  const fs = st.inputRateHz;
+  const n = block.length;
+  const d = st.decimation;
+  const clip = st.clipScratch;
+  let phase = st.inputCount % d;
+  let m = 0;
+  let flag = 0;
+  for (let i = 0; i < n; i++) {
+    const x = block[i];
+    const ax = x < 0 ? -x : x;
+    if (ax >= CLIP_LEVEL || !(ax <= 1e30)) {
+      st.clipRun++;
+      if (st.clipRun >= CLIP_RUN_SAMPLES) {
+        const tS = (st.inputCount + i) / fs + st.timeOffsetS;
+        recordClippedSample(st, tS, tS - (st.clipRun - 1) / fs);
+        st.isClipped = true;
+        flag = 1;
+      }
+    } else st.clipRun = 0;
+    if (++phase === d) {
+      clip[m++] = flag | st.clipCarry;
+      st.clipCarry = 0;
+      flag = 0;
+      phase = 0;
+    }
+  }
+  st.clipCarry |= flag;
+}
+
+/**
+ * Conditions one block (length ≤ CONDITION_MAX_BLOCK): writes the analysis-rate samples into
+ * st.out[0 .. st.outCount) and their clipping flags into st.outClipped. Allocates nothing.
+ */
+export function stepCondition(st: ConditionState, block: Float32Array): void {
+  const n = block.length;
+  // The first half-band stage reads its input straight from its work buffer.
+  const first = st.stages.length > 0 ? st.stages[0] : null;
+  const a = first !== null ? first.work : st.scratchA;
+  const off = first !== null ? first.length - 1 : 0;
+  let peak = 0;
+  let nonFinite = 0;
+  for (let i = 0; i < n; i++) {
+    const x = block[i];
+    const ax = x < 0 ? -x : x;
+    if (ax > peak) peak = ax;
+    nonFinite += x * 0;
+    a[off + i] = x;
+  }
+  st.peakAbs = peak;
+  st.isClipped = false;
+  const mayClip = peak >= CLIP_LEVEL || nonFinite !== 0;
+  if (mayClip) {
+    // Non-finite samples are replaced by 0 so the filters stay finite (they count as clipped).
+    for (let i = off; i < off + n; i++) if (!(Math.abs(a[i]) <= 1e30)) a[i] = 0;
+    scanClipping(st, block);
+  } else st.clipRun = 0;
+  const carryBefore = st.clipCarry;
+
+  let src = st.scratchA;
+  let dst = st.scratchB;
+  let len = n;
+  for (let s = 0; s < st.stages.length; s++) {
+    len = runHalfBand(st.stages[s], s === 0 ? null : src, len, dst);
+    const t = src;
+    src = dst;
+    dst = t;
+  }
+  const out = st.out;
+  const outClipped = st.outClipped;
+  const r = st.dcR;
+  let x1 = st.dcX1;
+  let y1 = st.dcY1;
+  for (let i = 0; i < len; i++) {
+    const x = src[i];
+    const y = x - x1 + r * y1;
+    x1 = x;
+    y1 = y;
+    out[i] = y;
+  }
+  if (mayClip) for (let i = 0; i < len; i++) outClipped[i] = st.clipScratch[i];
+  else {
+    outClipped.fill(0, 0, len);
+    // A clipped input still pending in an unfinished output window marks that output.
+    if (carryBefore && len > 0) {
+      outClipped[0] = 1;
+      st.clipCarry = 0;
+    }
+  }
+  st.dcX1 = x1;
+  st.dcY1 = y1;
+  st.outCount = len;
+  st.inputCount += n;
+}
+
+/** Restarts the filters after missing input (a gap of missingSamples input samples). */
+export function gapCondition(st: ConditionState, missingSamples: number): void {
+  for (const stg of st.stages) {
+    stg.work.fill(0);
+    stg.parity = 0;
+  }
+  st.clipCarry = 0;
+  // Clip times continue from the restart: the decimation phase starts afresh after the gap.
+  st.timeOffsetS += (st.inputCount + missingSamples) / st.inputRateHz;
+  st.inputCount = 0;
+  st.dcX1 = 0;
+  st.dcY1 = 0;
+  st.clipRun = 0;
+}

@@ -1,0 +1,201 @@
+/**
+ * Stage 3a, spectral peaks: local maxima of the averaged spectrum that stand out from the local
+ * noise floor, sub-bin frequency by the exact Hann three-point interpolator, harmonic grouping so a
+ * tone's fundamental is reported rather than 2f, and the narrow-band background around a tone.
+ */
+import { localFloorMean, type SpectrumState } from './spectrum';
+
+/**
+ * Sub-bin offset δ (bins, −0.5..0.5 for a true peak) of a tone from the magnitudes of the peak bin
+ * and its neighbours under a periodic Hann window: δ = 2 (|X(k+1)| − |X(k−1)|) / (|X(k−1)| +
+ * 2|X(k)| + |X(k+1)|). Exact for an isolated noise-free tone (only the negative-frequency image
+ * errs). Three-point form of Grandke 1983, "Interpolation algorithms for discrete Fourier
+ * transforms of weighted signals", IEEE Trans. Instrum. Meas. 32(2); REFERENCES.md §9.
+ */
+export function hannPeakOffset(magPrev: number, magPeak: number, magNext: number): number {
+  const den = magPrev + 2 * magPeak + magNext;
+  if (!(den > 0)) return 0;
+  return (2 * (magNext - magPrev)) / den;
+}
+
+/**
+ * Periodic-Hann amplitude response at δ bins from the centre, relative to the centre:
+ * sinc(δ)/(1 − δ²) (Harris 1978). Divide a peak bin's magnitude by this to get the tone amplitude.
+ */
+export function hannAmplitudeResponse(offsetBins: number): number {
+  const d = offsetBins;
+  if (Math.abs(d) < 1e-9) return 1;
+  if (Math.abs(Math.abs(d) - 1) < 1e-9) return 0.5;
+  return Math.sin(Math.PI * d) / (Math.PI * d) / (1 - d * d);
+}
+
+/** Peaks found in one frame (fixed capacity, reused). */
+export interface PeakList {
+  count: number;
+  capacity: number;
+  freqHz: Float64Array;
+  /** Peak bin in the averaged spectrum. */
+  bin: Int32Array;
+  /** Peak power over the local floor, dB. */
+  prominenceDb: Float64Array;
+  /** Interpolated peak power (amplitude² of the tone). */
+  power: Float64Array;
+  /** Order of the harmonic if this peak belongs to a lower peak (0 = a fundamental). */
+  harmonicOf: Int32Array;
+}
+
+export function createPeakList(capacity: number): PeakList {
+  return {
+    count: 0,
+    capacity,
+    freqHz: new Float64Array(capacity),
+    bin: new Int32Array(capacity),
+    prominenceDb: new Float64Array(capacity),
+    power: new Float64Array(capacity),
+    harmonicOf: new Int32Array(capacity),
+  };
+}
+
+/** Floor of the prominence test: bins inner..outer away on both sides. */
+export const FLOOR_INNER_BINS = 4;
+export const FLOOR_OUTER_BINS = 24;
+
+/** Prominence (dB) of bin k of the averaged spectrum over its local floor. */
+export function prominenceDb(st: SpectrumState, k: number, loBin: number, hiBin: number): number {
+  const floor = localFloorMean(st, k, FLOOR_INNER_BINS, FLOOR_OUTER_BINS, loBin, hiBin);
+  if (!(floor > 0)) return 0;
+  return 10 * Math.log10(st.smooth[k] / floor);
+}
+
+/** Interpolated frequency (Hz) of the peak at bin k, from the latest frame when it peaks there, else the average. */
+export function peakFrequencyHz(st: SpectrumState, k: number): number {
+  const p = st.power;
+  const useFrame = p[k] >= p[k - 1] && p[k] >= p[k + 1];
+  const src = useFrame ? p : st.smooth;
+  const d = hannPeakOffset(Math.sqrt(src[k - 1]), Math.sqrt(src[k]), Math.sqrt(src[k + 1]));
+  return (k + d) * st.binHz;
+}
+
+/**
+ * Finds local maxima of the averaged spectrum between loBin and hiBin (exclusive) whose prominence
+ * is at least minProminenceDb; keeps the strongest out.capacity by prominence. Allocates nothing.
+ */
+export function findPeaks(st: SpectrumState, loBin: number, hiBin: number, minProminenceDb: number, out: PeakList): void {
+  const sm = st.smooth;
+  const lo = Math.max(1, loBin);
+  const hi = Math.min(st.binCount - 1, hiBin);
+  out.count = 0;
+  for (let k = lo; k < hi; k++) {
+    const v = sm[k];
+    if (!(v > sm[k - 1] && v >= sm[k + 1])) continue;
+    const prom = prominenceDb(st, k, lo, hi);
+    if (prom < minProminenceDb) continue;
+    let slot = out.count;
+    if (slot >= out.capacity) {
+      // Replace the weakest kept peak when this one is stronger.
+      let weakest = 0;
+      for (let j = 1; j < out.count; j++) if (out.prominenceDb[j] < out.prominenceDb[weakest]) weakest = j;
+      if (out.prominenceDb[weakest] >= prom) continue;
+      slot = weakest;
+    } else out.count++;
+    const f = peakFrequencyHz(st, k);
+    const d = f / st.binHz - k;
+    out.freqHz[slot] = f;
+    out.bin[slot] = k;
+    out.prominenceDb[slot] = prom;
+    out.power[slot] = sm[k] / (hannAmplitudeResponse(d) * hannAmplitudeResponse(d));
+    out.harmonicOf[slot] = 0;
+  }
+}
+
+/**
+ * Harmonic grouping: a peak lying at n × the frequency of a lower peak (n = 2..8, within
+ * tolerance) is marked as that peak's n-th harmonic; a strong peak whose half or third shows a
+ * weaker local maximum (prominence ≥ subMinProminenceDb) is moved down to that fundamental.
+ * Afterwards only peaks with harmonicOf = 0 are fundamentals. Allocates nothing.
+ */
+export function groupHarmonics(st: SpectrumState, peaks: PeakList, loBin: number, hiBin: number, subMinProminenceDb: number): void {
+  const binHz = st.binHz;
+  // 1. Move peaks down to a weaker fundamental at f/2 or f/3 (repeat for f/4 = (f/2)/2).
+  for (let i = 0; i < peaks.count; i++) {
+    for (let iter = 0; iter < 3; iter++) {
+      let moved = false;
+      for (let n = 2; n <= 3 && !moved; n++) {
+        const target = peaks.freqHz[i] / n / binHz;
+        const k0 = Math.round(target);
+        for (let k = k0 - 1; k <= k0 + 1; k++) {
+          if (k <= Math.max(1, loBin) || k >= hiBin - 1) continue;
+          const sm = st.smooth;
+          if (!(sm[k] > sm[k - 1] && sm[k] >= sm[k + 1])) continue;
+          if (prominenceDb(st, k, loBin, hiBin) < subMinProminenceDb) continue;
+          const f = peakFrequencyHz(st, k);
+          if (Math.abs(f * n - peaks.freqHz[i]) > 0.6 * binHz + 0.004 * peaks.freqHz[i]) continue;
+          peaks.freqHz[i] = f;
+          peaks.bin[i] = k;
+          moved = true;
+          break;
+        }
+      }
+      if (!moved) break;
+    }
+  }
+  // 2. Mark harmonics of lower peaks and duplicates.
+  for (let i = 0; i < peaks.count; i++) {
+    const fi = peaks.freqHz[i];
+    for (let j = 0; j < peaks.count; j++) {
+      if (j === i || peaks.harmonicOf[j] !== 0) continue;
+      const fj = peaks.freqHz[j];
+      if (fj > fi * 1.001) continue;
+      const n = Math.round(fi / fj);
+      if (n < 1 || n > 8) continue;
+      if (Math.abs(fi - n * fj) > 0.6 * binHz + 0.004 * fi) continue;
+      if (n === 1) {
+        // Two entries for one fundamental: keep the more prominent.
+        if (peaks.prominenceDb[j] > peaks.prominenceDb[i] || (peaks.prominenceDb[j] === peaks.prominenceDb[i] && j < i)) {
+          peaks.harmonicOf[i] = 1;
+          break;
+        }
+        continue;
+      }
+      peaks.harmonicOf[i] = n;
+      break;
+    }
+  }
+}
+
+/**
+ * Mean noise power per bin near a tone at bin k of `power` (one frame, unsmoothed): the median of
+ * the bins inner..outer away on both sides divided by ln 2 (the median of an exponentially
+ * distributed noise bin is ln 2 × its mean), robust to other tones and leakage among them.
+ * scratch must hold 2 × (outer − inner + 1) values.
+ */
+export function neighbourNoisePower(
+  power: Float64Array,
+  k: number,
+  inner: number,
+  outer: number,
+  loBin: number,
+  hiBin: number,
+  scratch: Float64Array,
+): number {
+  let m = 0;
+  for (let d = inner; d <= outer; d++) {
+    const a = k - d;
+    const b = k + d;
+    if (a >= loBin && a >= 1) scratch[m++] = power[a];
+    if (b < hiBin) scratch[m++] = power[b];
+  }
+  if (m === 0) return 0;
+  // Insertion sort of a few dozen values.
+  for (let i = 1; i < m; i++) {
+    const v = scratch[i];
+    let j = i - 1;
+    while (j >= 0 && scratch[j] > v) {
+      scratch[j + 1] = scratch[j];
+      j--;
+    }
+    scratch[j + 1] = v;
+  }
+  const med = m % 2 === 1 ? scratch[(m - 1) / 2] : 0.5 * (scratch[m / 2 - 1] + scratch[m / 2]);
+  return med / Math.LN2;
+}

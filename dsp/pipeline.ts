@@ -1,0 +1,1173 @@
+/**
+ * The streaming analysis (DESIGN.md stages 1-7): one object for the live microphone and for
+ * files. push(block) conditions the samples, frames the spectrum, tracks tones, demodulates
+ * each tracked tone's envelope and follows its regime; finish() fits the segments and writes the
+ * report. Every stage runs sample by sample on its own state and frame work happens at fixed
+ * sample counts, so results do not depend on how the input is cut into blocks.
+ *
+ * Time alignment: the decimation filters (linear phase) and the envelope low-pass (group delay at
+ * DC) delay their outputs; sample times are corrected for both. The regime of a tone reads its
+ * envelope only up to the centre of the latest spectral frame, so the band background (from that
+ * frame) and the envelope describe the same moment.
+ */
+import {
+  CONDITION_MAX_BLOCK,
+  createConditionState,
+  gapCondition,
+  stepCondition,
+  type ConditionState,
+} from './condition';
+import { estimateNoiseDrivenDamping } from './damping';
+import { deriveSummary } from './derived';
+import {
+  bandPowerFromBinPower,
+  createEnvelopeState,
+  resetEnvelope,
+  setEnvelopeFrequency,
+  stepEnvelope,
+  type EnvelopeState,
+} from './envelope';
+import { backgroundCrossingTimeS, fitExponential, fitSaturation } from './fit';
+import { createPeakList, findPeaks, groupHarmonics, neighbourNoisePower, type PeakList } from './peak';
+import {
+  beginRegimeStep,
+  createRegimeState,
+  finishRegime,
+  regimeKind,
+  restartRegime,
+  stepRegime,
+  STATE_DECAY,
+  STATE_GROWTH,
+  STATE_QUIET,
+  STATE_STEADY,
+  type RegimeSegment,
+  type RegimeState,
+} from './regime';
+import {
+  computeSpectrumFrame,
+  createSpectrumState,
+  feedSpectrum,
+  localFloorMean,
+  resetSpectrumFraming,
+  type SpectrumState,
+} from './spectrum';
+import {
+  createToneTrack,
+  createTrackerState,
+  isMainsLine,
+  matchToleranceHz,
+  medianFrequencyHz,
+  resetTentative,
+  stepTracker,
+  type ToneTrack,
+  type TrackerState,
+} from './track';
+import {
+  REPORT_VERSION,
+  type Analysis,
+  type AnalysisConfig,
+  type AnalysisUpdate,
+  type ClippedSpan,
+  type EnvelopeSeries,
+  type Interval,
+  type Marker,
+  type NoiseDriven,
+  type Onset,
+  type RateFit,
+  type Report,
+  type Segment,
+  type TrackFrame,
+} from './types';
+
+/** Analysis frame length, s (rounded to a power of two of samples): ~3 Hz bins. */
+const FRAME_S = 0.32;
+/** Envelope samples per second (about). */
+const ENVELOPE_RATE_HZ = 300;
+/** Envelope low-pass cut-off: the narrow band is ±5 Hz around the tone. */
+const ENVELOPE_CUTOFF_HZ = 5;
+/** Track rows per second (about). */
+const ROW_RATE_HZ = 100;
+/** History kept for tones detected late (their envelope is rebuilt from here), s. */
+const HISTORY_S = 10;
+/** Prominence for a peak to be listed / to start a tentative track, dB. */
+const PEAK_MIN_DB = 6;
+const NEW_TRACK_MIN_DB = 9;
+/** Prominence of a weaker peak at f/2 or f/3 that makes it the fundamental, dB. */
+const SUBHARMONIC_MIN_DB = 6;
+/** Background bins beside a tone: inner..outer bins away. */
+const BG_INNER_BINS = 6;
+const BG_OUTER_BINS = 30;
+/** Tracks demodulated at once. */
+const MAX_TRACKS = 6;
+/** A track unseen in the spectrum and quiet this long is retired, s. */
+const RETIRE_AFTER_S = 5;
+/** Quiet-stretch store for noise-driven damping: cap and minimum useful length, s. */
+const QUIET_STORE_S = 120;
+const QUIET_MIN_S = 10;
+/** Margin kept out of a quiet stretch before a growth, s. */
+const QUIET_GUARD_S = 0.5;
+/** Prominence of a resonance in the long-averaged quiet spectrum, dB. */
+const RESONANCE_MIN_DB = 3;
+/** Envelope samples this close to clipping are kept out of the fits, s. */
+const CLIP_GUARD_S = 0.25;
+/** Background taken from this much quiet next to a segment, s. */
+const BG_WINDOW_S = 2;
+const BG_MIN_S = 0.3;
+/** Pre-roll of background included before a growth segment in its fit, s. */
+const GROWTH_PREROLL_S = 1.5;
+/** Decay fits skip this much after the decay start (envelope filter transient), s. */
+const DECAY_SKIP_S = 0.12;
+/** Tail of quiet after a decay included in its fit, s. */
+const DECAY_TAIL_S = 1.0;
+/** Most envelope samples handed to one fit (longer steady stretches are block-averaged). */
+const MAX_FIT_SAMPLES = 6000;
+
+/** One tracked tone with its envelope store and regime. */
+interface TrackRuntime {
+  tone: ToneTrack;
+  env: EnvelopeState;
+  regime: RegimeState;
+  isSteadyLine: boolean;
+  /** Global envelope index of store entry 0. */
+  g0: number;
+  n: number;
+  power: Float32Array;
+  timeS: Float64Array;
+  bg: Float32Array;
+  state: Uint8Array;
+  clipped: Uint8Array;
+  /** Store entries already given to the regime. */
+  processed: number;
+  /** First store entry with a settled filter. */
+  validFrom: number;
+  /** Band background per frame (ring indexed by frame index), and the first frame computed. */
+  bgFrame: Float64Array;
+  bgFrameFrom: number;
+  frameCursor: number;
+  isAlive: boolean;
+  maxExcessDb: number;
+}
+
+/** Mutable per-run state of the composition. */
+interface PipelineState {
+  cfg: Required<AnalysisConfig>;
+  cond: ConditionState;
+  fsA: number;
+  spec: SpectrumState;
+  loBin: number;
+  hiBin: number;
+  peaks: PeakList;
+  tracker: TrackerState;
+  bgScratch: Float64Array;
+  envM: number;
+  envRateHz: number;
+  envBandwidthHz: number;
+  envDelayS: number;
+  envScratch: Float64Array;
+  rowEvery: number;
+  /** Analysis samples produced (global index of the next one). */
+  j: number;
+  /** Time base: analysis index jBase corresponds to input index inBase (gaps included). */
+  jBase: number;
+  inBase: number;
+  /** Ring of conditioned samples (HISTORY_S) and the oldest valid global index. */
+  ring: Float32Array;
+  ringStartJ: number;
+  /** Per envelope-clock sample: broadband mean square and clipping (ring). */
+  envMs: Float64Array;
+  envClip: Uint8Array;
+  accMs: number;
+  accClip: number;
+  /** Frame ring: power spectra and centre times. */
+  frameRing: Float32Array[];
+  frameTimeS: Float64Array;
+  /** Global index of the first frame after the latest gap (older frames do not apply). */
+  frameFloor: number;
+  alive: TrackRuntime[];
+  retired: TrackRuntime[];
+  aliveTones: ToneTrack[];
+  /** Next global envelope index for a track row, and whether a gap precedes it. */
+  rowG: number;
+  rowAfterGap: boolean;
+  durationInputSamples: number;
+  markers: Marker[];
+  warnings: string[];
+  /** Quiet-stretch store (ring) for noise-driven damping. */
+  quietRing: Float32Array;
+  quietStartJ: number;
+  quietOpen: boolean;
+  noiseDriven: NoiseDriven[];
+  /** Live outputs of the current push. */
+  frames: TrackFrame[];
+  liveOnsets: Onset[];
+  liveSegments: Segment[];
+  spectrumDbfs: Float32Array;
+  hasSpectrum: boolean;
+  sawFrame: boolean;
+  isFinished: boolean;
+}
+
+/** Time (s) of analysis sample j (fractional allowed), corrected for the decimation delay. */
+function timeOfJ(ps: PipelineState, j: number): number {
+  const d = ps.cond.decimation;
+  return (ps.inBase + (j - ps.jBase + 1) * d - 1) / ps.cfg.sampleRateHz - ps.cond.delayS;
+}
+
+/** Time (s) of global envelope sample g, corrected for the decimation and envelope delays. */
+function timeOfG(ps: PipelineState, g: number): number {
+  return timeOfJ(ps, g * ps.envM + ps.envM - 1) - ps.envDelayS;
+}
+
+function growTrackStore(tr: TrackRuntime, need: number): void {
+  if (need <= tr.power.length) return;
+  let cap = tr.power.length;
+  while (cap < need) cap *= 2;
+  const p = new Float32Array(cap);
+  p.set(tr.power.subarray(0, tr.n));
+  const t = new Float64Array(cap);
+  t.set(tr.timeS.subarray(0, tr.n));
+  const b = new Float32Array(cap);
+  b.set(tr.bg.subarray(0, tr.n));
+  const s = new Uint8Array(cap);
+  s.set(tr.state.subarray(0, tr.n));
+  const c = new Uint8Array(cap);
+  c.set(tr.clipped.subarray(0, tr.n));
+  tr.power = p;
+  tr.timeS = t;
+  tr.bg = b;
+  tr.state = s;
+  tr.clipped = c;
+}
+
+/** Appends `count` envelope outputs (in ps.envScratch) to a track; gFirst is the global index of the first. */
+function appendEnvelope(ps: PipelineState, tr: TrackRuntime, count: number, gFirst: number): void {
+  if (count === 0) return;
+  if (tr.n === 0) tr.g0 = gFirst;
+  growTrackStore(tr, tr.n + count);
+  const ringLen = ps.envMs.length;
+  for (let q = 0; q < count; q++) {
+    const g = gFirst + q;
+    const k = tr.n++;
+    tr.power[k] = ps.envScratch[q];
+    tr.timeS[k] = timeOfG(ps, g);
+    tr.clipped[k] = ps.envClip[g % ringLen];
+    tr.state[k] = STATE_QUIET;
+  }
+}
+
+function frameBin(ps: PipelineState, freqHz: number): number {
+  return Math.min(ps.hiBin - 1, Math.max(ps.loBin + 1, Math.round(freqHz / ps.spec.binHz)));
+}
+
+/** Band background (envelope power units) at a track's frequency from one frame's power spectrum. */
+function bandBackground(ps: PipelineState, power: Float32Array | Float64Array, freqHz: number): number {
+  const k = frameBin(ps, freqHz);
+  const perBin = neighbourNoisePower(power as Float64Array, k, BG_INNER_BINS, BG_OUTER_BINS, ps.loBin, ps.hiBin, ps.bgScratch);
+  return bandPowerFromBinPower(perBin, ps.envBandwidthHz, ps.spec.binHz);
+}
+
+function createTrackRuntime(ps: PipelineState, freqHz: number, promDb: number, frameIdx: number): TrackRuntime {
+  const tone = createToneTrack(ps.tracker, freqHz, frameIdx, promDb);
+  const env = createEnvelopeState({ sampleRateHz: ps.fsA, decimation: ps.envM, cutoffHz: ENVELOPE_CUTOFF_HZ });
+  const isSteadyLine = isMainsLine(freqHz);
+  const cap = 4096;
+  return {
+    tone,
+    env,
+    regime: createRegimeState(env.outputRateHz, !isSteadyLine),
+    isSteadyLine,
+    g0: 0,
+    n: 0,
+    power: new Float32Array(cap),
+    timeS: new Float64Array(cap),
+    bg: new Float32Array(cap),
+    state: new Uint8Array(cap),
+    clipped: new Uint8Array(cap),
+    processed: 0,
+    validFrom: 0,
+    bgFrame: new Float64Array(ps.frameTimeS.length),
+    bgFrameFrom: 0,
+    frameCursor: 0,
+    isAlive: true,
+    maxExcessDb: -Infinity,
+  };
+}
+
+/** Starts a track: rebuilds its envelope from the sample history and its background from the frame history. */
+function startTrack(ps: PipelineState, freqHz: number, promDb: number, frameIdx: number): void {
+  const tr = createTrackRuntime(ps, freqHz, promDb, frameIdx);
+  const m = ps.envM;
+  const cap = ps.ring.length;
+  let jStart = Math.max(ps.ringStartJ, ps.j - cap + 1);
+  jStart = Math.ceil(jStart / m) * m;
+  if (jStart > ps.j) jStart = ps.j;
+  setEnvelopeFrequency(tr.env, freqHz);
+  resetEnvelope(tr.env, jStart % m);
+  let g = Math.floor(jStart / m);
+  // Demodulate the history in at most two contiguous pieces of the ring.
+  let j = jStart;
+  while (j < ps.j) {
+    const at = j % cap;
+    const len = Math.min(ps.j - j, cap - at, ps.envScratch.length * m - m);
+    const cnt = stepEnvelope(tr.env, ps.ring, at, at + len, ps.envScratch, 0);
+    appendEnvelope(ps, tr, cnt, g);
+    g += cnt;
+    j += len;
+  }
+  tr.validFrom = tr.env.settleSamples;
+  // Background at the track's frequency for the frames still held.
+  const fr = ps.frameTimeS.length;
+  const last = ps.spec.frameCount - 1;
+  const first = Math.max(ps.frameFloor, last - fr + 1, 0);
+  for (let f = first; f <= last; f++) tr.bgFrame[f % fr] = bandBackground(ps, ps.frameRing[f % fr], freqHz);
+  tr.bgFrameFrom = first;
+  tr.frameCursor = first;
+  ps.alive.push(tr);
+  ps.aliveTones.push(tr.tone);
+}
+
+function retireTrack(ps: PipelineState, idx: number): void {
+  const tr = ps.alive[idx];
+  advanceRegime(ps, tr, Infinity);
+  finishRegime(tr.regime, tr.n);
+  tr.isAlive = false;
+  ps.alive.splice(idx, 1);
+  ps.aliveTones.splice(idx, 1);
+  // Keep only tracks that ever left the quiet state (their segments go into the report).
+  if (tr.regime.segments.some((s) => s.state !== STATE_QUIET)) ps.retired.push(tr);
+}
+
+/** Band background for a store entry at time t, interpolated between frame centres. */
+function backgroundAt(ps: PipelineState, tr: TrackRuntime, t: number): number {
+  const fr = ps.frameTimeS.length;
+  const last = ps.spec.frameCount - 1;
+  let f = Math.max(tr.frameCursor, tr.bgFrameFrom);
+  while (f < last && ps.frameTimeS[(f + 1) % fr] <= t) f++;
+  tr.frameCursor = f;
+  const t0 = ps.frameTimeS[f % fr];
+  const b0 = tr.bgFrame[f % fr];
+  if (t <= t0 || f >= last) return b0;
+  const t1 = ps.frameTimeS[(f + 1) % fr];
+  const b1 = tr.bgFrame[(f + 1) % fr];
+  const a = (t - t0) / (t1 - t0);
+  return b0 + a * (b1 - b0);
+}
+
+/** Feeds the regime with the track's envelope up to time tMax (s). */
+function advanceRegime(ps: PipelineState, tr: TrackRuntime, tMax: number): void {
+  if (ps.spec.frameCount <= tr.bgFrameFrom) return;
+  const rg = tr.regime;
+  while (tr.processed < tr.n && tr.timeS[tr.processed] <= tMax) {
+    const k = tr.processed++;
+    const b = backgroundAt(ps, tr, tr.timeS[k]);
+    tr.bg[k] = b;
+    if (k < tr.validFrom) {
+      tr.state[k] = STATE_QUIET;
+      continue;
+    }
+    stepRegime(rg, k, tr.power[k], b);
+    tr.state[k] = rg.state < 0 ? STATE_QUIET : rg.state;
+    if (b > 0) {
+      const ex = 10 * Math.log10(tr.power[k] / b);
+      if (ex > tr.maxExcessDb) tr.maxExcessDb = ex;
+    }
+  }
+}
+
+function segmentFrequency(tr: TrackRuntime, s: RegimeSegment): number {
+  const t0 = tr.timeS[s.startIdx];
+  const t1 = tr.timeS[Math.max(s.startIdx, s.endIdx - 1)];
+  return medianFrequencyHz(tr.tone, t0 - 0.2, t1 + 0.2);
+}
+
+/** Collects what the regime steps of one frame closed, for the live update. */
+function collectLive(ps: PipelineState, tr: TrackRuntime): void {
+  const rg = tr.regime;
+  if (tr.isSteadyLine) return;
+  if (rg.onsetInStep) {
+    ps.liveOnsets.push({ timeS: tr.timeS[rg.onsetIdx], frequencyHz: tr.tone.freqHz });
+  }
+  for (let i = rg.segments.length - rg.closedInStep; i < rg.segments.length; i++) {
+    const s = rg.segments[i];
+    ps.liveSegments.push({
+      kind: regimeKind(s.state),
+      startS: tr.timeS[s.startIdx],
+      endS: tr.timeS[Math.max(s.startIdx, s.endIdx - 1)],
+      frequencyHz: segmentFrequency(tr, s),
+      ratePerS: null,
+      rateCi95PerS: null,
+      model: null,
+    });
+  }
+}
+
+/** Emits track rows up to time tMax. */
+function emitRows(ps: PipelineState, tMax: number): void {
+  const ringLen = ps.envMs.length;
+  for (;;) {
+    const g = ps.rowG;
+    const t = timeOfG(ps, g);
+    if (t > tMax || g * ps.envM + ps.envM > ps.j) break;
+    // Main tone of the row: the non-steady track with the largest excess over its background.
+    let best: TrackRuntime | null = null;
+    let bestEx = -Infinity;
+    let bestK = 0;
+    for (const tr of ps.alive) {
+      const k = g - tr.g0;
+      if (k < tr.validFrom || k >= tr.processed) continue;
+      const b = tr.bg[k] > 0 ? tr.bg[k] : 1e-30;
+      let ex = 10 * Math.log10(tr.power[k] / b);
+      if (tr.isSteadyLine) ex -= 100;
+      if (ex > bestEx) {
+        bestEx = ex;
+        best = tr;
+        bestK = k;
+      }
+    }
+    const ms = ps.envMs[g % ringLen];
+    const hasTone = best !== null && (best.state[bestK] !== STATE_QUIET || bestEx > 6);
+    ps.frames.push({
+      timeS: t,
+      frequencyHz: hasTone && best !== null ? best.tone.freqHz : Number.NaN,
+      amplitudeDbfs: hasTone && best !== null ? 10 * Math.log10(Math.max(best.power[bestK], 1e-30)) : Number.NaN,
+      // Full-scale sine = 0 dBFS: mean square 0.5.
+      levelDbfs: 10 * Math.log10(Math.max(2 * ms, 1e-30)),
+      state: best !== null ? regimeKind(best.state[bestK]) : 'quiet',
+      isClipped: ps.envClip[g % ringLen] !== 0,
+      isAfterGap: ps.rowAfterGap,
+    });
+    ps.rowAfterGap = false;
+    ps.rowG += ps.rowEvery;
+  }
+}
+
+/** Closes the open quiet stretch at global analysis index jEnd and estimates noise-driven damping. */
+function closeQuietStretch(ps: PipelineState, jEnd: number): void {
+  if (!ps.quietOpen) return;
+  ps.quietOpen = false;
+  const cap = ps.quietRing.length;
+  const j0 = Math.max(ps.quietStartJ, jEnd - cap);
+  const len = jEnd - j0;
+  if (len < QUIET_MIN_S * ps.fsA) return;
+  const x = new Float32Array(len);
+  for (let q = 0; q < len; q++) x[q] = ps.quietRing[(j0 + q) % cap];
+  const centre = findResonance(ps, x);
+  if (centre === null) return;
+  const r = estimateNoiseDrivenDamping(x, ps.fsA, { centreHz: centre, searchHalfWidthHz: 20 });
+  if (!r.combined.isValid) {
+    ps.warnings.push(`noise-driven damping near ${centre.toFixed(1)} Hz not estimated: ${r.combined.reason ?? 'fit failed'}`);
+    return;
+  }
+  const entry: NoiseDriven = {
+    startS: timeOfJ(ps, j0),
+    endS: timeOfJ(ps, jEnd - 1),
+    frequencyHz: Number.isFinite(r.frequencyHz) ? r.frequencyHz : centre,
+    decayRatePerS: r.combined.decayRatePerS,
+    decayRateCi95PerS: r.combined.ci95PerS,
+  };
+  if (r.lorentzian.isValid) {
+    entry.lorentzianDecayRatePerS = r.lorentzian.decayRatePerS;
+    entry.lorentzianCi95PerS = r.lorentzian.ci95PerS;
+  }
+  if (r.autocorrelation.isValid) {
+    entry.autocorrelationDecayRatePerS = r.autocorrelation.decayRatePerS;
+    entry.autocorrelationCi95PerS = r.autocorrelation.ci95PerS;
+  }
+  ps.noiseDriven.push(entry);
+}
+
+/**
+ * The most prominent peak of the long-averaged (Welch, Hann, 75 % overlap) spectrum of a quiet
+ * stretch, away from mains lines and tracked steady lines; null when none stands out.
+ */
+function findResonance(ps: PipelineState, x: Float32Array): number | null {
+  const spec = ps.spec;
+  const n = spec.frameSize;
+  const hop = spec.hopSize;
+  const acc = new Float64Array(spec.binCount);
+  let frames = 0;
+  const out = spec.fftOut;
+  const inp = spec.fftIn;
+  for (let s = 0; s + n <= x.length; s += hop) {
+    for (let i = 0; i < n; i++) inp[i] = x[s + i] * spec.window[i];
+    spec.fft.realTransform(out, inp);
+    for (let k = 0; k < spec.binCount; k++) acc[k] += out[2 * k] * out[2 * k] + out[2 * k + 1] * out[2 * k + 1];
+    frames++;
+  }
+  if (frames < 8) return null;
+  // Reuse the prefix-floor helper on a scratch spectrum state view.
+  const pre = new Float64Array(spec.binCount + 1);
+  for (let k = 0; k < spec.binCount; k++) pre[k + 1] = pre[k] + acc[k];
+  const view = { ...spec, smooth: acc, prefix: pre } as SpectrumState;
+  const steadyHz = [...ps.alive, ...ps.retired].filter((t) => t.isSteadyLine).map((t) => t.tone.freqHz);
+  let bestK = -1;
+  let bestProm = RESONANCE_MIN_DB;
+  const lo = Math.max(ps.loBin + 1, Math.ceil(25 / spec.binHz));
+  const hi = Math.min(ps.hiBin - 1, Math.floor((ps.cond.bandHighHz - 25) / spec.binHz));
+  for (let k = lo; k < hi; k++) {
+    if (!(acc[k] > acc[k - 1] && acc[k] >= acc[k + 1])) continue;
+    const f = k * spec.binHz;
+    if (isMainsLine(f)) continue;
+    if (steadyHz.some((g) => Math.abs(g - f) < 3 * spec.binHz)) continue;
+    const floor = localFloorMean(view, k, 4, 24, lo, hi);
+    if (!(floor > 0)) continue;
+    const prom = 10 * Math.log10(acc[k] / floor);
+    if (prom > bestProm) {
+      bestProm = prom;
+      bestK = k;
+    }
+  }
+  return bestK < 0 ? null : bestK * spec.binHz;
+}
+
+/** Work done at each spectral frame. */
+function processFrame(ps: PipelineState): void {
+  const spec = ps.spec;
+  computeSpectrumFrame(spec);
+  ps.sawFrame = true;
+  const frameIdx = spec.frameCount - 1;
+  const fr = ps.frameTimeS.length;
+  const tF = timeOfJ(ps, ps.j - 1 - (spec.frameSize - 1) / 2);
+  ps.frameTimeS[frameIdx % fr] = tF;
+  const slot = ps.frameRing[frameIdx % fr];
+  for (let k = 0; k < spec.binCount; k++) slot[k] = spec.power[k];
+
+  findPeaks(spec, ps.loBin, ps.hiBin, PEAK_MIN_DB, ps.peaks);
+  groupHarmonics(spec, ps.peaks, ps.loBin, ps.hiBin, SUBHARMONIC_MIN_DB);
+  stepTracker(ps.tracker, ps.aliveTones, ps.peaks, frameIdx, tF, NEW_TRACK_MIN_DB);
+
+  for (const tr of ps.alive) {
+    setEnvelopeFrequency(tr.env, tr.tone.freqHz);
+    tr.bgFrame[frameIdx % fr] = bandBackground(ps, spec.power, tr.tone.freqHz);
+  }
+  // New tones.
+  const tk = ps.tracker;
+  for (let c = 0; c < tk.confirmedCount; c++) {
+    const f = tk.confirmedFreqHz[c];
+    let dup = false;
+    for (const tr of ps.alive) if (Math.abs(tr.tone.freqHz - f) <= 2 * matchToleranceHz(spec.binHz, f)) dup = true;
+    if (dup) continue;
+    if (ps.alive.length >= MAX_TRACKS) {
+      // Make room: the quiet track unseen longest.
+      let victim = -1;
+      for (let i = 0; i < ps.alive.length; i++) {
+        const tr = ps.alive[i];
+        if (tr.regime.state > STATE_QUIET) continue;
+        if (victim < 0 || tr.tone.lastHitFrame < ps.alive[victim].tone.lastHitFrame) victim = i;
+      }
+      if (victim < 0) continue;
+      retireTrack(ps, victim);
+    }
+    startTrack(ps, f, tk.confirmedProm[c], frameIdx);
+  }
+  // Regimes up to the frame centre.
+  let anyActive = false;
+  let earliestGrowthJ = Infinity;
+  for (const tr of ps.alive) {
+    beginRegimeStep(tr.regime);
+    advanceRegime(ps, tr, tF);
+    collectLive(ps, tr);
+    if (!tr.isSteadyLine && tr.regime.state > STATE_QUIET) {
+      anyActive = true;
+      // Where this tone left the quiet state, in analysis samples.
+      const segs = tr.regime.segments;
+      const startIdx = segs.length > 0 ? segs[segs.length - 1].endIdx : tr.regime.segStart;
+      const tStart = tr.timeS[Math.min(startIdx, tr.n - 1)];
+      const jAt = ps.jBase + Math.floor((tStart - timeOfJ(ps, ps.jBase)) * ps.fsA);
+      if (jAt < earliestGrowthJ) earliestGrowthJ = jAt;
+    }
+  }
+  emitRows(ps, tF);
+
+  // Quiet store for noise-driven damping.
+  if (anyActive && ps.quietOpen) closeQuietStretch(ps, Math.max(ps.quietStartJ, Math.min(ps.j, earliestGrowthJ) - Math.round(QUIET_GUARD_S * ps.fsA)));
+  else if (!anyActive && !ps.quietOpen) {
+    ps.quietOpen = true;
+    ps.quietStartJ = ps.j;
+  }
+
+  // Retire tracks unseen and quiet for a while.
+  const retireFrames = Math.round((RETIRE_AFTER_S * ps.fsA) / spec.hopSize);
+  for (let i = ps.alive.length - 1; i >= 0; i--) {
+    const tr = ps.alive[i];
+    if (frameIdx - tr.tone.lastHitFrame < retireFrames) continue;
+    const rg = tr.regime;
+    if (rg.state > STATE_QUIET) continue;
+    if (rg.state === STATE_QUIET && tr.processed - rg.quietStartIdx < RETIRE_AFTER_S * tr.env.outputRateHz) continue;
+    retireTrack(ps, i);
+  }
+}
+
+/** Processes the conditioner's output samples. */
+function processConditioned(ps: PipelineState): void {
+  const x = ps.cond.out;
+  const clip = ps.cond.outClipped;
+  const cnt = ps.cond.outCount;
+  const m = ps.envM;
+  const ringCap = ps.ring.length;
+  const envLen = ps.envMs.length;
+  const qCap = ps.quietRing.length;
+  let i = 0;
+  while (i < cnt) {
+    const k = Math.min(cnt - i, ps.spec.toFrame, ps.envScratch.length * m - m);
+    let j = ps.j;
+    let rp = j % ringCap;
+    let qp = j % qCap;
+    let ph = j % m;
+    const ring = ps.ring;
+    const qRing = ps.quietRing;
+    let accMs = ps.accMs;
+    let accClip = ps.accClip;
+    for (let q = i; q < i + k; q++) {
+      const v = x[q];
+      ring[rp] = v;
+      qRing[qp] = v;
+      if (++rp === ringCap) rp = 0;
+      if (++qp === qCap) qp = 0;
+      accMs += v * v;
+      accClip |= clip[q];
+      j++;
+      if (++ph === m) {
+        ph = 0;
+        const g = j / m - 1;
+        ps.envMs[g % envLen] = accMs / m;
+        ps.envClip[g % envLen] = accClip;
+        accMs = 0;
+        accClip = 0;
+      }
+    }
+    ps.accMs = accMs;
+    ps.accClip = accClip;
+    for (const tr of ps.alive) {
+      // Demodulators share the envelope clock: the next output closes the boxcar ending at a multiple of m.
+      const g = (ps.j + m - tr.env.phase) / m - 1;
+      const produced = stepEnvelope(tr.env, x, i, i + k, ps.envScratch, 0);
+      appendEnvelope(ps, tr, produced, g);
+    }
+    ps.j = j;
+    if (ps.ringStartJ < j - ringCap) ps.ringStartJ = j - ringCap;
+    if (ps.quietOpen && ps.quietStartJ < j - qCap) ps.quietStartJ = j - qCap;
+    if (feedSpectrum(ps.spec, x, i, i + k)) processFrame(ps);
+    i += k;
+  }
+}
+
+function emptyUpdate(ps: PipelineState): AnalysisUpdate {
+  return {
+    frames: ps.frames,
+    onsets: ps.liveOnsets,
+    segments: ps.liveSegments,
+    spectrumDbfs: null,
+    spectrumBinHz: ps.spec.binHz,
+    peakAbs: 0,
+    isClipped: false,
+  };
+}
+
+function push(ps: PipelineState, block: Float32Array): AnalysisUpdate {
+  if (ps.isFinished) throw new Error('push() after finish(): start a new analysis');
+  ps.frames = [];
+  ps.liveOnsets = [];
+  ps.liveSegments = [];
+  ps.sawFrame = false;
+  let peak = 0;
+  let isClipped = false;
+  for (let s = 0; s < block.length; s += CONDITION_MAX_BLOCK) {
+    const part = block.subarray(s, Math.min(block.length, s + CONDITION_MAX_BLOCK));
+    stepCondition(ps.cond, part);
+    if (ps.cond.peakAbs > peak) peak = ps.cond.peakAbs;
+    if (ps.cond.isClipped) isClipped = true;
+    processConditioned(ps);
+  }
+  ps.durationInputSamples += block.length;
+  const up = emptyUpdate(ps);
+  up.peakAbs = peak;
+  up.isClipped = isClipped;
+  if (ps.sawFrame) {
+    const p = ps.spec.power;
+    const out = ps.spectrumDbfs;
+    for (let k = 0; k < out.length; k++) out[k] = 10 * Math.log10(p[k] > 1e-20 ? p[k] : 1e-20);
+    ps.hasSpectrum = true;
+  }
+  up.spectrumDbfs = ps.hasSpectrum ? ps.spectrumDbfs : null;
+  return up;
+}
+
+function gap(ps: PipelineState, missingSamples: number): void {
+  if (!(missingSamples > 0) || !Number.isFinite(missingSamples)) return;
+  const missing = Math.round(missingSamples);
+  // Everything before the gap is settled with the last background.
+  for (const tr of ps.alive) {
+    advanceRegime(ps, tr, Infinity);
+    restartRegime(tr.regime, tr.n);
+    tr.validFrom = tr.n + tr.env.settleSamples;
+    resetEnvelope(tr.env, 0);
+  }
+  emitRows(ps, Infinity);
+  closeQuietStretch(ps, ps.j);
+  gapCondition(ps.cond, missing);
+  resetSpectrumFraming(ps.spec);
+  resetTentative(ps.tracker);
+  ps.durationInputSamples += missing;
+  // New time base: analysis index j (next, aligned to the envelope clock) starts after the gap.
+  const m = ps.envM;
+  const jNext = Math.ceil(ps.j / m) * m;
+  ps.accMs = 0;
+  ps.accClip = 0;
+  ps.j = jNext;
+  ps.jBase = jNext;
+  ps.inBase = ps.durationInputSamples;
+  ps.ringStartJ = jNext;
+  ps.frameFloor = ps.spec.frameCount;
+  ps.rowG = jNext / m;
+  ps.rowAfterGap = true;
+  for (const tr of ps.alive) {
+    tr.bgFrameFrom = ps.spec.frameCount;
+    tr.frameCursor = ps.spec.frameCount;
+  }
+}
+
+/** Builds the envelope series of store entries [i0, i1) of a track, without clipped stretches. */
+function buildSeries(tr: TrackRuntime, i0: number, i1: number): EnvelopeSeries {
+  const guard = Math.round(CLIP_GUARD_S * tr.env.outputRateHz);
+  const keep = new Uint8Array(Math.max(0, i1 - i0));
+  let lastClip = -Infinity;
+  for (let k = i0 - guard; k < i1 + guard; k++) {
+    if (k >= 0 && k < tr.n && tr.clipped[k]) lastClip = k;
+    // Forward pass marks samples within guard after a clip; backward handled below.
+    const q = k;
+    if (q >= i0 && q < i1) keep[q - i0] = q - lastClip > guard ? 1 : 0;
+  }
+  let nextClip = Infinity;
+  for (let k = i1 + guard - 1; k >= i0; k--) {
+    if (k < tr.n && tr.clipped[k]) nextClip = k;
+    if (k < i1 && nextClip - k <= guard) keep[k - i0] = 0;
+  }
+  let count = 0;
+  for (let q = 0; q < keep.length; q++) count += keep[q];
+  const block = Math.max(1, Math.ceil(count / MAX_FIT_SAMPLES));
+  const nOut = Math.ceil(count / block);
+  const timeS = new Float64Array(nOut);
+  const power = new Float64Array(nOut);
+  let o = 0;
+  let acc = 0;
+  let accT = 0;
+  let inBlock = 0;
+  for (let k = i0; k < i1; k++) {
+    if (!keep[k - i0]) continue;
+    acc += tr.power[k];
+    accT += tr.timeS[k];
+    inBlock++;
+    if (inBlock === block) {
+      timeS[o] = accT / block;
+      power[o] = acc / block;
+      o++;
+      acc = 0;
+      accT = 0;
+      inBlock = 0;
+    }
+  }
+  if (inBlock > 0 && o < nOut) {
+    timeS[o] = accT / inBlock;
+    power[o] = acc / inBlock;
+    o++;
+  }
+  return { timeS: timeS.subarray(0, o), power: power.subarray(0, o), bandwidthHz: tr.env.bandwidthHz };
+}
+
+/** First index ≥ lo of a contiguous run (no gap in time) ending at idx, stepping back at most maxBack entries. */
+function contiguousStart(tr: TrackRuntime, idx: number, maxBack: number, lo: number): number {
+  const dt = 1.5 / tr.env.outputRateHz;
+  let k = idx;
+  const stop = Math.max(lo, idx - maxBack, 0);
+  while (k > stop && tr.timeS[k] - tr.timeS[k - 1] <= dt) k--;
+  return k;
+}
+
+function contiguousEnd(tr: TrackRuntime, idx: number, maxFwd: number, hi: number): number {
+  const dt = 1.5 / tr.env.outputRateHz;
+  let k = idx;
+  const stop = Math.min(hi, idx + maxFwd, tr.n);
+  while (k + 1 < stop && tr.timeS[k + 1] - tr.timeS[k] <= dt) k++;
+  return k + 1;
+}
+
+/** Mean envelope power over store entries [i0, i1) that are not clipped; NaN when too few. */
+function meanPower(tr: TrackRuntime, i0: number, i1: number, minCount: number): number {
+  let s = 0;
+  let c = 0;
+  for (let k = Math.max(0, i0); k < Math.min(tr.n, i1); k++) {
+    if (tr.clipped[k] || k < tr.validFrom) continue;
+    s += tr.power[k];
+    c++;
+  }
+  return c >= minCount ? s / c : Number.NaN;
+}
+
+function meanBg(tr: TrackRuntime, i0: number, i1: number): number {
+  let s = 0;
+  let c = 0;
+  for (let k = Math.max(0, i0); k < Math.min(tr.n, i1); k++) {
+    if (tr.bg[k] > 0) {
+      s += tr.bg[k];
+      c++;
+    }
+  }
+  return c > 0 ? s / c : Number.NaN;
+}
+
+interface FittedSegment {
+  tr: TrackRuntime;
+  seg: RegimeSegment;
+  report: Segment;
+  fit: RateFit | null;
+  onsetTimeS: number | null;
+}
+
+function ciOf(fit: RateFit): Interval {
+  return [fit.ci95PerS[0], fit.ci95PerS[1]];
+}
+
+/** Fits one segment of a track and fills its report entry (and the onset time for onsets). */
+function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], i: number): FittedSegment {
+  const seg = segs[i];
+  const rate = tr.env.outputRateHz;
+  const prev = i > 0 ? segs[i - 1] : null;
+  const next = i + 1 < segs.length ? segs[i + 1] : null;
+  const startS = tr.timeS[seg.startIdx];
+  const endS = tr.timeS[Math.max(seg.startIdx, seg.endIdx - 1)];
+  const report: Segment = {
+    kind: regimeKind(seg.state),
+    startS,
+    endS,
+    frequencyHz: segmentFrequency(tr, seg),
+    ratePerS: null,
+    rateCi95PerS: null,
+    model: null,
+  };
+  const out: FittedSegment = { tr, seg, report, fit: null, onsetTimeS: null };
+  const bgWin = Math.round(BG_WINDOW_S * rate);
+  const bgMin = Math.round(BG_MIN_S * rate);
+  const tag = `${report.kind} at ${startS.toFixed(2)} s`;
+  if (seg.state === STATE_QUIET) return out;
+
+  if (seg.state === STATE_GROWTH) {
+    const quietLo = prev !== null && prev.state === STATE_QUIET ? prev.startIdx : seg.startIdx;
+    const w0 = contiguousStart(tr, seg.startIdx, Math.round(GROWTH_PREROLL_S * rate), Math.max(quietLo, tr.validFrom));
+    let bg = meanPower(tr, Math.max(quietLo, seg.startIdx - bgWin, tr.validFrom), seg.startIdx - Math.round(0.1 * rate), bgMin);
+    if (!Number.isFinite(bg)) bg = meanBg(tr, w0, seg.startIdx + 1);
+    const intoSteady = seg.reachedSteady && next !== null && next.state === STATE_STEADY;
+    let w1 = seg.endIdx;
+    if (intoSteady && next !== null) {
+      const extra = Math.max(Math.round(1.0 * rate), seg.endIdx - seg.startIdx);
+      w1 = Math.min(next.endIdx, seg.endIdx + extra);
+    }
+    w1 = contiguousEnd(tr, seg.startIdx, w1 - seg.startIdx, w1);
+    const series = buildSeries(tr, w0, w1);
+    const opts = Number.isFinite(bg) && bg > 0 ? { backgroundPower: bg } : {};
+    let fit: RateFit;
+    if (intoSteady) {
+      const sat = fitSaturation(series, opts);
+      fit = sat;
+      if (sat.isValid) {
+        report.model = sat.model;
+        report.limitAmplitudeDbfs = 20 * Math.log10(sat.limitAmplitude);
+      }
+    } else {
+      fit = fitExponential(series, { ...opts, refTimeS: series.timeS.length > 0 ? series.timeS[0] : startS });
+      if (fit.isValid) report.model = 'exponential';
+    }
+    out.fit = fit;
+    if (fit.isValid) {
+      report.ratePerS = fit.ratePerS;
+      report.rateCi95PerS = ciOf(fit);
+    } else ps.warnings.push(`${tag}: no rate (${fit.reason ?? 'fit failed'})`);
+    if (seg.isOnset && !tr.isSteadyLine) {
+      const tCross = backgroundCrossingTimeS(fit);
+      // The crossing lies near the regime's estimate; far away means the fit did not describe the rise.
+      out.onsetTimeS = Number.isFinite(tCross) && tCross > startS - 3 && tCross < endS ? tCross : startS;
+    }
+    return out;
+  }
+
+  if (seg.state === STATE_DECAY) {
+    // A 'driving-off' marker near the start fixes where the free decay begins.
+    let startIdx = seg.startIdx;
+    const lookBackS = prev !== null ? Math.min(2, tr.timeS[seg.startIdx] - tr.timeS[prev.startIdx]) : 0;
+    for (const mk of ps.markers) {
+      if (mk.kind !== 'driving-off') continue;
+      if (mk.timeS < startS - lookBackS || mk.timeS > startS + 0.5) continue;
+      let k = seg.startIdx;
+      while (k > 0 && tr.timeS[k] > mk.timeS) k--;
+      while (k < seg.endIdx - 1 && tr.timeS[k] < mk.timeS) k++;
+      startIdx = k;
+    }
+    const w0 = Math.min(seg.endIdx - 1, startIdx + Math.round(DECAY_SKIP_S * rate));
+    const quietHi = next !== null && next.state === STATE_QUIET ? next.endIdx : seg.endIdx;
+    let bg = meanPower(tr, seg.endIdx + Math.round(0.2 * rate), Math.min(quietHi, seg.endIdx + bgWin), bgMin);
+    if (!Number.isFinite(bg)) bg = meanBg(tr, seg.startIdx, seg.endIdx);
+    let w1 = Math.min(quietHi, seg.endIdx + Math.round(DECAY_TAIL_S * rate));
+    w1 = contiguousEnd(tr, w0, w1 - w0, w1);
+    const series = buildSeries(tr, w0, w1);
+    const opts = Number.isFinite(bg) && bg > 0 ? { backgroundPower: bg } : {};
+    const fit = fitExponential(series, { ...opts, refTimeS: series.timeS.length > 0 ? series.timeS[0] : startS });
+    out.fit = fit;
+    if (fit.isValid) {
+      report.ratePerS = fit.ratePerS;
+      report.rateCi95PerS = ciOf(fit);
+      report.model = 'exponential';
+    } else ps.warnings.push(`${tag}: no rate (${fit.reason ?? 'fit failed'})`);
+    return out;
+  }
+
+  // Steady: rate about zero, and the limit-cycle level.
+  const series = buildSeries(tr, seg.startIdx, seg.endIdx);
+  const bg = meanBg(tr, seg.startIdx, seg.endIdx);
+  const mp = meanPower(tr, seg.startIdx, seg.endIdx, 1);
+  if (Number.isFinite(mp)) report.limitAmplitudeDbfs = 10 * Math.log10(Math.max(mp - (Number.isFinite(bg) ? bg : 0), 1e-30));
+  const fit = fitExponential(series, Number.isFinite(bg) && bg > 0 ? { backgroundPower: bg } : {});
+  out.fit = fit;
+  if (fit.isValid) {
+    report.ratePerS = fit.ratePerS;
+    report.rateCi95PerS = ciOf(fit);
+    report.model = 'exponential';
+  }
+  return out;
+}
+
+/** Inverse-variance pooled rate of several fits (sd from the half-width of each 95 % interval). */
+function pooledRate(fits: { rate: number; ci: Interval }[]): { rate: number; ci: Interval } | null {
+  if (fits.length === 0) return null;
+  if (fits.length === 1) return { rate: fits[0].rate, ci: fits[0].ci };
+  let sw = 0;
+  let swx = 0;
+  for (const f of fits) {
+    const sd = (f.ci[1] - f.ci[0]) / (2 * 1.959963984540054);
+    if (!(sd > 0)) continue;
+    sw += 1 / (sd * sd);
+    swx += f.rate / (sd * sd);
+  }
+  if (!(sw > 0)) return { rate: fits[0].rate, ci: fits[0].ci };
+  const m = swx / sw;
+  const h = 1.959963984540054 / Math.sqrt(sw);
+  return { rate: m, ci: [m - h, m + h] };
+}
+
+function finish(ps: PipelineState): Report {
+  if (ps.isFinished) throw new Error('finish() called twice');
+  ps.isFinished = true;
+  for (const tr of ps.alive) {
+    advanceRegime(ps, tr, Infinity);
+    finishRegime(tr.regime, tr.n);
+  }
+  closeQuietStretch(ps, ps.j);
+  const all = [...ps.retired, ...ps.alive.filter((t) => t.regime.segments.length > 0)];
+  const fitted: FittedSegment[] = [];
+  for (const tr of all) {
+    const segs = tr.regime.segments;
+    for (let i = 0; i < segs.length; i++) {
+      if (segs[i].endIdx <= segs[i].startIdx) continue;
+      fitted.push(fitSegment(ps, tr, segs, i));
+    }
+  }
+  // Tones, grouped by frequency (a tone heard in several cycles may have several tracks).
+  interface Family {
+    freqHz: number;
+    isSteadyLine: boolean;
+    strength: number;
+    tracks: TrackRuntime[];
+  }
+  const families: Family[] = [];
+  for (const tr of all) {
+    if (tr.regime.segments.every((s) => s.state === STATE_QUIET) && !tr.isSteadyLine && tr.maxExcessDb < 10) continue;
+    const f = medianFrequencyHz(tr.tone, -Infinity, Infinity);
+    const fam = families.find((q) => Math.abs(q.freqHz - f) <= matchToleranceHz(ps.spec.binHz, f));
+    if (fam) {
+      fam.tracks.push(tr);
+      fam.strength = Math.max(fam.strength, tr.maxExcessDb);
+      fam.isSteadyLine = fam.isSteadyLine && tr.isSteadyLine;
+    } else families.push({ freqHz: f, isSteadyLine: tr.isSteadyLine, strength: tr.maxExcessDb, tracks: [tr] });
+  }
+  for (const fam of families) {
+    // A tone sounding through the whole record (never quiet, no onset) is a steady line too.
+    const segs = fam.tracks.flatMap((t) => t.regime.segments);
+    if (segs.length > 0 && segs.every((s) => s.state === STATE_STEADY)) fam.isSteadyLine = true;
+  }
+  families.sort((a, b) => b.strength - a.strength);
+
+  // Tracks of steady lines (mains, or a tone sounding throughout) and tracks that never left the
+  // quiet state give no onsets or segments.
+  const steadyTracks = new Set(families.filter((f) => f.isSteadyLine).flatMap((f) => f.tracks));
+  const report = (f: FittedSegment): boolean =>
+    !f.tr.isSteadyLine && !steadyTracks.has(f.tr) && f.tr.regime.segments.some((s) => s.state !== STATE_QUIET);
+  const onsets: Onset[] = fitted
+    .filter((f) => report(f) && f.onsetTimeS !== null)
+    .map((f) => ({ timeS: f.onsetTimeS as number, frequencyHz: f.report.frequencyHz }))
+    .sort((a, b) => a.timeS - b.timeS);
+  const segments = fitted.filter(report).map((f) => f.report);
+  segments.sort((a, b) => a.startS - b.startS);
+
+  // Main tone: the non-steady family with the most onsets, then the strongest.
+  let main: Family | null = null;
+  let mainScore = -Infinity;
+  for (const fam of families) {
+    if (fam.isSteadyLine) continue;
+    const famFits = fitted.filter((f) => fam.tracks.includes(f.tr));
+    if (!famFits.some((f) => f.seg.state !== STATE_QUIET)) continue;
+    const nOn = famFits.filter((f) => f.onsetTimeS !== null).length;
+    const score = nOn * 1000 + fam.strength;
+    if (score > mainScore) {
+      mainScore = score;
+      main = fam;
+    }
+  }
+  let summary = deriveSummary({ frequencyHz: null, growth: null, decay: null });
+  if (main !== null) {
+    const mf = main;
+    const famFits = fitted.filter((f) => mf.tracks.includes(f.tr));
+    const growth = pooledRate(
+      famFits
+        .filter((f) => f.seg.state === STATE_GROWTH && f.fit !== null && f.fit.isValid && f.fit.ratePerS > 0)
+        .map((f) => ({ rate: (f.fit as RateFit).ratePerS, ci: ciOf(f.fit as RateFit) })),
+    );
+    const decay = pooledRate(
+      famFits
+        .filter((f) => f.seg.state === STATE_DECAY && f.fit !== null && f.fit.isValid && f.fit.ratePerS < 0)
+        .map((f) => ({ rate: -(f.fit as RateFit).ratePerS, ci: [-(f.fit as RateFit).ci95PerS[1], -(f.fit as RateFit).ci95PerS[0]] as Interval })),
+    );
+    const steadyFreqs = famFits.filter((f) => f.seg.state === STATE_STEADY).map((f) => f.report.frequencyHz);
+    const freqs = steadyFreqs.length > 0 ? steadyFreqs : famFits.filter((f) => f.seg.state !== STATE_QUIET).map((f) => f.report.frequencyHz);
+    freqs.sort((a, b) => a - b);
+    const freq = freqs.length > 0 ? freqs[Math.floor(freqs.length / 2)] : mf.freqHz;
+    const limits = famFits
+      .filter((f) => f.seg.state === STATE_STEADY && typeof f.report.limitAmplitudeDbfs === 'number')
+      .map((f) => f.report.limitAmplitudeDbfs as number);
+    const limit = limits.length > 0 ? limits.reduce((a, b) => a + b, 0) / limits.length : null;
+    summary = deriveSummary({
+      frequencyHz: freq,
+      growth: growth !== null ? { ratePerS: growth.rate, ci95PerS: growth.ci } : null,
+      decay: decay !== null ? { decayRatePerS: decay.rate, ci95PerS: decay.ci } : null,
+      limitAmplitudeDbfs: limit,
+    });
+  } else ps.warnings.push('no tone found');
+
+  const clipped: ClippedSpan[] = [];
+  for (let i = 0; i < ps.cond.clipCount; i++) clipped.push({ startS: ps.cond.clipStartS[i], endS: ps.cond.clipEndS[i] });
+  const clipWarn = clipped.slice(0, 10).map((c) => `clipping in ${c.startS.toFixed(2)}–${c.endS.toFixed(2)} s`);
+  if (clipped.length > 10) clipWarn.push(`clipping in ${clipped.length - 10} more stretches`);
+  if (ps.cond.clipDropped > 0) clipWarn.push(`${ps.cond.clipDropped} further clipped stretches not listed`);
+  if (ps.cfg.bandHighHz > ps.cond.bandHighHz) {
+    ps.warnings.push(`band limited to ${ps.cond.bandHighHz.toFixed(0)} Hz by the sample rate`);
+  }
+  return {
+    reportVersion: REPORT_VERSION,
+    sampleRateHz: ps.cfg.sampleRateHz,
+    durationS: ps.durationInputSamples / ps.cfg.sampleRateHz,
+    onsets,
+    segments,
+    noiseDriven: ps.noiseDriven,
+    summary,
+    tones: families.map((f) => ({ frequencyHz: f.freqHz, isSteadyLine: f.isSteadyLine })),
+    clipped,
+    warnings: [...clipWarn, ...ps.warnings],
+  };
+}
+
+function createPipelineState(config: AnalysisConfig): PipelineState {
+  const cfg: Required<AnalysisConfig> = {
+    sampleRateHz: config.sampleRateHz,
+    bandLowHz: config.bandLowHz ?? 20,
+    bandHighHz: config.bandHighHz ?? 4000,
+  };
+  const cond = createConditionState(cfg);
+  const fsA = cond.outputRateHz;
+  const frameSize = 2 ** Math.round(Math.log2(FRAME_S * fsA));
+  const spec = createSpectrumState({ sampleRateHz: fsA, frameSize, hopSize: frameSize / 2 });
+  const envM = Math.max(1, Math.round(fsA / ENVELOPE_RATE_HZ));
+  const probe = createEnvelopeState({ sampleRateHz: fsA, decimation: envM, cutoffHz: ENVELOPE_CUTOFF_HZ });
+  const historyFrames = Math.ceil((HISTORY_S * fsA) / spec.hopSize) + 4;
+  const frameRing: Float32Array[] = [];
+  for (let i = 0; i < historyFrames; i++) frameRing.push(new Float32Array(spec.binCount));
+  const envHistory = Math.ceil((HISTORY_S + 2) * probe.outputRateHz);
+  return {
+    cfg,
+    cond,
+    fsA,
+    spec,
+    loBin: Math.max(1, Math.floor(cond.bandLowHz / spec.binHz)),
+    hiBin: Math.min(spec.binCount - 1, Math.ceil(cond.bandHighHz / spec.binHz)),
+    peaks: createPeakList(32),
+    tracker: createTrackerState(spec.binHz, 32),
+    bgScratch: new Float64Array(2 * (BG_OUTER_BINS - BG_INNER_BINS + 1)),
+    envM,
+    envRateHz: probe.outputRateHz,
+    envBandwidthHz: probe.bandwidthHz,
+    envDelayS: probe.delayS,
+    envScratch: new Float64Array(1024),
+    rowEvery: Math.max(1, Math.round(probe.outputRateHz / ROW_RATE_HZ)),
+    j: 0,
+    jBase: 0,
+    inBase: 0,
+    ring: new Float32Array(Math.ceil(HISTORY_S * fsA)),
+    ringStartJ: 0,
+    envMs: new Float64Array(envHistory),
+    envClip: new Uint8Array(envHistory),
+    accMs: 0,
+    accClip: 0,
+    frameRing,
+    frameTimeS: new Float64Array(historyFrames),
+    frameFloor: 0,
+    alive: [],
+    retired: [],
+    aliveTones: [],
+    rowG: 0,
+    rowAfterGap: false,
+    durationInputSamples: 0,
+    markers: [],
+    warnings: [],
+    quietRing: new Float32Array(Math.ceil(QUIET_STORE_S * fsA)),
+    quietStartJ: 0,
+    quietOpen: true,
+    noiseDriven: [],
+    frames: [],
+    liveOnsets: [],
+    liveSegments: [],
+    spectrumDbfs: new Float32Array(spec.binCount),
+    hasSpectrum: false,
+    sawFrame: false,
+    isFinished: false,
+  };
+}
+
+/**
+ * Creates the streaming analysis (DESIGN.md stages 1-7). push(block) takes mono samples at
+ * config.sampleRateHz (full scale ±1) in blocks of any length and returns the rows and events
+ * added; gap(n) records n missing input samples; mark() adds a user marker ('driving-off' fixes
+ * where a decay starts); finish() fits every segment and returns the report. Throws RangeError
+ * for a bad configuration.
+ */
+export function createAnalysis(config: AnalysisConfig): Analysis {
+  const ps = createPipelineState(config);
+  return {
+    push: (block) => push(ps, block),
+    gap: (missing) => gap(ps, missing),
+    mark: (marker) => {
+      ps.markers.push({ ...marker });
+    },
+    finish: () => finish(ps),
+  };
+}
+
+/** Analysis rates chosen for an input rate (for the bench and the app's display). */
+export function describeAnalysis(config: AnalysisConfig): { analysisRateHz: number; frameSize: number; binHz: number; envelopeRateHz: number; envelopeBandwidthHz: number } {
+  const ps = createPipelineState(config);
+  return {
+    analysisRateHz: ps.fsA,
+    frameSize: ps.spec.frameSize,
+    binHz: ps.spec.binHz,
+    envelopeRateHz: ps.envRateHz,
+    envelopeBandwidthHz: ps.envBandwidthHz,
+  };
+}
+
+export { STATE_DECAY, STATE_GROWTH, STATE_STEADY };

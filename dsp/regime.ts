@@ -1,0 +1,300 @@
+/**
+ * Stage 5, regime detection for one tone: quiet / growth / steady / decay from its envelope power
+ * and the background power in the same narrow band, with the segments between state changes.
+ *
+ * Decisions use the excess x = 10 log10(A²/(N²·q)) of the envelope over the band background N²
+ * (measured beside the tone in the spectrum, so it follows broadband loudness steps) times a quiet
+ * baseline q (the mean ratio seen while quiet: 1 for white noise, larger when a noise-driven
+ * resonance sits in the band). Thresholds are set against the envelope's own scatter: for noise
+ * alone A² is exponentially distributed, P(A² > 16·mean) = e^−16, and neighbouring samples are
+ * correlated over about 1/(2B) ≈ 0.1 s, so a 12 dB excess held 0.15 s does not arise from noise.
+ * The regime only marks approximate boundaries; onset times and rates come from the fits.
+ */
+import type { RegimeKind } from './types';
+
+export const STATE_QUIET = 0;
+export const STATE_GROWTH = 1;
+export const STATE_STEADY = 2;
+export const STATE_DECAY = 3;
+const KINDS: RegimeKind[] = ['quiet', 'growth', 'steady', 'decay'];
+
+/** Regime kind of a state code. */
+export function regimeKind(code: number): RegimeKind {
+  return KINDS[code] ?? 'quiet';
+}
+
+/** Excess (dB) that declares growth out of quiet, and how long it must hold (s). */
+export const ON_DB = 12;
+const ON_HOLD_S = 0.15;
+/** Excess at or below which the tone is taken as still at the background (growth start), dB. */
+const LOW_DB = 3;
+/** Excess below which a decay has reached the background, dB, and the hold, s. */
+const QUIET_DB = 6;
+const QUIET_HOLD_S = 0.15;
+/** Level change over FLAT_WINDOW_S below which growth has become steady, dB. */
+const FLAT_DB = 1.5;
+const FLAT_WINDOW_S = 1.0;
+/** Fall below the steady level (or growth maximum) that starts a decay, dB, and its hold, s. */
+const DROP_DB = 6;
+const DROP_HOLD_S = 0.1;
+/** Rise above the decay minimum that restarts growth before the background is reached, dB. */
+const REGROW_DB = 10;
+/** Quiet time needed before a growth counts as an onset, s. */
+const MIN_QUIET_S = 0.5;
+/** Excess at the first valid sample above which the tone is taken as already sounding, dB. */
+const START_DB = 10;
+/** Time constant of the quiet baseline, s. */
+const BASELINE_TAU_S = 3;
+
+/** A closed stretch of one regime, in envelope-sample indices of the track's store. */
+export interface RegimeSegment {
+  state: number;
+  startIdx: number;
+  /** Exclusive end. */
+  endIdx: number;
+  /** Growth out of a quiet stretch long enough to be an onset. */
+  isOnset: boolean;
+  /** For growth: the segment ran into a steady limit cycle. */
+  reachedSteady: boolean;
+}
+
+export interface RegimeState {
+  readonly rateHz: number;
+  /** Current state; -1 before the first valid sample. */
+  state: number;
+  segStart: number;
+  /** Quiet baseline (linear ratio). */
+  baseline: number;
+  baselineAlpha: number;
+  onHold: number;
+  onHoldMin: number;
+  lastLowIdx: number;
+  quietStartIdx: number;
+  maxLevelDb: number;
+  maxIdx: number;
+  minLevelDb: number;
+  minIdx: number;
+  steadyLevelDb: number;
+  lastHighIdx: number;
+  dropHold: number;
+  dropHoldMin: number;
+  quietHold: number;
+  quietHoldMin: number;
+  quietHoldStart: number;
+  regrowHold: number;
+  growthIsOnset: boolean;
+  /** Whether the next growth may be an onset (false for steady lines). */
+  allowOnsets: boolean;
+  /** Ring of recent levels (dB) for the flatness test. */
+  levelRing: Float64Array;
+  flatWindow: number;
+  minQuiet: number;
+  /** Closed segments. */
+  segments: RegimeSegment[];
+  /** Segments closed by the latest step (for live updates): count from the end of `segments`. */
+  closedInStep: number;
+  /** Set when a growth that counts as an onset was declared in the latest step. */
+  onsetInStep: boolean;
+  onsetIdx: number;
+}
+
+/** Creates the regime detector for envelope samples at rateHz. */
+export function createRegimeState(rateHz: number, allowOnsets: boolean): RegimeState {
+  const flatWindow = Math.max(2, Math.round(FLAT_WINDOW_S * rateHz));
+  return {
+    rateHz,
+    state: -1,
+    segStart: 0,
+    baseline: 1,
+    baselineAlpha: 1 - Math.exp(-1 / (BASELINE_TAU_S * rateHz)),
+    onHold: 0,
+    onHoldMin: Math.max(1, Math.round(ON_HOLD_S * rateHz)),
+    lastLowIdx: 0,
+    quietStartIdx: 0,
+    maxLevelDb: -Infinity,
+    maxIdx: 0,
+    minLevelDb: Infinity,
+    minIdx: 0,
+    steadyLevelDb: 0,
+    lastHighIdx: 0,
+    dropHold: 0,
+    dropHoldMin: Math.max(1, Math.round(DROP_HOLD_S * rateHz)),
+    quietHold: 0,
+    quietHoldMin: Math.max(1, Math.round(QUIET_HOLD_S * rateHz)),
+    quietHoldStart: 0,
+    regrowHold: 0,
+    growthIsOnset: false,
+    allowOnsets,
+    levelRing: new Float64Array(flatWindow),
+    flatWindow,
+    minQuiet: Math.round(MIN_QUIET_S * rateHz),
+    segments: [],
+    closedInStep: 0,
+    onsetInStep: false,
+    onsetIdx: 0,
+  };
+}
+
+function closeSegment(st: RegimeState, endIdx: number, isOnset: boolean, reachedSteady: boolean): void {
+  if (endIdx > st.segStart) {
+    st.segments.push({ state: st.state, startIdx: st.segStart, endIdx, isOnset, reachedSteady });
+    st.closedInStep++;
+  }
+  st.segStart = endIdx;
+}
+
+function enterQuiet(st: RegimeState, idx: number): void {
+  st.state = STATE_QUIET;
+  st.quietStartIdx = idx;
+  st.lastLowIdx = idx;
+  st.onHold = 0;
+}
+
+function enterGrowth(st: RegimeState, startIdx: number, isOnset: boolean): void {
+  st.state = STATE_GROWTH;
+  st.growthIsOnset = isOnset;
+  st.maxLevelDb = -Infinity;
+  st.dropHold = 0;
+  if (isOnset) {
+    st.onsetInStep = true;
+    st.onsetIdx = startIdx;
+  }
+}
+
+function enterDecay(st: RegimeState): void {
+  st.state = STATE_DECAY;
+  st.minLevelDb = Infinity;
+  st.quietHold = 0;
+  st.regrowHold = 0;
+}
+
+/**
+ * Feeds envelope sample idx (its store index) with tone power p and band background bg (same
+ * units); isValid false skips the sample (filter settling). Segments that close are appended to
+ * st.segments. Allocates only when a segment closes.
+ */
+export function stepRegime(st: RegimeState, idx: number, p: number, bg: number): void {
+  const levelDb = 10 * Math.log10(p > 1e-30 ? p : 1e-30);
+  const ratio = bg > 0 ? p / bg : 1;
+  const ring = st.levelRing;
+  const w = st.flatWindow;
+  const ago = ring[idx % w];
+  const haveWindow = idx - st.segStart >= w;
+  ring[idx % w] = levelDb;
+
+  if (st.state < 0) {
+    // First valid sample: already sounding (no onset) or quiet.
+    st.segStart = idx;
+    const x0 = 10 * Math.log10(ratio > 1e-30 ? ratio : 1e-30);
+    if (x0 >= START_DB) {
+      st.state = STATE_STEADY;
+      st.steadyLevelDb = levelDb;
+      st.lastHighIdx = idx;
+      st.dropHold = 0;
+    } else enterQuiet(st, idx);
+    return;
+  }
+  const excessDb = 10 * Math.log10(Math.max(ratio / st.baseline, 1e-30));
+
+  switch (st.state) {
+    case STATE_QUIET: {
+      // Winsorised update: a rising tone cannot pull the baseline up by more than a few dB.
+      st.baseline += st.baselineAlpha * (Math.min(ratio, 4 * st.baseline) - st.baseline);
+      if (excessDb <= LOW_DB) st.lastLowIdx = idx;
+      if (excessDb >= ON_DB) st.onHold++;
+      else st.onHold = 0;
+      if (st.onHold >= st.onHoldMin) {
+        const start = Math.max(st.lastLowIdx, st.segStart);
+        const isOnset = st.allowOnsets && start - st.quietStartIdx >= st.minQuiet;
+        closeSegment(st, start, false, false);
+        enterGrowth(st, start, isOnset);
+      }
+      break;
+    }
+    case STATE_GROWTH: {
+      if (levelDb > st.maxLevelDb) {
+        st.maxLevelDb = levelDb;
+        st.maxIdx = idx;
+      }
+      if (levelDb < st.maxLevelDb - DROP_DB) st.dropHold++;
+      else st.dropHold = 0;
+      if (st.dropHold >= st.dropHoldMin) {
+        closeSegment(st, st.maxIdx + 1, st.growthIsOnset, false);
+        enterDecay(st);
+        break;
+      }
+      if (haveWindow && Math.abs(levelDb - ago) < FLAT_DB && levelDb >= st.maxLevelDb - 1) {
+        // Steady from where the level first came within FLAT_DB of the present one.
+        let start = idx;
+        for (let k = 1; k < w; k++) {
+          const j = idx - k;
+          if (j <= st.segStart) break;
+          if (Math.abs(ring[j % w] - levelDb) >= FLAT_DB) break;
+          start = j;
+        }
+        closeSegment(st, start, st.growthIsOnset, true);
+        st.state = STATE_STEADY;
+        st.steadyLevelDb = levelDb;
+        st.lastHighIdx = idx;
+        st.dropHold = 0;
+      }
+      break;
+    }
+    case STATE_STEADY: {
+      // Slow average of the limit-cycle level (time constant about the flatness window).
+      st.steadyLevelDb += (levelDb - st.steadyLevelDb) / w;
+      if (levelDb >= st.steadyLevelDb - FLAT_DB) st.lastHighIdx = idx;
+      if (levelDb < st.steadyLevelDb - DROP_DB) st.dropHold++;
+      else st.dropHold = 0;
+      if (st.dropHold >= st.dropHoldMin) {
+        closeSegment(st, st.lastHighIdx + 1, false, false);
+        enterDecay(st);
+      }
+      break;
+    }
+    case STATE_DECAY: {
+      if (levelDb < st.minLevelDb) {
+        st.minLevelDb = levelDb;
+        st.minIdx = idx;
+      }
+      if (excessDb < QUIET_DB) {
+        if (st.quietHold === 0) st.quietHoldStart = idx;
+        st.quietHold++;
+      } else st.quietHold = 0;
+      if (st.quietHold >= st.quietHoldMin) {
+        closeSegment(st, st.quietHoldStart, false, false);
+        enterQuiet(st, st.quietHoldStart);
+        break;
+      }
+      // Re-growth must also stand clear of the background (a dip of the noise is not a minimum).
+      if (levelDb > st.minLevelDb + REGROW_DB && excessDb >= ON_DB) st.regrowHold++;
+      else st.regrowHold = 0;
+      if (st.regrowHold >= st.onHoldMin) {
+        closeSegment(st, st.minIdx, false, false);
+        enterGrowth(st, st.minIdx, false);
+      }
+      break;
+    }
+    default:
+      break;
+  }
+}
+
+/** Starts a fresh regime after a gap: the next valid sample decides quiet or already sounding. */
+export function restartRegime(st: RegimeState, idx: number): void {
+  if (st.state >= 0) closeSegment(st, idx, st.state === STATE_GROWTH && st.growthIsOnset, false);
+  st.state = -1;
+  st.baseline = 1;
+}
+
+/** Closes the open segment at the end of the record (exclusive end idx). */
+export function finishRegime(st: RegimeState, endIdx: number): void {
+  if (st.state >= 0) closeSegment(st, endIdx, st.state === STATE_GROWTH && st.growthIsOnset, false);
+  st.state = -1;
+}
+
+/** Clears the per-step flags (call before a batch of steps). */
+export function beginRegimeStep(st: RegimeState): void {
+  st.closedInStep = 0;
+  st.onsetInStep = false;
+}

@@ -1,0 +1,211 @@
+/**
+ * Stage 3b, tone tracking: continuity of spectral peaks across frames. Fundamentals found by
+ * peak.ts are matched to the existing tracks (nearest within a tolerance); unmatched strong peaks
+ * start tentative tracks, which are confirmed after hits in consecutive frames. Several tracks run
+ * at once. A confirmed track keeps its frequency history; which tracks live on is decided by the
+ * pipeline (which knows their envelopes).
+ */
+import type { PeakList } from './peak';
+
+/** Frames in a row a tentative peak must be seen before it becomes a track. */
+export const CONFIRM_HITS = 3;
+/** Frames a tentative peak may be missed before it is dropped. */
+const TENTATIVE_MAX_MISSES = 1;
+
+/** Mains frequencies whose multiples are steady lines, Hz. */
+const MAINS_HZ = [50, 60];
+
+/** True when freqHz lies on a multiple (1..10) of 50 or 60 Hz within max(0.3 Hz, 0.4 %). */
+export function isMainsLine(freqHz: number): boolean {
+  const tol = Math.max(0.3, 0.004 * freqHz);
+  for (const m of MAINS_HZ) {
+    const n = Math.round(freqHz / m);
+    if (n >= 1 && n <= 10 && Math.abs(freqHz - n * m) <= tol) return true;
+  }
+  return false;
+}
+
+/** A confirmed tone track: current frequency and its history (one row per frame it was seen). */
+export interface ToneTrack {
+  id: number;
+  freqHz: number;
+  /** Consecutive frames without a matching peak. */
+  misses: number;
+  lastHitFrame: number;
+  createdFrame: number;
+  /** Largest prominence seen, dB. */
+  maxProminenceDb: number;
+  histTimeS: Float64Array;
+  histFreqHz: Float32Array;
+  histCount: number;
+}
+
+export interface TrackerState {
+  readonly binHz: number;
+  readonly maxTentative: number;
+  tentFreqHz: Float64Array;
+  tentHits: Int32Array;
+  tentMisses: Int32Array;
+  tentProm: Float64Array;
+  tentCount: number;
+  /** Per-peak flag: matched in this frame. */
+  used: Uint8Array;
+  /** Frequencies confirmed in the latest step (read count, then freq). */
+  confirmedCount: number;
+  confirmedFreqHz: Float64Array;
+  confirmedProm: Float64Array;
+  nextId: number;
+}
+
+export function createTrackerState(binHz: number, peakCapacity: number, maxTentative = 16): TrackerState {
+  return {
+    binHz,
+    maxTentative,
+    tentFreqHz: new Float64Array(maxTentative),
+    tentHits: new Int32Array(maxTentative),
+    tentMisses: new Int32Array(maxTentative),
+    tentProm: new Float64Array(maxTentative),
+    tentCount: 0,
+    used: new Uint8Array(peakCapacity),
+    confirmedCount: 0,
+    confirmedFreqHz: new Float64Array(maxTentative),
+    confirmedProm: new Float64Array(maxTentative),
+    nextId: 1,
+  };
+}
+
+/** Creates a confirmed track at freqHz (allocates its history; done once per new tone). */
+export function createToneTrack(st: TrackerState, freqHz: number, frame: number, prominenceDb: number): ToneTrack {
+  return {
+    id: st.nextId++,
+    freqHz,
+    misses: 0,
+    lastHitFrame: frame,
+    createdFrame: frame,
+    maxProminenceDb: prominenceDb,
+    histTimeS: new Float64Array(256),
+    histFreqHz: new Float32Array(256),
+    histCount: 0,
+  };
+}
+
+/** Matching tolerance around a track at freqHz, Hz. */
+export function matchToleranceHz(binHz: number, freqHz: number): number {
+  return Math.max(1.5 * binHz, 0.02 * freqHz);
+}
+
+function appendHistory(t: ToneTrack, timeS: number, freqHz: number): void {
+  if (t.histCount === t.histTimeS.length) {
+    // Doubling growth: amortised, bounded by frames seen (~12 per second).
+    const nt = new Float64Array(2 * t.histTimeS.length);
+    nt.set(t.histTimeS);
+    const nf = new Float32Array(2 * t.histFreqHz.length);
+    nf.set(t.histFreqHz);
+    t.histTimeS = nt;
+    t.histFreqHz = nf;
+  }
+  t.histTimeS[t.histCount] = timeS;
+  t.histFreqHz[t.histCount] = freqHz;
+  t.histCount++;
+}
+
+/**
+ * One frame of tracking: matches fundamental peaks to `tracks` (updating frequency, misses and
+ * history), then advances the tentative tracks with the remaining peaks of prominence ≥
+ * newMinProminenceDb. Frequencies that reached CONFIRM_HITS are left in st.confirmedFreqHz for
+ * the caller to turn into tracks. Allocates nothing except when a history doubles.
+ */
+export function stepTracker(st: TrackerState, tracks: ToneTrack[], peaks: PeakList, frame: number, timeS: number, newMinProminenceDb: number): void {
+  const used = st.used;
+  for (let i = 0; i < peaks.count; i++) used[i] = peaks.harmonicOf[i] !== 0 ? 1 : 0;
+  for (let t = 0; t < tracks.length; t++) {
+    const tr = tracks[t];
+    const tol = matchToleranceHz(st.binHz, tr.freqHz);
+    let best = -1;
+    let bestD = tol;
+    for (let i = 0; i < peaks.count; i++) {
+      if (used[i]) continue;
+      const d = Math.abs(peaks.freqHz[i] - tr.freqHz);
+      if (d <= bestD) {
+        bestD = d;
+        best = i;
+      }
+    }
+    if (best < 0) {
+      tr.misses++;
+      continue;
+    }
+    used[best] = 1;
+    tr.freqHz = peaks.freqHz[best];
+    tr.misses = 0;
+    tr.lastHitFrame = frame;
+    if (peaks.prominenceDb[best] > tr.maxProminenceDb) tr.maxProminenceDb = peaks.prominenceDb[best];
+    appendHistory(tr, timeS, tr.freqHz);
+  }
+  // Tentative tracks.
+  for (let j = 0; j < st.tentCount; j++) st.tentMisses[j]++;
+  for (let i = 0; i < peaks.count; i++) {
+    if (used[i] || peaks.prominenceDb[i] < newMinProminenceDb) continue;
+    const f = peaks.freqHz[i];
+    const tol = matchToleranceHz(st.binHz, f);
+    let best = -1;
+    let bestD = tol;
+    for (let j = 0; j < st.tentCount; j++) {
+      const d = Math.abs(st.tentFreqHz[j] - f);
+      if (d <= bestD) {
+        bestD = d;
+        best = j;
+      }
+    }
+    if (best >= 0) {
+      if (st.tentMisses[best] === 0) continue; // already matched this frame
+      st.tentFreqHz[best] = f;
+      st.tentHits[best]++;
+      st.tentMisses[best] = 0;
+      if (peaks.prominenceDb[i] > st.tentProm[best]) st.tentProm[best] = peaks.prominenceDb[i];
+    } else if (st.tentCount < st.maxTentative) {
+      const j = st.tentCount++;
+      st.tentFreqHz[j] = f;
+      st.tentHits[j] = 1;
+      st.tentMisses[j] = 0;
+      st.tentProm[j] = peaks.prominenceDb[i];
+    }
+  }
+  // Confirm or drop.
+  st.confirmedCount = 0;
+  let w = 0;
+  for (let j = 0; j < st.tentCount; j++) {
+    if (st.tentHits[j] >= CONFIRM_HITS) {
+      st.confirmedFreqHz[st.confirmedCount] = st.tentFreqHz[j];
+      st.confirmedProm[st.confirmedCount] = st.tentProm[j];
+      st.confirmedCount++;
+      continue;
+    }
+    if (st.tentMisses[j] > TENTATIVE_MAX_MISSES) continue;
+    st.tentFreqHz[w] = st.tentFreqHz[j];
+    st.tentHits[w] = st.tentHits[j];
+    st.tentMisses[w] = st.tentMisses[j];
+    st.tentProm[w] = st.tentProm[j];
+    w++;
+  }
+  st.tentCount = w;
+}
+
+/** Forgets the tentative tracks (after a gap). */
+export function resetTentative(st: TrackerState): void {
+  st.tentCount = 0;
+  st.confirmedCount = 0;
+}
+
+/** Median of the track's frequency history between t0 and t1 (s); the current frequency when none. */
+export function medianFrequencyHz(t: ToneTrack, t0: number, t1: number): number {
+  const vals: number[] = [];
+  for (let i = 0; i < t.histCount; i++) {
+    const ts = t.histTimeS[i];
+    if (ts >= t0 && ts <= t1) vals.push(t.histFreqHz[i]);
+  }
+  if (vals.length === 0) return t.freqHz;
+  vals.sort((a, b) => a - b);
+  const m = vals.length;
+  return m % 2 === 1 ? vals[(m - 1) / 2] : 0.5 * (vals[m / 2 - 1] + vals[m / 2]);
+}
