@@ -1,3 +1,4 @@
+import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import {
   backgroundCrossingTimeS,
@@ -277,5 +278,22 @@ describe('fitSaturation', () => {
       if (fitSaturation(series).model !== 'stuart-landau') switched++;
     }
     expect(switched).toBeLessThanOrEqual(1);
+  });
+});
+
+describe('independent agreement with scipy (tests/reference/cross_check.py, scipy 1.17.1)', () => {
+  it('same estimator, same data: rate, interval and background agree', () => {
+    const data = JSON.parse(readFileSync(new URL('../reference/exponential-case.json', import.meta.url), 'utf8')) as {
+      cases: { timeS: number[]; power: number[]; bandwidthHz: number; expected: { ratePerS: number; ci95PerS: number[]; backgroundPower: number } }[];
+    };
+    expect(data.cases.length).toBe(3);
+    for (const c of data.cases) {
+      const fit = fitExponential({ timeS: Float64Array.from(c.timeS), power: Float64Array.from(c.power), bandwidthHz: c.bandwidthHz });
+      // Two solvers of the same estimating equations converge to the same point: 1e-7 relative.
+      expect(Math.abs(fit.ratePerS / c.expected.ratePerS - 1)).toBeLessThan(1e-7);
+      expect(Math.abs(fit.ci95PerS[0] / c.expected.ci95PerS[0] - 1)).toBeLessThan(1e-6);
+      expect(Math.abs(fit.ci95PerS[1] / c.expected.ci95PerS[1] - 1)).toBeLessThan(1e-6);
+      expect(Math.abs(fit.backgroundPower - c.expected.backgroundPower)).toBeLessThan(1e-6 * Math.max(...c.power) * 1e-3);
+    }
   });
 });
