@@ -18,12 +18,12 @@ export default defineConfig({
         description: 'Listen to a humming duct or heater: onset, frequency, growth and decay rates.',
         display: 'standalone',
         start_url: '.',
-        theme_color: '#12323f',
-        background_color: '#0d1b22',
+        theme_color: '#0b3a4a',
+        background_color: '#ffffff',
         icons: [
           { src: 'icons/icon-192.png', sizes: '192x192', type: 'image/png' },
           { src: 'icons/icon-512.png', sizes: '512x512', type: 'image/png' },
-          { src: 'icons/icon-512.png', sizes: '512x512', type: 'image/png', purpose: 'maskable' },
+          { src: 'icons/icon-maskable-512.png', sizes: '512x512', type: 'image/png', purpose: 'maskable' },
         ],
       },
       workbox: {

@@ -4,7 +4,12 @@ import { mountListenScreen } from './views/listen-screen';
 import { mountSessionsScreen } from './views/sessions-screen';
 import { mountDuctScreen } from './views/duct-screen';
 import { mountSettingsScreen } from './views/settings-screen';
-import { mountCautionsScreen } from './views/cautions-screen';
+import { mountCautionsScreen, showFirstRunNotice } from './views/cautions-screen';
+import { registerSW } from 'virtual:pwa-register';
+import { applyTheme } from './views/settings-screen';
+import { loadSettings } from './settings';
+
+applyTheme(loadSettings().theme);
 
 // The app shell: one section per screen, switched by the URL hash (#listen, #sessions/<id>, ...).
 const SCREENS: { name: ScreenName; label: string; mount: MountScreen }[] = [
@@ -77,3 +82,41 @@ for (const s of SCREENS) {
 }
 window.addEventListener('hashchange', show);
 show();
+showFirstRunNotice(app);
+offerUpdates();
+
+/**
+ * Service worker: the app is precached and works offline. A new version waits until the user
+ * chooses to reload (a quiet banner), so a running measurement is never interrupted.
+ */
+function offerUpdates(): void {
+  if (!('serviceWorker' in navigator)) return;
+  const updateSW = registerSW({
+    immediate: true,
+    onNeedRefresh() {
+      const bar = document.createElement('div');
+      bar.className = 'update-bar';
+      bar.setAttribute('role', 'status');
+      const text = document.createElement('span');
+      text.textContent = 'A new version is ready.';
+      const reload = document.createElement('button');
+      reload.type = 'button';
+      reload.className = 'small-button';
+      reload.textContent = 'Reload';
+      reload.addEventListener('click', () => void updateSW(true));
+      const later = document.createElement('button');
+      later.type = 'button';
+      later.className = 'small-button';
+      later.textContent = 'Later';
+      later.addEventListener('click', () => bar.remove());
+      bar.append(text, reload, later);
+      document.body.append(bar);
+    },
+    onOfflineReady() {
+      app.notify('Ready to work offline.', 'info');
+    },
+    onRegisterError(err: unknown) {
+      app.notify(`Offline use is not available: ${err instanceof Error ? err.message : String(err)}`, 'warn');
+    },
+  });
+}

@@ -1,6 +1,111 @@
-import type { MountScreen } from '../app-context';
+/**
+ * Cautions: always reachable from the navigation, and shown once as a first-run notice.
+ * Facts from REFERENCES.md §13 (EU Directive 2003/10/EC exposure action values; NIOSH 1998;
+ * carbon monoxide and hot-surface practice); the app itself only listens.
+ */
+import type { AppContext, MountScreen } from '../app-context';
+import { loadSettings, saveSettings } from '../settings';
+import { LOWER_ACTION_DBA, UPPER_ACTION_DBA } from './live-readouts';
 
-// Placeholder until the cautions screen lands (being built in this session).
+interface CautionSection {
+  title: string;
+  items: string[];
+}
+
+/** The cautions text, in order of urgency. */
+export const CAUTIONS: CautionSection[] = [
+  {
+    title: 'This app only listens',
+    items: [
+      'It measures a hum; it does not make an appliance safe or unsafe. A boiler, furnace, water heater or burner that hums, roars or pulses is showing a fault: switch it off if it is safe to do so and call a licensed heating technician.',
+      'Never modify a burner, flue, air inlet or control to make a hum start or stop. Follow local codes and the appliance maker’s instructions; gas, oil and flue work is for licensed persons.',
+    ],
+  },
+  {
+    title: 'Flue gas and carbon monoxide',
+    items: [
+      'Any flame or fuel-burning appliance can produce carbon monoxide, which has no colour and no smell. Work only with adequate ventilation, never in a closed unventilated space, and keep a working CO alarm nearby.',
+      'Headache, dizziness, nausea or drowsiness near an appliance: stop, get into fresh air, and call for help.',
+    ],
+  },
+  {
+    title: 'Hot surfaces, burners and heated tubes',
+    items: [
+      'Burner parts, flues, heated gauzes and tubes stay hot long after the flame or glow stops. Use tongs or heat-resistant gloves, a stable non-combustible stand, and keep combustibles clear; have an extinguisher at hand.',
+      'Glass tubes can crack under thermal shock; metal or borosilicate tubes are safer. Electrically heated gauzes draw high power: use a protected (RCD/GFCI) supply and rated wiring; mains work by qualified persons.',
+      'Keep the phone away from flames and hot surfaces; hold it at arm’s length or place it on a cool stand.',
+    ],
+  },
+  {
+    title: 'Hearing',
+    items: [
+      `Thermoacoustic tones can be very loud. In the EU, employers must act from a daily exposure of ${LOWER_ACTION_DBA} dB(A) (lower action value) and provide and enforce hearing protection from ${UPPER_ACTION_DBA} dB(A) (upper action value), Directive 2003/10/EC. NIOSH recommends 85 dB(A) over 8 h, halving the allowed time for every 3 dB more (94 dB(A): 1 h).`,
+      'A phone is not a sound level meter: even calibrated, its readings are indicative. Near a loud tone, wear hearing protection and keep your time close by short.',
+    ],
+  },
+];
+
+function renderSections(container: HTMLElement, headingLevel: 'h2' | 'h3'): void {
+  for (const s of CAUTIONS) {
+    const h = document.createElement(headingLevel);
+    h.textContent = s.title;
+    const ul = document.createElement('ul');
+    for (const item of s.items) {
+      const li = document.createElement('li');
+      li.textContent = item;
+      ul.append(li);
+    }
+    container.append(h, ul);
+  }
+}
+
 export const mountCautionsScreen: MountScreen = (root) => {
-  root.textContent = 'Cautions';
+  const h = document.createElement('h2');
+  h.textContent = 'Cautions';
+  const intro = document.createElement('p');
+  intro.className = 'lead';
+  intro.textContent = 'Read before listening near a heater, burner, flue or heated tube.';
+  root.append(h, intro);
+  const body = document.createElement('div');
+  body.className = 'cautions';
+  renderSections(body, 'h3');
+  root.append(body);
 };
+
+/**
+ * Shows the cautions once, at first start, as a modal dialog; acknowledging it is remembered in
+ * the settings. Returns true when the notice was shown.
+ */
+export function showFirstRunNotice(app: AppContext): boolean {
+  const settings = loadSettings();
+  if (settings.hasSeenCautions) return false;
+  const dialog = document.createElement('dialog');
+  dialog.className = 'first-run';
+  dialog.id = 'first-run';
+  dialog.setAttribute('aria-labelledby', 'first-run-title');
+  const h = document.createElement('h2');
+  h.id = 'first-run-title';
+  h.textContent = 'Before you listen';
+  dialog.append(h);
+  renderSections(dialog, 'h3');
+  const row = document.createElement('div');
+  row.className = 'controls';
+  const ok = document.createElement('button');
+  ok.type = 'button';
+  ok.className = 'big-button primary';
+  ok.id = 'first-run-ok';
+  ok.textContent = 'I understand';
+  ok.addEventListener('click', () => {
+    const s = loadSettings();
+    s.hasSeenCautions = true;
+    if (!saveSettings(s)) app.notify('Could not remember this notice (storage unavailable); it will show again.', 'warn');
+    dialog.close();
+    dialog.remove();
+  });
+  row.append(ok);
+  dialog.append(row);
+  dialog.addEventListener('cancel', (ev) => ev.preventDefault());
+  document.body.append(dialog);
+  dialog.showModal();
+  return true;
+}

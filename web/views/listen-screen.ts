@@ -1,6 +1,505 @@
+/**
+ * The Listen screen: live capture from the microphone (or an opened recording) analysed in the
+ * worker, with big readouts, markers, plots and the final figures once stopped.
+ * The main thread forwards nothing per block: the worklet talks to the worker directly, and the
+ * views redraw from ring buffers on requestAnimationFrame.
+ */
 import type { MountScreen } from '../app-context';
+import type { DuctGeometry, Report } from '../../dsp/types';
+import type { NewSessionMeta, SessionRecorder } from '../storage/recording-api';
+import { startSessionRecording } from '../storage/recorder';
+import { createScope, type Scope } from '../lifecycle';
+import { CaptureError, keepScreenAwake, openMicrophone, PROCESSING_KEYS, type MicCapture } from '../capture/mic';
+import { decodeAudioFile, FileProblem } from '../capture/file-input';
+import { isFromWorker, transferablesOf, type FromWorker, type ToWorker, type UpdateMessage } from '../worker/protocol';
+import { emptyLiveSummary, type LiveSummary } from '../worker/live-summary';
+import { appendFrames, createLiveBuffer, resetLiveBuffer, type LiveBuffer } from './live-buffer';
+import { createLivePlots, type LivePlots } from './live-plots';
+import { createReadouts, type Readouts } from './live-readouts';
+import { createMarkerBar, type MarkerBar } from './live-markers';
+import { deviceKey, loadSettings, type Calibration } from '../settings';
+import { formatClock, formatSeconds } from '../format';
 
-// Placeholder until the listen screen lands (being built in this session).
-export const mountListenScreen: MountScreen = (root) => {
-  root.textContent = 'Listen';
+/** Rows of track kept on screen: 100 rows/s for 10 minutes. */
+const BUFFER_ROWS = 60_000;
+/** localStorage key where the duct screen keeps the geometry. */
+const GEOMETRY_KEY = 'humgauge.ductGeometry';
+
+type RunState = 'idle' | 'starting' | 'listening' | 'file' | 'stopping';
+
+interface Run {
+  id: number;
+  source: 'microphone' | 'file';
+  scope: Scope;
+  mic: MicCapture | null;
+  recorder: SessionRecorder | null;
+  /** Frames that arrived before the recorder was ready. */
+  pendingRecorderWork: ((r: SessionRecorder) => void)[];
+  calibration: Calibration | undefined;
+  report: Report | null;
+  reportWaiters: ((r: Report | null) => void)[];
+  suspendedAtMs: number | null;
+  startedAtMs: number;
+  fileDurationS: number;
+  decodedBy: string;
+}
+
+function readGeometry(): DuctGeometry | undefined {
+  try {
+    const raw = localStorage.getItem(GEOMETRY_KEY);
+    if (!raw) return undefined;
+    const g = JSON.parse(raw) as Partial<DuctGeometry>;
+    if (typeof g.lengthM !== 'number' || typeof g.diameterM !== 'number') return undefined;
+    return g as DuctGeometry;
+  } catch {
+    return undefined;
+  }
+}
+
+function el<K extends keyof HTMLElementTagNameMap>(tag: K, props: Partial<HTMLElementTagNameMap[K]> = {}, ...children: (Node | string)[]): HTMLElementTagNameMap[K] {
+  const e = document.createElement(tag);
+  Object.assign(e, props);
+  e.append(...children);
+  return e;
+}
+
+export const mountListenScreen: MountScreen = (root, app) => {
+  const buffer: LiveBuffer = createLiveBuffer(BUFFER_ROWS);
+  let summary: LiveSummary = emptyLiveSummary();
+  let state: RunState = 'idle';
+  let run: Run | null = null;
+  let nextId = 1;
+  let worker: Worker | null = null;
+  let plots: LivePlots | null = null;
+  let rafId = 0;
+  let latestLevelDbfs = Number.NaN;
+  let latestToneDbfs = Number.NaN;
+  let peakAbs = 0;
+  let clipUntilMs = 0;
+  let timeS = 0;
+  let isAWeighted = loadSettings().isAWeighted;
+
+  // --- layout -------------------------------------------------------------------------------
+  const listenButton = el('button', { type: 'button', className: 'big-button primary', id: 'listen-button', textContent: 'Listen' });
+  const fileInput = el('input', { type: 'file', accept: 'audio/*,.wav,.csv,.txt', id: 'file-input', className: 'visually-hidden' });
+  const fileLabel = el('label', { htmlFor: 'file-input', className: 'big-button secondary', id: 'file-button', textContent: 'Open recording' });
+  const clock = el('span', { className: 'clock', id: 'run-clock', textContent: '0:00.0' });
+  clock.setAttribute('aria-label', 'time since start');
+  const controls = el('div', { className: 'controls' }, listenButton, fileLabel, fileInput, clock);
+
+  const meterBar = el('div', { className: 'meter-bar' });
+  const meter = el('div', { className: 'meter', id: 'input-meter' }, meterBar);
+  meter.setAttribute('role', 'meter');
+  meter.setAttribute('aria-label', 'input level');
+  meter.setAttribute('aria-valuemin', '-90');
+  meter.setAttribute('aria-valuemax', '0');
+  const clipBadge = el('span', { className: 'clip-badge', id: 'clip-warning', textContent: 'CLIPPING: move away or lower the input' });
+  clipBadge.hidden = true;
+  const meterRow = el('div', { className: 'meter-row' }, meter, clipBadge);
+
+  const progress = el('progress', { id: 'file-progress', max: 1, value: 0 });
+  progress.setAttribute('aria-label', 'analysis of the file');
+  const progressText = el('span', { id: 'file-progress-text' });
+  const progressRow = el('div', { className: 'progress-row' }, progress, progressText);
+  progressRow.hidden = true;
+
+  const alertBox = el('div', { className: 'alert', id: 'listen-alert' });
+  alertBox.setAttribute('role', 'alert');
+  alertBox.hidden = true;
+  const notes = el('ul', { className: 'notes', id: 'listen-notes' });
+  notes.setAttribute('aria-live', 'polite');
+
+  const readoutHost = el('div', { className: 'readouts', id: 'readouts' });
+  const markerHost = el('div', { className: 'markers', id: 'marker-bar' });
+  const plotHost = el('div', { className: 'plots', id: 'plots' });
+  const resultHost = el('section', { className: 'result', id: 'run-result' });
+  resultHost.setAttribute('aria-label', 'result of the run');
+  resultHost.hidden = true;
+
+  root.append(el('h2', { className: 'visually-hidden', textContent: 'Listen' }), controls, meterRow, progressRow, alertBox, notes, readoutHost, markerHost, plotHost, resultHost);
+
+  const readouts: Readouts = createReadouts(readoutHost);
+  const markers: MarkerBar = createMarkerBar(markerHost, (m) => {
+    if (!run || state !== 'listening') return;
+    send({ type: 'mark', id: run.id, marker: m });
+  });
+  markers.setEnabled(false);
+
+  // --- messages --------------------------------------------------------------------------
+  function showAlert(message: string | null): void {
+    alertBox.textContent = message ?? '';
+    alertBox.hidden = !message;
+  }
+
+  function setNotes(items: string[]): void {
+    notes.replaceChildren(...items.map((t) => el('li', { textContent: t })));
+  }
+
+  function send(message: ToWorker): void {
+    ensureWorker().postMessage(message, transferablesOf(message));
+  }
+
+  function ensureWorker(): Worker {
+    if (worker) return worker;
+    const w = new Worker(new URL('../worker/analysis.worker.ts', import.meta.url), { type: 'module', name: 'analysis' });
+    w.onmessage = (ev: MessageEvent) => {
+      if (isFromWorker(ev.data)) onWorkerMessage(ev.data);
+    };
+    w.onerror = (ev) => {
+      ev.preventDefault();
+      showAlert(`The analysis stopped with an error: ${ev.message || 'unknown'}. What was measured so far is kept.`);
+      void stop('error');
+    };
+    worker = w;
+    return w;
+  }
+
+  function withRecorder(work: (r: SessionRecorder) => void): void {
+    if (!run) return;
+    if (run.recorder) work(run.recorder);
+    else run.pendingRecorderWork.push(work);
+  }
+
+  function onWorkerMessage(m: FromWorker): void {
+    if (!run || m.id !== run.id) return;
+    switch (m.type) {
+      case 'ready':
+        return;
+      case 'update':
+        onUpdate(m);
+        return;
+      case 'audio': {
+        const samples = m.samples;
+        withRecorder((r) => r.appendAudio(samples));
+        return;
+      }
+      case 'progress':
+        progress.value = m.fraction;
+        progressText.textContent = `${Math.round(m.fraction * 100)} % analysed`;
+        return;
+      case 'report': {
+        run.report = m.report;
+        for (const w of run.reportWaiters) w(m.report);
+        run.reportWaiters = [];
+        if (run.source === 'file') void stop('file-done');
+        return;
+      }
+      case 'error':
+        showAlert(`The analysis reported a problem: ${m.message}`);
+        if (run.source === 'file') void stop('error');
+        return;
+      default:
+        return;
+    }
+  }
+
+  function onUpdate(m: UpdateMessage): void {
+    appendFrames(buffer, m.frames);
+    for (const s of m.segments) buffer.segments.push(s);
+    for (const mk of m.markers) {
+      buffer.markers.push(mk);
+      markers.addPlaced(mk);
+    }
+    if (m.spectrumDbfs) {
+      buffer.spectrumDbfs = m.spectrumDbfs;
+      buffer.spectrumBinHz = m.spectrumBinHz;
+    }
+    buffer.version++;
+    summary = m.summary;
+    timeS = m.timeS;
+    const last = m.frames[m.frames.length - 1];
+    if (last) {
+      latestLevelDbfs = last.levelDbfs;
+      latestToneDbfs = last.amplitudeDbfs;
+    }
+    peakAbs = m.peakAbs;
+    if (m.isClipped) clipUntilMs = performance.now() + 2000;
+    if (m.frames.length) {
+      const frames = m.frames;
+      withRecorder((r) => r.appendFrames(frames));
+    }
+    for (const mk of m.markers) withRecorder((r) => r.addMarker(mk));
+  }
+
+  // --- drawing ---------------------------------------------------------------------------
+  function frame(): void {
+    rafId = requestAnimationFrame(frame);
+    plots?.draw();
+    readouts.update({ summary, levelDbfs: latestLevelDbfs, toneDbfs: latestToneDbfs, calibration: run?.calibration, isAWeighted });
+    const peakDb = peakAbs > 0 ? 20 * Math.log10(peakAbs) : -90;
+    const pct = Math.max(0, Math.min(100, ((peakDb + 90) / 90) * 100));
+    meterBar.style.width = `${pct.toFixed(1)}%`;
+    meter.setAttribute('aria-valuenow', peakDb.toFixed(0));
+    clipBadge.hidden = performance.now() > clipUntilMs;
+    clock.textContent = formatClock(timeS);
+  }
+
+  function startDrawing(): void {
+    if (!plots) plots = createLivePlots(plotHost, buffer);
+    if (!rafId) rafId = requestAnimationFrame(frame);
+  }
+
+  function stopDrawing(): void {
+    if (rafId) cancelAnimationFrame(rafId);
+    rafId = 0;
+    // One last full draw so the final state stays on screen.
+    buffer.version++;
+    plots?.draw();
+    readouts.update({ summary, levelDbfs: latestLevelDbfs, toneDbfs: latestToneDbfs, calibration: run?.calibration, isAWeighted });
+    clock.textContent = formatClock(timeS);
+  }
+
+  // --- runs ------------------------------------------------------------------------------
+  function newRun(source: 'microphone' | 'file'): Run {
+    resetLiveBuffer(buffer);
+    markers.clearPlaced();
+    summary = emptyLiveSummary();
+    latestLevelDbfs = Number.NaN;
+    latestToneDbfs = Number.NaN;
+    peakAbs = 0;
+    timeS = 0;
+    resultHost.hidden = true;
+    resultHost.replaceChildren();
+    showAlert(null);
+    setNotes([]);
+    return {
+      id: nextId++,
+      source,
+      scope: createScope(),
+      mic: null,
+      recorder: null,
+      pendingRecorderWork: [],
+      calibration: undefined,
+      report: null,
+      reportWaiters: [],
+      suspendedAtMs: null,
+      startedAtMs: performance.now(),
+      fileDurationS: 0,
+      decodedBy: '',
+    };
+  }
+
+  async function openRecorder(r: Run, meta: NewSessionMeta): Promise<void> {
+    try {
+      const recorder = await startSessionRecording(meta);
+      recorder.onProblem((message) => app.notify(`Session store: ${message}`, 'warn'));
+      r.recorder = recorder;
+      for (const work of r.pendingRecorderWork) work(recorder);
+      r.pendingRecorderWork = [];
+    } catch (err) {
+      r.pendingRecorderWork = [];
+      app.notify(`This run is not being saved: ${err instanceof Error ? err.message : String(err)}`, 'warn');
+    }
+  }
+
+  function setState(s: RunState): void {
+    state = s;
+    root.dataset.state = s;
+    listenButton.textContent = s === 'listening' ? 'Stop' : s === 'starting' ? 'Starting…' : s === 'stopping' ? 'Stopping…' : 'Listen';
+    listenButton.classList.toggle('stop', s === 'listening');
+    listenButton.disabled = s === 'starting' || s === 'stopping' || s === 'file';
+    listenButton.setAttribute('aria-pressed', String(s === 'listening'));
+    fileInput.disabled = s !== 'idle';
+    fileLabel.classList.toggle('disabled', s !== 'idle');
+    markers.setEnabled(s === 'listening');
+  }
+
+  async function startListening(): Promise<void> {
+    if (state !== 'idle') return;
+    setState('starting');
+    const r = newRun('microphone');
+    run = r;
+    const settings = loadSettings();
+    isAWeighted = settings.isAWeighted;
+    let mic: MicCapture;
+    try {
+      mic = await openMicrophone(r.scope, r.id);
+    } catch (err) {
+      await r.scope.dispose();
+      run = null;
+      setState('idle');
+      const message = err instanceof CaptureError ? err.message : `The microphone could not be started: ${err instanceof Error ? err.message : String(err)}`;
+      showAlert(message);
+      app.notify(message, 'error');
+      return;
+    }
+    r.mic = mic;
+    r.calibration = settings.calibrations[deviceKey(mic.deviceLabel, mic.deviceId)];
+    send({
+      type: 'start',
+      id: r.id,
+      config: { sampleRateHz: mic.sampleRateHz, bandLowHz: settings.bandLowHz, bandHighHz: settings.bandHighHz },
+      source: 'microphone',
+      isKeepingAudio: settings.isKeepingAudio,
+      port: mic.workerPort,
+    });
+
+    const captureNotes: string[] = [`Microphone: ${mic.deviceLabel}, ${mic.sampleRateHz} Hz.`];
+    if (mic.processingStillOn.length) {
+      captureNotes.push(
+        `The browser keeps ${mic.processingStillOn.join(', ')} switched ON although asked to turn it off: growth and decay rates may be falsified. Try another browser or an external microphone.`,
+      );
+    }
+    if (!r.calibration) captureNotes.push('Not calibrated: levels read in dBFS (see Settings to calibrate).');
+    setNotes(captureNotes);
+    if (mic.processingStillOn.length) app.notify('Audio processing is still on: rates may be falsified.', 'warn');
+
+    // Track ended (device unplugged, permission revoked): stop cleanly and keep what was measured.
+    r.scope.listen(mic.track, 'ended', () => {
+      if (run === r && state === 'listening') {
+        app.notify('The microphone stopped (unplugged or taken by another app). What was measured is kept.', 'warn');
+        void stop('ended');
+      }
+    });
+    // Context suspended (tab hidden, phone call, screen off): the gap is marked, fits do not join across it.
+    const ctx = mic.context;
+    r.scope.listen(ctx, 'statechange', () => {
+      if (ctx.state === 'running') {
+        if (r.suspendedAtMs !== null) {
+          const missingS = (performance.now() - r.suspendedAtMs) / 1000;
+          r.suspendedAtMs = null;
+          send({ type: 'gap', id: r.id, missingSamples: Math.round(missingS * mic.sampleRateHz) });
+          const atS = timeS;
+          withRecorder((rec) => rec.addGap(atS, missingS));
+          app.notify(`Listening resumed after a gap of ${formatSeconds(missingS)}; the track shows the gap.`, 'info');
+        }
+      } else if (r.suspendedAtMs === null) {
+        r.suspendedAtMs = performance.now();
+      }
+    });
+    r.scope.listen(document, 'visibilitychange', () => {
+      if (document.visibilityState === 'visible' && ctx.state !== 'running' && ctx.state !== 'closed') void ctx.resume().catch(() => undefined);
+    });
+    void keepScreenAwake(r.scope);
+
+    const captureSettings: Record<string, unknown> = { ...mic.settings };
+    for (const k of PROCESSING_KEYS) captureSettings[`${k}Requested`] = false;
+    void openRecorder(r, {
+      source: 'microphone',
+      sampleRateHz: mic.sampleRateHz,
+      geometry: readGeometry(),
+      calibrationOffsetDb: r.calibration?.offsetDb,
+      calibrationSource: r.calibration?.source,
+      captureSettings,
+      keepAudio: settings.isKeepingAudio,
+    });
+    setState('listening');
+    startDrawing();
+  }
+
+  async function openFile(file: File): Promise<void> {
+    if (state !== 'idle') return;
+    setState('file');
+    const r = newRun('file');
+    run = r;
+    progressRow.hidden = false;
+    progress.removeAttribute('value');
+    progressText.textContent = `Decoding “${file.name}”…`;
+    let decoded;
+    try {
+      decoded = await decodeAudioFile(file);
+    } catch (err) {
+      const message = err instanceof FileProblem ? err.message : `“${file.name}” could not be opened: ${err instanceof Error ? err.message : String(err)}`;
+      showAlert(message);
+      app.notify(message, 'error');
+      progressRow.hidden = true;
+      run = null;
+      setState('idle');
+      return;
+    }
+    r.fileDurationS = decoded.durationS;
+    r.decodedBy = decoded.decodedBy;
+    const settings = loadSettings();
+    setNotes([`${decoded.fileName}: ${decoded.decodedBy}, ${decoded.sampleRateHz} Hz, ${formatSeconds(decoded.durationS)}.`, ...decoded.notes]);
+    progress.value = 0;
+    progressText.textContent = '0 % analysed';
+    void openRecorder(r, {
+      source: 'file',
+      fileName: decoded.fileName,
+      sampleRateHz: decoded.sampleRateHz,
+      geometry: readGeometry(),
+      keepAudio: settings.isKeepingAudio,
+    });
+    startDrawing();
+    send({
+      type: 'analyse-file',
+      id: r.id,
+      config: { sampleRateHz: decoded.sampleRateHz, bandLowHz: settings.bandLowHz, bandHighHz: settings.bandHighHz },
+      channels: decoded.channels,
+      isKeepingAudio: settings.isKeepingAudio,
+    });
+  }
+
+  function waitForReport(r: Run, timeoutMs: number): Promise<Report | null> {
+    if (r.report) return Promise.resolve(r.report);
+    return new Promise((resolve) => {
+      const timer = setTimeout(() => resolve(null), timeoutMs);
+      r.reportWaiters.push((rep) => {
+        clearTimeout(timer);
+        resolve(rep);
+      });
+    });
+  }
+
+  async function stop(why: 'user' | 'ended' | 'error' | 'file-done'): Promise<void> {
+    const r = run;
+    if (!r || state === 'stopping') return;
+    setState('stopping');
+    // Capture first (worklet, microphone, context), then ask the worker for the report.
+    const problems = await r.scope.dispose();
+    if (problems.length) app.notify(`While stopping: ${problems.join('; ')}`, 'warn');
+    if (r.source === 'microphone' && why !== 'error') send({ type: 'finish', id: r.id });
+    const report = why === 'error' ? null : await waitForReport(r, 20_000);
+    stopDrawing();
+    progressRow.hidden = true;
+    if (report) {
+      showResult(r, report);
+      if (r.recorder) {
+        try {
+          await r.recorder.finish(report);
+          const id = r.recorder.id;
+          app.notify(`Session saved (${formatSeconds(report.durationS)}).`, 'info');
+          resultHost.append(el('p', {}, el('a', { href: `#sessions/${encodeURIComponent(id)}`, className: 'big-link', textContent: 'Open this session' })));
+        } catch (err) {
+          app.notify(`The session could not be completed: ${err instanceof Error ? err.message : String(err)}`, 'error');
+        }
+      }
+    } else if (why !== 'error') {
+      showAlert('The analysis did not return a result in time; the track shown so far is kept in the session.');
+    }
+    run = null;
+    setState('idle');
+  }
+
+  function showResult(r: Run, report: Report): void {
+    // The final figures come from the report (the whole record), which may refine the live ones.
+    summary = {
+      ...summary,
+      ...report.summary,
+      latestFrequencyHz: report.summary.frequencyHz ?? summary.latestFrequencyHz,
+    };
+    readouts.update({ summary, levelDbfs: latestLevelDbfs, toneDbfs: latestToneDbfs, calibration: r.calibration, isAWeighted, isFinal: true });
+    resultHost.replaceChildren(...readouts.renderReport(report, r.source === 'file' ? `Result of ${r.decodedBy}` : 'Result of this run'));
+    resultHost.hidden = false;
+  }
+
+  // --- wiring ----------------------------------------------------------------------------
+  listenButton.addEventListener('click', () => {
+    if (state === 'listening') void stop('user');
+    else void startListening();
+  });
+  fileInput.addEventListener('change', () => {
+    const file = fileInput.files?.[0];
+    fileInput.value = '';
+    if (file) void openFile(file);
+  });
+  window.addEventListener('resize', () => plots?.resize());
+  app.onShow('listen', () => {
+    plots?.resize();
+    buffer.version++;
+    plots?.draw();
+  });
+  setState('idle');
+  startDrawing();
+  stopDrawing();
 };

@@ -1,0 +1,124 @@
+/**
+ * Opening a recording instead of the microphone. WAV files are read by the project's own decoder
+ * (native sample rate, exact samples, named problems); CSV pressure-sensor exports by the CSV
+ * reader; anything else goes to the browser's decodeAudioData (MP3, AAC/M4A, Ogg/Opus, FLAC ...).
+ */
+import { decodeWav } from '../../dsp/io/wav';
+import { decodeCsv } from '../../dsp/io/csv';
+import { InputError } from '../../dsp/io/errors';
+
+export interface DecodedFile {
+  fileName: string;
+  sampleRateHz: number;
+  /** One or more channels, full scale ±1 (the worker mixes them to mono). */
+  channels: Float32Array[];
+  durationS: number;
+  /** How it was read, e.g. "WAV PCM 16-bit", "CSV", "decoded by the browser". */
+  decodedBy: string;
+  /** Notes for the user (e.g. scaling of a CSV). */
+  notes: string[];
+}
+
+/** Sample rate used when the browser decodes a compressed file (it resamples to this), Hz. */
+const BROWSER_DECODE_RATE_HZ = 48_000;
+
+/** A file that cannot be analysed, with a message naming the problem. */
+export class FileProblem extends Error {
+  constructor(message: string) {
+    super(message);
+    this.name = 'FileProblem';
+  }
+}
+
+function isRiffWave(bytes: Uint8Array): boolean {
+  if (bytes.length < 12) return false;
+  const tag = String.fromCharCode(bytes[0] ?? 0, bytes[1] ?? 0, bytes[2] ?? 0, bytes[3] ?? 0);
+  const wave = String.fromCharCode(bytes[8] ?? 0, bytes[9] ?? 0, bytes[10] ?? 0, bytes[11] ?? 0);
+  return (tag === 'RIFF' || tag === 'RF64') && wave === 'WAVE';
+}
+
+function isCsvName(name: string): boolean {
+  return /\.(csv|txt|tsv)$/i.test(name);
+}
+
+/**
+ * Reads and decodes `file`. Throws FileProblem with a message that names the file and the problem.
+ * The browser decoder needs an audio context; a short-lived OfflineAudioContext is used.
+ */
+export async function decodeAudioFile(file: File): Promise<DecodedFile> {
+  const name = file.name || 'the file';
+  if (file.size === 0) throw new FileProblem(`“${name}” is empty (0 bytes): there is nothing to analyse.`);
+  let bytes: Uint8Array;
+  try {
+    bytes = new Uint8Array(await file.arrayBuffer());
+  } catch (err) {
+    throw new FileProblem(`“${name}” could not be read (${err instanceof Error ? err.message : String(err)}).`);
+  }
+
+  if (isRiffWave(bytes)) {
+    try {
+      const { samples, summary } = decodeWav(bytes);
+      return {
+        fileName: name,
+        sampleRateHz: summary.format.sampleRateHz,
+        channels: [samples],
+        durationS: summary.durationS,
+        decodedBy: `WAV ${summary.format.encodingName}, ${summary.format.channelCount} channel${summary.format.channelCount === 1 ? '' : 's'}`,
+        notes: summary.warnings,
+      };
+    } catch (err) {
+      // An encoding our reader does not handle may still be one the browser decodes.
+      if (!(err instanceof InputError && err.problem === 'unsupported-encoding')) {
+        throw new FileProblem(`“${name}” is a WAV file the analysis cannot use: ${err instanceof Error ? err.message : String(err)}.`);
+      }
+    }
+  } else if (isCsvName(name)) {
+    try {
+      const { samples, summary } = decodeCsv(bytes);
+      // Sensor values arrive in their own unit (e.g. Pa): scale so the peak sits at half full scale.
+      // Rates, frequencies and regimes are unchanged by a constant factor; levels read in dB re peak.
+      const peak = Math.max(Math.abs(summary.minValue), Math.abs(summary.maxValue));
+      const gain = peak > 0 ? 0.5 / peak : 1;
+      for (let i = 0; i < samples.length; i++) samples[i] *= gain;
+      return {
+        fileName: name,
+        sampleRateHz: summary.sampleRateHz,
+        channels: [samples],
+        durationS: summary.durationS,
+        decodedBy: `CSV, ${summary.rows} rows${summary.valueColumnName ? ` of “${summary.valueColumnName}”` : ''}`,
+        notes: [`Values were scaled so the largest (${peak.toPrecision(4)}) reads −6 dBFS; levels in dBFS are relative to that.`],
+      };
+    } catch (err) {
+      throw new FileProblem(`“${name}” could not be read as a pressure table (CSV): ${err instanceof Error ? err.message : String(err)}.`);
+    }
+  }
+
+  return decodeWithBrowser(name, bytes);
+}
+
+async function decodeWithBrowser(name: string, bytes: Uint8Array): Promise<DecodedFile> {
+  if (typeof OfflineAudioContext === 'undefined') {
+    throw new FileProblem(`“${name}” is not a WAV or CSV file, and this browser has no audio decoder to open it.`);
+  }
+  const context = new OfflineAudioContext({ numberOfChannels: 1, length: 1, sampleRate: BROWSER_DECODE_RATE_HZ });
+  let buffer: AudioBuffer;
+  try {
+    buffer = await context.decodeAudioData(bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength) as ArrayBuffer);
+  } catch (err) {
+    const why = err instanceof DOMException && err.name === 'EncodingError' ? 'its format is not one the browser recognises as audio' : err instanceof Error ? err.message : String(err);
+    throw new FileProblem(
+      `“${name}” could not be decoded: ${why}. Open a WAV file (PCM or float), a CSV pressure table, or a common audio format such as MP3, M4A/AAC, Ogg/Opus or FLAC.`,
+    );
+  }
+  if (buffer.length === 0 || buffer.numberOfChannels === 0) throw new FileProblem(`“${name}” decoded to no audio samples.`);
+  const channels: Float32Array[] = [];
+  for (let c = 0; c < buffer.numberOfChannels; c++) channels.push(buffer.getChannelData(c).slice());
+  return {
+    fileName: name,
+    sampleRateHz: buffer.sampleRate,
+    channels,
+    durationS: buffer.duration,
+    decodedBy: `decoded by the browser (resampled to ${buffer.sampleRate} Hz)`,
+    notes: [],
+  };
+}

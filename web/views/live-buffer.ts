@@ -1,0 +1,126 @@
+/**
+ * Ring buffer of the live track for the views: frames arrive with worker updates, the plots read
+ * it on requestAnimationFrame. Capacity is fixed at creation; the oldest rows are overwritten.
+ * A gap in the input is stored as a row of NaN so the plots break the line there.
+ */
+import type { Marker, Segment, TrackFrame } from '../../dsp/types';
+
+export interface LiveBuffer {
+  readonly capacity: number;
+  timeS: Float64Array;
+  frequencyHz: Float64Array;
+  amplitudeDbfs: Float64Array;
+  levelDbfs: Float64Array;
+  /** Rows written in total (the ring holds the last `capacity` of them). */
+  written: number;
+  segments: Segment[];
+  markers: Marker[];
+  /** Times of the first frame after each gap, s. */
+  gapTimesS: number[];
+  spectrumDbfs: Float32Array | null;
+  spectrumBinHz: number;
+  /** Bumped on every change, so a view can skip drawing when nothing changed. */
+  version: number;
+}
+
+/** Creates a buffer for `capacity` rows (about 100 rows per second of track). */
+export function createLiveBuffer(capacity: number): LiveBuffer {
+  if (!(capacity >= 2)) throw new RangeError(`capacity must be at least 2 (got ${capacity})`);
+  return {
+    capacity,
+    timeS: new Float64Array(capacity),
+    frequencyHz: new Float64Array(capacity),
+    amplitudeDbfs: new Float64Array(capacity),
+    levelDbfs: new Float64Array(capacity),
+    written: 0,
+    segments: [],
+    markers: [],
+    gapTimesS: [],
+    spectrumDbfs: null,
+    spectrumBinHz: 0,
+    version: 0,
+  };
+}
+
+/** Empties the buffer for a new run. */
+export function resetLiveBuffer(b: LiveBuffer): void {
+  b.written = 0;
+  b.segments = [];
+  b.markers = [];
+  b.gapTimesS = [];
+  b.spectrumDbfs = null;
+  b.spectrumBinHz = 0;
+  b.version++;
+}
+
+function writeRow(b: LiveBuffer, timeS: number, freqHz: number, ampDbfs: number, levelDbfs: number): void {
+  const i = b.written % b.capacity;
+  b.timeS[i] = timeS;
+  b.frequencyHz[i] = freqHz;
+  b.amplitudeDbfs[i] = ampDbfs;
+  b.levelDbfs[i] = levelDbfs;
+  b.written++;
+}
+
+/** Appends frames; a frame after a gap is preceded by a NaN row so lines do not join across it. */
+export function appendFrames(b: LiveBuffer, frames: readonly TrackFrame[]): void {
+  for (const f of frames) {
+    if (f.isAfterGap && b.written > 0) {
+      writeRow(b, f.timeS, Number.NaN, Number.NaN, Number.NaN);
+      b.gapTimesS.push(f.timeS);
+    }
+    writeRow(b, f.timeS, f.frequencyHz, f.amplitudeDbfs, f.levelDbfs);
+  }
+  if (frames.length) b.version++;
+}
+
+/** Number of rows currently held. */
+export function rowCount(b: LiveBuffer): number {
+  return Math.min(b.written, b.capacity);
+}
+
+/** Index into the typed arrays of the k-th held row (0 = oldest). */
+export function rowIndex(b: LiveBuffer, k: number): number {
+  const start = b.written > b.capacity ? b.written % b.capacity : 0;
+  return (start + k) % b.capacity;
+}
+
+/** Time of the newest row, s (0 when empty). */
+export function latestTimeS(b: LiveBuffer): number {
+  return b.written ? b.timeS[(b.written - 1) % b.capacity] ?? 0 : 0;
+}
+
+/**
+ * Straight line in dB for a fitted growth or decay segment: level(t) = interceptDb + slopeDbPerS·(t − startS),
+ * slope = 20·log10(e)·rate = 8.685890·rate dB/s (REFERENCES.md §5). The intercept is the mean offset of the
+ * track from that slope over the rows used: for growth, those more than 6 dB under the segment's top (the
+ * exponential part, before saturation bends it); for decay, all rows. Null when no row fits.
+ */
+export function fitLineOf(b: LiveBuffer, seg: Segment): { startS: number; endS: number; interceptDb: number; slopeDbPerS: number } | null {
+  if (seg.ratePerS === null || !Number.isFinite(seg.ratePerS)) return null;
+  const slope = 8.68588963806504 * seg.ratePerS;
+  const n = rowCount(b);
+  let top = Number.NEGATIVE_INFINITY;
+  for (let k = 0; k < n; k++) {
+    const i = rowIndex(b, k);
+    const t = b.timeS[i] ?? 0;
+    const a = b.amplitudeDbfs[i] ?? Number.NaN;
+    if (t >= seg.startS && t <= seg.endS && Number.isFinite(a) && a > top) top = a;
+  }
+  if (!Number.isFinite(top)) return null;
+  const limit = seg.kind === 'growth' ? top - 6 : Number.POSITIVE_INFINITY;
+  let sum = 0;
+  let count = 0;
+  let lastUsedS = seg.startS;
+  for (let k = 0; k < n; k++) {
+    const i = rowIndex(b, k);
+    const t = b.timeS[i] ?? 0;
+    const a = b.amplitudeDbfs[i] ?? Number.NaN;
+    if (t < seg.startS || t > seg.endS || !Number.isFinite(a) || a > limit) continue;
+    sum += a - slope * (t - seg.startS);
+    count++;
+    if (t > lastUsedS) lastUsedS = t;
+  }
+  if (count === 0) return null;
+  return { startS: seg.startS, endS: seg.kind === 'growth' ? lastUsedS : seg.endS, interceptDb: sum / count, slopeDbPerS: slope };
+}

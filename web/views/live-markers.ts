@@ -1,0 +1,111 @@
+/**
+ * Marker buttons of the Listen screen: one tap each for "driving on", "driving off / heater
+ * removed" and "setting changed" (with an optional control value and unit), and the list of
+ * markers placed in this run with their times.
+ */
+import type { Marker } from '../../dsp/types';
+import { formatClock, formatQuantity } from '../format';
+
+export type NewMarker = Omit<Marker, 'timeS'>;
+
+export interface MarkerBar {
+  setEnabled(isEnabled: boolean): void;
+  /** Shows a marker the analysis has placed (with its time). */
+  addPlaced(marker: Marker): void;
+  clearPlaced(): void;
+}
+
+/** Units offered for the control value of a "setting changed" marker. */
+export const CONTROL_UNITS = ['%', 'W', 'kW', 'Hz', 'm³/h', 'V', 'A'] as const;
+
+/** Checks the control value field: null when empty, a number, or an error message. */
+export function parseControlValue(text: string): { value: number | null } | { error: string } {
+  const t = text.trim().replace(',', '.');
+  if (t === '') return { value: null };
+  const v = Number(t);
+  if (!Number.isFinite(v)) return { error: `“${text}” is not a number.` };
+  return { value: v };
+}
+
+/** Builds the bar in `host`; `onMark` receives each tap. */
+export function createMarkerBar(host: HTMLElement, onMark: (m: NewMarker) => void): MarkerBar {
+  const heading = document.createElement('h2');
+  heading.className = 'section-title';
+  heading.textContent = 'Markers';
+  const row = document.createElement('div');
+  row.className = 'marker-buttons';
+  const button = (id: string, text: string, kind: string, label: string): HTMLButtonElement => {
+    const b = document.createElement('button');
+    b.type = 'button';
+    b.id = id;
+    b.className = 'marker-button';
+    b.textContent = text;
+    b.addEventListener('click', () => onMark({ kind, label }));
+    row.append(b);
+    return b;
+  };
+  const on = button('mark-driving-on', 'Driving on', 'driving-on', 'driving on');
+  const off = button('mark-driving-off', 'Driving off / heater removed', 'driving-off', 'driving off');
+
+  const setting = document.createElement('div');
+  setting.className = 'marker-setting';
+  const valueInput = document.createElement('input');
+  valueInput.type = 'text';
+  valueInput.inputMode = 'decimal';
+  valueInput.id = 'mark-value';
+  valueInput.placeholder = 'value';
+  valueInput.setAttribute('aria-label', 'control value (optional)');
+  const unitSelect = document.createElement('select');
+  unitSelect.id = 'mark-unit';
+  unitSelect.setAttribute('aria-label', 'unit of the control value');
+  for (const u of CONTROL_UNITS) {
+    const o = document.createElement('option');
+    o.value = u;
+    o.textContent = u;
+    unitSelect.append(o);
+  }
+  const settingButton = document.createElement('button');
+  settingButton.type = 'button';
+  settingButton.id = 'mark-setting';
+  settingButton.className = 'marker-button';
+  settingButton.textContent = 'Setting changed';
+  const error = document.createElement('span');
+  error.className = 'field-error';
+  error.setAttribute('role', 'alert');
+  settingButton.addEventListener('click', () => {
+    const parsed = parseControlValue(valueInput.value);
+    if ('error' in parsed) {
+      error.textContent = parsed.error;
+      return;
+    }
+    error.textContent = '';
+    const unit = unitSelect.value;
+    if (parsed.value === null) onMark({ kind: 'setting', label: 'setting changed' });
+    else onMark({ kind: 'setting', label: `setting ${formatQuantity(parsed.value, unit, null, { significant: 4 })}`, value: parsed.value, unit });
+  });
+  setting.append(valueInput, unitSelect, settingButton, error);
+
+  const list = document.createElement('ol');
+  list.className = 'marker-list';
+  list.id = 'marker-list';
+  list.setAttribute('aria-label', 'markers placed');
+
+  host.append(heading, row, setting, list);
+  const controls: (HTMLButtonElement | HTMLInputElement | HTMLSelectElement)[] = [on, off, settingButton, valueInput, unitSelect];
+
+  return {
+    setEnabled(isEnabled) {
+      for (const c of controls) c.disabled = !isEnabled;
+    },
+    addPlaced(marker) {
+      const li = document.createElement('li');
+      li.dataset.kind = marker.kind;
+      li.dataset.timeS = String(marker.timeS);
+      li.textContent = `${formatClock(marker.timeS)} ${marker.label}`;
+      list.append(li);
+    },
+    clearPlaced() {
+      list.replaceChildren();
+    },
+  };
+}

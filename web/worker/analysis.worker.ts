@@ -1,0 +1,250 @@
+/// <reference lib="webworker" />
+/**
+ * The analysis worker: a thin adapter from messages (protocol.ts) to the streaming dsp/ analysis.
+ * Blocks arrive from the capture worklet over a MessagePort (live) or as a whole decoded file;
+ * updates go back to the app in batches of about 66 ms so the app only draws.
+ */
+import { createAnalysis } from '../../dsp/index';
+import type { Analysis, AnalysisConfig, Marker, Onset, Segment, TrackFrame } from '../../dsp/types';
+import { emptyLiveSummary, updateLiveSummary, type LiveSummary } from './live-summary';
+import { parseToWorker, transferablesOf, type FromWorker, type ToWorker, type UpdateMessage } from './protocol';
+
+declare const self: DedicatedWorkerGlobalScope;
+
+/** Update batches reach the app at most this often, ms (about 15 per second). */
+const UPDATE_INTERVAL_MS = 66;
+/** Samples per block when a whole file is analysed. */
+const FILE_BLOCK_SAMPLES = 4096;
+
+interface Run {
+  id: number;
+  analysis: Analysis;
+  sampleRateHz: number;
+  samplesSeen: number;
+  port: MessagePort | null;
+  isKeepingAudio: boolean;
+  audioChunks: Float32Array[];
+  audioSamples: number;
+  pendingFrames: TrackFrame[];
+  pendingOnsets: Onset[];
+  pendingSegments: Segment[];
+  pendingMarkers: Marker[];
+  spectrum: Float32Array | null;
+  spectrumBinHz: number;
+  peakAbs: number;
+  isClipped: boolean;
+  lastPostMs: number;
+  summary: LiveSummary;
+  /** Time spent inside dsp/ push(), ms (for the figures shown after a file). */
+  analysisMs: number;
+}
+
+let run: Run | null = null;
+
+function post(message: FromWorker): void {
+  self.postMessage(message, transferablesOf(message));
+}
+
+function postError(id: number, err: unknown): void {
+  const message = err instanceof Error ? err.message : String(err);
+  post({ type: 'error', id, message });
+}
+
+function createRun(id: number, config: AnalysisConfig, isKeepingAudio: boolean, port: MessagePort | null): Run {
+  return {
+    id,
+    analysis: createAnalysis(config),
+    sampleRateHz: config.sampleRateHz,
+    samplesSeen: 0,
+    port,
+    isKeepingAudio,
+    audioChunks: [],
+    audioSamples: 0,
+    pendingFrames: [],
+    pendingOnsets: [],
+    pendingSegments: [],
+    pendingMarkers: [],
+    spectrum: null,
+    spectrumBinHz: 0,
+    peakAbs: 0,
+    isClipped: false,
+    lastPostMs: 0,
+    summary: emptyLiveSummary(),
+    analysisMs: 0,
+  };
+}
+
+/** Analyses one block and collects what changed; the update object from dsp/ is copied, it is reused. */
+function pushBlock(r: Run, samples: Float32Array): void {
+  const t0 = performance.now();
+  const u = r.analysis.push(samples);
+  r.analysisMs += performance.now() - t0;
+  r.samplesSeen += samples.length;
+  for (const f of u.frames) r.pendingFrames.push({ ...f });
+  for (const o of u.onsets) r.pendingOnsets.push({ ...o });
+  for (const s of u.segments) r.pendingSegments.push({ ...s, rateCi95PerS: s.rateCi95PerS ? [s.rateCi95PerS[0], s.rateCi95PerS[1]] : null });
+  if (u.spectrumDbfs) {
+    if (!r.spectrum || r.spectrum.length !== u.spectrumDbfs.length) r.spectrum = new Float32Array(u.spectrumDbfs.length);
+    r.spectrum.set(u.spectrumDbfs);
+    r.spectrumBinHz = u.spectrumBinHz;
+  }
+  if (u.peakAbs > r.peakAbs) r.peakAbs = u.peakAbs;
+  if (u.isClipped) r.isClipped = true;
+  if (r.isKeepingAudio) keepAudio(r, samples);
+}
+
+function keepAudio(r: Run, samples: Float32Array): void {
+  r.audioChunks.push(samples);
+  r.audioSamples += samples.length;
+  if (r.audioSamples >= r.sampleRateHz) flushAudio(r);
+}
+
+function flushAudio(r: Run): void {
+  if (r.audioSamples === 0) return;
+  const all = new Float32Array(r.audioSamples);
+  let at = 0;
+  for (const c of r.audioChunks) {
+    all.set(c, at);
+    at += c.length;
+  }
+  r.audioChunks = [];
+  r.audioSamples = 0;
+  post({ type: 'audio', id: r.id, samples: all });
+}
+
+/** Posts the collected changes if enough time has passed (or always, when `isForced`). */
+function maybePostUpdate(r: Run, isForced: boolean): void {
+  const now = performance.now();
+  if (!isForced && now - r.lastPostMs < UPDATE_INTERVAL_MS) return;
+  r.lastPostMs = now;
+  const last = r.pendingFrames.length ? r.pendingFrames[r.pendingFrames.length - 1] : null;
+  updateLiveSummary(r.summary, r.pendingSegments, last ? { frequencyHz: last.frequencyHz, regime: last.state } : null);
+  const message: UpdateMessage = {
+    type: 'update',
+    id: r.id,
+    samplesAnalysed: r.samplesSeen,
+    timeS: r.samplesSeen / r.sampleRateHz,
+    frames: r.pendingFrames,
+    onsets: r.pendingOnsets,
+    segments: r.pendingSegments,
+    spectrumDbfs: r.spectrum ? r.spectrum.slice() : null,
+    spectrumBinHz: r.spectrumBinHz,
+    peakAbs: r.peakAbs,
+    isClipped: r.isClipped,
+    markers: r.pendingMarkers,
+    summary: { ...r.summary },
+  };
+  r.pendingFrames = [];
+  r.pendingOnsets = [];
+  r.pendingSegments = [];
+  r.pendingMarkers = [];
+  r.peakAbs = 0;
+  r.isClipped = false;
+  post(message);
+}
+
+function finishRun(r: Run): void {
+  if (r.port) {
+    r.port.onmessage = null;
+    r.port.close();
+  }
+  maybePostUpdate(r, true);
+  flushAudio(r);
+  const report = r.analysis.finish();
+  post({ type: 'report', id: r.id, report });
+}
+
+function onPortMessage(r: Run, ev: MessageEvent): void {
+  const parsed = parseToWorker(ev.data);
+  if (!parsed.ok || parsed.message.type !== 'block') return;
+  try {
+    pushBlock(r, parsed.message.samples);
+    maybePostUpdate(r, false);
+  } catch (err) {
+    postError(r.id, err);
+  }
+}
+
+function analyseFile(r: Run, channels: Float32Array[]): void {
+  const length = Math.min(...channels.map((c) => c.length));
+  const scale = 1 / channels.length;
+  let nextProgress = 0;
+  for (let start = 0; start < length; start += FILE_BLOCK_SAMPLES) {
+    const n = Math.min(FILE_BLOCK_SAMPLES, length - start);
+    // Mono mix of all channels (a fresh block each time: the session store may keep it).
+    const block = new Float32Array(n);
+    for (const ch of channels) for (let i = 0; i < n; i++) block[i] += ch[start + i] * scale;
+    pushBlock(r, block);
+    maybePostUpdate(r, false);
+    const fraction = (start + n) / length;
+    if (fraction >= nextProgress) {
+      post({ type: 'progress', id: r.id, fraction });
+      nextProgress = fraction + 0.02;
+    }
+  }
+  post({ type: 'progress', id: r.id, fraction: 1 });
+  finishRun(r);
+}
+
+function handle(message: ToWorker): void {
+  switch (message.type) {
+    case 'start': {
+      if (run?.port) run.port.close();
+      run = createRun(message.id, message.config, message.isKeepingAudio, message.port ?? null);
+      const r = run;
+      if (r.port) r.port.onmessage = (ev) => onPortMessage(r, ev);
+      post({ type: 'ready', id: message.id });
+      return;
+    }
+    case 'analyse-file': {
+      run = createRun(message.id, message.config, message.isKeepingAudio, null);
+      post({ type: 'ready', id: message.id });
+      analyseFile(run, message.channels);
+      return;
+    }
+    default:
+      break;
+  }
+  const r = run;
+  if (!r || r.id !== message.id) {
+    post({ type: 'error', id: message.id, message: `no analysis run ${message.id} is open` });
+    return;
+  }
+  switch (message.type) {
+    case 'block':
+      pushBlock(r, message.samples);
+      maybePostUpdate(r, false);
+      return;
+    case 'gap':
+      r.analysis.gap(Math.round(message.missingSamples));
+      r.samplesSeen += Math.round(message.missingSamples);
+      return;
+    case 'mark': {
+      const marker: Marker = { ...message.marker, timeS: message.marker.timeS ?? r.samplesSeen / r.sampleRateHz };
+      r.analysis.mark(marker);
+      r.pendingMarkers.push(marker);
+      maybePostUpdate(r, true);
+      return;
+    }
+    case 'finish':
+      finishRun(r);
+      run = null;
+      return;
+    default:
+      return;
+  }
+}
+
+self.onmessage = (ev: MessageEvent) => {
+  const parsed = parseToWorker(ev.data);
+  const id = typeof (ev.data as { id?: unknown })?.id === 'number' ? (ev.data as { id: number }).id : -1;
+  if (!parsed.ok) {
+    post({ type: 'error', id, message: `The analysis refused a message: ${parsed.reason}.` });
+    return;
+  }
+  try {
+    handle(parsed.message);
+  } catch (err) {
+    postError(id, err);
+  }
+};

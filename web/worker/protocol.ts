@@ -1,0 +1,196 @@
+/**
+ * Messages between the app and the analysis worker. Every message has a `type` and the `id` of
+ * the analysis run it belongs to; the worker answers errors as messages, never by throwing.
+ *
+ * Data flow while listening: the capture worklet posts sample blocks straight to the worker over a
+ * MessagePort handed over in `start`; the worker runs dsp/ on them and posts batched `update`s
+ * (about 15 per second) to the app, which only draws them.
+ */
+import type { AnalysisConfig, Marker, Onset, Report, Segment, TrackFrame } from '../../dsp/types';
+import type { LiveSummary } from './live-summary';
+
+/** Where the samples of a run come from. */
+export type RunSource = 'microphone' | 'file';
+
+/** App → worker: begin a run. `port` (transferred) delivers `BlockMessage`s from the capture worklet. */
+export interface StartRequest {
+  type: 'start';
+  id: number;
+  config: AnalysisConfig;
+  source: RunSource;
+  /** Send the samples back in `audio` batches (about one per second) so the session can keep them. */
+  isKeepingAudio: boolean;
+  port?: MessagePort;
+}
+
+/** A block of mono samples (transferred), full scale ±1, at the run's sample rate. */
+export interface BlockMessage {
+  type: 'block';
+  id: number;
+  samples: Float32Array;
+}
+
+/** App → worker: input was missing for `missingSamples` samples (capture suspended). */
+export interface GapRequest {
+  type: 'gap';
+  id: number;
+  missingSamples: number;
+}
+
+/** App → worker: a marker typed by the user. Its time is set by the worker (samples seen so far) unless given. */
+export interface MarkRequest {
+  type: 'mark';
+  id: number;
+  marker: Omit<Marker, 'timeS'> & { timeS?: number };
+}
+
+/** App → worker: analyse a whole decoded file (channels transferred), reporting progress. */
+export interface AnalyseFileRequest {
+  type: 'analyse-file';
+  id: number;
+  config: AnalysisConfig;
+  channels: Float32Array[];
+  isKeepingAudio: boolean;
+}
+
+/** App → worker: stop the run and return the report. */
+export interface FinishRequest {
+  type: 'finish';
+  id: number;
+}
+
+export type ToWorker = StartRequest | BlockMessage | GapRequest | MarkRequest | AnalyseFileRequest | FinishRequest;
+
+/** Worker → app: the run is set up and accepts blocks. */
+export interface ReadyMessage {
+  type: 'ready';
+  id: number;
+}
+
+/** Worker → app: what changed since the previous update. */
+export interface UpdateMessage {
+  type: 'update';
+  id: number;
+  /** Samples analysed so far, and the time they span, s (gaps included). */
+  samplesAnalysed: number;
+  timeS: number;
+  frames: TrackFrame[];
+  onsets: Onset[];
+  segments: Segment[];
+  /** Latest spectrum, dBFS per bin, and bin width, Hz; null before the first analysis frame. */
+  spectrumDbfs: Float32Array | null;
+  spectrumBinHz: number;
+  /** Largest absolute sample since the previous update (0–1 full scale), and whether any clipped. */
+  peakAbs: number;
+  isClipped: boolean;
+  /** Markers placed since the previous update, with their times. */
+  markers: Marker[];
+  summary: LiveSummary;
+}
+
+/** Worker → app: samples for the session store (mono, run sample rate). */
+export interface AudioMessage {
+  type: 'audio';
+  id: number;
+  samples: Float32Array;
+}
+
+/** Worker → app: share of a file analysed so far (0–1). */
+export interface ProgressMessage {
+  type: 'progress';
+  id: number;
+  fraction: number;
+}
+
+/** Worker → app: the run finished; the report of the whole run. */
+export interface ReportMessage {
+  type: 'report';
+  id: number;
+  report: Report;
+}
+
+/** Worker → app: something went wrong; `message` is for the user. */
+export interface ErrorMessage {
+  type: 'error';
+  id: number;
+  message: string;
+}
+
+export type FromWorker = ReadyMessage | UpdateMessage | AudioMessage | ProgressMessage | ReportMessage | ErrorMessage;
+
+const TO_WORKER_TYPES: ReadonlySet<string> = new Set(['start', 'block', 'gap', 'mark', 'analyse-file', 'finish']);
+const FROM_WORKER_TYPES: ReadonlySet<string> = new Set(['ready', 'update', 'audio', 'progress', 'report', 'error']);
+
+function hasTypeAndId(data: unknown): data is { type: string; id: number } {
+  if (typeof data !== 'object' || data === null) return false;
+  const rec = data as Record<string, unknown>;
+  return typeof rec.type === 'string' && typeof rec.id === 'number' && Number.isInteger(rec.id);
+}
+
+/**
+ * Checks a message arriving at the worker. Returns the typed message, or a reason it was refused
+ * (which the worker sends back as an `error`).
+ */
+export function parseToWorker(data: unknown): { ok: true; message: ToWorker } | { ok: false; reason: string } {
+  if (!hasTypeAndId(data)) return { ok: false, reason: 'message without a type and a whole-number id' };
+  if (!TO_WORKER_TYPES.has(data.type)) return { ok: false, reason: `unknown message type "${data.type}"` };
+  const rec = data as unknown as Record<string, unknown>;
+  switch (data.type) {
+    case 'start':
+    case 'analyse-file': {
+      const config = rec.config as Record<string, unknown> | undefined;
+      const rate = config?.sampleRateHz;
+      if (typeof rate !== 'number' || !Number.isFinite(rate) || rate < 8000 || rate > 192_000) {
+        return { ok: false, reason: `sample rate ${String(rate)} Hz is outside 8000–192000 Hz` };
+      }
+      if (data.type === 'analyse-file') {
+        const ch = rec.channels;
+        if (!Array.isArray(ch) || ch.length === 0 || !ch.every((c) => c instanceof Float32Array)) {
+          return { ok: false, reason: 'the file holds no audio channels' };
+        }
+      }
+      break;
+    }
+    case 'block':
+      if (!(rec.samples instanceof Float32Array)) return { ok: false, reason: 'block without Float32Array samples' };
+      break;
+    case 'gap': {
+      const m = rec.missingSamples;
+      if (typeof m !== 'number' || !Number.isFinite(m) || m < 0) return { ok: false, reason: 'gap length must be a non-negative number of samples' };
+      break;
+    }
+    case 'mark': {
+      const marker = rec.marker as Record<string, unknown> | undefined;
+      if (typeof marker?.kind !== 'string' || typeof marker.label !== 'string') return { ok: false, reason: 'marker needs a kind and a label' };
+      if (marker.value !== undefined && (typeof marker.value !== 'number' || !Number.isFinite(marker.value))) {
+        return { ok: false, reason: 'marker value must be a finite number' };
+      }
+      break;
+    }
+    default:
+      break;
+  }
+  return { ok: true, message: data as unknown as ToWorker };
+}
+
+/** Checks a message arriving from the worker (the app ignores anything else). */
+export function isFromWorker(data: unknown): data is FromWorker {
+  return hasTypeAndId(data) && FROM_WORKER_TYPES.has(data.type);
+}
+
+/** The objects to transfer (not copy) with a message: sample buffers and the worklet port. */
+export function transferablesOf(message: ToWorker | FromWorker): Transferable[] {
+  switch (message.type) {
+    case 'block':
+    case 'audio':
+      return [message.samples.buffer as ArrayBuffer];
+    case 'analyse-file':
+      return [...new Set(message.channels.map((c) => c.buffer as ArrayBuffer))];
+    case 'start':
+      return message.port ? [message.port] : [];
+    case 'update':
+      return message.spectrumDbfs ? [message.spectrumDbfs.buffer as ArrayBuffer] : [];
+    default:
+      return [];
+  }
+}
