@@ -567,7 +567,7 @@ function invalidRateFit(reason: string, refTimeS: number, nEffective: number): R
 /** Rates whose e-folding covers more than this many times the record are outside what the record can tell. */
 const MAX_RATE_TIMES_SPAN = 150;
 
-/** Symmetric-in-u grid 2·s·span/2 = ±(e^v − 1), dense near 0, up to ±MAX_RATE_TIMES_SPAN. */
+/** Rate grid, 1/s: s·span = ±(e^v − 1) for v evenly spaced, dense near 0, up to ±MAX_RATE_TIMES_SPAN. */
 function rateGrid(spanS: number, count: number): Float64Array {
   const out = new Float64Array(count);
   const vMax = Math.log(MAX_RATE_TIMES_SPAN + 1);
@@ -597,7 +597,7 @@ export function fitExponential(series: EnvelopeSeries, opts?: { backgroundPower?
   const spanS = d.t[d.n - 1] - t0;
   const tm = t0 + spanS / 2;
   const model = exponentialShape(tm);
-  const grid: GridSpec = { values: [rateGrid(spanS / 2, 241)] };
+  const grid: GridSpec = { values: [rateGrid(spanS, 241)] };
   const fit = fitIrls(d, model, grid, fixedBg, null);
   if (fit === null) return invalidRateFit('no tone above the background', refTimeS, d.nEff);
   const s = fit.state.params[1];
@@ -749,13 +749,21 @@ export function landauHalfLimitTimeS(p: { ratePerS: number; cubicCoefficient: nu
 
 /**
  * Time (s) at which a fitted growth curve meets the background: A²(t) = N² (the onset of
- * DESIGN.md). For an exponential fit t = ref + ln(N²/A_ref²)/(2 s); for a saturation fit the same
- * on its early, exponential part. NaN when there is no background or no growth.
+ * DESIGN.md). Exponential fit: t = ref + ln(N²/A_ref²)/(2 s). Stuart–Landau fit, exactly on the
+ * logistic: from A² = A∞²/(1 + e^{−2s(t − tc)}) at ref and at the crossing,
+ * t = ref − ln((A∞²/N² − 1)/(A∞²/A_ref² − 1))/(2 s). Generalised saturation: its early part is
+ * A² ≈ A∞²·e^{2s(t − tc)}, so the exponential form applies where the background lies well below
+ * the limit cycle. NaN when there is no background, no growth, or the background is above A∞².
  */
-export function backgroundCrossingTimeS(fit: RateFit): number {
+export function backgroundCrossingTimeS(fit: RateFit | SaturationFit): number {
   if (!fit.isValid || !(fit.ratePerS > 0) || !(fit.backgroundPower > 0) || !(fit.amplitudeAtRef > 0)) return Number.NaN;
-  const ratio = fit.backgroundPower / (fit.amplitudeAtRef * fit.amplitudeAtRef);
-  return fit.refTimeS + Math.log(ratio) / (2 * fit.ratePerS);
+  const refPower = fit.amplitudeAtRef * fit.amplitudeAtRef;
+  if ('model' in fit && fit.model === 'stuart-landau') {
+    const limitPower = fit.limitAmplitude * fit.limitAmplitude;
+    if (!(limitPower > fit.backgroundPower) || !(limitPower > refPower)) return Number.NaN;
+    return fit.refTimeS - Math.log((limitPower / fit.backgroundPower - 1) / (limitPower / refPower - 1)) / (2 * fit.ratePerS);
+  }
+  return fit.refTimeS + Math.log(fit.backgroundPower / refPower) / (2 * fit.ratePerS);
 }
 
 /**

@@ -253,6 +253,19 @@ describe('fitSaturation', () => {
     expect(Math.abs(meanSd(rates).mean - 5)).toBeLessThan(0.1);
   });
 
+  it('onset (curve meets the background) of a noise-free Stuart–Landau record, exact on the logistic', () => {
+    // A² = A∞²/(1 + (A∞²/A0² − 1)e^{−2st}) + N², A∞ = 1, A0 = 0.01, s = 5, N² = 1e-5: A² = N² at
+    // e^{−2st} = (1/N² − 1)/(1/A0² − 1), t = −ln(99999/9999)/10 = −0.23027 s (before the record).
+    const n = 400;
+    const timeS = Float64Array.from({ length: n }, (_, i) => i / 200);
+    const power = timeS.map((t) => landauAmplitude(t, landau) ** 2 + 1e-5);
+    const fit = fitSaturation({ timeS, power, bandwidthHz: 20 });
+    expect(fit.model).toBe('stuart-landau');
+    expect(fit.ratePerS).toBeCloseTo(5, 5);
+    expect(fit.limitAmplitude).toBeCloseTo(1, 6);
+    expect(backgroundCrossingTimeS(fit)).toBeCloseTo(-Math.log(99999 / 9999) / 10, 4);
+  });
+
   it('selects the generalised model for a sharp knee (p = 8) and still recovers the linear rate', () => {
     // dA/dt = sA(1 − (A/A∞)^p): A² = A∞²·(1 + e^{−p s (t − tc)})^{−2/p}, s = 5, p = 8.
     const p = 8;
