@@ -9,6 +9,7 @@
  */
 import { invertSmallMatrix } from './fit';
 
+/** Bounds on the standard deviations of the tone parameters (units: as the parameter; rate 1/s, frequency Hz, phase rad). */
 export interface ToneBound {
   /** Number of samples. */
   n: number;

@@ -33,6 +33,7 @@
 import { invertSmallMatrix, studentTQuantile, Z_975 } from './fit';
 import type { DecayEstimate } from './types';
 
+/** Result of estimateNoiseDrivenDamping: peak frequency and the decay rate by each estimator. */
 export interface NoiseDrivenDamping {
   /** Frequency of the resonance peak, Hz. */
   frequencyHz: number;

@@ -89,6 +89,7 @@ export const EU_EXPOSURE_VALUES = {
   limit: { lex8hDba: 87, peakPa: 200 },
 } as const;
 
+/** Band of the EU action values a daily exposure falls in (Directive 2003/10/EC, Art. 3). */
 export type EuExposureBand = 'below-lower-action' | 'lower-action' | 'upper-action' | 'limit';
 
 /** Which EU band a daily exposure (dB(A)) and, optionally, a peak pressure (Pa) fall in: the higher of the two (Directive 2003/10/EC, Art. 3). */
