@@ -228,11 +228,25 @@ describe('recording', () => {
     db.close();
   });
 
+  it('with Web Locks, a freed lock means abandoned at once and a held lock means alive, whatever the heartbeat', async () => {
+    const db = await openSessionDb({ name: uniqueName() });
+    const clock = 7_000_000;
+    const a = await createSessionRecorder(META, { db, useTimer: false, nowMs: () => clock });
+    const b = await createSessionRecorder(META, { db, useTimer: false, nowMs: () => clock });
+    // a: its tab crashed a moment ago (lock freed by the browser); b: its tab is alive but idle for a minute.
+    const live = async (id: string): Promise<boolean> => id === b.id;
+    const ids = await recoverInterruptedSessions(db, null, clock + 500, live);
+    expect(ids).toEqual([a.id]);
+    expect(await recoverInterruptedSessions(db, null, clock + 60_000, live)).toEqual([]);
+    expect((await db.get('sessions', b.id))?.status).toBe('recording');
+    db.close();
+  });
+
   it('a recording whose tab is alive (fresh heartbeat) is left alone', async () => {
     const db = await openSessionDb({ name: uniqueName() });
     const clock = 9_000_000;
     const rec = await createSessionRecorder(META, { db, useTimer: false, nowMs: () => clock });
-    expect(await recoverInterruptedSessions(db, null, clock + STALE_RECORDING_MS - 1)).toEqual([]);
+    expect(await recoverInterruptedSessions(db, null, clock + STALE_RECORDING_MS - 1, async () => null)).toEqual([]);
     expect((await db.get('sessions', rec.id))?.status).toBe('recording');
     db.close();
   });

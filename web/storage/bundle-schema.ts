@@ -42,6 +42,11 @@ const MARKUP = /<\s*[a-z!?/]|javascript:/i;
 // eslint-disable-next-line no-control-regex
 const CONTROL = /[\u0000-\u0008\u000b\u000c\u000e-\u001f\u007f]/;
 
+/** True when text holds tag-like markup or a script URL (refused in every text field of a session). */
+export function hasMarkup(text: string): boolean {
+  return MARKUP.test(text);
+}
+
 const text = (maxLength: number, what: string) =>
   v.pipe(
     v.string(`${what} must be text`),

@@ -7,7 +7,7 @@
 import type { Marker, Report, TrackFrame } from '../../dsp/types';
 import { isQuotaError, packFrames, type SessionDb, type SessionRecord } from './db';
 import type { NewSessionMeta, SessionRecorder } from './recording-api';
-import { getSessionDb, newSessionId, requestPersistentStorage } from './sessions';
+import { getSessionDb, newSessionId, recordingLockName, requestPersistentStorage } from './sessions';
 
 /** Interval between writes, ms ("about once a second"). */
 export const FLUSH_INTERVAL_MS = 1000;
@@ -49,6 +49,22 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
   const now = opts.nowMs ?? (() => Date.now());
   const t0 = now();
   const id = newSessionId();
+  // Hold the session's Web Lock while recording: the browser frees it when the tab closes or
+  // crashes, which is how the next start knows the recording was interrupted.
+  let releaseLock: () => void = () => undefined;
+  const locks = typeof navigator !== 'undefined' ? navigator.locks : undefined;
+  if (locks) {
+    await new Promise<void>((granted) => {
+      void locks
+        .request(recordingLockName(id), () => {
+          granted();
+          return new Promise<void>((release) => {
+            releaseLock = release;
+          });
+        })
+        .catch(() => granted());
+    });
+  }
   let record: SessionRecord = {
     id,
     createdAtMs: t0,
@@ -237,20 +253,28 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
       isFinished = true;
       if (timer !== null) clearInterval(timer);
       if (useTimer && typeof document !== 'undefined') document.removeEventListener('visibilitychange', onHide);
-      await flush();
-      if (pendingFrames.length) await flush();
-      const t = now();
-      const done: SessionRecord = { ...record, status: 'complete', report, updatedAtMs: t, heartbeatAtMs: t, durationS: Math.max(record.durationS, report.durationS) };
-      if (pendingFrames.length) done.history = [...done.history, `${pendingFrames.length} track frames could not be saved (storage full).`];
       try {
-        await db.put('sessions', done);
-        record = done;
-      } catch (err) {
-        const message = isQuotaError(err) ? 'Storage is full: the report of this session could not be saved.' : `Saving the report failed: ${err instanceof Error ? err.message : String(err)}`;
-        problem(message);
-        throw new Error(message);
+        await flush();
+        if (pendingFrames.length) await flush();
+        await writeDone(report);
+      } finally {
+        releaseLock();
       }
     },
+  };
+  /** The last write: status complete with the report. */
+  const writeDone = async (report: Report): Promise<void> => {
+    const t = now();
+    const done: SessionRecord = { ...record, status: 'complete', report, updatedAtMs: t, heartbeatAtMs: t, durationS: Math.max(record.durationS, report.durationS) };
+    if (pendingFrames.length) done.history = [...done.history, `${pendingFrames.length} track frames could not be saved (storage full).`];
+    try {
+      await db.put('sessions', done);
+      record = done;
+    } catch (err) {
+      const message = isQuotaError(err) ? 'Storage is full: the report of this session could not be saved.' : `Saving the report failed: ${err instanceof Error ? err.message : String(err)}`;
+      problem(message);
+      throw new Error(message);
+    }
   };
   return recorder;
 }

@@ -216,14 +216,44 @@ export async function putFullSessions(db: SessionDb, sessions: readonly FullSess
   await tx.done;
 }
 
-/** A recording whose tab has not written for this long is taken as abandoned, ms. */
+/** A recording whose tab has not written for this long is taken as abandoned, ms (when Web Locks are missing). */
 export const STALE_RECORDING_MS = 10_000;
 
-/** Sessions left in 'recording' by a closed tab or a crash (no heartbeat for STALE_RECORDING_MS). */
-export async function findInterruptedSessions(db: SessionDb, nowMs = Date.now()): Promise<SessionRecord[]> {
+/** Name of the Web Lock a recording tab holds for as long as it records the session. */
+export function recordingLockName(id: string): string {
+  return `humgauge-recording-${id}`;
+}
+
+/** Whether a tab is still recording a session: true alive, false abandoned, null cannot tell. */
+export type LiveCheck = (id: string) => Promise<boolean | null>;
+
+/**
+ * Asks the Web Locks API whether some tab holds the session's recording lock. The browser frees
+ * the locks of a closed or crashed tab at once, so this tells an abandoned recording immediately.
+ */
+export const webLockLiveCheck: LiveCheck = async (id) => {
+  const locks = typeof navigator !== 'undefined' ? navigator.locks : undefined;
+  if (!locks) return null;
+  try {
+    return await locks.request(recordingLockName(id), { ifAvailable: true }, async (lock) => lock === null);
+  } catch {
+    return null;
+  }
+};
+
+/**
+ * Sessions left in 'recording' by a closed tab or a crash: no tab holds their recording lock (or,
+ * without Web Locks, no heartbeat for STALE_RECORDING_MS); plus those already marked interrupted.
+ */
+export async function findInterruptedSessions(db: SessionDb, nowMs = Date.now(), liveCheck: LiveCheck = webLockLiveCheck): Promise<SessionRecord[]> {
   const recording = await db.getAllFromIndex('sessions', 'by-status', 'recording');
   const interrupted = await db.getAllFromIndex('sessions', 'by-status', 'interrupted');
-  return [...recording.filter((r) => nowMs - r.heartbeatAtMs > STALE_RECORDING_MS), ...interrupted];
+  const abandoned: SessionRecord[] = [];
+  for (const r of recording) {
+    const alive = await liveCheck(r.id);
+    if (alive === false || (alive === null && nowMs - r.heartbeatAtMs > STALE_RECORDING_MS)) abandoned.push(r);
+  }
+  return [...abandoned, ...interrupted];
 }
 
 /** Re-analyses stored audio into a report (the streaming analysis of dsp/). Null when not possible. */
@@ -234,13 +264,13 @@ export type AudioAnalyser = (audio: Float32Array, sampleRateHz: number, markers:
  * audio when there is audio and an analyser, else the stored track is summarised. Each session is
  * marked 'recovered' with a note in its history. Returns the ids completed.
  */
-export async function recoverInterruptedSessions(db: SessionDb, analyse: AudioAnalyser | null, nowMs = Date.now()): Promise<string[]> {
+export async function recoverInterruptedSessions(db: SessionDb, analyse: AudioAnalyser | null, nowMs = Date.now(), liveCheck: LiveCheck = webLockLiveCheck): Promise<string[]> {
   const done: string[] = [];
-  for (const rec of await findInterruptedSessions(db, nowMs)) {
+  for (const rec of await findInterruptedSessions(db, nowMs, liveCheck)) {
     // Mark first, so a second tab starting at the same moment does not also take it.
     const mark = db.transaction('sessions', 'readwrite');
     const fresh = await mark.store.get(rec.id);
-    if (!fresh || (fresh.status === 'recording' && nowMs - fresh.heartbeatAtMs <= STALE_RECORDING_MS)) {
+    if (!fresh || (fresh.status !== 'recording' && fresh.status !== 'interrupted')) {
       await mark.done;
       continue;
     }

@@ -1,0 +1,31 @@
+/** What the session views share: the app, the database, navigation within the screen, and deletion with undo. */
+import type { AppContext } from '../app-context';
+import type { SessionDb } from '../storage/db';
+
+export interface SessionsContext {
+  app: AppContext;
+  db(): Promise<SessionDb>;
+  /** Shows a view of the sessions screen: undefined = list, an id, 'compare:<ids>' or 'map[:<ids>]'. */
+  go(param?: string): void;
+  /** Deletes a session and offers undo for a while. */
+  deleteWithUndo(id: string, title: string): Promise<void>;
+}
+
+/** A rendered view; `destroy` frees its charts and listeners. */
+export interface SessionView {
+  destroy(): void;
+}
+
+/** The title of a session for lists and headings: "site – equipment", or a fallback. */
+export function sessionTitle(site: string, equipment: string): string {
+  const parts = [site.trim(), equipment.trim()].filter(Boolean);
+  return parts.length ? parts.join(' – ') : 'Unnamed session';
+}
+
+/** Local date and time, e.g. "2026-12-02 09:41". */
+export function formatLocalStamp(ms: number): string {
+  const d = new Date(ms);
+  if (Number.isNaN(d.getTime())) return '—';
+  const p = (n: number): string => String(n).padStart(2, '0');
+  return `${d.getFullYear()}-${p(d.getMonth() + 1)}-${p(d.getDate())} ${p(d.getHours())}:${p(d.getMinutes())}`;
+}

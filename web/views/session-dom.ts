@@ -1,0 +1,65 @@
+/**
+ * A tiny element builder for the session views. Text only ever goes in through textContent or
+ * attribute setters, never through innerHTML, so user text cannot become markup.
+ */
+
+type Child = Node | string | null | undefined | false;
+
+export interface Props {
+  className?: string;
+  text?: string;
+  attrs?: Record<string, string>;
+  on?: { [K in keyof HTMLElementEventMap]?: (ev: HTMLElementEventMap[K]) => void };
+}
+
+/** Creates an HTML element with a class, text, attributes, listeners and children. */
+export function h<K extends keyof HTMLElementTagNameMap>(tag: K, props: Props = {}, ...children: Child[]): HTMLElementTagNameMap[K] {
+  const el = document.createElement(tag);
+  if (props.className) el.className = props.className;
+  if (props.text !== undefined) el.textContent = props.text;
+  for (const [k, v] of Object.entries(props.attrs ?? {})) el.setAttribute(k, v);
+  for (const [type, fn] of Object.entries(props.on ?? {})) el.addEventListener(type, fn as EventListener);
+  for (const c of children) if (c !== null && c !== undefined && c !== false) el.append(c);
+  return el;
+}
+
+const SVG_NS = 'http://www.w3.org/2000/svg';
+
+/** Creates an SVG element with attributes (and optional text content). */
+export function svg<K extends keyof SVGElementTagNameMap>(tag: K, attrs: Record<string, string | number> = {}, text?: string): SVGElementTagNameMap[K] {
+  const el = document.createElementNS(SVG_NS, tag);
+  for (const [k, v] of Object.entries(attrs)) el.setAttribute(k, String(v));
+  if (text !== undefined) el.textContent = text;
+  return el;
+}
+
+/** A table from a header row and body rows of text cells. */
+export function table(className: string, caption: string, head: string[], rows: string[][]): HTMLTableElement {
+  return h(
+    'table',
+    { className },
+    h('caption', { text: caption }),
+    h('thead', {}, h('tr', {}, ...head.map((c) => h('th', { text: c, attrs: { scope: 'col' } })))),
+    h('tbody', {}, ...rows.map((r) => h('tr', {}, ...r.map((c) => h('td', { text: c }))))),
+  );
+}
+
+/** The value of a CSS custom property of the page (theme colours), or a fallback. */
+export function cssVar(name: string, fallback: string): string {
+  const v = getComputedStyle(document.documentElement).getPropertyValue(name).trim();
+  return v || fallback;
+}
+
+/** Bytes as "12.3 MB" (decimal units, SI). */
+export function formatBytes(bytes: number | null): string {
+  if (bytes === null || !Number.isFinite(bytes)) return '— (not known)';
+  if (bytes < 1000) return `${bytes} B`;
+  const units = ['kB', 'MB', 'GB', 'TB'];
+  let v = bytes / 1000;
+  let k = 0;
+  while (v >= 1000 && k < units.length - 1) {
+    v /= 1000;
+    k++;
+  }
+  return `${v.toFixed(v < 10 ? 1 : 0)} ${units[k]}`;
+}
