@@ -25,7 +25,7 @@ ${ANALYZE_HELP.replace(/^Usage: /, 'analyze: ')}
 Exit codes
   0  success
   1  internal error (please report it)
-  2  usage error (unknown option, missing file, bad option value)
+  2  usage error (unknown command or option, no input file given, malformed option value)
   3  file cannot be read (missing, no permission, a directory)
   4  empty or truncated file
   5  broken RIFF/WAVE header, or neither WAV nor CSV
