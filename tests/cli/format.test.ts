@@ -76,7 +76,7 @@ describe('text', () => {
 
   it('tables align columns', () => {
     const t = renderTable(['a', 'bb'], [['1', '22'], ['333', '4']], [false, true]);
-    expect(t.split('\n')).toEqual(['a    bb', '---  --', '1     22', '333    4', '']);
+    expect(t.split('\n')).toEqual(['a    bb', '---  --', '1    22', '333   4', '']);
   });
 
   it('the summary names units and intervals and flags clipping', () => {
