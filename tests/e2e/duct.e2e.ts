@@ -1,0 +1,94 @@
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { APP_URL, launch, screenshot, type Launched } from './browser';
+
+// The duct screen in headless Chromium: the REFERENCES.md §2 worked example (L 1.20 m, inner
+// diameter 48 mm, open–open, unflanged ends, 20 °C → 139.5889 Hz, Levine & Schwinger 1948 end
+// correction), the two-zone example of §3 (196.9157 Hz), bad input, and the stored geometry.
+describe('duct screen', () => {
+  let b: Launched;
+  beforeAll(async () => {
+    b = await launch();
+  });
+  afterAll(async () => {
+    await b?.close();
+  });
+
+  /** The first-run cautions notice (another screen's) sits above the app until acknowledged. */
+  async function dismissFirstRun(): Promise<void> {
+    const ok = b.page.locator('#first-run-ok');
+    try {
+      await ok.waitFor({ state: 'visible', timeout: 5000 });
+      await ok.click();
+    } catch {
+      /* not shown: already acknowledged */
+    }
+  }
+
+  async function fill(id: string, value: string): Promise<void> {
+    await b.page.fill(`#${id}`, value);
+  }
+
+  it('shows the 139.59 Hz fundamental of the worked example, the sketch and a measured-tone match', async () => {
+    const { page } = b;
+    await page.goto(`${APP_URL}#duct`);
+    await page.waitForSelector('#duct-length');
+    await dismissFirstRun();
+    await fill('duct-length', '1.20');
+    await fill('duct-diameter', '48');
+    await page.selectOption('#duct-ends', 'open-open');
+    await page.selectOption('#duct-open-end', 'unflanged');
+    await fill('duct-temp', '20');
+    const firstRow = page.locator('table.duct-modes tbody tr').first();
+    await expect.poll(async () => firstRow.textContent()).toContain('139.59 Hz');
+    const second = await page.locator('table.duct-modes tbody tr').nth(1).textContent();
+    expect(second).toContain('279.18 Hz');
+    expect(await page.locator('.duct-svg path.duct-p').count()).toBe(1);
+    // A 150 °C column hums at 167.7078 Hz (REFERENCES.md §2): typing that tone must give mode 1 and ~150 °C.
+    await fill('duct-measured', '167.71');
+    await expect.poll(async () => page.locator('.duct-match-temp').textContent()).toMatch(/150 °C \(95 % CI \d+–\d+\)/);
+    expect(await page.locator('.duct-match-mode').textContent()).toContain('mode 1');
+    const body = (await page.locator('.screen-duct').textContent()) ?? '';
+    expect(body).not.toMatch(/NaN|undefined|Infinity/);
+    await screenshot(page, 'duct-reference-example');
+  });
+
+  it('solves the heated two-zone duct and gives the Rayleigh reading', async () => {
+    const { page } = b;
+    await fill('duct-length', '1');
+    await fill('duct-diameter', '40');
+    await page.selectOption('#duct-open-end', 'none');
+    await page.check('#duct-has-heater');
+    await fill('duct-heater', '0.25');
+    await fill('duct-hot-temp', '200');
+    await fill('duct-measured', '');
+    await expect.poll(async () => page.locator('table.duct-modes tbody tr').first().textContent()).toContain('196.92 Hz');
+    expect(await page.locator('table.duct-modes tbody tr').first().textContent()).toContain('drives');
+    expect(await page.locator('.duct-rayleigh').textContent()).toMatch(/drives/);
+    await screenshot(page, 'duct-heater');
+  });
+
+  it('explains bad input instead of showing numbers, and keeps the geometry for the next visit', async () => {
+    const { page } = b;
+    await fill('duct-heater', '1.5');
+    await expect.poll(async () => page.locator('#duct-heater-error').textContent()).toMatch(/inside the duct/);
+    expect(await page.locator('table.duct-modes tbody tr').count()).toBe(0);
+    await fill('duct-heater', '0.25');
+    await fill('duct-temp', '-300');
+    await expect.poll(async () => page.locator('#duct-temp-error').textContent()).toMatch(/absolute zero/);
+    await fill('duct-length', 'abc');
+    await expect.poll(async () => page.locator('#duct-length-error').textContent()).toMatch(/must be a number/);
+    const body = (await page.locator('.screen-duct').textContent()) ?? '';
+    expect(body).not.toMatch(/NaN|undefined|Infinity/);
+    await screenshot(page, 'duct-bad-input');
+    await fill('duct-length', '1');
+    await fill('duct-temp', '20');
+    await expect.poll(async () => page.locator('table.duct-modes tbody tr').count()).toBeGreaterThan(0);
+    const stored = await page.evaluate(() => localStorage.getItem('humgauge.ductGeometry'));
+    expect(JSON.parse(stored ?? '{}')).toMatchObject({ lengthM: 1, diameterM: 0.04, ends: 'open-open', openEnd: 'none', gasTemperatureC: 20, heaterPositionM: 0.25, hotTemperatureC: 200 });
+    await page.reload();
+    await page.goto(`${APP_URL}#duct/171.2`);
+    await expect.poll(async () => page.inputValue('#duct-length')).toBe('1');
+    await expect.poll(async () => page.inputValue('#duct-measured')).toBe('171.2');
+    await expect.poll(async () => page.locator('table.duct-modes tbody tr').first().textContent()).toContain('196.92 Hz');
+  });
+});
