@@ -1,45 +1,57 @@
 /**
  * Stage 4, amplitude envelope by complex demodulation: the conditioned signal is multiplied by
  * 2·e^{−iφ(n)} (φ advancing at the tracked frequency), averaged over M samples (a boxcar that
- * also decimates to the envelope rate, its nulls on the aliases) and low-passed by a fourth-order
- * Butterworth filter (two biquads, bilinear transform: R. Bristow-Johnson, "Cookbook formulae for
- * audio EQ biquad filter coefficients"). For a cosine of amplitude a at the tracked frequency the
- * output z has |z| = a, so |z|² is the tone amplitude squared plus the band noise power.
+ * also decimates to the envelope rate, its nulls on the aliases) and low-passed by a
+ * Blackman-window FIR (Blackman & Tukey 1958; Harris 1978, "On the use of windows for harmonic
+ * analysis with the DFT", Proc. IEEE 66(1): sidelobes −58 dB, noise bandwidth 1.73 bins). For a
+ * cosine of amplitude a at the tracked frequency the output z has |z| = a, so |z|² is the tone
+ * amplitude squared plus the band noise power.
  *
- * An exponential envelope e^{st} passes a linear filter as H(s)·e^{st}: the rate is untouched, only
- * the level is scaled, so a narrow band does not bias growth or decay rates (it smooths knees).
+ * Why a FIR: an exponential e^{st} passes any linear filter as H(s)·e^{st} once the filter's
+ * transient has gone. A recursive low-pass of a few hertz has poles decaying at only ~10 1/s, so
+ * its transient after a kink (driving switched off) would outlast a fast decay and bias the
+ * fitted rate; the FIR's transient ends exactly one kernel length after the kink, and its linear
+ * phase delays every component equally (the delay is subtracted from the sample times).
  */
-
-/** Noise-equivalent bandwidth of an n-th order Butterworth low-pass over its cut-off: (π/2n)/sin(π/2n). */
-export function butterworthEnbwRatio(order: number): number {
-  const x = Math.PI / (2 * order);
-  return x / Math.sin(x);
-}
 
 export interface EnvelopeConfig {
   /** Rate of the conditioned samples, Hz. */
   sampleRateHz: number;
   /** Input samples per envelope sample (boxcar length). */
   decimation: number;
-  /** Butterworth cut-off, Hz (half the width of the analysed band around the tone). */
-  cutoffHz: number;
+  /** Target one-sided noise bandwidth of the low-pass, Hz (half the width of the band around the tone). */
+  bandwidthHz: number;
+  /**
+   * Noise bandwidth of a second, wider output on the same samples (Hz, > bandwidthHz): it blurs
+   * knees of the envelope less (for fits) at the price of more noise and less rejection of
+   * neighbouring tones. Its kernel sits centred in the narrow one, so both share one delay.
+   */
+  wideBandwidthHz: number;
 }
 
 export interface EnvelopeState {
   readonly sampleRateHz: number;
   readonly decimation: number;
   readonly outputRateHz: number;
-  readonly cutoffHz: number;
-  /** One-sided noise-equivalent bandwidth of the whole low-pass, Hz. */
+  /** One-sided noise-equivalent bandwidth of the whole low-pass, Hz (as designed). */
   readonly bandwidthHz: number;
-  /** Group delay at DC of boxcar + Butterworth, s (subtract from sample times). */
+  /** Kernel length in envelope samples, and in seconds: the transient after any kink. */
+  readonly kernelLength: number;
+  readonly kernelS: number;
+  /** Delay of boxcar + FIR (linear phase), s (subtract from sample times). */
   readonly delayS: number;
-  /** Envelope samples to discard after a reset while the filter settles. */
+  /** Envelope samples to discard after a reset while the filter fills. */
   readonly settleSamples: number;
-  /** Biquad coefficients [b0, b1, b2, a1, a2] for the two sections. */
-  coef: Float64Array;
-  /** Filter memory: per section and channel (I, Q): x1, x2, y1, y2. */
-  mem: Float64Array;
+  kernel: Float64Array;
+  /** Wide kernel, its length, offset into the narrow window, and its noise bandwidth (Hz). */
+  wideKernel: Float64Array;
+  wideLength: number;
+  wideOffset: number;
+  readonly wideBandwidthHz: number;
+  /** Double-written history of boxcar outputs (I and Q). */
+  histRe: Float64Array;
+  histIm: Float64Array;
+  pos: number;
   /** Oscillator phasor and its per-sample rotation. */
   oscRe: number;
   oscIm: number;
@@ -54,16 +66,18 @@ export interface EnvelopeState {
   produced: number;
 }
 
-function biquadLowPass(fc: number, fs: number, q: number, out: Float64Array, at: number): void {
-  const w0 = (2 * Math.PI * fc) / fs;
-  const alpha = Math.sin(w0) / (2 * q);
-  const cw = Math.cos(w0);
-  const a0 = 1 + alpha;
-  out[at] = (1 - cw) / 2 / a0;
-  out[at + 1] = (1 - cw) / a0;
-  out[at + 2] = (1 - cw) / 2 / a0;
-  out[at + 3] = (-2 * cw) / a0;
-  out[at + 4] = (1 - alpha) / a0;
+/** Unit-gain Blackman window of odd length whose one-sided noise bandwidth is about bandwidthHz (two-sided ≈ 1.727·rate/L). */
+function blackmanKernel(rateHz: number, bandwidthHz: number): Float64Array {
+  const len = Math.max(3, Math.round((1.7268 * rateHz) / (2 * bandwidthHz)) | 1);
+  const kernel = new Float64Array(len);
+  let sum = 0;
+  for (let k = 0; k < len; k++) {
+    const x = (2 * Math.PI * (k + 1)) / (len + 1);
+    kernel[k] = 0.42 - 0.5 * Math.cos(x) + 0.08 * Math.cos(2 * x);
+    sum += kernel[k];
+  }
+  for (let k = 0; k < len; k++) kernel[k] /= sum;
+  return kernel;
 }
 
 /** Creates a demodulator; throws RangeError for an unusable configuration. */
@@ -71,27 +85,32 @@ export function createEnvelopeState(cfg: EnvelopeConfig): EnvelopeState {
   const m = cfg.decimation;
   if (!Number.isInteger(m) || m < 1) throw new RangeError(`decimation must be a positive integer, got ${m}`);
   const outRate = cfg.sampleRateHz / m;
-  if (!(cfg.cutoffHz > 0 && cfg.cutoffHz < 0.2 * outRate)) throw new RangeError(`cutoffHz must be in (0, ${0.2 * outRate}) Hz, got ${cfg.cutoffHz}`);
-  const coef = new Float64Array(10);
-  // Fourth-order Butterworth: section Q values 1/(2 cos(π/8)) and 1/(2 cos(3π/8)).
-  const q1 = 1 / (2 * Math.cos(Math.PI / 8));
-  const q2 = 1 / (2 * Math.cos((3 * Math.PI) / 8));
-  biquadLowPass(cfg.cutoffHz, outRate, q1, coef, 0);
-  biquadLowPass(cfg.cutoffHz, outRate, q2, coef, 5);
-  const wc = 2 * Math.PI * cfg.cutoffHz;
-  // DC group delay of a low-pass biquad is 1/(Q ω0); boxcar (M − 1)/2 input samples plus the half
-  // sample of output timing (the output stands at the last input of the boxcar).
-  const delayS = (1 / q1 + 1 / q2) / wc + (m - 1) / 2 / cfg.sampleRateHz;
+  if (!(cfg.bandwidthHz > 0 && cfg.bandwidthHz < 0.1 * outRate)) throw new RangeError(`bandwidthHz must be in (0, ${0.1 * outRate}) Hz, got ${cfg.bandwidthHz}`);
+  if (!(cfg.wideBandwidthHz > cfg.bandwidthHz)) throw new RangeError(`wideBandwidthHz must exceed bandwidthHz, got ${cfg.wideBandwidthHz}`);
+  const kernel = blackmanKernel(outRate, cfg.bandwidthHz);
+  const len = kernel.length;
+  const wide = blackmanKernel(outRate, cfg.wideBandwidthHz);
+  let sum2 = 0;
+  for (let k = 0; k < len; k++) sum2 += kernel[k] * kernel[k];
+  let wide2 = 0;
+  for (let k = 0; k < wide.length; k++) wide2 += wide[k] * wide[k];
   return {
+    wideKernel: wide,
+    wideLength: wide.length,
+    wideOffset: (len - wide.length) / 2,
+    wideBandwidthHz: (outRate * wide2) / 2,
     sampleRateHz: cfg.sampleRateHz,
     decimation: m,
     outputRateHz: outRate,
-    cutoffHz: cfg.cutoffHz,
-    bandwidthHz: cfg.cutoffHz * butterworthEnbwRatio(4),
-    delayS,
-    settleSamples: Math.ceil((2.0 / cfg.cutoffHz) * outRate),
-    coef,
-    mem: new Float64Array(16),
+    bandwidthHz: (outRate * sum2) / 2,
+    kernelLength: len,
+    kernelS: len / outRate,
+    delayS: (len - 1) / 2 / outRate + (m - 1) / 2 / cfg.sampleRateHz,
+    settleSamples: len + 1,
+    kernel,
+    histRe: new Float64Array(2 * len),
+    histIm: new Float64Array(2 * len),
+    pos: 0,
     oscRe: 1,
     oscIm: 0,
     rotRe: 1,
@@ -117,7 +136,9 @@ export function setEnvelopeFrequency(st: EnvelopeState, freqHz: number): void {
  * envelope samples stay on a common clock across demodulators started at different times.
  */
 export function resetEnvelope(st: EnvelopeState, phase: number): void {
-  st.mem.fill(0);
+  st.histRe.fill(0);
+  st.histIm.fill(0);
+  st.pos = 0;
   st.accRe = 0;
   st.accIm = 0;
   st.oscRe = 1;
@@ -127,13 +148,18 @@ export function resetEnvelope(st: EnvelopeState, phase: number): void {
 }
 
 /**
- * Demodulates x[start .. end): writes |z|² of each completed envelope sample into out from outAt
- * on; returns the number written. Allocates nothing.
+ * Demodulates x[start .. end): writes |z|² of each completed envelope sample into out (narrow
+ * band) and outWide (wide band) from outAt on; returns the number written. Allocates nothing.
  */
-export function stepEnvelope(st: EnvelopeState, x: Float32Array, start: number, end: number, out: Float64Array, outAt: number): number {
+export function stepEnvelope(st: EnvelopeState, x: Float32Array, start: number, end: number, out: Float64Array, outWide: Float64Array, outAt: number): number {
   const m = st.decimation;
-  const c = st.coef;
-  const mem = st.mem;
+  const h = st.kernel;
+  const len = st.kernelLength;
+  const hw = st.wideKernel;
+  const lw = st.wideLength;
+  const ow = st.wideOffset;
+  const hr = st.histRe;
+  const hi = st.histIm;
   let or = st.oscRe;
   let oi = st.oscIm;
   const rr = st.rotRe;
@@ -156,31 +182,31 @@ export function stepEnvelope(st: EnvelopeState, x: Float32Array, start: number, 
     const g = 1.5 - 0.5 * (or * or + oi * oi);
     or *= g;
     oi *= g;
-    let re = ar * inv;
-    let im = ai * inv;
+    const p = st.pos;
+    hr[p] = ar * inv;
+    hr[p + len] = ar * inv;
+    hi[p] = ai * inv;
+    hi[p + len] = ai * inv;
+    st.pos = p + 1 === len ? 0 : p + 1;
     ar = 0;
     ai = 0;
-    for (let s = 0; s < 2; s++) {
-      const b0 = c[5 * s];
-      const b1 = c[5 * s + 1];
-      const b2 = c[5 * s + 2];
-      const a1 = c[5 * s + 3];
-      const a2 = c[5 * s + 4];
-      const o = 8 * s;
-      const yr = b0 * re + b1 * mem[o] + b2 * mem[o + 1] - a1 * mem[o + 2] - a2 * mem[o + 3];
-      mem[o + 1] = mem[o];
-      mem[o] = re;
-      mem[o + 3] = mem[o + 2];
-      mem[o + 2] = yr;
-      const yi = b0 * im + b1 * mem[o + 4] + b2 * mem[o + 5] - a1 * mem[o + 6] - a2 * mem[o + 7];
-      mem[o + 5] = mem[o + 4];
-      mem[o + 4] = im;
-      mem[o + 7] = mem[o + 6];
-      mem[o + 6] = yi;
-      re = yr;
-      im = yi;
+    // history[pos + 1 .. pos + len] holds the last len boxcar outputs, oldest first.
+    const base = p + 1;
+    let re = 0;
+    let im = 0;
+    for (let q = 0; q < len; q++) {
+      re += h[q] * hr[base + q];
+      im += h[q] * hi[base + q];
     }
-    out[k++] = re * re + im * im;
+    out[k] = re * re + im * im;
+    let wr = 0;
+    let wi = 0;
+    for (let q = 0; q < lw; q++) {
+      wr += hw[q] * hr[base + ow + q];
+      wi += hw[q] * hi[base + ow + q];
+    }
+    outWide[k] = wr * wr + wi * wi;
+    k++;
   }
   st.oscRe = or;
   st.oscIm = oi;

@@ -58,7 +58,7 @@ export function createPeakList(capacity: number): PeakList {
 
 /** Floor of the prominence test: bins inner..outer away on both sides. */
 export const FLOOR_INNER_BINS = 4;
-export const FLOOR_OUTER_BINS = 24;
+export const FLOOR_OUTER_BINS = 16;
 
 /** Prominence (dB) of bin k of the averaged spectrum over its local floor. */
 export function prominenceDb(st: SpectrumState, k: number, loBin: number, hiBin: number): number {

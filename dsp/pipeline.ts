@@ -83,8 +83,15 @@ import {
 const FRAME_S = 0.32;
 /** Envelope samples per second (about). */
 const ENVELOPE_RATE_HZ = 300;
-/** Envelope low-pass cut-off: the narrow band is ±5 Hz around the tone. */
-const ENVELOPE_CUTOFF_HZ = 5;
+/** Envelope low-pass noise bandwidth: the narrow band is about ±5 Hz around the tone. */
+const ENVELOPE_BANDWIDTH_HZ = 5;
+/**
+ * Wider envelope band for the fits, Hz: a ±5 Hz band blurs the envelope over ~20 ms, enough to
+ * bend the knee of a fast rise into saturation; ±20 Hz blurs 4× less. Used when no other tone
+ * lies within WIDE_CLEARANCE_HZ (the wide kernel's main lobe).
+ */
+const ENVELOPE_WIDE_BANDWIDTH_HZ = 20;
+const WIDE_CLEARANCE_HZ = 100;
 /** Track rows per second (about). */
 const ROW_RATE_HZ = 100;
 /** History kept for tones detected late (their envelope is rebuilt from here), s. */
@@ -115,8 +122,6 @@ const BG_WINDOW_S = 2;
 const BG_MIN_S = 0.3;
 /** Pre-roll of background included before a growth segment in its fit, s. */
 const GROWTH_PREROLL_S = 1.5;
-/** Decay fits skip this much after the decay start (envelope filter transient), s. */
-const DECAY_SKIP_S = 0.12;
 /** Tail of quiet after a decay included in its fit, s. */
 const DECAY_TAIL_S = 1.0;
 /** Most envelope samples handed to one fit (longer steady stretches are block-averaged). */
@@ -132,6 +137,8 @@ interface TrackRuntime {
   g0: number;
   n: number;
   power: Float32Array;
+  /** Same envelope through the wide band (for fits). */
+  powerWide: Float32Array;
   timeS: Float64Array;
   bg: Float32Array;
   state: Uint8Array;
@@ -164,6 +171,7 @@ interface PipelineState {
   envBandwidthHz: number;
   envDelayS: number;
   envScratch: Float64Array;
+  envWideScratch: Float64Array;
   rowEvery: number;
   /** Analysis samples produced (global index of the next one). */
   j: number;
@@ -224,6 +232,9 @@ function growTrackStore(tr: TrackRuntime, need: number): void {
   while (cap < need) cap *= 2;
   const p = new Float32Array(cap);
   p.set(tr.power.subarray(0, tr.n));
+  const pw = new Float32Array(cap);
+  pw.set(tr.powerWide.subarray(0, tr.n));
+  tr.powerWide = pw;
   const t = new Float64Array(cap);
   t.set(tr.timeS.subarray(0, tr.n));
   const b = new Float32Array(cap);
@@ -249,6 +260,7 @@ function appendEnvelope(ps: PipelineState, tr: TrackRuntime, count: number, gFir
     const g = gFirst + q;
     const k = tr.n++;
     tr.power[k] = ps.envScratch[q];
+    tr.powerWide[k] = ps.envWideScratch[q];
     tr.timeS[k] = timeOfG(ps, g);
     tr.clipped[k] = ps.envClip[g % ringLen];
     tr.state[k] = STATE_QUIET;
@@ -268,7 +280,7 @@ function bandBackground(ps: PipelineState, power: Float32Array | Float64Array, f
 
 function createTrackRuntime(ps: PipelineState, freqHz: number, promDb: number, frameIdx: number): TrackRuntime {
   const tone = createToneTrack(ps.tracker, freqHz, frameIdx, promDb);
-  const env = createEnvelopeState({ sampleRateHz: ps.fsA, decimation: ps.envM, cutoffHz: ENVELOPE_CUTOFF_HZ });
+  const env = createEnvelopeState({ sampleRateHz: ps.fsA, decimation: ps.envM, bandwidthHz: ENVELOPE_BANDWIDTH_HZ, wideBandwidthHz: ENVELOPE_WIDE_BANDWIDTH_HZ });
   const isSteadyLine = isMainsLine(freqHz);
   const cap = 4096;
   return {
@@ -279,6 +291,7 @@ function createTrackRuntime(ps: PipelineState, freqHz: number, promDb: number, f
     g0: 0,
     n: 0,
     power: new Float32Array(cap),
+    powerWide: new Float32Array(cap),
     timeS: new Float64Array(cap),
     bg: new Float32Array(cap),
     state: new Uint8Array(cap),
@@ -309,7 +322,7 @@ function startTrack(ps: PipelineState, freqHz: number, promDb: number, frameIdx:
   while (j < ps.j) {
     const at = j % cap;
     const len = Math.min(ps.j - j, cap - at, ps.envScratch.length * m - m);
-    const cnt = stepEnvelope(tr.env, ps.ring, at, at + len, ps.envScratch, 0);
+    const cnt = stepEnvelope(tr.env, ps.ring, at, at + len, ps.envScratch, ps.envWideScratch, 0);
     appendEnvelope(ps, tr, cnt, g);
     g += cnt;
     j += len;
@@ -387,17 +400,23 @@ function collectLive(ps: PipelineState, tr: TrackRuntime): void {
   if (rg.onsetInStep) {
     ps.liveOnsets.push({ timeS: tr.timeS[rg.onsetIdx], frequencyHz: tr.tone.freqHz });
   }
+  // Closed growth and decay segments are fitted at once (a rare event: allocation is fine here);
+  // finish() fits them again with the full context.
   for (let i = rg.segments.length - rg.closedInStep; i < rg.segments.length; i++) {
     const s = rg.segments[i];
-    ps.liveSegments.push({
-      kind: regimeKind(s.state),
-      startS: tr.timeS[s.startIdx],
-      endS: tr.timeS[Math.max(s.startIdx, s.endIdx - 1)],
-      frequencyHz: segmentFrequency(tr, s),
-      ratePerS: null,
-      rateCi95PerS: null,
-      model: null,
-    });
+    if (s.endIdx <= s.startIdx) continue;
+    if (s.state === STATE_GROWTH || s.state === STATE_DECAY) ps.liveSegments.push(fitSegment(ps, tr, rg.segments, i, true).report);
+    else {
+      ps.liveSegments.push({
+        kind: regimeKind(s.state),
+        startS: tr.timeS[s.startIdx],
+        endS: tr.timeS[Math.max(s.startIdx, s.endIdx - 1)],
+        frequencyHz: segmentFrequency(tr, s),
+        ratePerS: null,
+        rateCi95PerS: null,
+        model: null,
+      });
+    }
   }
 }
 
@@ -641,7 +660,7 @@ function processConditioned(ps: PipelineState): void {
     for (const tr of ps.alive) {
       // Demodulators share the envelope clock: the next output closes the boxcar ending at a multiple of m.
       const g = (ps.j + m - tr.env.phase) / m - 1;
-      const produced = stepEnvelope(tr.env, x, i, i + k, ps.envScratch, 0);
+      const produced = stepEnvelope(tr.env, x, i, i + k, ps.envScratch, ps.envWideScratch, 0);
       appendEnvelope(ps, tr, produced, g);
     }
     ps.j = j;
@@ -719,7 +738,8 @@ function gap(ps: PipelineState, missingSamples: number): void {
   ps.inBase = ps.durationInputSamples;
   ps.ringStartJ = jNext;
   ps.frameFloor = ps.spec.frameCount;
-  ps.rowG = jNext / m;
+  // Rows resume at the first envelope time after the gap (envelope times lag the samples by the filter delay).
+  ps.rowG = jNext / m + Math.ceil(ps.envDelayS * ps.envRateHz);
   ps.rowAfterGap = true;
   for (const tr of ps.alive) {
     tr.bgFrameFrom = ps.spec.frameCount;
@@ -728,7 +748,8 @@ function gap(ps: PipelineState, missingSamples: number): void {
 }
 
 /** Builds the envelope series of store entries [i0, i1) of a track, without clipped stretches. */
-function buildSeries(tr: TrackRuntime, i0: number, i1: number): EnvelopeSeries {
+function buildSeries(tr: TrackRuntime, i0: number, i1: number, isWide: boolean): EnvelopeSeries {
+  const src = isWide ? tr.powerWide : tr.power;
   const guard = Math.round(CLIP_GUARD_S * tr.env.outputRateHz);
   const keep = new Uint8Array(Math.max(0, i1 - i0));
   let lastClip = -Infinity;
@@ -755,7 +776,7 @@ function buildSeries(tr: TrackRuntime, i0: number, i1: number): EnvelopeSeries {
   let inBlock = 0;
   for (let k = i0; k < i1; k++) {
     if (!keep[k - i0]) continue;
-    acc += tr.power[k];
+    acc += src[k];
     accT += tr.timeS[k];
     inBlock++;
     if (inBlock === block) {
@@ -772,7 +793,7 @@ function buildSeries(tr: TrackRuntime, i0: number, i1: number): EnvelopeSeries {
     power[o] = acc / inBlock;
     o++;
   }
-  return { timeS: timeS.subarray(0, o), power: power.subarray(0, o), bandwidthHz: tr.env.bandwidthHz };
+  return { timeS: timeS.subarray(0, o), power: power.subarray(0, o), bandwidthHz: isWide ? tr.env.wideBandwidthHz : tr.env.bandwidthHz };
 }
 
 /** First index ≥ lo of a contiguous run (no gap in time) ending at idx, stepping back at most maxBack entries. */
@@ -793,12 +814,13 @@ function contiguousEnd(tr: TrackRuntime, idx: number, maxFwd: number, hi: number
 }
 
 /** Mean envelope power over store entries [i0, i1) that are not clipped; NaN when too few. */
-function meanPower(tr: TrackRuntime, i0: number, i1: number, minCount: number): number {
+function meanPower(tr: TrackRuntime, i0: number, i1: number, minCount: number, isWide = false): number {
+  const src = isWide ? tr.powerWide : tr.power;
   let s = 0;
   let c = 0;
   for (let k = Math.max(0, i0); k < Math.min(tr.n, i1); k++) {
     if (tr.clipped[k] || k < tr.validFrom) continue;
-    s += tr.power[k];
+    s += src[k];
     c++;
   }
   return c >= minCount ? s / c : Number.NaN;
@@ -816,6 +838,15 @@ function meanBg(tr: TrackRuntime, i0: number, i1: number): number {
   return c > 0 ? s / c : Number.NaN;
 }
 
+/** True when no other tone lies within the wide envelope band's reach of this track's tone. */
+function wideBandIsClear(ps: PipelineState, tr: TrackRuntime): boolean {
+  const f = tr.tone.freqHz;
+  const same = matchToleranceHz(ps.spec.binHz, f);
+  for (const o of ps.alive) if (o !== tr && Math.abs(o.tone.freqHz - f) > same && Math.abs(o.tone.freqHz - f) < WIDE_CLEARANCE_HZ) return false;
+  for (const o of ps.retired) if (o !== tr && Math.abs(o.tone.freqHz - f) > same && Math.abs(o.tone.freqHz - f) < WIDE_CLEARANCE_HZ) return false;
+  return true;
+}
+
 interface FittedSegment {
   tr: TrackRuntime;
   seg: RegimeSegment;
@@ -829,7 +860,7 @@ function ciOf(fit: RateFit): Interval {
 }
 
 /** Fits one segment of a track and fills its report entry (and the onset time for onsets). */
-function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], i: number): FittedSegment {
+function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], i: number, isLive: boolean): FittedSegment {
   const seg = segs[i];
   const rate = tr.env.outputRateHz;
   const prev = i > 0 ? segs[i - 1] : null;
@@ -850,20 +881,28 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
   const bgMin = Math.round(BG_MIN_S * rate);
   const tag = `${report.kind} at ${startS.toFixed(2)} s`;
   if (seg.state === STATE_QUIET) return out;
+  const isWide = wideBandIsClear(ps, tr);
+  // The wide band holds (wide/narrow) times the narrow band's noise power.
+  const bgScale = isWide ? tr.env.wideBandwidthHz / tr.env.bandwidthHz : 1;
 
   if (seg.state === STATE_GROWTH) {
     const quietLo = prev !== null && prev.state === STATE_QUIET ? prev.startIdx : seg.startIdx;
     const w0 = contiguousStart(tr, seg.startIdx, Math.round(GROWTH_PREROLL_S * rate), Math.max(quietLo, tr.validFrom));
-    let bg = meanPower(tr, Math.max(quietLo, seg.startIdx - bgWin, tr.validFrom), seg.startIdx - Math.round(0.1 * rate), bgMin);
-    if (!Number.isFinite(bg)) bg = meanBg(tr, w0, seg.startIdx + 1);
-    const intoSteady = seg.reachedSteady && next !== null && next.state === STATE_STEADY;
+    const q0 = Math.max(quietLo, seg.startIdx - bgWin, tr.validFrom);
+    const q1 = seg.startIdx - Math.round(0.1 * rate);
+    let bgNarrow = meanPower(tr, q0, q1, bgMin);
+    if (!Number.isFinite(bgNarrow)) bgNarrow = meanBg(tr, w0, seg.startIdx + 1);
+    let bg = meanPower(tr, q0, q1, bgMin, isWide);
+    if (!Number.isFinite(bg)) bg = bgNarrow * bgScale;
+    // While live, the steady stretch after the growth may still be open (next === null).
+    const intoSteady = seg.reachedSteady && (next === null || next.state === STATE_STEADY);
     let w1 = seg.endIdx;
-    if (intoSteady && next !== null) {
+    if (intoSteady) {
       const extra = Math.max(Math.round(1.0 * rate), seg.endIdx - seg.startIdx);
-      w1 = Math.min(next.endIdx, seg.endIdx + extra);
+      w1 = Math.min(next !== null ? next.endIdx : tr.processed, seg.endIdx + extra);
     }
     w1 = contiguousEnd(tr, seg.startIdx, w1 - seg.startIdx, w1);
-    const series = buildSeries(tr, w0, w1);
+    const series = buildSeries(tr, w0, w1, isWide);
     const opts = Number.isFinite(bg) && bg > 0 ? { backgroundPower: bg } : {};
     let fit: RateFit;
     if (intoSteady) {
@@ -873,6 +912,20 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
         report.model = sat.model;
         report.limitAmplitudeDbfs = 20 * Math.log10(sat.limitAmplitude);
       }
+      if (!sat.isValid || sat.model !== 'stuart-landau') {
+        // The flexible shape's linear rate is poorly determined on a short knee that the envelope
+        // filter has blurred; the early part of the rise (below 1 % of the limit power, where the
+        // Landau curve departs from the exponential by under 1 %) gives the linear rate directly.
+        const limitPower = sat.isValid ? sat.limitAmplitude * sat.limitAmplitude : meanPower(tr, seg.endIdx, w1, 1, isWide);
+        let k1 = 0;
+        while (k1 < series.power.length && !(series.power[k1] > 0.01 * limitPower)) k1++;
+        const early: EnvelopeSeries = { timeS: series.timeS.subarray(0, k1), power: series.power.subarray(0, k1), bandwidthHz: series.bandwidthHz };
+        const exp = fitExponential(early, { ...opts, refTimeS: early.timeS.length > 0 ? early.timeS[0] : startS });
+        if (exp.isValid && exp.ratePerS > 0) {
+          fit = exp;
+          report.model = 'exponential';
+        }
+      }
     } else {
       fit = fitExponential(series, { ...opts, refTimeS: series.timeS.length > 0 ? series.timeS[0] : startS });
       if (fit.isValid) report.model = 'exponential';
@@ -881,9 +934,10 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
     if (fit.isValid) {
       report.ratePerS = fit.ratePerS;
       report.rateCi95PerS = ciOf(fit);
-    } else ps.warnings.push(`${tag}: no rate (${fit.reason ?? 'fit failed'})`);
+    } else if (!isLive) ps.warnings.push(`${tag}: no rate (${fit.reason ?? 'fit failed'})`);
     if (seg.isOnset && !tr.isSteadyLine) {
-      const tCross = backgroundCrossingTimeS(fit);
+      // Where the fitted curve meets the background of the narrow (about ±5 Hz) band: DESIGN.md.
+      const tCross = backgroundCrossingTimeS({ ...fit, backgroundPower: bgNarrow });
       // The crossing lies near the regime's estimate; far away means the fit did not describe the rise.
       out.onsetTimeS = Number.isFinite(tCross) && tCross > startS - 3 && tCross < endS ? tCross : startS;
     }
@@ -893,6 +947,7 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
   if (seg.state === STATE_DECAY) {
     // A 'driving-off' marker near the start fixes where the free decay begins.
     let startIdx = seg.startIdx;
+    let hasMarker = false;
     const lookBackS = prev !== null ? Math.min(2, tr.timeS[seg.startIdx] - tr.timeS[prev.startIdx]) : 0;
     for (const mk of ps.markers) {
       if (mk.kind !== 'driving-off') continue;
@@ -901,14 +956,30 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
       while (k > 0 && tr.timeS[k] > mk.timeS) k--;
       while (k < seg.endIdx - 1 && tr.timeS[k] < mk.timeS) k++;
       startIdx = k;
+      hasMarker = true;
     }
-    const w0 = Math.min(seg.endIdx - 1, startIdx + Math.round(DECAY_SKIP_S * rate));
+    if (!hasMarker && isWide && prev !== null) {
+      // Without a marker, the kink is where the wide-band level first falls 1 dB below the level
+      // held just before (the narrow band's decay start can lie half a narrow kernel early).
+      const ref = meanPower(tr, Math.max(prev.startIdx, seg.startIdx - Math.round(0.5 * rate)), seg.startIdx - Math.ceil(tr.env.kernelLength / 2), 1, true);
+      if (Number.isFinite(ref)) {
+        let k = Math.max(prev.startIdx, seg.startIdx - Math.ceil(tr.env.kernelLength / 2));
+        while (k < seg.endIdx - 1 && tr.powerWide[k] >= ref * 0.794) k++;
+        startIdx = k;
+        hasMarker = true;
+      }
+    }
+    // Skip the envelope filter's transient: it spans half a kernel either side of the kink (the
+    // marker), and the regime's own decay start may lie up to half a kernel before the kink.
+    const kLen = isWide ? tr.env.wideLength : tr.env.kernelLength;
+    const skip = hasMarker ? Math.ceil(kLen / 2) + 1 : tr.env.kernelLength + 1;
+    const w0 = Math.min(seg.endIdx - 1, startIdx + skip);
     const quietHi = next !== null && next.state === STATE_QUIET ? next.endIdx : seg.endIdx;
-    let bg = meanPower(tr, seg.endIdx + Math.round(0.2 * rate), Math.min(quietHi, seg.endIdx + bgWin), bgMin);
-    if (!Number.isFinite(bg)) bg = meanBg(tr, seg.startIdx, seg.endIdx);
+    let bg = meanPower(tr, seg.endIdx + Math.round(0.2 * rate), Math.min(quietHi, seg.endIdx + bgWin), bgMin, isWide);
+    if (!Number.isFinite(bg)) bg = meanBg(tr, seg.startIdx, seg.endIdx) * bgScale;
     let w1 = Math.min(quietHi, seg.endIdx + Math.round(DECAY_TAIL_S * rate));
     w1 = contiguousEnd(tr, w0, w1 - w0, w1);
-    const series = buildSeries(tr, w0, w1);
+    const series = buildSeries(tr, w0, w1, isWide);
     const opts = Number.isFinite(bg) && bg > 0 ? { backgroundPower: bg } : {};
     const fit = fitExponential(series, { ...opts, refTimeS: series.timeS.length > 0 ? series.timeS[0] : startS });
     out.fit = fit;
@@ -916,12 +987,12 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
       report.ratePerS = fit.ratePerS;
       report.rateCi95PerS = ciOf(fit);
       report.model = 'exponential';
-    } else ps.warnings.push(`${tag}: no rate (${fit.reason ?? 'fit failed'})`);
+    } else if (!isLive) ps.warnings.push(`${tag}: no rate (${fit.reason ?? 'fit failed'})`);
     return out;
   }
 
   // Steady: rate about zero, and the limit-cycle level.
-  const series = buildSeries(tr, seg.startIdx, seg.endIdx);
+  const series = buildSeries(tr, seg.startIdx, seg.endIdx, false);
   const bg = meanBg(tr, seg.startIdx, seg.endIdx);
   const mp = meanPower(tr, seg.startIdx, seg.endIdx, 1);
   if (Number.isFinite(mp)) report.limitAmplitudeDbfs = 10 * Math.log10(Math.max(mp - (Number.isFinite(bg) ? bg : 0), 1e-30));
@@ -967,7 +1038,7 @@ function finish(ps: PipelineState): Report {
     const segs = tr.regime.segments;
     for (let i = 0; i < segs.length; i++) {
       if (segs[i].endIdx <= segs[i].startIdx) continue;
-      fitted.push(fitSegment(ps, tr, segs, i));
+      fitted.push(fitSegment(ps, tr, segs, i, false));
     }
   }
   // Tones, grouped by frequency (a tone heard in several cycles may have several tracks).
@@ -1084,7 +1155,7 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
   const frameSize = 2 ** Math.round(Math.log2(FRAME_S * fsA));
   const spec = createSpectrumState({ sampleRateHz: fsA, frameSize, hopSize: frameSize / 2 });
   const envM = Math.max(1, Math.round(fsA / ENVELOPE_RATE_HZ));
-  const probe = createEnvelopeState({ sampleRateHz: fsA, decimation: envM, cutoffHz: ENVELOPE_CUTOFF_HZ });
+  const probe = createEnvelopeState({ sampleRateHz: fsA, decimation: envM, bandwidthHz: ENVELOPE_BANDWIDTH_HZ, wideBandwidthHz: ENVELOPE_WIDE_BANDWIDTH_HZ });
   const historyFrames = Math.ceil((HISTORY_S * fsA) / spec.hopSize) + 4;
   const frameRing: Float32Array[] = [];
   for (let i = 0; i < historyFrames; i++) frameRing.push(new Float32Array(spec.binCount));
@@ -1104,6 +1175,7 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
     envBandwidthHz: probe.bandwidthHz,
     envDelayS: probe.delayS,
     envScratch: new Float64Array(1024),
+    envWideScratch: new Float64Array(1024),
     rowEvery: Math.max(1, Math.round(probe.outputRateHz / ROW_RATE_HZ)),
     j: 0,
     jBase: 0,

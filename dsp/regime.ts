@@ -41,8 +41,17 @@ const DROP_HOLD_S = 0.1;
 const REGROW_DB = 10;
 /** Quiet time needed before a growth counts as an onset, s. */
 const MIN_QUIET_S = 0.5;
-/** Excess at the first valid sample above which the tone is taken as already sounding, dB. */
+/**
+ * Warm-up at the start (and after a gap): the first WARMUP_S of valid envelope decide whether a
+ * tone is already sounding (mean excess ≥ START_DB and a steady envelope, coefficient of variation
+ * of A² below START_MAX_CV) or the band is quiet. Noise alone, or a resonance excited by noise,
+ * has an exponentially distributed A² (CV = 1); a limit cycle 15 dB over the band noise has
+ * CV = √(2·31.6 + 1)/32.6 = 0.25. A quiet band's baseline is its median ratio / ln 2 (robust to a
+ * tone starting to grow near the end of the warm-up).
+ */
 const START_DB = 10;
+const START_MAX_CV = 0.5;
+const WARMUP_S = 2;
 /** Time constant of the quiet baseline, s. */
 const BASELINE_TAU_S = 3;
 
@@ -85,6 +94,11 @@ export interface RegimeState {
   growthIsOnset: boolean;
   /** Whether the next growth may be an onset (false for steady lines). */
   allowOnsets: boolean;
+  /** Warm-up buffer: store indices, powers and backgrounds of the first samples. */
+  warmIdx: Int32Array;
+  warmP: Float64Array;
+  warmBg: Float64Array;
+  warmCount: number;
   /** Ring of recent levels (dB) for the flatness test. */
   levelRing: Float64Array;
   flatWindow: number;
@@ -125,6 +139,10 @@ export function createRegimeState(rateHz: number, allowOnsets: boolean): RegimeS
     regrowHold: 0,
     growthIsOnset: false,
     allowOnsets,
+    warmIdx: new Int32Array(Math.max(4, Math.round(WARMUP_S * rateHz))),
+    warmP: new Float64Array(Math.max(4, Math.round(WARMUP_S * rateHz))),
+    warmBg: new Float64Array(Math.max(4, Math.round(WARMUP_S * rateHz))),
+    warmCount: 0,
     levelRing: new Float64Array(flatWindow),
     flatWindow,
     minQuiet: Math.round(MIN_QUIET_S * rateHz),
@@ -168,12 +186,56 @@ function enterDecay(st: RegimeState): void {
   st.regrowHold = 0;
 }
 
+/** Decides the initial state from the warm-up samples and replays them through the detector. */
+function endWarmup(st: RegimeState): void {
+  const n = st.warmCount;
+  if (n === 0) return;
+  const ratios: number[] = [];
+  let sum = 0;
+  let sum2 = 0;
+  for (let i = 0; i < n; i++) {
+    const r = st.warmBg[i] > 0 ? st.warmP[i] / st.warmBg[i] : 1;
+    ratios.push(r);
+    sum += r;
+    sum2 += r * r;
+  }
+  const mean = sum / n;
+  const cv = Math.sqrt(Math.max(0, sum2 / n - mean * mean)) / mean;
+  const first = st.warmIdx[0];
+  st.segStart = first;
+  if (10 * Math.log10(mean) >= START_DB && cv < START_MAX_CV) {
+    st.state = STATE_STEADY;
+    st.steadyLevelDb = 10 * Math.log10(Math.max(st.warmP[0], 1e-30));
+    st.lastHighIdx = first;
+    st.dropHold = 0;
+  } else {
+    ratios.sort((a, b) => a - b);
+    const median = ratios[Math.floor(n / 2)];
+    st.baseline = Math.max(0.25, median / Math.LN2);
+    enterQuiet(st, first);
+  }
+  st.warmCount = 0;
+  for (let i = 0; i < n; i++) stepCore(st, st.warmIdx[i], st.warmP[i], st.warmBg[i]);
+}
+
 /**
  * Feeds envelope sample idx (its store index) with tone power p and band background bg (same
- * units); isValid false skips the sample (filter settling). Segments that close are appended to
- * st.segments. Allocates only when a segment closes.
+ * units). Segments that close are appended to st.segments. Allocates only when a segment closes
+ * or the warm-up ends.
  */
 export function stepRegime(st: RegimeState, idx: number, p: number, bg: number): void {
+  if (st.state < 0) {
+    const k = st.warmCount++;
+    st.warmIdx[k] = idx;
+    st.warmP[k] = p;
+    st.warmBg[k] = bg;
+    if (st.warmCount === st.warmIdx.length) endWarmup(st);
+    return;
+  }
+  stepCore(st, idx, p, bg);
+}
+
+function stepCore(st: RegimeState, idx: number, p: number, bg: number): void {
   const levelDb = 10 * Math.log10(p > 1e-30 ? p : 1e-30);
   const ratio = bg > 0 ? p / bg : 1;
   const ring = st.levelRing;
@@ -181,19 +243,6 @@ export function stepRegime(st: RegimeState, idx: number, p: number, bg: number):
   const ago = ring[idx % w];
   const haveWindow = idx - st.segStart >= w;
   ring[idx % w] = levelDb;
-
-  if (st.state < 0) {
-    // First valid sample: already sounding (no onset) or quiet.
-    st.segStart = idx;
-    const x0 = 10 * Math.log10(ratio > 1e-30 ? ratio : 1e-30);
-    if (x0 >= START_DB) {
-      st.state = STATE_STEADY;
-      st.steadyLevelDb = levelDb;
-      st.lastHighIdx = idx;
-      st.dropHold = 0;
-    } else enterQuiet(st, idx);
-    return;
-  }
   const excessDb = 10 * Math.log10(Math.max(ratio / st.baseline, 1e-30));
 
   switch (st.state) {
@@ -282,6 +331,7 @@ export function stepRegime(st: RegimeState, idx: number, p: number, bg: number):
 
 /** Starts a fresh regime after a gap: the next valid sample decides quiet or already sounding. */
 export function restartRegime(st: RegimeState, idx: number): void {
+  if (st.state < 0) endWarmup(st);
   if (st.state >= 0) closeSegment(st, idx, st.state === STATE_GROWTH && st.growthIsOnset, false);
   st.state = -1;
   st.baseline = 1;
@@ -289,6 +339,7 @@ export function restartRegime(st: RegimeState, idx: number): void {
 
 /** Closes the open segment at the end of the record (exclusive end idx). */
 export function finishRegime(st: RegimeState, endIdx: number): void {
+  if (st.state < 0) endWarmup(st);
   if (st.state >= 0) closeSegment(st, endIdx, st.state === STATE_GROWTH && st.growthIsOnset, false);
   st.state = -1;
 }

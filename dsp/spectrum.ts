@@ -156,24 +156,20 @@ export function resetSpectrumFraming(st: SpectrumState): void {
 }
 
 /**
- * Mean of the averaged spectrum over bins [lo, hi) ∪ (mirror) around k, excluding |j − k| < inner:
- * the local floor for tonal prominence. Returns 0 when no bins are available.
+ * Local floor of the averaged spectrum around bin k for tonal prominence: the mean over the bins
+ * inner..outer away on each side, taking the lower of the two sides, so that a second tone on
+ * one side does not hide the first. Returns 0 when no bins are available.
  */
 export function localFloorMean(st: SpectrumState, k: number, inner: number, outer: number, loBin: number, hiBin: number): number {
   const pre = st.prefix;
-  let sum = 0;
-  let cnt = 0;
+  let left = Infinity;
+  let right = Infinity;
   const a0 = Math.max(loBin, k - outer);
   const a1 = Math.max(loBin, k - inner + 1);
-  if (a1 > a0) {
-    sum += pre[a1] - pre[a0];
-    cnt += a1 - a0;
-  }
+  if (a1 - a0 >= 3) left = (pre[a1] - pre[a0]) / (a1 - a0);
   const b0 = Math.min(hiBin, k + inner);
   const b1 = Math.min(hiBin, k + outer + 1);
-  if (b1 > b0) {
-    sum += pre[b1] - pre[b0];
-    cnt += b1 - b0;
-  }
-  return cnt > 0 ? sum / cnt : 0;
+  if (b1 - b0 >= 3) right = (pre[b1] - pre[b0]) / (b1 - b0);
+  const floor = Math.min(left, right);
+  return Number.isFinite(floor) ? floor : 0;
 }
