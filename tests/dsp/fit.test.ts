@@ -126,6 +126,19 @@ describe('fitExponential', () => {
     expect(meanSd(naive).mean).toBeGreaterThan(-5);
   });
 
+  it('onset from a noisy growth: where the fitted curve meets the background, within its timing error', () => {
+    // A = 0.01·e^{8t} meets N² = 1e-3 where 1e-4·e^{16t} = 1e-3: t = ln10/16 = 0.1439 s, and
+    // t_cross = ref + ln(N²/A_ref²)/(2s) inherits the errors of ln N² and ln A_ref², divided by 2s = 16.
+    // Background fitted: it rests on the ~0.14 s before the crossing, N_eff ≈ 2·20·0.14 ≈ 6 samples,
+    // so sd(ln N̂²) ≈ 1/√6 ≈ 0.4 and sd(t) ≈ 26 ms: allow 100 ms (4 sd).
+    // Background known: only ln A_ref² (~0.05) remains, sd(t) ≈ 3 ms: allow 15 ms (5 sd).
+    for (let k = 0; k < 5; k++) {
+      const series = envelopePowerSeries({ ...ENV, amplitude: (t) => 0.01 * Math.exp(8 * t), noisePower: 1e-3, startS: 0, durationS: 0.8, seed: 90_000 + k });
+      expect(Math.abs(backgroundCrossingTimeS(fitExponential(series)) - Math.log(10) / 16)).toBeLessThan(0.1);
+      expect(Math.abs(backgroundCrossingTimeS(fitExponential(series, { backgroundPower: 1e-3 })) - Math.log(10) / 16)).toBeLessThan(0.015);
+    }
+  });
+
   it('95 % interval coverage on 200 seeded growth records is 88–99 % (N_eff correction at work)', () => {
     let covered = 0;
     let coveredNoCorrection = 0;
@@ -282,6 +295,24 @@ describe('fitSaturation', () => {
     }
     expect(selected).toBe(6);
     expect(covered).toBeGreaterThanOrEqual(5);
+  });
+
+  it('with the background given: same recovery, background reported as given', () => {
+    const series = envelopePowerSeries({ ...ENV, amplitude: (t) => landauAmplitude(t, landau), noisePower: 1e-3, startS: 0, durationS: 2, seed: 61_000 });
+    const fit = fitSaturation(series, { backgroundPower: 1e-3 });
+    expect(fit.isValid).toBe(true);
+    expect(fit.backgroundPower).toBe(1e-3);
+    expect(fit.ci95PerS[0]).toBeLessThanOrEqual(5);
+    expect(fit.ci95PerS[1]).toBeGreaterThanOrEqual(5);
+  });
+
+  it('refuses bad input with a clear reason', () => {
+    const t = Float64Array.from({ length: 50 }, (_, i) => i / 100);
+    const p = Float64Array.from({ length: 50 }, () => 1);
+    expect(fitSaturation({ timeS: t, power: p, bandwidthHz: -1 }).reason).toMatch(/bandwidth/);
+    expect(fitSaturation({ timeS: t, power: p, bandwidthHz: 20 }, { backgroundPower: -1 }).reason).toMatch(/backgroundPower/);
+    // 0.49 s at 5 Hz: N_eff ≈ 5, too few for five parameters.
+    expect(fitSaturation({ timeS: t, power: p, bandwidthHz: 5 }).reason).toMatch(/N_eff/);
   });
 
   it('keeps Stuart–Landau when the data follow it (test at the 1 % level: at most 1 of 10 switches)', () => {
