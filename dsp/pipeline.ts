@@ -153,6 +153,8 @@ interface TrackRuntime {
   frameCursor: number;
   isAlive: boolean;
   maxExcessDb: number;
+  /** Envelope outputs still holding a clipped input in their kernel. */
+  clipCountdown: number;
 }
 
 /** Mutable per-run state of the composition. */
@@ -186,6 +188,8 @@ interface PipelineState {
   envClip: Uint8Array;
   accMs: number;
   accClip: number;
+  /** Latest analysis index whose input held clipping. */
+  lastClipJ: number;
   /** Frame ring: power spectra and centre times. */
   frameRing: Float32Array[];
   frameTimeS: Float64Array;
@@ -262,7 +266,10 @@ function appendEnvelope(ps: PipelineState, tr: TrackRuntime, count: number, gFir
     tr.power[k] = ps.envScratch[q];
     tr.powerWide[k] = ps.envWideScratch[q];
     tr.timeS[k] = timeOfG(ps, g);
-    tr.clipped[k] = ps.envClip[g % ringLen];
+    // An output is affected by clipping while a clipped boxcar lies inside its kernel.
+    if (ps.envClip[g % ringLen]) tr.clipCountdown = tr.env.kernelLength;
+    tr.clipped[k] = tr.clipCountdown > 0 ? 1 : 0;
+    if (tr.clipCountdown > 0) tr.clipCountdown--;
     tr.state[k] = STATE_QUIET;
   }
 }
@@ -303,6 +310,7 @@ function createTrackRuntime(ps: PipelineState, freqHz: number, promDb: number, f
     frameCursor: 0,
     isAlive: true,
     maxExcessDb: -Infinity,
+    clipCountdown: 0,
   };
 }
 
@@ -376,6 +384,11 @@ function advanceRegime(ps: PipelineState, tr: TrackRuntime, tMax: number): void 
     tr.bg[k] = b;
     if (k < tr.validFrom) {
       tr.state[k] = STATE_QUIET;
+      continue;
+    }
+    if (tr.clipped[k]) {
+      // Clipped stretches tell nothing about the regime: hold the state.
+      tr.state[k] = rg.state < 0 ? STATE_QUIET : rg.state;
       continue;
     }
     stepRegime(rg, k, tr.power[k], b);
@@ -561,10 +574,17 @@ function processFrame(ps: PipelineState): void {
   }
   // New tones.
   const tk = ps.tracker;
-  for (let c = 0; c < tk.confirmedCount; c++) {
+  // Clipping spreads harmonics over the spectrum: no new tones from clipped frames.
+  const frameClipped = ps.lastClipJ >= ps.j - spec.frameSize;
+  for (let c = 0; c < tk.confirmedCount && !frameClipped; c++) {
     const f = tk.confirmedFreqHz[c];
     let dup = false;
-    for (const tr of ps.alive) if (Math.abs(tr.tone.freqHz - f) <= 2 * matchToleranceHz(spec.binHz, f)) dup = true;
+    for (const tr of ps.alive) {
+      // Same tone, or a harmonic (n ≤ 16) of a tracked tone.
+      const n = Math.round(f / tr.tone.freqHz);
+      const tol = n === 1 ? 2 * matchToleranceHz(spec.binHz, f) : 1.5 * spec.binHz + 0.005 * f;
+      if (n >= 1 && n <= 16 && Math.abs(f - n * tr.tone.freqHz) <= tol) dup = true;
+    }
     if (dup) continue;
     if (ps.alive.length >= MAX_TRACKS) {
       // Make room: the quiet track unseen longest.
@@ -644,7 +664,10 @@ function processConditioned(ps: PipelineState): void {
       if (++rp === ringCap) rp = 0;
       if (++qp === qCap) qp = 0;
       accMs += v * v;
-      accClip |= clip[q];
+      if (clip[q]) {
+        accClip = 1;
+        ps.lastClipJ = j;
+      }
       j++;
       if (++ph === m) {
         ph = 0;
@@ -939,7 +962,7 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
       // Where the fitted curve meets the background of the narrow (about ±5 Hz) band: DESIGN.md.
       const tCross = backgroundCrossingTimeS({ ...fit, backgroundPower: bgNarrow });
       // The crossing lies near the regime's estimate; far away means the fit did not describe the rise.
-      out.onsetTimeS = Number.isFinite(tCross) && tCross > startS - 3 && tCross < endS ? tCross : startS;
+      out.onsetTimeS = Number.isFinite(tCross) && tCross > startS - 1 && tCross < endS ? tCross : startS;
     }
     return out;
   }
@@ -1186,6 +1209,7 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
     envClip: new Uint8Array(envHistory),
     accMs: 0,
     accClip: 0,
+    lastClipJ: -Infinity,
     frameRing,
     frameTimeS: new Float64Array(historyFrames),
     frameFloor: 0,
