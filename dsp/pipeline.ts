@@ -27,7 +27,7 @@ import {
   stepEnvelope,
   type EnvelopeState,
 } from './envelope';
-import { backgroundCrossingTimeS, fitExponential, fitSaturation } from './fit';
+import { backgroundCrossingTimeS, fitExponential, fitSaturation, studentTQuantile } from './fit';
 import { createPeakList, findPeaks, groupHarmonics, neighbourNoisePower, type PeakList } from './peak';
 import {
   beginRegimeStep,
@@ -406,6 +406,64 @@ function segmentFrequency(tr: TrackRuntime, s: RegimeSegment): number {
   return medianFrequencyHz(tr.tone, t0 - 0.2, t1 + 0.2);
 }
 
+/**
+ * Provisional rate of a closed growth or decay segment for the live view (model 'log-linear'):
+ * a straight line through ½ ln(A² − N²) over the part of the segment that stands 10 dB clear of
+ * both the background and the segment's top, where neither the floor nor saturation bends it
+ * (common practice); interval from the line's residuals with the effective sample count
+ * 2·B·duration (as in dsp/fit.ts). finish() replaces it with the full fit.
+ */
+function quickSegment(tr: TrackRuntime, s: RegimeSegment): Segment {
+  const seg: Segment = {
+    kind: regimeKind(s.state),
+    startS: tr.timeS[s.startIdx],
+    endS: tr.timeS[Math.max(s.startIdx, s.endIdx - 1)],
+    frequencyHz: segmentFrequency(tr, s),
+    ratePerS: null,
+    rateCi95PerS: null,
+    model: null,
+  };
+  const i0 = s.state === STATE_DECAY ? Math.min(s.endIdx, s.startIdx + tr.env.kernelLength) : s.startIdx;
+  let top = 0;
+  for (let k = i0; k < s.endIdx; k++) if (tr.power[k] > top) top = tr.power[k];
+  let n = 0;
+  let st = 0;
+  let sy = 0;
+  let stt = 0;
+  let sty = 0;
+  let syy = 0;
+  let tFirst = Infinity;
+  let tLast = -Infinity;
+  for (let k = i0; k < s.endIdx; k++) {
+    const p = tr.power[k] - tr.bg[k];
+    if (tr.clipped[k] || !(p > 10 * tr.bg[k]) || !(tr.power[k] < 0.1 * top)) continue;
+    const t = tr.timeS[k] - seg.startS;
+    const y = 0.5 * Math.log(p);
+    n++;
+    st += t;
+    sy += y;
+    stt += t * t;
+    sty += t * y;
+    syy += y * y;
+    if (t < tFirst) tFirst = t;
+    if (t > tLast) tLast = t;
+  }
+  if (n < 8) return seg;
+  const sxx = stt - (st * st) / n;
+  const sxy = sty - (st * sy) / n;
+  if (!(sxx > 0)) return seg;
+  const slope = sxy / sxx;
+  const rss = Math.max(0, syy - (sy * sy) / n - slope * sxy);
+  const nEff = Math.min(n, 2 * tr.env.bandwidthHz * (tLast - tFirst));
+  if (nEff < 3) return seg;
+  const sd = Math.sqrt((rss / (n - 2) / sxx) * (n / nEff));
+  const q = studentTQuantile(0.975, nEff - 2);
+  seg.ratePerS = slope;
+  seg.rateCi95PerS = [slope - q * sd, slope + q * sd];
+  seg.model = 'log-linear';
+  return seg;
+}
+
 /** Collects what the regime steps of one frame closed, for the live update. */
 function collectLive(ps: PipelineState, tr: TrackRuntime): void {
   const rg = tr.regime;
@@ -413,12 +471,11 @@ function collectLive(ps: PipelineState, tr: TrackRuntime): void {
   if (rg.onsetInStep) {
     ps.liveOnsets.push({ timeS: tr.timeS[rg.onsetIdx], frequencyHz: tr.tone.freqHz });
   }
-  // Closed growth and decay segments are fitted at once (a rare event: allocation is fine here);
-  // finish() fits them again with the full context.
+  // Closed growth and decay segments get a quick provisional rate; finish() fits them properly.
   for (let i = rg.segments.length - rg.closedInStep; i < rg.segments.length; i++) {
     const s = rg.segments[i];
     if (s.endIdx <= s.startIdx) continue;
-    if (s.state === STATE_GROWTH || s.state === STATE_DECAY) ps.liveSegments.push(fitSegment(ps, tr, rg.segments, i, true).report);
+    if (s.state === STATE_GROWTH || s.state === STATE_DECAY) ps.liveSegments.push(quickSegment(tr, s));
     else {
       ps.liveSegments.push({
         kind: regimeKind(s.state),
@@ -883,7 +940,7 @@ function ciOf(fit: RateFit): Interval {
 }
 
 /** Fits one segment of a track and fills its report entry (and the onset time for onsets). */
-function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], i: number, isLive: boolean): FittedSegment {
+function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], i: number): FittedSegment {
   const seg = segs[i];
   const rate = tr.env.outputRateHz;
   const prev = i > 0 ? segs[i - 1] : null;
@@ -917,7 +974,7 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
     if (!Number.isFinite(bgNarrow)) bgNarrow = meanBg(tr, w0, seg.startIdx + 1);
     let bg = meanPower(tr, q0, q1, bgMin, isWide);
     if (!Number.isFinite(bg)) bg = bgNarrow * bgScale;
-    // While live, the steady stretch after the growth may still be open (next === null).
+    // The steady stretch after the growth may be the record's last (next === null).
     const intoSteady = seg.reachedSteady && (next === null || next.state === STATE_STEADY);
     let w1 = seg.endIdx;
     if (intoSteady) {
@@ -957,7 +1014,7 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
     if (fit.isValid) {
       report.ratePerS = fit.ratePerS;
       report.rateCi95PerS = ciOf(fit);
-    } else if (!isLive) ps.warnings.push(`${tag}: no rate (${fit.reason ?? 'fit failed'})`);
+    } else ps.warnings.push(`${tag}: no rate (${fit.reason ?? 'fit failed'})`);
     if (seg.isOnset && !tr.isSteadyLine) {
       // Where the fitted curve meets the background of the narrow (about ±5 Hz) band: DESIGN.md.
       const tCross = backgroundCrossingTimeS({ ...fit, backgroundPower: bgNarrow });
@@ -1010,7 +1067,7 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
       report.ratePerS = fit.ratePerS;
       report.rateCi95PerS = ciOf(fit);
       report.model = 'exponential';
-    } else if (!isLive) ps.warnings.push(`${tag}: no rate (${fit.reason ?? 'fit failed'})`);
+    } else ps.warnings.push(`${tag}: no rate (${fit.reason ?? 'fit failed'})`);
     return out;
   }
 
@@ -1061,7 +1118,7 @@ function finish(ps: PipelineState): Report {
     const segs = tr.regime.segments;
     for (let i = 0; i < segs.length; i++) {
       if (segs[i].endIdx <= segs[i].startIdx) continue;
-      fitted.push(fitSegment(ps, tr, segs, i, false));
+      fitted.push(fitSegment(ps, tr, segs, i));
     }
   }
   // Tones, grouped by frequency (a tone heard in several cycles may have several tracks).
