@@ -18,6 +18,7 @@ import { performance } from 'node:perf_hooks';
 import { crlbDampedTone } from '../crlb';
 import { createAnalysis } from '../index';
 import { createWavDecoder } from '../io/wav';
+import { encodeWav } from '../io/wav-write';
 import { createRng, humCycleEnvelope, synthesize, type EnvelopeFn, type Rng } from '../synth';
 import type { Analysis, Report, Segment } from '../types';
 import { num, renderTable } from './format';
@@ -316,6 +317,15 @@ function speed(): void {
     ratio <= 3 ? 'PASS' : 'MISS',
   );
   if (Number.isNaN(sink)) out('');
+
+  // The WAV reader alone on the same minute, 16-bit PCM in 64 KiB pieces as the command line reads it.
+  const wav = encodeWav(x, fs, 'pcm16');
+  const dec = createWavDecoder();
+  const t2 = performance.now();
+  for (let o = 0; o < wav.length; o += 1 << 16) dec.push(wav.subarray(o, o + (1 << 16)));
+  dec.end();
+  const readS = (performance.now() - t2) / 1000;
+  row('WAV reader alone, 16-bit 48 kHz mono', `${num(seconds / readS, 3)}× real time (${num(wav.length / 2 ** 20 / readS, 3)} MB/s)`, '—', 'info');
 }
 
 function memory(): void {
@@ -393,14 +403,26 @@ function memory(): void {
 
 // ---------------------------------------------------------------------------------------------
 
+const SECTIONS: [name: string, title: string, fn: () => void][] = [
+  ['accuracy', '1. Accuracy against the Cramér–Rao bound', accuracy],
+  ['onset', '2a. Onset announcement delay (10 Hz band, noise −50 dBFS, tone from 40 dB under the 6 dB point)', onsetDelay],
+  ['false', '2b. False onsets', falseOnsets],
+  ['speed', '3a. Speed', speed],
+  ['memory', '3b. Memory', memory],
+];
+
+/** `node dist-cli/bench.js [accuracy|onset|false|speed|memory ...]`: all sections by default. */
 function main(): void {
   const t0 = performance.now();
+  const wanted = process.argv.slice(2);
+  const unknown = wanted.filter((w) => !SECTIONS.some(([name]) => name === w));
+  if (unknown.length > 0) {
+    process.stderr.write(`bench: unknown section ${unknown.join(', ')} (sections: ${SECTIONS.map(([n]) => n).join(', ')})\n`);
+    process.exitCode = 2;
+    return;
+  }
   out(`humgauge bench — Node ${process.version}, ${new Date().toISOString()}\n`);
-  section('1. Accuracy against the Cramér–Rao bound', accuracy);
-  section('2a. Onset announcement delay (10 Hz band, noise −50 dBFS, tone from 40 dB under the 6 dB point)', onsetDelay);
-  section('2b. False onsets', falseOnsets);
-  section('3a. Speed', speed);
-  section('3b. Memory', memory);
+  for (const [name, title, fn] of SECTIONS) if (wanted.length === 0 || wanted.includes(name)) section(title, fn);
   const pass = rows.filter((r) => r.verdict === 'PASS').length;
   const miss = rows.filter((r) => r.verdict === 'MISS').length;
   out(`\nbench: ${pass} PASS, ${miss} MISS, ${((performance.now() - t0) / 1000).toFixed(0)} s\n`);

@@ -52,7 +52,11 @@ export interface WavDecoder {
   readonly format: WavFormat | null;
   /** Sample frames the data chunk declares, or null when unknown (size 0 / 0xFFFFFFFF / not yet read). */
   readonly declaredFrames: number | null;
-  /** Decodes the next bytes of the file; returns the mono samples they completed (maybe none). Throws InputError. */
+  /**
+   * Decodes the next bytes of the file; returns the mono samples they completed (maybe none).
+   * The samples are a view into a buffer the decoder reuses: valid until the next push(), copy
+   * them to keep them (fresh large arrays per piece cost more than the decoding). Throws InputError.
+   */
   push(bytes: Uint8Array): Float32Array;
   /** Call after the last byte: checks the file was complete and sensible; throws InputError. */
   end(): WavSummary;
@@ -238,60 +242,60 @@ export function createWavDecoder(options: WavDecodeOptions = {}): WavDecoder {
     expect(8);
   }
 
-  /** Decodes `frames` whole frames from view at byte offset off into out[outOff...]. */
+  /**
+   * Decodes `frames` whole frames from view at byte offset off into out[outOff...]: one loop per
+   * sample kind (no branch per sample), channels summed and scaled, then one pass for the peak and
+   * for NaN/∞ (any non-finite channel makes the mixed sample non-finite).
+   */
   function decodeFrames(view: DataView, off: number, frames: number, out: Float32Array, outOff: number): void {
     const fmt = format as WavFormat;
     const cb = fmt.containerBytes;
     const stride = fmt.blockAlign;
-    const scale = 1 / channelsUsed;
-    for (let f = 0; f < frames; f++) {
-      let sum = 0;
-      let p = off + f * stride + firstChannel * cb;
-      for (let c = 0; c < channelsUsed; c++, p += cb) {
-        let x: number;
-        switch (kind) {
-          case Kind.U8:
-            x = (view.getUint8(p) - 128) / 128;
-            break;
-          case Kind.S16:
-            x = view.getInt16(p, true) / 32768;
-            break;
-          case Kind.S24:
-            x = ((view.getUint8(p) | (view.getUint8(p + 1) << 8) | (view.getUint8(p + 2) << 16)) << 8) / 2147483648;
-            break;
-          case Kind.S32:
-            x = view.getInt32(p, true) / 2147483648;
-            break;
-          case Kind.F32:
-            x = view.getFloat32(p, true);
-            break;
-          default:
-            x = view.getFloat64(p, true);
-        }
-        if (!Number.isFinite(x)) {
-          const frame = frameCount + outOff + f;
-          throw new InputError(
-            'bad-samples',
-            `sample ${frame} (t = ${(frame / fmt.sampleRateHz).toFixed(4)} s, channel ${firstChannel + c + 1}) is ${Number.isNaN(x) ? 'NaN' : 'infinite'}`,
-          );
-        }
-        sum += x;
-      }
-      const y = sum * scale;
-      out[outOff + f] = y;
+    const nc = channelsUsed;
+    const base = off + firstChannel * cb;
+    const full = decodeSums(kind, view, base, stride, nc, cb, frames, out, outOff);
+    const scale = 1 / (full * nc);
+    let peak = peakAbs;
+    for (let i = outOff, end = outOff + frames; i < end; i++) {
+      const y = out[i] * scale;
+      out[i] = y;
       const a = y < 0 ? -y : y;
-      if (a > peakAbs) peakAbs = a;
+      // a !== a is NaN; a === Infinity is ∞: both are refused with the frame and channel named.
+      if (a > peak) peak = a;
+      if (a !== a || a === Infinity) throwBadSample(view, off, i - outOff, frameCount + i);
     }
+    peakAbs = peak;
+  }
+
+  function throwBadSample(view: DataView, off: number, f: number, frame: number): never {
+    const fmt = format as WavFormat;
+    let channel = firstChannel;
+    for (let c = 0; c < channelsUsed; c++) {
+      const p = off + f * fmt.blockAlign + (firstChannel + c) * fmt.containerBytes;
+      const x = kind === Kind.F32 ? view.getFloat32(p, true) : view.getFloat64(p, true);
+      if (!Number.isFinite(x)) {
+        channel = firstChannel + c;
+        break;
+      }
+    }
+    const p = off + f * fmt.blockAlign + channel * fmt.containerBytes;
+    const x = kind === Kind.F32 ? view.getFloat32(p, true) : view.getFloat64(p, true);
+    throw new InputError(
+      'bad-samples',
+      `sample ${frame} (t = ${(frame / fmt.sampleRateHz).toFixed(4)} s, channel ${channel + 1}) is ${Number.isNaN(x) ? 'NaN' : 'infinite'}`,
+    );
   }
 
   const EMPTY = new Float32Array(0);
+  let outBuf = EMPTY;
 
-  /** Consumes data bytes bytes[pos, pos+n); returns decoded samples. */
+  /** Consumes data bytes bytes[pos, pos+n); returns decoded samples (a view into outBuf). */
   function readData(bytes: Uint8Array, pos: number, n: number): Float32Array {
     const fmt = format as WavFormat;
     const stride = fmt.blockAlign;
     const frames = Math.floor((carryLen + n) / stride);
-    const out = frames > 0 ? new Float32Array(frames) : EMPTY;
+    if (frames > outBuf.length) outBuf = new Float32Array(Math.max(frames, 2 * outBuf.length));
+    const out = frames > 0 ? outBuf.subarray(0, frames) : EMPTY;
     let outOff = 0;
     let p = pos;
     const endPos = pos + n;
@@ -326,8 +330,8 @@ export function createWavDecoder(options: WavDecodeOptions = {}): WavDecoder {
     while (pos < bytes.length) {
       if (phase === Phase.Data) {
         const n = Math.min(bytes.length - pos, dataLeft);
-        const got = readData(bytes, pos, n);
-        out = out.length === 0 ? got : concat(out, got);
+        // Only the first data chunk is read, so one push decodes at most one stretch of data.
+        out = readData(bytes, pos, n);
         pos += n;
         bytesSeen += n;
         dataRead += n;
@@ -402,7 +406,7 @@ export function createWavDecoder(options: WavDecodeOptions = {}): WavDecoder {
   };
 }
 
-/** Decodes a whole WAV held in memory (tests, small files). Throws InputError. */
+/** Decodes a whole WAV held in memory (tests, small files); the samples are the decoder's own buffer (one push). Throws InputError. */
 export function decodeWav(bytes: Uint8Array, options: WavDecodeOptions = {}): { samples: Float32Array; summary: WavSummary } {
   const dec = createWavDecoder(options);
   const samples = dec.push(bytes);
@@ -410,12 +414,60 @@ export function decodeWav(bytes: Uint8Array, options: WavDecodeOptions = {}): { 
   return { samples, summary };
 }
 
-function concat(a: Float32Array, b: Float32Array): Float32Array {
-  if (b.length === 0) return a;
-  const r = new Float32Array(a.length + b.length);
-  r.set(a, 0);
-  r.set(b, a.length);
-  return r;
+/**
+ * Writes the sum over `nc` channels of each frame's raw sample values into out[outOff...] and
+ * returns the full-scale value to divide by. Top-level and monomorphic per kind, so the engine
+ * compiles each loop tightly.
+ */
+function decodeSums(kind: number, view: DataView, base: number, stride: number, nc: number, cb: number, frames: number, out: Float32Array, outOff: number): number {
+  switch (kind) {
+    case Kind.U8:
+      for (let f = 0; f < frames; f++) {
+        let sum = 0;
+        for (let c = 0, p = base + f * stride; c < nc; c++, p += cb) sum += view.getUint8(p) - 128;
+        out[outOff + f] = sum;
+      }
+      return 128;
+    case Kind.S16:
+      if (nc === 1) {
+        for (let f = 0, p = base; f < frames; f++, p += stride) out[outOff + f] = view.getInt16(p, true);
+        return 32768;
+      }
+      for (let f = 0; f < frames; f++) {
+        let sum = 0;
+        for (let c = 0, p = base + f * stride; c < nc; c++, p += cb) sum += view.getInt16(p, true);
+        out[outOff + f] = sum;
+      }
+      return 32768;
+    case Kind.S24:
+      for (let f = 0; f < frames; f++) {
+        let sum = 0;
+        for (let c = 0, p = base + f * stride; c < nc; c++, p += cb) sum += ((view.getUint8(p) | (view.getUint8(p + 1) << 8) | (view.getUint8(p + 2) << 16)) << 8) >> 8;
+        out[outOff + f] = sum;
+      }
+      return 8388608;
+    case Kind.S32:
+      for (let f = 0; f < frames; f++) {
+        let sum = 0;
+        for (let c = 0, p = base + f * stride; c < nc; c++, p += cb) sum += view.getInt32(p, true);
+        out[outOff + f] = sum;
+      }
+      return 2147483648;
+    case Kind.F32:
+      for (let f = 0; f < frames; f++) {
+        let sum = 0;
+        for (let c = 0, p = base + f * stride; c < nc; c++, p += cb) sum += view.getFloat32(p, true);
+        out[outOff + f] = sum;
+      }
+      return 1;
+    default:
+      for (let f = 0; f < frames; f++) {
+        let sum = 0;
+        for (let c = 0, p = base + f * stride; c < nc; c++, p += cb) sum += view.getFloat64(p, true);
+        out[outOff + f] = sum;
+      }
+      return 1;
+  }
 }
 
 function printable(b: Uint8Array, n: number): string {
