@@ -99,10 +99,15 @@ export function choiceOption<T extends string>(opts: Map<string, string>, name: 
   return raw as T;
 }
 
-/** One line on stderr and the exit code: model RangeErrors become BAD_PARAMETER, root-finder failures NO_CONVERGENCE. */
-export function failWith(e: unknown, io: CliIo, command: string): number {
+/**
+ * One line on stderr and the exit code: model RangeErrors become BAD_PARAMETER, root-finder
+ * failures NO_CONVERGENCE. `names` maps the model's parameter names to the command's options.
+ */
+export function failWith(e: unknown, io: CliIo, command: string, names: Record<string, string> = {}): number {
   if (e instanceof RangeError) {
-    io.err(`humgauge ${command}: ${e.message}\n`);
+    let msg = e.message;
+    for (const [from, to] of Object.entries(names)) msg = msg.replace(new RegExp(`\\b${from}\\b`, 'g'), to);
+    io.err(`humgauge ${command}: ${msg}\n`);
     return /root finder|converge/.test(e.message) ? EXIT.NO_CONVERGENCE : EXIT.BAD_PARAMETER;
   }
   if (e instanceof CliError) {
@@ -134,6 +139,19 @@ export function parseProfileCsv(text: string): ProfilePoint[] {
   if (points.length === 0) throw new CliError('profile: no data rows (expected lines "x_m,temp_c")', EXIT.BAD_CSV);
   return points;
 }
+
+/** Model parameter → option, for messages (units agree). */
+const OPTION_NAMES: Record<string, string> = {
+  lengthM: '--length',
+  diameterM: '--diameter',
+  gasTemperatureC: '--temp',
+  heaterPositionM: '--heater',
+  hotTemperatureC: '--hot-temp',
+  measuredHz: '--measured',
+  frequencyStdHz: '--measured-std',
+  lengthStdM: '--length-std',
+  heaterXM: '--heater',
+};
 
 const KNOWN = ['length', 'diameter', 'ends', 'closed-end', 'open-end', 'temp', 'heater', 'hot-temp', 'flow', 'profile', 'gamma', 'molar-mass', 'count', 'measured', 'measured-std', 'length-std'];
 
@@ -241,13 +259,13 @@ export async function runModes(args: string[], io: CliIo): Promise<number> {
     if (match) {
       const [lo, hi] = match.temperatureCi95C;
       lines.push('');
-      lines.push(`Measured ${num(measuredHz, 5)} Hz: mode ${match.n} (predicted ${match.predictedHz.toFixed(3)} Hz, ${(match.relativeDeviation * 100).toFixed(2)} %)`);
+      lines.push(`Measured ${num(measuredHz, 5)} Hz: mode ${match.n} (predicted ${match.predictedHz.toFixed(3)} Hz, ${match.relativeDeviation >= 0 ? '+' : ''}${(match.relativeDeviation * 100).toFixed(2)} %)`);
       lines.push(`Mean gas temperature for an exact match: ${match.temperatureC.toFixed(1)} °C ± ${(1.96 * match.temperatureStdK).toFixed(1)} K (95 % ${lo.toFixed(1)} to ${hi.toFixed(1)} °C)`);
     }
     for (const w of warnings) lines.push(`warning: ${w}`);
     io.out(lines.join('\n') + '\n');
     return EXIT.OK;
   } catch (e) {
-    return failWith(e, io, 'modes');
+    return failWith(e, io, 'modes', OPTION_NAMES);
   }
 }

@@ -135,6 +135,16 @@ export async function runSimulate(args: string[], io: CliIo): Promise<number> {
     io.out(lines.join('\n') + '\n');
     return EXIT.OK;
   } catch (e) {
-    return failWith(e, io, 'simulate');
+    return failWith(e, io, 'simulate', {
+      lengthM: '--length',
+      gasTemperatureC: '--temp',
+      heaterPositionM: '--heater',
+      modeCount: '--modes',
+      durationS: '--duration',
+      silenceS: '--silence',
+      peakLevel: '--peak',
+      micPositionM: '--mic',
+      noiseDbfs: '--noise-dbfs',
+    });
   }
 }

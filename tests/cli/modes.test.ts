@@ -90,17 +90,17 @@ describe('humgauge modes', () => {
   it.each([
     [['--diameter', '0.05'], EXIT.USAGE, /--length is required/],
     [['--length', '1'], EXIT.USAGE, /--diameter is required/],
-    [['--length', '0', '--diameter', '0.05'], EXIT.BAD_PARAMETER, /lengthM must be a positive/],
-    [['--length', '-2', '--diameter', '0.05'], EXIT.BAD_PARAMETER, /lengthM/],
+    [['--length', '0', '--diameter', '0.05'], EXIT.BAD_PARAMETER, /--length must be a positive/],
+    [['--length', '-2', '--diameter', '0.05'], EXIT.BAD_PARAMETER, /--length must be a positive/],
     [['--length', 'abc', '--diameter', '0.05'], EXIT.BAD_PARAMETER, /--length must be a number/],
     [['--length', '1', '--diameter', 'NaN'], EXIT.BAD_PARAMETER, /--diameter must be a number/],
     [['--length', '1', '--diameter', '0.05', '--temp', '-300'], EXIT.BAD_PARAMETER, /absolute zero/],
-    [['--length', '1', '--diameter', '0.05', '--heater', '1.5', '--hot-temp', '200'], EXIT.BAD_PARAMETER, /heaterPositionM must lie inside/],
-    [['--length', '1', '--diameter', '0.05', '--heater', '0.3'], EXIT.BAD_PARAMETER, /hotTemperatureC is required/],
+    [['--length', '1', '--diameter', '0.05', '--heater', '1.5', '--hot-temp', '200'], EXIT.BAD_PARAMETER, /--heater must lie inside/],
+    [['--length', '1', '--diameter', '0.05', '--heater', '0.3'], EXIT.BAD_PARAMETER, /--hot-temp is required/],
     [['--length', '1', '--diameter', '0.05', '--ends', 'half-open'], EXIT.USAGE, /--ends must be one of/],
     [['--length', '1', '--diameter', '0.05', '--count', '2.5'], EXIT.BAD_PARAMETER, /--count/],
     [['--length', '1', '--diameter', '0.05', '--bogus', '1'], EXIT.USAGE, /unknown option --bogus/],
-    [['--length', '1', '--diameter', '0.05', '--measured', '0'], EXIT.BAD_PARAMETER, /measuredHz/],
+    [['--length', '1', '--diameter', '0.05', '--measured', '0'], EXIT.BAD_PARAMETER, /--measured must be/],
     [['--length', '1', '--diameter', '0.05', '--temp'], EXIT.USAGE, /--temp needs a value/],
   ])('bad input %j → exit %i, one line', async (args, code, msg) => {
     const r = await run(args as string[]);

@@ -85,13 +85,13 @@ describe('humgauge simulate', () => {
 
   it.each([
     [[], EXIT.USAGE, /--out is required/],
-    [['--out', 'x.wav', '--length', '0'], EXIT.BAD_PARAMETER, /lengthM/],
-    [['--out', 'x.wav', '--heater', '2'], EXIT.BAD_PARAMETER, /heaterPositionM must lie inside/],
+    [['--out', 'x.wav', '--length', '0'], EXIT.BAD_PARAMETER, /--length must be a positive/],
+    [['--out', 'x.wav', '--heater', '2'], EXIT.BAD_PARAMETER, /--heater must lie inside/],
     [['--out', 'x.wav', '--temp', '-274'], EXIT.BAD_PARAMETER, /absolute zero/],
     [['--out', 'x.wav', '--rate', '1000'], EXIT.BAD_PARAMETER, /--rate/],
     [['--out', 'x.wav', '--steps', 'on'], EXIT.BAD_PARAMETER, /--steps/],
     [['--out', 'x.wav', '--ends', 'closed-closed'], EXIT.USAGE, /--ends must be one of/],
-    [['--out', 'x.wav', '--peak', '2'], EXIT.BAD_PARAMETER, /peakLevel/],
+    [['--out', 'x.wav', '--peak', '2'], EXIT.BAD_PARAMETER, /--peak must lie/],
     [['--out', '/nonexistent-dir/x.wav', '--duration', '0.1'], EXIT.WRITE_FAILED, /cannot write/],
   ])('bad input %j → exit %i, one line', async (args, code, msg) => {
     const io = capture();
