@@ -56,7 +56,7 @@ export interface ConditionState {
   scratchA: Float64Array;
   scratchB: Float64Array;
   clipScratch: Uint8Array;
-  /** DC blocker: y = x − x1 + r·y1. */
+  /** DC blocker: y = ((1 + r)/2)(x − x1) + r·y1. */
   dcR: number;
   dcX1: number;
   dcY1: number;
@@ -295,11 +295,14 @@ export function stepCondition(st: ConditionState, block: Float32Array): void {
   const out = st.out;
   const outClipped = st.outClipped;
   const r = st.dcR;
+  // Gain (1 + r)/2 makes the blocker's response exactly 1 at Nyquist and flat within 0.001 dB
+  // across the band (without it the pass band rises by up to (1 − r)/2).
+  const g = 0.5 * (1 + r);
   let x1 = st.dcX1;
   let y1 = st.dcY1;
   for (let i = 0; i < len; i++) {
     const x = src[i];
-    const y = x - x1 + r * y1;
+    const y = g * (x - x1) + r * y1;
     x1 = x;
     y1 = y;
     out[i] = y;
