@@ -148,15 +148,16 @@ describe('characteristic equation', () => {
 });
 
 describe('time series', () => {
-  it.each([0.8, 1.0, 0.4])('small-amplitude log-slope agrees with the characteristic equation at K = %f (within 1 %)', (K) => {
+  it.each([0.72, 0.8, 1.0, 0.4])('small-amplitude log-slope agrees with the characteristic equation at K = $0 (within 0.5 percent)', (K) => {
     const rig = bench();
     const want = linearModes(rig, K, 1)[0].growthRatePerS;
     const r = simulateRig({ rig, schedule: [{ atS: 0, heaterPower: K }], durationS: 1.0, sampleRateHz: fs, initialAmplitude: 1e-9, excitationRms: 0 });
     // Skip 0.15 s: the other Galerkin modes, excited by the heater coupling, decay at ≥ 80 1/s (e^−12 by then).
-    // Amplitude stays below 1e-5 ≪ 1/3, where sqrt(1/3 + u) is linear to 1e-5 relative. RK4 at 64 steps per
-    // period and linear interpolation of the lag leave errors of order (ω dt)² ≈ 1e-3: 1 % is a safe bound.
+    // Amplitude stays below 1e-5 ≪ 1/3, where sqrt(1/3 + u) is linear to 1e-5 relative. RK4 at ~370 steps
+    // per period and linear interpolation of the lag leave rate errors of order (ω dt)²/8 ≈ 4e-5; the
+    // peak-picking slope over ~150 cycles adds < 1e-3. Measured agreement: 2e-4 or better; bound 0.5 %.
     const got = logSlope(r.pressure, fs, 0.15, 1.0);
-    expect(Math.abs(got - want) / Math.abs(want)).toBeLessThan(0.01);
+    expect(Math.abs(got - want) / Math.abs(want)).toBeLessThan(0.005);
   });
 
   it('a stable setting dies away and an unstable one grows into a limit cycle', () => {
