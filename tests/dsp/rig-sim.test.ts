@@ -160,6 +160,18 @@ describe('time series', () => {
     expect(Math.abs(got - want) / Math.abs(want)).toBeLessThan(0.005);
   });
 
+  it('closed–open flue basis: small-amplitude log-slope agrees with the characteristic equation (within 0.5 percent)', () => {
+    // Same estimator on the quarter-wave basis (U = sin, P = −cos, k = (j − ½)π): the demo flue scenario.
+    const rig = createRig({ lengthM: 2.2, gasTemperatureC: 120, ends: 'closed-open', heaterPositionM: 0.5, heatLagS: 0.014 });
+    const want = linearModes(rig, 0.75, 1)[0];
+    expect(want.frequencyHz).toBeGreaterThan(40);
+    expect(want.frequencyHz).toBeLessThan(50);
+    const r = simulateRig({ rig, schedule: [{ atS: 0, heaterPower: 0.75 }], durationS: 3, sampleRateHz: fs, initialAmplitude: 1e-9, excitationRms: 0 });
+    // Higher modes decay at ≥ 50 1/s: skip 0.3 s. 2.7 s hold ~125 cycles.
+    const got = logSlope(r.pressure, fs, 0.3, 3);
+    expect(Math.abs(got - want.growthRatePerS) / want.growthRatePerS).toBeLessThan(0.005);
+  });
+
   it('a stable setting dies away and an unstable one grows into a limit cycle', () => {
     const rig = bench();
     const kc = criticalHeaterPower(rig);
