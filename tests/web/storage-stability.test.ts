@@ -86,4 +86,16 @@ describe('stability map', () => {
     // The second day starts quiet again at 40 %: a shut-off between days is not invented (the last step of day 1 is quiet too).
     expect(map.transitions.filter((t) => t.kind === 'onset')).toHaveLength(2);
   });
+
+  it('never mixes control quantities: the most common unit is mapped unless another is asked for', () => {
+    const ramp = hysteresisSession();
+    const heater: MapSession = { ...hysteresisSession(), id: 'heater', createdAtMs: ramp.createdAtMs + 1e7, markers: [{ timeS: 0, kind: 'setting', label: 'heater power', value: 250, unit: 'W' }] };
+    const map = buildStabilityMap([ramp, heater]);
+    expect(map.unit).toBe('%');
+    expect(map.units).toEqual([{ unit: '%', count: 17 }, { unit: 'W', count: 1 }]);
+    expect(map.steps.every((st) => st.unit === '%')).toBe(true);
+    const watts = buildStabilityMap([ramp, heater], 'W');
+    expect(watts.steps.map((st) => st.control)).toEqual([250]);
+    expect(watts.onsetControl).toBeNull();
+  });
 });

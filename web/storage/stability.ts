@@ -38,7 +38,10 @@ export interface MapTransition {
 export interface StabilityMap {
   steps: MapStep[];
   transitions: MapTransition[];
+  /** The control quantity mapped (its unit); steps in other units are left out. */
   unit: string;
+  /** Every control unit found, with its number of steps, most common first. */
+  units: { unit: string; count: number }[];
   /** Control value where the net rate crosses zero (linear interpolation between neighbouring settings), if it does. */
   zeroRateControl: number | null;
   /**
@@ -122,10 +125,18 @@ export function buildSteps(sessions: readonly MapSession[]): MapStep[] {
   return steps.sort((a, b) => a.atMs - b.atMs);
 }
 
-/** The map: steps in time order, their transitions, thresholds and the zero crossing of the rate. */
-export function buildStabilityMap(sessions: readonly MapSession[]): StabilityMap {
-  const steps = buildSteps(sessions);
-  const units = [...new Set(steps.map((s) => s.unit).filter(Boolean))];
+/**
+ * The map of one control quantity (`unit`; default the most common one): steps in time order,
+ * their transitions, thresholds and the zero crossing of the rate. Values in different units
+ * (firing rate in %, heater power in W) are never mixed.
+ */
+export function buildStabilityMap(sessions: readonly MapSession[], unit?: string): StabilityMap {
+  const allSteps = buildSteps(sessions);
+  const counts = new Map<string, number>();
+  for (const s of allSteps) counts.set(s.unit, (counts.get(s.unit) ?? 0) + 1);
+  const units = [...counts.entries()].map(([u, count]) => ({ unit: u, count })).sort((a, b) => b.count - a.count || a.unit.localeCompare(b.unit));
+  const chosen = unit !== undefined && counts.has(unit) ? unit : (units[0]?.unit ?? '');
+  const steps = allSteps.filter((s) => s.unit === chosen);
   const transitions: MapTransition[] = [];
   for (let i = 1; i < steps.length; i++) {
     const a = steps[i - 1];
@@ -158,7 +169,8 @@ export function buildStabilityMap(sessions: readonly MapSession[]): StabilityMap
   return {
     steps,
     transitions,
-    unit: units.length === 1 ? units[0] : units.join(' / '),
+    unit: chosen,
+    units,
     zeroRateControl,
     onsetControl,
     shutOffControl,

@@ -22,6 +22,8 @@ export interface TimeChartSpec {
   series: TimeSeries[];
   marks?: { x: number; label: string }[];
   heightPx?: number;
+  /** Show at most this many units below the highest value (dB plots: keep −300 dBFS silence from squashing the view). */
+  maxSpan?: number;
 }
 
 /** Distinct colours for overlaid sessions (colour-blind-safe set after Okabe & Ito 2008, "Color Universal Design"). */
@@ -39,7 +41,16 @@ export function timeChart(spec: TimeChartSpec): { figure: HTMLElement; destroy: 
   const opts: uPlot.Options = {
     width: 360,
     height: spec.heightPx ?? 220,
-    scales: { x: { time: false } },
+    scales: {
+      x: { time: false },
+      y: {
+        range: (_u: uPlot, lo: number, hi: number): [number, number] => {
+          const low = spec.maxSpan !== undefined ? Math.max(lo, hi - spec.maxSpan) : lo;
+          const pad = (hi - low) * 0.05 || 1;
+          return [low - pad, hi + pad];
+        },
+      },
+    },
     axes: [axis(spec.xLabel), axis(spec.yLabel)],
     legend: { show: true },
     series: [{ label: spec.xLabel }, ...spec.series.map((s) => ({ label: s.label, stroke: s.color, width: 1.5, spanGaps: spec.series.length > 1 }))],
@@ -102,9 +113,9 @@ function tickText(t: number): string {
 
 /** Dots with 95 % interval whiskers, one row per item, on a shared axis with zero marked. */
 export function intervalChart(title: string, unit: string, rows: IntervalRow[]): SVGSVGElement {
-  const w = 680;
+  const w = 420;
   const rowH = 30;
-  const m = { l: 150, r: 16, t: 28, b: 34 };
+  const m = { l: 96, r: 12, t: 28, b: 34 };
   const hgt = m.t + m.b + rowH * Math.max(1, rows.length);
   const vals = rows.flatMap((r) => [r.value, ...(r.ci ?? [])]).filter((v): v is number => typeof v === 'number' && Number.isFinite(v));
   let lo = Math.min(0, ...vals);
@@ -116,16 +127,16 @@ export function intervalChart(title: string, unit: string, rows: IntervalRow[]):
   const fg = cssVar('--fg', '#111');
   const grid = cssVar('--plot-grid', 'rgba(127,127,127,0.3)');
   const px = (v: number): number => m.l + ((v - lo) / (hi - lo)) * (w - m.l - m.r);
-  const root = svg('svg', { viewBox: `0 0 ${w} ${hgt}`, class: 'interval-chart', role: 'img', 'aria-label': title, 'font-size': 13, 'font-family': 'system-ui, sans-serif' });
+  const root = svg('svg', { viewBox: `0 0 ${w} ${hgt}`, class: 'interval-chart', role: 'img', 'aria-label': title, 'font-size': 12, 'font-family': 'system-ui, sans-serif' });
   root.append(svg('text', { x: 4, y: 16, 'font-weight': 700, fill: fg }, title));
-  for (const t of niceTicks(lo, hi, 6)) {
+  for (const t of niceTicks(lo, hi, 5)) {
     root.append(svg('line', { x1: px(t), x2: px(t), y1: m.t, y2: hgt - m.b, stroke: t === 0 ? fg : grid, 'stroke-width': t === 0 ? 1.5 : 1 }));
     root.append(svg('text', { x: px(t), y: hgt - m.b + 16, 'text-anchor': 'middle', fill: fg }, tickText(t)));
   }
   root.append(svg('text', { x: (m.l + w - m.r) / 2, y: hgt - 4, 'text-anchor': 'middle', fill: fg }, unit));
   rows.forEach((r, k) => {
     const y = m.t + rowH * k + rowH / 2;
-    root.append(svg('text', { x: m.l - 8, y: y + 4, 'text-anchor': 'end', fill: fg }, r.label.slice(0, 22)));
+    root.append(svg('text', { x: m.l - 8, y: y + 4, 'text-anchor': 'end', fill: fg }, r.label.slice(0, 14)));
     if (r.value === null || !Number.isFinite(r.value)) {
       root.append(svg('text', { x: m.l + 6, y: y + 4, fill: fg }, r.text));
       return;
@@ -162,9 +173,9 @@ export interface ScatterSpec {
 
 /** A scatter chart with error bars, an optional path in time, and labelled vertical lines. */
 export function scatterChart(spec: ScatterSpec): SVGSVGElement {
-  const w = 680;
-  const hgt = 300;
-  const m = { l: 60, r: 16, t: 28, b: 44 };
+  const w = 420;
+  const hgt = 280;
+  const m = { l: 50, r: 10, t: 28, b: 44 };
   const xs = [...spec.points.map((p) => p.x), ...spec.vlines.map((v) => v.x)].filter(Number.isFinite);
   const ys = spec.points.flatMap((p) => [p.y, ...(p.ci ?? [])]).filter(Number.isFinite);
   if (spec.hlineAtZero) ys.push(0);
@@ -186,7 +197,7 @@ export function scatterChart(spec: ScatterSpec): SVGSVGElement {
   const grid = cssVar('--plot-grid', 'rgba(127,127,127,0.3)');
   const px = (v: number): number => m.l + ((v - x0) / (x1 - x0)) * (w - m.l - m.r);
   const py = (v: number): number => hgt - m.b - ((v - y0) / (y1 - y0)) * (hgt - m.t - m.b);
-  const root = svg('svg', { viewBox: `0 0 ${w} ${hgt}`, class: 'scatter-chart', role: 'img', 'aria-label': spec.title, 'font-size': 13, 'font-family': 'system-ui, sans-serif' });
+  const root = svg('svg', { viewBox: `0 0 ${w} ${hgt}`, class: 'scatter-chart', role: 'img', 'aria-label': spec.title, 'font-size': 12, 'font-family': 'system-ui, sans-serif' });
   const defs = svg('defs');
   const marker = svg('marker', { id: `arrow-${spec.title.length}-${spec.points.length}`, viewBox: '0 0 10 10', refX: 9, refY: 5, markerWidth: 6, markerHeight: 6, orient: 'auto-start-reverse' });
   marker.append(svg('path', { d: 'M0 0L10 5L0 10z', fill: grid }));
@@ -194,7 +205,7 @@ export function scatterChart(spec: ScatterSpec): SVGSVGElement {
   root.append(defs);
   root.append(svg('text', { x: 4, y: 16, 'font-weight': 700, fill: fg }, spec.title));
   root.append(svg('rect', { x: m.l, y: m.t, width: w - m.l - m.r, height: hgt - m.t - m.b, fill: 'none', stroke: grid }));
-  for (const t of niceTicks(x0, x1, 7)) {
+  for (const t of niceTicks(x0, x1, 5)) {
     root.append(svg('line', { x1: px(t), x2: px(t), y1: m.t, y2: hgt - m.b, stroke: grid }));
     root.append(svg('text', { x: px(t), y: hgt - m.b + 16, 'text-anchor': 'middle', fill: fg }, tickText(t)));
   }

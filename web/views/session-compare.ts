@@ -46,6 +46,7 @@ export async function renderCompare(host: HTMLElement, ctx: SessionsContext, ids
     yLabel: 'dBFS',
     series: sessions.map((s, k) => ({ label: shortLabels[k], color: SERIES_COLORS[k], x: s.track.map((f) => f.timeS - onsets[k].timeS), y: s.track.map((f) => f.amplitudeDbfs) })),
     heightPx: 260,
+    maxSpan: 100,
   });
   const rows = sessions.map((s, k) => {
     const sum = s.record.report?.summary;

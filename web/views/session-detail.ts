@@ -104,6 +104,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
         { label: 'broadband level', color: cssVar('--plot-level', '#777'), x: times, y: track.map((f) => f.levelDbfs + (offset ?? 0)) },
       ],
       marks,
+      maxSpan: 100,
     });
     const freq = timeChart({ title: 'Frequency of the main tone (Hz) against time (s)', xLabel: 'time (s)', yLabel: 'Hz', series: [{ label: 'frequency', color: cssVar('--plot-growth', SERIES_COLORS[1]), x: times, y: track.map((f) => f.frequencyHz) }], marks });
     plots.append(amp.figure, freq.figure);

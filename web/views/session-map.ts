@@ -15,18 +15,38 @@ function controlText(x: number | null, unit: string): string {
   return formatQuantity(x, unit, null, { significant: 3, reason: 'not observed' });
 }
 
-export async function renderMap(host: HTMLElement, ctx: SessionsContext, ids: string[] | null): Promise<SessionView> {
+export async function renderMap(host: HTMLElement, ctx: SessionsContext, ids: string[] | null, unitWanted?: string): Promise<SessionView> {
   const db = await ctx.db();
   const all = await listSessions(db);
   const chosen: SessionRecord[] = ids ? all.filter((s) => ids.includes(s.id)) : all;
-  const map = buildStabilityMap(chosen.map((s) => ({ id: s.id, createdAtMs: s.createdAtMs, durationS: s.durationS, markers: s.markers, report: s.report })));
+  const map = buildStabilityMap(chosen.map((s) => ({ id: s.id, createdAtMs: s.createdAtMs, durationS: s.durationS, markers: s.markers, report: s.report })), unitWanted);
+  // Several control quantities (e.g. % and W): one map at a time, chosen here.
+  const unitPicker =
+    map.units.length > 1
+      ? h(
+          'div',
+          { className: 'field' },
+          h('label', { text: 'Control quantity', attrs: { for: 'map-unit' } }),
+          (() => {
+            const sel = h('select', { attrs: { id: 'map-unit' } }, ...map.units.map((u) => {
+              const o = h('option', { text: `${u.unit || '(no unit)'} — ${u.count} setting${u.count === 1 ? '' : 's'}` });
+              o.value = u.unit;
+              o.selected = u.unit === map.unit;
+              return o;
+            }));
+            sel.addEventListener('change', () => void renderMap(host, ctx, ids, sel.value));
+            return sel;
+          })(),
+        )
+      : null;
   const back = h('p', {}, h('a', { text: '← All sessions', attrs: { href: '#sessions' } }));
   const heading = h('h2', { text: 'Stability map' });
+  const headParts: Node[] = [back, heading];
+  if (unitPicker) headParts.push(unitPicker);
   const scope = h('p', { className: 'hint', text: ids ? `${chosen.length} selected session${chosen.length === 1 ? '' : 's'}.` : `All ${chosen.length} stored session${chosen.length === 1 ? '' : 's'}.` });
   if (map.steps.length === 0) {
     host.replaceChildren(
-      back,
-      heading,
+      ...headParts,
       scope,
       h('p', { className: 'alert', text: 'No settings with a control value yet. While recording, add a marker with a value (for example firing rate 60 % or heater power 250 W) each time the setting changes; each such span becomes a point here.' }),
     );
@@ -75,15 +95,16 @@ export async function renderMap(host: HTMLElement, ctx: SessionsContext, ids: st
     h('li', { text: `Net rate crosses zero at: ${controlText(map.zeroRateControl, unit)} (linear interpolation between neighbouring settings)` }),
   );
   const titles = new Map(chosen.map((s) => [s.id, s]));
+  const isSeveral = new Set(map.steps.map((s) => s.sessionId)).size > 1;
   const steps = table(
-    'segments',
+    'segments map-steps',
     'Settings in time order',
-    ['when', 'session', 'control', 'state', 'net rate (95 % CI)', 'limit amplitude'],
+    ['when', ...(isSeveral ? ['session'] : []), 'control', 'state', 'net rate (95 % CI)', 'limit amplitude'],
     map.steps.map((s) => {
       const rec = titles.get(s.sessionId);
       return [
-        rec ? `${formatLocalStamp(rec.createdAtMs)} +${formatClock((s.atMs - rec.createdAtMs) / 1000)}` : '',
-        rec ? sessionTitle(rec.meta.site, rec.meta.equipment) : s.sessionId,
+        rec ? `${formatLocalStamp(rec.createdAtMs).slice(5)} +${formatClock((s.atMs - rec.createdAtMs) / 1000)}` : '',
+        ...(isSeveral ? [rec ? sessionTitle(rec.meta.site, rec.meta.equipment) : s.sessionId] : []),
         controlText(s.control, s.unit),
         s.state,
         s.ratePerS === null ? '— (no fit)' : `${formatRate(s.ratePerS, s.rateCi95PerS)} (${s.rateSource})`,
@@ -92,8 +113,7 @@ export async function renderMap(host: HTMLElement, ctx: SessionsContext, ids: st
     }),
   );
   host.replaceChildren(
-    back,
-    heading,
+    ...headParts,
     scope,
     findings,
     h('figure', { className: 'plot' }, rateChart, h('figcaption', { text: 'Filled: humming; open: quiet. Arrows follow the settings in time; bars are 95 % intervals.' })),
