@@ -276,7 +276,7 @@ function varianceOf(m: number, bg: number, bgFloor: number): number {
 
 /**
  * For fixed nonlinear parameters: weighted linear fit of y ≈ L·g + N² with L > 0, N² ≥ 0 (or N²
- * fixed). Writes ln L and N² into params; returns the weighted RSS (Infinity if L ≤ 0).
+ * fixed). Writes ln L and N² into `out`; returns the weighted RSS (Infinity if L ≤ 0).
  */
 function solveLinear(
   d: Prepared,
