@@ -226,3 +226,36 @@ describe('bad input and the root finder', () => {
     expect(AIR.gamma).toBe(1.4);
   });
 });
+
+describe('quarter-wave orientation', () => {
+  const flue = (closedEnd: 'upstream' | 'downstream'): DuctModel => ({
+    ...ductModelFromGeometry({ lengthM: 2, diameterM: 0.1, ends: 'open-closed', openEnd: 'none', gasTemperatureC: 20 }),
+    closedEnd,
+  });
+  it('pressure is largest at the closed end and zero at the open end (common practice)', () => {
+    const f = predictModes(flue('upstream'), 1).modes[0].frequencyHz;
+    expect(Math.abs(f - speedOfSoundMPerS(20) / 8)).toBeLessThan(1e-9); // c / (4 L)
+    const up = modeShape(flue('upstream'), f, 21);
+    expect(Math.abs(up.pressure[0])).toBeCloseTo(1, 6);
+    expect(Math.abs(up.pressure[20])).toBeLessThan(1e-6);
+    expect(Math.abs(up.velocity[0])).toBeLessThan(1e-6);
+    const down = modeShape(flue('downstream'), f, 21);
+    expect(Math.abs(down.pressure[20])).toBeCloseTo(1, 6);
+    expect(Math.abs(down.pressure[0])).toBeLessThan(1e-6);
+  });
+  it('a two-zone quarter-wave duct matches its own transfer-matrix-free equation', () => {
+    // Closed at x = 0 (p = cos(k1 x) in zone 1), open at L: tan(k1 x1) tan(k2 (L − x1)) = ξ with ξ = ρ1c1/(ρ2c2) = sqrt(T2/T1)
+    // (plane-wave matching as in REFERENCES.md §3, derived here for these ends).
+    const model: DuctModel = { ...ductModelFromGeometry({ lengthM: 2, diameterM: 0.1, ends: 'open-closed', openEnd: 'none', gasTemperatureC: 20, heaterPositionM: 0.5, hotTemperatureC: 250 }), closedEnd: 'upstream' };
+    const c1 = speedOfSoundMPerS(20);
+    const c2 = speedOfSoundMPerS(250);
+    const xi = Math.sqrt((250 + 273.15) / (20 + 273.15));
+    for (const m of predictModes(model, 3).modes) {
+      const w = 2 * Math.PI * m.frequencyHz;
+      const a = (w * 0.5) / c1;
+      const b = (w * 1.5) / c2;
+      // Written without tangents to avoid poles: cos a cos b − (1/ξ)·sin a sin b = 0 ⇔ ξ cos a cos b = sin a sin b.
+      expect(Math.abs(xi * Math.cos(a) * Math.cos(b) - Math.sin(a) * Math.sin(b))).toBeLessThan(1e-8);
+    }
+  });
+});
