@@ -82,7 +82,7 @@ for (const s of SCREENS) {
 }
 window.addEventListener('hashchange', show);
 show();
-showFirstRunNotice(app);
+showFirstRunNotice(app, main);
 offerUpdates();
 
 /**

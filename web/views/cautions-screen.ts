@@ -73,21 +73,22 @@ export const mountCautionsScreen: MountScreen = (root) => {
 };
 
 /**
- * Shows the cautions once, at first start, as a modal dialog; acknowledging it is remembered in
+ * Shows the cautions at first start as a panel above the screens (not a modal: the app stays
+ * usable, and keyboard and screen-reader users meet it first). Acknowledging it is remembered in
  * the settings. Returns true when the notice was shown.
  */
-export function showFirstRunNotice(app: AppContext): boolean {
+export function showFirstRunNotice(app: AppContext, host: HTMLElement): boolean {
   const settings = loadSettings();
   if (settings.hasSeenCautions) return false;
-  const dialog = document.createElement('dialog');
-  dialog.className = 'first-run';
-  dialog.id = 'first-run';
-  dialog.setAttribute('aria-labelledby', 'first-run-title');
+  const panel = document.createElement('section');
+  panel.className = 'first-run';
+  panel.id = 'first-run';
+  panel.setAttribute('aria-labelledby', 'first-run-title');
   const h = document.createElement('h2');
   h.id = 'first-run-title';
   h.textContent = 'Before you listen';
-  dialog.append(h);
-  renderSections(dialog, 'h3');
+  panel.append(h);
+  renderSections(panel, 'h3');
   const row = document.createElement('div');
   row.className = 'controls';
   const ok = document.createElement('button');
@@ -99,13 +100,10 @@ export function showFirstRunNotice(app: AppContext): boolean {
     const s = loadSettings();
     s.hasSeenCautions = true;
     if (!saveSettings(s)) app.notify('Could not remember this notice (storage unavailable); it will show again.', 'warn');
-    dialog.close();
-    dialog.remove();
+    panel.remove();
   });
   row.append(ok);
-  dialog.append(row);
-  dialog.addEventListener('cancel', (ev) => ev.preventDefault());
-  document.body.append(dialog);
-  dialog.showModal();
+  panel.append(row);
+  host.prepend(panel);
   return true;
 }

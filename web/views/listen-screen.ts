@@ -12,7 +12,7 @@ import { createScope, type Scope } from '../lifecycle';
 import { CaptureError, keepScreenAwake, openMicrophone, PROCESSING_KEYS, type MicCapture } from '../capture/mic';
 import { decodeAudioFile, FileProblem } from '../capture/file-input';
 import { isFromWorker, transferablesOf, type FromWorker, type ToWorker, type UpdateMessage } from '../worker/protocol';
-import { emptyLiveSummary, type LiveSummary } from '../worker/live-summary';
+import { emptyLiveSummary, isSameTone, type LiveSummary } from '../worker/live-summary';
 import { appendFrames, createLiveBuffer, resetLiveBuffer, type LiveBuffer } from './live-buffer';
 import { createLivePlots, type LivePlots } from './live-plots';
 import { createReadouts, type Readouts } from './live-readouts';
@@ -56,6 +56,12 @@ function readGeometry(): DuctGeometry | undefined {
   }
 }
 
+/** True when a spectrum holds more than digital silence (any bin above −150 dBFS). */
+function hasSound(spectrumDbfs: Float32Array): boolean {
+  for (let i = 0; i < spectrumDbfs.length; i++) if ((spectrumDbfs[i] ?? -Infinity) > -150) return true;
+  return false;
+}
+
 function el<K extends keyof HTMLElementTagNameMap>(tag: K, props: Partial<HTMLElementTagNameMap[K]> = {}, ...children: (Node | string)[]): HTMLElementTagNameMap[K] {
   const e = document.createElement(tag);
   Object.assign(e, props);
@@ -78,6 +84,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
   let clipUntilMs = 0;
   let timeS = 0;
   let isAWeighted = loadSettings().isAWeighted;
+  let bandHighHz = loadSettings().bandHighHz;
 
   // --- layout -------------------------------------------------------------------------------
   const listenButton = el('button', { type: 'button', className: 'big-button primary', id: 'listen-button', textContent: 'Listen' });
@@ -195,12 +202,13 @@ export const mountListenScreen: MountScreen = (root, app) => {
 
   function onUpdate(m: UpdateMessage): void {
     appendFrames(buffer, m.frames);
-    for (const s of m.segments) buffer.segments.push(s);
+    // Plot the fits of the main tone only; weaker candidate tones have segments of their own.
+    for (const s of m.segments) if (isSameTone(s.frequencyHz, m.mainFrequencyHz)) buffer.segments.push(s);
     for (const mk of m.markers) {
       buffer.markers.push(mk);
       markers.addPlaced(mk);
     }
-    if (m.spectrumDbfs) {
+    if (m.spectrumDbfs && hasSound(m.spectrumDbfs)) {
       buffer.spectrumDbfs = m.spectrumDbfs;
       buffer.spectrumBinHz = m.spectrumBinHz;
     }
@@ -235,7 +243,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
   }
 
   function startDrawing(): void {
-    if (!plots) plots = createLivePlots(plotHost, buffer);
+    if (!plots) plots = createLivePlots(plotHost, buffer, () => bandHighHz);
     if (!rafId) rafId = requestAnimationFrame(frame);
   }
 
@@ -311,6 +319,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
     run = r;
     const settings = loadSettings();
     isAWeighted = settings.isAWeighted;
+    bandHighHz = settings.bandHighHz;
     let mic: MicCapture;
     try {
       mic = await openMicrophone(r.scope, r.id);
@@ -410,6 +419,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
     r.fileDurationS = decoded.durationS;
     r.decodedBy = decoded.decodedBy;
     const settings = loadSettings();
+    bandHighHz = settings.bandHighHz;
     setNotes([`${decoded.fileName}: ${decoded.decodedBy}, ${decoded.sampleRateHz} Hz, ${formatSeconds(decoded.durationS)}.`, ...decoded.notes]);
     progress.value = 0;
     progressText.textContent = '0 % analysed';

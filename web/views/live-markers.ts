@@ -4,7 +4,13 @@
  * markers placed in this run with their times.
  */
 import type { Marker } from '../../dsp/types';
-import { formatClock, formatQuantity } from '../format';
+import { formatClock, formatFixed } from '../format';
+
+/** Decimals as typed ("60" → 0, "12.5" → 1), so the label repeats what the user entered. */
+function decimalsOf(text: string): number {
+  const m = text.trim().replace(',', '.').match(/\.(\d+)$/);
+  return m ? Math.min(6, m[1]?.length ?? 0) : 0;
+}
 
 export type NewMarker = Omit<Marker, 'timeS'>;
 
@@ -81,7 +87,7 @@ export function createMarkerBar(host: HTMLElement, onMark: (m: NewMarker) => voi
     error.textContent = '';
     const unit = unitSelect.value;
     if (parsed.value === null) onMark({ kind: 'setting', label: 'setting changed' });
-    else onMark({ kind: 'setting', label: `setting ${formatQuantity(parsed.value, unit, null, { significant: 4 })}`, value: parsed.value, unit });
+    else onMark({ kind: 'setting', label: `setting ${formatFixed(parsed.value, decimalsOf(valueInput.value))} ${unit}`, value: parsed.value, unit });
   });
   setting.append(valueInput, unitSelect, settingButton, error);
 

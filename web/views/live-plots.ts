@@ -18,6 +18,8 @@ export interface LivePlots {
 
 /** Longest span of track shown, s (older rows stay in the session store, not on screen). */
 const WINDOW_S = 120;
+/** Levels below this are digital silence or its numerical floor, dBFS: left out of the plots. */
+const FLOOR_DBFS = -160;
 
 function cssColor(name: string, fallback: string): string {
   const v = getComputedStyle(document.documentElement).getPropertyValue(name).trim();
@@ -50,6 +52,7 @@ function drawTimeMarks(u: uPlot, buffer: LiveBuffer, markColor: string, gapColor
   ctx.strokeStyle = markColor;
   ctx.fillStyle = markColor;
   ctx.font = `${12 * devicePixelRatio}px system-ui, sans-serif`;
+  let row = 0;
   for (const m of buffer.markers) {
     if (m.timeS < xMin || m.timeS > xMax) continue;
     const x = u.valToPos(m.timeS, 'x', true);
@@ -57,13 +60,14 @@ function drawTimeMarks(u: uPlot, buffer: LiveBuffer, markColor: string, gapColor
     ctx.moveTo(x, top);
     ctx.lineTo(x, top + height);
     ctx.stroke();
-    ctx.fillText(m.label, x + 3 * devicePixelRatio, top + 12 * devicePixelRatio);
+    // Labels step down a line each, so neighbouring markers stay readable.
+    ctx.fillText(m.label, x + 3 * devicePixelRatio, top + (12 + 14 * (row++ % 4)) * devicePixelRatio);
   }
   ctx.restore();
 }
 
 /** Builds the three plots inside `host` (which receives three figure elements). */
-export function createLivePlots(host: HTMLElement, buffer: LiveBuffer): LivePlots {
+export function createLivePlots(host: HTMLElement, buffer: LiveBuffer, bandHighHz: () => number): LivePlots {
   const fg = cssColor('--fg', '#111');
   const tone = cssColor('--plot-tone', '#0050b3');
   const level = cssColor('--plot-level', '#8a8a8a');
@@ -161,8 +165,8 @@ export function createLivePlots(host: HTMLElement, buffer: LiveBuffer): LivePlot
       const a = buffer.amplitudeDbfs[i] ?? Number.NaN;
       const l = buffer.levelDbfs[i] ?? Number.NaN;
       const f = buffer.frequencyHz[i] ?? Number.NaN;
-      amp.push(Number.isFinite(a) ? a : null);
-      lev.push(Number.isFinite(l) ? l : null);
+      amp.push(Number.isFinite(a) && a > FLOOR_DBFS ? a : null);
+      lev.push(Number.isFinite(l) && l > FLOOR_DBFS ? l : null);
       freq.push(Number.isFinite(f) ? f : null);
     }
     const growthLine: (number | null)[] = new Array<number | null>(x.length).fill(null);
@@ -193,10 +197,11 @@ export function createLivePlots(host: HTMLElement, buffer: LiveBuffer): LivePlot
     const trackedHz = n ? buffer.frequencyHz[rowIndex(buffer, n - 1)] ?? Number.NaN : Number.NaN;
     let peakBin = -1;
     if (Number.isFinite(trackedHz)) peakBin = Math.round(trackedHz / buffer.spectrumBinHz);
-    for (let i = 1; i < spec.length; i++) {
+    const lastBin = Math.min(spec.length - 1, Math.ceil(bandHighHz() / buffer.spectrumBinHz));
+    for (let i = 1; i <= lastBin; i++) {
       x.push(i * buffer.spectrumBinHz);
       const v = spec[i] ?? Number.NaN;
-      y.push(Number.isFinite(v) ? Math.max(v, -140) : null);
+      y.push(Number.isFinite(v) && v > FLOOR_DBFS ? v : null);
       peak.push(i === peakBin && Number.isFinite(v) ? v : null);
     }
     specPlot.setData([x, y, peak]);

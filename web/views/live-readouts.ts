@@ -7,10 +7,13 @@ import type { Report, RegimeKind } from '../../dsp/types';
 import type { LiveSummary } from '../worker/live-summary';
 import type { Calibration } from '../settings';
 import { aWeightedToneDb, EU_EXPOSURE_VALUES, exposureCaution } from '../../dsp/levels';
-import { formatClock, formatDb, formatHz, formatQ, formatRate, formatRatio, formatSeconds, isShowable } from '../format';
+import { formatClock, formatDb, formatHz, formatQ, formatRate, formatRatio, formatSeconds, isShowable, MISSING } from '../format';
 
 /** Below this, phone microphones roll off (levels read low; rates are unaffected). Common practice. */
 export const LOW_FREQUENCY_NOTE_HZ = 100;
+
+/** Below this the input is digital silence (or its numerical floor), dBFS: 16-bit dither sits near −101 dBFS. */
+const SILENCE_DBFS = -140;
 
 /** Exposure action values for the cautions, dB(A): EU Directive 2003/10/EC Art. 3 (REFERENCES.md §13). */
 export const LOWER_ACTION_DBA = EU_EXPOSURE_VALUES.lowerAction.lex8hDba;
@@ -79,16 +82,22 @@ export function createReadouts(host: HTMLElement): Readouts {
   const setText = (node: HTMLElement, text: string): void => {
     if (node.textContent !== text) node.textContent = text;
   };
+  /** Shows a formatted value; a missing one ("— (reason)") shows the dash big and the reason small. */
+  const setValue = (tile: Tile, text: string, detail = ''): void => {
+    const missing = text.startsWith(`${MISSING} (`) ? text.slice(MISSING.length + 2, -1) : null;
+    setText(tile.value, missing === null ? text : MISSING);
+    setText(tile.detail, missing === null ? detail : missing);
+    tile.root.classList.toggle('is-missing', missing !== null);
+  };
 
   return {
     update({ summary, levelDbfs, toneDbfs, calibration, isAWeighted, isFinal }) {
       const f = isFinal && summary.frequencyHz !== null ? summary.frequencyHz : summary.latestFrequencyHz;
-      setText(freq.value, formatHz(f, null, isFinal ? 'no tone found' : 'no tone'));
-      setText(freq.detail, isShowable(f) && f < LOW_FREQUENCY_NOTE_HZ ? `Below ${LOW_FREQUENCY_NOTE_HZ} Hz phone microphones roll off: levels read low, rates are unaffected.` : '');
+      setValue(freq, formatHz(f, null, isFinal ? 'no tone found' : 'no tone'), isShowable(f) && f < LOW_FREQUENCY_NOTE_HZ ? `Below ${LOW_FREQUENCY_NOTE_HZ} Hz phone microphones roll off: levels read low, rates are unaffected.` : '');
       freq.root.classList.toggle('has-note', isShowable(f) && f < LOW_FREQUENCY_NOTE_HZ);
 
       const toneHz = summary.latestFrequencyHz;
-      if (calibration && isShowable(levelDbfs)) {
+      if (calibration && isShowable(levelDbfs) && levelDbfs > SILENCE_DBFS) {
         const spl = levelDbfs + calibration.offsetDb;
         const toneSpl = isShowable(toneDbfs) ? toneDbfs + calibration.offsetDb : Number.NaN;
         const toneDba = isShowable(toneSpl) && isShowable(toneHz) && toneHz > 0 ? aWeightedToneDb(toneSpl, toneHz) : Number.NaN;
@@ -114,10 +123,10 @@ export function createReadouts(host: HTMLElement): Readouts {
             : ` — above the ${LOWER_ACTION_DBA} dB(A) lower action value if it lasted a working day.`;
         }
         setText(level.detail, note);
+        level.root.classList.remove('is-missing');
         level.root.classList.toggle('is-loud', isShowable(loudness) && loudness >= LOWER_ACTION_DBA);
       } else {
-        setText(level.value, formatDb(levelDbfs, 'dBFS'));
-        setText(level.detail, isShowable(toneDbfs) ? `tone ${formatDb(toneDbfs, 'dBFS')} · uncalibrated` : 'uncalibrated');
+        setValue(level, formatDb(levelDbfs > SILENCE_DBFS ? levelDbfs : Number.NaN, 'dBFS', null, 'silence'), isShowable(toneDbfs) ? `tone ${formatDb(toneDbfs, 'dBFS')} · uncalibrated` : 'uncalibrated');
         level.root.classList.remove('is-loud');
       }
 
@@ -125,13 +134,11 @@ export function createReadouts(host: HTMLElement): Readouts {
       regime.root.dataset.regime = summary.regime;
       setText(regime.detail, isFinal ? 'at the end of the record' : '');
 
-      setText(growth.value, formatRate(summary.growthRatePerS, summary.growthRateCi95PerS, 'no growth seen yet'));
-      setText(growth.detail, isShowable(summary.doublingTimeS) ? `doubling time ${formatSeconds(summary.doublingTimeS)}` : '');
-      setText(decay.value, formatRate(summary.decayRatePerS, summary.decayRateCi95PerS, 'no decay seen yet'));
-      setText(decay.detail, isShowable(summary.t60S) ? `T60 ${formatSeconds(summary.t60S)}` : '');
-      setText(gain.value, formatRate(summary.effectiveGainPerS, summary.effectiveGainCi95PerS, 'needs growth and decay'));
-      setText(zeta.value, formatRatio(summary.dampingRatio, summary.dampingRatioCi95, 'needs a decay'));
-      setText(q.value, formatQ(summary.qFactor, summary.qFactorCi95, 'needs a decay'));
+      setValue(growth, formatRate(summary.growthRatePerS, summary.growthRateCi95PerS, 'no growth seen yet'), isShowable(summary.doublingTimeS) ? `doubling time ${formatSeconds(summary.doublingTimeS)}` : '');
+      setValue(decay, formatRate(summary.decayRatePerS, summary.decayRateCi95PerS, 'no decay seen yet'), isShowable(summary.t60S) ? `T60 ${formatSeconds(summary.t60S)}` : '');
+      setValue(gain, formatRate(summary.effectiveGainPerS, summary.effectiveGainCi95PerS, 'needs growth and decay'));
+      setValue(zeta, formatRatio(summary.dampingRatio, summary.dampingRatioCi95, 'needs a decay'));
+      setValue(q, formatQ(summary.qFactor, summary.qFactorCi95, 'needs a decay'));
     },
 
     renderReport(report, title) {

@@ -37,6 +37,8 @@ interface Run {
   summary: LiveSummary;
   /** Time spent inside dsp/ push(), ms (for the figures shown after a file). */
   analysisMs: number;
+  /** Last frequency of the main tone the track followed, Hz (NaN before any). */
+  mainFrequencyHz: number;
 }
 
 let run: Run | null = null;
@@ -71,6 +73,7 @@ function createRun(id: number, config: AnalysisConfig, isKeepingAudio: boolean, 
     lastPostMs: 0,
     summary: emptyLiveSummary(),
     analysisMs: 0,
+    mainFrequencyHz: Number.NaN,
   };
 }
 
@@ -80,7 +83,10 @@ function pushBlock(r: Run, samples: Float32Array): void {
   const u = r.analysis.push(samples);
   r.analysisMs += performance.now() - t0;
   r.samplesSeen += samples.length;
-  for (const f of u.frames) r.pendingFrames.push({ ...f });
+  for (const f of u.frames) {
+    r.pendingFrames.push({ ...f });
+    if (Number.isFinite(f.frequencyHz)) r.mainFrequencyHz = f.frequencyHz;
+  }
   for (const o of u.onsets) r.pendingOnsets.push({ ...o });
   for (const s of u.segments) r.pendingSegments.push({ ...s, rateCi95PerS: s.rateCi95PerS ? [s.rateCi95PerS[0], s.rateCi95PerS[1]] : null });
   if (u.spectrumDbfs) {
@@ -118,7 +124,7 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
   if (!isForced && now - r.lastPostMs < UPDATE_INTERVAL_MS) return;
   r.lastPostMs = now;
   const last = r.pendingFrames.length ? r.pendingFrames[r.pendingFrames.length - 1] : null;
-  updateLiveSummary(r.summary, r.pendingSegments, last ? { frequencyHz: last.frequencyHz, regime: last.state } : null);
+  updateLiveSummary(r.summary, r.pendingSegments, last ? { frequencyHz: last.frequencyHz, regime: last.state } : null, r.mainFrequencyHz);
   const message: UpdateMessage = {
     type: 'update',
     id: r.id,
@@ -133,6 +139,7 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
     isClipped: r.isClipped,
     markers: r.pendingMarkers,
     summary: { ...r.summary },
+    mainFrequencyHz: r.mainFrequencyHz,
   };
   r.pendingFrames = [];
   r.pendingOnsets = [];

@@ -30,8 +30,26 @@ function copyInterval(ci: Interval | null): Interval {
   return ci && Number.isFinite(ci[0]) && Number.isFinite(ci[1]) ? [ci[0], ci[1]] : [Number.NaN, Number.NaN];
 }
 
+/** Relative and absolute frequency tolerance for a segment to count as the main tone's. */
+const SAME_TONE_FRACTION = 0.015;
+const SAME_TONE_HZ = 1.5;
+
+/**
+ * True when a segment at `segmentHz` belongs to the main tone at `mainHz` (within 1.5 % or
+ * 1.5 Hz, whichever is wider: a tone drifts a little as the gas warms). With no main tone known
+ * yet, every segment counts.
+ */
+export function isSameTone(segmentHz: number, mainHz: number): boolean {
+  if (!Number.isFinite(mainHz) || mainHz <= 0) return true;
+  if (!Number.isFinite(segmentHz)) return false;
+  return Math.abs(segmentHz - mainHz) <= Math.max(SAME_TONE_HZ, SAME_TONE_FRACTION * mainHz);
+}
+
 /**
  * Updates `summary` with newly closed segments (in time order) and the newest frame.
+ * Only segments of the main tone (the one the track follows, last seen at `mainFrequencyHz`)
+ * count: the analysis also closes segments of weaker candidate tones. A growth needs a positive
+ * rate and a decay a negative one; anything else is not shown as such.
  * In the report contract a decay segment's rate is negative; the summary shows decay as a
  * positive decay rate, and its interval is flipped accordingly. The frequency of the derived
  * figures is that of the decay segment (ζ and Q belong to the free decay), else of the growth.
@@ -40,6 +58,7 @@ export function updateLiveSummary(
   summary: LiveSummary,
   newSegments: readonly Segment[],
   latest: { frequencyHz: number; regime: RegimeKind } | null,
+  mainFrequencyHz = Number.NaN,
 ): LiveSummary {
   if (latest) {
     summary.latestFrequencyHz = latest.frequencyHz;
@@ -49,10 +68,11 @@ export function updateLiveSummary(
   let decay: { decayRatePerS: number; ci95PerS: Interval; freqHz: number; span: [number, number] } | null = null;
   let limit: number | null = null;
   for (const seg of newSegments) {
+    if (!isSameTone(seg.frequencyHz, mainFrequencyHz)) continue;
     if (seg.ratePerS !== null && Number.isFinite(seg.ratePerS)) {
-      if (seg.kind === 'growth') {
+      if (seg.kind === 'growth' && seg.ratePerS > 0) {
         growth = { ratePerS: seg.ratePerS, ci95PerS: copyInterval(seg.rateCi95PerS), freqHz: seg.frequencyHz, span: [seg.startS, seg.endS] };
-      } else if (seg.kind === 'decay') {
+      } else if (seg.kind === 'decay' && seg.ratePerS < 0) {
         const ci = copyInterval(seg.rateCi95PerS);
         decay = { decayRatePerS: -seg.ratePerS, ci95PerS: [-ci[1], -ci[0]], freqHz: seg.frequencyHz, span: [seg.startS, seg.endS] };
       }

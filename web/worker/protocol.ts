@@ -86,6 +86,8 @@ export interface UpdateMessage {
   /** Markers placed since the previous update, with their times. */
   markers: Marker[];
   summary: LiveSummary;
+  /** Last frequency of the main tone the track followed, Hz (NaN before any); segments of other tones are not the main story. */
+  mainFrequencyHz: number;
 }
 
 /** Worker → app: samples for the session store (mono, run sample rate). */

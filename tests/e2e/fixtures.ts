@@ -1,0 +1,70 @@
+import { mkdirSync, writeFileSync } from 'node:fs';
+import { join, resolve } from 'node:path';
+import { humCycleEnvelope, synthesize } from '../../dsp/synth';
+import { encodeWav } from '../../dsp/io/wav-write';
+
+/** Folder of the generated fake-microphone recordings. */
+export const FIXTURE_DIR = resolve('e2e-out/fixtures');
+
+/**
+ * Truth of the hum-cycle recording: a 171.3 Hz tone that starts from the background, grows
+ * (Stuart–Landau, linear rate 7 1/s) into a limit cycle, and dies away at 4.5 1/s once the
+ * driving stops, in white noise 60 dB below the limit amplitude.
+ */
+export const HUM_CYCLE = {
+  sampleRateHz: 48_000,
+  frequencyHz: 171.3,
+  /** Late enough that the capture has settled: the fake device starts the file when capture opens, and the first second may stutter on a loaded machine. */
+  onsetS: 2.5,
+  startAmplitude: 0.004,
+  growthPerS: 7,
+  limitAmplitude: 0.4,
+  offS: 5.5,
+  decayPerS: 4.5,
+  noiseRms: 0.0004,
+  /** Noise-only tail after the decay, then exact zeros (RECIPE.md §4: the fake device repeats its last 10 ms after the end). */
+  durationS: 8.5,
+  zerosS: 0.4,
+} as const;
+
+/** Writes the hum-cycle WAV (mono, 16-bit, 48 kHz) and returns its absolute path. */
+export function writeHumCycleWav(name = 'hum-cycle.wav'): string {
+  const t = HUM_CYCLE;
+  const signal = synthesize({
+    sampleRateHz: t.sampleRateHz,
+    durationS: t.durationS,
+    tones: [
+      {
+        frequencyHz: t.frequencyHz,
+        envelope: humCycleEnvelope({
+          onsetS: t.onsetS,
+          startAmplitude: t.startAmplitude,
+          growthPerS: t.growthPerS,
+          limitAmplitude: t.limitAmplitude,
+          offS: t.offS,
+          decayPerS: t.decayPerS,
+        }),
+      },
+    ],
+    noiseRms: t.noiseRms,
+    seed: 31,
+  });
+  const zeros = Math.round(t.zerosS * t.sampleRateHz);
+  const withTail = new Float32Array(signal.length + zeros);
+  withTail.set(signal);
+  return writeFixture(name, encodeWav(withTail, t.sampleRateHz, 'pcm16'));
+}
+
+/** Writes bytes under e2e-out/fixtures/ and returns the absolute path. */
+export function writeFixture(name: string, bytes: Uint8Array): string {
+  mkdirSync(FIXTURE_DIR, { recursive: true });
+  const path = join(FIXTURE_DIR, name);
+  writeFileSync(path, bytes);
+  return path;
+}
+
+/** First number in a readout such as "171.3 Hz" or "7.02 1/s (95 % CI 6.80–7.25)" (typographic minus understood). */
+export function firstNumber(text: string | null): number {
+  const m = (text ?? '').replace(/\u2212/g, '-').match(/-?\d+(\.\d+)?/);
+  return m ? Number(m[0]) : Number.NaN;
+}

@@ -1,0 +1,135 @@
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { APP_URL, launch, screenshot, type Launched } from './browser';
+import { firstNumber, HUM_CYCLE, writeHumCycleWav } from './fixtures';
+
+// The Listen screen with a generated hum cycle as the microphone (Chromium's fake capture device,
+// RECIPE.md §4: the context runs at 44.1 kHz, the 48 kHz file is resampled, and the file ends in
+// exact zeros). Truth: HUM_CYCLE in fixtures.ts, made by dsp/synth.ts.
+//
+// Tolerances. Frequency within 0.5 % and rates within 10 % are the field app's acceptance figures
+// (issue "Field app"). They are wide against the method: at 60 dB SNR over 3 s of steady tone the
+// Cramér–Rao bound on frequency is far below 0.01 Hz (REFERENCES.md §8), and the rate intervals
+// the fits report are a few percent wide. The 10 % leaves room for the resampling to 44.1 kHz and
+// for the start of the fake device being a few tens of ms off.
+describe('live listening with a hum cycle as the microphone', () => {
+  let b: Launched;
+  beforeAll(async () => {
+    b = await launch({ fakeMicWav: writeHumCycleWav() });
+  });
+  afterAll(async () => {
+    await b?.close();
+  });
+
+  it('shows the first-run cautions once', async () => {
+    const { page } = b;
+    await page.goto(APP_URL);
+    await page.waitForSelector('#first-run');
+    await screenshot(page, 'first-run');
+    expect(await page.locator('#first-run').textContent()).toContain('carbon monoxide');
+    await page.click('#first-run-ok');
+    await page.reload();
+    await page.waitForSelector('#listen-button');
+    expect(await page.locator('#first-run').count()).toBe(0);
+  });
+
+  it('shows the tone, growth and decay of the truth, with intervals, and a marker in the track', async () => {
+    const { page } = b;
+    await screenshot(page, 'listen-idle');
+    await page.click('#listen-button');
+    await expect.poll(() => page.locator('#listen-button').textContent(), { timeout: 15_000 }).toBe('Stop');
+
+    // Live: the tone appears and the growth rate is shown while listening (before Stop).
+    const freqValue = page.locator('#readout-frequency .tile-value');
+    await expect.poll(async () => firstNumber(await freqValue.textContent()), { timeout: 15_000, interval: 200 }).toBeGreaterThan(0);
+    const growthValue = page.locator('#readout-growth .tile-value');
+    // While listening the rate comes from the growth segment as soon as it closes; its interval is
+    // wide (a short stretch of envelope), so only its presence and form are checked here; the 10 %
+    // check applies to the figures of the whole record shown once stopped.
+    await expect.poll(async () => growthValue.textContent(), { timeout: 15_000, interval: 200 }).toMatch(/^\d+\.\d+ 1\/s \(95 % CI [\d.]+–[\d.]+\)$/);
+    await screenshot(page, 'listen-live');
+
+    // A "setting changed" marker with a control value while the tone is steady.
+    await page.fill('#mark-value', '60');
+    await page.selectOption('#mark-unit', '%');
+    await page.click('#mark-setting');
+    await expect.poll(() => page.locator('#marker-list li').count()).toBe(1);
+    expect(await page.locator('#marker-list li').first().textContent()).toContain('setting 60 %');
+
+    // "Driving off" when the truth switches the driving off, as an operator would tap it.
+    await expect.poll(async () => firstClock(await page.locator('#run-clock').textContent()), { timeout: 15_000, interval: 50 }).toBeGreaterThan(HUM_CYCLE.offS);
+    const clockBefore = firstClock(await page.locator('#run-clock').textContent());
+    await page.click('#mark-driving-off');
+    await expect.poll(() => page.locator('#marker-list li').count()).toBe(2);
+    const li = page.locator('#marker-list li').nth(1);
+    expect(await li.getAttribute('data-kind')).toBe('driving-off');
+    const markerS = Number(await li.getAttribute('data-time-s'));
+    // The marker time is the analysed sample count when the worker got the tap: within 0.5 s of the clock shown before it.
+    expect(Math.abs(markerS - clockBefore)).toBeLessThan(0.5);
+    await expect.poll(() => page.locator('#plot-amplitude').getAttribute('data-marker-count')).toBe('2');
+
+    // Let the file play out (it ends in exact zeros), then stop.
+    await expect.poll(async () => firstClock(await page.locator('#run-clock').textContent()), { timeout: 20_000, interval: 250 }).toBeGreaterThan(HUM_CYCLE.durationS + 0.3);
+    await page.click('#listen-button');
+    await expect.poll(() => page.locator('#run-result').isVisible(), { timeout: 30_000 }).toBe(true);
+
+    const freq = firstNumber(await freqValue.textContent());
+    expect(Math.abs(freq - HUM_CYCLE.frequencyHz) / HUM_CYCLE.frequencyHz).toBeLessThan(0.005);
+    const growthText = (await growthValue.textContent()) ?? '';
+    const decayText = (await page.locator('#readout-decay .tile-value').textContent()) ?? '';
+    expect(growthText).toMatch(/1\/s \(95 % CI [\d.]+–[\d.]+\)/);
+    expect(decayText).toMatch(/1\/s \(95 % CI [\d.]+–[\d.]+\)/);
+    expect(Math.abs(firstNumber(growthText) - HUM_CYCLE.growthPerS) / HUM_CYCLE.growthPerS).toBeLessThan(0.1);
+    expect(Math.abs(firstNumber(decayText) - HUM_CYCLE.decayPerS) / HUM_CYCLE.decayPerS).toBeLessThan(0.1);
+
+    // Derived figures follow from the shown decay rate and frequency (REFERENCES.md §5: ζ = α/ωn, Q = 1/(2ζ)).
+    const alpha = firstNumber(decayText);
+    const zeta = firstNumber(await page.locator('#readout-damping .tile-value').textContent());
+    const omegaD = 2 * Math.PI * freq;
+    const zetaExpected = alpha / Math.sqrt(omegaD * omegaD + alpha * alpha);
+    // Readouts are rounded to 3 significant digits, so agreement is to about 0.5 %.
+    expect(Math.abs(zeta - zetaExpected) / zetaExpected).toBeLessThan(0.01);
+    const q = firstNumber(await page.locator('#readout-q .tile-value').textContent());
+    expect(Math.abs(q - 1 / (2 * zetaExpected)) / (1 / (2 * zetaExpected))).toBeLessThan(0.01);
+    const gain = firstNumber(await page.locator('#readout-gain .tile-value').textContent());
+    expect(Math.abs(gain - (firstNumber(growthText) + alpha))).toBeLessThan(0.05);
+
+    // Capture settings: the fake device honours the three switches, so no warning about them.
+    expect(await page.locator('#listen-notes').textContent()).not.toMatch(/switched ON/);
+    const screenText = (await page.locator('.screen-listen').textContent()) ?? '';
+    expect(screenText).not.toMatch(/NaN|undefined|Infinity/);
+    expect(await page.locator('#plot-amplitude').getAttribute('data-fit-count')).not.toBe('0');
+    await screenshot(page, 'listen-result');
+  });
+
+  it('saves the run as a session with its markers', async () => {
+    const { page } = b;
+    const link = page.locator('#run-result a.big-link');
+    await expect.poll(() => link.count(), { timeout: 15_000 }).toBe(1);
+    const count = await page.evaluate(
+      () =>
+        new Promise<number>((resolve) => {
+          const req = indexedDB.databases ? indexedDB.databases() : Promise.resolve([]);
+          void req.then((dbs) => resolve(dbs.length));
+        }),
+    );
+    expect(count).toBeGreaterThan(0);
+  });
+
+  it('shows the other screens (screenshots for review)', async () => {
+    const { page } = b;
+    for (const name of ['settings', 'cautions']) {
+      await page.goto(`${APP_URL}#${name}`);
+      await page.waitForSelector(`.screen-${name}:not([hidden])`);
+      const text = (await page.locator(`.screen-${name}`).textContent()) ?? '';
+      expect(text.length).toBeGreaterThan(100);
+      expect(text).not.toMatch(/NaN|undefined/);
+      await screenshot(page, `screen-${name}`);
+    }
+  });
+});
+
+/** "1:15.3" → 75.3 s. */
+function firstClock(text: string | null): number {
+  const m = (text ?? '').match(/(\d+):(\d+(\.\d+)?)/);
+  return m ? Number(m[1]) * 60 + Number(m[2]) : Number.NaN;
+}
