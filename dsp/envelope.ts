@@ -1,7 +1,8 @@
 /**
  * Stage 4, amplitude envelope by complex demodulation: the conditioned signal is multiplied by
- * 2·e^{−iφ(n)} (φ advancing at the tracked frequency), averaged over M samples (a boxcar that
- * also decimates to the envelope rate, its nulls on the aliases) and low-passed by a
+ * 2·e^{−iφ(n)} (φ advancing at the tracked frequency), averaged with triangular weights over 2M
+ * samples while decimating by M (two boxcars in cascade: response sinc², nulls on every alias of
+ * the envelope rate, so the image at 2f cannot fold into the band) and low-passed by a
  * Blackman-window FIR (Blackman & Tukey 1958; Harris 1978, "On the use of windows for harmonic
  * analysis with the DFT", Proc. IEEE 66(1): sidelobes −58 dB, noise bandwidth 1.73 bins). For a
  * cosine of amplitude a at the tracked frequency the output z has |z| = a, so |z|² is the tone
@@ -58,8 +59,13 @@ export interface EnvelopeState {
   rotRe: number;
   rotIm: number;
   freqHz: number;
+  /** Descending-weight sums of the current block and ascending-weight sums carried to the next output. */
   accRe: number;
   accIm: number;
+  ascRe: number;
+  ascIm: number;
+  prevAscRe: number;
+  prevAscIm: number;
   /** Samples accumulated into the current boxcar. */
   phase: number;
   /** Envelope samples produced since the last reset. */
@@ -105,8 +111,9 @@ export function createEnvelopeState(cfg: EnvelopeConfig): EnvelopeState {
     bandwidthHz: (outRate * sum2) / 2,
     kernelLength: len,
     kernelS: len / outRate,
-    delayS: (len - 1) / 2 / outRate + (m - 1) / 2 / cfg.sampleRateHz,
-    settleSamples: len + 1,
+    // Triangle centred M samples before its last input; FIR centred (L − 1)/2 outputs back.
+    delayS: (len - 1) / 2 / outRate + m / cfg.sampleRateHz,
+    settleSamples: len + 2,
     kernel,
     histRe: new Float64Array(2 * len),
     histIm: new Float64Array(2 * len),
@@ -118,6 +125,10 @@ export function createEnvelopeState(cfg: EnvelopeConfig): EnvelopeState {
     freqHz: 0,
     accRe: 0,
     accIm: 0,
+    ascRe: 0,
+    ascIm: 0,
+    prevAscRe: 0,
+    prevAscIm: 0,
     phase: 0,
     produced: 0,
   };
@@ -141,6 +152,10 @@ export function resetEnvelope(st: EnvelopeState, phase: number): void {
   st.pos = 0;
   st.accRe = 0;
   st.accIm = 0;
+  st.ascRe = 0;
+  st.ascIm = 0;
+  st.prevAscRe = 0;
+  st.prevAscIm = 0;
   st.oscRe = 1;
   st.oscIm = 0;
   st.phase = phase;
@@ -166,13 +181,23 @@ export function stepEnvelope(st: EnvelopeState, x: Float32Array, start: number, 
   const ri = st.rotIm;
   let ar = st.accRe;
   let ai = st.accIm;
+  let br = st.ascRe;
+  let bi = st.ascIm;
   let ph = st.phase;
   let k = outAt;
-  const inv = 2 / m;
+  // Triangle weights sum to M²; the factor 2 restores the amplitude of a cosine.
+  const inv = 2 / (m * m);
   for (let i = start; i < end; i++) {
     const v = x[i];
-    ar += v * or;
-    ai += v * oi;
+    const vr = v * or;
+    const vi = v * oi;
+    // Sample q of the block: weight M − 1 − q in the output closing after this block, q + 1 in the next.
+    const wd = m - 1 - ph;
+    const wa = ph + 1;
+    ar += vr * wd;
+    ai += vi * wd;
+    br += vr * wa;
+    bi += vi * wa;
     const t = or * rr - oi * ri;
     oi = or * ri + oi * rr;
     or = t;
@@ -182,14 +207,20 @@ export function stepEnvelope(st: EnvelopeState, x: Float32Array, start: number, 
     const g = 1.5 - 0.5 * (or * or + oi * oi);
     or *= g;
     oi *= g;
-    const p = st.pos;
-    hr[p] = ar * inv;
-    hr[p + len] = ar * inv;
-    hi[p] = ai * inv;
-    hi[p + len] = ai * inv;
-    st.pos = p + 1 === len ? 0 : p + 1;
+    const zr = (st.prevAscRe + ar) * inv;
+    const zi = (st.prevAscIm + ai) * inv;
+    st.prevAscRe = br;
+    st.prevAscIm = bi;
     ar = 0;
     ai = 0;
+    br = 0;
+    bi = 0;
+    const p = st.pos;
+    hr[p] = zr;
+    hr[p + len] = zr;
+    hi[p] = zi;
+    hi[p + len] = zi;
+    st.pos = p + 1 === len ? 0 : p + 1;
     // history[pos + 1 .. pos + len] holds the last len boxcar outputs, oldest first.
     const base = p + 1;
     let re = 0;
@@ -212,6 +243,8 @@ export function stepEnvelope(st: EnvelopeState, x: Float32Array, start: number, 
   st.oscIm = oi;
   st.accRe = ar;
   st.accIm = ai;
+  st.ascRe = br;
+  st.ascIm = bi;
   st.phase = ph;
   st.produced += k - outAt;
   return k - outAt;
