@@ -215,10 +215,12 @@ export function scatterChart(spec: ScatterSpec): SVGSVGElement {
   }
   root.append(svg('text', { x: (m.l + w - m.r) / 2, y: hgt - 6, 'text-anchor': 'middle', fill: fg }, spec.xLabel));
   root.append(svg('text', { x: 14, y: (m.t + hgt - m.b) / 2, transform: `rotate(-90 14 ${(m.t + hgt - m.b) / 2})`, 'text-anchor': 'middle', fill: fg }, spec.yLabel));
-  for (const v of spec.vlines) {
+  spec.vlines.forEach((v, k) => {
     root.append(svg('line', { x1: px(v.x), x2: px(v.x), y1: m.t, y2: hgt - m.b, stroke: v.color, 'stroke-width': 2, 'stroke-dasharray': '6 4' }));
-    root.append(svg('text', { x: px(v.x) + 4, y: m.t + 14, fill: v.color, 'font-weight': 700 }, v.label));
-  }
+    // Labels stagger downwards so close thresholds stay readable; near the right edge they sit left of the line.
+    const isRight = px(v.x) > w - m.r - 70;
+    root.append(svg('text', { x: px(v.x) + (isRight ? -4 : 4), y: m.t + 14 + 15 * k, fill: v.color, 'font-weight': 700, 'text-anchor': isRight ? 'end' : 'start' }, v.label));
+  });
   if (spec.showPath) {
     for (let i = 1; i < spec.points.length; i++) {
       const a = spec.points[i - 1];

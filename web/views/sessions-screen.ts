@@ -147,7 +147,7 @@ async function renderList(host: HTMLElement, ctx: SessionsContext): Promise<Sess
   const compareBtn = h('button', { className: 'small-button', text: 'Compare selected', attrs: { type: 'button', id: 'compare-selected' } });
   const mapBtn = h('button', { className: 'small-button', text: 'Stability map', attrs: { type: 'button', id: 'stability-map' } });
   const exportBtn = h('button', { className: 'small-button', text: 'Export selected', attrs: { type: 'button', id: 'export-selected' } });
-  const importInput = h('input', { attrs: { type: 'file', accept: '.zip,application/zip', id: 'import-file' }, className: 'visually-hidden' });
+  const importInput = h('input', { attrs: { type: 'file', accept: '.zip,application/zip,.wav,audio/wav,audio/x-wav', id: 'import-file' }, className: 'visually-hidden' });
   const importLabel = h('label', { className: 'small-button file-button', attrs: { for: 'import-file' } }, 'Import bundle…');
   const importMsg = h('p', { className: 'hint', attrs: { 'aria-live': 'polite' } });
 
@@ -251,6 +251,13 @@ async function renderList(host: HTMLElement, ctx: SessionsContext): Promise<Sess
     const file = importInput.files?.[0];
     importInput.value = '';
     if (!file) return;
+    if (/\.wav$/i.test(file.name) || file.type.startsWith('audio/')) {
+      importMsg.replaceChildren(
+        `${file.name} is a recording: recordings are analysed on the Listen screen (Open recording), and the result is stored here as a session. `,
+        h('a', { text: 'Go to Listen', attrs: { href: '#listen' } }),
+      );
+      return;
+    }
     importMsg.textContent = `Reading ${file.name}…`;
     try {
       const result = await importBundle(db, new Uint8Array(await file.arrayBuffer()));
