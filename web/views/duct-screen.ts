@@ -340,11 +340,11 @@ export const mountDuctScreen: MountScreen = (root, app) => {
     const mode = prediction.modes.find((m) => m.n === n) ?? prediction.modes[0];
     const shape = modeShape(model, mode.frequencyHz, 121);
     const W = 640;
-    const H = 230;
-    const x0 = 40;
-    const x1 = W - 40;
-    const yMid = 110;
-    const amp = 60;
+    const H = 300;
+    const x0 = 24;
+    const x1 = W - 24;
+    const yMid = 140;
+    const amp = 80;
     const sx = (xM: number): number => x0 + ((x1 - x0) * xM) / g.lengthM;
     const root2 = svg('svg', { viewBox: `0 0 ${W} ${H}`, role: 'img', class: 'duct-svg' });
     const title = svg('title', {});
@@ -369,19 +369,19 @@ export const mountDuctScreen: MountScreen = (root, app) => {
     if (g.heaterPositionM !== undefined) {
       const hx = sx(g.heaterPositionM);
       root2.append(svg('line', { x1: hx, y1: yMid - amp - 12, x2: hx, y2: yMid + amp + 12, class: 'duct-heater' }));
-      const lab = svg('text', { x: hx, y: yMid + amp + 30, 'text-anchor': 'middle', class: 'duct-label' });
+      const lab = svg('text', { x: Math.min(Math.max(hx, x0 + 90), x1 - 90), y: yMid + amp + 40, 'text-anchor': 'middle', class: 'duct-label' });
       lab.textContent = `heater ${formatQuantity(g.heaterPositionM, 'm', null, { decimals: 2 })}`;
       root2.append(lab);
     }
     const lower = svg('text', { x: x0, y: H - 6, 'text-anchor': 'start', class: 'duct-label' });
-    lower.textContent = 'lower end 0 m';
+    lower.textContent = 'lower end';
     const upper = svg('text', { x: x1, y: H - 6, 'text-anchor': 'end', class: 'duct-label' });
-    upper.textContent = `upper end ${formatQuantity(g.lengthM, 'm', null, { decimals: 2 })}`;
-    const legendP = svg('text', { x: x0, y: 16, class: 'duct-label duct-label-p' });
+    upper.textContent = `upper end, ${formatQuantity(g.lengthM, 'm', null, { decimals: 2 })}`;
+    const legendP = svg('text', { x: x0, y: 26, class: 'duct-label duct-label-p' });
     legendP.textContent = '— pressure';
-    const legendU = svg('text', { x: x0 + 110, y: 16, class: 'duct-label duct-label-u' });
+    const legendU = svg('text', { x: x0 + 140, y: 26, class: 'duct-label duct-label-u' });
     legendU.textContent = '- - velocity';
-    const legendM = svg('text', { x: x1, y: 16, 'text-anchor': 'end', class: 'duct-label' });
+    const legendM = svg('text', { x: x1, y: 26, 'text-anchor': 'end', class: 'duct-label' });
     legendM.textContent = `mode ${mode.n}, ${formatHz(mode.frequencyHz)}`;
     root2.append(lower, upper, legendP, legendU, legendM);
     sketchHost.replaceChildren(root2, el('figcaption', { className: 'hint', textContent: 'Relative amplitudes along the duct; pressure and velocity are a quarter cycle apart in time.' }));
