@@ -329,7 +329,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
       setState('idle');
       const message = err instanceof CaptureError ? err.message : `The microphone could not be started: ${err instanceof Error ? err.message : String(err)}`;
       showAlert(message);
-      app.notify(message, 'error');
+      app.notify('The microphone could not be started: see the message below.', 'error');
       return;
     }
     r.mic = mic;

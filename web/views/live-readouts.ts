@@ -126,7 +126,7 @@ export function createReadouts(host: HTMLElement): Readouts {
         level.root.classList.remove('is-missing');
         level.root.classList.toggle('is-loud', isShowable(loudness) && loudness >= LOWER_ACTION_DBA);
       } else {
-        setValue(level, formatDb(levelDbfs > SILENCE_DBFS ? levelDbfs : Number.NaN, 'dBFS', null, 'silence'), isShowable(toneDbfs) ? `tone ${formatDb(toneDbfs, 'dBFS')} · uncalibrated` : 'uncalibrated');
+        setValue(level, formatDb(levelDbfs > SILENCE_DBFS ? levelDbfs : Number.NaN, 'dBFS', null, isShowable(levelDbfs) ? 'digital silence' : 'no signal'), isShowable(toneDbfs) ? `tone ${formatDb(toneDbfs, 'dBFS')} · uncalibrated` : 'uncalibrated');
         level.root.classList.remove('is-loud');
       }
 
