@@ -2,7 +2,7 @@ import { mkdtempSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { parseProfileCsv, runModes } from '../../dsp/cli/modes';
+import { failWith, parseProfileCsv, runModes } from '../../dsp/cli/modes';
 import { EXIT, type CliIo } from '../../dsp/cli/io';
 
 function capture(): CliIo & { stdout: string; stderr: string } {
@@ -109,6 +109,14 @@ describe('humgauge modes', () => {
     expect(r.stderr.trim().split('\n')).toHaveLength(1);
     expect(r.stderr).toMatch(/^humgauge modes: /);
     expect(r.stdout).toBe('');
+  });
+
+  it('a root finder that fails is exit 12 (NO_CONVERGENCE) with one line; other model errors exit 11', () => {
+    const io = capture();
+    expect(failWith(new RangeError('root finder found only 2 of 5 modes below 900.0 Hz'), io, 'modes')).toBe(EXIT.NO_CONVERGENCE);
+    expect(io.stderr).toBe('humgauge modes: root finder found only 2 of 5 modes below 900.0 Hz\n');
+    expect(failWith(new RangeError('lengthM must be a positive finite number of m, got 0'), capture(), 'modes', { lengthM: '--length' })).toBe(EXIT.BAD_PARAMETER);
+    expect(failWith(new TypeError('boom'), capture(), 'modes')).toBe(EXIT.INTERNAL);
   });
 
   it('--help prints usage', async () => {
