@@ -42,6 +42,8 @@ interface Run {
   startedAtMs: number;
   fileDurationS: number;
   decodedBy: string;
+  analysisMs: number;
+  samplesAnalysed: number;
 }
 
 function readGeometry(): DuctGeometry | undefined {
@@ -186,6 +188,8 @@ export const mountListenScreen: MountScreen = (root, app) => {
         return;
       case 'report': {
         run.report = m.report;
+        run.analysisMs = m.analysisMs;
+        run.samplesAnalysed = m.samplesAnalysed;
         for (const w of run.reportWaiters) w(m.report);
         run.reportWaiters = [];
         if (run.source === 'file') void stop('file-done');
@@ -284,6 +288,8 @@ export const mountListenScreen: MountScreen = (root, app) => {
       startedAtMs: performance.now(),
       fileDurationS: 0,
       decodedBy: '',
+      analysisMs: 0,
+      samplesAnalysed: 0,
     };
   }
 
@@ -490,6 +496,15 @@ export const mountListenScreen: MountScreen = (root, app) => {
     };
     readouts.update({ summary, levelDbfs: latestLevelDbfs, toneDbfs: latestToneDbfs, calibration: r.calibration, isAWeighted, isFinal: true });
     resultHost.replaceChildren(...readouts.renderReport(report, r.source === 'file' ? `Result of ${r.decodedBy}` : 'Result of this run'));
+    if (r.samplesAnalysed > 0 && report.sampleRateHz > 0) {
+      // Cost of the analysis on this device: ms of computing per second of audio.
+      const audioS = r.samplesAnalysed / report.sampleRateHz;
+      const cost = el('p', { className: 'hint', id: 'analysis-cost' });
+      cost.dataset.analysisMs = String(r.analysisMs);
+      cost.dataset.audioS = String(audioS);
+      cost.textContent = `Analysis took ${formatSeconds(r.analysisMs / 1000)} for ${formatSeconds(audioS)} of audio (${formatSeconds(r.analysisMs / 1000 / audioS)} per second of audio) on this device.`;
+      resultHost.append(cost);
+    }
     resultHost.hidden = false;
   }
 

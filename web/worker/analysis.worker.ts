@@ -157,8 +157,10 @@ function finishRun(r: Run): void {
   }
   maybePostUpdate(r, true);
   flushAudio(r);
+  const t0 = performance.now();
   const report = r.analysis.finish();
-  post({ type: 'report', id: r.id, report });
+  r.analysisMs += performance.now() - t0;
+  post({ type: 'report', id: r.id, report, analysisMs: r.analysisMs, samplesAnalysed: r.samplesSeen });
 }
 
 function onPortMessage(r: Run, ev: MessageEvent): void {

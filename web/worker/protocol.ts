@@ -109,6 +109,9 @@ export interface ReportMessage {
   type: 'report';
   id: number;
   report: Report;
+  /** Time spent inside the analysis (push and finish), ms, and the samples it analysed. */
+  analysisMs: number;
+  samplesAnalysed: number;
 }
 
 /** Worker → app: something went wrong; `message` is for the user. */

@@ -1,0 +1,168 @@
+// Browser bench of the field app (printed, never asserted):
+//   1. analysis cost in the browser worker per second of 48 kHz audio (target ≤ 20 ms),
+//   2. initial JavaScript of the app, gzipped (target ≤ 200 KB),
+//   3. first paint of the installed app reloaded offline in headless Chromium (target ≤ 1 s).
+// Usage: node scripts/bench-browser.mjs [--dist dist] [--port 4190] [--seconds 120]
+// Needs a built app (npx vite build) and Debian's chromium (or CHROMIUM_PATH).
+import { spawn, execSync } from 'node:child_process';
+import { mkdtempSync, readFileSync, writeFileSync, existsSync, mkdirSync } from 'node:fs';
+import { gzipSync } from 'node:zlib';
+import { tmpdir } from 'node:os';
+import { join, resolve } from 'node:path';
+import { chromium } from 'playwright-core';
+
+const args = process.argv.slice(2);
+const opt = (name, fallback) => {
+  const i = args.indexOf(`--${name}`);
+  return i >= 0 && args[i + 1] ? args[i + 1] : fallback;
+};
+const DIST = opt('dist', 'dist');
+const PORT = Number(opt('port', '4190'));
+const SECONDS = Number(opt('seconds', '120'));
+const URL = `http://127.0.0.1:${PORT}/`;
+
+function line(name, value, unit, target, isPass) {
+  const shown = Number.isFinite(value) ? value.toFixed(value < 10 ? 2 : 1) : '—';
+  console.log(`${name.padEnd(52)} ${`${shown} ${unit}`.padStart(14)}   target ${target.padEnd(10)} ${Number.isFinite(value) ? (isPass ? 'PASS' : 'MISS') : 'MISS (not measured)'}`);
+}
+
+/** Initial JS: the entry script of index.html and the modules it preloads, each gzipped (level 9). */
+function initialJsGzipKb() {
+  const html = readFileSync(join(DIST, 'index.html'), 'utf8');
+  const srcs = new Set();
+  for (const m of html.matchAll(/<script[^>]+src="([^"]+\.js)"/g)) srcs.add(m[1]);
+  for (const m of html.matchAll(/<link[^>]+rel="modulepreload"[^>]+href="([^"]+\.js)"/g)) srcs.add(m[1]);
+  let total = 0;
+  const parts = [];
+  for (const src of srcs) {
+    const bytes = readFileSync(join(DIST, src.replace(/^\.?\//, '')));
+    const gz = gzipSync(bytes, { level: 9 }).length;
+    parts.push(`${src} ${(gz / 1024).toFixed(1)} KB`);
+    total += gz;
+  }
+  return { kb: total / 1024, parts };
+}
+
+/** A hum recording of our own: cycles of growth, steady tone and decay at 171 Hz in noise, 48 kHz mono 16-bit. */
+function writeBenchWav(path, seconds) {
+  const fs = 48_000;
+  const n = Math.round(seconds * fs);
+  const data = Buffer.alloc(44 + 2 * n);
+  data.write('RIFF', 0, 'ascii');
+  data.writeUInt32LE(36 + 2 * n, 4);
+  data.write('WAVEfmt ', 8, 'ascii');
+  data.writeUInt32LE(16, 16);
+  data.writeUInt16LE(1, 20);
+  data.writeUInt16LE(1, 22);
+  data.writeUInt32LE(fs, 24);
+  data.writeUInt32LE(2 * fs, 28);
+  data.writeUInt16LE(2, 32);
+  data.writeUInt16LE(16, 34);
+  data.write('data', 36, 'ascii');
+  data.writeUInt32LE(2 * n, 40);
+  let seed = 12345;
+  const rand = () => ((seed = (seed * 1664525 + 1013904223) >>> 0) / 4294967296);
+  const cycleS = 10;
+  for (let i = 0; i < n; i++) {
+    const t = i / fs;
+    const c = t % cycleS;
+    let a = 0;
+    if (c >= 2 && c < 6) a = Math.min(0.3, 0.003 * Math.exp(7 * (c - 2)));
+    else if (c >= 6) a = 0.3 * Math.exp(-4.5 * (c - 6));
+    const noise = 0.0005 * Math.sqrt(-2 * Math.log(rand() + 1e-12)) * Math.cos(2 * Math.PI * rand());
+    const v = Math.max(-1, Math.min(1, a * Math.sin(2 * Math.PI * 171 * t) + noise));
+    data.writeInt16LE(Math.round(v * 32767), 44 + 2 * i);
+  }
+  writeFileSync(path, data);
+}
+
+async function main() {
+  if (!existsSync(join(DIST, 'index.html'))) {
+    console.error(`${DIST}/index.html is missing: build the app first (npx vite build).`);
+    process.exit(2);
+  }
+  console.log(`humgauge browser bench — app ${resolve(DIST)}, ${new Date().toISOString()}`);
+  const js = initialJsGzipKb();
+
+  const server = spawn('npx', ['vite', 'preview', '--outDir', `../${DIST}`, '--host', '127.0.0.1', '--port', String(PORT), '--strictPort'], { stdio: 'ignore', detached: true });
+  const stopServer = () => {
+    try {
+      process.kill(-server.pid, 'SIGTERM');
+    } catch {
+      /* already gone */
+    }
+  };
+  let costMsPerS = Number.NaN;
+  let firstPaintMs = Number.NaN;
+  let detail = '';
+  try {
+    for (let i = 0; ; i++) {
+      try {
+        if ((await fetch(URL)).ok) break;
+      } catch {
+        /* not up yet */
+      }
+      if (i > 150) throw new Error('vite preview did not start');
+      await new Promise((r) => setTimeout(r, 200));
+    }
+    const exe = process.env.CHROMIUM_PATH || execSync('command -v chromium').toString().trim();
+    const context = await chromium.launchPersistentContext(mkdtempSync(join(tmpdir(), 'humgauge-bench-')), {
+      executablePath: exe,
+      headless: true,
+      viewport: { width: 412, height: 915 },
+      args: ['--headless', '--no-sandbox', '--disable-gpu', '--no-first-run', '--disable-background-networking'],
+    });
+    const page = context.pages()[0] ?? (await context.newPage());
+
+    // 1. Analysis cost: open a long recording; the worker times its own analysis.
+    mkdirSync('e2e-out', { recursive: true });
+    const wav = resolve('e2e-out/bench-browser.wav');
+    writeBenchWav(wav, SECONDS);
+    await page.goto(URL);
+    await page.waitForSelector('#listen-button');
+    if (await page.locator('#first-run-ok').count()) await page.click('#first-run-ok');
+    await page.setInputFiles('#file-input', wav);
+    await page.waitForSelector('#analysis-cost', { timeout: 300_000 });
+    const cost = page.locator('#analysis-cost');
+    const analysisMs = Number(await cost.getAttribute('data-analysis-ms'));
+    const audioS = Number(await cost.getAttribute('data-audio-s'));
+    costMsPerS = analysisMs / audioS;
+    detail = `${audioS.toFixed(0)} s of 48 kHz audio analysed in ${analysisMs.toFixed(0)} ms (${(audioS / (analysisMs / 1000)).toFixed(0)}× real time)`;
+
+    // 3. First paint offline: wait until the service worker controls the page, go offline, reload.
+    await page.waitForFunction(() => navigator.serviceWorker.controller?.state === 'activated', null, { timeout: 30_000 });
+    await context.setOffline(true);
+    const samples = [];
+    for (let k = 0; k < 5; k++) {
+      await page.reload({ waitUntil: 'load' });
+      await page.waitForSelector('#listen-button');
+      const fp = await page.evaluate(
+        () =>
+          new Promise((resolvePaint) => {
+            const find = () => performance.getEntriesByType('paint').find((e) => e.name === 'first-contentful-paint') ?? performance.getEntriesByType('paint').find((e) => e.name === 'first-paint');
+            const e = find();
+            if (e) resolvePaint(e.startTime);
+            else new PerformanceObserver((list) => resolvePaint(list.getEntries()[0]?.startTime ?? NaN)).observe({ type: 'paint', buffered: true });
+          }),
+      );
+      samples.push(Number(fp));
+    }
+    samples.sort((a, b) => a - b);
+    firstPaintMs = samples[Math.floor(samples.length / 2)];
+    detail += `; offline first paint over 5 reloads: ${samples.map((s) => s.toFixed(0)).join(', ')} ms`;
+    await context.close();
+  } finally {
+    stopServer();
+  }
+
+  line('analysis cost in the browser worker, per s of 48 kHz', costMsPerS, 'ms', '≤ 20 ms', costMsPerS <= 20);
+  line('initial JavaScript, gzipped', js.kb, 'KB', '≤ 200 KB', js.kb <= 200);
+  line('first paint of the installed app, offline (median)', firstPaintMs, 'ms', '≤ 1000 ms', firstPaintMs <= 1000);
+  console.log(`  ${detail}`);
+  console.log(`  initial JS: ${js.parts.join(', ')}`);
+}
+
+main().catch((err) => {
+  console.error(`bench failed: ${err instanceof Error ? err.message : String(err)}`);
+  process.exit(1);
+});
