@@ -2,6 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { isFromWorker, parseToWorker, transferablesOf, type ToWorker } from '../../web/worker/protocol';
 import { emptyLiveSummary, isSameTone, updateLiveSummary } from '../../web/worker/live-summary';
 import type { Segment } from '../../dsp/types';
+import { MIN_GAP_S, missingSeconds } from '../../web/capture/gap';
 
 describe('worker protocol: messages to the worker', () => {
   it('accepts each well-formed request', () => {
@@ -125,5 +126,17 @@ describe('live summary from closed segments', () => {
     const s = updateLiveSummary(emptyLiveSummary(), [], { frequencyHz: 88.2, regime: 'steady' });
     expect(s.regime).toBe('steady');
     expect(s.latestFrequencyHz).toBe(88.2);
+  });
+});
+
+describe('gap detection from the audio and wall clocks', () => {
+  it('reports the wall time the audio clock did not see', () => {
+    // 10 s on the wall, 6.5 s of audio: 3.5 s of input were lost while suspended.
+    expect(missingSeconds({ wallMs: 1000, audioS: 2 }, { wallMs: 11_000, audioS: 8.5 })).toBeCloseTo(3.5, 9);
+  });
+  it('ignores clock jitter below the threshold and clocks that run backwards', () => {
+    expect(missingSeconds({ wallMs: 0, audioS: 0 }, { wallMs: 2000, audioS: 2 - MIN_GAP_S / 2 })).toBe(0);
+    expect(missingSeconds({ wallMs: 0, audioS: 5 }, { wallMs: 1000, audioS: 7 })).toBe(0);
+    expect(missingSeconds({ wallMs: 0, audioS: 0 }, { wallMs: Number.NaN, audioS: 1 })).toBe(0);
   });
 });

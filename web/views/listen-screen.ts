@@ -11,6 +11,7 @@ import { startSessionRecording } from '../storage/recorder';
 import { createScope, type Scope } from '../lifecycle';
 import { CaptureError, keepScreenAwake, openMicrophone, PROCESSING_KEYS, type MicCapture } from '../capture/mic';
 import { decodeAudioFile, FileProblem } from '../capture/file-input';
+import { missingSeconds, type ClockPair } from '../capture/gap';
 import { isFromWorker, transferablesOf, type FromWorker, type ToWorker, type UpdateMessage } from '../worker/protocol';
 import { emptyLiveSummary, isSameTone, type LiveSummary } from '../worker/live-summary';
 import { appendFrames, createLiveBuffer, resetLiveBuffer, type LiveBuffer } from './live-buffer';
@@ -38,7 +39,6 @@ interface Run {
   calibration: Calibration | undefined;
   report: Report | null;
   reportWaiters: ((r: Report | null) => void)[];
-  suspendedAtMs: number | null;
   startedAtMs: number;
   fileDurationS: number;
   decodedBy: string;
@@ -284,7 +284,6 @@ export const mountListenScreen: MountScreen = (root, app) => {
       calibration: undefined,
       report: null,
       reportWaiters: [],
-      suspendedAtMs: null,
       startedAtMs: performance.now(),
       fileDurationS: 0,
       decodedBy: '',
@@ -366,25 +365,32 @@ export const mountListenScreen: MountScreen = (root, app) => {
         void stop('ended');
       }
     });
-    // Context suspended (tab hidden, phone call, screen off): the gap is marked, fits do not join across it.
+    // Context suspended or page frozen (tab hidden, phone call, screen off): the audio clock stops
+    // while the wall clock runs on. The difference is marked as a gap so fits do not join across it.
     const ctx = mic.context;
+    let reference: ClockPair = { wallMs: performance.now(), audioS: ctx.currentTime };
+    const checkForGap = (): void => {
+      if (ctx.state !== 'running' || run !== r) return;
+      const now: ClockPair = { wallMs: performance.now(), audioS: ctx.currentTime };
+      const missingS = missingSeconds(reference, now);
+      reference = now;
+      if (missingS <= 0) return;
+      send({ type: 'gap', id: r.id, missingSamples: Math.round(missingS * mic.sampleRateHz) });
+      const atS = timeS;
+      withRecorder((rec) => rec.addGap(atS, missingS));
+      app.notify(`Listening resumed after a gap of ${formatSeconds(missingS)}; the track shows the gap.`, 'info');
+    };
     r.scope.listen(ctx, 'statechange', () => {
-      if (ctx.state === 'running') {
-        if (r.suspendedAtMs !== null) {
-          const missingS = (performance.now() - r.suspendedAtMs) / 1000;
-          r.suspendedAtMs = null;
-          send({ type: 'gap', id: r.id, missingSamples: Math.round(missingS * mic.sampleRateHz) });
-          const atS = timeS;
-          withRecorder((rec) => rec.addGap(atS, missingS));
-          app.notify(`Listening resumed after a gap of ${formatSeconds(missingS)}; the track shows the gap.`, 'info');
-        }
-      } else if (r.suspendedAtMs === null) {
-        r.suspendedAtMs = performance.now();
-      }
+      if (ctx.state === 'running') checkForGap();
     });
     r.scope.listen(document, 'visibilitychange', () => {
-      if (document.visibilityState === 'visible' && ctx.state !== 'running' && ctx.state !== 'closed') void ctx.resume().catch(() => undefined);
+      if (document.visibilityState !== 'visible') return;
+      if (ctx.state !== 'running' && ctx.state !== 'closed') void ctx.resume().catch(() => undefined);
+      else checkForGap();
     });
+    // A freeze may end without any event reaching us; a slow timer catches it (one comparison, no audio work).
+    const timer = setInterval(checkForGap, 2000);
+    r.scope.add(() => clearInterval(timer));
     void keepScreenAwake(r.scope);
 
     const captureSettings: Record<string, unknown> = { ...mic.settings };
