@@ -91,4 +91,41 @@ describe('duct screen', () => {
     await expect.poll(async () => page.inputValue('#duct-measured')).toBe('171.2');
     await expect.poll(async () => page.locator('table.duct-modes tbody tr').first().textContent()).toContain('196.92 Hz');
   });
+
+  it('takes the main tone of a stored session', async () => {
+    const { page } = b;
+    expect(await page.locator('#duct-from-session').textContent()).toMatch(/no session with a tone yet/);
+    // A finished session as the app stores it (web/storage/db.ts, schema v2), written straight into IndexedDB.
+    await page.evaluate(
+      () =>
+        new Promise<void>((resolve, reject) => {
+          const open = indexedDB.open('humgauge');
+          open.onerror = () => reject(open.error);
+          open.onsuccess = () => {
+            const db = open.result;
+            const now = Date.now();
+            const tx = db.transaction('sessions', 'readwrite');
+            tx.objectStore('sessions').put({
+              id: 'duct-e2e-1', createdAtMs: now, updatedAtMs: now, heartbeatAtMs: now, status: 'complete',
+              meta: { source: 'file', fileName: 'bench-tube.wav', sampleRateHz: 16000, site: 'Bench lab', equipment: 'heated tube', notes: '' },
+              markers: [], gaps: [], durationS: 18, frameCount: 0, frameChunkCount: 0,
+              report: { reportVersion: 1, sampleRateHz: 16000, durationS: 18, onsets: [], segments: [], noiseDriven: [],
+                summary: { frequencyHz: 177.51, growthRatePerS: 4.9, decayRatePerS: 26.5, effectiveGainPerS: null, dampingRatio: null, qFactor: null } },
+              audio: { isKept: false, sampleCount: 0, chunkCount: 0 }, siteKey: 'bench lab', equipmentKey: 'heated tube', history: [],
+            });
+            tx.oncomplete = () => {
+              db.close();
+              resolve();
+            };
+            tx.onerror = () => reject(tx.error);
+          };
+        }),
+    );
+    await page.reload();
+    await page.waitForSelector('#duct-from-session option[value="177.51"]', { state: 'attached' });
+    await page.selectOption('#duct-from-session', '177.51');
+    await expect.poll(async () => page.inputValue('#duct-measured')).toBe('177.51');
+    await expect.poll(async () => page.locator('.duct-match-mode').textContent()).toMatch(/177\.5 Hz is mode 1/);
+    await screenshot(page, 'duct-session-tone');
+  });
 });

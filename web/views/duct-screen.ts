@@ -20,6 +20,7 @@ import {
 } from '../../dsp/duct';
 import type { DuctGeometry } from '../../dsp/types';
 import { formatFixed, formatHz, formatQuantity } from '../format';
+import { getSessionDb, listSessions } from '../storage/sessions';
 
 /** localStorage key of the geometry (read by the listen screen to attach it to sessions). */
 export const GEOMETRY_KEY = 'humgauge.ductGeometry';
@@ -150,12 +151,15 @@ export const mountDuctScreen: MountScreen = (root, app) => {
   root.append(el('h3', { className: 'section-title', textContent: 'Predicted modes' }), problems, facts, table, warningsBox);
 
   // ---- Measured tone ----
-  const measured = numberField('duct-measured', 'Measured tone (Hz)', 'Typed in, or taken from a session.');
+  const measured = numberField('duct-measured', 'Measured tone (Hz)', 'Typed in, or taken from a session below.');
+  const fromSession = selectField('duct-from-session', 'Tone of a recorded session', [['', 'loading sessions…']]);
+  const fromSessionHint = el('p', { className: 'hint', id: 'duct-from-session-hint' });
+  fromSession.wrap.append(fromSessionHint);
   const fStd = numberField('duct-measured-std', 'Frequency uncertainty (Hz, one standard deviation)', '');
   const lStd = numberField('duct-length-std', 'Length uncertainty (mm, one standard deviation)', '');
   const matchOut = el('div', { className: 'duct-match' });
   matchOut.setAttribute('aria-live', 'polite');
-  const measuredForm = el('form', { className: 'duct-form', noValidate: true }, el('fieldset', {}, el('legend', { textContent: 'Which mode is humming?' }), measured.wrap, fStd.wrap, lStd.wrap));
+  const measuredForm = el('form', { className: 'duct-form', noValidate: true }, el('fieldset', {}, el('legend', { textContent: 'Which mode is humming?' }), measured.wrap, fromSession.wrap, fStd.wrap, lStd.wrap));
   measuredForm.addEventListener('submit', (e) => e.preventDefault());
   root.append(el('h3', { className: 'section-title', textContent: 'Measured tone' }), measuredForm, matchOut);
 
@@ -404,6 +408,33 @@ export const mountDuctScreen: MountScreen = (root, app) => {
     });
   }
   modePick.select.addEventListener('change', renderSketch);
+  fromSession.select.addEventListener('change', () => {
+    const f = parseDecimal(fromSession.select.value);
+    if (f === null) return;
+    measured.input.value = String(f);
+    measured.input.dispatchEvent(new Event('input'));
+  });
+
+  /** Fills the session picker with the main tone of the most recent sessions that have one. */
+  async function loadSessionTones(): Promise<void> {
+    try {
+      const db = await getSessionDb();
+      const sessions = await listSessions(db);
+      const withTone = sessions.filter((r) => typeof r.report?.summary.frequencyHz === 'number' && Number.isFinite(r.report.summary.frequencyHz)).slice(0, 12);
+      const options = withTone.map((r) => {
+        const f = r.report?.summary.frequencyHz ?? 0;
+        const name = [r.meta.site, r.meta.equipment].filter((t) => t.trim() !== '').join(', ') || new Date(r.createdAtMs).toLocaleString();
+        return el('option', { value: String(Number(f.toFixed(3))), textContent: `${name}: ${formatHz(f)}` });
+      });
+      fromSession.select.replaceChildren(el('option', { value: '', textContent: withTone.length ? 'choose a session…' : 'no session with a tone yet' }), ...options);
+      fromSession.select.disabled = withTone.length === 0;
+      fromSessionHint.textContent = withTone.length ? 'The main tone of the session’s report.' : 'Sessions appear here once they have a main tone.';
+    } catch (err) {
+      fromSession.select.replaceChildren(el('option', { value: '', textContent: 'sessions unavailable' }));
+      fromSession.select.disabled = true;
+      fromSessionHint.textContent = `The stored sessions could not be read: ${err instanceof Error ? err.message : String(err)}.`;
+    }
+  }
 
   app.onShow('duct', (param) => {
     const f = param !== undefined ? parseDecimal(param) : null;
@@ -412,6 +443,7 @@ export const mountDuctScreen: MountScreen = (root, app) => {
       app.notify(`Tone of ${formatHz(f)} taken from the session.`);
     }
     update();
+    void loadSessionTones();
   });
   update();
 };
