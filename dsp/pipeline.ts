@@ -631,16 +631,19 @@ function processFrame(ps: PipelineState): void {
   }
   // New tones.
   const tk = ps.tracker;
-  // Clipping spreads harmonics over the spectrum: no new tones from clipped frames.
+  // Clipping spreads harmonics over the spectrum: no new tones from clipped frames (and the
+  // tentative peaks seen in them are forgotten).
   const frameClipped = ps.lastClipJ >= ps.j - spec.frameSize;
+  if (frameClipped) resetTentative(tk);
   for (let c = 0; c < tk.confirmedCount && !frameClipped; c++) {
     const f = tk.confirmedFreqHz[c];
     let dup = false;
     for (const tr of ps.alive) {
-      // Same tone, or a harmonic (n ≤ 16) of a tracked tone.
+      // Same tone, or a harmonic (n ≤ 8) of a tone sounding now (distortion, e.g. a saturated pickup).
       const n = Math.round(f / tr.tone.freqHz);
-      const tol = n === 1 ? 2 * matchToleranceHz(spec.binHz, f) : 1.5 * spec.binHz + 0.005 * f;
-      if (n >= 1 && n <= 16 && Math.abs(f - n * tr.tone.freqHz) <= tol) dup = true;
+      if (n === 1 && Math.abs(f - tr.tone.freqHz) <= 2 * matchToleranceHz(spec.binHz, f)) dup = true;
+      const isSounding = tr.regime.state > STATE_QUIET || tr.isSteadyLine;
+      if (n >= 2 && n <= 8 && isSounding && Math.abs(f - n * tr.tone.freqHz) <= 0.75 * spec.binHz + 0.002 * f) dup = true;
     }
     if (dup) continue;
     if (ps.alive.length >= MAX_TRACKS) {

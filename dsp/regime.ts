@@ -7,7 +7,7 @@
  * baseline q (the mean ratio seen while quiet: 1 for white noise, larger when a noise-driven
  * resonance sits in the band). Thresholds are set against the envelope's own scatter: for noise
  * alone A² is exponentially distributed, P(A² > 16·mean) = e^−16, and neighbouring samples are
- * correlated over about 1/(2B) ≈ 0.1 s, so a 12 dB excess held 0.15 s does not arise from noise.
+ * correlated over about 1/(2B) ≈ 0.1 s, so a 12 dB excess held 0.08 s does not arise from noise.
  * The regime only marks approximate boundaries; onset times and rates come from the fits.
  */
 import type { RegimeKind } from './types';
@@ -25,7 +25,7 @@ export function regimeKind(code: number): RegimeKind {
 
 /** Excess (dB) that declares growth out of quiet, and how long it must hold (s). */
 export const ON_DB = 12;
-const ON_HOLD_S = 0.15;
+const ON_HOLD_S = 0.08;
 /** Excess at or below which the tone is taken as still at the background (growth start), dB. */
 const LOW_DB = 3;
 /** Excess below which a decay has reached the background, dB, and the hold, s. */
@@ -34,6 +34,8 @@ const QUIET_HOLD_S = 0.15;
 /** Level change over FLAT_WINDOW_S below which growth has become steady, dB. */
 const FLAT_DB = 1.5;
 const FLAT_WINDOW_S = 1.0;
+/** Shortest plateau at the end of a record taken as steady, s. */
+const MIN_PLATEAU_S = 0.2;
 /** Fall below the steady level (or growth maximum) that starts a decay, dB, and its hold, s. */
 const DROP_DB = 6;
 const DROP_HOLD_S = 0.1;
@@ -43,15 +45,15 @@ const REGROW_DB = 10;
 const MIN_QUIET_S = 0.5;
 /**
  * Warm-up at the start (and after a gap): the first WARMUP_S of valid envelope decide whether a
- * tone is already sounding (mean excess ≥ START_DB and a steady envelope, coefficient of variation
- * of A² below START_MAX_CV) or the band is quiet. Noise alone, or a resonance excited by noise,
- * has an exponentially distributed A² (CV = 1); a limit cycle 15 dB over the band noise has
- * CV = √(2·31.6 + 1)/32.6 = 0.25. A quiet band's baseline is its median ratio / ln 2 (robust to a
- * tone starting to grow near the end of the warm-up).
+ * tone is already sounding (not noise-like, and at least START_DB over the band background in the
+ * first WARMUP_HEAD_S) or the band is quiet (see endWarmup).
  */
 const START_DB = 10;
-const START_MAX_CV = 0.5;
 const WARMUP_S = 2;
+const WARMUP_HEAD_S = 0.3;
+const WARMUP_LAG_S = 0.1;
+/** Mean square second difference of ln A² above which the envelope is noise (noise ≈ 6-10, tone < 1). */
+const NOISE_D2 = 2.5;
 /** Time constant of the quiet baseline, s. */
 const BASELINE_TAU_S = 3;
 
@@ -186,32 +188,46 @@ function enterDecay(st: RegimeState): void {
   st.regrowHold = 0;
 }
 
-/** Decides the initial state from the warm-up samples and replays them through the detector. */
+/**
+ * Decides the initial state from the warm-up samples and replays them through the detector.
+ * Noise (and a noise-driven resonance) makes ln A² jump about at random: with lags L longer than
+ * the envelope's correlation time the second difference ln A²(t+L) − 2 ln A²(t) + ln A²(t−L) has
+ * a mean square near 6·π²/6 ≈ 10 (ln of an exponential variable has variance π²/6). A tone well
+ * over the band noise, steady or growing or decaying exponentially, has ln A² nearly straight
+ * over such lags, so its mean square second difference stays under 1 (a kink adds little).
+ */
 function endWarmup(st: RegimeState): void {
   const n = st.warmCount;
   if (n === 0) return;
-  const ratios: number[] = [];
-  let sum = 0;
-  let sum2 = 0;
-  for (let i = 0; i < n; i++) {
-    const r = st.warmBg[i] > 0 ? st.warmP[i] / st.warmBg[i] : 1;
-    ratios.push(r);
-    sum += r;
-    sum2 += r * r;
+  const lag = Math.max(1, Math.round(WARMUP_LAG_S * st.rateHz));
+  let d2 = 0;
+  let cnt = 0;
+  for (let i = lag; i + lag < n; i++) {
+    const d = Math.log(Math.max(st.warmP[i + lag], 1e-30)) - 2 * Math.log(Math.max(st.warmP[i], 1e-30)) + Math.log(Math.max(st.warmP[i - lag], 1e-30));
+    d2 += d * d;
+    cnt++;
   }
-  const mean = sum / n;
-  const cv = Math.sqrt(Math.max(0, sum2 / n - mean * mean)) / mean;
+  const isNoiseLike = cnt === 0 || d2 / cnt > NOISE_D2;
+  // The first WARMUP_HEAD_S: is a tone already sounding?
+  const head = Math.max(1, Math.min(n, Math.round(WARMUP_HEAD_S * st.rateHz)));
+  let headSum = 0;
+  for (let i = 0; i < head; i++) headSum += st.warmBg[i] > 0 ? st.warmP[i] / st.warmBg[i] : 1;
+  const headExcessDb = 10 * Math.log10(Math.max(headSum / head, 1e-30));
   const first = st.warmIdx[0];
   st.segStart = first;
-  if (10 * Math.log10(mean) >= START_DB && cv < START_MAX_CV) {
+  if (!isNoiseLike && headExcessDb >= START_DB) {
     st.state = STATE_STEADY;
     st.steadyLevelDb = 10 * Math.log10(Math.max(st.warmP[0], 1e-30));
     st.lastHighIdx = first;
     st.dropHold = 0;
   } else {
+    // Quiet: the baseline is the band's own level while quiet (median / ln 2 of the exponential
+    // A²), from the whole warm-up when it is noise, from its head when a tone rises later in it.
+    const m = isNoiseLike ? n : head;
+    const ratios: number[] = [];
+    for (let i = 0; i < m; i++) ratios.push(st.warmBg[i] > 0 ? st.warmP[i] / st.warmBg[i] : 1);
     ratios.sort((a, b) => a - b);
-    const median = ratios[Math.floor(n / 2)];
-    st.baseline = Math.max(0.25, median / Math.LN2);
+    st.baseline = Math.max(0.25, ratios[Math.floor(m / 2)] / Math.LN2);
     enterQuiet(st, first);
   }
   st.warmCount = 0;
@@ -340,6 +356,24 @@ export function restartRegime(st: RegimeState, idx: number): void {
 /** Closes the open segment at the end of the record (exclusive end idx). */
 export function finishRegime(st: RegimeState, endIdx: number): void {
   if (st.state < 0) endWarmup(st);
+  if (st.state === STATE_GROWTH) {
+    // A record that ends shortly after the tone levelled off: the plateau (shorter than the
+    // flatness window) is steady, not growth.
+    const w = st.flatWindow;
+    const last = endIdx - 1;
+    const final = st.levelRing[last % w];
+    let start = endIdx;
+    for (let k = 0; k < w; k++) {
+      const j = last - k;
+      if (j <= st.segStart) break;
+      if (Math.abs(st.levelRing[j % w] - final) >= FLAT_DB) break;
+      start = j;
+    }
+    if (endIdx - start >= Math.round(MIN_PLATEAU_S * st.rateHz) && final >= st.maxLevelDb - FLAT_DB) {
+      closeSegment(st, start, st.growthIsOnset, true);
+      st.state = STATE_STEADY;
+    }
+  }
   if (st.state >= 0) closeSegment(st, endIdx, st.state === STATE_GROWTH && st.growthIsOnset, false);
   st.state = -1;
 }

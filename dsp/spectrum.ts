@@ -58,7 +58,7 @@ export function createSpectrumState(cfg: SpectrumConfig): SpectrumState {
   const n = cfg.frameSize;
   if (!Number.isInteger(n) || n < 64 || (n & (n - 1)) !== 0) throw new RangeError(`frameSize must be a power of two ≥ 64, got ${n}`);
   if (!Number.isInteger(cfg.hopSize) || cfg.hopSize < 1 || cfg.hopSize > n) throw new RangeError(`hopSize must be 1..frameSize, got ${cfg.hopSize}`);
-  const smoothing = cfg.smoothing ?? 0.35;
+  const smoothing = cfg.smoothing ?? 0.6;
   if (!(smoothing > 0 && smoothing <= 1)) throw new RangeError(`smoothing must be in (0, 1], got ${smoothing}`);
   const window = new Float64Array(n);
   let sumW = 0;

@@ -9,18 +9,23 @@ import type { PeakList } from './peak';
 
 /** Frames in a row a tentative peak must be seen before it becomes a track. */
 export const CONFIRM_HITS = 3;
+/** A peak this prominent (dB) in two frames in a row is confirmed at once (a fast-growing tone). */
+export const FAST_CONFIRM_DB = 15;
 /** Frames a tentative peak may be missed before it is dropped. */
 const TENTATIVE_MAX_MISSES = 1;
 
 /** Mains frequencies whose multiples are steady lines, Hz. */
 const MAINS_HZ = [50, 60];
 
-/** True when freqHz lies on a multiple (1..10) of 50 or 60 Hz within max(0.3 Hz, 0.4 %). */
+/**
+ * True when freqHz lies on the 1st-4th multiple of 50 or 60 Hz within 0.1 + 0.05·n Hz (grid
+ * frequency within ±0.1 %, common practice). A mains line's upper harmonics are grouped under
+ * its fundamental by peak.ts; tones further up are not taken for mains.
+ */
 export function isMainsLine(freqHz: number): boolean {
-  const tol = Math.max(0.3, 0.004 * freqHz);
   for (const m of MAINS_HZ) {
     const n = Math.round(freqHz / m);
-    if (n >= 1 && n <= 10 && Math.abs(freqHz - n * m) <= tol) return true;
+    if (n >= 1 && n <= 4 && Math.abs(freqHz - n * m) <= 0.1 + 0.05 * n) return true;
   }
   return false;
 }
@@ -47,6 +52,9 @@ export interface TrackerState {
   tentHits: Int32Array;
   tentMisses: Int32Array;
   tentProm: Float64Array;
+  /** Prominence in the latest and the previous frame seen. */
+  tentLastProm: Float64Array;
+  tentPrevProm: Float64Array;
   tentCount: number;
   /** Per-peak flag: matched in this frame. */
   used: Uint8Array;
@@ -65,6 +73,8 @@ export function createTrackerState(binHz: number, peakCapacity: number, maxTenta
     tentHits: new Int32Array(maxTentative),
     tentMisses: new Int32Array(maxTentative),
     tentProm: new Float64Array(maxTentative),
+    tentLastProm: new Float64Array(maxTentative),
+    tentPrevProm: new Float64Array(maxTentative),
     tentCount: 0,
     used: new Uint8Array(peakCapacity),
     confirmedCount: 0,
@@ -162,6 +172,8 @@ export function stepTracker(st: TrackerState, tracks: ToneTrack[], peaks: PeakLi
       st.tentFreqHz[best] = f;
       st.tentHits[best]++;
       st.tentMisses[best] = 0;
+      st.tentPrevProm[best] = st.tentLastProm[best];
+      st.tentLastProm[best] = peaks.prominenceDb[i];
       if (peaks.prominenceDb[i] > st.tentProm[best]) st.tentProm[best] = peaks.prominenceDb[i];
     } else if (st.tentCount < st.maxTentative) {
       const j = st.tentCount++;
@@ -169,13 +181,15 @@ export function stepTracker(st: TrackerState, tracks: ToneTrack[], peaks: PeakLi
       st.tentHits[j] = 1;
       st.tentMisses[j] = 0;
       st.tentProm[j] = peaks.prominenceDb[i];
+      st.tentLastProm[j] = peaks.prominenceDb[i];
+      st.tentPrevProm[j] = 0;
     }
   }
   // Confirm or drop.
   st.confirmedCount = 0;
   let w = 0;
   for (let j = 0; j < st.tentCount; j++) {
-    if (st.tentHits[j] >= CONFIRM_HITS) {
+    if (st.tentHits[j] >= CONFIRM_HITS || (st.tentHits[j] >= 2 && st.tentMisses[j] === 0 && st.tentLastProm[j] >= FAST_CONFIRM_DB && st.tentPrevProm[j] >= FAST_CONFIRM_DB)) {
       st.confirmedFreqHz[st.confirmedCount] = st.tentFreqHz[j];
       st.confirmedProm[st.confirmedCount] = st.tentProm[j];
       st.confirmedCount++;
@@ -186,6 +200,8 @@ export function stepTracker(st: TrackerState, tracks: ToneTrack[], peaks: PeakLi
     st.tentHits[w] = st.tentHits[j];
     st.tentMisses[w] = st.tentMisses[j];
     st.tentProm[w] = st.tentProm[j];
+    st.tentLastProm[w] = st.tentLastProm[j];
+    st.tentPrevProm[w] = st.tentPrevProm[j];
     w++;
   }
   st.tentCount = w;

@@ -94,7 +94,7 @@ function fundamentals(st: SpectrumState): number[] {
   findPeaks(st, lo, hi, 6, peaks);
   groupHarmonics(st, peaks, lo, hi, 6);
   const out: number[] = [];
-  for (let i = 0; i < peaks.count; i++) if (peaks.harmonicOf[i] === 0 && peaks.prominenceDb[i] >= 9) out.push(peaks.freqHz[i]);
+  for (let i = 0; i < peaks.count; i++) if (peaks.harmonicOf[i] === 0 && peaks.prominenceDb[i] >= 12) out.push(peaks.freqHz[i]);
   return out.sort((a, b) => a - b);
 }
 
@@ -141,7 +141,7 @@ describe('peaks and harmonic grouping', () => {
 
   it('finds no tone in white noise', () => {
     const x = synthesize({ sampleRateHz: fs, durationS: 2, noiseRms: 0.02, seed: 6 });
-    // Averaged spectrum (a few frames): a 9 dB prominence is rare for noise; allow at most one.
+    // A 12 dB prominence (×16 the local mean) is rare for noise in the averaged spectrum; allow one.
     expect(fundamentals(spectrumOf(x, fs, 4096)).length).toBeLessThanOrEqual(1);
   });
 });
