@@ -16,6 +16,7 @@ import { isFromWorker, transferablesOf, type FromWorker, type ToWorker, type Upd
 import { emptyLiveSummary, isSameTone, type LiveSummary } from '../worker/live-summary';
 import { appendFrames, createLiveBuffer, resetLiveBuffer, type LiveBuffer } from './live-buffer';
 import { createLivePlots, type LivePlots } from './live-plots';
+import { createSpectrogram, type Spectrogram } from './live-spectrogram';
 import { createReadouts, type Readouts } from './live-readouts';
 import { createMarkerBar, type MarkerBar } from './live-markers';
 import { deviceKey, loadSettings, type Calibration } from '../settings';
@@ -58,9 +59,9 @@ function readGeometry(): DuctGeometry | undefined {
   }
 }
 
-/** True when a spectrum holds more than digital silence (any bin above −150 dBFS). */
+/** True when a spectrum holds sound rather than digital silence (a bin above −130 dBFS, under 16-bit dither). */
 function hasSound(spectrumDbfs: Float32Array): boolean {
-  for (let i = 0; i < spectrumDbfs.length; i++) if ((spectrumDbfs[i] ?? -Infinity) > -150) return true;
+  for (let i = 0; i < spectrumDbfs.length; i++) if ((spectrumDbfs[i] ?? -Infinity) > -130) return true;
   return false;
 }
 
@@ -79,6 +80,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
   let nextId = 1;
   let worker: Worker | null = null;
   let plots: LivePlots | null = null;
+  let spectrogram: Spectrogram | null = null;
   let rafId = 0;
   let latestLevelDbfs = Number.NaN;
   let latestToneDbfs = Number.NaN;
@@ -87,6 +89,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
   let timeS = 0;
   let isAWeighted = loadSettings().isAWeighted;
   let bandHighHz = loadSettings().bandHighHz;
+  let bandLowHz = loadSettings().bandLowHz;
 
   // --- layout -------------------------------------------------------------------------------
   const listenButton = el('button', { type: 'button', className: 'big-button primary', id: 'listen-button', textContent: 'Listen' });
@@ -215,6 +218,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
     if (m.spectrumDbfs && hasSound(m.spectrumDbfs)) {
       buffer.spectrumDbfs = m.spectrumDbfs;
       buffer.spectrumBinHz = m.spectrumBinHz;
+      buffer.spectrumCount++;
     }
     buffer.version++;
     summary = m.summary;
@@ -237,6 +241,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
   function frame(): void {
     rafId = requestAnimationFrame(frame);
     plots?.draw();
+    spectrogram?.draw();
     readouts.update({ summary, levelDbfs: latestLevelDbfs, toneDbfs: latestToneDbfs, calibration: run?.calibration, isAWeighted });
     const peakDb = peakAbs > 0 ? 20 * Math.log10(peakAbs) : -90;
     const pct = Math.max(0, Math.min(100, ((peakDb + 90) / 90) * 100));
@@ -247,7 +252,11 @@ export const mountListenScreen: MountScreen = (root, app) => {
   }
 
   function startDrawing(): void {
-    if (!plots) plots = createLivePlots(plotHost, buffer, () => bandHighHz);
+    if (!plots) {
+      plots = createLivePlots(plotHost, buffer, () => bandHighHz);
+      spectrogram = createSpectrogram(plotHost, buffer, () => [bandLowHz, bandHighHz]);
+      spectrogram.clear();
+    }
     if (!rafId) rafId = requestAnimationFrame(frame);
   }
 
@@ -325,6 +334,8 @@ export const mountListenScreen: MountScreen = (root, app) => {
     const settings = loadSettings();
     isAWeighted = settings.isAWeighted;
     bandHighHz = settings.bandHighHz;
+    bandLowHz = settings.bandLowHz;
+    spectrogram?.clear();
     let mic: MicCapture;
     try {
       mic = await openMicrophone(r.scope, r.id);
@@ -432,6 +443,8 @@ export const mountListenScreen: MountScreen = (root, app) => {
     r.decodedBy = decoded.decodedBy;
     const settings = loadSettings();
     bandHighHz = settings.bandHighHz;
+    bandLowHz = settings.bandLowHz;
+    spectrogram?.clear();
     setNotes([`${decoded.fileName}: ${decoded.decodedBy}, ${decoded.sampleRateHz} Hz, ${formatSeconds(decoded.durationS)}.`, ...decoded.notes]);
     progress.value = 0;
     progressText.textContent = '0 % analysed';

@@ -19,6 +19,8 @@ export interface LiveBuffer {
   gapTimesS: number[];
   spectrumDbfs: Float32Array | null;
   spectrumBinHz: number;
+  /** Spectra received so far (the spectrogram draws one column per new spectrum). */
+  spectrumCount: number;
   /** Bumped on every change, so a view can skip drawing when nothing changed. */
   version: number;
 }
@@ -38,6 +40,7 @@ export function createLiveBuffer(capacity: number): LiveBuffer {
     gapTimesS: [],
     spectrumDbfs: null,
     spectrumBinHz: 0,
+    spectrumCount: 0,
     version: 0,
   };
 }
@@ -50,6 +53,7 @@ export function resetLiveBuffer(b: LiveBuffer): void {
   b.gapTimesS = [];
   b.spectrumDbfs = null;
   b.spectrumBinHz = 0;
+  b.spectrumCount = 0;
   b.version++;
 }
 
