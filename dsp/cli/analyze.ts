@@ -9,7 +9,7 @@ import { createAnalysis } from '../index';
 import { createCsvDecoder, type CsvSummary } from '../io/csv';
 import { InputError, type InputProblem } from '../io/errors';
 import { createWavDecoder, type WavFormat } from '../io/wav';
-import type { Analysis, AnalysisUpdate, ClippedSpan, RegimeKind, Report } from '../types';
+import type { Analysis, AnalysisUpdate, RegimeKind, Report } from '../types';
 import { renderSummary, type InputFacts } from './format';
 import { CliError, EXIT, type CliIo } from './io';
 import { fileSize, readChunks, sniffKind } from './read-file';
@@ -183,40 +183,6 @@ class TrackColumns {
 
 const STATES: RegimeKind[] = ['quiet', 'growth', 'steady', 'decay'];
 
-/**
- * Finds clipped stretches: runs of at least 3 samples at full scale (|x| ≥ 0.9999, i.e. the top
- * code of 16-bit PCM and above), joined when less than 10 ms apart.
- */
-class ClipTracker {
-  spans: ClippedSpan[] = [];
-  private run = 0;
-  private index = 0;
-  constructor(private readonly sampleRateHz: number) {}
-  add(block: Float32Array): void {
-    for (let i = 0; i < block.length; i++, this.index++) {
-      const x = block[i];
-      if (x >= 0.9999 || x <= -0.9999) {
-        this.run++;
-        continue;
-      }
-      if (this.run >= 3) this.close(this.index);
-      this.run = 0;
-    }
-  }
-  finish(): ClippedSpan[] {
-    if (this.run >= 3) this.close(this.index);
-    this.run = 0;
-    return this.spans;
-  }
-  private close(endIndex: number): void {
-    const startS = (endIndex - this.run) / this.sampleRateHz;
-    const endS = endIndex / this.sampleRateHz;
-    const last = this.spans[this.spans.length - 1];
-    if (last && startS - last.endS < 0.01) last.endS = endS;
-    else this.spans.push({ startS, endS });
-  }
-}
-
 /** Progress on stderr (only on a terminal, only for inputs over 30 s). */
 class Progress {
   private lastMs = 0;
@@ -265,7 +231,6 @@ async function analyzeWav(opts: AnalyzeOptions, io: CliIo, label: string): Promi
   const dec = createWavDecoder({ channel: opts.channel === undefined ? null : opts.channel - 1 });
   const track = new TrackColumns();
   let analysis: Analysis | null = null;
-  let clips: ClipTracker | null = null;
   let progress: Progress | null = null;
   let bytes = 0;
   for await (const chunk of readChunks(opts.file)) {
@@ -275,12 +240,10 @@ async function analyzeWav(opts: AnalyzeOptions, io: CliIo, label: string): Promi
     if (analysis === null && fmt !== null) {
       const f: WavFormat = fmt;
       analysis = makeAnalysis(opts, f.sampleRateHz);
-      clips = new ClipTracker(f.sampleRateHz);
       progress = new Progress(io, label, size / f.blockAlign / f.sampleRateHz);
     }
     if (block.length > 0 && analysis !== null) {
       track.add(analysis.push(block));
-      clips?.add(block);
     }
     progress?.update(bytes / size);
   }
@@ -288,7 +251,7 @@ async function analyzeWav(opts: AnalyzeOptions, io: CliIo, label: string): Promi
   const summary = dec.end();
   if (analysis === null) throw new InputError('empty-or-truncated', 'no samples');
   const report = analysis.finish();
-  addClipsAndWarnings(report, clips?.finish() ?? [], summary.warnings);
+  addReaderWarnings(report, summary.warnings);
   const f = summary.format;
   const chan = opts.channel !== undefined ? `channel ${opts.channel} of ${f.channelCount}` : f.channelCount === 1 ? 'mono' : `${f.channelCount} channels mixed to mono`;
   return { report, track, facts: { fileName: label, description: `WAV ${f.encodingName}, ${f.sampleRateHz} Hz, ${chan}` } };
@@ -324,7 +287,6 @@ async function analyzeCsv(opts: AnalyzeOptions, io: CliIo, label: string): Promi
   feed(dec.end().samples);
   progress.done();
   const report = analysis.finish();
-  addClipsAndWarnings(report, [], []);
   // A sine of amplitude 1/scale Pa is 0 dBFS; its RMS (1/scale)/√2 Pa against 20 µPa gives dB SPL.
   const splOffsetDb = 20 * Math.log10(1 / scale / Math.SQRT2 / 20e-6);
   const layout = s1.hasTimeColumn
@@ -337,8 +299,8 @@ function fmtRate(hz: number): string {
   return `${Number(hz.toPrecision(7))} Hz`;
 }
 
-function addClipsAndWarnings(report: Report, clips: ClippedSpan[], warnings: string[]): void {
-  if (clips.length > 0 && (report.clipped === undefined || report.clipped.length === 0)) report.clipped = clips;
+/** The reader's remarks (declared sizes that do not match, a partial last frame) join the report's warnings. */
+function addReaderWarnings(report: Report, warnings: string[]): void {
   if (warnings.length > 0) report.warnings = [...(report.warnings ?? []), ...warnings];
 }
 
