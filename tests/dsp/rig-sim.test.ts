@@ -229,7 +229,9 @@ describe('against the streaming analyser (dsp/pipeline.ts createAnalysis)', () =
     for (let i = 0; i < samples.length; i += 2048) a.push(samples.subarray(i, Math.min(samples.length, i + 2048)));
     return a.finish();
   }
-  const near = (fHz: number, targetHz: number): boolean => Math.abs(fHz - targetHz) / targetHz < 0.05;
+  // Identifies the tube's fundamental among the analyser's tones (harmonics lie ≥ 2× away). Only a
+  // selector: frequency accuracy is the tracker's own test; the check here is the growth rate.
+  const near = (fHz: number, targetHz: number): boolean => Math.abs(fHz - targetHz) / targetHz < 0.1;
 
   it.each([
     [0.72, 11],
