@@ -101,18 +101,41 @@ describe('live listening with a hum cycle as the microphone', () => {
     await screenshot(page, 'listen-result');
   });
 
-  it('saves the run as a session with its markers', async () => {
+  it('saves the run as a session with its markers, track and report', async () => {
     const { page } = b;
     const link = page.locator('#run-result a.big-link');
     await expect.poll(() => link.count(), { timeout: 15_000 }).toBe(1);
-    const count = await page.evaluate(
-      () =>
-        new Promise<number>((resolve) => {
-          const req = indexedDB.databases ? indexedDB.databases() : Promise.resolve([]);
-          void req.then((dbs) => resolve(dbs.length));
+    const id = decodeURIComponent(((await link.getAttribute('href')) ?? '').replace(/^#sessions\//, ''));
+    expect(id.length).toBeGreaterThan(0);
+    // Read the stored session straight from IndexedDB (store names of web/storage/db.ts).
+    const stored = await page.evaluate(
+      (sessionId) =>
+        new Promise<{ markerKinds: string[]; hasReport: boolean; frames: number; captureSettings: Record<string, unknown> | null }>((resolve, reject) => {
+          const open = indexedDB.open('humgauge');
+          open.onerror = () => reject(new Error('cannot open the database'));
+          open.onsuccess = () => {
+            const db = open.result;
+            const tx = db.transaction(['sessions', 'frames'], 'readonly');
+            const get = tx.objectStore('sessions').get(sessionId);
+            const count = tx.objectStore('frames').count(IDBKeyRange.bound([sessionId, 0], [sessionId, Number.MAX_SAFE_INTEGER]));
+            tx.oncomplete = () => {
+              const rec = get.result as { markers?: { kind: string }[]; report?: unknown; meta?: { captureSettings?: Record<string, unknown> }; captureSettings?: Record<string, unknown> } | undefined;
+              resolve({
+                markerKinds: (rec?.markers ?? []).map((m) => m.kind),
+                hasReport: Boolean(rec?.report),
+                frames: count.result,
+                captureSettings: rec?.meta?.captureSettings ?? rec?.captureSettings ?? null,
+              });
+              db.close();
+            };
+          };
         }),
+      id,
     );
-    expect(count).toBeGreaterThan(0);
+    expect(stored.markerKinds).toEqual(['setting', 'driving-off']);
+    expect(stored.hasReport).toBe(true);
+    expect(stored.frames).toBeGreaterThan(0);
+    expect(stored.captureSettings?.autoGainControl).toBe(false);
   });
 
   it('shows the other screens (screenshots for review)', async () => {

@@ -18,7 +18,9 @@ describe('microphone permission refused', () => {
     await page.goto(APP_URL);
     await page.waitForSelector('#listen-button');
     if (await page.locator('#first-run-ok').count()) await page.click('#first-run-ok');
-    await page.click('#listen-button');
+    // Keyboard only: Tab to the Listen button and press Enter (keyboard operable, no pointer needed).
+    await page.locator('#listen-button').focus();
+    await page.keyboard.press('Enter');
     const alert = page.locator('#listen-alert');
     await expect.poll(() => alert.isVisible(), { timeout: 15_000 }).toBe(true);
     const text = (await alert.textContent()) ?? '';

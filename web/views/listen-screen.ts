@@ -97,7 +97,8 @@ export const mountListenScreen: MountScreen = (root, app) => {
   const fileLabel = el('label', { htmlFor: 'file-input', className: 'big-button secondary', id: 'file-button', textContent: 'Open recording' });
   const clock = el('span', { className: 'clock', id: 'run-clock', textContent: '0:00.0' });
   clock.setAttribute('aria-label', 'time since start');
-  const controls = el('div', { className: 'controls' }, listenButton, fileLabel, fileInput, clock);
+  // The input sits before its label so the label can show the keyboard focus (see styles.css).
+  const controls = el('div', { className: 'controls' }, listenButton, fileInput, fileLabel, clock);
 
   const meterBar = el('div', { className: 'meter-bar' });
   const meter = el('div', { className: 'meter', id: 'input-meter' }, meterBar);

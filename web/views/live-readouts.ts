@@ -73,6 +73,8 @@ export function createReadouts(host: HTMLElement): Readouts {
   const freq = add('frequency', 'Frequency', true);
   const level = add('level', 'Level', true);
   const regime = add('regime', 'Regime', true);
+  // A change of regime (growing, steady, dying away) is announced; the numbers are not, they change too often.
+  regime.value.setAttribute('aria-live', 'polite');
   const growth = add('growth', 'Growth rate');
   const decay = add('decay', 'Decay rate');
   const gain = add('gain', 'Effective gain (growth + decay)');
