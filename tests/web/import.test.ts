@@ -122,11 +122,11 @@ describe('broken or hostile zips are refused and nothing is written', () => {
 
 describe('hostile or broken session JSON is refused and nothing is written (not even the valid first session)', () => {
   it('a __proto__ key', async () => {
-    await expectRefused(withSecondSessionText((t) => t.replace(/"meta": \{/, '"meta": {"__proto__": {"isAdmin": true},')), /"__proto__" is not allowed/);
+    await expectRefused(withSecondSessionText((t) => t.replace(/"meta": ?\{/, '"meta": {"__proto__": {"isAdmin": true},')), /"__proto__" is not allowed/);
   });
 
   it('a constructor key', async () => {
-    await expectRefused(withSecondSessionText((t) => t.replace(/"report": \{/, '"report": {"constructor": {"name": "x"},')), /"constructor" is not allowed/);
+    await expectRefused(withSecondSessionText((t) => t.replace(/"report": ?\{/, '"report": {"constructor": {"name": "x"},')), /"constructor" is not allowed/);
     expect(() => parseJsonSafely('{"a":{"prototype":1}}', 'x.json')).toThrow(/"prototype" is not allowed/);
   });
 
@@ -151,7 +151,7 @@ describe('hostile or broken session JSON is refused and nothing is written (not 
   it('numbers out of range', async () => {
     await expectRefused(withSecondSession((j) => (j.session.meta.sampleRateHz = 5e6)), /sample rate must be at most 768000/);
     await expectRefused(withSecondSession((j) => (j.track.timeS[3] = -1)), /track time must be at least 0/);
-    await expectRefused(withSecondSession((j) => (j.track.frequencyHz[300] = 1e9)), /track frequency must be at most/);
+    await expectRefused(withSecondSession((j) => (j.track.frequencyHz[300] = 1e9)), /track frequency must be at least 0 and at most 1000000 .*\(frame 300\)/);
     await expectRefused(withSecondSession((j) => (j.session.markers[0].value = 1e300)), /marker control value must be at most/);
     await expectRefused(withSecondSession((j) => (j.session.report.summary.growthRatePerS = 'lots')), /growth rate must be a number/);
     await expectRefused(withSecondSession((j) => (j.session.meta.geometry.gasTemperatureC = -300)), /gas temperature must be at least -273.15/);

@@ -7,7 +7,7 @@
  * be non-finite, so an export → import round trip gives back every number bit for bit.
  */
 import * as v from 'valibot';
-import type { Marker, Report } from '../../dsp/types';
+import type { Marker, RegimeKind, Report } from '../../dsp/types';
 import { DB_VERSION, type SessionRecord } from './db';
 
 export const BUNDLE_FORMAT = 'humgauge-bundle';
@@ -156,17 +156,51 @@ const MetaSchema = v.strictObject({
 });
 
 const MAX_FRAMES = 10_000_000;
-const column = <T extends v.GenericSchema>(item: T, what: string) => v.pipe(v.array(item, `${what} must be a list`), v.maxLength(MAX_FRAMES, `track longer than ${MAX_FRAMES} frames`));
+
+/**
+ * A track column checked in one tight loop (a per-item schema costs seconds on an hour of
+ * track): `accept` says whether one item is valid; the first bad item is named with its index.
+ */
+function column<T>(what: string, problem: string, accept: (x: unknown) => boolean, decode: (x: unknown) => T) {
+  return v.pipe(
+    v.custom<unknown[]>((x) => Array.isArray(x), `${what} must be a list`),
+    v.rawCheck<unknown[]>(({ dataset, addIssue }) => {
+      if (!dataset.typed) return;
+      const a = dataset.value;
+      if (a.length > MAX_FRAMES) {
+        addIssue({ message: `track longer than ${MAX_FRAMES} frames` });
+        return;
+      }
+      for (let i = 0; i < a.length; i++) {
+        if (!accept(a[i])) {
+          addIssue({ message: `${what} ${problem} (frame ${i})` });
+          return;
+        }
+      }
+    }),
+    v.transform((a: unknown[]): T[] => a.map(decode)),
+  );
+}
+
+const isToken = (x: unknown): boolean => x === 'NaN' || x === 'Infinity' || x === '-Infinity';
+const numberColumn = (what: string, min: number, max: number, allowNonFinite: boolean) =>
+  column<number>(
+    what,
+    `must be at least ${min} and at most ${max}${allowNonFinite ? ' (or NaN/Infinity/-Infinity)' : ''}`,
+    (x) => (typeof x === 'number' && x >= min && x <= max) || (allowNonFinite && isToken(x)),
+    (x) => decodeNumber(x as number | (typeof NON_FINITE)[number]),
+  );
+const REGIME_SET = new Set<unknown>(['quiet', 'growth', 'steady', 'decay']);
 
 export const TrackColumnsSchema = v.pipe(
   v.strictObject({
-    timeS: column(TIME('track time'), 'track time'),
-    frequencyHz: column(FREQ('track frequency'), 'track frequency'),
-    amplitudeDbfs: column(DB('track amplitude'), 'track amplitude'),
-    levelDbfs: column(DB('track level'), 'track level'),
-    state: column(REGIME, 'track state'),
-    isClipped: column(v.boolean('isClipped must be true or false'), 'track clipping'),
-    isAfterGap: column(v.boolean('isAfterGap must be true or false'), 'track gaps'),
+    timeS: numberColumn('track time', 0, 1e7, false),
+    frequencyHz: numberColumn('track frequency', 0, 1e6, true),
+    amplitudeDbfs: numberColumn('track amplitude', -1000, 1000, true),
+    levelDbfs: numberColumn('track level', -1000, 1000, true),
+    state: column<RegimeKind>('track state', 'must be quiet, growth, steady or decay', (x) => REGIME_SET.has(x), (x) => x as RegimeKind),
+    isClipped: column<boolean>('track clipping', 'must be true or false', (x) => typeof x === 'boolean', (x) => x as boolean),
+    isAfterGap: column<boolean>('track gaps', 'must be true or false', (x) => typeof x === 'boolean', (x) => x as boolean),
   }),
   v.check((t) => [t.frequencyHz, t.amplitudeDbfs, t.levelDbfs, t.state, t.isClipped, t.isAfterGap].every((c) => c.length === t.timeS.length), 'track columns differ in length'),
 );

@@ -11,9 +11,9 @@ import type { SessionRecord } from './db';
 import { buildReportHtml } from './report-html';
 import type { FullSession } from './sessions';
 
-/** JSON text in which NaN and ±∞ travel as "NaN", "Infinity", "-Infinity" (see bundle-schema.ts). */
+/** JSON text in which NaN and ±∞ travel as "NaN", "Infinity", "-Infinity" (see bundle-schema.ts). Compact: tracks are long. */
 export function toJsonText(value: unknown): string {
-  return JSON.stringify(value, (_k, x: unknown) => (typeof x === 'number' && !Number.isFinite(x) ? encodeNumber(x) : x), 2);
+  return JSON.stringify(value, (_k, x: unknown) => (typeof x === 'number' && !Number.isFinite(x) ? encodeNumber(x) : x));
 }
 
 /** The session.json object of a bundle (storage details such as chunk counts left out). */
@@ -98,12 +98,13 @@ export function buildBundle(sessions: readonly FullSession[], exportedAtMs = Dat
     files[`${folder}/session.json`] = strToU8(toJsonText(toSessionFile(s, exportedAtMs)));
     files[`${folder}/track.csv`] = strToU8(trackCsv(s.track, s.record.meta.calibrationOffsetDb));
     files[`${folder}/report.html`] = strToU8(buildReportHtml(s.record, s.track, exportedAtMs));
-    // Float WAV keeps every stored sample exactly; deflate gains little on it, so level 1.
-    if (hasAudio) files[`${folder}/audio.wav`] = [encodeWav(s.audio as Float32Array, s.record.meta.sampleRateHz, 'float32'), { level: 1 }];
+    // Float WAV keeps every stored sample exactly; deflate gains little on microphone noise and is
+    // slow on hundreds of megabytes, so the audio is stored uncompressed.
+    if (hasAudio) files[`${folder}/audio.wav`] = [encodeWav(s.audio as Float32Array, s.record.meta.sampleRateHz, 'float32'), { level: 0 }];
   }
   files['manifest.json'] = strToU8(toJsonText({ format: BUNDLE_FORMAT, schemaVersion: BUNDLE_SCHEMA_VERSION, exportedAtMs: Math.round(exportedAtMs), sessions: listed }));
   // Zip (DOS) dates start in 1980.
-  return zipSync(files, { level: 6, mtime: new Date(Math.max(exportedAtMs, Date.UTC(1980, 0, 2))) });
+  return zipSync(files, { level: 1, mtime: new Date(Math.max(exportedAtMs, Date.UTC(1980, 0, 2))) });
 }
 
 /** The WAV alone (16-bit PCM, the most widely readable form). */

@@ -20,17 +20,31 @@ export class ImportError extends Error {
 
 const FORBIDDEN_KEYS = new Set(['__proto__', 'constructor', 'prototype']);
 
-/** JSON.parse that refuses keys able to reach object prototypes (__proto__, constructor, prototype). */
+/**
+ * JSON.parse, then a walk that refuses keys able to reach object prototypes (__proto__,
+ * constructor, prototype). A walk after parsing is much faster than a reviver on long tracks.
+ */
 export function parseJsonSafely(text: string, where: string): unknown {
+  let value: unknown;
   try {
-    return JSON.parse(text, (key, value: unknown) => {
-      if (FORBIDDEN_KEYS.has(key)) throw new ImportError(`${where}: the key "${key}" is not allowed.`);
-      return value;
-    });
+    value = JSON.parse(text);
   } catch (err) {
-    if (err instanceof ImportError) throw err;
     throw new ImportError(`${where} is not valid JSON (${err instanceof Error ? err.message : String(err)}).`);
   }
+  const stack: unknown[] = [value];
+  while (stack.length) {
+    const x = stack.pop();
+    if (typeof x !== 'object' || x === null) continue;
+    if (Array.isArray(x)) {
+      for (let i = 0; i < x.length; i++) if (typeof x[i] === 'object' && x[i] !== null) stack.push(x[i]);
+      continue;
+    }
+    for (const key of Object.keys(x)) {
+      if (FORBIDDEN_KEYS.has(key)) throw new ImportError(`${where}: the key "${key}" is not allowed.`);
+      stack.push((x as Record<string, unknown>)[key]);
+    }
+  }
+  return value;
 }
 
 function firstIssue(issues: readonly v.BaseIssue<unknown>[], where: string): ImportError {
@@ -64,10 +78,19 @@ export function parseWav(bytes: Uint8Array, where: string): { sampleRateHz: numb
       if (!isFloat && !isPcm16) throw new ImportError(`${where} is neither 16-bit PCM nor 32-bit float.`);
       const n = Math.floor(size / (isFloat ? 4 : 2));
       const out = new Float32Array(n);
+      if (isFloat) {
+        // Copy the bytes into a float array (WAV is little-endian, as are the platforms we run on; checked below).
+        new Uint8Array(out.buffer).set(bytes.subarray(body, body + 4 * n));
+        if (n > 0 && out[0] !== dv.getFloat32(body, true)) {
+          for (let i = 0; i < n; i++) out[i] = dv.getFloat32(body + 4 * i, true);
+        }
+      } else {
+        for (let i = 0; i < n; i++) out[i] = dv.getInt16(body + 2 * i, true) / 32768;
+      }
       for (let i = 0; i < n; i++) {
-        const x = isFloat ? dv.getFloat32(body + 4 * i, true) : dv.getInt16(body + 2 * i, true) / 32768;
-        if (!Number.isFinite(x) || Math.abs(x) > 16) throw new ImportError(`${where} holds a sample out of range at ${i}.`);
-        out[i] = x;
+        const x = out[i];
+        // NaN fails both comparisons, so it is caught here too.
+        if (!(x >= -16 && x <= 16)) throw new ImportError(`${where} holds a sample out of range at ${i}.`);
       }
       return { sampleRateHz: fmt.rate, samples: out };
     }
