@@ -352,6 +352,28 @@ export function simulateRig(spec: SimulationSpec): SimulationResult {
   return { pressure, heaterVelocity };
 }
 
+/** Mean frequency (upward zero crossings, linear interpolation) and RMS level in dBFS of gain·x over [fromS, toS). */
+function measureCycle(x: Float64Array, gain: number, fs: number, fromS: number, toS: number): { frequencyHz: number; amplitudeDbfs: number } | null {
+  const i0 = Math.max(1, Math.round(fromS * fs));
+  const i1 = Math.min(x.length, Math.round(toS * fs));
+  let first = Number.NaN;
+  let last = Number.NaN;
+  let count = 0;
+  let sumSq = 0;
+  for (let i = i0; i < i1; i++) {
+    sumSq += gain * gain * x[i] * x[i];
+    if (x[i - 1] < 0 && x[i] >= 0) {
+      const t = (i - 1 + x[i - 1] / (x[i - 1] - x[i])) / fs;
+      if (count === 0) first = t;
+      last = t;
+      count++;
+    }
+  }
+  if (count < 3 || i1 <= i0 || sumSq === 0) return null;
+  const rms = Math.sqrt(sumSq / (i1 - i0));
+  return { frequencyHz: (count - 1) / (last - first), amplitudeDbfs: 20 * Math.log10(rms * Math.SQRT2) };
+}
+
 /** A recording made from the simulator: options beyond the simulation itself. */
 export interface ScenarioSpec {
   params: RigParams;
@@ -393,6 +415,12 @@ export interface ScenarioTruth {
     /** Positive decay rate, 1/s, when the step lowers the power and the fundamental is then stable. */
     decayRatePerS: number | null;
     isUnstable: boolean;
+    /**
+     * Measured on the simulated (noise-free) signal over the last second of the step, when the
+     * step is unstable and lasts ≥ 2 s: mean frequency from interpolated upward zero crossings (Hz)
+     * and RMS level (dBFS, re a full-scale sine). The nonlinear limit cycle, not a model root.
+     */
+    limitCycle: { frequencyHz: number; amplitudeDbfs: number } | null;
     modes: LinearMode[];
   }[];
 }
@@ -430,7 +458,8 @@ export function renderScenario(spec: ScenarioSpec): { samples: Float32Array; tru
   const kc = criticalHeaterPower(rig);
   const sorted = [...spec.schedule].sort((a, b) => a.atS - b.atS);
   let previous = 0;
-  const steps = sorted.map((st) => {
+  const steps = sorted.map((st, i) => {
+    const endS = i + 1 < sorted.length ? Math.min(sorted[i + 1].atS, spec.durationS) : spec.durationS;
     const modes = linearModes(rig, st.heaterPower, 3);
     const m1 = modes[0];
     const isDrop = st.heaterPower < previous;
@@ -442,6 +471,7 @@ export function renderScenario(spec: ScenarioSpec): { samples: Float32Array; tru
       frequencyHz: m1.frequencyHz,
       decayRatePerS: isDrop && m1.growthRatePerS < 0 ? -m1.growthRatePerS : null,
       isUnstable: m1.growthRatePerS > 0,
+      limitCycle: m1.growthRatePerS > 0 && endS - st.atS >= 2 ? measureCycle(sim.pressure, gain, spec.sampleRateHz, endS - 1, endS) : null,
       modes,
     };
   });
