@@ -121,6 +121,43 @@ export function segmentRows(segments: Segment[]): string[][] {
   ]);
 }
 
+/** One tone of the report with the segments and onsets nearest to it in frequency. */
+interface ToneGroup {
+  frequencyHz: number;
+  isSteadyLine: boolean;
+  segments: Segment[];
+  onsets: number;
+}
+
+/**
+ * Sorts segments and onsets to the report's tones by nearest frequency (ratio), main tone first
+ * (the tone nearest summary.frequencyHz). Without a tone list, all segments form one group.
+ */
+export function groupByTone(report: Report): ToneGroup[] {
+  const tones = report.tones ?? [];
+  const groups: ToneGroup[] =
+    tones.length > 0
+      ? tones.map((t) => ({ frequencyHz: t.frequencyHz, isSteadyLine: t.isSteadyLine, segments: [], onsets: 0 }))
+      : report.summary.frequencyHz !== null || report.segments.length > 0
+        ? [{ frequencyHz: report.summary.frequencyHz ?? report.segments[0].frequencyHz, isSteadyLine: false, segments: [], onsets: 0 }]
+        : [];
+  if (groups.length === 0) return groups;
+  const nearest = (f: number): ToneGroup => {
+    let best = groups[0];
+    for (const g of groups) if (Math.abs(Math.log(f / g.frequencyHz)) < Math.abs(Math.log(f / best.frequencyHz))) best = g;
+    return best;
+  };
+  for (const seg of report.segments) nearest(seg.frequencyHz).segments.push(seg);
+  for (const o of report.onsets) nearest(o.frequencyHz).onsets++;
+  const mainHz = report.summary.frequencyHz;
+  if (mainHz !== null) {
+    const main = nearest(mainHz);
+    groups.splice(groups.indexOf(main), 1);
+    groups.unshift(main);
+  }
+  return groups;
+}
+
 /** Rows of the segment table and warning lines shown before pointing to --json. */
 const MAX_SEGMENT_ROWS = 60;
 const MAX_WARNINGS = 8;
@@ -141,12 +178,9 @@ export function renderSummary(report: Report, input: InputFacts): string {
     out.push(`levels: dB SPL = dBFS + ${num(input.splOffsetDb, 4)} dB (pressure values in Pa)`);
   }
   out.push('');
-  const tones = report.tones ?? [];
-  if (tones.length > 0) {
-    out.push(`Tones: ${tones.map((t) => `${num(t.frequencyHz, 5)} Hz${t.isSteadyLine ? ' (steady line)' : ''}`).join(', ')}`);
-  } else if (report.summary.frequencyHz !== null) {
-    out.push(`Tone: ${num(report.summary.frequencyHz, 5)} Hz`);
-  } else out.push('Tones: none found');
+  const groups = groupByTone(report);
+  const main = groups[0];
+  if (!main) out.push('Tones: none found');
   if (report.onsets.length === 0) out.push('Onsets: none');
   else {
     const shown = report.onsets.slice(0, 20).map((o) => `${timeS(o.timeS)} s (${num(o.frequencyHz, 5)} Hz)`);
@@ -154,17 +188,43 @@ export function renderSummary(report: Report, input: InputFacts): string {
     out.push(`Onsets (${report.onsets.length}): ${shown.join(', ')}${more}`);
   }
   out.push('');
-  if (report.segments.length > 0) {
-    const shown = report.segments.slice(0, MAX_SEGMENT_ROWS);
-    out.push(`Segments${report.segments.length > shown.length ? ` (first ${shown.length} of ${report.segments.length}; all in --json)` : ''}`);
+  if (main) {
+    const shown = main.segments.slice(0, MAX_SEGMENT_ROWS);
+    const more = main.segments.length > shown.length ? ` (first ${shown.length} of ${main.segments.length}; all in --json)` : '';
+    out.push(`Main tone ${num(main.frequencyHz, 5)} Hz${main.isSteadyLine ? ' (steady line)' : ''}: segments${more}`);
+    out.push(
+      main.segments.length > 0
+        ? renderTable(
+            ['state', 'start s', 'end s', 'frequency Hz', 'rate 1/s', '95 % interval 1/s', 'model'],
+            segmentRows(shown),
+            [false, true, true, true, true, false, false],
+          )
+        : 'none\n',
+    );
+  }
+  if (groups.length > 1) {
+    out.push('Other tones (first growth and decay of each; all segments in --json)');
     out.push(
       renderTable(
-        ['state', 'start s', 'end s', 'frequency Hz', 'rate 1/s', '95 % interval 1/s', 'model'],
-        segmentRows(shown),
-        [false, true, true, true, true, false, false],
+        ['frequency Hz', 'kind', 'onsets', 'segments', 'growth 1/s', '95 % interval', 'decay 1/s', '95 % interval'],
+        groups.slice(1).map((g) => {
+          const grow = g.segments.find((x) => x.kind === 'growth' && x.ratePerS !== null);
+          const dec = g.segments.find((x) => x.kind === 'decay' && x.ratePerS !== null);
+          return [
+            num(g.frequencyHz, 5),
+            g.isSteadyLine ? 'steady line' : 'tone',
+            String(g.onsets),
+            String(g.segments.length),
+            grow ? num(grow.ratePerS, 3) : '—',
+            interval(grow?.rateCi95PerS, 3),
+            dec && dec.ratePerS !== null ? num(-dec.ratePerS, 3) : '—',
+            dec?.rateCi95PerS ? interval([-dec.rateCi95PerS[1], -dec.rateCi95PerS[0]], 3) : '—',
+          ];
+        }),
+        [true, false, true, true, true, false, true, false],
       ),
     );
-  } else out.push('Segments: none\n');
+  }
   if (report.noiseDriven.length > 0) {
     out.push('Noise-driven resonance (damping of a quiet mode)');
     out.push(

@@ -245,7 +245,7 @@ describe('results', () => {
   it('the readable summary gives every figure with its unit and a 95 % interval', async () => {
     const r = await run(['analyze', path('cycle.wav')]);
     expect(r.code).toBe(EXIT.OK);
-    for (const word of ['Onsets', 'Segments', 'growth', 'decay', 'Hz', '1/s', '95 % interval', 'effective gain', 'damping ratio', 'Q', 'e-folding time', 'doubling time', 'T60']) {
+    for (const word of ['Onsets', 'Main tone', 'segments', 'growth', 'decay', 'Hz', '1/s', '95 % interval', 'effective gain', 'damping ratio', 'Q', 'e-folding time', 'doubling time', 'T60']) {
       expect(r.out).toContain(word);
     }
     const growthLine = r.out.split('\n').find((l) => l.startsWith('growth rate'));

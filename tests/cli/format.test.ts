@@ -3,7 +3,7 @@
 // Q = 106.8153, T60 = 1.381551 s; s = +5 1/s: doubling time 0.1386294 s), relations from standard
 // vibration texts (Rao, Mechanical Vibrations [from memory]); §6: effective gain β = s + α.
 import { describe, expect, it } from 'vitest';
-import { derivedFigures, num, renderSummary, renderTable, valueWithCi } from '../../dsp/cli/format';
+import { derivedFigures, groupByTone, num, renderSummary, renderTable, valueWithCi } from '../../dsp/cli/format';
 import { REPORT_VERSION, type Report } from '../../dsp/types';
 
 function bareReport(): Report {
@@ -87,5 +87,22 @@ describe('text', () => {
     expect(text).toMatch(/growth rate\s+5\.000\s+1\/s\s+\[4\.600, 5\.400\]/);
     expect(text).toMatch(/T60 \(decay\)\s+1\.382\s+s/);
     expect(text).toContain('CLIPPED: 1 stretch (0.500 s in all): 3.000–3.500 s');
+  });
+
+  it('segments go to the nearest tone, the main tone first', () => {
+    const r = bareReport();
+    r.tones = [
+      { frequencyHz: 50, isSteadyLine: true },
+      { frequencyHz: 170, isSteadyLine: false },
+    ];
+    r.segments.push({ kind: 'steady', startS: 0, endS: 10, frequencyHz: 50.02, ratePerS: 0, rateCi95PerS: [-0.01, 0.01] });
+    const groups = groupByTone(r);
+    expect(groups.map((g) => g.frequencyHz)).toEqual([170, 50]);
+    expect(groups[0].segments.map((x) => x.kind)).toEqual(['quiet', 'growth']);
+    expect(groups[0].onsets).toBe(1);
+    expect(groups[1].segments.map((x) => x.kind)).toEqual(['steady']);
+    const text = renderSummary(r, { fileName: 'rig.wav', description: 'WAV' });
+    expect(text).toContain('Main tone 170.00 Hz: segments');
+    expect(text).toMatch(/Other tones[^\n]*\n[^\n]*\n[^\n]*\n\s+50\.000\s+steady line\s+0\s+1/);
   });
 });
