@@ -129,7 +129,8 @@ export async function runSimulate(args: string[], io: CliIo): Promise<number> {
     for (const st of truth.steps) {
       const rate = st.growthRatePerS;
       lines.push(
-        `  from ${st.atS.toFixed(2)} s, K = ${st.heaterPower}: ${st.frequencyHz.toFixed(2)} Hz, ${rate >= 0 ? 'grows' : 'decays'} at ${Math.abs(rate).toFixed(3)} 1/s`,
+        `  from ${st.atS.toFixed(2)} s, K = ${st.heaterPower}: ${st.frequencyHz.toFixed(2)} Hz, ${rate >= 0 ? 'grows' : 'decays'} at ${Math.abs(rate).toFixed(3)} 1/s` +
+          (st.limitCycle ? `; limit cycle ${st.limitCycle.frequencyHz.toFixed(2)} Hz at ${st.limitCycle.amplitudeDbfs.toFixed(1)} dBFS` : ''),
       );
     }
     io.out(lines.join('\n') + '\n');

@@ -35,7 +35,7 @@ describe('humgauge simulate', () => {
     const dir = mkdtempSync(join(tmpdir(), 'humgauge-sim-'));
     const out = join(dir, 'rig.wav');
     const io = capture();
-    const code = await runSimulate(['--steps', '0:0,0.5:0.9,2:0.2', '--duration', '3', '--silence', '0.3', '--out', out], io);
+    const code = await runSimulate(['--steps', '0:0,0.2:0.9,2.5:0.2', '--duration', '3', '--silence', '0.3', '--out', out], io);
     expect(code).toBe(EXIT.OK);
     const wav = readPcm16(out);
     expect(wav.rateHz).toBe(16000);
@@ -53,6 +53,7 @@ describe('humgauge simulate', () => {
     expect(truth.steps[0].decayRatePerS).toBeNull();
     expect(truth.steps[2].decayRatePerS).toBeCloseTo(-linearModes(rig, 0.2, 1)[0].growthRatePerS, 9);
     expect(io.stdout).toMatch(/grows at/);
+    expect(io.stdout).toMatch(/limit cycle 1\d\d\.\d\d Hz at −?-?\d+\.\d dBFS/);
   });
 
   it('reproduces the bundled demo public/demo/bench-tube.wav bit for bit (the command in simulate.ts)', async () => {
