@@ -82,7 +82,8 @@ for (const s of SCREENS) {
 }
 window.addEventListener('hashchange', show);
 show();
-showFirstRunNotice(app, main);
+// The first-run cautions head the Listen screen (where listening starts), until acknowledged.
+showFirstRunNotice(app, sections.get('listen') ?? main);
 offerUpdates();
 
 /**
