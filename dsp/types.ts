@@ -187,6 +187,8 @@ export interface DuctGeometry {
   diameterM: number;
   ends: 'open-open' | 'open-closed' | 'closed-closed';
   openEnd: 'unflanged' | 'flanged' | 'none';
+  /** For an open–closed duct: which end is closed (default 'downstream'). */
+  closedEnd?: 'upstream' | 'downstream';
   gasTemperatureC: number;
   /** Heater (compact heat source) position from the upstream (lower) end, m, and the gas temperature downstream of it, °C. */
   heaterPositionM?: number;
