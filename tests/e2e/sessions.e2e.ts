@@ -131,6 +131,19 @@ describe('sessions screen', () => {
     await page.click('.session-edit button[type=submit]');
     await expect.poll(() => page.locator('.screen-sessions h2').first().textContent()).toMatch(/Boiler room 3 \(east\)/);
 
+    // Control values of markers: a bad entry is refused, a good one kept.
+    await page.fill('#marker-value-0', 'lots');
+    await page.click('.marker-edit button[type=submit]');
+    await expect.poll(() => page.locator('.marker-edit .field-error').textContent()).toMatch(/must be a number/);
+    await page.fill('#marker-value-0', '300');
+    await page.click('.marker-edit button[type=submit]');
+    await expect.poll(() => page.locator('.marker-edit .hint').textContent()).toMatch(/saved/);
+    await page.reload();
+    await page.waitForSelector('#marker-value-0');
+    expect(await page.inputValue('#marker-value-0')).toBe('300');
+    expect(await page.inputValue('#marker-unit-0')).toBe('W');
+    expect(await page.inputValue('#edit-gas')).toBe('150');
+
     // Delete, then undo.
     await page.click('#delete-session');
     await page.waitForSelector('.undo-bar:not([hidden])');

@@ -12,6 +12,7 @@ import { loadFullSession, updateSessionMeta, type FullSession } from '../storage
 import { SERIES_COLORS, timeChart } from './session-charts';
 import { formatLocalStamp, sessionTitle, type SessionsContext, type SessionView } from './session-context';
 import { cssVar, formatBytes, h, table } from './session-dom';
+import { conditionsEditor, markerEditor } from './session-edit';
 
 /** Rows of the result table: label and formatted value (with unit and interval). */
 export function summaryRows(report: Report | null, calibrationOffsetDb?: number): [string, string][] {
@@ -120,9 +121,12 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   const noise = r?.noiseDriven.length
     ? table('segments', 'Damping of the quiet system (noise-driven)', ['time (m:s)', 'frequency', 'decay rate (95 % CI)'], r.noiseDriven.map((n) => [`${formatClock(n.startS)}–${formatClock(n.endS)}`, formatHz(n.frequencyHz), formatRate(n.decayRatePerS, n.decayRateCi95PerS)]))
     : null;
-  const markers = record.markers.length
-    ? table('segments', 'Markers', ['time (m:s)', 'kind', 'label', 'control value'], record.markers.map((k) => [formatClock(k.timeS), k.kind, k.label, typeof k.value === 'number' ? `${k.value}${k.unit ? ` ${k.unit}` : ''}` : '']))
-    : h('p', { className: 'hint', text: 'No markers.' });
+  const markers = markerEditor(db, id, record.markers, (next) => {
+    full.record = { ...full.record, markers: next };
+  });
+  const conditions = conditionsEditor(db, id, m.geometry, offset, (next) => {
+    full.record = next;
+  });
   const notesList = [...(r?.warnings ?? []), ...record.history];
 
   // Exports.
@@ -166,6 +170,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
     markers,
     notesList.length ? h('div', {}, h('h3', { className: 'section-title', text: 'Warnings and history' }), h('ul', { className: 'notes' }, ...notesList.map((w) => h('li', { text: w })))) : null,
     form,
+    conditions,
   ];
   host.replaceChildren(...parts.filter((p): p is Node => p !== null));
   return { destroy: () => destroyers.forEach((d) => d()) };
