@@ -344,6 +344,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
       await r.scope.dispose();
       run = null;
       setState('idle');
+      stopDrawing();
       const message = err instanceof CaptureError ? err.message : `The microphone could not be started: ${err instanceof Error ? err.message : String(err)}`;
       showAlert(message);
       app.notify('The microphone could not be started: see the message below.', 'error');
@@ -423,8 +424,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
   async function openFile(file: File): Promise<void> {
     if (state !== 'idle') return;
     setState('file');
-    const r = newRun('file');
-    run = r;
+    showAlert(null);
     progressRow.hidden = false;
     progress.removeAttribute('value');
     progressText.textContent = `Decoding “${file.name}”…`;
@@ -432,14 +432,16 @@ export const mountListenScreen: MountScreen = (root, app) => {
     try {
       decoded = await decodeAudioFile(file);
     } catch (err) {
+      // The previous result stays on screen; only the message is new.
       const message = err instanceof FileProblem ? err.message : `“${file.name}” could not be opened: ${err instanceof Error ? err.message : String(err)}`;
       showAlert(message);
-      app.notify(message, 'error');
+      app.notify('The recording could not be opened: see the message below.', 'error');
       progressRow.hidden = true;
-      run = null;
       setState('idle');
       return;
     }
+    const r = newRun('file');
+    run = r;
     r.fileDurationS = decoded.durationS;
     r.decodedBy = decoded.decodedBy;
     const settings = loadSettings();
