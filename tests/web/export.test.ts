@@ -6,7 +6,7 @@ import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { strFromU8, unzipSync } from 'fflate';
 import { openSessionDb } from '../../web/storage/db';
-import { buildBundle, sessionWav, toJsonText, toSessionFile, trackCsv } from '../../web/storage/export';
+import { buildBundle, sessionWav, shareOrDownload, toJsonText, toSessionFile, trackCsv } from '../../web/storage/export';
 import { importBundle, parseWav, readBundle } from '../../web/storage/import';
 import { buildReportHtml } from '../../web/storage/report-html';
 import { loadFullSession, type FullSession } from '../../web/storage/sessions';
@@ -150,5 +150,32 @@ describe('plain exports', () => {
     const files = unzipSync(buildBundle([sampleSession()], EXPORTED_AT));
     const manifest = JSON.parse(strFromU8(files['manifest.json']));
     expect(manifest).toMatchObject({ format: 'humgauge-bundle', schemaVersion: 2 });
+  });
+});
+
+describe('sharing', () => {
+  /** Runs fn with a stand-in navigator (Web Share API level 2: canShare({ files }) and share()). */
+  async function withNavigator<T>(nav: object, fn: () => Promise<T>): Promise<T> {
+    const before = Object.getOwnPropertyDescriptor(globalThis, 'navigator');
+    Object.defineProperty(globalThis, 'navigator', { value: nav, configurable: true, writable: true });
+    try {
+      return await fn();
+    } finally {
+      if (before) Object.defineProperty(globalThis, 'navigator', before);
+      else delete (globalThis as { navigator?: unknown }).navigator;
+    }
+  }
+
+  it('hands the file to the share sheet where canShare({ files }) says yes, and reports a cancel as such', async () => {
+    const shared: ShareData[] = [];
+    const bytes = new TextEncoder().encode('time_s\r\n');
+    const nav = { canShare: (d: ShareData) => Array.isArray(d.files) && d.files.length === 1, share: async (d: ShareData) => void shared.push(d) };
+    expect(await withNavigator(nav, () => shareOrDownload(bytes, 'a.csv', 'text/csv'))).toBe('shared');
+    const file = shared[0].files![0];
+    expect(file.name).toBe('a.csv');
+    expect(file.type).toBe('text/csv');
+    expect(new Uint8Array(await file.arrayBuffer())).toEqual(bytes);
+    const cancelling = { ...nav, share: async () => Promise.reject(new DOMException('cancelled', 'AbortError')) };
+    expect(await withNavigator(cancelling, () => shareOrDownload(bytes, 'a.csv', 'text/csv'))).toBe('cancelled');
   });
 });
