@@ -56,6 +56,9 @@ export function createPeakList(capacity: number): PeakList {
   };
 }
 
+/** Prominence a peak needs before a weaker peak at its half or third is taken as its fundamental, dB. */
+const SUBHARMONIC_SOURCE_MIN_DB = 15;
+
 /** Floor of the prominence test: bins inner..outer away on both sides. */
 export const FLOOR_INNER_BINS = 4;
 export const FLOOR_OUTER_BINS = 16;
@@ -116,8 +119,10 @@ export function findPeaks(st: SpectrumState, loBin: number, hiBin: number, minPr
  */
 export function groupHarmonics(st: SpectrumState, peaks: PeakList, loBin: number, hiBin: number, subMinProminenceDb: number): void {
   const binHz = st.binHz;
-  // 1. Move peaks down to a weaker fundamental at f/2 or f/3 (repeat for f/4 = (f/2)/2).
+  // 1. Move strong peaks down to a weaker fundamental at f/2 or f/3 (repeat for f/4 = (f/2)/2).
+  // Only clear tones are moved: a noise peak's "subharmonic" would be another noise peak.
   for (let i = 0; i < peaks.count; i++) {
+    if (peaks.prominenceDb[i] < SUBHARMONIC_SOURCE_MIN_DB) continue;
     for (let iter = 0; iter < 3; iter++) {
       let moved = false;
       for (let n = 2; n <= 3 && !moved; n++) {
@@ -129,9 +134,12 @@ export function groupHarmonics(st: SpectrumState, peaks: PeakList, loBin: number
           if (!(sm[k] > sm[k - 1] && sm[k] >= sm[k + 1])) continue;
           if (prominenceDb(st, k, loBin, hiBin) < subMinProminenceDb) continue;
           const f = peakFrequencyHz(st, k);
-          if (Math.abs(f * n - peaks.freqHz[i]) > 0.6 * binHz + 0.004 * peaks.freqHz[i]) continue;
+          if (Math.abs(f * n - peaks.freqHz[i]) > 0.3 * binHz + 0.002 * peaks.freqHz[i]) continue;
+          // The fundamental carries its own (weaker) prominence.
+          const subProm = prominenceDb(st, k, loBin, hiBin);
           peaks.freqHz[i] = f;
           peaks.bin[i] = k;
+          peaks.prominenceDb[i] = subProm;
           moved = true;
           break;
         }

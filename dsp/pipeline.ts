@@ -92,15 +92,18 @@ const ENVELOPE_BANDWIDTH_HZ = 5;
  */
 const ENVELOPE_WIDE_BANDWIDTH_HZ = 20;
 const WIDE_CLEARANCE_HZ = 100;
+/** Look-ahead onset test: the regime's thresholds (regime.ts ON_DB, LOW_DB). */
+const ON_DB_LOOKAHEAD = 12;
+const LOW_DB_LOOKAHEAD = 3;
 /** Track rows per second (about). */
 const ROW_RATE_HZ = 100;
 /** History kept for tones detected late (their envelope is rebuilt from here), s. */
 const HISTORY_S = 10;
 /** Prominence for a peak to be listed / to start a tentative track, dB. */
 const PEAK_MIN_DB = 6;
-const NEW_TRACK_MIN_DB = 9;
+const NEW_TRACK_MIN_DB = 10;
 /** Prominence of a weaker peak at f/2 or f/3 that makes it the fundamental, dB. */
-const SUBHARMONIC_MIN_DB = 6;
+const SUBHARMONIC_MIN_DB = 10;
 /** Background bins beside a tone: inner..outer bins away. */
 const BG_INNER_BINS = 6;
 const BG_OUTER_BINS = 30;
@@ -155,6 +158,8 @@ interface TrackRuntime {
   maxExcessDb: number;
   /** Envelope outputs still holding a clipped input in their kernel. */
   clipCountdown: number;
+  /** Store index of an onset announced early by the look-ahead (−1: none pending). */
+  earlyOnsetIdx: number;
 }
 
 /** Mutable per-run state of the composition. */
@@ -311,6 +316,7 @@ function createTrackRuntime(ps: PipelineState, freqHz: number, promDb: number, f
     isAlive: true,
     maxExcessDb: -Infinity,
     clipCountdown: 0,
+    earlyOnsetIdx: -1,
   };
 }
 
@@ -469,7 +475,9 @@ function collectLive(ps: PipelineState, tr: TrackRuntime): void {
   const rg = tr.regime;
   if (tr.isSteadyLine) return;
   if (rg.onsetInStep) {
-    ps.liveOnsets.push({ timeS: tr.timeS[rg.onsetIdx], frequencyHz: tr.tone.freqHz });
+    // Announced already by the look-ahead: not twice.
+    if (tr.earlyOnsetIdx < 0) ps.liveOnsets.push({ timeS: tr.timeS[rg.onsetIdx], frequencyHz: tr.tone.freqHz });
+    tr.earlyOnsetIdx = -1;
   }
   // Closed growth and decay segments get a quick provisional rate; finish() fits them properly.
   for (let i = rg.segments.length - rg.closedInStep; i < rg.segments.length; i++) {
@@ -609,6 +617,54 @@ function findResonance(ps: PipelineState, x: Float32Array): number | null {
   return bestK < 0 ? null : bestK * spec.binHz;
 }
 
+/**
+ * Early announcement of an onset: the regime reads a tone's envelope only up to the centre of the
+ * latest frame (where the band background is known), which delays it by half a frame. For a
+ * quiet tone, the newer envelope samples are compared with the latest background scaled by the
+ * change of the broadband level since the frame centre (a broadband loudness step moves both; a
+ * tone that just started is still far below the broadband level). The same test as the regime's
+ * (ON_DB held ON_HOLD) announces the onset live; the regime confirms it later and the report's
+ * onset comes from the fit. A false early announcement (not confirmed within 2 s) is dropped.
+ */
+function lookAhead(ps: PipelineState, tr: TrackRuntime): void {
+  const rg = tr.regime;
+  if (tr.isSteadyLine || !rg.allowOnsets || rg.state !== STATE_QUIET) return;
+  if (tr.earlyOnsetIdx >= 0) {
+    if (tr.processed - tr.earlyOnsetIdx > 2 * tr.env.outputRateHz) tr.earlyOnsetIdx = -1;
+    return;
+  }
+  const fr = ps.frameTimeS.length;
+  const last = ps.spec.frameCount - 1;
+  if (last < tr.bgFrameFrom) return;
+  const bgF = tr.bgFrame[last % fr] * rg.baseline;
+  if (!(bgF > 0)) return;
+  const envLen = ps.envMs.length;
+  const span = Math.max(1, Math.round(0.1 * tr.env.outputRateHz));
+  // Broadband mean square over 0.1 s around the frame centre and over the latest 0.1 s.
+  const gF = tr.g0 + Math.min(tr.n - 1, Math.max(0, tr.processed - 1));
+  let msF = 0;
+  for (let q = 0; q < span; q++) msF += ps.envMs[(gF - q + envLen) % envLen];
+  const onLin = 10 ** (ON_DB_LOOKAHEAD / 10);
+  const lowLin = 10 ** (LOW_DB_LOOKAHEAD / 10);
+  let hold = 0;
+  let lastLow = tr.processed;
+  let msNow = msF;
+  for (let k = tr.processed; k < tr.n; k++) {
+    const g = tr.g0 + k;
+    msNow += ps.envMs[g % envLen] - ps.envMs[(g - span + envLen) % envLen];
+    if (tr.clipped[k]) return;
+    const scale = Math.min(10, Math.max(0.1, msNow / msF));
+    const ratio = tr.power[k] / (bgF * scale);
+    if (ratio <= lowLin) lastLow = k;
+    hold = ratio >= onLin ? hold + 1 : 0;
+    if (hold >= rg.onHoldMin && lastLow - rg.quietStartIdx >= rg.minQuiet) {
+      tr.earlyOnsetIdx = lastLow;
+      ps.liveOnsets.push({ timeS: tr.timeS[lastLow], frequencyHz: tr.tone.freqHz });
+      return;
+    }
+  }
+}
+
 /** Work done at each spectral frame. */
 function processFrame(ps: PipelineState): void {
   const spec = ps.spec;
@@ -626,6 +682,11 @@ function processFrame(ps: PipelineState): void {
   stepTracker(ps.tracker, ps.aliveTones, ps.peaks, frameIdx, tF, NEW_TRACK_MIN_DB);
 
   for (const tr of ps.alive) {
+    // A tone settling on a mains multiple is a steady line (its first frames may be off while it switches on).
+    if (!tr.isSteadyLine && tr.tone.lastHitFrame === frameIdx && isMainsLine(tr.tone.freqHz)) {
+      tr.isSteadyLine = true;
+      tr.regime.allowOnsets = false;
+    }
     setEnvelopeFrequency(tr.env, tr.tone.freqHz);
     tr.bgFrame[frameIdx % fr] = bandBackground(ps, spec.power, tr.tone.freqHz);
   }
@@ -676,6 +737,7 @@ function processFrame(ps: PipelineState): void {
       if (jAt < earliestGrowthJ) earliestGrowthJ = jAt;
     }
   }
+  for (const tr of ps.alive) lookAhead(ps, tr);
   emitRows(ps, tF);
 
   // Quiet store for noise-driven damping.
@@ -849,7 +911,11 @@ function buildSeries(tr: TrackRuntime, i0: number, i1: number, isWide: boolean):
   }
   let count = 0;
   for (let q = 0; q < keep.length; q++) count += keep[q];
-  const block = Math.max(1, Math.ceil(count / MAX_FIT_SAMPLES));
+  // Neighbouring envelope samples are correlated over about 1/(2B): averaging blocks of up to a
+  // quarter of that keeps at least 2 samples per correlation time (so N_eff = 2·B·D is unchanged)
+  // and makes the fits several times faster. The fit's dispersion absorbs the smaller scatter.
+  const bw = isWide ? tr.env.wideBandwidthHz : tr.env.bandwidthHz;
+  const block = Math.max(1, Math.floor(tr.env.outputRateHz / (4 * bw)), Math.ceil(count / MAX_FIT_SAMPLES));
   const nOut = Math.ceil(count / block);
   const timeS = new Float64Array(nOut);
   const power = new Float64Array(nOut);

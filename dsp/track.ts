@@ -11,6 +11,12 @@ import type { PeakList } from './peak';
 export const CONFIRM_HITS = 3;
 /** A peak this prominent (dB) in two frames in a row is confirmed at once (a fast-growing tone). */
 export const FAST_CONFIRM_DB = 15;
+/**
+ * A peak this prominent in a single frame is confirmed at once: noise reaches it with probability
+ * e^−100 per bin (an exponentially distributed bin 20 dB over its mean), and broadband clicks have
+ * no narrow peak.
+ */
+export const INSTANT_CONFIRM_DB = 20;
 /** Frames a tentative peak may be missed before it is dropped. */
 const TENTATIVE_MAX_MISSES = 1;
 
@@ -189,7 +195,7 @@ export function stepTracker(st: TrackerState, tracks: ToneTrack[], peaks: PeakLi
   st.confirmedCount = 0;
   let w = 0;
   for (let j = 0; j < st.tentCount; j++) {
-    if (st.tentHits[j] >= CONFIRM_HITS || (st.tentHits[j] >= 2 && st.tentMisses[j] === 0 && st.tentLastProm[j] >= FAST_CONFIRM_DB && st.tentPrevProm[j] >= FAST_CONFIRM_DB)) {
+    if (st.tentHits[j] >= CONFIRM_HITS || (st.tentMisses[j] === 0 && st.tentLastProm[j] >= INSTANT_CONFIRM_DB) || (st.tentHits[j] >= 2 && st.tentMisses[j] === 0 && st.tentLastProm[j] >= FAST_CONFIRM_DB && st.tentPrevProm[j] >= FAST_CONFIRM_DB)) {
       st.confirmedFreqHz[st.confirmedCount] = st.tentFreqHz[j];
       st.confirmedProm[st.confirmedCount] = st.tentProm[j];
       st.confirmedCount++;

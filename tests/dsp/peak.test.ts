@@ -115,6 +115,20 @@ describe('peaks and harmonic grouping', () => {
     expect(Math.abs(f[0] - 171)).toBeLessThan(0.05);
   });
 
+  it('moves a strong peak down to a weak fundamental at half its frequency', () => {
+    // Fundamental 0.002 (about 20 dB over the bin noise), second harmonic 25 times stronger.
+    const x = synthesize({
+      sampleRateHz: fs,
+      durationS: 2,
+      tones: [{ frequencyHz: 125, envelope: () => 0.002, harmonics: [[2, 25]] }],
+      noiseRms: 0.01,
+      seed: 7,
+    });
+    const f = fundamentals(spectrumOf(x, fs, 4096));
+    expect(f).toHaveLength(1);
+    expect(Math.abs(f[0] - 125)).toBeLessThan(0.1);
+  });
+
   it('groups 50 Hz mains with its harmonics into one line', () => {
     const x = synthesize({ sampleRateHz: fs, durationS: 2, tones: [mainsHum(50, 0.05, 8, 0.8)], noiseRms: 0.005, seed: 4 });
     const f = fundamentals(spectrumOf(x, fs, 4096));

@@ -22,9 +22,9 @@ function trackAll(x: Float32Array, fs: number): { tracks: ToneTrack[]; confirmFr
       computeSpectrumFrame(spec);
       const hi = spec.binCount - 2;
       findPeaks(spec, 5, hi, 6, peaks);
-      groupHarmonics(spec, peaks, 5, hi, 6);
+      groupHarmonics(spec, peaks, 5, hi, 10);
       const frame = spec.frameCount - 1;
-      stepTracker(tracker, tracks, peaks, frame, (i + k) / fs, 9);
+      stepTracker(tracker, tracks, peaks, frame, (i + k) / fs, 10);
       for (let c = 0; c < tracker.confirmedCount; c++) {
         tracks.push(createToneTrack(tracker, tracker.confirmedFreqHz[c], frame, tracker.confirmedProm[c]));
         confirmFrames.push(frame);
@@ -38,12 +38,12 @@ function trackAll(x: Float32Array, fs: number): { tracks: ToneTrack[]; confirmFr
 describe('tone tracking', () => {
   const fs = 12000;
 
-  it('confirms a strong tone after two frames, a weak one after CONFIRM_HITS, and keeps one track', () => {
+  it('confirms a strong tone at once, a weak one after CONFIRM_HITS, and keeps one track', () => {
     const strong = synthesize({ sampleRateHz: fs, durationS: 4, tones: [{ frequencyHz: 171, envelope: () => 0.05 }], noiseRms: 0.01, seed: 1 });
     const s = trackAll(strong, fs);
     expect(s.tracks).toHaveLength(1);
-    // Prominence ≫ FAST_CONFIRM_DB in the first two frames.
-    expect(s.confirmFrames[0]).toBe(1);
+    // Prominence ≫ INSTANT_CONFIRM_DB in the first frame.
+    expect(s.confirmFrames[0]).toBe(0);
     expect(Math.abs(medianFrequencyHz(s.tracks[0], 0, 10) - 171)).toBeLessThan(0.05);
     // A tone about 12 dB over the bin noise (between the new-track and fast-confirm thresholds):
     // per-bin noise 6σ²/N = 1.46e-7 at N = 4096; a² = 2.3e-6 → 12 dB.
