@@ -143,7 +143,7 @@ describe('hostile or broken session JSON is refused and nothing is written (not 
 
   it('text that merely uses "<" as less-than is accepted', async () => {
     const db = await openSessionDb({ name: uniqueName() });
-    const r = await importBundle(db, withSecondSession((j) => (j.session.meta.notes = 'flow < 2 m/s, ΔT <5 K')));
+    const r = await importBundle(db, withSecondSession((j) => (j.session.meta.notes = 'flow < 2 m/s, ΔT <5 K, f < fs/2')));
     expect(r.imported).toHaveLength(2);
     db.close();
   });

@@ -36,8 +36,12 @@ const finite = (min: number, max: number, what: string) =>
 const real = (min: number, max: number, what: string) =>
   v.pipe(v.union([finite(min, max, what), v.picklist(NON_FINITE, `${what} must be a number`)], `${what} must be a number`), v.transform(decodeNumber));
 
-/** Tag-like markup (<script, </b, <!--, <?xml) and script URLs; plain "<" before a space or digit is fine. */
-const MARKUP = /<\s*[a-z!?/]|javascript:/i;
+/**
+ * Markup: "<" directly followed by a letter, "!", "/" or "?" opens a tag, comment or declaration
+ * in an HTML parser (WHATWG HTML Living Standard, tokenization, "tag open state"); plus script
+ * URLs. "<" before a space or a digit ("flow < 2 m/s", "<5 %") is plain text and allowed.
+ */
+const MARKUP = /<[a-z!?/]|javascript:/i;
 /** Control characters other than tab, line feed and carriage return. */
 // eslint-disable-next-line no-control-regex
 const CONTROL = /[\u0000-\u0008\u000b\u000c\u000e-\u001f\u007f]/;
