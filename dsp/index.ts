@@ -4,7 +4,7 @@
  * line import from here.
  */
 export * from './types';
-export { createAnalysis, describeAnalysis } from './pipeline';
+export { createAnalysis } from './pipeline';
 export { CLIP_LEVEL, CLIP_RUN_SAMPLES, createConditionState, gapCondition, stepCondition, type ConditionConfig, type ConditionState } from './condition';
 export { computeSpectrumFrame, createSpectrumState, feedSpectrum, HANN_ENBW_BINS, type SpectrumConfig, type SpectrumState } from './spectrum';
 export { createPeakList, findPeaks, groupHarmonics, hannAmplitudeResponse, hannPeakOffset, neighbourNoisePower, type PeakList } from './peak';

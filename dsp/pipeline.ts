@@ -1363,10 +1363,14 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
 
 /**
  * Creates the streaming analysis (DESIGN.md stages 1-7). push(block) takes mono samples at
- * config.sampleRateHz (full scale ±1) in blocks of any length and returns the rows and events
- * added; gap(n) records n missing input samples; mark() adds a user marker ('driving-off' fixes
- * where a decay starts); finish() fits every segment and returns the report. Throws RangeError
- * for a bad configuration.
+ * config.sampleRateHz (full scale ±1) in blocks of any length and returns what it added: track rows
+ * (about 100 per second, lagging the input by about half a spectral frame), onsets as soon as they
+ * are seen (time = where the tone last sat at the band background; the report's onset time comes
+ * from the fitted growth curve), closed segments with a quick provisional rate (model
+ * 'log-linear'), and the latest spectrum. gap(n) records n missing input samples (segments and
+ * fits do not join across it); mark() adds a user marker ('driving-off' fixes where a decay
+ * starts); finish() fits every segment and returns the report. Throws RangeError for a bad
+ * configuration; push() after finish() throws.
  */
 export function createAnalysis(config: AnalysisConfig): Analysis {
   const ps = createPipelineState(config);
@@ -1379,17 +1383,3 @@ export function createAnalysis(config: AnalysisConfig): Analysis {
     finish: () => finish(ps),
   };
 }
-
-/** Analysis rates chosen for an input rate (for the bench and the app's display). */
-export function describeAnalysis(config: AnalysisConfig): { analysisRateHz: number; frameSize: number; binHz: number; envelopeRateHz: number; envelopeBandwidthHz: number } {
-  const ps = createPipelineState(config);
-  return {
-    analysisRateHz: ps.fsA,
-    frameSize: ps.spec.frameSize,
-    binHz: ps.spec.binHz,
-    envelopeRateHz: ps.envRateHz,
-    envelopeBandwidthHz: ps.envBandwidthHz,
-  };
-}
-
-export { STATE_DECAY, STATE_GROWTH, STATE_STEADY };

@@ -254,6 +254,19 @@ describe('several tones, harmonics, gaps, clipping, input checks', () => {
     expect(report.summary.frequencyHz).toBeNull();
   });
 
+  it('reports sensibly on input shorter than one spectral frame, and on none', () => {
+    const a = createAnalysis({ sampleRateHz: 48000 });
+    a.push(new Float32Array(100));
+    const r = a.finish();
+    expect(r.durationS).toBeCloseTo(100 / 48000, 9);
+    expect(r.onsets).toHaveLength(0);
+    expect(r.warnings).toContain('no tone found');
+    const empty = createAnalysis({ sampleRateHz: 44100 }).finish();
+    expect(empty.durationS).toBe(0);
+    expect(empty.segments).toHaveLength(0);
+    expect(() => a.push(new Float32Array(10))).toThrow(/finish/);
+  });
+
   it('rejects an unusable configuration with a clear message', () => {
     expect(() => createAnalysis({ sampleRateHz: 1000 })).toThrow(/sampleRateHz/);
     expect(() => createAnalysis({ sampleRateHz: 48000, bandLowHz: 500, bandHighHz: 100 })).toThrow(/band/);
