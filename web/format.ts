@@ -132,6 +132,19 @@ export function formatSeconds(timeS: number | null | undefined, ci95?: Interval 
   return formatQuantity(timeS, 's', ci95, { significant: 3 });
 }
 
+/**
+ * A long duration in the largest fitting unit: "8.0 h", "15 min", "42 s" (three significant
+ * digits at most, no interval). Below 1 s it defers to formatSeconds ("139 ms").
+ */
+export function formatDuration(timeS: number | null | undefined, reason = 'not known'): string {
+  if (!isShowable(timeS)) return formatMissing(reason);
+  const abs = Math.abs(timeS);
+  if (abs >= 3600) return formatQuantity(timeS / 3600, 'h', null, { significant: abs >= 36_000 ? 3 : 2 });
+  if (abs >= 60) return formatQuantity(timeS / 60, 'min', null, { significant: 2 });
+  if (abs >= 1) return formatQuantity(timeS, 's', null, { significant: 2 });
+  return formatSeconds(timeS, null, reason);
+}
+
 /** A clock-style position in a recording: 75.25 → "1:15.3" (minutes:seconds.tenths). */
 export function formatClock(timeS: number | null | undefined): string {
   if (!isShowable(timeS)) return MISSING;

@@ -68,3 +68,12 @@ export function firstNumber(text: string | null): number {
   const m = (text ?? '').replace(/\u2212/g, '-').match(/-?\d+(\.\d+)?/);
   return m ? Number(m[0]) : Number.NaN;
 }
+
+/** A steady calibrator-like tone: 1 kHz at `amplitude` (peak, full scale 1) for `durationS`, then exact zeros. */
+export function writeCalibratorWav(name: string, amplitude: number, durationS = 12): string {
+  const fs = 48_000;
+  const tone = synthesize({ sampleRateHz: fs, durationS, tones: [{ frequencyHz: 1000, envelope: () => amplitude }] });
+  const withTail = new Float32Array(tone.length + Math.round(0.4 * fs));
+  withTail.set(tone);
+  return writeFixture(name, encodeWav(withTail, fs, 'pcm16'));
+}

@@ -4,6 +4,7 @@ import {
   decimalsFor,
   formatClock,
   formatDb,
+  formatDuration,
   formatHz,
   formatInterval,
   formatPercent,
@@ -80,6 +81,15 @@ describe('formatHz, formatDb, formatRatio, formatQ', () => {
     expect(formatSeconds(0.138629, [0.12, 0.16])).toBe('139 ms (95 % CI 120–160)');
   });
 
+  it('long durations in hours or minutes: NIOSH allowed times (REFERENCES.md §13, 94 dB(A) → 1 h, 100 dB(A) → 15 min)', () => {
+    expect(formatDuration(3600)).toBe('1.0 h');
+    expect(formatDuration(15 * 60)).toBe('15 min');
+    expect(formatDuration(8 * 3600)).toBe('8.0 h');
+    expect(formatDuration(42)).toBe('42 s');
+    expect(formatDuration(0.5)).toBe('500 ms');
+    expect(formatDuration(Number.NaN)).toBe(`${MISSING} (not known)`);
+  });
+
   it('clock and percent', () => {
     expect(formatClock(75.25)).toBe('1:15.3');
     expect(formatClock(4)).toBe('0:04.0');
@@ -124,6 +134,7 @@ describe('property: no formatted text ever shows NaN, undefined, null or Infinit
           formatSeconds(v, ci),
           formatQuantity(v, 'm', ci),
           formatClock(v),
+          formatDuration(v),
           formatPercent(v),
         ];
         for (const t of texts) expect(t).not.toMatch(FORBIDDEN);

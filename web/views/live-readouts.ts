@@ -7,7 +7,7 @@ import type { Report, RegimeKind } from '../../dsp/types';
 import type { LiveSummary } from '../worker/live-summary';
 import type { Calibration } from '../settings';
 import { aWeightedToneDb, EU_EXPOSURE_VALUES, exposureCaution } from '../../dsp/levels';
-import { formatClock, formatDb, formatHz, formatQ, formatRate, formatRatio, formatSeconds, isShowable, MISSING } from '../format';
+import { formatClock, formatDb, formatDuration, formatHz, formatQ, formatRate, formatRatio, formatSeconds, isShowable, MISSING } from '../format';
 
 /** Below this, phone microphones roll off (levels read low; rates are unaffected). Common practice. */
 export const LOW_FREQUENCY_NOTE_HZ = 100;
@@ -121,7 +121,7 @@ export function createReadouts(host: HTMLElement): Readouts {
         if (isShowable(loudness) && loudness >= LOWER_ACTION_DBA) {
           const c = exposureCaution(loudness);
           note += c.isProtectionAdvised
-            ? ` — loud: wear hearing protection; NIOSH allows ${formatSeconds(c.allowedTimeH * 3600)} a day at this level.`
+            ? ` — loud: wear hearing protection; NIOSH allows ${formatDuration(c.allowedTimeH * 3600)} a day at this level.`
             : ` — above the ${LOWER_ACTION_DBA} dB(A) lower action value if it lasted a working day.`;
         }
         setText(level.detail, note);
