@@ -219,6 +219,11 @@ describe('recording and crash recovery', () => {
     await page.click('#listen-button');
     // Record for a while; the recorder writes about once a second.
     await page.waitForTimeout(5000);
+    // What the Listen screen had recorded at the moment of the crash (m:ss.t).
+    const clockText = (await page.locator('#run-clock').textContent()) ?? '';
+    const [mm, ss] = clockText.split(':');
+    const recordedS = Number(mm) * 60 + Number(ss);
+    expect(recordedS).toBeGreaterThan(3);
     const frames = await countStore(page, 'frames');
     const audio = await countStore(page, 'audio');
     expect(frames).toBeGreaterThan(1);
@@ -235,7 +240,13 @@ describe('recording and crash recovery', () => {
       await p2.click('.session-item .session-link');
       await p2.waitForSelector('.result-table');
       const history = await p2.locator('.notes').last().textContent();
-      expect(history).toMatch(/Recording was interrupted; completed .* analysed again from [0-9.]+ s of stored audio/);
+      const m = /Recording was interrupted; completed .* analysed again from ([0-9.]+) s of stored audio/.exec(history ?? '');
+      expect(m).not.toBeNull();
+      // Writes happen about once a second: the crash may lose at most a couple of seconds.
+      const keptS = Number(m![1]);
+      console.info(`crash: ${recordedS} s recorded on screen, ${keptS} s of audio kept`);
+      expect(keptS).toBeGreaterThan(recordedS - 2.5);
+      expect(keptS).toBeLessThan(recordedS + 1);
       await screenshot(p2, 'session-recovered');
     } finally {
       await second.close();
