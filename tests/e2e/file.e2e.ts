@@ -66,3 +66,32 @@ describe('opening a recording', () => {
     await expect.poll(async () => (await page.locator('#listen-alert').textContent()) ?? '', { timeout: 20_000 }).toMatch(/“empty\.wav” is empty/);
   });
 });
+
+describe('opening a clipped recording of a low tone', () => {
+  let b: Launched;
+  beforeAll(async () => {
+    b = await launch();
+  });
+  afterAll(async () => {
+    await b?.close();
+  });
+
+  it('warns about clipping and about phone microphones below 100 Hz', async () => {
+    const { page } = b;
+    const { synthesize } = await import('../../dsp/synth');
+    const { encodeWav } = await import('../../dsp/io/wav-write');
+    // 80 Hz at peak 1.4: the 16-bit encoder clips every crest at full scale (dsp/io/wav-write.ts).
+    const fs = 48_000;
+    const tone = synthesize({ sampleRateHz: fs, durationS: 4, tones: [{ frequencyHz: 80, envelope: (t) => (t > 1 && t < 3 ? 1.4 : 0.05) }], noiseRms: 0.001, seed: 5 });
+    await page.goto(APP_URL);
+    await page.waitForSelector('#listen-button');
+    await page.setInputFiles('#file-input', writeFixture('flue-80hz-clipped.wav', encodeWav(tone, fs, 'pcm16')));
+    await expect.poll(() => page.locator('#run-result').isVisible(), { timeout: 60_000 }).toBe(true);
+    expect((await page.locator('#run-result').textContent()) ?? '').toMatch(/The input clipped \(\d:\d\d\.\d–\d:\d\d\.\d/);
+    const f = firstNumber(await page.locator('#readout-frequency .tile-value').textContent());
+    // 80 Hz within 0.5 % (the frequency tolerance).
+    expect(Math.abs(f - 80) / 80).toBeLessThan(0.005);
+    expect((await page.locator('#readout-frequency .tile-detail').textContent()) ?? '').toMatch(/Below 100 Hz phone microphones roll off/);
+    await screenshot(page, 'file-clipped-low-tone');
+  });
+});

@@ -178,6 +178,13 @@ export function createReadouts(host: HTMLElement): Readouts {
         table.append(tr);
       }
       const out: HTMLElement[] = [h, p, table];
+      if (report.clipped?.length) {
+        const cp = document.createElement('p');
+        cp.className = 'alert clipped-note';
+        const spans = report.clipped.slice(0, 5).map((c) => `${formatClock(c.startS)}–${formatClock(c.endS)}`).join(', ');
+        cp.textContent = `The input clipped (${spans}${report.clipped.length > 5 ? ', …' : ''}): levels there read low and rates fitted across it are unreliable. Move the phone further away.`;
+        out.push(cp);
+      }
       for (const n of report.noiseDriven) {
         const np = document.createElement('p');
         np.textContent = `Noise-excited resonance at ${formatHz(n.frequencyHz)} (${formatClock(n.startS)}–${formatClock(n.endS)}): decay rate ${formatRate(n.decayRatePerS, n.decayRateCi95PerS)}.`;
