@@ -42,6 +42,7 @@ interface Run {
   reportWaiters: ((r: Report | null) => void)[];
   startedAtMs: number;
   fileDurationS: number;
+  /** Name of the opened recording (file runs). */
   decodedBy: string;
   analysisMs: number;
   samplesAnalysed: number;
@@ -443,7 +444,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
     const r = newRun('file');
     run = r;
     r.fileDurationS = decoded.durationS;
-    r.decodedBy = decoded.decodedBy;
+    r.decodedBy = decoded.fileName;
     const settings = loadSettings();
     bandHighHz = settings.bandHighHz;
     bandLowHz = settings.bandLowHz;
