@@ -112,17 +112,51 @@ export function findPeaks(st: SpectrumState, loBin: number, hiBin: number, minPr
 }
 
 /**
+ * Power leaked by a periodic-Hann windowed tone into a bin d bins away, relative to its peak:
+ * |sinc(d)/(1 − d²)|² bounded by its envelope 1/(π d (d² − 1))² (Harris 1978). Used to tell a
+ * strong tone's sidelobes from a second tone.
+ */
+export function hannLeakagePower(offsetBins: number): number {
+  const d = Math.abs(offsetBins);
+  if (d < 2) return 1;
+  const a = 1 / (Math.PI * d * (d * d - 1));
+  return a * a;
+}
+
+/** A peak must stand this far (dB) over a stronger peak's sidelobe envelope to count as a tone. */
+const LEAKAGE_MARGIN_DB = 10;
+
+/**
+ * Marks peaks that are sidelobes of a stronger peak (harmonicOf = 1): their power is within
+ * LEAKAGE_MARGIN_DB of the stronger peak's Hann leakage at that distance. Allocates nothing.
+ */
+export function suppressLeakage(st: SpectrumState, peaks: PeakList): void {
+  const margin = 10 ** (LEAKAGE_MARGIN_DB / 10);
+  for (let j = 0; j < peaks.count; j++) {
+    for (let i = 0; i < peaks.count; i++) {
+      if (i === j || peaks.power[i] <= peaks.power[j]) continue;
+      const d = (peaks.freqHz[j] - peaks.freqHz[i]) / st.binHz;
+      if (peaks.power[j] < margin * peaks.power[i] * hannLeakagePower(d)) {
+        peaks.harmonicOf[j] = 1;
+        break;
+      }
+    }
+  }
+}
+
+/**
  * Harmonic grouping: a peak lying at n × the frequency of a lower peak (n = 2..8, within
  * tolerance) is marked as that peak's n-th harmonic; a strong peak whose half or third shows a
  * weaker local maximum (prominence ≥ subMinProminenceDb) is moved down to that fundamental.
- * Afterwards only peaks with harmonicOf = 0 are fundamentals. Allocates nothing.
+ * Afterwards only peaks with harmonicOf = 0 are fundamentals. Run suppressLeakage first (its marks
+ * are kept). Allocates nothing.
  */
 export function groupHarmonics(st: SpectrumState, peaks: PeakList, loBin: number, hiBin: number, subMinProminenceDb: number): void {
   const binHz = st.binHz;
   // 1. Move strong peaks down to a weaker fundamental at f/2 or f/3 (repeat for f/4 = (f/2)/2).
   // Only clear tones are moved: a noise peak's "subharmonic" would be another noise peak.
   for (let i = 0; i < peaks.count; i++) {
-    if (peaks.prominenceDb[i] < SUBHARMONIC_SOURCE_MIN_DB) continue;
+    if (peaks.prominenceDb[i] < SUBHARMONIC_SOURCE_MIN_DB || peaks.harmonicOf[i] !== 0) continue;
     for (let iter = 0; iter < 3; iter++) {
       let moved = false;
       for (let n = 2; n <= 3 && !moved; n++) {

@@ -28,7 +28,7 @@ import {
   type EnvelopeState,
 } from './envelope';
 import { backgroundCrossingTimeS, fitExponential, fitSaturation, studentTQuantile } from './fit';
-import { createPeakList, findPeaks, groupHarmonics, neighbourNoisePower, type PeakList } from './peak';
+import { createPeakList, findPeaks, groupHarmonics, neighbourNoisePower, suppressLeakage, type PeakList } from './peak';
 import {
   beginRegimeStep,
   createRegimeState,
@@ -678,6 +678,7 @@ function processFrame(ps: PipelineState): void {
   for (let k = 0; k < spec.binCount; k++) slot[k] = spec.power[k];
 
   findPeaks(spec, ps.loBin, ps.hiBin, PEAK_MIN_DB, ps.peaks);
+  suppressLeakage(spec, ps.peaks);
   groupHarmonics(spec, ps.peaks, ps.loBin, ps.hiBin, SUBHARMONIC_MIN_DB);
   stepTracker(ps.tracker, ps.aliveTones, ps.peaks, frameIdx, tF, NEW_TRACK_MIN_DB);
 

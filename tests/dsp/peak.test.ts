@@ -9,7 +9,9 @@ import {
   groupHarmonics,
   hannAmplitudeResponse,
   hannPeakOffset,
+  hannLeakagePower,
   neighbourNoisePower,
+  suppressLeakage,
 } from '../../dsp/peak';
 import { computeSpectrumFrame, createSpectrumState, feedSpectrum, type SpectrumState } from '../../dsp/spectrum';
 import { createRng, mainsHum, synthesize } from '../../dsp/synth';
@@ -92,6 +94,7 @@ function fundamentals(st: SpectrumState): number[] {
   const lo = 5;
   const hi = st.binCount - 2;
   findPeaks(st, lo, hi, 6, peaks);
+  suppressLeakage(st, peaks);
   groupHarmonics(st, peaks, lo, hi, 6);
   const out: number[] = [];
   for (let i = 0; i < peaks.count; i++) if (peaks.harmonicOf[i] === 0 && peaks.prominenceDb[i] >= 12) out.push(peaks.freqHz[i]);
@@ -151,6 +154,15 @@ describe('peaks and harmonic grouping', () => {
     expect(f).toHaveLength(2);
     expect(Math.abs(f[0] - 171)).toBeLessThan(0.05);
     expect(Math.abs(f[1] - 263.5)).toBeLessThan(0.05);
+  });
+
+  it('does not take the sidelobes of a loud tone for tones (80 dB over the noise)', () => {
+    // −10 dBFS tone over −60 dBFS noise: the Hann sidelobes stand out of the noise for ~15 bins.
+    const x = synthesize({ sampleRateHz: fs, durationS: 2, tones: [{ frequencyHz: 171, envelope: () => 0.3 }], noiseRms: 0.001, seed: 8 });
+    const f = fundamentals(spectrumOf(x, fs, 4096));
+    expect(f).toHaveLength(1);
+    // Hann leakage envelope 1/(π d (d² − 1)) (Harris 1978): at 10 bins 20·log10(1/(990 π)) = −69.86 dB.
+    expect(10 * Math.log10(hannLeakagePower(10))).toBeCloseTo(-69.86, 2);
   });
 
   it('finds no tone in white noise', () => {
