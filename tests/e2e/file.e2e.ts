@@ -32,6 +32,8 @@ describe('opening a recording', () => {
     expect(notes).toMatch(/bench-rig-cycle\.wav: WAV PCM 16-bit/);
     expect(notes).toMatch(/48000 Hz/);
     expect((await page.locator('#run-result').textContent()) ?? '').toMatch(/at 48000 Hz/);
+    // The analysed recording is kept as a session (the store may open after a short file is done).
+    await expect.poll(() => page.locator('#run-result a.big-link').count(), { timeout: 15_000 }).toBe(1);
     await screenshot(page, 'file-result');
   });
 

@@ -37,6 +37,8 @@ interface Run {
   recorder: SessionRecorder | null;
   /** Frames that arrived before the recorder was ready. */
   pendingRecorderWork: ((r: SessionRecorder) => void)[];
+  /** Settles once the session recorder is open (or failed to open). */
+  recorderReady: Promise<void>;
   calibration: Calibration | undefined;
   report: Report | null;
   reportWaiters: ((r: Report | null) => void)[];
@@ -161,6 +163,9 @@ export const mountListenScreen: MountScreen = (root, app) => {
     };
     w.onerror = (ev) => {
       ev.preventDefault();
+      // A worker that threw at top level is not trusted again: the next run starts a fresh one.
+      w.terminate();
+      if (worker === w) worker = null;
       showAlert(`The analysis stopped with an error: ${ev.message || 'unknown'}. What was measured so far is kept.`);
       void stop('error');
     };
@@ -292,6 +297,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
       mic: null,
       recorder: null,
       pendingRecorderWork: [],
+      recorderReady: Promise.resolve(),
       calibration: undefined,
       report: null,
       reportWaiters: [],
@@ -303,7 +309,11 @@ export const mountListenScreen: MountScreen = (root, app) => {
     };
   }
 
-  async function openRecorder(r: Run, meta: NewSessionMeta): Promise<void> {
+  function openRecorder(r: Run, meta: NewSessionMeta): void {
+    r.recorderReady = openRecorderNow(r, meta);
+  }
+
+  async function openRecorderNow(r: Run, meta: NewSessionMeta): Promise<void> {
     try {
       const recorder = await startSessionRecording(meta);
       recorder.onProblem((message) => app.notify(`Session store: ${message}`, 'warn'));
@@ -409,7 +419,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
 
     const captureSettings: Record<string, unknown> = { ...mic.settings };
     for (const k of PROCESSING_KEYS) captureSettings[`${k}Requested`] = false;
-    void openRecorder(r, {
+    openRecorder(r, {
       source: 'microphone',
       sampleRateHz: mic.sampleRateHz,
       geometry: readGeometry(),
@@ -452,7 +462,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
     setNotes([`${decoded.fileName}: ${decoded.decodedBy}, ${decoded.sampleRateHz} Hz, ${formatSeconds(decoded.durationS)}.`, ...decoded.notes]);
     progress.value = 0;
     progressText.textContent = '0 % analysed';
-    void openRecorder(r, {
+    openRecorder(r, {
       source: 'file',
       fileName: decoded.fileName,
       sampleRateHz: decoded.sampleRateHz,
@@ -491,6 +501,8 @@ export const mountListenScreen: MountScreen = (root, app) => {
     const report = why === 'error' ? null : await waitForReport(r, 20_000);
     stopDrawing();
     progressRow.hidden = true;
+    // A short file can finish before the session store has opened: wait for it (bounded).
+    await Promise.race([r.recorderReady, new Promise((resolve) => setTimeout(resolve, 10_000))]);
     if (report) {
       showResult(r, report);
       if (r.recorder) {
