@@ -267,50 +267,64 @@ export type AudioAnalyser = (audio: Float32Array, sampleRateHz: number, markers:
 export async function recoverInterruptedSessions(db: SessionDb, analyse: AudioAnalyser | null, nowMs = Date.now(), liveCheck: LiveCheck = webLockLiveCheck): Promise<string[]> {
   const done: string[] = [];
   for (const rec of await findInterruptedSessions(db, nowMs, liveCheck)) {
-    // Mark first, so a second tab starting at the same moment does not also take it.
-    const mark = db.transaction('sessions', 'readwrite');
-    const fresh = await mark.store.get(rec.id);
-    if (!fresh || (fresh.status !== 'recording' && fresh.status !== 'interrupted')) {
-      await mark.done;
-      continue;
-    }
-    await mark.store.put({ ...fresh, status: 'interrupted', updatedAtMs: nowMs });
-    await mark.done;
-
-    const track = await loadTrack(db, rec.id);
-    const audio = await loadAudio(db, rec.id);
-    let report: Report | null = null;
-    let how = '';
-    if (audio && audio.length > 0 && analyse) {
-      try {
-        report = await analyse(audio, fresh.meta.sampleRateHz, fresh.markers);
-        if (report) how = `analysed again from ${(audio.length / fresh.meta.sampleRateHz).toFixed(1)} s of stored audio`;
-      } catch {
-        report = null;
-      }
-    }
-    if (!report) {
-      report = summariseTrack(track, fresh.meta.sampleRateHz);
-      how = `summarised from ${track.length} stored track frames (no audio analysis)`;
-    }
-    const last = track.length ? track[track.length - 1].timeS : 0;
-    const audioS = audio ? audio.length / fresh.meta.sampleRateHz : 0;
-    const tx = db.transaction('sessions', 'readwrite');
-    const cur = await tx.store.get(rec.id);
-    if (cur) {
-      await tx.store.put({
-        ...cur,
-        status: 'recovered',
-        report,
-        durationS: Math.max(cur.durationS, last, audioS),
-        updatedAtMs: nowMs,
-        history: [...cur.history, `Recording was interrupted; completed on ${new Date(nowMs).toISOString()}, ${how}.`],
-      });
-    }
-    await tx.done;
-    done.push(rec.id);
+    // Hold the session's recording lock while completing it, so a second tab starting at the same
+    // moment finds it taken and leaves it alone.
+    const isDone = await whileHoldingRecordingLock(rec.id, () => completeOne(db, rec.id, analyse, nowMs));
+    if (isDone) done.push(rec.id);
   }
   return done;
+}
+
+/** Runs fn while holding the session's recording lock (Web Locks); false without running it when another tab holds it. */
+async function whileHoldingRecordingLock(id: string, fn: () => Promise<boolean>): Promise<boolean> {
+  const locks = typeof navigator !== 'undefined' ? navigator.locks : undefined;
+  if (!locks) return fn();
+  return locks.request(recordingLockName(id), { ifAvailable: true }, async (lock) => (lock ? fn() : false));
+}
+
+/** Completes one interrupted session from its stored audio or track; false when it needs nothing. */
+async function completeOne(db: SessionDb, id: string, analyse: AudioAnalyser | null, nowMs: number): Promise<boolean> {
+  const mark = db.transaction('sessions', 'readwrite');
+  const fresh = await mark.store.get(id);
+  if (!fresh || (fresh.status !== 'recording' && fresh.status !== 'interrupted')) {
+    await mark.done;
+    return false;
+  }
+  await mark.store.put({ ...fresh, status: 'interrupted', updatedAtMs: nowMs });
+  await mark.done;
+
+  const track = await loadTrack(db, id);
+  const audio = await loadAudio(db, id);
+  let report: Report | null = null;
+  let how = '';
+  if (audio && audio.length > 0 && analyse) {
+    try {
+      report = await analyse(audio, fresh.meta.sampleRateHz, fresh.markers);
+      if (report) how = `analysed again from ${(audio.length / fresh.meta.sampleRateHz).toFixed(1)} s of stored audio`;
+    } catch {
+      report = null;
+    }
+  }
+  if (!report) {
+    report = summariseTrack(track, fresh.meta.sampleRateHz);
+    how = `summarised from ${track.length} stored track frames (no audio analysis)`;
+  }
+  const last = track.length ? track[track.length - 1].timeS : 0;
+  const audioS = audio ? audio.length / fresh.meta.sampleRateHz : 0;
+  const tx = db.transaction('sessions', 'readwrite');
+  const cur = await tx.store.get(id);
+  if (cur) {
+    await tx.store.put({
+      ...cur,
+      status: 'recovered',
+      report,
+      durationS: Math.max(cur.durationS, last, audioS),
+      updatedAtMs: nowMs,
+      history: [...cur.history, `Recording was interrupted; completed on ${new Date(nowMs).toISOString()}, ${how}.`],
+    });
+  }
+  await tx.done;
+  return true;
 }
 
 /** Space figures for the storage panel, bytes. */
