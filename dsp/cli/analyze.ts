@@ -14,6 +14,7 @@ import { renderSummary, type InputFacts } from './format';
 import { CliError, EXIT, type CliIo } from './io';
 import { fileSize, readChunks, sniffKind } from './read-file';
 
+/** Text of `humgauge analyze --help`: every option, an example, the units. */
 export const ANALYZE_HELP = `Usage: humgauge analyze FILE [options]
 
 Finds tones and their onsets in a recording, splits the main tone's history into
@@ -64,6 +65,7 @@ export function exitCodeOf(problem: InputProblem): number {
   }
 }
 
+/** Parsed options of `humgauge analyze`. */
 export interface AnalyzeOptions {
   file: string;
   output: 'summary' | 'json' | 'csv';

@@ -10,8 +10,10 @@ import { CliError, EXIT, processIo, type CliIo } from './io';
 import { runModes } from './modes';
 import { runSimulate } from './simulate';
 
+/** Version shown by --version (package.json "version"). */
 export const VERSION = '0.1.0';
 
+/** Text of `humgauge --help`: commands, the analyze options, the exit codes. */
 export const MAIN_HELP = `humgauge ${VERSION} - thermoacoustic hum analyser
 
 Usage
