@@ -164,9 +164,20 @@ export function resetEnvelope(st: EnvelopeState, phase: number): void {
 
 /**
  * Demodulates x[start .. end): writes |z|² of each completed envelope sample into out (narrow
- * band) and outWide (wide band) from outAt on; returns the number written. Allocates nothing.
+ * band) and outWide (wide band), and arg z of the narrow band (rad) into outPhase, from outAt on;
+ * returns the number written. While the demodulation frequency stays fixed, arg z advances at
+ * 2π (f_tone − f_demod) per second. Allocates nothing.
  */
-export function stepEnvelope(st: EnvelopeState, x: Float32Array, start: number, end: number, out: Float64Array, outWide: Float64Array, outAt: number): number {
+export function stepEnvelope(
+  st: EnvelopeState,
+  x: Float32Array,
+  start: number,
+  end: number,
+  out: Float64Array,
+  outWide: Float64Array,
+  outPhase: Float64Array,
+  outAt: number,
+): number {
   const m = st.decimation;
   const h = st.kernel;
   const len = st.kernelLength;
@@ -230,6 +241,7 @@ export function stepEnvelope(st: EnvelopeState, x: Float32Array, start: number, 
       im += h[q] * hi[base + q];
     }
     out[k] = re * re + im * im;
+    outPhase[k] = Math.atan2(im, re);
     let wr = 0;
     let wi = 0;
     for (let q = 0; q < lw; q++) {

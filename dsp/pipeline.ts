@@ -92,6 +92,8 @@ const ENVELOPE_BANDWIDTH_HZ = 5;
  */
 const ENVELOPE_WIDE_BANDWIDTH_HZ = 20;
 const WIDE_CLEARANCE_HZ = 100;
+/** The demodulator follows the tone only when it has moved this far, Hz (the band loses < 0.1 dB at 1 Hz). */
+const RETUNE_HZ = 1;
 /** Look-ahead onset test: the regime's thresholds (regime.ts ON_DB, LOW_DB). */
 const ON_DB_LOOKAHEAD = 12;
 const LOW_DB_LOOKAHEAD = 3;
@@ -142,6 +144,9 @@ interface TrackRuntime {
   power: Float32Array;
   /** Same envelope through the wide band (for fits). */
   powerWide: Float32Array;
+  /** arg z of the narrow band, rad, and the demodulation frequency it refers to, Hz. */
+  phase: Float32Array;
+  demodHz: Float32Array;
   timeS: Float64Array;
   bg: Float32Array;
   state: Uint8Array;
@@ -179,6 +184,7 @@ interface PipelineState {
   envDelayS: number;
   envScratch: Float64Array;
   envWideScratch: Float64Array;
+  envPhaseScratch: Float64Array;
   rowEvery: number;
   /** Analysis samples produced (global index of the next one). */
   j: number;
@@ -244,6 +250,12 @@ function growTrackStore(tr: TrackRuntime, need: number): void {
   const pw = new Float32Array(cap);
   pw.set(tr.powerWide.subarray(0, tr.n));
   tr.powerWide = pw;
+  const ph = new Float32Array(cap);
+  ph.set(tr.phase.subarray(0, tr.n));
+  tr.phase = ph;
+  const dh = new Float32Array(cap);
+  dh.set(tr.demodHz.subarray(0, tr.n));
+  tr.demodHz = dh;
   const t = new Float64Array(cap);
   t.set(tr.timeS.subarray(0, tr.n));
   const b = new Float32Array(cap);
@@ -270,6 +282,8 @@ function appendEnvelope(ps: PipelineState, tr: TrackRuntime, count: number, gFir
     const k = tr.n++;
     tr.power[k] = ps.envScratch[q];
     tr.powerWide[k] = ps.envWideScratch[q];
+    tr.phase[k] = ps.envPhaseScratch[q];
+    tr.demodHz[k] = tr.env.freqHz;
     tr.timeS[k] = timeOfG(ps, g);
     // An output is affected by clipping while a clipped boxcar lies inside its kernel.
     if (ps.envClip[g % ringLen]) tr.clipCountdown = tr.env.kernelLength;
@@ -304,6 +318,8 @@ function createTrackRuntime(ps: PipelineState, freqHz: number, promDb: number, f
     n: 0,
     power: new Float32Array(cap),
     powerWide: new Float32Array(cap),
+    phase: new Float32Array(cap),
+    demodHz: new Float32Array(cap),
     timeS: new Float64Array(cap),
     bg: new Float32Array(cap),
     state: new Uint8Array(cap),
@@ -336,7 +352,7 @@ function startTrack(ps: PipelineState, freqHz: number, promDb: number, frameIdx:
   while (j < ps.j) {
     const at = j % cap;
     const len = Math.min(ps.j - j, cap - at, ps.envScratch.length * m - m);
-    const cnt = stepEnvelope(tr.env, ps.ring, at, at + len, ps.envScratch, ps.envWideScratch, 0);
+    const cnt = stepEnvelope(tr.env, ps.ring, at, at + len, ps.envScratch, ps.envWideScratch, ps.envPhaseScratch, 0);
     appendEnvelope(ps, tr, cnt, g);
     g += cnt;
     j += len;
@@ -406,7 +422,70 @@ function advanceRegime(ps: PipelineState, tr: TrackRuntime, tMax: number): void 
   }
 }
 
+/**
+ * Frequency of a tone over a segment from the phase of its demodulated envelope: while the
+ * demodulation frequency f_d is fixed, arg z(t) = 2π (f − f_d) t + const, so a straight line
+ * through the unwrapped phase (weighted by |z|², over samples ≥ 6 dB over the band background,
+ * restarting at every exclusion or retune) gives f. This approaches the accuracy of a fit to the
+ * whole waveform (Rife & Boorstyn 1974) where a spectral peak is limited by its frame. Falls back
+ * to the median of the spectral track.
+ */
 function segmentFrequency(tr: TrackRuntime, s: RegimeSegment): number {
+  let sumW = 0;
+  let sumWF = 0;
+  // Normal equations of the current piece.
+  let n = 0;
+  let sw = 0;
+  let st = 0;
+  let sy = 0;
+  let stt = 0;
+  let sty = 0;
+  let unwrapped = 0;
+  let prev = 0;
+  let demod = 0;
+  const close = (): void => {
+    if (n >= 8) {
+      const sxx = stt - (st * st) / sw;
+      if (sxx > 0) {
+        const slope = (sty - (st * sy) / sw) / sxx;
+        sumW += sxx;
+        sumWF += sxx * (demod + slope / (2 * Math.PI));
+      }
+    }
+    n = 0;
+    sw = 0;
+    st = 0;
+    sy = 0;
+    stt = 0;
+    sty = 0;
+  };
+  for (let k = Math.max(s.startIdx, tr.validFrom); k < s.endIdx; k++) {
+    const w = tr.power[k];
+    const usable = !tr.clipped[k] && w > 4 * tr.bg[k];
+    if (!usable || (n > 0 && tr.demodHz[k] !== demod)) close();
+    if (!usable) continue;
+    const th = tr.phase[k];
+    if (n === 0) {
+      unwrapped = th;
+      demod = tr.demodHz[k];
+    } else {
+      let d = th - prev;
+      if (d > Math.PI) d -= 2 * Math.PI;
+      else if (d < -Math.PI) d += 2 * Math.PI;
+      unwrapped += d;
+    }
+    prev = th;
+    // Times relative to the segment start keep the sums well conditioned.
+    const t = tr.timeS[k] - tr.timeS[s.startIdx];
+    n++;
+    sw += w;
+    st += w * t;
+    sy += w * unwrapped;
+    stt += w * t * t;
+    sty += w * t * unwrapped;
+  }
+  close();
+  if (sumW > 0) return sumWF / sumW;
   const t0 = tr.timeS[s.startIdx];
   const t1 = tr.timeS[Math.max(s.startIdx, s.endIdx - 1)];
   return medianFrequencyHz(tr.tone, t0 - 0.2, t1 + 0.2);
@@ -688,7 +767,9 @@ function processFrame(ps: PipelineState): void {
       tr.isSteadyLine = true;
       tr.regime.allowOnsets = false;
     }
-    setEnvelopeFrequency(tr.env, tr.tone.freqHz);
+    // Retune only when the tone has moved well inside the band: a fixed demodulation frequency
+    // keeps arg z a straight line whose slope gives the frequency precisely (segmentFrequency).
+    if (Math.abs(tr.tone.freqHz - tr.env.freqHz) > RETUNE_HZ) setEnvelopeFrequency(tr.env, tr.tone.freqHz);
     tr.bgFrame[frameIdx % fr] = bandBackground(ps, spec.power, tr.tone.freqHz);
   }
   // New tones.
@@ -806,7 +887,7 @@ function processConditioned(ps: PipelineState): void {
     for (const tr of ps.alive) {
       // Demodulators share the envelope clock: the next output closes the boxcar ending at a multiple of m.
       const g = (ps.j + m - tr.env.phase) / m - 1;
-      const produced = stepEnvelope(tr.env, x, i, i + k, ps.envScratch, ps.envWideScratch, 0);
+      const produced = stepEnvelope(tr.env, x, i, i + k, ps.envScratch, ps.envWideScratch, ps.envPhaseScratch, 0);
       appendEnvelope(ps, tr, produced, g);
     }
     ps.j = j;
@@ -1071,7 +1152,12 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
         while (k1 < series.power.length && !(series.power[k1] > 0.01 * limitPower)) k1++;
         const early: EnvelopeSeries = { timeS: series.timeS.subarray(0, k1), power: series.power.subarray(0, k1), bandwidthHz: series.bandwidthHz };
         const exp = fitExponential(early, { ...opts, refTimeS: early.timeS.length > 0 ? early.timeS[0] : startS });
-        if (exp.isValid && exp.ratePerS > 0) {
+        // Keep the flexible fit when it is the more precise and agrees with the early part (a
+        // sharp knee that the wide band resolves); otherwise the early exponential.
+        const half = (f: RateFit): number => 0.5 * (f.ci95PerS[1] - f.ci95PerS[0]);
+        const genAgrees =
+          sat.isValid && exp.isValid && Math.abs(sat.ratePerS - exp.ratePerS) <= Math.hypot(half(sat), half(exp)) && half(sat) < half(exp);
+        if (exp.isValid && exp.ratePerS > 0 && !genAgrees) {
           fit = exp;
           report.model = 'exponential';
         }
@@ -1326,6 +1412,7 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
     envDelayS: probe.delayS,
     envScratch: new Float64Array(1024),
     envWideScratch: new Float64Array(1024),
+    envPhaseScratch: new Float64Array(1024),
     rowEvery: Math.max(1, Math.round(probe.outputRateHz / ROW_RATE_HZ)),
     j: 0,
     jBase: 0,

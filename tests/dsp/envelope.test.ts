@@ -9,19 +9,22 @@ import { createRng } from '../../dsp/synth';
 
 const FS = 12000;
 
-function demodulate(st: EnvelopeState, x: Float32Array): { narrow: Float64Array; wide: Float64Array } {
+function demodulate(st: EnvelopeState, x: Float32Array): { narrow: Float64Array; wide: Float64Array; phase: Float64Array } {
   const narrow = new Float64Array(Math.ceil(x.length / st.decimation));
   const wide = new Float64Array(narrow.length);
+  const phase = new Float64Array(narrow.length);
   const chunkN = new Float64Array(1024);
   const chunkW = new Float64Array(1024);
+  const chunkP = new Float64Array(1024);
   let o = 0;
   for (let i = 0; i < x.length; i += 4000) {
-    const n = stepEnvelope(st, x, i, Math.min(x.length, i + 4000), chunkN, chunkW, 0);
+    const n = stepEnvelope(st, x, i, Math.min(x.length, i + 4000), chunkN, chunkW, chunkP, 0);
     narrow.set(chunkN.subarray(0, n), o);
     wide.set(chunkW.subarray(0, n), o);
+    phase.set(chunkP.subarray(0, n), o);
     o += n;
   }
-  return { narrow: narrow.subarray(0, o), wide: wide.subarray(0, o) };
+  return { narrow: narrow.subarray(0, o), wide: wide.subarray(0, o), phase: phase.subarray(0, o) };
 }
 
 function make(freqHz: number): EnvelopeState {
@@ -76,6 +79,23 @@ describe('envelope', () => {
       expect(Math.abs(Math.sqrt(narrow[k]) / 0.25 - 1)).toBeLessThan(1e-4);
       expect(Math.abs(Math.sqrt(wide[k]) / 0.25 - 1)).toBeLessThan(3e-3);
     }
+  });
+
+  it('turns a frequency offset into a phase slope of 2π Δf (frequency from the phase)', () => {
+    const st = make(171);
+    const x = new Float32Array(3 * FS);
+    for (let i = 0; i < x.length; i++) x[i] = 0.1 * Math.cos((2 * Math.PI * 171.3 * i) / FS);
+    const { phase } = demodulate(st, x);
+    const y: number[] = [];
+    let u = phase[st.settleSamples];
+    for (let k = st.settleSamples; k < phase.length; k++) {
+      let d = phase[k] - (k > st.settleSamples ? phase[k - 1] : phase[k]);
+      if (d > Math.PI) d -= 2 * Math.PI;
+      if (d < -Math.PI) d += 2 * Math.PI;
+      u += d;
+      y.push(u);
+    }
+    expect(Math.abs(slopePerS(y, 300) / (2 * Math.PI) - 0.3)).toBeLessThan(1e-4);
   });
 
   it('keeps the rate of a pure exponential (growth 50 1/s and decay 8 1/s)', () => {
