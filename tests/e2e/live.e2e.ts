@@ -35,6 +35,10 @@ describe('live listening with a hum cycle as the microphone', () => {
   it('shows the tone, growth and decay of the truth, with intervals, and a marker in the track', async () => {
     const { page } = b;
     await screenshot(page, 'listen-idle');
+    // The duct screen keeps the geometry here; the session takes it along (REFERENCES.md §2 example duct).
+    await page.evaluate(() =>
+      localStorage.setItem('humgauge.ductGeometry', JSON.stringify({ lengthM: 1.2, diameterM: 0.048, ends: 'open-open', openEnd: 'unflanged', gasTemperatureC: 20 })),
+    );
     await page.click('#listen-button');
     await expect.poll(() => page.locator('#listen-button').textContent(), { timeout: 15_000 }).toBe('Stop');
 
@@ -110,7 +114,7 @@ describe('live listening with a hum cycle as the microphone', () => {
     // Read the stored session straight from IndexedDB (store names of web/storage/db.ts).
     const stored = await page.evaluate(
       (sessionId) =>
-        new Promise<{ markerKinds: string[]; hasReport: boolean; frames: number; captureSettings: Record<string, unknown> | null }>((resolve, reject) => {
+        new Promise<{ markerKinds: string[]; hasReport: boolean; frames: number; captureSettings: Record<string, unknown> | null; lengthM: number | null }>((resolve, reject) => {
           const open = indexedDB.open('humgauge');
           open.onerror = () => reject(new Error('cannot open the database'));
           open.onsuccess = () => {
@@ -119,12 +123,13 @@ describe('live listening with a hum cycle as the microphone', () => {
             const get = tx.objectStore('sessions').get(sessionId);
             const count = tx.objectStore('frames').count(IDBKeyRange.bound([sessionId, 0], [sessionId, Number.MAX_SAFE_INTEGER]));
             tx.oncomplete = () => {
-              const rec = get.result as { markers?: { kind: string }[]; report?: unknown; meta?: { captureSettings?: Record<string, unknown> }; captureSettings?: Record<string, unknown> } | undefined;
+              const rec = get.result as { markers?: { kind: string }[]; report?: unknown; meta?: { captureSettings?: Record<string, unknown>; geometry?: { lengthM: number } } } | undefined;
               resolve({
                 markerKinds: (rec?.markers ?? []).map((m) => m.kind),
                 hasReport: Boolean(rec?.report),
                 frames: count.result,
-                captureSettings: rec?.meta?.captureSettings ?? rec?.captureSettings ?? null,
+                captureSettings: rec?.meta?.captureSettings ?? null,
+                lengthM: rec?.meta?.geometry?.lengthM ?? null,
               });
               db.close();
             };
@@ -136,6 +141,9 @@ describe('live listening with a hum cycle as the microphone', () => {
     expect(stored.hasReport).toBe(true);
     expect(stored.frames).toBeGreaterThan(0);
     expect(stored.captureSettings?.autoGainControl).toBe(false);
+    expect(stored.captureSettings?.echoCancellation).toBe(false);
+    expect(stored.captureSettings?.noiseSuppression).toBe(false);
+    expect(stored.lengthM).toBe(1.2);
   });
 
   it('shows the other screens (screenshots for review)', async () => {

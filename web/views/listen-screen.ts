@@ -55,7 +55,10 @@ function readGeometry(): DuctGeometry | undefined {
     const raw = localStorage.getItem(GEOMETRY_KEY);
     if (!raw) return undefined;
     const g = JSON.parse(raw) as Partial<DuctGeometry>;
-    if (typeof g.lengthM !== 'number' || typeof g.diameterM !== 'number') return undefined;
+    const isPositive = (v: unknown): boolean => typeof v === 'number' && Number.isFinite(v) && v > 0;
+    if (!isPositive(g.lengthM) || !isPositive(g.diameterM) || typeof g.gasTemperatureC !== 'number' || !Number.isFinite(g.gasTemperatureC)) return undefined;
+    if (g.ends !== 'open-open' && g.ends !== 'open-closed' && g.ends !== 'closed-closed') return undefined;
+    if (g.openEnd !== 'unflanged' && g.openEnd !== 'flanged' && g.openEnd !== 'none') return undefined;
     return g as DuctGeometry;
   } catch {
     return undefined;
