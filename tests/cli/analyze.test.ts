@@ -3,11 +3,11 @@
 // contract: exit codes per failure (dsp/cli/io.ts EXIT), one line on stderr, the report fields of
 // DESIGN.md, the --csv header. The accuracy of the fits is tested beside the fits and in the bench;
 // here the numbers only have to land where the signal puts them, with tolerances argued per check.
-import { mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { main } from '../../dsp/cli/humgauge';
+import { main, VERSION } from '../../dsp/cli/humgauge';
 import { EXIT, type CliIo } from '../../dsp/cli/io';
 import { encodeWav } from '../../dsp/io/wav-write';
 import { humCycleEnvelope, synthesize } from '../../dsp/synth';
@@ -138,6 +138,12 @@ describe('help and usage', () => {
     expect(r.code).toBe(EXIT.OK);
     for (const word of ['analyze FILE', '--json', '--csv', '--band', '--rate', '--channel', 'Example', 'Exit codes', 'modes', 'simulate']) expect(r.out).toContain(word);
     for (const [name, code] of Object.entries(EXIT)) expect(r.out, name).toMatch(new RegExp(`^\\s+${code}\\s`, 'm'));
+  });
+
+  it('--version is the package version', async () => {
+    const pkg = JSON.parse(readFileSync(join(__dirname, '../../package.json'), 'utf8')) as { version: string };
+    expect(VERSION).toBe(pkg.version);
+    expect((await run(['--version'])).out).toBe(`humgauge ${pkg.version}\n`);
   });
 
   it('analyze --help', async () => {
