@@ -212,9 +212,12 @@ function runHalfBand(stg: HalfBandStage, src: Float64Array | null, n: number, ds
   for (let i = stg.parity === 1 ? 0 : 1; i < n; i += 2) {
     const centre = i + h;
     let acc = c0 * w[centre];
+    let lo = centre - 1;
+    let hi = centre + 1;
     for (let j = 0; j < nt; j++) {
-      const off = 2 * j + 1;
-      acc += taps[j] * (w[centre - off] + w[centre + off]);
+      acc += taps[j] * (w[lo] + w[hi]);
+      lo -= 2;
+      hi += 2;
     }
     dst[m++] = acc;
   }
