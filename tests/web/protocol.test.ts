@@ -13,6 +13,7 @@ describe('worker protocol: messages to the worker', () => {
       { type: 'mark', id: 1, marker: { kind: 'driving-off', label: 'driving off' } },
       { type: 'mark', id: 1, marker: { kind: 'setting', label: 'setting 60 %', value: 60, unit: '%' } },
       { type: 'analyse-file', id: 2, config: { sampleRateHz: 48_000 }, channels: [new Float32Array(10)], isKeepingAudio: true },
+      { type: 'analyse-wav', id: 3, file: new Blob([new Uint8Array(44)]), fileName: 'rig.wav', isKeepingAudio: false },
       { type: 'finish', id: 1 },
     ];
     for (const m of good) {
@@ -33,6 +34,8 @@ describe('worker protocol: messages to the worker', () => {
       [{ type: 'analyse-file', id: 1, config: { sampleRateHz: 48_000 }, channels: [] }, /no audio channels/],
       [{ type: 'analyse-file', id: 1, config: { sampleRateHz: 48_000 }, channels: [[0, 1]] }, /no audio channels/],
       [{ type: 'block', id: 1, samples: [0, 0] }, /Float32Array/],
+      [{ type: 'analyse-wav', id: 1, fileName: 'x.wav' }, /no file to read/],
+      [{ type: 'analyse-wav', id: 1, file: new Blob([]) }, /has no name/],
       [{ type: 'gap', id: 1, missingSamples: -5 }, /non-negative/],
       [{ type: 'mark', id: 1, marker: { kind: 'note' } }, /kind and a label/],
       [{ type: 'mark', id: 1, marker: { kind: 'setting', label: 'x', value: Number.POSITIVE_INFINITY } }, /finite number/],

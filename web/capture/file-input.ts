@@ -30,6 +30,16 @@ export class FileProblem extends Error {
   }
 }
 
+/** True when the file starts like a RIFF/RF64 WAVE file (reads its first 12 bytes only). */
+export async function looksLikeWav(file: Blob): Promise<boolean> {
+  if (file.size < 12) return false;
+  try {
+    return isRiffWave(new Uint8Array(await file.slice(0, 12).arrayBuffer()));
+  } catch {
+    return false;
+  }
+}
+
 function isRiffWave(bytes: Uint8Array): boolean {
   if (bytes.length < 12) return false;
   const tag = String.fromCharCode(bytes[0] ?? 0, bytes[1] ?? 0, bytes[2] ?? 0, bytes[3] ?? 0);

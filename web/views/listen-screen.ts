@@ -10,7 +10,7 @@ import type { NewSessionMeta, SessionRecorder } from '../storage/recording-api';
 import { startSessionRecording } from '../storage/recorder';
 import { createScope, type Scope } from '../lifecycle';
 import { CaptureError, keepScreenAwake, openMicrophone, PROCESSING_KEYS, type MicCapture } from '../capture/mic';
-import { decodeAudioFile, FileProblem } from '../capture/file-input';
+import { decodeAudioFile, FileProblem, looksLikeWav } from '../capture/file-input';
 import { missingSeconds, type ClockPair } from '../capture/gap';
 import { isFromWorker, transferablesOf, type FromWorker, type ToWorker, type UpdateMessage } from '../worker/protocol';
 import { emptyLiveSummary, isSameTone, type LiveSummary } from '../worker/live-summary';
@@ -46,6 +46,8 @@ interface Run {
   fileDurationS: number;
   /** Name of the opened recording (file runs). */
   decodedBy: string;
+  /** The recording being read in the worker (kept to fall back to the browser's decoder). */
+  file: File | null;
   analysisMs: number;
   samplesAnalysed: number;
 }
@@ -208,10 +210,24 @@ export const mountListenScreen: MountScreen = (root, app) => {
         if (run.source === 'file') void stop('file-done');
         return;
       }
-      case 'error':
-        showAlert(`The analysis reported a problem: ${m.message}`);
-        if (run.source === 'file') void stop('error');
+      case 'file-format':
+        onFileFormat(run, m.sampleRateHz, m.description, m.durationS);
         return;
+      case 'error': {
+        const r = run;
+        if (r.source === 'file' && m.problem === 'unsupported-encoding' && r.file) {
+          // An encoding our reader does not handle (A-law, ADPCM ...) may still be one the browser decodes.
+          const file = r.file;
+          void r.scope.dispose();
+          run = null;
+          setState('idle');
+          void decodeAndAnalyse(file);
+          return;
+        }
+        showAlert(m.problem ? m.message : `The analysis reported a problem: ${m.message}`);
+        if (r.source === 'file') void stop('error');
+        return;
+      }
       default:
         return;
     }
@@ -307,6 +323,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
       startedAtMs: performance.now(),
       fileDurationS: 0,
       decodedBy: '',
+      file: null,
       analysisMs: 0,
       samplesAnalysed: 0,
     };
@@ -436,6 +453,37 @@ export const mountListenScreen: MountScreen = (root, app) => {
   }
 
   async function openFile(file: File): Promise<void> {
+    if (state !== 'idle') return;
+    if (file.size > 0 && (await looksLikeWav(file))) streamWav(file);
+    else await decodeAndAnalyse(file);
+  }
+
+  /** A WAV is read and analysed in the worker as a stream: bounded memory for recordings of any length. */
+  function streamWav(file: File): void {
+    setState('file');
+    const r = newRun('file');
+    run = r;
+    r.file = file;
+    r.decodedBy = file.name;
+    const settings = loadSettings();
+    bandHighHz = settings.bandHighHz;
+    bandLowHz = settings.bandLowHz;
+    spectrogram?.clear();
+    progressRow.hidden = false;
+    progress.value = 0;
+    progressText.textContent = `Reading “${file.name}”…`;
+    startDrawing();
+    send({ type: 'analyse-wav', id: r.id, file, fileName: file.name, bandLowHz: settings.bandLowHz, bandHighHz: settings.bandHighHz, isKeepingAudio: settings.isKeepingAudio });
+  }
+
+  function onFileFormat(r: Run, sampleRateHz: number, description: string, durationS: number | null): void {
+    const settings = loadSettings();
+    setNotes([`${r.decodedBy}: ${description}, ${sampleRateHz} Hz${durationS !== null ? `, ${formatSeconds(durationS)}` : ''}.`]);
+    openRecorder(r, { source: 'file', fileName: r.decodedBy, sampleRateHz, geometry: readGeometry(), keepAudio: settings.isKeepingAudio });
+  }
+
+  /** Other files (and WAV encodings our reader lacks): decoded whole on this thread, analysed in the worker. */
+  async function decodeAndAnalyse(file: File): Promise<void> {
     if (state !== 'idle') return;
     setState('file');
     showAlert(null);

@@ -5,6 +5,8 @@
  * updates go back to the app in batches of about 66 ms so the app only draws.
  */
 import { createAnalysis } from '../../dsp/index';
+import { createWavDecoder } from '../../dsp/io/wav';
+import { InputError } from '../../dsp/io/errors';
 import type { Analysis, AnalysisConfig, Marker, Onset, Segment, TrackFrame } from '../../dsp/types';
 import { emptyLiveSummary, updateLiveSummary, type LiveSummary } from './live-summary';
 import { parseToWorker, transferablesOf, type FromWorker, type ToWorker, type UpdateMessage } from './protocol';
@@ -195,6 +197,67 @@ function analyseFile(r: Run, channels: Float32Array[]): void {
   finishRun(r);
 }
 
+/** Feeds decoded samples to the run in blocks of FILE_BLOCK_SAMPLES (copied: the decoder reuses its buffer). */
+function feedSamples(r: Run, samples: Float32Array): void {
+  for (let start = 0; start < samples.length; start += FILE_BLOCK_SAMPLES) {
+    pushBlock(r, samples.slice(start, Math.min(samples.length, start + FILE_BLOCK_SAMPLES)));
+    maybePostUpdate(r, false);
+  }
+}
+
+/**
+ * Reads a WAV file as a stream and analyses it as it arrives: memory stays bounded however long
+ * the recording. Problems of the file come back as `error` messages naming the file and the problem.
+ */
+async function analyseWavStream(message: Extract<ToWorker, { type: 'analyse-wav' }>): Promise<void> {
+  const { id, file, fileName } = message;
+  const decoder = createWavDecoder();
+  const reader = file.stream().getReader();
+  let r: Run | null = null;
+  let bytesRead = 0;
+  let nextProgress = 0;
+  try {
+    for (;;) {
+      const { done, value } = await reader.read();
+      if (done) break;
+      if (run !== r && r !== null) return; // a newer run replaced this one
+      bytesRead += value.byteLength;
+      const samples = decoder.push(value);
+      const format = decoder.format;
+      if (!r && format) {
+        r = createRun(id, { sampleRateHz: format.sampleRateHz, bandLowHz: message.bandLowHz, bandHighHz: message.bandHighHz }, message.isKeepingAudio, null);
+        run = r;
+        const frames = decoder.declaredFrames;
+        post({
+          type: 'file-format',
+          id,
+          sampleRateHz: format.sampleRateHz,
+          description: `WAV ${format.encodingName}, ${format.channelCount} channel${format.channelCount === 1 ? '' : 's'}`,
+          durationS: frames !== null ? frames / format.sampleRateHz : null,
+        });
+      }
+      if (r && samples.length) feedSamples(r, samples);
+      const fraction = file.size > 0 ? bytesRead / file.size : 1;
+      if (fraction >= nextProgress) {
+        post({ type: 'progress', id, fraction: Math.min(1, fraction) });
+        nextProgress = fraction + 0.02;
+      }
+    }
+    decoder.end();
+    if (!r) throw new InputError('empty-or-truncated', 'the file ends before its sample data');
+    post({ type: 'progress', id, fraction: 1 });
+    finishRun(r);
+    if (run === r) run = null;
+  } catch (err) {
+    const problem = err instanceof InputError ? err.problem : undefined;
+    const why = err instanceof Error ? err.message : String(err);
+    post({ type: 'error', id, message: `“${fileName}” is a WAV file the analysis cannot use: ${why}.`, ...(problem ? { problem } : {}) });
+    if (r && run === r) run = null;
+  } finally {
+    reader.releaseLock();
+  }
+}
+
 function handle(message: ToWorker): void {
   switch (message.type) {
     case 'start': {
@@ -211,6 +274,12 @@ function handle(message: ToWorker): void {
       analyseFile(run, message.channels);
       return;
     }
+    case 'analyse-wav':
+      if (run?.port) run.port.close();
+      run = null;
+      post({ type: 'ready', id: message.id });
+      void analyseWavStream(message);
+      return;
     default:
       break;
   }

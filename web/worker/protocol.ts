@@ -53,13 +53,27 @@ export interface AnalyseFileRequest {
   isKeepingAudio: boolean;
 }
 
+/**
+ * App → worker: read a WAV file in the worker as a stream (bounded memory for long recordings)
+ * and analyse it. The sample rate comes from the file; the worker answers `file-format` first.
+ */
+export interface AnalyseWavRequest {
+  type: 'analyse-wav';
+  id: number;
+  file: Blob;
+  fileName: string;
+  bandLowHz?: number;
+  bandHighHz?: number;
+  isKeepingAudio: boolean;
+}
+
 /** App → worker: stop the run and return the report. */
 export interface FinishRequest {
   type: 'finish';
   id: number;
 }
 
-export type ToWorker = StartRequest | BlockMessage | GapRequest | MarkRequest | AnalyseFileRequest | FinishRequest;
+export type ToWorker = StartRequest | BlockMessage | GapRequest | MarkRequest | AnalyseFileRequest | AnalyseWavRequest | FinishRequest;
 
 /** Worker → app: the run is set up and accepts blocks. */
 export interface ReadyMessage {
@@ -114,17 +128,29 @@ export interface ReportMessage {
   samplesAnalysed: number;
 }
 
-/** Worker → app: something went wrong; `message` is for the user. */
+/** Worker → app: the format of a WAV read in the worker, known once its header is read. */
+export interface FileFormatMessage {
+  type: 'file-format';
+  id: number;
+  sampleRateHz: number;
+  /** E.g. "WAV PCM 16-bit, 1 channel". */
+  description: string;
+  /** From the declared data size, s; null when the header does not say. */
+  durationS: number | null;
+}
+
+/** Worker → app: something went wrong; `message` is for the user, `problem` names the kind (file readers' codes). */
 export interface ErrorMessage {
   type: 'error';
   id: number;
   message: string;
+  problem?: string;
 }
 
-export type FromWorker = ReadyMessage | UpdateMessage | AudioMessage | ProgressMessage | ReportMessage | ErrorMessage;
+export type FromWorker = ReadyMessage | UpdateMessage | AudioMessage | ProgressMessage | FileFormatMessage | ReportMessage | ErrorMessage;
 
-const TO_WORKER_TYPES: ReadonlySet<string> = new Set(['start', 'block', 'gap', 'mark', 'analyse-file', 'finish']);
-const FROM_WORKER_TYPES: ReadonlySet<string> = new Set(['ready', 'update', 'audio', 'progress', 'report', 'error']);
+const TO_WORKER_TYPES: ReadonlySet<string> = new Set(['start', 'block', 'gap', 'mark', 'analyse-file', 'analyse-wav', 'finish']);
+const FROM_WORKER_TYPES: ReadonlySet<string> = new Set(['ready', 'update', 'audio', 'progress', 'file-format', 'report', 'error']);
 
 function hasTypeAndId(data: unknown): data is { type: string; id: number } {
   if (typeof data !== 'object' || data === null) return false;
@@ -156,6 +182,10 @@ export function parseToWorker(data: unknown): { ok: true; message: ToWorker } | 
       }
       break;
     }
+    case 'analyse-wav':
+      if (typeof Blob === 'undefined' || !(rec.file instanceof Blob)) return { ok: false, reason: 'no file to read' };
+      if (typeof rec.fileName !== 'string') return { ok: false, reason: 'the file has no name' };
+      break;
     case 'block':
       if (!(rec.samples instanceof Float32Array)) return { ok: false, reason: 'block without Float32Array samples' };
       break;
