@@ -1,6 +1,6 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { APP_URL, launch, screenshot, type Launched } from './browser';
-import { firstNumber, HUM_CYCLE, writeFixture, writeHumCycleWav } from './fixtures';
+import { firstNumber, HUM_CYCLE, writeAlawWav, writeFixture, writeHumCycleWav } from './fixtures';
 
 // Opening a recording instead of the microphone: a WAV of known truth analysed in the worker
 // (progress shown, same readouts), and files that cannot be used named with their problem.
@@ -95,5 +95,30 @@ describe('opening a clipped recording of a low tone', () => {
     expect(Math.abs(f - 80) / 80).toBeLessThan(0.005);
     expect((await page.locator('#readout-frequency .tile-detail').textContent()) ?? '').toMatch(/Below 100 Hz phone microphones roll off/);
     await screenshot(page, 'file-clipped-low-tone');
+  });
+});
+
+describe('opening a WAV in an encoding the reader leaves to the browser', () => {
+  let b: Launched;
+  beforeAll(async () => {
+    b = await launch();
+  });
+  afterAll(async () => {
+    await b?.close();
+  });
+
+  it('falls back to the browser decoder for A-law (G.711) and still finds the tone', async () => {
+    const { page } = b;
+    const { synthesize } = await import('../../dsp/synth');
+    const fs = 8000;
+    const tone = synthesize({ sampleRateHz: fs, durationS: 4, tones: [{ frequencyHz: 220, envelope: () => 0.3 }], noiseRms: 0.003, seed: 9 });
+    await page.goto(APP_URL);
+    await page.waitForSelector('#listen-button');
+    await page.setInputFiles('#file-input', writeAlawWav('telephone-alaw.wav', tone, fs));
+    await expect.poll(() => page.locator('#run-result').isVisible(), { timeout: 60_000 }).toBe(true);
+    expect((await page.locator('#listen-notes').textContent()) ?? '').toMatch(/decoded by the browser/);
+    const f = firstNumber(await page.locator('#readout-frequency .tile-value').textContent());
+    // 220 Hz within 0.5 % (the frequency tolerance); A-law quantisation is noise, not a frequency error.
+    expect(Math.abs(f - 220) / 220).toBeLessThan(0.005);
   });
 });

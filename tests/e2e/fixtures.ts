@@ -77,3 +77,49 @@ export function writeCalibratorWav(name: string, amplitude: number, durationS = 
   withTail.set(tone);
   return writeFixture(name, encodeWav(withTail, fs, 'pcm16'));
 }
+
+/**
+ * 16-bit linear sample → 8-bit A-law, ITU-T Rec. G.711 (1988), as in the widely used public-domain
+ * g711.c of Sun Microsystems: segment search on |x|/8, 4 mantissa bits, even bits inverted (0x55).
+ */
+function linearToAlaw(pcm: number): number {
+  const segEnd = [0x1f, 0x3f, 0x7f, 0xff, 0x1ff, 0x3ff, 0x7ff, 0xfff];
+  let v = pcm >> 3;
+  let mask: number;
+  if (v >= 0) mask = 0xd5;
+  else {
+    mask = 0x55;
+    v = -v - 1;
+  }
+  let seg = 0;
+  while (seg < 8 && v > (segEnd[seg] ?? 0)) seg++;
+  if (seg >= 8) return 0x7f ^ mask;
+  const aval = (seg << 4) | (seg < 2 ? (v >> 1) & 0x0f : (v >> seg) & 0x0f);
+  return aval ^ mask;
+}
+
+/** A WAV of A-law samples (format tag 6), an encoding the project's reader leaves to the browser. */
+export function writeAlawWav(name: string, samples: Float32Array, sampleRateHz: number): string {
+  const n = samples.length;
+  const bytes = new Uint8Array(46 + n);
+  const v = new DataView(bytes.buffer);
+  const tag = (off: number, s: string): void => {
+    for (let i = 0; i < 4; i++) v.setUint8(off + i, s.charCodeAt(i));
+  };
+  tag(0, 'RIFF');
+  v.setUint32(4, 38 + n, true);
+  tag(8, 'WAVE');
+  tag(12, 'fmt ');
+  v.setUint32(16, 18, true);
+  v.setUint16(20, 6, true);
+  v.setUint16(22, 1, true);
+  v.setUint32(24, sampleRateHz, true);
+  v.setUint32(28, sampleRateHz, true);
+  v.setUint16(32, 1, true);
+  v.setUint16(34, 8, true);
+  v.setUint16(36, 0, true);
+  tag(38, 'data');
+  v.setUint32(42, n, true);
+  for (let i = 0; i < n; i++) bytes[46 + i] = linearToAlaw(Math.max(-32768, Math.min(32767, Math.round((samples[i] ?? 0) * 32767))));
+  return writeFixture(name, bytes);
+}
