@@ -44,6 +44,7 @@ export interface PeakList {
   harmonicOf: Int32Array;
 }
 
+/** Allocates a peak list holding up to `capacity` peaks. */
 export function createPeakList(capacity: number): PeakList {
   return {
     count: 0,

@@ -51,7 +51,9 @@ const MIN_QUIET_S = 0.5;
 const START_DB = 10;
 const WARMUP_S = 2;
 const WARMUP_HEAD_S = 0.3;
-const WARMUP_LAG_S = 0.1;
+const WARMUP_LAG_S = 0.2;
+/** Stretch at the start over which a sounding tone must look deterministic, s. */
+const WARMUP_HEAD_D2_S = 1.0;
 /** Mean square second difference of ln A² above which the envelope is noise (noise ≈ 6-10, tone < 1). */
 const NOISE_D2 = 2.5;
 /** Time constant of the quiet baseline, s. */
@@ -192,7 +194,9 @@ function enterDecay(st: RegimeState): void {
  * Decides the initial state from the warm-up samples and replays them through the detector.
  * Noise (and a noise-driven resonance) makes ln A² jump about at random: with lags L longer than
  * the envelope's correlation time the second difference ln A²(t+L) − 2 ln A²(t) + ln A²(t−L) has
- * a mean square near 6·π²/6 ≈ 10 (ln of an exponential variable has variance π²/6). A tone well
+ * a mean square near 6·π²/6 ≈ 10 (ln of an exponential variable has variance π²/6); L = 0.2 s
+ * exceeds the 1/(2B) = 0.1 s of band noise and leaves a resonance damped at 5 1/s (correlation
+ * e^{−2αL} = 0.14) near 8. A tone well
  * over the band noise, steady or growing or decaying exponentially, has ln A² nearly straight
  * over such lags, so its mean square second difference stays under 1 (a kink adds little).
  */
@@ -200,22 +204,28 @@ function endWarmup(st: RegimeState): void {
   const n = st.warmCount;
   if (n === 0) return;
   const lag = Math.max(1, Math.round(WARMUP_LAG_S * st.rateHz));
-  let d2 = 0;
-  let cnt = 0;
-  for (let i = lag; i + lag < n; i++) {
-    const d = Math.log(Math.max(st.warmP[i + lag], 1e-30)) - 2 * Math.log(Math.max(st.warmP[i], 1e-30)) + Math.log(Math.max(st.warmP[i - lag], 1e-30));
-    d2 += d * d;
-    cnt++;
-  }
-  const isNoiseLike = cnt === 0 || d2 / cnt > NOISE_D2;
-  // The first WARMUP_HEAD_S: is a tone already sounding?
+  // Mean square second difference of ln A² over warm-up samples [from, to).
+  const secondDiff = (from: number, to: number): number => {
+    let d2 = 0;
+    let cnt = 0;
+    for (let i = from + lag; i + lag < to; i++) {
+      const d = Math.log(Math.max(st.warmP[i + lag], 1e-30)) - 2 * Math.log(Math.max(st.warmP[i], 1e-30)) + Math.log(Math.max(st.warmP[i - lag], 1e-30));
+      d2 += d * d;
+      cnt++;
+    }
+    return cnt === 0 ? Infinity : d2 / cnt;
+  };
+  const isNoiseLike = secondDiff(0, n) > NOISE_D2;
+  // The first WARMUP_HEAD_S: is a tone already sounding? (Judged on the head alone, so a tone
+  // that sounds at the start and then dies into the noise within the warm-up still counts.)
   const head = Math.max(1, Math.min(n, Math.round(WARMUP_HEAD_S * st.rateHz)));
   let headSum = 0;
   for (let i = 0; i < head; i++) headSum += st.warmBg[i] > 0 ? st.warmP[i] / st.warmBg[i] : 1;
   const headExcessDb = 10 * Math.log10(Math.max(headSum / head, 1e-30));
+  const headIsTone = headExcessDb >= START_DB && secondDiff(0, Math.min(n, Math.round(WARMUP_HEAD_D2_S * st.rateHz))) <= NOISE_D2;
   const first = st.warmIdx[0];
   st.segStart = first;
-  if (!isNoiseLike && headExcessDb >= START_DB) {
+  if (headIsTone) {
     st.state = STATE_STEADY;
     st.steadyLevelDb = 10 * Math.log10(Math.max(st.warmP[0], 1e-30));
     st.lastHighIdx = first;

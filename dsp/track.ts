@@ -71,6 +71,7 @@ export interface TrackerState {
   nextId: number;
 }
 
+/** Creates the tracker for spectra of bin width binHz (Hz) and peak lists of peakCapacity. */
 export function createTrackerState(binHz: number, peakCapacity: number, maxTentative = 16): TrackerState {
   return {
     binHz,

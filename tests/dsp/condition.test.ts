@@ -103,7 +103,7 @@ describe('filters', () => {
 
   it('removes a DC offset', () => {
     const { y } = runAll(createConditionState({ sampleRateHz: fs, ...band }), sine(fs, 171, 0.2, 4 * fs, 0.3), 4096);
-    // One-pole DC blocker at 5 Hz: after 3 s (≫ 1/(2π·5) s) the offset has gone.
+    // One-pole DC blocker at 5 Hz (common practice): after 3 s (≫ 1/(2π·5) s) the offset has gone.
     let mean = 0;
     for (let i = 36000; i < y.length; i++) mean += y[i];
     mean /= y.length - 36000;

@@ -68,6 +68,14 @@ describe('regime state machine on envelope sequences', () => {
     expect(st.segments.some((s) => s.isOnset)).toBe(false);
   });
 
+  it('takes a tone sounding at the start that dies away within the warm-up as steady, then decay', () => {
+    // 40 dB over the background for 1 s, then decaying at 15 1/s into the noise (gone by ~1.6 s).
+    const st = createRegimeState(RATE_HZ, true);
+    feed(st, 6, (t) => 1e-6 * 1e4 * (t < 1 ? 1 : Math.exp(-30 * (t - 1))), () => 1e-6, 7);
+    expect(st.segments.map((s) => s.state)).toEqual([STATE_STEADY, STATE_DECAY, STATE_QUIET]);
+    expect(Math.abs(st.segments[1].startIdx / RATE_HZ - 1)).toBeLessThan(0.1);
+  });
+
   it('takes a noise-driven resonance (exponentially distributed A², 20 dB over the band) as quiet', () => {
     // Resonance band noise 100× the neighbours' background: the envelope is still noise.
     const st2 = createRegimeState(RATE_HZ, true);
