@@ -116,6 +116,8 @@ const RETIRE_AFTER_S = 5;
 /** Quiet-stretch store for noise-driven damping: cap and minimum useful length, s. */
 const QUIET_STORE_S = 120;
 const QUIET_MIN_S = 10;
+/** Margin kept out of a quiet stretch after a decay, s (the tail at 5 1/s is 43 dB down after 1 s). */
+const QUIET_AFTER_DECAY_S = 1.5;
 /** Margin kept out of a quiet stretch before a growth, s. */
 const QUIET_GUARD_S = 0.5;
 /** Prominence of a resonance in the long-averaged quiet spectrum, dB. */
@@ -825,8 +827,9 @@ function processFrame(ps: PipelineState): void {
   // Quiet store for noise-driven damping.
   if (anyActive && ps.quietOpen) closeQuietStretch(ps, Math.max(ps.quietStartJ, Math.min(ps.j, earliestGrowthJ) - Math.round(QUIET_GUARD_S * ps.fsA)));
   else if (!anyActive && !ps.quietOpen) {
+    // The stretch starts a guard after the last tone went quiet, so a decay's tail stays out.
     ps.quietOpen = true;
-    ps.quietStartJ = ps.j;
+    ps.quietStartJ = ps.spec.frameCount > 1 ? ps.j + Math.round(QUIET_AFTER_DECAY_S * ps.fsA) : ps.j;
   }
 
   // Retire tracks unseen and quiet for a while.
@@ -930,9 +933,11 @@ function push(ps: PipelineState, block: Float32Array): AnalysisUpdate {
   up.peakAbs = peak;
   up.isClipped = isClipped;
   if (ps.sawFrame) {
+    // Only the analysed band is converted (the rest stays at the floor value).
     const p = ps.spec.power;
     const out = ps.spectrumDbfs;
-    for (let k = 0; k < out.length; k++) out[k] = 10 * Math.log10(p[k] > 1e-20 ? p[k] : 1e-20);
+    const hi = Math.min(out.length, ps.hiBin + 1);
+    for (let k = 0; k < hi; k++) out[k] = 10 * Math.log10(p[k] > 1e-20 ? p[k] : 1e-20);
     ps.hasSpectrum = true;
   }
   up.spectrumDbfs = ps.hasSpectrum ? ps.spectrumDbfs : null;
@@ -1442,7 +1447,7 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
     frames: [],
     liveOnsets: [],
     liveSegments: [],
-    spectrumDbfs: new Float32Array(spec.binCount),
+    spectrumDbfs: new Float32Array(spec.binCount).fill(-200),
     hasSpectrum: false,
     sawFrame: false,
     isFinished: false,
