@@ -42,8 +42,6 @@ interface Run {
   calibration: Calibration | undefined;
   report: Report | null;
   reportWaiters: ((r: Report | null) => void)[];
-  startedAtMs: number;
-  fileDurationS: number;
   /** Name of the opened recording (file runs). */
   decodedBy: string;
   /** The recording being read in the worker (kept to fall back to the browser's decoder). */
@@ -320,8 +318,6 @@ export const mountListenScreen: MountScreen = (root, app) => {
       calibration: undefined,
       report: null,
       reportWaiters: [],
-      startedAtMs: performance.now(),
-      fileDurationS: 0,
       decodedBy: '',
       file: null,
       analysisMs: 0,
@@ -504,7 +500,6 @@ export const mountListenScreen: MountScreen = (root, app) => {
     }
     const r = newRun('file');
     run = r;
-    r.fileDurationS = decoded.durationS;
     r.decodedBy = decoded.fileName;
     const settings = loadSettings();
     bandHighHz = settings.bandHighHz;
