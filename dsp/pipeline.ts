@@ -862,12 +862,14 @@ function processConditioned(ps: PipelineState): void {
     let ph = j % m;
     const ring = ps.ring;
     const qRing = ps.quietRing;
+    // The quiet store is only read while a quiet stretch is open.
+    const quietOpen = ps.quietOpen;
     let accMs = ps.accMs;
     let accClip = ps.accClip;
     for (let q = i; q < i + k; q++) {
       const v = x[q];
       ring[rp] = v;
-      qRing[qp] = v;
+      if (quietOpen) qRing[qp] = v;
       if (++rp === ringCap) rp = 0;
       if (++qp === qCap) qp = 0;
       accMs += v * v;
