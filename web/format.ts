@@ -27,7 +27,8 @@ export function formatMissing(reason: string): string {
  */
 export function decimalsFor(value: number, significant: number): number {
   if (!isShowable(value) || value === 0) return Math.max(0, significant - 1);
-  const magnitude = Math.floor(Math.log10(Math.abs(value)));
+  // The small nudge keeps values such as (4.51 − 4.49)/2 = 0.00999… from counting as a decade lower.
+  const magnitude = Math.floor(Math.log10(Math.abs(value)) + 1e-9);
   return Math.min(6, Math.max(0, significant - 1 - magnitude));
 }
 
@@ -86,12 +87,18 @@ export function formatQuantity(
 
 /**
  * A rate in 1/s (growth positive, decay given as a positive decay rate), with its interval:
- * formatRate(8.1, [7.6, 8.6]) → "8.1 1/s (95 % CI 7.6–8.6)". Two significant digits below 10 are
- * too coarse for a 10 % comparison, so at least one decimal is always shown.
+ * formatRate(8.1, [7.6, 8.6]) → "8.10 1/s (95 % CI 7.60–8.60)". Three significant digits, at least
+ * one decimal; a narrow interval gets up to two more decimals so that its ends differ:
+ * formatRate(4.5, [4.499, 4.501]) → "4.500 1/s (95 % CI 4.499–4.501)".
  */
 export function formatRate(ratePerS: number | null | undefined, ci95?: Interval | null, reason = 'no fit yet'): string {
   if (!isShowable(ratePerS)) return formatMissing(reason);
-  const decimals = Math.max(1, decimalsFor(ratePerS, 3));
+  let decimals = Math.max(1, decimalsFor(ratePerS, 3));
+  // A narrow interval gets up to two more decimals, so its two ends do not print alike.
+  if (isShowableInterval(ci95)) {
+    const halfWidth = Math.abs(ci95[1] - ci95[0]) / 2;
+    if (halfWidth > 0) decimals = Math.min(decimals + 2, Math.max(decimals, decimalsFor(halfWidth, 1)));
+  }
   return formatQuantity(ratePerS, '1/s', ci95, { decimals });
 }
 

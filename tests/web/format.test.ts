@@ -46,6 +46,12 @@ describe('formatRate', () => {
     expect(formatRate(undefined)).toBe(`${MISSING} (no fit yet)`);
   });
 
+  it('gives a narrow interval enough decimals that its ends differ (at most two more)', () => {
+    expect(formatRate(4.5, [4.499, 4.501])).toBe('4.500 1/s (95 % CI 4.499–4.501)');
+    expect(formatRate(4.5, [4.49, 4.51])).toBe('4.50 1/s (95 % CI 4.49–4.51)');
+    expect(formatRate(4.5, [4.4999999, 4.5000001])).toBe('4.5000 1/s (95 % CI 4.5000–4.5000)');
+  });
+
   it('drops an interval with a non-finite end rather than printing it', () => {
     expect(formatRate(3.2, [Number.NaN, 4])).toBe('3.20 1/s');
   });
