@@ -637,7 +637,7 @@ function closeQuietStretch(ps: PipelineState, jEnd: number): void {
     return;
   }
   const entry: NoiseDriven = {
-    startS: timeOfJ(ps, j0),
+    startS: Math.max(0, timeOfJ(ps, j0)),
     endS: timeOfJ(ps, jEnd - 1),
     frequencyHz: Number.isFinite(r.frequencyHz) ? r.frequencyHz : centre,
     decayRatePerS: r.combined.decayRatePerS,
