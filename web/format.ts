@@ -140,14 +140,15 @@ export function formatSeconds(timeS: number | null | undefined, ci95?: Interval 
 }
 
 /**
- * A long duration in the largest fitting unit: "8.0 h", "15 min", "42 s" (three significant
- * digits at most, no interval). Below 1 s it defers to formatSeconds ("139 ms").
+ * A long duration in the largest fitting unit: "8.0 h", "15 min", "2.5 min", "42 s" (one decimal
+ * below ten units, none above; no interval). Below 1 s it defers to formatSeconds ("139 ms").
  */
 export function formatDuration(timeS: number | null | undefined, reason = 'not known'): string {
   if (!isShowable(timeS)) return formatMissing(reason);
   const abs = Math.abs(timeS);
-  if (abs >= 3600) return formatQuantity(timeS / 3600, 'h', null, { significant: abs >= 36_000 ? 3 : 2 });
-  if (abs >= 60) return formatQuantity(timeS / 60, 'min', null, { significant: 2 });
+  // Units switch where the rounded value would reach the next unit (59.7 min reads "1.0 h", not "60 min").
+  if (Math.round(abs / 60) >= 60) return formatQuantity(timeS / 3600, 'h', null, { decimals: abs >= 36_000 ? 0 : 1 });
+  if (Math.round(abs) >= 60) return formatQuantity(timeS / 60, 'min', null, { decimals: abs >= 600 ? 0 : 1 });
   if (abs >= 1) return formatQuantity(timeS, 's', null, { significant: 2 });
   return formatSeconds(timeS, null, reason);
 }

@@ -92,6 +92,12 @@ describe('formatHz, formatDb, formatRatio, formatQ', () => {
     expect(formatDuration(15 * 60)).toBe('15 min');
     expect(formatDuration(8 * 3600)).toBe('8.0 h');
     expect(formatDuration(42)).toBe('42 s');
+    // Just under an hour (94.05 dB(A): 0.99 h) and just under a minute round up into the larger unit.
+    expect(formatDuration(3577)).toBe('1.0 h');
+    expect(formatDuration(150)).toBe('2.5 min');
+    expect(formatDuration(12 * 3600)).toBe('12 h');
+    expect(formatDuration(3590)).toBe('1.0 h');
+    expect(formatDuration(59.7)).toBe('1.0 min');
     expect(formatDuration(0.5)).toBe('500 ms');
     expect(formatDuration(Number.NaN)).toBe(`${MISSING} (not known)`);
   });
