@@ -427,8 +427,8 @@ function advanceRegime(ps: PipelineState, tr: TrackRuntime, tMax: number): void 
 /**
  * Frequency of a tone over a segment from the phase of its demodulated envelope: while the
  * demodulation frequency f_d is fixed, arg z(t) = 2π (f − f_d) t + const, so a straight line
- * through the unwrapped phase (weighted by |z|², over samples ≥ 6 dB over the band background,
- * restarting at every exclusion or retune) gives f. This approaches the accuracy of a fit to the
+ * through the unwrapped phase (weighted by |z|², over samples ≥ 6 dB over the band background and
+ * within 20 dB of the segment's peak, restarting at every exclusion or retune) gives f. This approaches the accuracy of a fit to the
  * whole waveform (Rife & Boorstyn 1974) where a spectral peak is limited by its frame. Falls back
  * to the median of the spectral track.
  */
@@ -461,9 +461,13 @@ function segmentFrequency(tr: TrackRuntime, s: RegimeSegment): number {
     stt = 0;
     sty = 0;
   };
+  // Only where the segment's tone dominates: within 20 dB of its strongest sample (early in a
+  // growth the band may hold other sound, e.g. a noise-driven resonance, with its own phase).
+  let maxP = 0;
+  for (let k = Math.max(s.startIdx, tr.validFrom); k < s.endIdx; k++) if (!tr.clipped[k] && tr.power[k] > maxP) maxP = tr.power[k];
   for (let k = Math.max(s.startIdx, tr.validFrom); k < s.endIdx; k++) {
     const w = tr.power[k];
-    const usable = !tr.clipped[k] && w > 4 * tr.bg[k];
+    const usable = !tr.clipped[k] && w > 4 * tr.bg[k] && w >= 0.01 * maxP;
     if (!usable || (n > 0 && tr.demodHz[k] !== demod)) close();
     if (!usable) continue;
     const th = tr.phase[k];
