@@ -71,6 +71,25 @@ function hasSound(spectrumDbfs: Float32Array): boolean {
   return false;
 }
 
+const LABELS_KEY = 'humgauge.sessionLabels';
+
+function loadSessionLabels(): { site: string; equipment: string } {
+  try {
+    const v = JSON.parse(localStorage.getItem(LABELS_KEY) ?? '{}') as { site?: unknown; equipment?: unknown };
+    return { site: typeof v.site === 'string' ? v.site : '', equipment: typeof v.equipment === 'string' ? v.equipment : '' };
+  } catch {
+    return { site: '', equipment: '' };
+  }
+}
+
+function saveSessionLabels(v: { site: string; equipment: string }): void {
+  try {
+    localStorage.setItem(LABELS_KEY, JSON.stringify(v));
+  } catch {
+    /* storage refused: the labels still go into this session */
+  }
+}
+
 function el<K extends keyof HTMLElementTagNameMap>(tag: K, props: Partial<HTMLElementTagNameMap[K]> = {}, ...children: (Node | string)[]): HTMLElementTagNameMap[K] {
   const e = document.createElement(tag);
   Object.assign(e, props);
@@ -106,6 +125,22 @@ export const mountListenScreen: MountScreen = (root, app) => {
   // The input sits before its label so the label can show the keyboard focus (see styles.css).
   const controls = el('div', { className: 'controls' }, listenButton, fileInput, fileLabel, clock);
 
+  // Site and equipment travel with every session started here (kept for the next visit).
+  const labels = loadSessionLabels();
+  const siteInput = el('input', { type: 'text', id: 'session-site', maxLength: 120, value: labels.site, placeholder: 'e.g. bench rig 2' });
+  const equipmentInput = el('input', { type: 'text', id: 'session-equipment', maxLength: 120, value: labels.equipment, placeholder: 'e.g. heated tube, 1 m' });
+  const saveLabels = (): void => saveSessionLabels({ site: siteInput.value, equipment: equipmentInput.value });
+  siteInput.addEventListener('change', saveLabels);
+  equipmentInput.addEventListener('change', saveLabels);
+  const labelRow = el(
+    'div',
+    { className: 'session-labels' },
+    el('label', { htmlFor: 'session-site', textContent: 'Site' }),
+    siteInput,
+    el('label', { htmlFor: 'session-equipment', textContent: 'Equipment' }),
+    equipmentInput,
+  );
+
   const meterBar = el('div', { className: 'meter-bar' });
   const meter = el('div', { className: 'meter', id: 'input-meter' }, meterBar);
   meter.setAttribute('role', 'meter');
@@ -135,7 +170,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
   resultHost.setAttribute('aria-label', 'result of the run');
   resultHost.hidden = true;
 
-  root.append(el('h2', { className: 'visually-hidden', textContent: 'Listen' }), controls, meterRow, progressRow, alertBox, notes, readoutHost, markerHost, plotHost, resultHost);
+  root.append(el('h2', { className: 'visually-hidden', textContent: 'Listen' }), controls, labelRow, meterRow, progressRow, alertBox, notes, readoutHost, markerHost, plotHost, resultHost);
 
   const readouts: Readouts = createReadouts(readoutHost);
   const markers: MarkerBar = createMarkerBar(markerHost, (m) => {
@@ -326,7 +361,9 @@ export const mountListenScreen: MountScreen = (root, app) => {
   }
 
   function openRecorder(r: Run, meta: NewSessionMeta): void {
-    r.recorderReady = openRecorderNow(r, meta);
+    const site = siteInput.value.trim();
+    const equipment = equipmentInput.value.trim();
+    r.recorderReady = openRecorderNow(r, { ...meta, ...(site ? { site } : {}), ...(equipment ? { equipment } : {}) });
   }
 
   async function openRecorderNow(r: Run, meta: NewSessionMeta): Promise<void> {

@@ -164,6 +164,9 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
     h('p', { className: 'session-facts', text: facts }),
     actions,
     result,
+    typeof r?.summary.frequencyHz === 'number' && Number.isFinite(r.summary.frequencyHz)
+      ? h('p', {}, h('a', { className: 'big-link', attrs: { href: `#duct/${r.summary.frequencyHz.toFixed(2)}`, id: 'check-duct-mode' }, text: `Which duct mode is ${formatHz(r.summary.frequencyHz)}? Open the duct model` }))
+      : null,
     plots,
     segs,
     noise,
