@@ -33,6 +33,7 @@ import {
   beginRegimeStep,
   createRegimeState,
   finishRegime,
+  ON_DB,
   regimeKind,
   restartRegime,
   stepRegime,
@@ -109,6 +110,8 @@ const SUBHARMONIC_MIN_DB = 10;
 /** Background bins beside a tone: inner..outer bins away. */
 const BG_INNER_BINS = 6;
 const BG_OUTER_BINS = 30;
+/** Highest harmonic number grouped under a tone (a limit cycle's waveform reaches k ≈ 20 in a 4 kHz band). */
+const MAX_HARMONIC = 20;
 /** Tracks demodulated at once. */
 const MAX_TRACKS = 6;
 /** A track unseen in the spectrum and quiet this long is retired, s. */
@@ -131,6 +134,16 @@ const BG_MIN_S = 0.3;
 const GROWTH_PREROLL_S = 1.5;
 /** Tail of quiet after a decay included in its fit, s. */
 const DECAY_TAIL_S = 1.0;
+/** Window either side of a growth or decay in which its noise level is judged, s, and how far above the spectral background that level may lie, dB. */
+const NOISE_PAD_S = 1;
+const NOISE_SPAN_DB = 20;
+/** A weaker line within this fraction of a tone's frequency and this many dB below it is its sidelobe or intermodulation product. */
+const NEAR_LINE_FRACTION = 0.35;
+const NEAR_LINE_DB = 20;
+/** Active starts of two tracks of one tone closer than this are taken as simultaneous, s. */
+const DUPLICATE_START_S = 0.05;
+/** Margin on the parent tone's active span for a line that rises and falls with it, s. */
+const WITHIN_MARGIN_S = 1;
 /** Most envelope samples handed to one fit (longer steady stretches are block-averaged). */
 const MAX_FIT_SAMPLES = 6000;
 
@@ -167,6 +180,8 @@ interface TrackRuntime {
   clipCountdown: number;
   /** Store index of an onset announced early by the look-ahead (−1: none pending). */
   earlyOnsetIdx: number;
+  /** Peak envelope power once the record is finished (−1 until computed). */
+  topPower: number;
 }
 
 /** Mutable per-run state of the composition. */
@@ -335,6 +350,7 @@ function createTrackRuntime(ps: PipelineState, freqHz: number, promDb: number, f
     maxExcessDb: -Infinity,
     clipCountdown: 0,
     earlyOnsetIdx: -1,
+    topPower: -1,
   };
 }
 
@@ -750,6 +766,39 @@ function lookAhead(ps: PipelineState, tr: TrackRuntime): void {
   }
 }
 
+/**
+ * Two tracks on one tone (a second track can start while the first is still moving, e.g. during a
+ * fast growth whose frequency drifts) are merged: the older keeps its envelope history and takes
+ * the latest frequency; the younger is dropped, so one tone gives one segment history.
+ */
+function mergeDuplicateTracks(ps: PipelineState): void {
+  for (let a = ps.alive.length - 1; a >= 1; a--) {
+    const ta = ps.alive[a];
+    for (let b = 0; b < a; b++) {
+      const tb = ps.alive[b];
+      if (Math.abs(ta.tone.freqHz - tb.tone.freqHz) > matchToleranceHz(ps.spec.binHz, tb.tone.freqHz)) continue;
+      if (ta.tone.lastHitFrame > tb.tone.lastHitFrame) {
+        tb.tone.freqHz = ta.tone.freqHz;
+        tb.tone.lastHitFrame = ta.tone.lastHitFrame;
+        tb.tone.misses = 0;
+      }
+      if (ta.maxExcessDb > tb.maxExcessDb) tb.maxExcessDb = ta.maxExcessDb;
+      ps.alive.splice(a, 1);
+      ps.aliveTones.splice(a, 1);
+      break;
+    }
+  }
+}
+
+/**
+ * Tolerance for a line at n·f0 to be the n-th harmonic of a tone tracked at f0, Hz: the harmonic's
+ * own peak error (3/4 bin) plus n times the tracked fundamental's uncertainty (a quarter bin, or
+ * 1 % while it drifts in a growth; common practice: errors of f0 scale with the harmonic number).
+ */
+function harmonicToleranceHz(binHz: number, f0Hz: number, n: number): number {
+  return 0.75 * binHz + n * Math.max(0.25 * binHz, 0.01 * f0Hz);
+}
+
 /** Work done at each spectral frame. */
 function processFrame(ps: PipelineState): void {
   const spec = ps.spec;
@@ -766,6 +815,7 @@ function processFrame(ps: PipelineState): void {
   suppressLeakage(spec, ps.peaks);
   groupHarmonics(spec, ps.peaks, ps.loBin, ps.hiBin, SUBHARMONIC_MIN_DB);
   stepTracker(ps.tracker, ps.aliveTones, ps.peaks, frameIdx, tF, NEW_TRACK_MIN_DB);
+  mergeDuplicateTracks(ps);
 
   for (const tr of ps.alive) {
     // A tone settling on a mains multiple is a steady line (its first frames may be off while it switches on).
@@ -788,11 +838,11 @@ function processFrame(ps: PipelineState): void {
     const f = tk.confirmedFreqHz[c];
     let dup = false;
     for (const tr of ps.alive) {
-      // Same tone, or a harmonic (n ≤ 8) of a tone sounding now (distortion, e.g. a saturated pickup).
+      // Same tone, or a harmonic of a tone sounding now (a limit cycle's waveform, distortion).
       const n = Math.round(f / tr.tone.freqHz);
       if (n === 1 && Math.abs(f - tr.tone.freqHz) <= 2 * matchToleranceHz(spec.binHz, f)) dup = true;
       const isSounding = tr.regime.state > STATE_QUIET || tr.isSteadyLine;
-      if (n >= 2 && n <= 8 && isSounding && Math.abs(f - n * tr.tone.freqHz) <= 0.75 * spec.binHz + 0.002 * f) dup = true;
+      if (n >= 2 && n <= MAX_HARMONIC && isSounding && Math.abs(f - n * tr.tone.freqHz) <= harmonicToleranceHz(spec.binHz, tr.tone.freqHz, n)) dup = true;
     }
     if (dup) continue;
     if (ps.alive.length >= MAX_TRACKS) {
@@ -1081,12 +1131,80 @@ function meanBg(tr: TrackRuntime, i0: number, i1: number): number {
 }
 
 /** True when no other tone lies within the wide envelope band's reach of this track's tone. */
-function wideBandIsClear(ps: PipelineState, tr: TrackRuntime): boolean {
+function wideBandIsClear(ps: PipelineState, tr: TrackRuntime, artefacts: Set<TrackRuntime>): boolean {
   const f = tr.tone.freqHz;
   const same = matchToleranceHz(ps.spec.binHz, f);
-  for (const o of ps.alive) if (o !== tr && Math.abs(o.tone.freqHz - f) > same && Math.abs(o.tone.freqHz - f) < WIDE_CLEARANCE_HZ) return false;
-  for (const o of ps.retired) if (o !== tr && Math.abs(o.tone.freqHz - f) > same && Math.abs(o.tone.freqHz - f) < WIDE_CLEARANCE_HZ) return false;
+  // Lines that belong to a stronger tone (its sidelobes, harmonics) are not other tones.
+  // A line NEAR_LINE_DB weaker than this tone's peak only adds to the fitted background.
+  const floor = peakPower(tr) * 10 ** (-NEAR_LINE_DB / 10);
+  const isOther = (o: TrackRuntime): boolean =>
+    o !== tr && !artefacts.has(o) && Math.abs(o.tone.freqHz - f) > same && Math.abs(o.tone.freqHz - f) < WIDE_CLEARANCE_HZ && peakPower(o) > floor;
+  for (const o of ps.alive) if (isOther(o)) return false;
+  for (const o of ps.retired) if (isOther(o)) return false;
   return true;
+}
+
+/** Peak envelope power of a track over its valid, unclipped samples (envelope power units; computed once, at finish). */
+function peakPower(tr: TrackRuntime): number {
+  if (tr.topPower >= 0) return tr.topPower;
+  let top = 0;
+  for (let k = tr.validFrom; k < tr.n; k++) if (!tr.clipped[k] && tr.power[k] > top) top = tr.power[k];
+  tr.topPower = top;
+  return top;
+}
+
+/**
+ * Growth and decay segments of noise become quiet (and neighbouring quiet segments join). The
+ * noise level around a segment is the band's own level where it is lowest: the 20th percentile
+ * of the envelope power over the segment and NOISE_PAD_S either side, divided by −ln 0.8 (A² of
+ * narrow-band noise is exponentially distributed). A segment whose top stays below ON_DB over that
+ * level holds no tone beyond chance (P(A² > 16·mean) = e^−16 per correlation time); the test
+ * applies only where that lowest level is itself within NOISE_SPAN_DB of the spectral background
+ * (a dip in a loud tone is not noise). Common practice for exponential envelope statistics.
+ */
+function relabelNoiseSegments(tr: TrackRuntime): void {
+  const segs = tr.regime.segments;
+  const pad = Math.round(NOISE_PAD_S * tr.env.outputRateHz);
+  const onLin = 10 ** (ON_DB / 10);
+  const spanLin = 10 ** (NOISE_SPAN_DB / 10);
+  for (const s of segs) {
+    if (s.state !== STATE_GROWTH && s.state !== STATE_DECAY) continue;
+    const i0 = Math.max(tr.validFrom, s.startIdx - pad);
+    const i1 = Math.min(tr.n, s.endIdx + pad);
+    const vals: number[] = [];
+    let bgSum = 0;
+    let bgCount = 0;
+    for (let k = i0; k < i1; k++) {
+      if (tr.clipped[k]) continue;
+      vals.push(tr.power[k]);
+      if (tr.bg[k] > 0) {
+        bgSum += tr.bg[k];
+        bgCount++;
+      }
+    }
+    if (vals.length < 8 || bgCount === 0) continue;
+    vals.sort((a, b) => a - b);
+    const noiseMean = vals[Math.floor(0.2 * vals.length)] / -Math.log(0.8);
+    if (!(noiseMean < spanLin * (bgSum / bgCount))) continue;
+    let top = 0;
+    for (let k = Math.max(s.startIdx, tr.validFrom); k < s.endIdx; k++) if (!tr.clipped[k] && tr.power[k] > top) top = tr.power[k];
+    if (!(top > onLin * noiseMean)) {
+      s.state = STATE_QUIET;
+      s.isOnset = false;
+      s.reachedSteady = false;
+    }
+  }
+  // Join neighbouring quiet segments.
+  let w = 0;
+  for (let r = 0; r < segs.length; r++) {
+    const s = segs[r];
+    if (w > 0 && s.state === STATE_QUIET && segs[w - 1].state === STATE_QUIET && segs[w - 1].endIdx === s.startIdx) {
+      segs[w - 1].endIdx = s.endIdx;
+      continue;
+    }
+    segs[w++] = s;
+  }
+  segs.length = w;
 }
 
 interface FittedSegment {
@@ -1102,7 +1220,7 @@ function ciOf(fit: RateFit): Interval {
 }
 
 /** Fits one segment of a track and fills its report entry (and the onset time for onsets). */
-function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], i: number): FittedSegment {
+function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], i: number, artefacts: Set<TrackRuntime>): FittedSegment {
   const seg = segs[i];
   const rate = tr.env.outputRateHz;
   const prev = i > 0 ? segs[i - 1] : null;
@@ -1123,7 +1241,7 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
   const bgMin = Math.round(BG_MIN_S * rate);
   const tag = `${report.kind} at ${startS.toFixed(2)} s`;
   if (seg.state === STATE_QUIET) return out;
-  const isWide = wideBandIsClear(ps, tr);
+  const isWide = wideBandIsClear(ps, tr, artefacts);
   // The wide band holds (wide/narrow) times the narrow band's noise power.
   const bgScale = isWide ? tr.env.wideBandwidthHz / tr.env.bandwidthHz : 1;
 
@@ -1205,7 +1323,7 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
       startIdx = k;
       hasMarker = true;
     }
-    if (!hasMarker && isWide && prev !== null) {
+    if (!hasMarker && prev !== null) {
       // Without a marker, the kink is where the wide-band level first falls 1 dB below the level
       // held just before (the narrow band's decay start can lie half a narrow kernel early).
       const ref = meanPower(tr, Math.max(prev.startIdx, seg.startIdx - Math.round(0.5 * rate)), seg.startIdx - Math.ceil(tr.env.kernelLength / 2), 1, true);
@@ -1280,42 +1398,127 @@ function finish(ps: PipelineState): Report {
   }
   closeQuietStretch(ps, ps.j);
   const all = [...ps.retired, ...ps.alive.filter((t) => t.regime.segments.length > 0)];
-  const fitted: FittedSegment[] = [];
-  for (const tr of all) {
-    const segs = tr.regime.segments;
-    for (let i = 0; i < segs.length; i++) {
-      if (segs[i].endIdx <= segs[i].startIdx) continue;
-      fitted.push(fitSegment(ps, tr, segs, i));
-    }
-  }
+  for (const tr of all) relabelNoiseSegments(tr);
   // Tones, grouped by frequency (a tone heard in several cycles may have several tracks).
   interface Family {
     freqHz: number;
     isSteadyLine: boolean;
     strength: number;
+    peakPower: number;
+    /** Span of its non-quiet segments, s (NaN when none). */
+    activeFromS: number;
+    activeToS: number;
     tracks: TrackRuntime[];
+    /** The stronger tone this line belongs to (harmonic, sidelobe), if any. */
+    parent: Family | null;
   }
   const families: Family[] = [];
+  // A track beside a loud tone can hold that tone through its band's skirt: two tracks whose
+  // active stretches overlap and whose envelopes turn at the same frequency (the phase slope of
+  // segmentFrequency) are one tone; the weaker is dropped.
+  const duplicates = new Set<TrackRuntime>();
+  const trackInfo = new Map<TrackRuntime, { freqHz: number; fromS: number; toS: number; top: number }>();
   for (const tr of all) {
+    let from = Number.NaN;
+    let to = Number.NaN;
+    let sw = 0;
+    let swf = 0;
+    for (const s of tr.regime.segments) {
+      if (s.state === STATE_QUIET || s.endIdx <= s.startIdx) continue;
+      const a = tr.timeS[s.startIdx];
+      const b = tr.timeS[s.endIdx - 1];
+      from = Number.isNaN(from) ? a : Math.min(from, a);
+      to = Number.isNaN(to) ? b : Math.max(to, b);
+      const f = segmentFrequency(tr, s);
+      if (Number.isFinite(f)) {
+        sw += s.endIdx - s.startIdx;
+        swf += (s.endIdx - s.startIdx) * f;
+      }
+    }
+    const f = sw > 0 ? swf / sw : medianFrequencyHz(tr.tone, -Infinity, Infinity);
+    trackInfo.set(tr, { freqHz: f, fromS: from, toS: to, top: peakPower(tr) });
+  }
+  for (const a of all) {
+    const ia = trackInfo.get(a);
+    if (ia === undefined || Number.isNaN(ia.fromS)) continue;
+    for (const b of all) {
+      const ib = trackInfo.get(b);
+      if (b === a || ib === undefined || Number.isNaN(ib.fromS) || duplicates.has(b)) continue;
+      if (ib.toS < ia.fromS || ib.fromS > ia.toS) continue;
+      // Keep the track that saw the tone first (it holds the growth), then the stronger.
+      const bFirst = ib.fromS < ia.fromS - DUPLICATE_START_S || (Math.abs(ib.fromS - ia.fromS) <= DUPLICATE_START_S && ib.top > ia.top);
+      if (!bFirst) continue;
+      if (Math.abs(ia.freqHz - ib.freqHz) <= matchToleranceHz(ps.spec.binHz, ib.freqHz)) {
+        duplicates.add(a);
+        break;
+      }
+    }
+  }
+  for (const tr of all) {
+    if (duplicates.has(tr)) continue;
     if (tr.regime.segments.every((s) => s.state === STATE_QUIET) && !tr.isSteadyLine && tr.maxExcessDb < 10) continue;
-    const f = medianFrequencyHz(tr.tone, -Infinity, Infinity);
+    const info = trackInfo.get(tr);
+    if (info === undefined) continue;
+    const f = info.freqHz;
+    const top = info.top;
+    const from = info.fromS;
+    const to = info.toS;
     const fam = families.find((q) => Math.abs(q.freqHz - f) <= matchToleranceHz(ps.spec.binHz, f));
     if (fam) {
       fam.tracks.push(tr);
       fam.strength = Math.max(fam.strength, tr.maxExcessDb);
+      fam.peakPower = Math.max(fam.peakPower, top);
       fam.isSteadyLine = fam.isSteadyLine && tr.isSteadyLine;
-    } else families.push({ freqHz: f, isSteadyLine: tr.isSteadyLine, strength: tr.maxExcessDb, tracks: [tr] });
+      if (!Number.isNaN(from)) {
+        fam.activeFromS = Number.isNaN(fam.activeFromS) ? from : Math.min(fam.activeFromS, from);
+        fam.activeToS = Number.isNaN(fam.activeToS) ? to : Math.max(fam.activeToS, to);
+      }
+    } else families.push({ freqHz: f, isSteadyLine: tr.isSteadyLine, strength: tr.maxExcessDb, peakPower: top, activeFromS: from, activeToS: to, tracks: [tr], parent: null });
   }
   for (const fam of families) {
     // A tone sounding through the whole record (never quiet, no onset) is a steady line too.
     const segs = fam.tracks.flatMap((t) => t.regime.segments);
     if (segs.length > 0 && segs.every((s) => s.state === STATE_STEADY)) fam.isSteadyLine = true;
   }
+  // Lines that belong to a stronger tone: a harmonic (at k·f0, weaker) or a sidelobe /
+  // intermodulation line close beside it (NEAR_LINE_DB weaker), whose activity lies within the
+  // tone's own. They are grouped under it: no onsets, segments or entry of their own.
+  const byPower = [...families].sort((a, b) => b.peakPower - a.peakPower);
+  const binHz = ps.spec.binHz;
+  for (let i = 1; i < byPower.length; i++) {
+    const fam = byPower[i];
+    for (let j = 0; j < i && fam.parent === null; j++) {
+      const par = byPower[j];
+      if (par.parent !== null || Number.isNaN(par.activeFromS) && !par.isSteadyLine) continue;
+      if (!(fam.peakPower < par.peakPower)) continue;
+      const k = Math.round(fam.freqHz / par.freqHz);
+      const isHarmonic = k >= 2 && k <= MAX_HARMONIC && Math.abs(fam.freqHz - k * par.freqHz) <= harmonicToleranceHz(binHz, par.freqHz, k);
+      const isNear = Math.abs(fam.freqHz - par.freqHz) <= NEAR_LINE_FRACTION * par.freqHz && fam.peakPower * 10 ** (NEAR_LINE_DB / 10) < par.peakPower;
+      if (!isHarmonic && !isNear) continue;
+      // Rises with it: all its activity within the parent's (steady lines sound throughout).
+      const within =
+        Number.isNaN(fam.activeFromS) ||
+        par.isSteadyLine ||
+        (fam.activeFromS >= par.activeFromS - WITHIN_MARGIN_S && fam.activeToS <= par.activeToS + WITHIN_MARGIN_S);
+      if (within) fam.parent = par;
+    }
+  }
+  const artefacts = new Set([...duplicates, ...families.filter((f) => f.parent !== null).flatMap((f) => f.tracks)]);
+  const fitted: FittedSegment[] = [];
+  for (const tr of all) {
+    if (artefacts.has(tr)) continue;
+    const segs = tr.regime.segments;
+    for (let i = 0; i < segs.length; i++) {
+      if (segs[i].endIdx <= segs[i].startIdx) continue;
+      fitted.push(fitSegment(ps, tr, segs, i, artefacts));
+    }
+  }
   families.sort((a, b) => b.strength - a.strength);
+  const tones = families.filter((f) => f.parent === null);
 
   // Tracks of steady lines (mains, or a tone sounding throughout) and tracks that never left the
   // quiet state give no onsets or segments.
-  const steadyTracks = new Set(families.filter((f) => f.isSteadyLine).flatMap((f) => f.tracks));
+  const steadyTracks = new Set(tones.filter((f) => f.isSteadyLine).flatMap((f) => f.tracks));
   const report = (f: FittedSegment): boolean =>
     !f.tr.isSteadyLine && !steadyTracks.has(f.tr) && f.tr.regime.segments.some((s) => s.state !== STATE_QUIET);
   const onsets: Onset[] = fitted
@@ -1328,7 +1531,7 @@ function finish(ps: PipelineState): Report {
   // Main tone: the non-steady family with the most onsets, then the strongest.
   let main: Family | null = null;
   let mainScore = -Infinity;
-  for (const fam of families) {
+  for (const fam of tones) {
     if (fam.isSteadyLine) continue;
     const famFits = fitted.filter((f) => fam.tracks.includes(f.tr));
     if (!famFits.some((f) => f.seg.state !== STATE_QUIET)) continue;
@@ -1385,7 +1588,7 @@ function finish(ps: PipelineState): Report {
     segments,
     noiseDriven: ps.noiseDriven,
     summary,
-    tones: families.map((f) => ({ frequencyHz: f.freqHz, isSteadyLine: f.isSteadyLine })),
+    tones: tones.map((f) => ({ frequencyHz: f.freqHz, isSteadyLine: f.isSteadyLine })),
     clipped,
     warnings: [...clipWarn, ...ps.warnings],
   };
