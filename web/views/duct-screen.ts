@@ -21,6 +21,7 @@ import {
 import type { DuctGeometry } from '../../dsp/types';
 import { formatFixed, formatHz, formatQuantity } from '../format';
 import { getSessionDb, listSessions } from '../storage/sessions';
+import { el, loadJson, saveJson } from './dom';
 
 /** localStorage key of the geometry (read by the listen screen to attach it to sessions). */
 export const GEOMETRY_KEY = 'humgauge.ductGeometry';
@@ -42,31 +43,6 @@ interface Extras {
 const DEFAULT_GEOMETRY: DuctGeometry = { lengthM: 1.2, diameterM: 0.048, ends: 'open-open', openEnd: 'unflanged', gasTemperatureC: 20 };
 const DEFAULT_EXTRAS: Extras = { closedEnd: 'upstream', flow: 'upward', hasHeater: false, measuredHz: '', frequencyStdHz: '0.5', lengthStdMm: '5' };
 
-function loadJson<T extends object>(key: string, fallback: T): T {
-  try {
-    const raw = localStorage.getItem(key);
-    if (!raw) return { ...fallback };
-    const parsed = JSON.parse(raw) as Partial<T>;
-    return { ...fallback, ...parsed };
-  } catch {
-    return { ...fallback };
-  }
-}
-
-function saveJson(key: string, value: object): void {
-  try {
-    localStorage.setItem(key, JSON.stringify(value));
-  } catch {
-    /* storage full or blocked: the screen still works, only the memory is lost */
-  }
-}
-
-function el<K extends keyof HTMLElementTagNameMap>(tag: K, props: Partial<HTMLElementTagNameMap[K]> = {}, ...children: (Node | string)[]): HTMLElementTagNameMap[K] {
-  const e = document.createElement(tag);
-  Object.assign(e, props);
-  e.append(...children);
-  return e;
-}
 
 function svg<K extends keyof SVGElementTagNameMap>(tag: K, attrs: Record<string, string | number>): SVGElementTagNameMap[K] {
   const e = document.createElementNS(SVG_NS, tag);

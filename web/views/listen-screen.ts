@@ -21,6 +21,7 @@ import { createReadouts, type Readouts } from './live-readouts';
 import { createMarkerBar, type MarkerBar } from './live-markers';
 import { deviceKey, loadSettings, type Calibration } from '../settings';
 import { formatClock, formatSeconds } from '../format';
+import { el, loadJson, saveJson } from './dom';
 
 /** Rows of track kept on screen: 100 rows/s for 10 minutes. */
 const BUFFER_ROWS = 60_000;
@@ -73,29 +74,6 @@ function hasSound(spectrumDbfs: Float32Array): boolean {
 
 const LABELS_KEY = 'humgauge.sessionLabels';
 
-function loadSessionLabels(): { site: string; equipment: string } {
-  try {
-    const v = JSON.parse(localStorage.getItem(LABELS_KEY) ?? '{}') as { site?: unknown; equipment?: unknown };
-    return { site: typeof v.site === 'string' ? v.site : '', equipment: typeof v.equipment === 'string' ? v.equipment : '' };
-  } catch {
-    return { site: '', equipment: '' };
-  }
-}
-
-function saveSessionLabels(v: { site: string; equipment: string }): void {
-  try {
-    localStorage.setItem(LABELS_KEY, JSON.stringify(v));
-  } catch {
-    /* storage refused: the labels still go into this session */
-  }
-}
-
-function el<K extends keyof HTMLElementTagNameMap>(tag: K, props: Partial<HTMLElementTagNameMap[K]> = {}, ...children: (Node | string)[]): HTMLElementTagNameMap[K] {
-  const e = document.createElement(tag);
-  Object.assign(e, props);
-  e.append(...children);
-  return e;
-}
 
 export const mountListenScreen: MountScreen = (root, app) => {
   const buffer: LiveBuffer = createLiveBuffer(BUFFER_ROWS);
@@ -126,10 +104,10 @@ export const mountListenScreen: MountScreen = (root, app) => {
   const controls = el('div', { className: 'controls' }, listenButton, fileInput, fileLabel, clock);
 
   // Site and equipment travel with every session started here (kept for the next visit).
-  const labels = loadSessionLabels();
-  const siteInput = el('input', { type: 'text', id: 'session-site', maxLength: 120, value: labels.site, placeholder: 'e.g. bench rig 2' });
-  const equipmentInput = el('input', { type: 'text', id: 'session-equipment', maxLength: 120, value: labels.equipment, placeholder: 'e.g. heated tube, 1 m' });
-  const saveLabels = (): void => saveSessionLabels({ site: siteInput.value, equipment: equipmentInput.value });
+  const labels = loadJson(LABELS_KEY, { site: '', equipment: '' });
+  const siteInput = el('input', { type: 'text', id: 'session-site', maxLength: 120, value: String(labels.site), placeholder: 'e.g. bench rig 2' });
+  const equipmentInput = el('input', { type: 'text', id: 'session-equipment', maxLength: 120, value: String(labels.equipment), placeholder: 'e.g. heated tube, 1 m' });
+  const saveLabels = (): void => saveJson(LABELS_KEY, { site: siteInput.value, equipment: equipmentInput.value });
   siteInput.addEventListener('change', saveLabels);
   equipmentInput.addEventListener('change', saveLabels);
   const labelRow = el(

@@ -6,7 +6,7 @@
  * MessagePort handed over in `start`; the worker runs dsp/ on them and posts batched `update`s
  * (about 15 per second) to the app, which only draws them.
  */
-import type { AnalysisConfig, Marker, Onset, Report, Segment, TrackFrame } from '../../dsp/types';
+import type { AnalysisConfig, AnalysisUpdate, Marker, Report } from '../../dsp/types';
 import type { LiveSummary } from './live-summary';
 
 /** Where the samples of a run come from. */
@@ -82,21 +82,12 @@ export interface ReadyMessage {
 }
 
 /** Worker → app: what changed since the previous update. */
-export interface UpdateMessage {
+export interface UpdateMessage extends AnalysisUpdate {
   type: 'update';
   id: number;
   /** Samples analysed so far, and the time they span, s (gaps included). */
   samplesAnalysed: number;
   timeS: number;
-  frames: TrackFrame[];
-  onsets: Onset[];
-  segments: Segment[];
-  /** Latest spectrum, dBFS per bin, and bin width, Hz; null before the first analysis frame. */
-  spectrumDbfs: Float32Array | null;
-  spectrumBinHz: number;
-  /** Largest absolute sample since the previous update (0–1 full scale), and whether any clipped. */
-  peakAbs: number;
-  isClipped: boolean;
   /** Markers placed since the previous update, with their times. */
   markers: Marker[];
   summary: LiveSummary;
