@@ -17,7 +17,7 @@ import {
 } from '../../dsp/duct';
 import type { DuctGeometry } from '../../dsp/types';
 
-// Test vectors are those of /work/shared/REFERENCES.md ("REFERENCES.md" below), numbered as in its table.
+// Test vectors are those of docs/REFERENCES.md ("REFERENCES.md" below), numbered as in its table.
 const bench: DuctGeometry = { lengthM: 1.2, diameterM: 0.048, ends: 'open-open', openEnd: 'unflanged', gasTemperatureC: 20 };
 
 describe('speed of sound', () => {

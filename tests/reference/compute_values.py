@@ -1,7 +1,7 @@
 #!/usr/bin/env python3
 """Writes analysis-values.json: the reference values for tests/dsp/{derived,levels,crlb,fit,damping}.test.ts.
 
-Published values are copied from /work/shared/REFERENCES.md with their test-vector number; values computed
+Published values are copied from docs/REFERENCES.md with their test-vector number; values computed
 by a general-purpose library are computed here (numpy 2.4.6, scipy 1.17.1). Run: python3 compute_values.py
 """
 import json
