@@ -140,6 +140,9 @@ const NOISE_SPAN_DB = 20;
 /** A weaker line within this fraction of a tone's frequency and this many dB below it is its sidelobe or intermodulation product. */
 const NEAR_LINE_FRACTION = 0.35;
 const NEAR_LINE_DB = 20;
+/** Rise (dB) and least duration (envelope kernels) of a growth that makes a mains-frequency track a tone. */
+const MAINS_TONE_RISE_DB = 40;
+const MAINS_TONE_MIN_RISE_KERNELS = 2;
 /** Active starts of two tracks of one tone closer than this are taken as simultaneous, s. */
 const DUPLICATE_START_S = 0.05;
 /** Margin on the parent tone's active span for a line that rises and falls with it, s. */
@@ -606,6 +609,11 @@ function emitRows(ps: PipelineState, tMax: number): void {
     const g = ps.rowG;
     const t = timeOfG(ps, g);
     if (t > tMax || g * ps.envM + ps.envM > ps.j) break;
+    if (t < 0) {
+      // The first envelope samples describe input before the record (filter delays): no row.
+      ps.rowG += ps.rowEvery;
+      continue;
+    }
     // Main tone of the row: the non-steady track with the largest excess over its background.
     let best: TrackRuntime | null = null;
     let bestEx = -Infinity;
@@ -1144,6 +1152,35 @@ function wideBandIsClear(ps: PipelineState, tr: TrackRuntime, artefacts: Set<Tra
   return true;
 }
 
+/**
+ * A track on a mains frequency is a steady line, unless it grows out of the background the way a
+ * tone does: a growth segment after MIN_QUIET of quiet that rises MAINS_TONE_RISE_DB and takes
+ * longer than MAINS_TONE_MIN_RISE_KERNELS envelope kernels (a line switched on rises within about
+ * one kernel, the filter's own response to a step). Such a track becomes a tone and the growth an onset.
+ */
+function reclaimMainsTone(tr: TrackRuntime): void {
+  const segs = tr.regime.segments;
+  const minQuiet = tr.regime.minQuiet;
+  const riseLin = 10 ** (MAINS_TONE_RISE_DB / 10);
+  let isTone = false;
+  for (let i = 1; i < segs.length; i++) {
+    const s = segs[i];
+    const prev = segs[i - 1];
+    if (s.state !== STATE_GROWTH || prev.state !== STATE_QUIET || prev.endIdx - prev.startIdx < minQuiet) continue;
+    if (s.endIdx - s.startIdx < MAINS_TONE_MIN_RISE_KERNELS * tr.env.kernelLength) continue;
+    const start = meanPower(tr, s.startIdx - tr.env.kernelLength, s.startIdx + 1, 1);
+    let top = 0;
+    for (let k = s.startIdx; k < s.endIdx; k++) if (!tr.clipped[k] && tr.power[k] > top) top = tr.power[k];
+    if (!(top > riseLin * start)) continue;
+    s.isOnset = true;
+    isTone = true;
+  }
+  if (isTone) {
+    tr.isSteadyLine = false;
+    tr.regime.allowOnsets = true;
+  }
+}
+
 /** Peak envelope power of a track over its valid, unclipped samples (envelope power units; computed once, at finish). */
 function peakPower(tr: TrackRuntime): number {
   if (tr.topPower >= 0) return tr.topPower;
@@ -1398,7 +1435,10 @@ function finish(ps: PipelineState): Report {
   }
   closeQuietStretch(ps, ps.j);
   const all = [...ps.retired, ...ps.alive.filter((t) => t.regime.segments.length > 0)];
-  for (const tr of all) relabelNoiseSegments(tr);
+  for (const tr of all) {
+    relabelNoiseSegments(tr);
+    if (tr.isSteadyLine) reclaimMainsTone(tr);
+  }
   // Tones, grouped by frequency (a tone heard in several cycles may have several tracks).
   interface Family {
     freqHz: number;
@@ -1518,13 +1558,30 @@ function finish(ps: PipelineState): Report {
 
   // Tracks of steady lines (mains, or a tone sounding throughout) and tracks that never left the
   // quiet state give no onsets or segments.
-  const steadyTracks = new Set(tones.filter((f) => f.isSteadyLine).flatMap((f) => f.tracks));
+  // (A tone sounding through the whole record that is not on a mains line keeps its steady segments.)
+  const steadyTracks = new Set(tones.filter((f) => f.isSteadyLine && f.tracks.every((t) => t.isSteadyLine)).flatMap((f) => f.tracks));
   const report = (f: FittedSegment): boolean =>
     !f.tr.isSteadyLine && !steadyTracks.has(f.tr) && f.tr.regime.segments.some((s) => s.state !== STATE_QUIET);
   const onsets: Onset[] = fitted
     .filter((f) => report(f) && f.onsetTimeS !== null)
     .map((f) => ({ timeS: f.onsetTimeS as number, frequencyHz: f.report.frequencyHz }))
     .sort((a, b) => a.timeS - b.timeS);
+  // A decay is a fall and a growth a rise: a fitted rate of the other sign (or zero) means the
+  // segment is neither; it is reported as steady (still clear of the background) or quiet, without a rate.
+  for (const f of fitted) {
+    const r = f.report;
+    if (r.ratePerS === null || (r.kind !== 'growth' && r.kind !== 'decay')) continue;
+    if (r.kind === 'growth' ? r.ratePerS > 0 : r.ratePerS < 0) continue;
+    ps.warnings.push(`${r.kind} at ${r.startS.toFixed(2)} s: fitted rate ${r.ratePerS.toPrecision(3)} 1/s has the wrong sign; not a ${r.kind}`);
+    const mp = meanPower(f.tr, f.seg.startIdx, f.seg.endIdx, 1);
+    const bg = meanBg(f.tr, f.seg.startIdx, f.seg.endIdx);
+    r.kind = mp > 10 ** (ON_DB / 10) * bg ? 'steady' : 'quiet';
+    r.ratePerS = null;
+    r.rateCi95PerS = null;
+    r.model = null;
+    f.fit = null;
+    f.onsetTimeS = null;
+  }
   const segments = fitted.filter(report).map((f) => f.report);
   segments.sort((a, b) => a.startS - b.startS);
 
@@ -1532,7 +1589,7 @@ function finish(ps: PipelineState): Report {
   let main: Family | null = null;
   let mainScore = -Infinity;
   for (const fam of tones) {
-    if (fam.isSteadyLine) continue;
+    if (fam.tracks.every((t) => t.isSteadyLine)) continue;
     const famFits = fitted.filter((f) => fam.tracks.includes(f.tr));
     if (!famFits.some((f) => f.seg.state !== STATE_QUIET)) continue;
     const nOn = famFits.filter((f) => f.onsetTimeS !== null).length;

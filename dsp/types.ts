@@ -61,7 +61,12 @@ export interface Segment {
   /** Linear (small-amplitude) rate, 1/s; null for quiet segments. */
   ratePerS: number | null;
   rateCi95PerS: Interval | null;
-  /** Which model produced the rate: 'exponential', 'stuart-landau', 'generalised-saturation', or null. */
+  /**
+   * Which model produced the rate: 'exponential', 'stuart-landau', 'generalised-saturation',
+   * 'log-linear' (a straight line through ln A, used only for a live segment when the exponential
+   * fit fails), or null. Rates of live segments (push()) are provisional; finish() fits every
+   * segment again and its report holds the final figures.
+   */
   model?: string | null;
   /** Limit-cycle amplitude in dBFS for growth-into-saturation and steady segments. */
   limitAmplitudeDbfs?: number | null;
