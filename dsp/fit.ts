@@ -39,6 +39,11 @@
  * to cov(θ̂) ≈ φ·(JᵀWJ)⁻¹·n/N_eff, and E[RSS] ≈ φ·(n − p·n/N_eff), which fixes φ̂. The interval
  * is s ± t(0.975, N_eff − p)·sd(s), Student-t with N_eff − p degrees of freedom. Its coverage
  * is checked on simulation in tests/dsp/fit.test.ts and by the bench.
+ * The band fixes the shortest correlation, not the longest: a noise-driven resonance narrower
+ * than the band (the quiet hum of a duct below threshold, which keeps being forced while the tone
+ * grows) or a drift the model does not follow keeps the residuals correlated for longer. So n/N_eff
+ * is replaced by the residuals' own integrated correlation time when that is longer (Geyer's
+ * initial positive sequence estimator, see residualCorrelationTime), N_eff shrinking accordingly.
  *
  * The envelope low-pass itself. The model describes the tone's amplitude, but y is the amplitude
  * after the demodulator's low-pass, which rounds a knee whose time scale 1/(2s) is not long
@@ -493,6 +498,8 @@ interface IrlsResult {
   cov: Float64Array | null;
   nFree: number;
   dispersion: number;
+  /** Effective number of independent samples behind cov (N_eff, or fewer when the residuals are correlated for longer). */
+  nEff: number;
 }
 
 /** Iteratively reweighted fit: grid initialisation, LM polish, reweighting, covariance. */
@@ -548,7 +555,10 @@ function fitIrls(
   const jtr = new Float64Array(nFree);
   normalEquations(d, w, model, state.params, nFree, jtj, jtr);
   const inv = invertSmallMatrix(jtj, nFree);
-  const inflation = d.n / d.nEff;
+  // Correlation: the band's own (n/N_eff), or the residuals' when they are correlated for longer
+  // (noise-driven resonance narrower than the band, drift the model does not follow).
+  const inflation = Math.max(d.n / d.nEff, residualCorrelationTime(d, model, state.params, w));
+  const nEff = d.n / inflation;
   const dofResidual = d.n - nFree * inflation;
   const dispersion = dofResidual > 0 ? state.rss / dofResidual : Number.NaN;
   let cov: Float64Array | null = null;
@@ -556,7 +566,43 @@ function fitIrls(
     cov = new Float64Array(nFree * nFree);
     for (let i = 0; i < cov.length; i++) cov[i] = inv[i] * dispersion * inflation;
   }
-  return { state, weights: w, cov, nFree, dispersion };
+  return { state, weights: w, cov, nFree, dispersion, nEff };
+}
+
+/**
+ * Integrated autocorrelation time (samples) of the standardised residuals (y − m)·√w: Geyer's
+ * initial positive sequence estimator, τ = −1 + 2·Σ_{m=0}^{M} (ρ_{2m} + ρ_{2m+1}) summed while
+ * the pair sums stay positive (Geyer 1992, Practical Markov chain Monte Carlo, Statistical
+ * Science 7, 473). For n samples of a series correlated over τ, the variance of a mean (and of a
+ * least-squares estimate whose regressors vary slowly over τ) is τ times that of independent
+ * samples; lags are searched up to n/4.
+ */
+function residualCorrelationTime(d: Prepared, model: ShapeModel, params: Float64Array, w: Float64Array): number {
+  const k = model.nNonlinear;
+  const amp = Math.exp(params[0]);
+  const bg = params[k + 1];
+  const theta = params.subarray(1, k + 1);
+  const grad = new Float64Array(k);
+  const e = new Float64Array(d.n);
+  let c0 = 0;
+  for (let i = 0; i < d.n; i++) {
+    e[i] = (d.y[i] - amp * model.shape(d.t[i], theta, grad) - bg) * Math.sqrt(w[i]);
+    c0 += e[i] * e[i];
+  }
+  if (!(c0 > 0)) return 1;
+  const lagOf = (lag: number): number => {
+    let c = 0;
+    for (let i = 0; i + lag < d.n; i++) c += e[i] * e[i + lag];
+    return c / c0;
+  };
+  let tau = -1;
+  const maxLag = Math.floor(d.n / 4);
+  for (let m = 0; 2 * m + 1 <= maxLag; m++) {
+    const pair = (m === 0 ? 1 : lagOf(2 * m)) + lagOf(2 * m + 1);
+    if (!(pair > 0)) break;
+    tau += 2 * pair;
+  }
+  return Math.max(1, tau);
 }
 
 function invalidRateFit(reason: string, refTimeS: number, nEffective: number): RateFit {
@@ -614,7 +660,7 @@ export function fitExponential(series: EnvelopeSeries, opts?: { backgroundPower?
   if (Math.abs(s) * spanS >= MAX_RATE_TIMES_SPAN * 0.999) return invalidRateFit('rate outside the range the record can resolve', refTimeS, d.nEff);
   if (fit.cov === null) return invalidRateFit('fit covariance is singular', refTimeS, d.nEff);
   const sdRate = Math.sqrt(fit.cov[1 * fit.nFree + 1]);
-  const q = studentTQuantile(0.975, Math.max(1, d.nEff - fit.nFree));
+  const q = studentTQuantile(0.975, Math.max(1, fit.nEff - fit.nFree));
   const ci: Interval = [s - q * sdRate, s + q * sdRate];
   return {
     isValid: Number.isFinite(sdRate),
@@ -623,7 +669,7 @@ export function fitExponential(series: EnvelopeSeries, opts?: { backgroundPower?
     amplitudeAtRef: Math.sqrt(p0Mid * Math.exp(2 * s * (refTimeS - tm))),
     refTimeS,
     backgroundPower: bg,
-    nEffective: d.nEff,
+    nEffective: fit.nEff,
     ...(Number.isFinite(sdRate) ? {} : { reason: 'rate variance undefined' }),
   };
 }
@@ -701,7 +747,7 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
     const start: FitState = { params, isBackgroundFixed: fixedBg !== null, rss: Number.POSITIVE_INFINITY };
     polish(d, landau.weights, general, start);
     if (start.rss < (bestGeneral?.state.rss ?? Number.POSITIVE_INFINITY)) {
-      bestGeneral = { state: start, weights: landau.weights, cov: null, nFree: 0, dispersion: Number.NaN };
+      bestGeneral = { state: start, weights: landau.weights, cov: null, nFree: 0, dispersion: Number.NaN, nEff: d.nEff };
     }
   }
   if (bestGeneral !== null && Number.isFinite(bestGeneral.state.rss)) {
@@ -727,7 +773,7 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
   if (!(s > 0)) return fail('no growth found', d.nEff);
   if (chosen.fit.cov === null) return { fit: { ...failFit('fit covariance is singular', d.nEff), model }, ratePerS: s, p, tcS: tc };
   const sdRate = Math.sqrt(chosen.fit.cov[1 * chosen.fit.nFree + 1]);
-  const q = studentTQuantile(0.975, Math.max(1, d.nEff - chosen.fit.nFree));
+  const q = studentTQuantile(0.975, Math.max(1, chosen.fit.nEff - chosen.fit.nFree));
   const grad = new Float64Array(3);
   const shape = saturationShape(p);
   const theta = Float64Array.of(s, tc);
@@ -738,7 +784,7 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
     amplitudeAtRef: Math.sqrt(limitPower * shape.shape(ref, theta, grad)),
     refTimeS: ref,
     backgroundPower: bg,
-    nEffective: d.nEff,
+    nEffective: chosen.fit.nEff,
     model,
     limitAmplitude: Math.sqrt(limitPower),
     // (1 + e^{−p s (t − tc)})^{−1/p} = 1/2  ⇔  t = tc − ln(2^p − 1)/(p s); p = 2 gives ln 3/(2 s).
