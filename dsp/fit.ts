@@ -393,7 +393,7 @@ function levenbergStep(jtj: Float64Array, jtr: Float64Array, size: number, m: nu
 }
 
 /** Levenberg–Marquardt polish of all parameters (Marquardt 1963), N² kept ≥ 0. */
-function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState): void {
+function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState, maxIter = 100): void {
   const k = model.nNonlinear;
   const nFree = state.isBackgroundFixed ? k + 1 : k + 2;
   const jtj = new Float64Array(nFree * nFree);
@@ -402,7 +402,7 @@ function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState
   const trial = new Float64Array(state.params.length);
   let lambda = 1e-3;
   let rss = rssOf(d, w, model, state.params, grad);
-  for (let iter = 0; iter < 100; iter++) {
+  for (let iter = 0; iter < maxIter; iter++) {
     normalEquations(d, w, model, state.params, nFree, jtj, jtr);
     let isImproved = false;
     for (let attempt = 0; attempt < 12; attempt++) {
@@ -476,6 +476,43 @@ function gridSearch(
   return best;
 }
 
+/** Most samples the grid search looks at; longer series are block-averaged for it. */
+const GRID_MAX_SAMPLES = 160;
+
+/**
+ * The grid search on a block-averaged copy of the series (at most GRID_MAX_SAMPLES blocks: mean
+ * time, mean power, summed weight). The grid only has to land in the right basin, which the
+ * averaged curve shows as well; the Levenberg–Marquardt polish that follows uses every sample.
+ * Cost falls from (grid points × n) to (grid points × GRID_MAX_SAMPLES) shape evaluations.
+ */
+function gridSearchThinned(d: Prepared, w: Float64Array, model: ShapeModel, grid: GridSpec, fixedBg: number | null): FitState | null {
+  if (d.n <= GRID_MAX_SAMPLES) return gridSearch(d, w, model, grid, fixedBg);
+  const block = Math.ceil(d.n / GRID_MAX_SAMPLES);
+  const m = Math.ceil(d.n / block);
+  const t = new Float64Array(m);
+  const y = new Float64Array(m);
+  const wm = new Float64Array(m);
+  for (let j = 0; j < m; j++) {
+    const i0 = j * block;
+    const i1 = Math.min(d.n, i0 + block);
+    let st = 0;
+    let sy = 0;
+    let sw = 0;
+    for (let i = i0; i < i1; i++) {
+      st += d.t[i];
+      sy += d.y[i];
+      sw += w[i];
+    }
+    t[j] = st / (i1 - i0);
+    y[j] = sy / (i1 - i0);
+    wm[j] = sw;
+  }
+  const thin: Prepared = { t, y, n: m, spacingS: d.spacingS * block, nEff: d.nEff };
+  const state = gridSearch(thin, wm, model, grid, fixedBg);
+  if (state !== null) state.rss = rssOf(d, w, model, state.params, new Float64Array(model.nNonlinear));
+  return state;
+}
+
 /** Updates the IRLS weights 1/V(m̂) from the current parameters. */
 function updateWeights(d: Prepared, model: ShapeModel, state: FitState, w: Float64Array, bgFloor: number): void {
   const k = model.nNonlinear;
@@ -527,7 +564,7 @@ function fitIrls(
   let mean = 0;
   for (let i = 0; i < d.n; i++) mean += w[i];
   for (let i = 0; i < d.n; i++) w[i] /= mean / d.n;
-  let state = start ?? gridSearch(d, w, model, grid, fixedBg);
+  let state = start ?? gridSearchThinned(d, w, model, grid, fixedBg);
   if (state === null) return null;
   if (fixedBg !== null) state.params[model.nNonlinear + 1] = fixedBg;
   polish(d, w, model, state);
@@ -537,7 +574,7 @@ function fitIrls(
     // The exponential grid is cheap: search it again under the IRLS weights in case they move
     // the optimum to another basin. (The saturation grid is 20× larger; its LM polish suffices.)
     if (pass === 0 && start === null && model.nNonlinear === 1) {
-      const regrid = gridSearch(d, w, model, grid, fixedBg);
+      const regrid = gridSearchThinned(d, w, model, grid, fixedBg);
       if (regrid !== null) {
         polish(d, w, model, regrid);
         state.rss = rssOf(d, w, model, state.params, new Float64Array(model.nNonlinear));
@@ -557,7 +594,8 @@ function fitIrls(
   const inv = invertSmallMatrix(jtj, nFree);
   // Correlation: the band's own (n/N_eff), or the residuals' when they are correlated for longer
   // (noise-driven resonance narrower than the band, drift the model does not follow).
-  const inflation = Math.max(d.n / d.nEff, residualCorrelationTime(d, model, state.params, w));
+  // Capped so that at least nFree + 2 independent samples remain (Student-t with ≥ 2 degrees of freedom).
+  const inflation = Math.min(Math.max(d.n / d.nEff, residualCorrelationTime(d, model, state.params, w)), Math.max(d.n / d.nEff, d.n / (nFree + 2)));
   const nEff = d.n / inflation;
   const dofResidual = d.n - nFree * inflation;
   const dispersion = dofResidual > 0 ? state.rss / dofResidual : Number.NaN;
@@ -745,11 +783,13 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
     params[3] = Math.log(p);
     params[4] = landau.state.params[3];
     const start: FitState = { params, isBackgroundFixed: fixedBg !== null, rss: Number.POSITIVE_INFINITY };
-    polish(d, landau.weights, general, start);
+    // A few steps from each start tell the basins apart; only the best start is polished fully.
+    polish(d, landau.weights, general, start, 5);
     if (start.rss < (bestGeneral?.state.rss ?? Number.POSITIVE_INFINITY)) {
       bestGeneral = { state: start, weights: landau.weights, cov: null, nFree: 0, dispersion: Number.NaN, nEff: d.nEff };
     }
   }
+  if (bestGeneral !== null) polish(d, landau.weights, general, bestGeneral.state);
   if (bestGeneral !== null && Number.isFinite(bestGeneral.state.rss)) {
     const inflation = d.n / d.nEff;
     const nFreeGeneral = fixedBg === null ? 5 : 4;

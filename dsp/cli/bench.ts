@@ -19,6 +19,7 @@ import FFT from 'fft.js';
 import { cpus, loadavg } from 'node:os';
 import { performance } from 'node:perf_hooks';
 import { crlbDampedTone } from '../crlb';
+import { fitSaturation, landauAmplitude } from '../fit';
 import { renderScenario, type ScenarioSpec } from '../rig-sim';
 import { createAnalysis } from '../index';
 import { createWavDecoder } from '../io/wav';
@@ -432,6 +433,28 @@ function speed(): void {
     ratio <= 3 ? 'PASS' : 'MISS',
   );
   if (Number.isNaN(sink)) out('');
+
+  // One saturation fit (the bulk of finish()): 1000 envelope samples of a Stuart–Landau rise, 2 s.
+  {
+    const n = 1000;
+    const timeS = new Float64Array(n);
+    const power = new Float64Array(n);
+    const r = createRng(8);
+    for (let i = 0; i < n; i++) {
+      timeS[i] = (2 * i) / n;
+      const a = landauAmplitude(timeS[i], { ratePerS: 5, cubicCoefficient: 5, startAmplitude: 0.01 });
+      const re = a + 0.007 * r.normal();
+      const im = 0.007 * r.normal();
+      power[i] = re * re + im * im;
+    }
+    let fitS = Infinity;
+    for (let rep = 0; rep < 5; rep++) {
+      const t3 = performance.now();
+      fitSaturation({ timeS, power, bandwidthHz: 20 });
+      fitS = Math.min(fitS, (performance.now() - t3) / 1000);
+    }
+    row('one saturation fit, 1000 envelope samples', `${num(fitS * 1000, 3)} ms (best of 5)`, '—', 'info');
+  }
 
   // The WAV reader alone on the same minute, 16-bit PCM in 64 KiB pieces as the command line reads it.
   const wav = encodeWav(x, fs, 'pcm16');
