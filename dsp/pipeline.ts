@@ -574,6 +574,45 @@ function quickSegment(tr: TrackRuntime, s: RegimeSegment): Segment {
   return seg;
 }
 
+/**
+ * Provisional rate of a closed growth or decay segment for the live view: the exponential fit of
+ * dsp/fit.ts on the part of the segment that the fit's model describes (a growth from half a
+ * second of background before it up to 20 dB under its top, where a Landau curve departs from the
+ * exponential by under 1 %; a decay from one kernel after its start, the filter's transient, to
+ * the envelope seen so far, background fitted). Falls back to quickSegment's straight line when
+ * the fit fails or gives the wrong sign. finish() fits every segment again with the full models.
+ */
+function liveSegment(tr: TrackRuntime, s: RegimeSegment, prev: RegimeSegment | null): Segment {
+  const seg = quickSegment(tr, s);
+  const rate = tr.env.outputRateHz;
+  let series: EnvelopeSeries;
+  let opts: { backgroundPower?: number; refTimeS?: number } = {};
+  if (s.state === STATE_GROWTH) {
+    const lo = Math.max(prev !== null && prev.state === STATE_QUIET ? prev.startIdx : s.startIdx, tr.validFrom);
+    const w0 = contiguousStart(tr, s.startIdx, Math.round(0.5 * rate), lo);
+    let top = 0;
+    for (let k = s.startIdx; k < s.endIdx; k++) if (!tr.clipped[k] && tr.power[k] > top) top = tr.power[k];
+    let w1 = s.startIdx;
+    while (w1 < s.endIdx && !(tr.power[w1] > 0.01 * top)) w1++;
+    w1 = contiguousEnd(tr, s.startIdx, w1 - s.startIdx, w1);
+    series = buildSeries(tr, w0, w1, false);
+    const bg = meanPower(tr, w0, s.startIdx - Math.round(0.1 * rate), Math.round(BG_MIN_S * rate));
+    if (Number.isFinite(bg) && bg > 0) opts = { backgroundPower: bg };
+  } else {
+    const w0 = Math.min(s.endIdx - 1, s.startIdx + tr.env.kernelLength);
+    const w1 = contiguousEnd(tr, w0, Math.max(s.endIdx, tr.processed) - w0, Math.max(s.endIdx, tr.processed));
+    series = buildSeries(tr, w0, w1, false);
+  }
+  if (series.timeS.length === 0) return seg;
+  const fit = fitExponential(series, { ...opts, refTimeS: series.timeS[0] });
+  if (fit.isValid && (s.state === STATE_GROWTH ? fit.ratePerS > 0 : fit.ratePerS < 0)) {
+    seg.ratePerS = fit.ratePerS;
+    seg.rateCi95PerS = ciOf(fit);
+    seg.model = 'exponential';
+  }
+  return seg;
+}
+
 /** Collects what the regime steps of one frame closed, for the live update. */
 function collectLive(ps: PipelineState, tr: TrackRuntime): void {
   const rg = tr.regime;
@@ -587,7 +626,7 @@ function collectLive(ps: PipelineState, tr: TrackRuntime): void {
   for (let i = rg.segments.length - rg.closedInStep; i < rg.segments.length; i++) {
     const s = rg.segments[i];
     if (s.endIdx <= s.startIdx) continue;
-    if (s.state === STATE_GROWTH || s.state === STATE_DECAY) ps.liveSegments.push(quickSegment(tr, s));
+    if (s.state === STATE_GROWTH || s.state === STATE_DECAY) ps.liveSegments.push(liveSegment(tr, s, i > 0 ? rg.segments[i - 1] : null));
     else {
       ps.liveSegments.push({
         kind: regimeKind(s.state),
@@ -1309,10 +1348,11 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
         report.model = sat.model;
         report.limitAmplitudeDbfs = 20 * Math.log10(sat.limitAmplitude);
       }
-      if (!sat.isValid || sat.model !== 'stuart-landau') {
-        // The flexible shape's linear rate is poorly determined on a short knee that the envelope
-        // filter has blurred; the early part of the rise (below 1 % of the limit power, where the
-        // Landau curve departs from the exponential by under 1 %) gives the linear rate directly.
+      {
+        // A saturation shape's linear rate is poorly determined on a short knee that the envelope
+        // filter has blurred, and a knee sharper than Landau's biases the Landau rate up; the early
+        // part of the rise (below 1 % of the limit power, where the Landau curve departs from the
+        // exponential by under 1 %) gives the linear rate directly.
         const limitPower = sat.isValid ? sat.limitAmplitude * sat.limitAmplitude : meanPower(tr, seg.endIdx, w1, 1, isWide);
         let k1 = 0;
         while (k1 < series.power.length && !(series.power[k1] > 0.01 * limitPower)) k1++;
@@ -1321,8 +1361,14 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
         // Keep the flexible fit when it is the more precise and agrees with the early part (a
         // sharp knee that the wide band resolves); otherwise the early exponential.
         const half = (f: RateFit): number => 0.5 * (f.ci95PerS[1] - f.ci95PerS[0]);
+        // The Landau shape is kept unless the early rise rejects it outright (a difference over
+        // twice the 95 % half-width of the difference, about 4 sd): on a Landau rise it is the
+        // better estimate, and the early window's own small bias must not discard it.
+        const diff = Math.abs(sat.ratePerS - exp.ratePerS);
         const genAgrees =
-          sat.isValid && exp.isValid && Math.abs(sat.ratePerS - exp.ratePerS) <= Math.hypot(half(sat), half(exp)) && half(sat) < half(exp);
+          sat.isValid &&
+          exp.isValid &&
+          (sat.model === 'stuart-landau' ? diff <= 2 * Math.hypot(half(sat), half(exp)) : diff <= Math.hypot(half(sat), half(exp)) && half(sat) < half(exp));
         if (exp.isValid && exp.ratePerS > 0 && !genAgrees) {
           fit = exp;
           report.model = 'exponential';
@@ -1340,8 +1386,15 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
     if (seg.isOnset && !tr.isSteadyLine) {
       // Where the fitted curve meets the background of the narrow (about ±5 Hz) band: DESIGN.md.
       const tCross = backgroundCrossingTimeS({ ...fit, backgroundPower: bgNarrow });
-      // The crossing lies near the regime's estimate; far away means the fit did not describe the rise.
-      out.onsetTimeS = Number.isFinite(tCross) && tCross > startS - 1 && tCross < endS ? tCross : startS;
+      // The crossing lies near the regime's estimate; far away means the fit did not describe the
+      // rise. At the segment start the envelope was last seen at the background, so the curve may
+      // stand at most ON_DB above the background there: a tone that appears as a step well above
+      // the background has a curve that meets the background before anything sounded. That
+      // bounds the crossing to ON_DB / (8.686 dB per e-fold × s) before the start (and half a
+      // kernel, the envelope's own blur).
+      const riseS = fit.isValid && fit.ratePerS > 0 ? ON_DB / (20 * Math.LOG10E * fit.ratePerS) : Infinity;
+      const earliest = startS - Math.max(0.5 * tr.env.kernelS, riseS);
+      out.onsetTimeS = Number.isFinite(tCross) && tCross > startS - 1 && tCross < endS ? Math.max(earliest, tCross) : startS;
     }
     return out;
   }
@@ -1373,17 +1426,32 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
     }
     // Skip the envelope filter's transient: it spans half a kernel either side of the kink (the
     // marker), and the regime's own decay start may lie up to half a kernel before the kink.
-    const kLen = isWide ? tr.env.wideLength : tr.env.kernelLength;
-    const skip = hasMarker ? Math.ceil(kLen / 2) + 1 : tr.env.kernelLength + 1;
-    const w0 = Math.min(seg.endIdx - 1, startIdx + skip);
     const quietHi = next !== null && next.state === STATE_QUIET ? next.endIdx : seg.endIdx;
-    let bg = meanPower(tr, seg.endIdx + Math.round(0.2 * rate), Math.min(quietHi, seg.endIdx + bgWin), bgMin, isWide);
-    if (!Number.isFinite(bg)) bg = meanBg(tr, seg.startIdx, seg.endIdx) * bgScale;
-    let w1 = Math.min(quietHi, seg.endIdx + Math.round(DECAY_TAIL_S * rate));
-    w1 = contiguousEnd(tr, w0, w1 - w0, w1);
-    const series = buildSeries(tr, w0, w1, isWide);
-    const opts = Number.isFinite(bg) && bg > 0 ? { backgroundPower: bg } : {};
-    const fit = fitExponential(series, { ...opts, refTimeS: series.timeS.length > 0 ? series.timeS[0] : startS });
+    const fitDecay = (wide: boolean): RateFit => {
+      const kLen = wide ? tr.env.wideLength : tr.env.kernelLength;
+      const skip = hasMarker ? Math.ceil(kLen / 2) + 1 : tr.env.kernelLength + 1;
+      const w0 = Math.min(seg.endIdx - 1, startIdx + skip);
+      // Background from the quiet after the decay; with too little of it the fit estimates the
+      // background itself (the spectral background during the decay holds the loud tone's leakage).
+      const b0 = seg.endIdx + Math.round(0.2 * rate);
+      const b1 = Math.min(quietHi, seg.endIdx + bgWin);
+      let bg = meanPower(tr, b0, b1, bgMin, wide);
+      if (!Number.isFinite(bg)) bg = meanPower(tr, b0, b1, Math.round(0.1 * rate), wide);
+      let w1 = Math.min(quietHi, seg.endIdx + Math.round(DECAY_TAIL_S * rate));
+      w1 = contiguousEnd(tr, w0, w1 - w0, w1);
+      const series = buildSeries(tr, w0, w1, wide);
+      const opts = Number.isFinite(bg) && bg > 0 ? { backgroundPower: bg } : {};
+      return fitExponential(series, { ...opts, refTimeS: series.timeS.length > 0 ? series.timeS[0] : startS });
+    };
+    let fit = fitDecay(isWide);
+    if (!isWide && hasMarker) {
+      // A line within the wide band's reach was seen. A fast decay leaves the narrow band only a
+      // few independent samples, the wide band many: fit both and keep the tighter interval (a
+      // line that disturbs the wide band shows in its residuals and so widens its interval).
+      const wideFit = fitDecay(true);
+      const half = (f: RateFit): number => (f.isValid ? f.ci95PerS[1] - f.ci95PerS[0] : Infinity);
+      if (wideFit.isValid && wideFit.ratePerS < 0 && half(wideFit) < half(fit)) fit = wideFit;
+    }
     out.fit = fit;
     if (fit.isValid) {
       report.ratePerS = fit.ratePerS;
