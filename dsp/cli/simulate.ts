@@ -6,14 +6,15 @@
  * The bundled demo recordings are made with (after `npm run build:cli`; the output is the same
  * bit for bit on every run, the seed fixing all noise):
  *   node dist-cli/humgauge.js simulate --length 1 --diameter 0.035 --temp 20 --heater 0.25 \
- *     --steps 0:0,3:0.72,13:0 --duration 17.5 --rate 16000 --noise-dbfs -80 --excitation 5e-4 \
+ *     --steps 0:0,3:0.72,13:0 --duration 17.5 --rate 16000 --noise-dbfs -52 --excitation 5e-4 \
  *     --seed 11 --out public/demo/bench-tube.wav
  *   node dist-cli/humgauge.js simulate --ends closed-open --length 2.2 --diameter 0.15 --temp 120 \
- *     --heater 0.5 --lag-ms 14 --steps 0:0,2:0.75,12:0 --duration 16 --rate 16000 --noise-dbfs -70 \
+ *     --heater 0.5 --lag-ms 14 --steps 0:0,2:0.75,12:0 --duration 16 --rate 16000 --noise-dbfs -52 \
  *     --excitation 5e-4 --seed 23 --out public/demo/boiler-flue.wav
  * Bench tube: a 1 m open tube, heater a quarter up, switched on at 3 s (hums, saturates), off at 13 s
  * (dies away). Boiler flue: a 2.2 m flue closed at the appliance, burner 0.5 m up, on at 2 s, off at 12 s.
- * (the truth files go beside them as *.truth.json).
+ * (the truth files go beside them as *.truth.json). Both carry a room background of −52 dBFS
+ * broadband (a phone in a lab or boiler room), about 50 dB under the limit cycle.
  */
 import { writeFile } from 'node:fs/promises';
 import { encodeWav } from '../io/wav-write';

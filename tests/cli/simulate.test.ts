@@ -28,7 +28,7 @@ function readPcm16(path: string): { rateHz: number; samples: Int16Array; channel
   return { rateHz: v.getUint32(24, true), samples, channels: v.getUint16(22, true), bits: v.getUint16(34, true) };
 }
 
-const DEMO_ARGS = '--length 1 --diameter 0.035 --temp 20 --heater 0.25 --steps 0:0,3:0.72,13:0 --duration 17.5 --rate 16000 --noise-dbfs -80 --excitation 5e-4 --seed 11';
+const DEMO_ARGS = '--length 1 --diameter 0.035 --temp 20 --heater 0.25 --steps 0:0,3:0.72,13:0 --duration 17.5 --rate 16000 --noise-dbfs -52 --excitation 5e-4 --seed 11';
 
 describe('humgauge simulate', () => {
   it('writes a WAV and its truth: characteristic-equation rates per step, decay rate when the power drops', async () => {
