@@ -241,6 +241,68 @@ function saturationShape(fixedP: number | null): ShapeModel {
   };
 }
 
+/**
+ * A known low-pass applied to the tone's amplitude before the power is taken: taps h_k (any
+ * scale; normalised to Σh = 1 here) at offsets (k − (K − 1)/2)·spacingS, i.e. centred on the
+ * output time. The pipeline's envelope is |Σ h_k z(t − τ_k)|² for the complex demodulated tone z;
+ * while the tone's phase is steady over the kernel (frequency within a small part of the band of
+ * the demodulator's centre), its mean is (Σ h_k a(t − τ_k))² + N².
+ */
+export interface EnvelopeKernel {
+  weights: ArrayLike<number>;
+  spacingS: number;
+}
+
+/** Most kernel taps the smoothed model evaluates per sample. */
+const MAX_KERNEL_TAPS = 24;
+
+/**
+ * The model seen through an amplitude kernel: G(t) = (Σ h_k √g(t − τ_k))², with
+ * ∂G/∂θ = 2·(Σ h_k √g_k)·Σ h_k (∂g_k/∂θ)/(2√g_k). L·G is then the mean power of the smoothed
+ * amplitude √L·√g.
+ */
+function smoothedShape(inner: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
+  const n = kernel.weights.length;
+  // Long kernels are merged into at most MAX_KERNEL_TAPS groups, each at its weighted centre (a
+  // midpoint rule: the amplitude is smooth over one group, whose error is second order in its width).
+  const group = Math.ceil(n / MAX_KERNEL_TAPS);
+  const taps = Math.ceil(n / group);
+  const h = new Float64Array(taps);
+  const offsets = new Float64Array(taps);
+  let sum = 0;
+  for (let k = 0; k < n; k++) sum += kernel.weights[k];
+  for (let j = 0; j < taps; j++) {
+    let w = 0;
+    let wt = 0;
+    for (let k = j * group; k < Math.min(n, (j + 1) * group); k++) {
+      w += kernel.weights[k];
+      wt += kernel.weights[k] * (k - (n - 1) / 2) * kernel.spacingS;
+    }
+    h[j] = w / sum;
+    offsets[j] = w !== 0 ? wt / w : (j * group + (group - 1) / 2 - (n - 1) / 2) * kernel.spacingS;
+  }
+  const nn = inner.nNonlinear;
+  const gk = new Float64Array(nn);
+  const acc = new Float64Array(nn);
+  return {
+    nNonlinear: nn,
+    shape(t, theta, grad) {
+      let amp = 0;
+      acc.fill(0);
+      for (let k = 0; k < taps; k++) {
+        const g = inner.shape(t - offsets[k], theta, gk);
+        if (!(g > 0)) continue;
+        const root = Math.sqrt(g);
+        amp += h[k] * root;
+        const f = h[k] / (2 * root);
+        for (let j = 0; j < nn; j++) acc[j] += f * gk[j];
+      }
+      for (let j = 0; j < nn; j++) grad[j] = 2 * amp * acc[j];
+      return amp * amp;
+    },
+  };
+}
+
 // ---------------------------------------------------------------------------------------------
 // Weighted least squares machinery
 
@@ -546,6 +608,7 @@ function fitIrls(
   grid: GridSpec,
   fixedBg: number | null,
   start: FitState | null,
+  gridModel: ShapeModel = model,
 ): IrlsResult | null {
   let maxY = 0;
   for (let i = 0; i < d.n; i++) maxY = Math.max(maxY, d.y[i]);
@@ -564,7 +627,7 @@ function fitIrls(
   let mean = 0;
   for (let i = 0; i < d.n; i++) mean += w[i];
   for (let i = 0; i < d.n; i++) w[i] /= mean / d.n;
-  let state = start ?? gridSearchThinned(d, w, model, grid, fixedBg);
+  let state = start ?? gridSearchThinned(d, w, gridModel, grid, fixedBg);
   if (state === null) return null;
   if (fixedBg !== null) state.params[model.nNonlinear + 1] = fixedBg;
   polish(d, w, model, state);
@@ -736,9 +799,11 @@ function saturationGrid(d: Prepared): GridSpec {
  * at the 1 % level), the flexible form A² = A∞²·(1 + exp(−p s (t − t_c)))^(−2/p) from
  * dA/dt = sA(1 − (A/A∞)^p) is used and `model` is 'generalised-saturation'.
  * `halfTimeS` is when A = A∞/2; `amplitudeAtRef` is the fitted A (background excluded) at the
- * first sample time.
+ * first sample time. With `kernel` (the known low-pass the amplitude went through, EnvelopeKernel)
+ * the curve is fitted as seen through it, and s, A∞, the half-limit time describe the amplitude
+ * before it: a knee the low-pass has rounded then neither biases s nor reads as a softer knee.
  */
-export function fitSaturation(series: EnvelopeSeries, opts?: { backgroundPower?: number }): SaturationFit {
+export function fitSaturation(series: EnvelopeSeries, opts?: { backgroundPower?: number; kernel?: EnvelopeKernel }): SaturationFit {
   return fitSaturationWithShape(series, opts).fit;
 }
 
@@ -751,7 +816,7 @@ interface ShapedSaturation {
 }
 
 /** fitSaturation, also returning the fitted curve's p and t_c. */
-function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower?: number }): ShapedSaturation {
+function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower?: number; kernel?: EnvelopeKernel }): ShapedSaturation {
   const ref = series.timeS.length > 0 ? series.timeS[0] : 0;
   const failFit = (reason: string, nEff: number): SaturationFit => ({
     ...invalidRateFit(reason, ref, nEff),
@@ -765,15 +830,25 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
   const fixedBg = opts?.backgroundPower ?? null;
   if (fixedBg !== null && !(fixedBg >= 0)) return fail('backgroundPower must be ≥ 0', d.nEff);
   if (d.nEff - 5 < 1) return fail(`record too short for the envelope bandwidth (N_eff = ${d.nEff.toFixed(1)})`, d.nEff);
+  const kernel = opts?.kernel;
+  if (kernel !== undefined) {
+    let sum = 0;
+    for (let k = 0; k < kernel.weights.length; k++) sum += kernel.weights[k];
+    if (kernel.weights.length === 0 || !(sum > 0) || !(kernel.spacingS > 0) || !Number.isFinite(sum + kernel.spacingS)) {
+      return fail('kernel must have taps with a positive sum and a positive spacingS', d.nEff);
+    }
+  }
+  // Seen through the kernel when one is given; the grid only seeks the basin, without it (K× cheaper).
+  const through = (m: ShapeModel): ShapeModel => (kernel === undefined ? m : smoothedShape(m, kernel));
   const grid = saturationGrid(d);
-  const landau = fitIrls(d, saturationShape(2), grid, fixedBg, null);
+  const landau = fitIrls(d, through(saturationShape(2)), grid, fixedBg, null, saturationShape(2));
   if (landau === null) return fail('no tone above the background', d.nEff);
   let chosen: SaturationCandidate = { fit: landau, p: 2 };
   let model: SaturationFit['model'] = 'stuart-landau';
 
   // Flexible model, started from the Stuart–Landau solution at several knee sharpness values,
   // compared with the same weights (nested models: p = 2 is the Stuart–Landau case).
-  const general = saturationShape(null);
+  const general = through(saturationShape(null));
   let bestGeneral: IrlsResult | null = null;
   for (const p of [0.5, 1, 2, 4, 8, 16, 32]) {
     const params = new Float64Array(5);
@@ -861,8 +936,9 @@ export interface GrowthIntoLimitFit {
  * estimates and more lenient for these positively correlated ones) and is the more precise;
  * otherwise the early exponential is reported. Same rule for both saturation models.
  */
-export function fitGrowthIntoLimit(series: EnvelopeSeries, opts?: { backgroundPower?: number }): GrowthIntoLimitFit {
+export function fitGrowthIntoLimit(series: EnvelopeSeries, opts?: { backgroundPower?: number; kernel?: EnvelopeKernel }): GrowthIntoLimitFit {
   const shaped = fitSaturationWithShape(series, opts);
+  const expOpts = opts?.backgroundPower === undefined ? {} : { backgroundPower: opts.backgroundPower };
   const saturation = shaped.fit;
   const n = Math.min(series.timeS.length, series.power.length);
   // End of the small-amplitude part: where the fitted curve reaches the fraction of its limit,
@@ -889,7 +965,7 @@ export function fitGrowthIntoLimit(series: EnvelopeSeries, opts?: { backgroundPo
   const refTimeS = n > 0 ? series.timeS[0] : 0;
   const early =
     k1 >= 6
-      ? fitExponential({ timeS: series.timeS.subarray(0, k1), power: series.power.subarray(0, k1), bandwidthHz: series.bandwidthHz }, { ...opts, refTimeS })
+      ? fitExponential({ timeS: series.timeS.subarray(0, k1), power: series.power.subarray(0, k1), bandwidthHz: series.bandwidthHz }, { ...expOpts, refTimeS })
       : null;
   const half = (f: RateFit): number => 0.5 * (f.ci95PerS[1] - f.ci95PerS[0]);
   const isEarlyUsable = early !== null && early.isValid && early.ratePerS > 0;
