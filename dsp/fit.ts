@@ -948,7 +948,9 @@ export function fitGrowthIntoLimit(series: EnvelopeSeries, opts?: { backgroundPo
   let endS = Number.NaN;
   const sRate = shaped.ratePerS;
   if (saturation.isValid && sRate > 0 && shaped.p > 0 && Number.isFinite(shaped.tcS)) {
-    endS = shaped.tcS - Math.log(EARLY_LIMIT_FRACTION ** (-shaped.p / 2) - 1) / (shaped.p * sRate);
+    // ln(e^x − 1) = x + ln(1 − e^{−x}), x = (p/2)·ln(1/f): no overflow for a very sharp knee (large p).
+    const x = (shaped.p / 2) * Math.log(1 / EARLY_LIMIT_FRACTION);
+    endS = shaped.tcS - (x + Math.log1p(-Math.exp(-x))) / (shaped.p * sRate);
   } else {
     // No valid curve: the fraction of the mean of the last tenth of the record, on a running mean of 5 samples.
     const from = Math.floor(0.9 * n);

@@ -433,6 +433,23 @@ describe('fitGrowthIntoLimit', () => {
     expect(covered).toBeGreaterThanOrEqual(8);
   });
 
+  it('a very sharp knee (p = 64): the small-amplitude part is still found and the rate recovered', () => {
+    // dA/dt = sA(1 − A^p), s = 5, knee at t = 1 s: the exponential holds almost to the knee, and the
+    // end of the small-amplitude part (1 % of the limit power) lies 0.46 s before it.
+    const p = 64;
+    const amp = (t: number): number => (1 + Math.exp(-p * 5 * (t - 1))) ** (-1 / p);
+    let covered = 0;
+    for (let k = 0; k < 5; k++) {
+      const series = envelopePowerSeries({ ...ENV, amplitude: amp, noisePower: 1e-5, startS: 0, durationS: 2, seed: 95_000 + k });
+      const g = fitGrowthIntoLimit(series);
+      expect(g.early).not.toBeNull();
+      expect(g.rate.isValid).toBe(true);
+      if (g.rate.ci95PerS[0] <= 5 && 5 <= g.rate.ci95PerS[1]) covered++;
+    }
+    // 5 draws at 95 %: P(fewer than 4 covered) ≈ 2 %.
+    expect(covered).toBeGreaterThanOrEqual(4);
+  });
+
   it('Stuart–Landau data keep the Stuart–Landau rate (agreement test at about the 5 % level: at most 2 of 10 switch)', () => {
     const landau = { ratePerS: 5, cubicCoefficient: 5, startAmplitude: 0.01 };
     let kept = 0;
