@@ -137,6 +137,8 @@ const DECAY_TAIL_S = 1.0;
 /** Window either side of a growth or decay in which its noise level is judged, s, and how far above the spectral background that level may lie, dB. */
 const NOISE_PAD_S = 1;
 const NOISE_SPAN_DB = 20;
+/** Mean square second difference of ln A² above which an envelope is noise (as regime.ts NOISE_D2). */
+const NOISE_D2 = 2.5;
 /** A weaker line within this fraction of a tone's frequency and this many dB below it is its sidelobe or intermodulation product. */
 const NEAR_LINE_FRACTION = 0.35;
 const NEAR_LINE_DB = 20;
@@ -626,10 +628,12 @@ function collectLive(ps: PipelineState, tr: TrackRuntime): void {
   for (let i = rg.segments.length - rg.closedInStep; i < rg.segments.length; i++) {
     const s = rg.segments[i];
     if (s.endIdx <= s.startIdx) continue;
-    if (s.state === STATE_GROWTH || s.state === STATE_DECAY) ps.liveSegments.push(liveSegment(tr, s, i > 0 ? rg.segments[i - 1] : null));
+    // A growth or decay of the noise is shown as quiet (the same test as the report's, on the envelope seen so far).
+    const isNoise = (s.state === STATE_GROWTH || s.state === STATE_DECAY) && isNoiseSegment(tr, s, tr.processed);
+    if (!isNoise && (s.state === STATE_GROWTH || s.state === STATE_DECAY)) ps.liveSegments.push(liveSegment(tr, s, i > 0 ? rg.segments[i - 1] : null));
     else {
       ps.liveSegments.push({
-        kind: regimeKind(s.state),
+        kind: isNoise ? 'quiet' : regimeKind(s.state),
         startS: tr.timeS[s.startIdx],
         endS: tr.timeS[Math.max(s.startIdx, s.endIdx - 1)],
         frequencyHz: segmentFrequency(tr, s),
@@ -1229,6 +1233,44 @@ function peakPower(tr: TrackRuntime): number {
   return top;
 }
 
+/** The test of relabelNoiseSegments for one segment, reading the store up to entry `limit` (exclusive). */
+function isNoiseSegment(tr: TrackRuntime, s: RegimeSegment, limit: number): boolean {
+  const pad = Math.round(NOISE_PAD_S * tr.env.outputRateHz);
+  const i0 = Math.max(tr.validFrom, s.startIdx - pad);
+  const i1 = Math.min(tr.n, limit, s.endIdx + pad);
+  const vals: number[] = [];
+  let bgSum = 0;
+  let bgCount = 0;
+  for (let k = i0; k < i1; k++) {
+    if (tr.clipped[k]) continue;
+    vals.push(tr.power[k]);
+    if (tr.bg[k] > 0) {
+      bgSum += tr.bg[k];
+      bgCount++;
+    }
+  }
+  if (vals.length < 8 || bgCount === 0) return false;
+  vals.sort((a, b) => a - b);
+  const noiseMean = vals[Math.floor(0.2 * vals.length)] / -Math.log(0.8);
+  if (!(noiseMean < 10 ** (NOISE_SPAN_DB / 10) * (bgSum / bgCount))) {
+    // Far above the spectral background: noise only if the envelope jumps about as noise does
+    // (a noise-driven resonance), not if it is smooth (a dip in a loud tone). Mean square second
+    // difference of ln A² at 0.2 s lag: about 6-10 for noise, under 1 for a tone (regime.ts endWarmup).
+    const lag = Math.max(1, Math.round(0.2 * tr.env.outputRateHz));
+    let d2 = 0;
+    let cnt = 0;
+    for (let k = i0 + lag; k + lag < i1; k++) {
+      const d = Math.log(Math.max(tr.power[k + lag], 1e-30)) - 2 * Math.log(Math.max(tr.power[k], 1e-30)) + Math.log(Math.max(tr.power[k - lag], 1e-30));
+      d2 += d * d;
+      cnt++;
+    }
+    if (!(cnt > 0 && d2 / cnt > NOISE_D2)) return false;
+  }
+  let top = 0;
+  for (let k = Math.max(s.startIdx, tr.validFrom); k < s.endIdx; k++) if (!tr.clipped[k] && tr.power[k] > top) top = tr.power[k];
+  return !(top > 10 ** (ON_DB / 10) * noiseMean);
+}
+
 /**
  * Growth and decay segments of noise become quiet (and neighbouring quiet segments join). The
  * noise level around a segment is the band's own level where it is lowest: the 20th percentile
@@ -1240,31 +1282,8 @@ function peakPower(tr: TrackRuntime): number {
  */
 function relabelNoiseSegments(tr: TrackRuntime): void {
   const segs = tr.regime.segments;
-  const pad = Math.round(NOISE_PAD_S * tr.env.outputRateHz);
-  const onLin = 10 ** (ON_DB / 10);
-  const spanLin = 10 ** (NOISE_SPAN_DB / 10);
   for (const s of segs) {
-    if (s.state !== STATE_GROWTH && s.state !== STATE_DECAY) continue;
-    const i0 = Math.max(tr.validFrom, s.startIdx - pad);
-    const i1 = Math.min(tr.n, s.endIdx + pad);
-    const vals: number[] = [];
-    let bgSum = 0;
-    let bgCount = 0;
-    for (let k = i0; k < i1; k++) {
-      if (tr.clipped[k]) continue;
-      vals.push(tr.power[k]);
-      if (tr.bg[k] > 0) {
-        bgSum += tr.bg[k];
-        bgCount++;
-      }
-    }
-    if (vals.length < 8 || bgCount === 0) continue;
-    vals.sort((a, b) => a - b);
-    const noiseMean = vals[Math.floor(0.2 * vals.length)] / -Math.log(0.8);
-    if (!(noiseMean < spanLin * (bgSum / bgCount))) continue;
-    let top = 0;
-    for (let k = Math.max(s.startIdx, tr.validFrom); k < s.endIdx; k++) if (!tr.clipped[k] && tr.power[k] > top) top = tr.power[k];
-    if (!(top > onLin * noiseMean)) {
+    if ((s.state === STATE_GROWTH || s.state === STATE_DECAY) && isNoiseSegment(tr, s, tr.processed)) {
       s.state = STATE_QUIET;
       s.isOnset = false;
       s.reachedSteady = false;

@@ -105,7 +105,7 @@ describe.each([
 ])('simulated rig %#: one hum cycle, harmonics grouped, real decay', (demo, noiseDbfs) => {
   it(`${demo.name} at ${noiseDbfs} dBFS room background`, () => {
     const { samples, truth } = renderScenario({ ...demo.spec, noiseDbfs });
-    const { report } = analyse(samples, demo.spec.sampleRateHz);
+    const { report, liveSegments } = analyse(samples, demo.spec.sampleRateHz);
     const on = truth.steps[1];
     const off = truth.steps[2];
     const f0 = on.limitCycle?.frequencyHz as number;
@@ -127,6 +127,9 @@ describe.each([
     expectRate(growth.ratePerS, growth.rateCi95PerS, on.growthRatePerS, 'growth rate');
     expectRate(decay.ratePerS, decay.rateCi95PerS, -(off.decayRatePerS as number), 'decay rate');
     expect(Math.abs(decay.startS - demo.offS)).toBeLessThan(0.3);
+    // Live, the noise after the decay shows no growth or decay either.
+    const liveAfter = liveSegments.filter((s) => s.startS > demo.offS + 0.5 && (s.kind === 'growth' || s.kind === 'decay'));
+    expect(liveAfter, JSON.stringify(liveAfter)).toHaveLength(0);
     // The summary takes the real decay.
     expectRate(report.summary.decayRatePerS, report.summary.decayRateCi95PerS, off.decayRatePerS as number, 'summary decay rate');
     // Frequency of the limit cycle within 0.5 Hz (the steady segment spans ~9 s).
