@@ -519,7 +519,7 @@ function segmentFrequency(tr: TrackRuntime, s: RegimeSegment): number {
 }
 
 /**
- * Provisional rate of a closed growth or decay segment for the live view (model 'log-linear'):
+ * Fallback provisional rate of a closed growth or decay segment for the live view (model 'log-linear'),
  * a straight line through ½ ln(A² − N²) over the part of the segment that stands 10 dB clear of
  * both the background and the segment's top, where neither the floor nor saturation bends it
  * (common practice); interval from the line's residuals with the effective sample count
@@ -1812,11 +1812,14 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
  * config.sampleRateHz (full scale ±1) in blocks of any length and returns what it added: track rows
  * (about 100 per second, lagging the input by about half a spectral frame), onsets as soon as they
  * are seen (time = where the tone last sat at the band background; the report's onset time comes
- * from the fitted growth curve), closed segments with a quick provisional rate (model
- * 'log-linear'), and the latest spectrum. gap(n) records n missing input samples (segments and
- * fits do not join across it); mark() adds a user marker ('driving-off' fixes where a decay
- * starts); finish() fits every segment and returns the report. Throws RangeError for a bad
- * configuration; push() after finish() throws.
+ * from the fitted growth curve), closed segments with a provisional rate (an exponential fit of
+ * the segment's envelope, or a 'log-linear' slope when that fails; growth and decay of the noise
+ * show as quiet), and the latest spectrum. gap(n) records n missing input samples (segments and
+ * fits do not join across it; later times, and the report's durationS, include them, so durationS
+ * = (samples pushed + samples signalled missing) / sampleRateHz); mark() adds a user marker
+ * ('driving-off' fixes where a decay starts); finish() fits every segment again and returns the
+ * report, whose figures are the final ones. Throws RangeError for a bad configuration; push()
+ * after finish() throws.
  */
 export function createAnalysis(config: AnalysisConfig): Analysis {
   const ps = createPipelineState(config);
