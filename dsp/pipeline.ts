@@ -1622,11 +1622,18 @@ function finish(ps: PipelineState): Report {
       const isHarmonic = k >= 2 && k <= MAX_HARMONIC && Math.abs(fam.freqHz - k * par.freqHz) <= harmonicToleranceHz(binHz, par.freqHz, k);
       const isNear = Math.abs(fam.freqHz - par.freqHz) <= NEAR_LINE_FRACTION * par.freqHz && fam.peakPower * 10 ** (NEAR_LINE_DB / 10) < par.peakPower;
       if (!isHarmonic && !isNear) continue;
-      // Rises with it: all its activity within the parent's (steady lines sound throughout).
+      // Rises with it: all its activity within the parent's (steady lines sound throughout), and
+      // each of its growths during a growth of the parent (a tone that starts on its own while
+      // the parent holds steady is a tone of its own).
+      const growths = (q: Family): [number, number][] =>
+        q.tracks.flatMap((t) => t.regime.segments.filter((g) => g.state === STATE_GROWTH && g.endIdx > g.startIdx).map((g): [number, number] => [t.timeS[g.startIdx], t.timeS[g.endIdx - 1]]));
+      const parGrowths = growths(par);
       const within =
         Number.isNaN(fam.activeFromS) ||
         par.isSteadyLine ||
-        (fam.activeFromS >= par.activeFromS - WITHIN_MARGIN_S && fam.activeToS <= par.activeToS + WITHIN_MARGIN_S);
+        (fam.activeFromS >= par.activeFromS - WITHIN_MARGIN_S &&
+          fam.activeToS <= par.activeToS + WITHIN_MARGIN_S &&
+          growths(fam).every(([a]) => parGrowths.some(([p0, p1]) => a >= p0 - WITHIN_MARGIN_S && a <= p1 + WITHIN_MARGIN_S)));
       if (within) fam.parent = par;
     }
   }
