@@ -1003,6 +1003,10 @@ function processConditioned(ps: PipelineState): void {
     ps.j = j;
     if (ps.ringStartJ < j - ringCap) ps.ringStartJ = j - ringCap;
     if (ps.quietOpen && ps.quietStartJ < j - qCap) ps.quietStartJ = j - qCap;
+    // The early onset test runs on every new envelope sample, not only at frames (a frame hop is
+    // 0.16 s, several e-folds of a fast growth). It uses the latest frame's background either way,
+    // so the samples it sees and the answer do not depend on how the input is cut into blocks.
+    if (ps.spec.frameCount > 0) for (const tr of ps.alive) lookAhead(ps, tr);
     if (feedSpectrum(ps.spec, x, i, i + k)) processFrame(ps);
     i += k;
   }
