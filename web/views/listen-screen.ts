@@ -423,10 +423,16 @@ export const mountListenScreen: MountScreen = (root, app) => {
     // Context suspended or page frozen (tab hidden, phone call, screen off): the audio clock stops
     // while the wall clock runs on. The difference is marked as a gap so fits do not join across it.
     const ctx = mic.context;
-    let reference: ClockPair = { wallMs: performance.now(), audioS: ctx.currentTime };
+    // The clocks are compared only from the first analysed block on: start-up latency (permission,
+    // worklet loading, the device opening) is not lost input and must not be marked as a gap.
+    let reference: ClockPair | null = null;
     const checkForGap = (): void => {
-      if (ctx.state !== 'running' || run !== r) return;
+      if (ctx.state !== 'running' || run !== r || r.samplesAnalysed === 0) return;
       const now: ClockPair = { wallMs: performance.now(), audioS: ctx.currentTime };
+      if (!reference) {
+        reference = now;
+        return;
+      }
       const missingS = missingSeconds(reference, now);
       reference = now;
       if (missingS <= 0) return;
