@@ -27,7 +27,7 @@ import {
   stepEnvelope,
   type EnvelopeState,
 } from './envelope';
-import { backgroundCrossingTimeS, fitExponential, fitSaturation, studentTQuantile } from './fit';
+import { backgroundCrossingTimeS, fitExponential, fitGrowthIntoLimit, studentTQuantile } from './fit';
 import { createPeakList, findPeaks, groupHarmonics, neighbourNoisePower, suppressLeakage, type PeakList } from './peak';
 import {
   beginRegimeStep,
@@ -132,6 +132,8 @@ const BG_WINDOW_S = 2;
 const BG_MIN_S = 0.3;
 /** Pre-roll of background included before a growth segment in its fit, s. */
 const GROWTH_PREROLL_S = 1.5;
+/** Two-sided 95 % quantile of the standard normal (a 95 % half-width is Z95 sd). */
+const Z95 = 1.959963984540054;
 /** Tail of quiet after a decay included in its fit, s. */
 const DECAY_TAIL_S = 1.0;
 /** Window either side of a growth or decay in which its noise level is judged, s, and how far above the spectral background that level may lie, dB. */
@@ -1365,34 +1367,58 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
     const opts = Number.isFinite(bg) && bg > 0 ? { backgroundPower: bg } : {};
     let fit: RateFit;
     if (intoSteady) {
-      const sat = fitSaturation(series, opts);
-      fit = sat;
-      if (sat.isValid) {
-        report.model = sat.model;
-        report.limitAmplitudeDbfs = 20 * Math.log10(sat.limitAmplitude);
-      }
-      {
-        // A saturation shape's linear rate is poorly determined on a short knee that the envelope
-        // filter has blurred, and a knee sharper than Landau's biases the Landau rate up; the early
-        // part of the rise (below 1 % of the limit power, where the Landau curve departs from the
-        // exponential by under 1 %) gives the linear rate directly.
-        const limitPower = sat.isValid ? sat.limitAmplitude * sat.limitAmplitude : meanPower(tr, seg.endIdx, w1, 1, isWide);
-        let k1 = 0;
-        while (k1 < series.power.length && !(series.power[k1] > 0.01 * limitPower)) k1++;
-        const early: EnvelopeSeries = { timeS: series.timeS.subarray(0, k1), power: series.power.subarray(0, k1), bandwidthHz: series.bandwidthHz };
-        const exp = fitExponential(early, { ...opts, refTimeS: early.timeS.length > 0 ? early.timeS[0] : startS });
-        // Keep the flexible fit when it is the more precise and agrees with the early part (a
-        // sharp knee that the wide band resolves); otherwise the early exponential.
-        const half = (f: RateFit): number => 0.5 * (f.ci95PerS[1] - f.ci95PerS[0]);
-        // The Landau shape is kept unless the early rise rejects it outright (a difference over
-        // twice the 95 % half-width of the difference, about 4 sd): on a Landau rise it is the
-        // better estimate, and the early window's own small bias must not discard it.
-        const diff = Math.abs(sat.ratePerS - exp.ratePerS);
-        const genAgrees =
-          sat.isValid &&
-          exp.isValid &&
-          (sat.model === 'stuart-landau' ? diff <= 2 * Math.hypot(half(sat), half(exp)) : diff <= Math.hypot(half(sat), half(exp)) && half(sat) < half(exp));
-        if (exp.isValid && exp.ratePerS > 0 && !genAgrees) {
+      // The saturation fit sees the model through the band's own envelope kernel (its taps at the
+      // envelope rate), so the knee is not confused with the filter's blur; the early window is
+      // cut on the fitted curve (dsp/fit.ts fitGrowthIntoLimit).
+      const kLen = isWide ? tr.env.wideLength : tr.env.kernelLength;
+      const kernel = { weights: isWide ? tr.env.wideKernel : tr.env.kernel, spacingS: 1 / rate };
+      const grown = fitGrowthIntoLimit(series, { ...opts, kernel });
+      fit = grown.rate;
+      if (grown.saturation.isValid) report.limitAmplitudeDbfs = 20 * Math.log10(grown.saturation.limitAmplitude);
+      if (fit.isValid) report.model = grown.model;
+      // An exponential from the pre-roll up to the knee less half a kernel (the filter's blur of
+      // the knee) keeps the late rise, which holds most of the information on the rate (its
+      // Fisher information grows with the power). The regime's segment end lies up to half a
+      // narrow kernel before the knee, so the knee is placed where the exponential fitted up to
+      // that end meets the level held after it (a sharp knee turns there), and the exponential is
+      // refitted up to half a kernel before it. Choice of the reported rate:
+      // - the saturation fit (it also uses the knee, through the kernel, and so carries the most
+      //   information) when its interval is narrower than the early rise's and it agrees with the
+      //   late exponential within 2.5 combined sd (the knee is as sharp as the exponential says)
+      //   or with the early rise (fitGrowthIntoLimit's test; for Stuart–Landau twice as lenient,
+      //   about 4 sd: on a Landau rise it is the better estimate, and the early window's own small
+      //   bias must not discard it);
+      // - else the late exponential, when it agrees with the early rise or the saturation fit
+      //   within 2.5 combined sd (a rise that bends well before its limit, as Landau's, fails
+      //   this) and has the narrower interval (the early window alone is short and now and then
+      //   strays by over 3 sd);
+      // - else fitGrowthIntoLimit's choice.
+      const early = grown.early;
+      const halfK = Math.ceil(kLen / 2) + 1;
+      const firstCut = Math.min(seg.endIdx, w1) - halfK;
+      if (firstCut > seg.startIdx && early !== null && early.isValid) {
+        const upTo = (k: number): RateFit => {
+          const s1 = buildSeries(tr, w0, contiguousEnd(tr, seg.startIdx, k - seg.startIdx, k), isWide);
+          return fitExponential(s1, { ...opts, refTimeS: s1.timeS.length > 0 ? s1.timeS[0] : startS });
+        };
+        let exp = upTo(firstCut);
+        const held = meanPower(tr, Math.min(seg.endIdx, w1) + kLen, w1, kLen, isWide) - (opts.backgroundPower ?? 0);
+        if (exp.isValid && exp.ratePerS > 0 && exp.amplitudeAtRef > 0 && held > 0) {
+          const kneeS = exp.refTimeS + Math.log(held / (exp.amplitudeAtRef * exp.amplitudeAtRef)) / (2 * exp.ratePerS);
+          let cut = firstCut;
+          while (cut < w1 && tr.timeS[cut] < kneeS - halfK / rate) cut++;
+          if (cut !== firstCut) exp = upTo(cut);
+        }
+        const sd = (f: RateFit): number => (f.ci95PerS[1] - f.ci95PerS[0]) / (2 * Z95);
+        const near = (f: RateFit): boolean => f.isValid && Math.abs(exp.ratePerS - f.ratePerS) <= 2.5 * Math.hypot(sd(exp), sd(f));
+        const agrees = exp.isValid && exp.ratePerS > 0 && (near(early) || near(grown.saturation));
+        const sat = grown.saturation;
+        const satHalf = Math.hypot(sd(sat), sd(early)) * Z95;
+        const satAgreesEarly = Math.abs(sat.ratePerS - early.ratePerS) <= (sat.model === 'stuart-landau' ? 2 : 1) * satHalf;
+        if (sat.isValid && sat.ratePerS > 0 && sd(sat) < sd(early) && ((exp.isValid && near(sat)) || satAgreesEarly)) {
+          fit = sat;
+          report.model = sat.model;
+        } else if (agrees && (!fit.isValid || sd(exp) < sd(fit))) {
           fit = exp;
           report.model = 'exponential';
         }
