@@ -452,8 +452,9 @@ function advanceRegime(ps: PipelineState, tr: TrackRuntime, tMax: number): void 
  * demodulation frequency f_d is fixed, arg z(t) = 2π (f − f_d) t + const, so a straight line
  * through the unwrapped phase (weighted by |z|², over samples ≥ 6 dB over the band background and
  * within 20 dB of the segment's peak, restarting at every exclusion or retune) gives f. This approaches the accuracy of a fit to the
- * whole waveform (Rife & Boorstyn 1974) where a spectral peak is limited by its frame. Falls back
- * to the median of the spectral track.
+ * whole waveform (Rife & Boorstyn 1974) where a spectral peak is limited by its frame. A growth
+ * that ends in a knee (it reached steady) leaves out its last half kernel, whose samples mix the
+ * rise with the level after the knee. Falls back to the median of the spectral track.
  */
 function segmentFrequency(tr: TrackRuntime, s: RegimeSegment): number {
   let sumW = 0;
@@ -488,7 +489,8 @@ function segmentFrequency(tr: TrackRuntime, s: RegimeSegment): number {
   // growth the band may hold other sound, e.g. a noise-driven resonance, with its own phase).
   let maxP = 0;
   for (let k = Math.max(s.startIdx, tr.validFrom); k < s.endIdx; k++) if (!tr.clipped[k] && tr.power[k] > maxP) maxP = tr.power[k];
-  for (let k = Math.max(s.startIdx, tr.validFrom); k < s.endIdx; k++) {
+  const kEnd = s.state === STATE_GROWTH && s.reachedSteady ? Math.max(s.startIdx + 1, s.endIdx - Math.ceil(tr.env.kernelLength / 2)) : s.endIdx;
+  for (let k = Math.max(s.startIdx, tr.validFrom); k < kEnd; k++) {
     const w = tr.power[k];
     const usable = !tr.clipped[k] && w > 4 * tr.bg[k] && w >= 0.01 * maxP;
     if (!usable || (n > 0 && tr.demodHz[k] !== demod)) close();
