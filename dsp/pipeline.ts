@@ -75,6 +75,7 @@ import {
   type NoiseDriven,
   type Onset,
   type RateFit,
+  type RegimeKind,
   type Report,
   type Segment,
   type TrackFrame,
@@ -522,6 +523,19 @@ function segmentFrequency(tr: TrackRuntime, s: RegimeSegment): number {
   return medianFrequencyHz(tr.tone, t0 - 0.2, t1 + 0.2);
 }
 
+/** A segment's times and frequency, with no rate yet. */
+function unfittedSegment(tr: TrackRuntime, s: RegimeSegment, kind: RegimeKind): Segment {
+  return {
+    kind,
+    startS: tr.timeS[s.startIdx],
+    endS: tr.timeS[Math.max(s.startIdx, s.endIdx - 1)],
+    frequencyHz: segmentFrequency(tr, s),
+    ratePerS: null,
+    rateCi95PerS: null,
+    model: null,
+  };
+}
+
 /**
  * Fallback provisional rate of a closed growth or decay segment for the live view (model 'log-linear'),
  * a straight line through ½ ln(A² − N²) over the part of the segment that stands 10 dB clear of
@@ -530,15 +544,7 @@ function segmentFrequency(tr: TrackRuntime, s: RegimeSegment): number {
  * 2·B·duration (as in dsp/fit.ts). finish() replaces it with the full fit.
  */
 function quickSegment(tr: TrackRuntime, s: RegimeSegment): Segment {
-  const seg: Segment = {
-    kind: regimeKind(s.state),
-    startS: tr.timeS[s.startIdx],
-    endS: tr.timeS[Math.max(s.startIdx, s.endIdx - 1)],
-    frequencyHz: segmentFrequency(tr, s),
-    ratePerS: null,
-    rateCi95PerS: null,
-    model: null,
-  };
+  const seg = unfittedSegment(tr, s, regimeKind(s.state));
   const i0 = s.state === STATE_DECAY ? Math.min(s.endIdx, s.startIdx + tr.env.kernelLength) : s.startIdx;
   let top = 0;
   for (let k = i0; k < s.endIdx; k++) if (tr.power[k] > top) top = tr.power[k];
@@ -636,15 +642,7 @@ function collectLive(ps: PipelineState, tr: TrackRuntime): void {
     const isNoise = (s.state === STATE_GROWTH || s.state === STATE_DECAY) && isNoiseSegment(tr, s, tr.processed);
     if (!isNoise && (s.state === STATE_GROWTH || s.state === STATE_DECAY)) ps.liveSegments.push(liveSegment(tr, s, i > 0 ? rg.segments[i - 1] : null));
     else {
-      ps.liveSegments.push({
-        kind: isNoise ? 'quiet' : regimeKind(s.state),
-        startS: tr.timeS[s.startIdx],
-        endS: tr.timeS[Math.max(s.startIdx, s.endIdx - 1)],
-        frequencyHz: segmentFrequency(tr, s),
-        ratePerS: null,
-        rateCi95PerS: null,
-        model: null,
-      });
+      ps.liveSegments.push(unfittedSegment(tr, s, isNoise ? 'quiet' : regimeKind(s.state)));
     }
   }
 }
