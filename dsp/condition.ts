@@ -209,17 +209,23 @@ function runHalfBand(stg: HalfBandStage, src: Float64Array | null, n: number, ds
   const h = (L - 1) / 2;
   let m = 0;
   // Input i completes a pair when the running count is odd; its window is w[i .. i + L − 1].
+  // Each output folds the mirrored samples first (symmetric taps), two taps per pass.
+  const nPairs = nt & ~1;
   for (let i = stg.parity === 1 ? 0 : 1; i < n; i += 2) {
     const centre = i + h;
-    let acc = c0 * w[centre];
+    let acc0 = c0 * w[centre];
+    let acc1 = 0;
     let lo = centre - 1;
     let hi = centre + 1;
-    for (let j = 0; j < nt; j++) {
-      acc += taps[j] * (w[lo] + w[hi]);
-      lo -= 2;
-      hi += 2;
+    let j = 0;
+    for (; j < nPairs; j += 2) {
+      acc0 += taps[j] * (w[lo] + w[hi]);
+      acc1 += taps[j + 1] * (w[lo - 2] + w[hi + 2]);
+      lo -= 4;
+      hi += 4;
     }
-    dst[m++] = acc;
+    if (j < nt) acc0 += taps[j] * (w[lo] + w[hi]);
+    dst[m++] = acc0 + acc1;
   }
   stg.parity = (stg.parity + n) & 1;
   w.copyWithin(0, n, n + hist);

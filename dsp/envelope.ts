@@ -198,21 +198,27 @@ export function stepEnvelope(
   let k = outAt;
   // Triangle weights sum to M²; the factor 2 restores the amplitude of a cosine.
   const inv = 2 / (m * m);
-  for (let i = start; i < end; i++) {
-    const v = x[i];
-    const vr = v * or;
-    const vi = v * oi;
-    // Sample q of the block: weight M − 1 − q in the output closing after this block, q + 1 in the next.
-    const wd = m - 1 - ph;
-    const wa = ph + 1;
-    ar += vr * wd;
-    ai += vi * wd;
-    br += vr * wa;
-    bi += vi * wa;
-    const t = or * rr - oi * ri;
-    oi = or * ri + oi * rr;
-    or = t;
-    if (++ph < m) continue;
+  // Boxcar by boxcar: the inner loop runs to the end of the boxcar or of the input, no branch.
+  let i = start;
+  while (i < end) {
+    const stop = Math.min(end, i + (m - ph));
+    for (; i < stop; i++) {
+      const v = x[i];
+      const vr = v * or;
+      const vi = v * oi;
+      // Sample q of the block: weight M − 1 − q in the output closing after this block, q + 1 in the next.
+      const wd = m - 1 - ph;
+      const wa = ph + 1;
+      ar += vr * wd;
+      ai += vi * wd;
+      br += vr * wa;
+      bi += vi * wa;
+      const t = or * rr - oi * ri;
+      oi = or * ri + oi * rr;
+      or = t;
+      ph++;
+    }
+    if (ph < m) break;
     ph = 0;
     // Keep the phasor on the unit circle (rounding drift).
     const g = 1.5 - 0.5 * (or * or + oi * oi);
