@@ -89,9 +89,14 @@ export function findPeaks(st: SpectrumState, loBin: number, hiBin: number, minPr
   const lo = Math.max(1, loBin);
   const hi = Math.min(st.binCount - 1, hiBin);
   out.count = 0;
+  // Power ratio a little under the threshold: maxima clearly below it skip the logarithm (most of
+  // a noisy spectrum's maxima); the rest are decided on the exact value in dB, as before.
+  const clearlyBelow = 10 ** (minProminenceDb / 10) * (1 - 1e-9);
   for (let k = lo; k < hi; k++) {
     const v = sm[k];
     if (!(v > sm[k - 1] && v >= sm[k + 1])) continue;
+    const floor = localFloorMean(st, k, FLOOR_INNER_BINS, FLOOR_OUTER_BINS, lo, hi);
+    if (floor > 0 && v < clearlyBelow * floor) continue;
     const prom = prominenceDb(st, k, lo, hi);
     if (prom < minProminenceDb) continue;
     let slot = out.count;
