@@ -209,23 +209,42 @@ function runHalfBand(stg: HalfBandStage, src: Float64Array | null, n: number, ds
   const h = (L - 1) / 2;
   let m = 0;
   // Input i completes a pair when the running count is odd; its window is w[i .. i + L − 1].
-  // Each output folds the mirrored samples first (symmetric taps), two taps per pass.
-  const nPairs = nt & ~1;
-  for (let i = stg.parity === 1 ? 0 : 1; i < n; i += 2) {
+  // Each output folds the mirrored samples first (symmetric taps) and sums its terms in tap order.
+  let i = stg.parity === 1 ? 0 : 1;
+  // Four outputs per pass (windows two inputs apart) share the loop over the taps.
+  for (; i + 6 < n; i += 8) {
     const centre = i + h;
-    let acc0 = c0 * w[centre];
-    let acc1 = 0;
+    let a0 = c0 * w[centre];
+    let a1 = c0 * w[centre + 2];
+    let a2 = c0 * w[centre + 4];
+    let a3 = c0 * w[centre + 6];
     let lo = centre - 1;
     let hi = centre + 1;
-    let j = 0;
-    for (; j < nPairs; j += 2) {
-      acc0 += taps[j] * (w[lo] + w[hi]);
-      acc1 += taps[j + 1] * (w[lo - 2] + w[hi + 2]);
-      lo -= 4;
-      hi += 4;
+    for (let j = 0; j < nt; j++) {
+      const t = taps[j];
+      a0 += t * (w[lo] + w[hi]);
+      a1 += t * (w[lo + 2] + w[hi + 2]);
+      a2 += t * (w[lo + 4] + w[hi + 4]);
+      a3 += t * (w[lo + 6] + w[hi + 6]);
+      lo -= 2;
+      hi += 2;
     }
-    if (j < nt) acc0 += taps[j] * (w[lo] + w[hi]);
-    dst[m++] = acc0 + acc1;
+    dst[m++] = a0;
+    dst[m++] = a1;
+    dst[m++] = a2;
+    dst[m++] = a3;
+  }
+  for (; i < n; i += 2) {
+    const centre = i + h;
+    let acc = c0 * w[centre];
+    let lo = centre - 1;
+    let hi = centre + 1;
+    for (let j = 0; j < nt; j++) {
+      acc += taps[j] * (w[lo] + w[hi]);
+      lo -= 2;
+      hi += 2;
+    }
+    dst[m++] = acc;
   }
   stg.parity = (stg.parity + n) & 1;
   w.copyWithin(0, n, n + hist);
