@@ -649,6 +649,20 @@ function fitIrls(
     for (let j = 1; j <= model.nNonlinear; j++) change = Math.max(change, Math.abs(state.params[j] - before[j]) / (Math.abs(before[j]) + 1e-9));
     if (change < 1e-7) break;
   }
+  return { state, weights: w, ...covarianceAt(d, model, state, w, fixedBg) };
+}
+
+/**
+ * Covariance of the free parameters at a fitted state, corrected for correlation
+ * (φ̂·(JᵀWJ)⁻¹·n/N_eff, or the residuals' correlation time when longer; header of this file).
+ */
+function covarianceAt(
+  d: Prepared,
+  model: ShapeModel,
+  state: FitState,
+  w: Float64Array,
+  fixedBg: number | null,
+): { cov: Float64Array | null; nFree: number; dispersion: number; nEff: number } {
   const k = model.nNonlinear;
   const nFree = fixedBg === null && state.params[k + 1] > 0 ? k + 2 : k + 1;
   const jtj = new Float64Array(nFree * nFree);
@@ -667,7 +681,7 @@ function fitIrls(
     cov = new Float64Array(nFree * nFree);
     for (let i = 0; i < cov.length; i++) cov[i] = inv[i] * dispersion * inflation;
   }
-  return { state, weights: w, cov, nFree, dispersion, nEff };
+  return { cov, nFree, dispersion, nEff };
 }
 
 /**
@@ -878,6 +892,7 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
       }
     }
   }
+  if (model === 'generalised-saturation') chosen = conditionOnUnresolvedKnee(d, chosen, through, fixedBg);
   const k = model === 'stuart-landau' ? 2 : 3;
   const params = chosen.fit.state.params;
   const s = params[1];
@@ -907,6 +922,39 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
     ...(Number.isFinite(sdRate) ? {} : { reason: 'rate variance undefined' }),
   };
   return { fit, ratePerS: s, p, tcS: tc };
+}
+
+/**
+ * The rate's interval of a generalised-saturation fit whose knee is sharper than the samples
+ * resolve: conditional on the knee sharpness p instead of marginal over it. The knee turns over a
+ * time of about 1/(p·s); when that is under one sample interval Δt (p·s·Δt ≥ 1), every larger p
+ * predicts the same samples (a corner), so the likelihood is flat in ln p towards +∞ and its
+ * curvature there is not information but a numerical remnant. The linearised covariance
+ * φ̂·(JᵀWJ)⁻¹ then couples s to that flat direction (correlations of ±0.6–0.97 measured on sharp
+ * knees through a Blackman kernel) and states an sd of the rate up to 4× the scatter the fits
+ * actually show; where the ln p column vanishes altogether JᵀWJ is singular and no interval is
+ * given at all. The profile likelihood of s over p (maximised over p for each s) is, on that flat
+ * stretch, the likelihood at a fixed p, whose curvature in s is the conditional information
+ * (profile likelihood for nuisance parameters, Pawitan 2001, In All Likelihood; from memory),
+ * so the covariance is taken with p held at its estimate: the same weights, residuals and
+ * correlation correction, one free parameter fewer. A knee the samples do resolve keeps the
+ * marginal covariance. The correlation correction (n/N_eff, or the residuals' Geyer time when
+ * longer) is applied as before, once: on these records it stayed at the band's value n/N_eff, so
+ * it was not the source of the wide intervals.
+ */
+function conditionOnUnresolvedKnee(
+  d: Prepared,
+  chosen: SaturationCandidate,
+  through: (m: ShapeModel) => ShapeModel,
+  fixedBg: number | null,
+): SaturationCandidate {
+  const params = chosen.fit.state.params;
+  const s = params[1];
+  const p = Math.exp(params[3]);
+  if (!Number.isFinite(p) || !(s > 0) || p * s * d.spacingS < 1) return chosen;
+  const corner: FitState = { params: Float64Array.of(params[0], s, params[2], params[4]), isBackgroundFixed: fixedBg !== null, rss: chosen.fit.state.rss };
+  const conditional = covarianceAt(d, through(saturationShape(p)), corner, chosen.fit.weights, fixedBg);
+  return { fit: { ...chosen.fit, ...conditional }, p: chosen.p };
 }
 
 /** Power fraction of the limit below which the rise counts as small-amplitude (Stuart–Landau departs from the exponential there by < 1 %). */
