@@ -932,8 +932,7 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
  * curvature there is not information but a numerical remnant. The linearised covariance
  * φ̂·(JᵀWJ)⁻¹ then couples s to that flat direction (correlations of ±0.6–0.97 measured on sharp
  * knees through a Blackman kernel) and states an sd of the rate up to 4× the scatter the fits
- * actually show; where the ln p column vanishes altogether JᵀWJ is singular and no interval is
- * given at all. The profile likelihood of s over p (maximised over p for each s) is, on that flat
+ * actually show. The profile likelihood of s over p (maximised over p for each s) is, on that flat
  * stretch, the likelihood at a fixed p, whose curvature in s is the conditional information
  * (profile likelihood for nuisance parameters, Pawitan 2001, In All Likelihood; from memory),
  * so the covariance is taken with p held at its estimate: the same weights, residuals and
