@@ -8,6 +8,7 @@ import { mountCautionsScreen, showFirstRunNotice } from './views/cautions-screen
 import { registerSW } from 'virtual:pwa-register';
 import { applyTheme } from './views/settings-screen';
 import { loadSettings } from './settings';
+import { el } from './views/dom';
 
 applyTheme(loadSettings().theme);
 
@@ -95,22 +96,12 @@ function offerUpdates(): void {
   const updateSW = registerSW({
     immediate: true,
     onNeedRefresh() {
-      const bar = document.createElement('div');
-      bar.className = 'update-bar';
-      bar.setAttribute('role', 'status');
-      const text = document.createElement('span');
-      text.textContent = 'A new version is ready.';
-      const reload = document.createElement('button');
-      reload.type = 'button';
-      reload.className = 'small-button';
-      reload.textContent = 'Reload';
+      const reload = el('button', { type: 'button', className: 'small-button', textContent: 'Reload' });
       reload.addEventListener('click', () => void updateSW(true));
-      const later = document.createElement('button');
-      later.type = 'button';
-      later.className = 'small-button';
-      later.textContent = 'Later';
+      const later = el('button', { type: 'button', className: 'small-button', textContent: 'Later' });
+      const bar = el('div', { className: 'update-bar' }, el('span', { textContent: 'A new version is ready.' }), reload, later);
+      bar.setAttribute('role', 'status');
       later.addEventListener('click', () => bar.remove());
-      bar.append(text, reload, later);
       document.body.append(bar);
     },
     onOfflineReady() {

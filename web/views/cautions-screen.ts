@@ -5,6 +5,7 @@
  */
 import type { AppContext, MountScreen } from '../app-context';
 import { loadSettings, saveSettings } from '../settings';
+import { el } from './dom';
 import { LOWER_ACTION_DBA, UPPER_ACTION_DBA } from './live-readouts';
 
 interface CautionSection {
@@ -80,30 +81,17 @@ export const mountCautionsScreen: MountScreen = (root) => {
 export function showFirstRunNotice(app: AppContext, host: HTMLElement): boolean {
   const settings = loadSettings();
   if (settings.hasSeenCautions) return false;
-  const panel = document.createElement('section');
-  panel.className = 'first-run';
-  panel.id = 'first-run';
+  const panel = el('section', { className: 'first-run', id: 'first-run' }, el('h2', { id: 'first-run-title', textContent: 'Before you listen' }));
   panel.setAttribute('aria-labelledby', 'first-run-title');
-  const h = document.createElement('h2');
-  h.id = 'first-run-title';
-  h.textContent = 'Before you listen';
-  panel.append(h);
   renderSections(panel, 'h3');
-  const row = document.createElement('div');
-  row.className = 'controls';
-  const ok = document.createElement('button');
-  ok.type = 'button';
-  ok.className = 'big-button primary';
-  ok.id = 'first-run-ok';
-  ok.textContent = 'I understand';
+  const ok = el('button', { type: 'button', className: 'big-button primary', id: 'first-run-ok', textContent: 'I understand' });
   ok.addEventListener('click', () => {
     const s = loadSettings();
     s.hasSeenCautions = true;
     if (!saveSettings(s)) app.notify('Could not remember this notice (storage unavailable); it will show again.', 'warn');
     panel.remove();
   });
-  row.append(ok);
-  panel.append(row);
+  panel.append(el('div', { className: 'controls' }, ok));
   host.prepend(panel);
   return true;
 }
