@@ -4,7 +4,8 @@
  * only held a louder tone through its band's skirt is a duplicate, and a weaker line that belongs
  * to a stronger tone (a harmonic, a sidelobe or intermodulation line) is grouped under it.
  */
-import { STATE_GROWTH, STATE_QUIET, STATE_STEADY } from './regime';
+import { STATE_GROWTH, STATE_QUIET, STATE_STEADY, type RegimeSegment } from './regime';
+import { isLockedHarmonic } from './locking';
 import { segmentFrequency } from './segment-fit';
 import { peakPower, type ToneRuntime } from './tone-store';
 import { harmonicToleranceHz, matchToleranceHz, MAX_HARMONIC, medianFrequencyHz } from './track';
@@ -12,8 +13,6 @@ import { harmonicToleranceHz, matchToleranceHz, MAX_HARMONIC, medianFrequencyHz 
 /** A weaker line within this fraction of a tone's frequency and this many dB below it is its sidelobe or intermodulation product. */
 const NEAR_LINE_FRACTION = 0.35;
 export const NEAR_LINE_DB = 20;
-/** Active starts of two tracks of one tone closer than this are taken as simultaneous, s. */
-const DUPLICATE_START_S = 0.05;
 /** Margin on the parent tone's active span for a line that rises and falls with it, s. */
 const WITHIN_MARGIN_S = 1;
 /** A track that never left the quiet state counts as a line only when it stood this far over its background, dB. */
@@ -40,8 +39,10 @@ export interface Grouping {
   families: Family[];
   /** Families that are tones of their own (no parent), strongest first. */
   tones: Family[];
-  /** Tracks that give no segments of their own (duplicates, lines grouped under a tone). */
+  /** Tracks that give no segments of their own (lines grouped under a tone). */
   artefacts: Set<ToneRuntime>;
+  /** Segments told already by an earlier track of the same tone. */
+  dropped: Set<RegimeSegment>;
 }
 
 interface TrackInfo {
@@ -74,28 +75,28 @@ function trackInfo(tr: ToneRuntime): TrackInfo {
 }
 
 /**
- * A track beside a loud tone can hold that tone through its band's skirt: two tracks whose active
- * stretches overlap and whose envelopes turn at the same frequency are one tone; the one that saw
- * the tone later (or the weaker, at once) is dropped.
+ * Tracks of one tone overlap where a later track was started (its envelope rebuilt from the
+ * history) while an earlier one still held the tone, or where a track beside a loud tone held
+ * that tone through its band's skirt. Each stretch of the record is told once: a later track's
+ * active segment that overlaps an active segment kept from an earlier track is dropped, and so is
+ * a later track's quiet segment that lies within an earlier track's store.
  */
-function findDuplicates(all: ToneRuntime[], info: Map<ToneRuntime, TrackInfo>, binHz: number): Set<ToneRuntime> {
-  const duplicates = new Set<ToneRuntime>();
-  for (const a of all) {
-    const ia = info.get(a);
-    if (ia === undefined || Number.isNaN(ia.fromS)) continue;
-    for (const b of all) {
-      const ib = info.get(b);
-      if (b === a || ib === undefined || Number.isNaN(ib.fromS) || duplicates.has(b)) continue;
-      if (ib.toS < ia.fromS || ib.fromS > ia.toS) continue;
-      const bFirst = ib.fromS < ia.fromS - DUPLICATE_START_S || (Math.abs(ib.fromS - ia.fromS) <= DUPLICATE_START_S && ib.top > ia.top);
-      if (!bFirst) continue;
-      if (Math.abs(ia.freqHz - ib.freqHz) <= matchToleranceHz(binHz, ib.freqHz)) {
-        duplicates.add(a);
-        break;
-      }
+function dropOverlaps(fam: Family, dropped: Set<RegimeSegment>): void {
+  const tracks = [...fam.tracks].sort((a, b) => a.tone.id - b.tone.id);
+  const active: [number, number][] = [];
+  const stores: [number, number][] = [];
+  for (const tr of tracks) {
+    for (const s of tr.regime.segments) {
+      if (s.endIdx <= s.startIdx) continue;
+      const a = tr.timeS[s.startIdx];
+      const b = tr.timeS[s.endIdx - 1];
+      if (s.state !== STATE_QUIET) {
+        if (active.some(([p0, p1]) => a < p1 && b > p0)) dropped.add(s);
+        else active.push([a, b]);
+      } else if (stores.some(([p0, p1]) => a >= p0 && b <= p1)) dropped.add(s);
     }
+    if (tr.n > 0) stores.push([tr.timeS[0], tr.timeS[tr.n - 1]]);
   }
-  return duplicates;
 }
 
 /** Growth spans [start, end] (s) of a family's tracks. */
@@ -104,12 +105,15 @@ function growthSpans(q: Family): [number, number][] {
 }
 
 /**
- * Lines that belong to a stronger tone: a harmonic (at k·f0, weaker) or a sidelobe /
- * intermodulation line close beside it (NEAR_LINE_DB weaker), whose activity lies within the
- * tone's own and each of whose growths falls in a growth of the tone (a line that starts on its
- * own while the parent holds steady is a tone of its own). They get no onsets, segments or entry.
+ * Lines that belong to a stronger tone. A line near k·f (k = 2..MAX_HARMONIC) is that tone's
+ * harmonic over each of its segments whose envelope is locked to the tone's (locking.ts): those
+ * segments are dropped, and a line with no other active segment joins the tone. A second mode
+ * near 2f, with its own rate and frequency, keeps its segments. A sidelobe or intermodulation
+ * line close beside a tone (within NEAR_LINE_FRACTION of f and NEAR_LINE_DB weaker) joins it when
+ * all its activity lies within the tone's own and each of its growths falls in a growth of the
+ * tone (a line that starts on its own while the tone holds steady is a tone of its own).
  */
-function assignParents(families: Family[], binHz: number): void {
+function assignParents(families: Family[], binHz: number, dropped: Set<RegimeSegment>): void {
   const byPower = [...families].sort((a, b) => b.peakPower - a.peakPower);
   for (let i = 1; i < byPower.length; i++) {
     const fam = byPower[i];
@@ -119,8 +123,23 @@ function assignParents(families: Family[], binHz: number): void {
       if (!(fam.peakPower < par.peakPower)) continue;
       const k = Math.round(fam.freqHz / par.freqHz);
       const isHarmonic = k >= 2 && k <= MAX_HARMONIC && Math.abs(fam.freqHz - k * par.freqHz) <= harmonicToleranceHz(binHz, par.freqHz, k);
+      if (isHarmonic) {
+        let isAllLocked = true;
+        const parGrowths = growthSpans(par);
+        for (const tr of fam.tracks) {
+          for (const s of tr.regime.segments) {
+            if (s.state === STATE_QUIET || s.endIdx <= s.startIdx || dropped.has(s)) continue;
+            const a = tr.timeS[s.startIdx];
+            const risesWith = s.state === STATE_GROWTH && parGrowths.some(([p0, p1]) => a >= p0 - WITHIN_MARGIN_S && a <= p1 + WITHIN_MARGIN_S);
+            if (isLockedHarmonic(tr, s.startIdx, s.endIdx, par.tracks, k, risesWith)) dropped.add(s);
+            else isAllLocked = false;
+          }
+        }
+        if (isAllLocked) fam.parent = par;
+        continue;
+      }
       const isNear = Math.abs(fam.freqHz - par.freqHz) <= NEAR_LINE_FRACTION * par.freqHz && fam.peakPower * 10 ** (NEAR_LINE_DB / 10) < par.peakPower;
-      if (!isHarmonic && !isNear) continue;
+      if (!isNear) continue;
       const parGrowths = growthSpans(par);
       const within =
         Number.isNaN(fam.activeFromS) ||
@@ -133,39 +152,59 @@ function assignParents(families: Family[], binHz: number): void {
   }
 }
 
-/** Groups the record's tracks into tones (spectral bin width binHz). */
+/**
+ * Groups the record's tracks into tones (spectral bin width binHz): tracks sharing a tone
+ * identity (track.ts toneId) form one family, whatever the quiet gaps between them.
+ */
 export function groupTones(all: ToneRuntime[], binHz: number): Grouping {
-  const info = new Map<ToneRuntime, TrackInfo>();
-  for (const tr of all) info.set(tr, trackInfo(tr));
-  const duplicates = findDuplicates(all, info, binHz);
+  const dropped = new Set<RegimeSegment>();
+  const byId = new Map<number, Family>();
   const families: Family[] = [];
   for (const tr of all) {
-    if (duplicates.has(tr)) continue;
     if (tr.regime.segments.every((s) => s.state === STATE_QUIET) && !tr.isSteadyLine && tr.maxExcessDb < QUIET_LINE_MIN_DB) continue;
-    const ti = info.get(tr);
-    if (ti === undefined) continue;
-    const { freqHz: f, top, fromS: from, toS: to } = ti;
-    const fam = families.find((q) => Math.abs(q.freqHz - f) <= matchToleranceHz(binHz, f));
+    const ti = trackInfo(tr);
+    const fam = byId.get(tr.tone.toneId);
     if (fam) {
       fam.tracks.push(tr);
       fam.strength = Math.max(fam.strength, tr.maxExcessDb);
-      fam.peakPower = Math.max(fam.peakPower, top);
+      fam.peakPower = Math.max(fam.peakPower, ti.top);
       fam.isSteadyLine = fam.isSteadyLine && tr.isSteadyLine;
-      if (!Number.isNaN(from)) {
-        fam.activeFromS = Number.isNaN(fam.activeFromS) ? from : Math.min(fam.activeFromS, from);
-        fam.activeToS = Number.isNaN(fam.activeToS) ? to : Math.max(fam.activeToS, to);
+      if (!Number.isNaN(ti.fromS)) {
+        fam.activeFromS = Number.isNaN(fam.activeFromS) ? ti.fromS : Math.min(fam.activeFromS, ti.fromS);
+        fam.activeToS = Number.isNaN(fam.activeToS) ? ti.toS : Math.max(fam.activeToS, ti.toS);
       }
-    } else families.push({ freqHz: f, isSteadyLine: tr.isSteadyLine, strength: tr.maxExcessDb, peakPower: top, activeFromS: from, activeToS: to, tracks: [tr], parent: null });
+    } else {
+      const f: Family = { freqHz: ti.freqHz, isSteadyLine: tr.isSteadyLine, strength: tr.maxExcessDb, peakPower: ti.top, activeFromS: ti.fromS, activeToS: ti.toS, tracks: [tr], parent: null };
+      byId.set(tr.tone.toneId, f);
+      families.push(f);
+    }
   }
   for (const fam of families) {
+    dropOverlaps(fam, dropped);
     // A tone sounding through the whole record (never quiet, no onset) is a steady line too.
-    const segs = fam.tracks.flatMap((t) => t.regime.segments);
+    const segs = fam.tracks.flatMap((t) => t.regime.segments).filter((s) => !dropped.has(s));
     if (segs.length > 0 && segs.every((s) => s.state === STATE_STEADY)) fam.isSteadyLine = true;
   }
-  assignParents(families, binHz);
-  const artefacts = new Set([...duplicates, ...families.filter((f) => f.parent !== null).flatMap((f) => f.tracks)]);
+  assignParents(families, binHz, dropped);
+  // A line whose harmonic segments went to a stronger tone is known by the segments it keeps.
+  for (const fam of families) {
+    if (fam.parent !== null) continue;
+    let sw = 0;
+    let swf = 0;
+    for (const tr of fam.tracks) {
+      for (const s of tr.regime.segments) {
+        if (s.state === STATE_QUIET || s.endIdx <= s.startIdx || dropped.has(s)) continue;
+        const f = segmentFrequency(tr, s);
+        if (!Number.isFinite(f)) continue;
+        sw += s.endIdx - s.startIdx;
+        swf += (s.endIdx - s.startIdx) * f;
+      }
+    }
+    if (sw > 0) fam.freqHz = swf / sw;
+  }
+  const artefacts = new Set(families.filter((f) => f.parent !== null).flatMap((f) => f.tracks));
   families.sort((a, b) => b.strength - a.strength);
-  return { families, tones: families.filter((f) => f.parent === null), artefacts };
+  return { families, tones: families.filter((f) => f.parent === null), artefacts, dropped };
 }
 
 /** True when no other tone lies within the wide envelope band's reach of this tone (lines of a stronger tone and lines NEAR_LINE_DB weaker do not count). */

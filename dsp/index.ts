@@ -8,7 +8,7 @@ export { createAnalysis } from './pipeline';
 export { CLIP_LEVEL, CLIP_RUN_SAMPLES, createConditionState, gapCondition, stepCondition, type ConditionConfig, type ConditionState } from './condition';
 export { computeSpectrumFrame, createSpectrumState, feedSpectrum, HANN_ENBW_BINS, type SpectrumConfig, type SpectrumState } from './spectrum';
 export { createPeakList, findPeaks, groupHarmonics, hannAmplitudeResponse, hannPeakOffset, neighbourNoisePower, type PeakList } from './peak';
-export { createTrackerState, isMainsLine, stepTracker, type ToneTrack, type TrackerState } from './track';
+export { createTrackerState, isMainsMultiple, stepTracker, type ToneTrack, type TrackerState } from './track';
 export { bandPowerFromBinPower, createEnvelopeState, resetEnvelope, setEnvelopeFrequency, stepEnvelope, type EnvelopeConfig, type EnvelopeState } from './envelope';
 export { createRegimeState, regimeKind, stepRegime, type RegimeSegment, type RegimeState } from './regime';
 export * from './fit';

@@ -3,7 +3,7 @@
  * decay that the band's own noise explains is quiet, not a hum.
  */
 import { logSecondDifferenceMs, NOISE_D2, NOISE_TEST_LAG_S, ON_DB, STATE_DECAY, STATE_GROWTH, STATE_QUIET, type RegimeSegment } from './regime';
-import { meanPower, topPowerIn, type ToneRuntime } from './tone-store';
+import { topPowerIn, type ToneRuntime } from './tone-store';
 
 /** Window either side of a growth or decay in which its noise level is judged, s, and how far above the spectral background that level may lie, dB. */
 const NOISE_PAD_S = 1;
@@ -70,37 +70,4 @@ export function relabelNoiseSegments(tr: ToneRuntime): void {
     segs[w++] = s;
   }
   segs.length = w;
-}
-
-/** Rise (dB) and least duration (envelope kernels) of a growth that makes a mains-frequency track a tone. */
-const MAINS_TONE_RISE_DB = 40;
-const MAINS_TONE_MIN_RISE_KERNELS = 2;
-
-/**
- * A track on a mains frequency is a steady line, unless it grows out of the background the way a
- * tone does: a growth segment after MIN_QUIET of quiet that rises MAINS_TONE_RISE_DB and takes
- * longer than MAINS_TONE_MIN_RISE_KERNELS envelope kernels (a line switched on rises within about
- * one kernel, the filter's own response to a step). Such a track becomes a tone and the growth an onset.
- */
-export function reclaimMainsTone(tr: ToneRuntime): void {
-  const segs = tr.regime.segments;
-  const minQuiet = tr.regime.minQuiet;
-  const riseLin = 10 ** (MAINS_TONE_RISE_DB / 10);
-  let isTone = false;
-  for (let i = 1; i < segs.length; i++) {
-    const s = segs[i];
-    const prev = segs[i - 1];
-    if (s.state !== STATE_GROWTH || prev.state !== STATE_QUIET || prev.endIdx - prev.startIdx < minQuiet) continue;
-    if (s.endIdx - s.startIdx < MAINS_TONE_MIN_RISE_KERNELS * tr.env.kernelLength) continue;
-    const start = meanPower(tr, s.startIdx - tr.env.kernelLength, s.startIdx + 1, 1);
-    let top = 0;
-    for (let k = s.startIdx; k < s.endIdx; k++) if (!tr.clipped[k] && tr.power[k] > top) top = tr.power[k];
-    if (!(top > riseLin * start)) continue;
-    s.isOnset = true;
-    isTone = true;
-  }
-  if (isTone) {
-    tr.isSteadyLine = false;
-    tr.regime.allowOnsets = true;
-  }
 }

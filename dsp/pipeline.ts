@@ -15,16 +15,16 @@ import { stepEarlyOnset } from './early-onset';
 import { groupTones, wideBandIsClear } from './grouping';
 import { breakHistory, createHistory, stepHistory, storeFrame, type History } from './history';
 import { beginLive, collectLive, createLiveState, emitRows, type LiveState } from './live';
-import { reclaimMainsTone, relabelNoiseSegments } from './noise-label';
+import { classifyTransitions } from './line-class';
+import { relabelNoiseSegments } from './noise-label';
 import { closeQuietStretch, createQuietStore, openQuietStretch, QUIET_AFTER_DECAY_S, QUIET_GUARD_S, stepQuietStore, type QuietStore, type ResonanceContext } from './quiet-store';
-import { beginRegimeStep, finishRegime, STATE_QUIET } from './regime';
+import { beginRegimeStep, finishRegime, STATE_QUIET, STATE_STEADY } from './regime';
 import { assembleReport } from './report';
 import { fitSegment, type FittedSegment } from './segment-fit';
 import { computeSpectrumFrame, createSpectrumState, feedSpectrum, resetSpectrumFraming, type SpectrumState } from './spectrum';
 import { createTimeBase, jAtTime, rebaseAfterGap, timeOfJ, type TimeBase } from './time-base';
 import { createToneEnvelope, ENVELOPE_RATE_HZ } from './tone-store';
 import { advanceRegime, breakTones, createToneSet, maxEnvelopeChunk, resumeTonesAfterGap, retireIdleTones, stepToneEnvelopes, stepTonesAtFrame, type ToneSet } from './tones';
-import { isMainsLine } from './track';
 import type { Analysis, AnalysisConfig, AnalysisUpdate, ClippedSpan, Marker, Report } from './types';
 
 /** Analysis frame length, s (rounded to a power of two of samples): ~3 Hz bins. */
@@ -55,7 +55,9 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
     sampleRateHz: config.sampleRateHz,
     bandLowHz: config.bandLowHz ?? 20,
     bandHighHz: config.bandHighHz ?? 4000,
+    mainsHz: config.mainsHz ?? 0,
   };
+  if (!(cfg.mainsHz === 0 || cfg.mainsHz === 50 || cfg.mainsHz === 60)) throw new RangeError(`mainsHz must be 50 or 60 Hz (or 0: detect), got ${cfg.mainsHz}`);
   const cond = createConditionState(cfg);
   const fsA = cond.outputRateHz;
   const frameSize = 2 ** Math.round(Math.log2(FRAME_S * fsA));
@@ -89,8 +91,7 @@ function resonanceContext(ps: PipelineState): ResonanceContext {
     loBin: ps.hist.loBin,
     hiBin: ps.hist.hiBin,
     bandHighHz: ps.cond.bandHighHz,
-    steadyHz: [...ps.tones.alive, ...ps.tones.retired].filter((t) => t.isSteadyLine).map((t) => t.tone.freqHz),
-    isExcluded: isMainsLine,
+    steadyHz: [...ps.tones.alive, ...ps.tones.retired].filter((t) => t.isSteadyLine || t.regime.state === STATE_STEADY).map((t) => t.tone.freqHz),
   };
 }
 
@@ -220,7 +221,9 @@ function finish(ps: PipelineState): Report {
   const all = [...tones.retired, ...tones.alive.filter((t) => t.regime.segments.length > 0)];
   for (const tr of all) {
     relabelNoiseSegments(tr);
-    if (tr.isSteadyLine) reclaimMainsTone(tr);
+    classifyTransitions(tr);
+    // A ring-down now starts at its step: the noise test again, on the segment as it stands.
+    relabelNoiseSegments(tr);
   }
   const grouping = groupTones(all, spec.binHz);
   const others = [...tones.alive, ...tones.retired];
@@ -228,8 +231,11 @@ function finish(ps: PipelineState): Report {
   for (const tr of all) {
     if (grouping.artefacts.has(tr)) continue;
     const segs = tr.regime.segments;
+    // A track with no active segment of its own (never left the quiet, or all told by another
+    // track or tone) gives no segments.
+    if (!segs.some((s) => s.state !== STATE_QUIET && s.endIdx > s.startIdx && !grouping.dropped.has(s))) continue;
     for (let i = 0; i < segs.length; i++) {
-      if (segs[i].endIdx <= segs[i].startIdx) continue;
+      if (segs[i].endIdx <= segs[i].startIdx || grouping.dropped.has(segs[i])) continue;
       const isWide = segs[i].state !== STATE_QUIET && wideBandIsClear(tr, others, grouping.artefacts, spec.binHz);
       fitted.push(fitSegment(tr, segs, i, { isWide, markers: ps.markers, warnings: ps.warnings }));
     }
@@ -245,6 +251,7 @@ function finish(ps: PipelineState): Report {
     clipped,
     clipDropped: ps.cond.clipDropped,
     bandLimitedToHz: ps.cfg.bandHighHz > ps.cond.bandHighHz ? ps.cond.bandHighHz : null,
+    mainsHz: ps.cfg.mainsHz,
     warnings: ps.warnings,
   });
 }

@@ -59,10 +59,8 @@ export interface ResonanceContext {
   loBin: number;
   hiBin: number;
   bandHighHz: number;
-  /** Frequencies of steady lines (not resonances), Hz. */
+  /** Frequencies of lines sounding steadily (mains hum, a steady tone): not resonances, Hz. */
   steadyHz: number[];
-  /** Frequencies excluded as mains lines (a label set by the user's mains setting). */
-  isExcluded: (freqHz: number) => boolean;
 }
 
 /**
@@ -105,7 +103,7 @@ export function closeQuietStretch(qs: QuietStore, jEnd: number, ctx: ResonanceCo
 
 /**
  * The most prominent peak of the long-averaged (Welch, Hann, 75 % overlap) spectrum of a quiet
- * stretch, away from excluded and steady lines; null when none stands out.
+ * stretch, away from steady lines; null when none stands out.
  */
 function findResonance(ctx: ResonanceContext, x: Float32Array): number | null {
   const spec = ctx.spec;
@@ -133,7 +131,6 @@ function findResonance(ctx: ResonanceContext, x: Float32Array): number | null {
   for (let k = lo; k < hi; k++) {
     if (!(acc[k] > acc[k - 1] && acc[k] >= acc[k + 1])) continue;
     const f = k * spec.binHz;
-    if (ctx.isExcluded(f)) continue;
     if (ctx.steadyHz.some((g) => Math.abs(g - f) < 3 * spec.binHz)) continue;
     const floor = localFloorMean(view, k, 4, 24, lo, hi);
     if (!(floor > 0)) continue;

@@ -69,6 +69,8 @@ export interface RegimeSegment {
   isOnset: boolean;
   /** For growth: the segment ran into a steady limit cycle. */
   reachedSteady: boolean;
+  /** For decay: a ring-down after a step (an impulse response, line-class.ts), starting at the step. */
+  isImpulse?: boolean;
 }
 
 export interface RegimeState {
@@ -89,6 +91,8 @@ export interface RegimeState {
   minIdx: number;
   steadyLevelDb: number;
   lastHighIdx: number;
+  /** Latest index at which a steady level was not above its average by more than FLAT_DB. */
+  lastFlatIdx: number;
   dropHold: number;
   dropHoldMin: number;
   quietHold: number;
@@ -135,6 +139,7 @@ export function createRegimeState(rateHz: number, allowOnsets: boolean): RegimeS
     minIdx: 0,
     steadyLevelDb: 0,
     lastHighIdx: 0,
+    lastFlatIdx: 0,
     dropHold: 0,
     dropHoldMin: Math.max(1, Math.round(DROP_HOLD_S * rateHz)),
     quietHold: 0,
@@ -239,6 +244,8 @@ function endWarmup(st: RegimeState): void {
     st.state = STATE_STEADY;
     st.steadyLevelDb = 10 * Math.log10(Math.max(st.warmP[0], 1e-30));
     st.lastHighIdx = first;
+    st.lastFlatIdx = first;
+    st.regrowHold = 0;
     st.dropHold = 0;
   } else {
     // Quiet: the baseline is the band's own level while quiet (median / ln 2 of the exponential
@@ -321,6 +328,8 @@ function stepCore(st: RegimeState, idx: number, p: number, bg: number): void {
         st.state = STATE_STEADY;
         st.steadyLevelDb = levelDb;
         st.lastHighIdx = idx;
+        st.lastFlatIdx = idx;
+        st.regrowHold = 0;
         st.dropHold = 0;
       }
       break;
@@ -329,6 +338,19 @@ function stepCore(st: RegimeState, idx: number, p: number, bg: number): void {
       // Slow average of the limit-cycle level (time constant about the flatness window).
       st.steadyLevelDb += (levelDb - st.steadyLevelDb) / w;
       if (levelDb >= st.steadyLevelDb - FLAT_DB) st.lastHighIdx = idx;
+      if (levelDb <= st.steadyLevelDb + FLAT_DB) st.lastFlatIdx = idx;
+      // A faint tone that starts to grow: the same rise as a re-growth after a decay (REGROW_DB
+      // over its level, clear of the background), from where it last held its level. A growth,
+      // not an onset: the tone was sounding already.
+      if (levelDb > st.steadyLevelDb + REGROW_DB && excessDb >= ON_DB) st.regrowHold++;
+      else st.regrowHold = 0;
+      if (st.regrowHold >= st.onHoldMin) {
+        const start = Math.max(st.lastFlatIdx + 1, st.segStart);
+        closeSegment(st, start, false, false);
+        st.regrowHold = 0;
+        enterGrowth(st, start, false);
+        break;
+      }
       if (levelDb < st.steadyLevelDb - DROP_DB) st.dropHold++;
       else st.dropHold = 0;
       if (st.dropHold >= st.dropHoldMin) {

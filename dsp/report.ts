@@ -8,7 +8,8 @@ import type { Family, Grouping } from './grouping';
 import { ON_DB, STATE_DECAY, STATE_GROWTH, STATE_QUIET, STATE_STEADY } from './regime';
 import type { FittedSegment } from './segment-fit';
 import { meanBg, meanPower } from './tone-store';
-import { REPORT_VERSION, type ClippedSpan, type Interval, type NoiseDriven, type RateFit, type Report } from './types';
+import { isMainsMultiple, MAINS_HZ } from './track';
+import { REPORT_VERSION, type ClippedSpan, type Cycle, type Interval, type NoiseDriven, type RateFit, type Report } from './types';
 
 /** Clipped stretches listed one by one in the warnings. */
 const CLIP_WARNINGS_LISTED = 10;
@@ -53,16 +54,19 @@ function dropWrongSign(fitted: FittedSegment[], warnings: string[]): void {
   }
 }
 
-/** Main tone: the non-steady tone with the most onsets, then the strongest. */
+/**
+ * Main tone: the tone (not a steady line) with the most onsets, then the strongest; with none,
+ * the strongest steady line (a hum that sounds through the whole record is one by its envelope).
+ */
 function mainTone(tones: Family[], fitted: FittedSegment[]): Family | null {
   let main: Family | null = null;
   let mainScore = -Infinity;
   for (const fam of tones) {
-    if (fam.tracks.every((t) => t.isSteadyLine)) continue;
     const famFits = fitted.filter((f) => fam.tracks.includes(f.tr));
     if (!famFits.some((f) => f.seg.state !== STATE_QUIET)) continue;
+    const isLine = fam.isSteadyLine || fam.tracks.every((t) => t.isSteadyLine);
     const nOn = famFits.filter((f) => f.onsetTimeS !== null).length;
-    const score = nOn * 1000 + fam.strength;
+    const score = (isLine ? -1e6 : 0) + nOn * 1000 + fam.strength;
     if (score > mainScore) {
       mainScore = score;
       main = fam;
@@ -98,6 +102,91 @@ function summarise(main: Family, fitted: FittedSegment[]): Report['summary'] {
   });
 }
 
+/**
+ * The cycles of a tone in time order: a cycle opens at a growth (its onset, when it rose from
+ * quiet) or, without one, at the tone's first steady or decay segment after quiet; it takes the
+ * steady level and the decay that follow. A ring-down after a knock is a cycle of its own.
+ */
+function cyclesOfTone(fam: Family, fitted: FittedSegment[]): Cycle[] {
+  const own = fitted.filter((f) => fam.tracks.includes(f.tr) && f.report.kind !== 'quiet').sort((a, b) => a.report.startS - b.report.startS);
+  const cycles: Cycle[] = [];
+  let cur: Cycle | null = null;
+  const open = (f: FittedSegment): Cycle => {
+    const c: Cycle = {
+      startS: f.report.startS,
+      endS: f.report.endS,
+      onsetS: null,
+      onsetCi95S: null,
+      growthRatePerS: null,
+      growthRateCi95PerS: null,
+      limitAmplitudeDbfs: null,
+      limitAmplitudeCi95Dbfs: null,
+      decayRatePerS: null,
+      decayRateCi95PerS: null,
+      isImpulseResponse: f.report.isImpulseResponse === true,
+    };
+    cycles.push(c);
+    return c;
+  };
+  for (const f of own) {
+    const r = f.report;
+    const startsCycle = r.kind === 'growth' || cur === null || cur.decayRatePerS !== null || r.isImpulseResponse === true || (cur.isImpulseResponse && r.kind !== 'decay');
+    if (startsCycle) cur = open(f);
+    const c = cur as Cycle;
+    c.endS = Math.max(c.endS, r.endS);
+    if (r.kind === 'growth') {
+      c.onsetS = f.onsetTimeS;
+      c.onsetCi95S = f.onsetCi95S;
+      c.growthRatePerS = r.ratePerS;
+      c.growthRateCi95PerS = r.rateCi95PerS;
+    } else if (r.kind === 'steady' && typeof r.limitAmplitudeDbfs === 'number') {
+      c.limitAmplitudeDbfs = r.limitAmplitudeDbfs;
+      c.limitAmplitudeCi95Dbfs = f.limitCi95Dbfs;
+    } else if (r.kind === 'decay' && r.ratePerS !== null && r.rateCi95PerS !== null) {
+      c.decayRatePerS = -r.ratePerS;
+      c.decayRateCi95PerS = [-r.rateCi95PerS[1], -r.rateCi95PerS[0]];
+    }
+  }
+  return cycles;
+}
+
+function median(v: number[]): number {
+  const s = [...v].sort((a, b) => a - b);
+  const m = s.length;
+  return m % 2 === 1 ? s[(m - 1) / 2] : 0.5 * (s[m / 2 - 1] + s[m / 2]);
+}
+
+/** Robust spread: 1.4826 × the median absolute deviation, the sd of normal data (common practice). */
+const MAD_TO_SD = 1.4826;
+
+/** Median growth and decay rates across cycles and their spread (null with fewer than two cycles of a kind). */
+function cycleSummary(cycles: Cycle[]): Partial<Report['summary']> {
+  const g = cycles.map((c) => c.growthRatePerS).filter((r): r is number => r !== null);
+  const d = cycles.map((c) => c.decayRatePerS).filter((r): r is number => r !== null);
+  const med = (v: number[]): number | null => (v.length >= 2 ? median(v) : null);
+  const spread = (v: number[]): number | null => {
+    if (v.length < 2) return null;
+    const m = median(v);
+    return MAD_TO_SD * median(v.map((x) => Math.abs(x - m)));
+  };
+  return {
+    growthRateCycleMedianPerS: med(g),
+    growthRateCycleSpreadPerS: spread(g),
+    decayRateCycleMedianPerS: med(d),
+    decayRateCycleSpreadPerS: spread(d),
+    cycleCount: cycles.length,
+  };
+}
+
+/** The mains frequency whose multiple carries the strongest steady line, or 0 when none does. */
+function detectMainsHz(tones: Family[]): number {
+  for (const f of tones) {
+    if (!f.isSteadyLine) continue;
+    for (const m of MAINS_HZ) if (isMainsMultiple(f.freqHz, m)) return m;
+  }
+  return 0;
+}
+
 export interface ReportInput {
   sampleRateHz: number;
   durationS: number;
@@ -109,6 +198,8 @@ export interface ReportInput {
   clipDropped: number;
   /** Top of the analysed band when the sample rate lowered it below the requested one, Hz (else null). */
   bandLimitedToHz: number | null;
+  /** Mains frequency for the labels, Hz (0: take it from the steady lines). */
+  mainsHz: number;
   warnings: string[];
 }
 
@@ -116,21 +207,22 @@ export interface ReportInput {
 export function assembleReport(inp: ReportInput): Report {
   const { grouping, fitted, warnings } = inp;
   const tones = grouping.tones;
-  // Tracks of steady lines (mains, or a tone sounding throughout) and tracks that never left the
-  // quiet state give no onsets or segments.
-  const steadyTracks = new Set(tones.filter((f) => f.isSteadyLine && f.tracks.every((t) => t.isSteadyLine)).flatMap((f) => f.tracks));
-  const isReported = (f: FittedSegment): boolean => !f.tr.isSteadyLine && !steadyTracks.has(f.tr) && f.tr.regime.segments.some((s) => s.state !== STATE_QUIET);
+  // Steady lines keep their steady segments (frequency and level); they hold no growth, so no
+  // onset (line-class.ts).
   const onsets = fitted
-    .filter((f) => isReported(f) && f.onsetTimeS !== null)
+    .filter((f) => f.onsetTimeS !== null)
     .map((f) => ({ timeS: f.onsetTimeS as number, frequencyHz: f.report.frequencyHz }))
     .sort((a, b) => a.timeS - b.timeS);
   dropWrongSign(fitted, warnings);
-  const segments = fitted.filter(isReported).map((f) => f.report);
+  const segments = fitted.map((f) => f.report);
   segments.sort((a, b) => a.startS - b.startS);
   const main = mainTone(tones, fitted);
+  const cyclesOf = new Map<Family, Cycle[]>();
+  for (const f of tones) cyclesOf.set(f, cyclesOfTone(f, fitted));
   let summary = deriveSummary({ frequencyHz: null, growth: null, decay: null });
-  if (main !== null) summary = summarise(main, fitted);
+  if (main !== null) summary = { ...summarise(main, fitted), ...cycleSummary(cyclesOf.get(main) ?? []) };
   else warnings.push('no tone found');
+  const mainsHz = inp.mainsHz > 0 ? inp.mainsHz : detectMainsHz(tones);
   if (inp.bandLimitedToHz !== null) warnings.push(`band limited to ${inp.bandLimitedToHz.toFixed(0)} Hz by the sample rate`);
   const clipped = inp.clipped;
   const clipWarn = clipped.slice(0, CLIP_WARNINGS_LISTED).map((c) => `clipping in ${c.startS.toFixed(2)}–${c.endS.toFixed(2)} s`);
@@ -144,7 +236,12 @@ export function assembleReport(inp: ReportInput): Report {
     segments,
     noiseDriven: inp.noiseDriven,
     summary,
-    tones: tones.map((f) => ({ frequencyHz: f.freqHz, isSteadyLine: f.isSteadyLine })),
+    tones: tones.map((f) => ({
+      frequencyHz: f.freqHz,
+      isSteadyLine: f.isSteadyLine,
+      isMainsFrequency: mainsHz > 0 && isMainsMultiple(f.freqHz, mainsHz),
+      cycles: cyclesOf.get(f) ?? [],
+    })),
     clipped,
     warnings: [...clipWarn, ...warnings],
   };

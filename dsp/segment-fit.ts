@@ -33,6 +33,10 @@ export interface FittedSegment {
   report: Segment;
   fit: RateFit | null;
   onsetTimeS: number | null;
+  /** 95 % interval of the onset time (the crossing at the ends of the rate's interval), s. */
+  onsetCi95S: Interval | null;
+  /** 95 % interval of a steady segment's limit level, dBFS. */
+  limitCi95Dbfs: Interval | null;
 }
 
 /** A fit's 95 % interval as a fresh pair. */
@@ -56,6 +60,19 @@ function sdOf(f: RateFit): number {
  * median of the spectral track.
  */
 export function segmentFrequency(tr: ToneRuntime, s: RegimeSegment): number {
+  const kEnd = s.state === STATE_GROWTH && s.reachedSteady ? Math.max(s.startIdx + 1, s.endIdx - Math.ceil(tr.env.kernelLength / 2)) : s.endIdx;
+  const f = phaseFrequency(tr, s.startIdx, s.endIdx, kEnd);
+  if (!Number.isNaN(f)) return f;
+  const t0 = tr.timeS[s.startIdx];
+  const t1 = tr.timeS[Math.max(s.startIdx, s.endIdx - 1)];
+  return medianFrequencyHz(tr.tone, t0 - 0.2, t1 + 0.2);
+}
+
+/**
+ * The phase-slope frequency of store entries [i0, kEnd) (the peak for the 20 dB rule taken over
+ * [i0, i1)), Hz; NaN when no piece of PHASE_MIN_SAMPLES usable samples exists.
+ */
+export function phaseFrequency(tr: ToneRuntime, i0: number, i1: number, kEnd = i1): number {
   let sumW = 0;
   let sumWF = 0;
   const line = createLineSums();
@@ -73,11 +90,10 @@ export function segmentFrequency(tr: ToneRuntime, s: RegimeSegment): number {
     }
     resetLineSums(line);
   };
-  // Only where the segment's tone dominates: within 20 dB of its strongest sample (early in a
-  // growth the band may hold other sound, e.g. a noise-driven resonance, with its own phase).
-  const maxP = topPowerIn(tr, s.startIdx, s.endIdx);
-  const kEnd = s.state === STATE_GROWTH && s.reachedSteady ? Math.max(s.startIdx + 1, s.endIdx - Math.ceil(tr.env.kernelLength / 2)) : s.endIdx;
-  for (let k = Math.max(s.startIdx, tr.validFrom); k < kEnd; k++) {
+  // Only where the tone dominates: within 20 dB of its strongest sample (early in a growth the
+  // band may hold other sound, e.g. a noise-driven resonance, with its own phase).
+  const maxP = topPowerIn(tr, i0, i1);
+  for (let k = Math.max(i0, tr.validFrom); k < kEnd; k++) {
     const w = tr.power[k];
     const usable = !tr.clipped[k] && w > PHASE_MIN_OVER_BG * tr.bg[k] && w >= PHASE_MIN_OF_PEAK * maxP;
     if (!usable || (line.n > 0 && tr.demodHz[k] !== demod)) close();
@@ -93,14 +109,11 @@ export function segmentFrequency(tr: ToneRuntime, s: RegimeSegment): number {
       unwrapped += d;
     }
     prev = th;
-    // Times relative to the segment start keep the sums well conditioned.
-    addLinePoint(line, tr.timeS[k] - tr.timeS[s.startIdx], unwrapped, w);
+    // Times relative to the window start keep the sums well conditioned.
+    addLinePoint(line, tr.timeS[k] - tr.timeS[i0], unwrapped, w);
   }
   close();
-  if (sumW > 0) return sumWF / sumW;
-  const t0 = tr.timeS[s.startIdx];
-  const t1 = tr.timeS[Math.max(s.startIdx, s.endIdx - 1)];
-  return medianFrequencyHz(tr.tone, t0 - 0.2, t1 + 0.2);
+  return sumW > 0 ? sumWF / sumW : Number.NaN;
 }
 
 /** A segment's times and frequency, with no rate yet. */
@@ -127,7 +140,8 @@ export interface SegmentFitContext {
 /** Fits segment i of a tone and fills its report entry (and the onset time for onsets). */
 export function fitSegment(tr: ToneRuntime, segs: RegimeSegment[], i: number, ctx: SegmentFitContext): FittedSegment {
   const seg = segs[i];
-  const out: FittedSegment = { tr, seg, report: unfittedSegment(tr, seg, regimeKind(seg.state)), fit: null, onsetTimeS: null };
+  const out: FittedSegment = { tr, seg, report: unfittedSegment(tr, seg, regimeKind(seg.state)), fit: null, onsetTimeS: null, onsetCi95S: null, limitCi95Dbfs: null };
+  if (seg.isImpulse === true) out.report.isImpulseResponse = true;
   if (seg.state === STATE_QUIET) return out;
   if (seg.state === STATE_GROWTH) fitGrowthSegment(out, segs, i, ctx);
   else if (seg.state === STATE_DECAY) fitDecaySegment(out, segs, i, ctx);
@@ -185,7 +199,16 @@ function fitGrowthSegment(out: FittedSegment, segs: RegimeSegment[], i: number, 
     if (fit.isValid) report.model = 'exponential';
   }
   setRate(out, fit);
-  if (seg.isOnset && !tr.isSteadyLine) out.onsetTimeS = onsetTime(tr, fit, bgNarrow, report.startS, report.endS);
+  if (seg.isOnset && !tr.isSteadyLine) {
+    out.onsetTimeS = onsetTime(tr, fit, bgNarrow, report.startS, report.endS);
+    if (fit.isValid) {
+      // The crossing moves with the rate: its values at the ends of the rate's interval (the
+      // amplitude at the reference time held) bound it.
+      const a = onsetTime(tr, { ...fit, ratePerS: fit.ci95PerS[0] }, bgNarrow, report.startS, report.endS);
+      const b = onsetTime(tr, { ...fit, ratePerS: fit.ci95PerS[1] }, bgNarrow, report.startS, report.endS);
+      out.onsetCi95S = [Math.min(a, b, out.onsetTimeS), Math.max(a, b, out.onsetTimeS)];
+    }
+  }
 }
 
 /**
@@ -276,6 +299,8 @@ function decayKink(tr: ToneRuntime, seg: RegimeSegment, prev: RegimeSegment | nu
   const rate = tr.env.outputRateHz;
   const startS = tr.timeS[seg.startIdx];
   let startIdx = seg.startIdx;
+  // A ring-down starts at its step (line-class.ts).
+  if (seg.isImpulse === true) return { startIdx, isKnown: true };
   let isKnown = false;
   const lookBackS = prev !== null ? Math.min(2, tr.timeS[seg.startIdx] - tr.timeS[prev.startIdx]) : 0;
   for (const mk of markers) {
@@ -344,7 +369,23 @@ function fitSteadySegment(out: FittedSegment): void {
   const series = buildSeries(tr, seg.startIdx, seg.endIdx, false);
   const bg = meanBg(tr, seg.startIdx, seg.endIdx);
   const mp = meanPower(tr, seg.startIdx, seg.endIdx, 1);
-  if (Number.isFinite(mp)) report.limitAmplitudeDbfs = 10 * Math.log10(Math.max(mp - (Number.isFinite(bg) ? bg : 0), 1e-30));
+  if (Number.isFinite(mp)) {
+    const b = Number.isFinite(bg) ? bg : 0;
+    report.limitAmplitudeDbfs = 10 * Math.log10(Math.max(mp - b, 1e-30));
+    // Interval of the mean power from the samples' spread with the effective count 2·B·D.
+    let ss = 0;
+    let c = 0;
+    for (let k = Math.max(seg.startIdx, tr.validFrom); k < seg.endIdx; k++) {
+      if (tr.clipped[k]) continue;
+      ss += (tr.power[k] - mp) * (tr.power[k] - mp);
+      c++;
+    }
+    const nEff = Math.min(c, 2 * tr.env.bandwidthHz * (report.endS - report.startS));
+    if (c > 1 && nEff >= 1) {
+      const h = (Z_975 * Math.sqrt(ss / (c - 1))) / Math.sqrt(nEff);
+      if (mp - h > b) out.limitCi95Dbfs = [10 * Math.log10(mp - h - b), 10 * Math.log10(mp + h - b)];
+    }
+  }
   const fit = fitExponential(series, Number.isFinite(bg) && bg > 0 ? { backgroundPower: bg } : {});
   setRate(out, fit);
   if (fit.isValid) report.model = 'exponential';

@@ -23,7 +23,7 @@ import {
   createToneTrack,
   createTrackerState,
   harmonicToleranceHz,
-  isMainsLine,
+  isSameToneHz,
   matchToleranceHz,
   MAX_HARMONIC,
   resetTentative,
@@ -128,10 +128,26 @@ export function maxEnvelopeChunk(ts: ToneSet): number {
   return ts.scratch.power.length * ts.envM - ts.envM;
 }
 
+/**
+ * The tone a new line at freqHz continues: the quiet (alive or retired) track heard most recently
+ * whose last frequency lies within the identity neighbourhood (isSameToneHz); null when none. A
+ * track sounding now is another line: the same tone would have matched it.
+ */
+function identityOf(ts: ToneSet, binHz: number, freqHz: number): number | null {
+  let best: ToneRuntime | null = null;
+  for (const tr of [...ts.alive, ...ts.retired]) {
+    if (tr.isAlive && (tr.regime.state > STATE_QUIET || tr.isSteadyLine)) continue;
+    if (!isSameToneHz(binHz, tr.tone.heardHz, freqHz)) continue;
+    if (best === null || tr.tone.lastHitFrame > best.tone.lastHitFrame) best = tr;
+  }
+  return best === null ? null : best.tone.toneId;
+}
+
 /** Starts a tone: rebuilds its envelope from the sample history and its background from the frame history. */
 function startTone(ts: ToneSet, spec: SpectrumState, hist: History, tb: TimeBase, freqHz: number, promDb: number, frameIdx: number): void {
   const tone = createToneTrack(ts.tracker, freqHz, frameIdx, promDb);
-  const tr = createToneRuntime(tone, createToneEnvelope(ts.analysisRateHz, ts.envM), isMainsLine(freqHz), hist.frameTimeS.length);
+  tone.toneId = identityOf(ts, spec.binHz, freqHz) ?? tone.toneId;
+  const tr = createToneRuntime(tone, createToneEnvelope(ts.analysisRateHz, ts.envM), false, hist.frameTimeS.length);
   const m = ts.envM;
   const cap = hist.ring.length;
   let jStart = Math.max(hist.ringStartJ, tb.j - cap + 1);
@@ -212,11 +228,6 @@ export function stepTonesAtFrame(ts: ToneSet, spec: SpectrumState, hist: History
   mergeDuplicateTones(ts, spec.binHz);
   const fr = hist.frameTimeS.length;
   for (const tr of ts.alive) {
-    // A tone settling on a mains multiple is a steady line (its first frames may be off while it switches on).
-    if (!tr.isSteadyLine && tr.tone.lastHitFrame === frameIdx && isMainsLine(tr.tone.freqHz)) {
-      tr.isSteadyLine = true;
-      tr.regime.allowOnsets = false;
-    }
     // Retune only when the tone has moved well inside the band: a fixed demodulation frequency
     // keeps arg z a straight line whose slope gives the frequency precisely (segment-fit.ts).
     if (Math.abs(tr.tone.freqHz - tr.env.freqHz) > RETUNE_HZ) setEnvelopeFrequency(tr.env, tr.tone.freqHz);
@@ -229,12 +240,24 @@ export function stepTonesAtFrame(ts: ToneSet, spec: SpectrumState, hist: History
   for (let c = 0; c < tk.confirmedCount && !isFrameClipped; c++) {
     const f = tk.confirmedFreqHz[c];
     let dup = false;
-    for (const tr of ts.alive) {
+    let handover = -1;
+    for (let i = 0; i < ts.alive.length; i++) {
+      const tr = ts.alive[i];
       // Same tone, or a harmonic of a tone sounding now (a limit cycle's waveform, distortion).
       const n = Math.round(f / tr.tone.freqHz);
-      if (n === 1 && Math.abs(f - tr.tone.freqHz) <= 2 * matchToleranceHz(spec.binHz, f)) dup = true;
       const isSounding = tr.regime.state > STATE_QUIET || tr.isSteadyLine;
+      if (n === 1 && Math.abs(f - tr.tone.freqHz) <= 2 * matchToleranceHz(spec.binHz, f)) dup = true;
+      // A quiet tone whose hum returns a little off its last frequency (the gas warmed): the
+      // new track rebuilt at the new frequency continues it (docs/DESIGN.md, Tone identity).
+      // Only for a tone that has sounded (a history to continue), and a line outside its narrow
+      // band (its demodulator would hear it attenuated); otherwise the tone's own track follows.
+      const hasSounded = tr.regime.segments.some((q) => q.state !== STATE_QUIET);
+      if (!isSounding && hasSounded && isSameToneHz(spec.binHz, tr.tone.heardHz, f) && Math.abs(f - tr.env.freqHz) > tr.env.bandwidthHz) handover = i;
       if (n >= 2 && n <= MAX_HARMONIC && isSounding && Math.abs(f - n * tr.tone.freqHz) <= harmonicToleranceHz(spec.binHz, tr.tone.freqHz, n)) dup = true;
+    }
+    if (handover >= 0 && (!dup || Math.abs(f - ts.alive[handover].tone.freqHz) > matchToleranceHz(spec.binHz, f))) {
+      retireTone(ts, hist, spec.frameCount, handover);
+      dup = false;
     }
     if (dup) continue;
     if (ts.alive.length >= MAX_TRACKS) {

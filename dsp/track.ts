@@ -20,25 +20,26 @@ export const INSTANT_CONFIRM_DB = 20;
 /** Frames a tentative peak may be missed before it is dropped. */
 const TENTATIVE_MAX_MISSES = 1;
 
-/** Mains frequencies whose multiples are steady lines, Hz. */
-const MAINS_HZ = [50, 60];
+/** Mains frequencies, Hz. */
+export const MAINS_HZ = [50, 60];
 
 /**
- * True when freqHz lies on the 1st-4th multiple of 50 or 60 Hz within 0.1 + 0.05·n Hz (grid
- * frequency within ±0.1 %, common practice). A mains line's upper harmonics are grouped under
- * its fundamental by peak.ts; tones further up are not taken for mains.
+ * True when freqHz lies on the 1st-4th multiple of the mains frequency mainsHz within
+ * 0.1 + 0.05·n Hz (grid frequency within ±0.1 %, common practice). Only a label: whether a line
+ * is steady is decided by its envelope (line-class.ts).
  */
-export function isMainsLine(freqHz: number): boolean {
-  for (const m of MAINS_HZ) {
-    const n = Math.round(freqHz / m);
-    if (n >= 1 && n <= 4 && Math.abs(freqHz - n * m) <= 0.1 + 0.05 * n) return true;
-  }
-  return false;
+export function isMainsMultiple(freqHz: number, mainsHz: number): boolean {
+  const n = Math.round(freqHz / mainsHz);
+  return n >= 1 && n <= 4 && Math.abs(freqHz - n * mainsHz) <= 0.1 + 0.05 * n;
 }
 
 /** A confirmed tone track: current frequency and its history (one row per frame it was seen). */
 export interface ToneTrack {
   id: number;
+  /** Identity of the tone this track follows: tracks of one tone across quiet gaps share it. */
+  toneId: number;
+  /** Frequency where a prominent peak last placed the tone, Hz. */
+  heardHz: number;
   freqHz: number;
   /** Consecutive frames without a matching peak. */
   misses: number;
@@ -94,7 +95,9 @@ export function createTrackerState(binHz: number, peakCapacity: number, maxTenta
 /** Creates a confirmed track at freqHz (allocates its history; done once per new tone). */
 export function createToneTrack(st: TrackerState, freqHz: number, frame: number, prominenceDb: number): ToneTrack {
   return {
-    id: st.nextId++,
+    id: st.nextId,
+    toneId: st.nextId++,
+    heardHz: freqHz,
     freqHz,
     misses: 0,
     lastHitFrame: frame,
@@ -104,6 +107,19 @@ export function createToneTrack(st: TrackerState, freqHz: number, frame: number,
     histFreqHz: new Float32Array(256),
     histCount: 0,
   };
+}
+
+/**
+ * A tone that returns after a quiet gap within this fraction of its last frequency continues the
+ * same tone: a duct mode moves as √T of the gas, so a 10 % warmer gas moves it by about 5 %
+ * (REFERENCES.md §1). Modes of one duct lie much further apart (end corrections aside, at
+ * multiples of the fundamental).
+ */
+export const IDENTITY_FRACTION = 0.05;
+
+/** Whether a line at freqHz continues a tone last heard at toneHz (quiet in between). */
+export function isSameToneHz(binHz: number, toneHz: number, freqHz: number): boolean {
+  return Math.abs(freqHz - toneHz) <= Math.max(2 * matchToleranceHz(binHz, toneHz), IDENTITY_FRACTION * toneHz);
 }
 
 /** Matching tolerance around a track at freqHz, Hz. */
@@ -165,11 +181,15 @@ export function stepTracker(st: TrackerState, tracks: ToneTrack[], peaks: PeakLi
       continue;
     }
     used[best] = 1;
-    tr.freqHz = peaks.freqHz[best];
     tr.misses = 0;
     tr.lastHitFrame = frame;
     if (peaks.prominenceDb[best] > tr.maxProminenceDb) tr.maxProminenceDb = peaks.prominenceDb[best];
+    tr.freqHz = peaks.freqHz[best];
     appendHistory(tr, timeS, tr.freqHz);
+    // Where the tone was last heard: only a peak as prominent as one that starts a tone. Weaker
+    // peaks near a quiet tone are mostly the band's noise; the identity of a tone that returns is
+    // judged from here (docs/DESIGN.md, Tone identity).
+    if (peaks.prominenceDb[best] >= newMinProminenceDb) tr.heardHz = tr.freqHz;
   }
   // Tentative tracks.
   for (let j = 0; j < st.tentCount; j++) st.tentMisses[j]++;

@@ -4,8 +4,13 @@
  * Rates: positive grows, negative decays; `decayRatePerS` fields are positive numbers.
  */
 
-/** Version of the report layout; bump when a field is renamed or dropped. */
-export const REPORT_VERSION = 1;
+/**
+ * Version of the report layout; bump when a field is renamed, dropped or changes meaning.
+ * 2: tones are decided by envelope behaviour (a line on a mains multiple that behaves as a hum is a
+ * tone; steady lines keep their steady segments); a knock gives ring-down decays marked
+ * isImpulseResponse and no onset; tones carry their cycles; the summary gives per-cycle medians.
+ */
+export const REPORT_VERSION = 2;
 
 export type RegimeKind = 'quiet' | 'growth' | 'steady' | 'decay';
 
@@ -19,6 +24,11 @@ export interface AnalysisConfig {
   /** Band of interest, Hz. Defaults 20 and 4000. */
   bandLowHz?: number;
   bandHighHz?: number;
+  /**
+   * Mains frequency, Hz (50 or 60), used only to label lines on its multiples; 0 or absent:
+   * taken from the steady lines of the record when one lies on a multiple of 50 or 60 Hz.
+   */
+  mainsHz?: number;
 }
 
 /** A user marker typed while recording ("driving off", "firing rate 60 %"). */
@@ -70,6 +80,39 @@ export interface Segment {
   model?: string | null;
   /** Limit-cycle amplitude in dBFS for growth-into-saturation and steady segments. */
   limitAmplitudeDbfs?: number | null;
+  /** A decay that rings down after a step (a knock): an impulse response, with no onset. */
+  isImpulseResponse?: boolean;
+}
+
+/**
+ * One cycle of a tone: its onset, growth, limit level and decay, each with a 95 % interval (null
+ * where the cycle has no such part: a tone sounding from the start has no onset, a ring-down no
+ * growth). decayRatePerS is a positive number.
+ */
+export interface Cycle {
+  startS: number;
+  endS: number;
+  onsetS: number | null;
+  onsetCi95S: Interval | null;
+  growthRatePerS: number | null;
+  growthRateCi95PerS: Interval | null;
+  limitAmplitudeDbfs: number | null;
+  limitAmplitudeCi95Dbfs: Interval | null;
+  decayRatePerS: number | null;
+  decayRateCi95PerS: Interval | null;
+  /** The cycle is a ring-down after a knock. */
+  isImpulseResponse: boolean;
+}
+
+/** A tone (or steady line) of the record. */
+export interface ToneEntry {
+  frequencyHz: number;
+  /** Its envelope never grew or decayed exponentially (steps only: a line switched on and off). */
+  isSteadyLine: boolean;
+  /** It lies on a multiple (1st-4th) of the mains frequency: a label, not a rule. */
+  isMainsFrequency?: boolean;
+  /** Its cycles in time order. */
+  cycles?: Cycle[];
 }
 
 export interface NoiseDriven {
@@ -101,6 +144,13 @@ export interface Summary {
   doublingTimeS?: number | null;
   t60S?: number | null;
   limitAmplitudeDbfs?: number | null;
+  /** Median across the main tone's cycles of their growth and decay rates, 1/s, and the spread (1.4826 × median absolute deviation, a robust sd). */
+  growthRateCycleMedianPerS?: number | null;
+  growthRateCycleSpreadPerS?: number | null;
+  decayRateCycleMedianPerS?: number | null;
+  decayRateCycleSpreadPerS?: number | null;
+  /** Cycles of the main tone. */
+  cycleCount?: number;
 }
 
 export interface ClippedSpan {
@@ -116,8 +166,8 @@ export interface Report {
   segments: Segment[];
   noiseDriven: NoiseDriven[];
   summary: Summary;
-  /** Candidate tones seen (steady lines such as mains hum included), strongest first. */
-  tones?: { frequencyHz: number; isSteadyLine: boolean }[];
+  /** Tones and steady lines seen (mains hum included), strongest first, with their cycles. */
+  tones?: ToneEntry[];
   clipped?: ClippedSpan[];
   warnings?: string[];
 }

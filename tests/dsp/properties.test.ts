@@ -65,11 +65,13 @@ function cycleSignal(c: Cycle, sampleRateHz: number, gain = 1, leadS = 0): Float
 }
 
 /**
- * Tone frequencies off the mains lines: multiples 1–4 of 50 and 60 Hz (within 1 Hz) are steady
- * lines by design (dsp/track.ts isMainsLine, grid frequency ±0.1 %), not tones that grow or decay.
+ * Tone frequencies over the band, exact multiples of the mains frequencies included: a line on a
+ * mains multiple that grows or decays is a tone like any other (docs/DESIGN.md, Line
+ * classification; the mains frequency only labels lines).
  */
-const isNearMains = (f: number): boolean => [50, 60].some((m) => Math.round(f / m) <= 4 && Math.abs(f - Math.round(f / m) * m) < 1);
-const toneHzArb = (min: number, max: number): fc.Arbitrary<number> => fc.double({ min, max, noNaN: true }).filter((f) => !isNearMains(f));
+const MAINS_MULTIPLES_HZ = [60, 100, 120, 150, 180, 200, 240];
+const toneHzArb = (min: number, max: number): fc.Arbitrary<number> =>
+  fc.oneof(fc.double({ min, max, noNaN: true }), fc.constantFrom(...MAINS_MULTIPLES_HZ.filter((f) => f >= min && f <= max)));
 
 const cycleArb = fc.record({
   onsetS: fc.double({ min: 1, max: 2, noNaN: true }),

@@ -6,7 +6,7 @@ import { describe, expect, it } from 'vitest';
 import { createPeakList, findPeaks, groupHarmonics } from '../../dsp/peak';
 import { computeSpectrumFrame, createSpectrumState, feedSpectrum } from '../../dsp/spectrum';
 import { synthesize } from '../../dsp/synth';
-import { CONFIRM_HITS, createToneTrack, createTrackerState, isMainsLine, medianFrequencyHz, stepTracker, type ToneTrack } from '../../dsp/track';
+import { CONFIRM_HITS, createToneTrack, createTrackerState, isMainsMultiple, medianFrequencyHz, stepTracker, type ToneTrack } from '../../dsp/track';
 
 /** Runs spectrum → peaks → tracker over x; confirmed tentatives become tracks at once. */
 function trackAll(x: Float32Array, fs: number): { tracks: ToneTrack[]; confirmFrames: number[] } {
@@ -91,15 +91,17 @@ describe('tone tracking', () => {
   });
 });
 
-describe('mains lines', () => {
-  it('recognises multiples of 50 and 60 Hz and nothing else', () => {
-    expect(isMainsLine(50.1)).toBe(true);
-    expect(isMainsLine(150.2)).toBe(true);
-    expect(isMainsLine(240)).toBe(true);
-    expect(isMainsLine(171)).toBe(false);
-    expect(isMainsLine(150.6)).toBe(false);
-    // Above the 4th multiple a tone is not taken for mains (a hum at 399.3 Hz is not 8 × 50 Hz).
-    expect(isMainsLine(399.3)).toBe(false);
-    expect(isMainsLine(300)).toBe(false);
+describe('mains label', () => {
+  // Grid frequency within ±0.1 % (common practice); a label only, not a rule (docs/DESIGN.md).
+  it('labels the 1st-4th multiples of the given mains frequency and nothing else', () => {
+    expect(isMainsMultiple(50.1, 50)).toBe(true);
+    expect(isMainsMultiple(150.2, 50)).toBe(true);
+    expect(isMainsMultiple(240, 60)).toBe(true);
+    expect(isMainsMultiple(240, 50)).toBe(false);
+    expect(isMainsMultiple(171, 50)).toBe(false);
+    expect(isMainsMultiple(150.6, 50)).toBe(false);
+    // Above the 4th multiple a line is not labelled (a hum at 399.3 Hz is not 8 × 50 Hz).
+    expect(isMainsMultiple(399.3, 50)).toBe(false);
+    expect(isMainsMultiple(300, 50)).toBe(false);
   });
 });

@@ -83,6 +83,7 @@ const SegmentSchema = v.strictObject({
   rateCi95PerS: interval('segment rate interval'),
   model: v.optional(v.nullable(text(40, 'segment model'))),
   limitAmplitudeDbfs: v.optional(v.nullable(DB('limit amplitude'))),
+  isImpulseResponse: v.optional(v.boolean()),
 });
 
 const NoiseDrivenSchema = v.strictObject({
@@ -116,6 +117,25 @@ const SummarySchema = v.strictObject({
   doublingTimeS: optNum('doubling time'),
   t60S: optNum('T60'),
   limitAmplitudeDbfs: v.optional(v.nullable(DB('limit amplitude'))),
+  growthRateCycleMedianPerS: optNum('median growth rate'),
+  growthRateCycleSpreadPerS: optNum('growth rate spread'),
+  decayRateCycleMedianPerS: optNum('median decay rate'),
+  decayRateCycleSpreadPerS: optNum('decay rate spread'),
+  cycleCount: v.optional(finite(0, 1e6, 'cycle count')),
+});
+
+const CycleSchema = v.strictObject({
+  startS: TIME('cycle start'),
+  endS: TIME('cycle end'),
+  onsetS: v.nullable(TIME('cycle onset')),
+  onsetCi95S: interval('onset interval'),
+  growthRatePerS: v.nullable(rate('cycle growth rate')),
+  growthRateCi95PerS: interval('cycle growth interval'),
+  limitAmplitudeDbfs: v.nullable(DB('cycle limit amplitude')),
+  limitAmplitudeCi95Dbfs: v.nullable(v.strictTuple([DB('limit interval'), DB('limit interval')])),
+  decayRatePerS: v.nullable(rate('cycle decay rate')),
+  decayRateCi95PerS: interval('cycle decay interval'),
+  isImpulseResponse: v.boolean(),
 });
 
 export const ReportSchema = v.strictObject({
@@ -126,7 +146,12 @@ export const ReportSchema = v.strictObject({
   segments: v.pipe(v.array(SegmentSchema), v.maxLength(100_000, 'too many segments')),
   noiseDriven: v.pipe(v.array(NoiseDrivenSchema), v.maxLength(100_000, 'too many noise-driven estimates')),
   summary: SummarySchema,
-  tones: v.optional(v.pipe(v.array(v.strictObject({ frequencyHz: FREQ('tone frequency'), isSteadyLine: v.boolean() })), v.maxLength(1000))),
+  tones: v.optional(
+    v.pipe(
+      v.array(v.strictObject({ frequencyHz: FREQ('tone frequency'), isSteadyLine: v.boolean(), isMainsFrequency: v.optional(v.boolean()), cycles: v.optional(v.pipe(v.array(CycleSchema), v.maxLength(100_000))) })),
+      v.maxLength(1000),
+    ),
+  ),
   clipped: v.optional(v.pipe(v.array(v.strictObject({ startS: TIME('clipped start'), endS: TIME('clipped end') })), v.maxLength(100_000))),
   warnings: v.optional(v.pipe(v.array(text(2000, 'report warning')), v.maxLength(1000, 'too many warnings'))),
 });
