@@ -19,6 +19,7 @@ import {
 } from './condition';
 import { estimateNoiseDrivenDamping } from './damping';
 import { deriveSummary } from './derived';
+import { quantisationFloorDbfs } from './levels';
 import {
   bandPowerFromBinPower,
   createEnvelopeState,
@@ -1611,11 +1612,13 @@ function finish(ps: PipelineState): Report {
       }
     }
   }
+  // A line that never rises above the quantisation error of the input format may be a product of quantising a strong tone.
+  const quantFloorPower = ps.cfg.sampleBits > 0 ? 10 ** (quantisationFloorDbfs(ps.cfg.sampleBits) / 10) : 0;
   for (const tr of all) {
     if (duplicates.has(tr)) continue;
     if (tr.regime.segments.every((s) => s.state === STATE_QUIET) && !tr.isSteadyLine && tr.maxExcessDb < 10) continue;
     const info = trackInfo.get(tr);
-    if (info === undefined) continue;
+    if (info === undefined || info.top <= quantFloorPower) continue;
     const f = info.freqHz;
     const top = info.top;
     const from = info.fromS;
@@ -1780,6 +1783,7 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
     sampleRateHz: config.sampleRateHz,
     bandLowHz: config.bandLowHz ?? 20,
     bandHighHz: config.bandHighHz ?? 4000,
+    sampleBits: config.sampleBits ?? 0,
   };
   const cond = createConditionState(cfg);
   const fsA = cond.outputRateHz;
