@@ -404,7 +404,10 @@ function rssOf(d: Prepared, w: Float64Array, model: ShapeModel, params: Float64A
   return Number.isFinite(rss) ? rss : Number.POSITIVE_INFINITY;
 }
 
-/** Jacobian products JᵀWJ and JᵀWr for the full parameter vector (free parameters only). */
+/**
+ * Jacobian products JᵀWJ and JᵀWr for the full parameter vector (free parameters only); returns
+ * the weighted RSS at the same parameters (Infinity when not finite), from the same residuals.
+ */
 function normalEquations(
   d: Prepared,
   w: Float64Array,
@@ -413,7 +416,7 @@ function normalEquations(
   nFree: number,
   jtj: Float64Array,
   jtr: Float64Array,
-): void {
+): number {
   const k = model.nNonlinear;
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
@@ -422,18 +425,21 @@ function normalEquations(
   const row = new Float64Array(nFree);
   jtj.fill(0);
   jtr.fill(0);
+  let rss = 0;
   for (let i = 0; i < d.n; i++) {
     const g = model.shape(d.t[i], theta, grad);
     row[0] = amp * g;
     for (let j = 0; j < k; j++) row[j + 1] = amp * grad[j];
     if (nFree === k + 2) row[k + 1] = 1;
     const r = d.y[i] - amp * g - bg;
+    rss += w[i] * r * r;
     for (let a = 0; a < nFree; a++) {
       jtr[a] += w[i] * row[a] * r;
       for (let b = 0; b <= a; b++) jtj[a * nFree + b] += w[i] * row[a] * row[b];
     }
   }
   for (let a = 0; a < nFree; a++) for (let b = a + 1; b < nFree; b++) jtj[a * nFree + b] = jtj[b * nFree + a];
+  return Number.isFinite(rss) ? rss : Number.POSITIVE_INFINITY;
 }
 
 /**
@@ -454,18 +460,21 @@ function levenbergStep(jtj: Float64Array, jtr: Float64Array, size: number, m: nu
   return true;
 }
 
-/** Levenberg–Marquardt polish of all parameters (Marquardt 1963), N² kept ≥ 0. */
+/**
+ * Levenberg–Marquardt polish of all parameters (Marquardt 1963), N² kept ≥ 0. Each trial point is
+ * evaluated with its normal equations, so an accepted step needs no second pass over the data.
+ */
 function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState, maxIter = 100): void {
   const k = model.nNonlinear;
   const nFree = state.isBackgroundFixed ? k + 1 : k + 2;
-  const jtj = new Float64Array(nFree * nFree);
-  const jtr = new Float64Array(nFree);
-  const grad = new Float64Array(k);
+  let jtj = new Float64Array(nFree * nFree);
+  let jtr = new Float64Array(nFree);
+  let trialJtj = new Float64Array(nFree * nFree);
+  let trialJtr = new Float64Array(nFree);
   const trial = new Float64Array(state.params.length);
   let lambda = 1e-3;
-  let rss = rssOf(d, w, model, state.params, grad);
+  let rss = normalEquations(d, w, model, state.params, nFree, jtj, jtr);
   for (let iter = 0; iter < maxIter; iter++) {
-    normalEquations(d, w, model, state.params, nFree, jtj, jtr);
     let isImproved = false;
     for (let attempt = 0; attempt < 12; attempt++) {
       trial.set(state.params);
@@ -482,11 +491,13 @@ function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState
           continue;
         }
       }
-      const rssTrial = rssOf(d, w, model, trial, grad);
+      const rssTrial = normalEquations(d, w, model, trial, nFree, trialJtj, trialJtr);
       if (rssTrial < rss) {
         const drop = (rss - rssTrial) / rss;
         state.params.set(trial);
         rss = rssTrial;
+        [jtj, trialJtj] = [trialJtj, jtj];
+        [jtr, trialJtr] = [trialJtr, jtr];
         lambda = Math.max(lambda / 3, 1e-12);
         isImproved = drop > 1e-9;
         break;
