@@ -102,7 +102,8 @@ export function applyUpdate(model: LiveModel, m: UpdateMessage): Marker[] {
     const tonePower = Number.isFinite(f.amplitudeDbfs) ? 10 ** (f.amplitudeDbfs / 10) : 0;
     const bandPower = Number.isFinite(f.levelDbfs) ? 10 ** (f.levelDbfs / 10) : Number.NaN;
     stepTimeWeightedLevel(model.level, f.timeS, Math.max(bandPower, tonePower));
-    stepTimeWeightedLevel(model.toneLevel, f.timeS, tonePower);
+    // The tone's level starts with the tone (a meter pointed at it), and falls once it is gone.
+    if (tonePower > 0 || Number.isFinite(model.toneLevel.meanSquare)) stepTimeWeightedLevel(model.toneLevel, f.timeS, tonePower);
   }
   model.peakAbs = m.peakAbs;
   if (m.isClipped) model.clipUntilMs = performance.now() + 2000;

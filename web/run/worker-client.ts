@@ -7,6 +7,8 @@ import { isFromWorker, transferablesOf, type FromWorker, type ToWorker } from '.
 
 export interface WorkerClient {
   send(message: ToWorker): void;
+  /** Stops the worker (a later send starts a fresh one). */
+  terminate(): void;
 }
 
 /**
@@ -33,6 +35,10 @@ export function createWorkerClient(onMessage: (m: FromWorker) => void, onCrash: 
   return {
     send(message) {
       ensure().postMessage(message, transferablesOf(message));
+    },
+    terminate() {
+      worker?.terminate();
+      worker = null;
     },
   };
 }

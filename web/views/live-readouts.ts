@@ -161,7 +161,8 @@ export function createReadouts(host: HTMLElement): Readouts {
     );
     freq.root.classList.toggle('has-note', rollOff);
 
-    const loudness = showLevel(input, isShowable(f) ? f : Number.NaN);
+    // The tone's level shows while a tone is heard (its weighted level falls away after it).
+    const loudness = showLevel(isShowable(latest) || isFinal ? input : { ...input, toneDbfs: Number.NaN }, isShowable(f) ? f : Number.NaN);
 
     const v = verdictOf({ summary, margin: input.margin, noiseDriven: report?.noiseDriven, isFinal });
     setText(verdict.value, v.headline);
