@@ -13,6 +13,7 @@ import { SERIES_COLORS, timeChart } from './session-charts';
 import { formatLocalStamp, sessionTitle, type SessionsContext, type SessionView } from './session-context';
 import { cssVar, formatBytes, h, table } from './session-dom';
 import { conditionsEditor, markerEditor } from './session-edit';
+import { reanalysisPanel } from './session-reanalyse';
 
 /** Rows of the result table: label and formatted value (with unit and interval). */
 export function summaryRows(report: Report | null, calibrationOffsetDb?: number): [string, string][] {
@@ -164,6 +165,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
     segs,
     noise,
     markers,
+    reanalysisPanel(full, () => ctx.go(id)),
     notesList.length ? h('div', {}, h('h3', { className: 'section-title', text: 'Warnings and history' }), h('ul', { className: 'notes' }, ...notesList.map((w) => h('li', { text: w })))) : null,
     form,
     conditions,
