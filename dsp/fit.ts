@@ -195,18 +195,58 @@ interface ShapeModel {
   nNonlinear: number;
   /** Unit-amplitude shape g(t) and ∂g/∂θ_j (j over nonlinear parameters) into grad. */
   shape(t: number, theta: Float64Array, grad: Float64Array): number;
+  /**
+   * g at the first n times of `t` and, when asked, ∂g/∂θ_j at index i·nNonlinear + j: buffers
+   * owned by the model, valid until its next evaluation.
+   */
+  evaluate(t: Float64Array, n: number, theta: Float64Array, withGrad: boolean): ShapeValues;
+}
+
+interface ShapeValues {
+  g: Float64Array;
+  grad: Float64Array;
+}
+
+/** Scratch of a model's evaluations, grown to the longest series seen. */
+function shapeBuffers(nNonlinear: number): { values: ShapeValues; ensure(n: number): ShapeValues } {
+  const values: ShapeValues = { g: new Float64Array(0), grad: new Float64Array(0) };
+  return {
+    values,
+    ensure(n) {
+      if (values.g.length < n) {
+        values.g = new Float64Array(n);
+        values.grad = new Float64Array(n * nNonlinear);
+      }
+      return values;
+    },
+  };
+}
+
+/** A model evaluated point by point through its `shape`. */
+function pointwise(nNonlinear: number, shape: ShapeModel['shape']): ShapeModel {
+  const buffers = shapeBuffers(nNonlinear);
+  const grad = new Float64Array(nNonlinear);
+  return {
+    nNonlinear,
+    shape,
+    evaluate(t, n, theta, withGrad) {
+      const v = buffers.ensure(n);
+      for (let i = 0; i < n; i++) {
+        v.g[i] = shape(t[i], theta, grad);
+        if (withGrad) for (let j = 0; j < nNonlinear; j++) v.grad[i * nNonlinear + j] = grad[j];
+      }
+      return v;
+    },
+  };
 }
 
 /** g = exp(2 s (t − tm)); θ = [s]. */
 function exponentialShape(tm: number): ShapeModel {
-  return {
-    nNonlinear: 1,
-    shape(t, theta, grad) {
-      const g = Math.exp(2 * theta[0] * (t - tm));
-      grad[0] = 2 * (t - tm) * g;
-      return g;
-    },
-  };
+  return pointwise(1, (t, theta, grad) => {
+    const g = Math.exp(2 * theta[0] * (t - tm));
+    grad[0] = 2 * (t - tm) * g;
+    return g;
+  });
 }
 
 /**
@@ -217,32 +257,29 @@ function exponentialShape(tm: number): ShapeModel {
  * the limit is an exponential up to t_c and the level A∞² after it).
  */
 function saturationShape(fixedP: number | null): ShapeModel {
-  return {
-    nNonlinear: fixedP === null ? 3 : 2,
-    shape(t, theta, grad) {
-      const s = theta[0];
-      const tc = theta[1];
-      const p = fixedP === null ? Math.exp(theta[2]) : fixedP;
-      const z = p * s * (t - tc);
-      const e = Math.exp(-Math.abs(z));
-      const inv = 1 / (1 + e);
-      const isUpper = z >= 0;
-      const oneMinusQ = isUpper ? e * inv : inv;
-      // u = (2/p)·ln q.
-      let g: number;
-      let u = 0;
-      if (p === 2 && fixedP !== null) g = isUpper ? inv : e * inv;
-      else {
-        const tail = (2 / p) * Math.log1p(e);
-        u = isUpper ? -tail : 2 * s * (t - tc) - tail;
-        g = Math.exp(u);
-      }
-      grad[0] = 2 * g * oneMinusQ * (t - tc);
-      grad[1] = -2 * g * oneMinusQ * s;
-      if (fixedP === null) grad[2] = g * (2 * oneMinusQ * s * (t - tc) - u);
-      return g;
-    },
-  };
+  return pointwise(fixedP === null ? 3 : 2, (t, theta, grad) => {
+    const s = theta[0];
+    const tc = theta[1];
+    const p = fixedP === null ? Math.exp(theta[2]) : fixedP;
+    const z = p * s * (t - tc);
+    const e = Math.exp(-Math.abs(z));
+    const inv = 1 / (1 + e);
+    const isUpper = z >= 0;
+    const oneMinusQ = isUpper ? e * inv : inv;
+    // u = (2/p)·ln q.
+    let g: number;
+    let u = 0;
+    if (p === 2 && fixedP !== null) g = isUpper ? inv : e * inv;
+    else {
+      const tail = (2 / p) * Math.log1p(e);
+      u = isUpper ? -tail : 2 * s * (t - tc) - tail;
+      g = Math.exp(u);
+    }
+    grad[0] = 2 * g * oneMinusQ * (t - tc);
+    grad[1] = -2 * g * oneMinusQ * s;
+    if (fixedP === null) grad[2] = g * (2 * oneMinusQ * s * (t - tc) - u);
+    return g;
+  });
 }
 
 /**
@@ -288,22 +325,104 @@ function smoothedShape(inner: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
   const nn = inner.nNonlinear;
   const gk = new Float64Array(nn);
   const acc = new Float64Array(nn);
+  const shape = (t: number, theta: Float64Array, grad: Float64Array): number => {
+    let amp = 0;
+    acc.fill(0);
+    for (let k = 0; k < taps; k++) {
+      const g = inner.shape(t - offsets[k], theta, gk);
+      if (!(g > 0)) continue;
+      const root = Math.sqrt(g);
+      amp += h[k] * root;
+      const f = h[k] / (2 * root);
+      for (let j = 0; j < nn; j++) acc[j] += f * gk[j];
+    }
+    for (let j = 0; j < nn; j++) grad[j] = 2 * amp * acc[j];
+    return amp * amp;
+  };
+  const direct = pointwise(nn, shape);
+  const buffers = shapeBuffers(nn);
+  const grid = sharedGrid(offsets, group === 1 ? kernel.spacingS : 0, taps);
+  let root = new Float64Array(0);
+  let rootGrad = new Float64Array(0);
   return {
     nNonlinear: nn,
-    shape(t, theta, grad) {
-      let amp = 0;
-      acc.fill(0);
-      for (let k = 0; k < taps; k++) {
-        const g = inner.shape(t - offsets[k], theta, gk);
-        if (!(g > 0)) continue;
-        const root = Math.sqrt(g);
-        amp += h[k] * root;
-        const f = h[k] / (2 * root);
-        for (let j = 0; j < nn; j++) acc[j] += f * gk[j];
+    shape,
+    evaluate(t, n, theta, withGrad) {
+      const plan = grid(t, n);
+      if (plan === null) return direct.evaluate(t, n, theta, withGrad);
+      // The inner shape once per grid point: √g and ∂√g/∂θ = (∂g/∂θ)/(2√g), 0 where g ≤ 0.
+      const len = plan.times.length;
+      const inner1 = inner.evaluate(plan.times, len, theta, withGrad);
+      if (root.length < len) {
+        root = new Float64Array(len);
+        rootGrad = new Float64Array(len * nn);
       }
-      for (let j = 0; j < nn; j++) grad[j] = 2 * amp * acc[j];
-      return amp * amp;
+      for (let m = 0; m < len; m++) {
+        const g = inner1.g[m];
+        const r = g > 0 ? Math.sqrt(g) : 0;
+        root[m] = r;
+        if (withGrad) for (let j = 0; j < nn; j++) rootGrad[m * nn + j] = r > 0 ? inner1.grad[m * nn + j] / (2 * r) : 0;
+      }
+      const v = buffers.ensure(n);
+      for (let i = 0; i < n; i++) {
+        // Tap k of sample i sits at grid point first[i] + (taps − 1 − k).
+        const top = plan.first[i] + taps - 1;
+        let amp = 0;
+        for (let k = 0; k < taps; k++) amp += h[k] * root[top - k];
+        v.g[i] = amp * amp;
+        if (!withGrad) continue;
+        for (let j = 0; j < nn; j++) {
+          let a = 0;
+          for (let k = 0; k < taps; k++) a += h[k] * rootGrad[(top - k) * nn + j];
+          v.grad[i * nn + j] = 2 * amp * a;
+        }
+      }
+      return v;
     },
+  };
+}
+
+/** Sample times on a uniform grid of the kernel's tap spacing: the grid's times and each sample's first tap on it. */
+interface GridPlan {
+  times: Float64Array;
+  first: Int32Array;
+}
+
+/**
+ * For a kernel whose taps lie `spacingS` apart (0: they do not), a function returning the grid
+ * plan of a series of sample times, or null when some sample lies off the grid (a gap of a
+ * fraction of a spacing) or the grid would hold more points than the direct evaluation (samples
+ * far apart). The envelope series are block means of envelope samples on the kernel's own clock,
+ * so their times fall on the grid: the inner shape is then evaluated once per grid point instead
+ * of once per tap and sample. The plan of the latest series is kept.
+ */
+function sharedGrid(offsets: Float64Array, spacingS: number, taps: number): (t: Float64Array, n: number) => GridPlan | null {
+  let lastT: Float64Array | null = null;
+  let lastN = -1;
+  let last: GridPlan | null = null;
+  const tolerance = 1e-6;
+  let isUniform = spacingS > 0;
+  for (let k = 1; k < taps && isUniform; k++) if (Math.abs((offsets[k] - offsets[0]) / spacingS - k) > tolerance) isUniform = false;
+  return (t, n) => {
+    if (!isUniform || n < 2) return null;
+    if (t === lastT && n === lastN) return last;
+    lastT = t;
+    lastN = n;
+    last = null;
+    const start = t[0] - offsets[taps - 1];
+    const len = Math.round((t[n - 1] - offsets[0] - start) / spacingS) + 1;
+    if (!(len > 0) || len > n * taps) return null;
+    const first = new Int32Array(n);
+    for (let i = 0; i < n; i++) {
+      const pos = (t[i] - offsets[taps - 1] - start) / spacingS;
+      const m = Math.round(pos);
+      if (Math.abs(pos - m) > tolerance || m < 0 || m + taps > len) return null;
+      first[i] = m;
+    }
+    const times = new Float64Array(len);
+    for (let m = 0; m < len; m++) times[m] = start + m * spacingS;
+    last = { times, first };
+    return last;
   };
 }
 
@@ -395,14 +514,14 @@ function solveLinear(
 }
 
 /** Weighted RSS of a full parameter vector. */
-function rssOf(d: Prepared, w: Float64Array, model: ShapeModel, params: Float64Array, grad: Float64Array): number {
+function rssOf(d: Prepared, w: Float64Array, model: ShapeModel, params: Float64Array): number {
   const k = model.nNonlinear;
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
-  const theta = params.subarray(1, k + 1);
+  const g = model.evaluate(d.t, d.n, params.subarray(1, k + 1), false).g;
   let rss = 0;
   for (let i = 0; i < d.n; i++) {
-    const r = d.y[i] - amp * model.shape(d.t[i], theta, grad) - bg;
+    const r = d.y[i] - amp * g[i] - bg;
     rss += w[i] * r * r;
   }
   return Number.isFinite(rss) ? rss : Number.POSITIVE_INFINITY;
@@ -424,16 +543,15 @@ function normalEquations(
   const k = model.nNonlinear;
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
-  const theta = params.subarray(1, k + 1);
-  const grad = new Float64Array(k);
+  const v = model.evaluate(d.t, d.n, params.subarray(1, k + 1), true);
   const row = new Float64Array(nFree);
   jtj.fill(0);
   jtr.fill(0);
   let rss = 0;
   for (let i = 0; i < d.n; i++) {
-    const g = model.shape(d.t[i], theta, grad);
+    const g = v.g[i];
     row[0] = amp * g;
-    for (let j = 0; j < k; j++) row[j + 1] = amp * grad[j];
+    for (let j = 0; j < k; j++) row[j + 1] = amp * v.grad[i * k + j];
     if (nFree === k + 2) row[k + 1] = 1;
     const r = d.y[i] - amp * g - bg;
     rss += w[i] * r * r;
@@ -528,8 +646,6 @@ function gridSearch(
 ): FitState | null {
   const k = model.nNonlinear;
   const theta = new Float64Array(k);
-  const grad = new Float64Array(k);
-  const g = new Float64Array(d.n);
   const lin = { lnL: 0, bg: 0 };
   let best: FitState | null = null;
   const counts = grid.values.map((v) => v.length);
@@ -540,8 +656,7 @@ function gridSearch(
       theta[j] = grid.values[j][rem % counts[j]];
       rem = Math.floor(rem / counts[j]);
     }
-    for (let i = 0; i < d.n; i++) g[i] = model.shape(d.t[i], theta, grad);
-    const rss = solveLinear(d, w, g, fixedBg, lin);
+    const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, lin);
     if (rss < (best?.rss ?? Number.POSITIVE_INFINITY)) {
       const params = new Float64Array(k + 2);
       params[0] = lin.lnL;
@@ -564,7 +679,21 @@ const GRID_MAX_SAMPLES = 160;
  */
 function gridSearchThinned(d: Prepared, w: Float64Array, model: ShapeModel, grid: GridSpec, fixedBg: number | null): FitState | null {
   if (d.n <= GRID_MAX_SAMPLES) return gridSearch(d, w, model, grid, fixedBg);
-  const block = Math.ceil(d.n / GRID_MAX_SAMPLES);
+  const thin = blockMeans(d, w, GRID_MAX_SAMPLES);
+  const state = gridSearch(thin.d, thin.w, model, grid, fixedBg);
+  if (state !== null) state.rss = rssOf(d, w, model, state.params);
+  return state;
+}
+
+/**
+ * Most samples the starts of the flexible saturation fit look at (block means, the curve without
+ * the kernel); the one start polished fully uses every sample through the kernel.
+ */
+const START_MAX_SAMPLES = 80;
+
+/** A block-averaged copy of a series (at most maxSamples blocks: mean time, mean power, summed weight). */
+function blockMeans(d: Prepared, w: Float64Array, maxSamples: number): { d: Prepared; w: Float64Array } {
+  const block = Math.ceil(d.n / maxSamples);
   const m = Math.ceil(d.n / block);
   const t = new Float64Array(m);
   const y = new Float64Array(m);
@@ -584,10 +713,7 @@ function gridSearchThinned(d: Prepared, w: Float64Array, model: ShapeModel, grid
     y[j] = sy / (i1 - i0);
     wm[j] = sw;
   }
-  const thin: Prepared = { t, y, n: m, spacingS: d.spacingS * block, nEff: d.nEff };
-  const state = gridSearch(thin, wm, model, grid, fixedBg);
-  if (state !== null) state.rss = rssOf(d, w, model, state.params, new Float64Array(model.nNonlinear));
-  return state;
+  return { d: { t, y, n: m, spacingS: d.spacingS * block, nEff: d.nEff }, w: wm };
 }
 
 /** Updates the IRLS weights 1/V(m̂) from the current parameters. */
@@ -595,9 +721,8 @@ function updateWeights(d: Prepared, model: ShapeModel, state: FitState, w: Float
   const k = model.nNonlinear;
   const amp = Math.exp(state.params[0]);
   const bg = state.params[k + 1];
-  const theta = state.params.subarray(1, k + 1);
-  const grad = new Float64Array(k);
-  for (let i = 0; i < d.n; i++) w[i] = 1 / varianceOf(amp * model.shape(d.t[i], theta, grad) + bg, bg, bgFloor);
+  const g = model.evaluate(d.t, d.n, state.params.subarray(1, k + 1), false).g;
+  for (let i = 0; i < d.n; i++) w[i] = 1 / varianceOf(amp * g[i] + bg, bg, bgFloor);
   // Normalise so that RSS values stay of order n (the scale of w is irrelevant to the estimates).
   let mean = 0;
   for (let i = 0; i < d.n; i++) mean += w[i];
@@ -655,7 +780,7 @@ function fitIrls(
       const regrid = gridSearchThinned(d, w, model, grid, fixedBg);
       if (regrid !== null) {
         polish(d, w, model, regrid);
-        state.rss = rssOf(d, w, model, state.params, new Float64Array(model.nNonlinear));
+        state.rss = rssOf(d, w, model, state.params);
         if (regrid.rss < state.rss) state = regrid;
       }
     }
@@ -711,12 +836,11 @@ function residualCorrelationTime(d: Prepared, model: ShapeModel, params: Float64
   const k = model.nNonlinear;
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
-  const theta = params.subarray(1, k + 1);
-  const grad = new Float64Array(k);
+  const g = model.evaluate(d.t, d.n, params.subarray(1, k + 1), false).g;
   const e = new Float64Array(d.n);
   let c0 = 0;
   for (let i = 0; i < d.n; i++) {
-    e[i] = (d.y[i] - amp * model.shape(d.t[i], theta, grad) - bg) * Math.sqrt(w[i]);
+    e[i] = (d.y[i] - amp * g[i] - bg) * Math.sqrt(w[i]);
     c0 += e[i] * e[i];
   }
   if (!(c0 > 0)) return 1;
@@ -876,9 +1000,12 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
   let model: SaturationFit['model'] = 'stuart-landau';
 
   // Flexible model, started from the Stuart–Landau solution at several knee sharpness values,
-  // compared with the same weights (nested models: p = 2 is the Stuart–Landau case).
+  // compared with the same weights (nested models: p = 2 is the Stuart–Landau case). The starts
+  // only pick the basin, as the grid does: they run on block means without the kernel.
   const general = through(saturationShape(null));
-  let bestGeneral: IrlsResult | null = null;
+  const thin = d.n > START_MAX_SAMPLES ? blockMeans(d, landau.weights, START_MAX_SAMPLES) : { d, w: landau.weights };
+  const startModel = saturationShape(null);
+  let bestStart: FitState | null = null;
   for (const p of [0.5, 1, 2, 4, 8, 16, 32]) {
     const params = new Float64Array(5);
     params[0] = landau.state.params[0];
@@ -888,12 +1015,14 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
     params[4] = landau.state.params[3];
     const start: FitState = { params, isBackgroundFixed: fixedBg !== null, rss: Number.POSITIVE_INFINITY };
     // A few steps from each start tell the basins apart; only the best start is polished fully.
-    polish(d, landau.weights, general, start, 5);
-    if (start.rss < (bestGeneral?.state.rss ?? Number.POSITIVE_INFINITY)) {
-      bestGeneral = { state: start, weights: landau.weights, cov: null, nFree: 0, dispersion: Number.NaN, nEff: d.nEff };
-    }
+    polish(thin.d, thin.w, startModel, start, 5);
+    if (start.rss < (bestStart?.rss ?? Number.POSITIVE_INFINITY)) bestStart = start;
   }
-  if (bestGeneral !== null) polish(d, landau.weights, general, bestGeneral.state);
+  let bestGeneral: IrlsResult | null = null;
+  if (bestStart !== null) {
+    bestGeneral = { state: bestStart, weights: landau.weights, cov: null, nFree: 0, dispersion: Number.NaN, nEff: d.nEff };
+    polish(d, landau.weights, general, bestGeneral.state);
+  }
   if (bestGeneral !== null && Number.isFinite(bestGeneral.state.rss)) {
     const inflation = d.n / d.nEff;
     const nFreeGeneral = fixedBg === null ? 5 : 4;
