@@ -189,15 +189,14 @@ export function effectiveSampleCount(n: number, sampleSpacingS: number, bandwidt
 /**
  * A model of the tone's mean-square envelope without background: value and gradient with respect
  * to the nonlinear parameters, times the amplitude parameter. The background N² enters linearly.
+ * Each model evaluates a whole series in one loop of its own (no call per sample).
  */
 interface ShapeModel {
   /** Number of nonlinear parameters (after ln L). */
   nNonlinear: number;
-  /** Unit-amplitude shape g(t) and ∂g/∂θ_j (j over nonlinear parameters) into grad. */
-  shape(t: number, theta: Float64Array, grad: Float64Array): number;
   /**
-   * g at the first n times of `t` and, when asked, ∂g/∂θ_j at index i·nNonlinear + j: buffers
-   * owned by the model, valid until its next evaluation.
+   * Unit-amplitude shape g at the first n times of `t` and, when asked, ∂g/∂θ_j at index
+   * i·nNonlinear + j: buffers owned by the model, valid until its next evaluation.
    */
   evaluate(t: Float64Array, n: number, theta: Float64Array, withGrad: boolean): ShapeValues;
 }
@@ -207,46 +206,34 @@ interface ShapeValues {
   grad: Float64Array;
 }
 
-/** Scratch of a model's evaluations, grown to the longest series seen. */
-function shapeBuffers(nNonlinear: number): { values: ShapeValues; ensure(n: number): ShapeValues } {
+/** Output buffers of a model's evaluations, grown to the longest series seen. */
+function shapeBuffers(nNonlinear: number): (n: number) => ShapeValues {
   const values: ShapeValues = { g: new Float64Array(0), grad: new Float64Array(0) };
-  return {
-    values,
-    ensure(n) {
-      if (values.g.length < n) {
-        values.g = new Float64Array(n);
-        values.grad = new Float64Array(n * nNonlinear);
-      }
-      return values;
-    },
-  };
-}
-
-/** A model evaluated point by point through its `shape`. */
-function pointwise(nNonlinear: number, shape: ShapeModel['shape']): ShapeModel {
-  const buffers = shapeBuffers(nNonlinear);
-  const grad = new Float64Array(nNonlinear);
-  return {
-    nNonlinear,
-    shape,
-    evaluate(t, n, theta, withGrad) {
-      const v = buffers.ensure(n);
-      for (let i = 0; i < n; i++) {
-        v.g[i] = shape(t[i], theta, grad);
-        if (withGrad) for (let j = 0; j < nNonlinear; j++) v.grad[i * nNonlinear + j] = grad[j];
-      }
-      return v;
-    },
+  return (n) => {
+    if (values.g.length < n) {
+      values.g = new Float64Array(n);
+      values.grad = new Float64Array(n * nNonlinear);
+    }
+    return values;
   };
 }
 
 /** g = exp(2 s (t − tm)); θ = [s]. */
 function exponentialShape(tm: number): ShapeModel {
-  return pointwise(1, (t, theta, grad) => {
-    const g = Math.exp(2 * theta[0] * (t - tm));
-    grad[0] = 2 * (t - tm) * g;
-    return g;
-  });
+  const buffers = shapeBuffers(1);
+  return {
+    nNonlinear: 1,
+    evaluate(t, n, theta, withGrad) {
+      const v = buffers(n);
+      const s2 = 2 * theta[0];
+      for (let i = 0; i < n; i++) {
+        const g = Math.exp(s2 * (t[i] - tm));
+        v.g[i] = g;
+        if (withGrad) v.grad[i] = 2 * (t[i] - tm) * g;
+      }
+      return v;
+    },
+  };
 }
 
 /**
@@ -257,29 +244,43 @@ function exponentialShape(tm: number): ShapeModel {
  * the limit is an exponential up to t_c and the level A∞² after it).
  */
 function saturationShape(fixedP: number | null): ShapeModel {
-  return pointwise(fixedP === null ? 3 : 2, (t, theta, grad) => {
-    const s = theta[0];
-    const tc = theta[1];
-    const p = fixedP === null ? Math.exp(theta[2]) : fixedP;
-    const z = p * s * (t - tc);
-    const e = Math.exp(-Math.abs(z));
-    const inv = 1 / (1 + e);
-    const isUpper = z >= 0;
-    const oneMinusQ = isUpper ? e * inv : inv;
-    // u = (2/p)·ln q.
-    let g: number;
-    let u = 0;
-    if (p === 2 && fixedP !== null) g = isUpper ? inv : e * inv;
-    else {
-      const tail = (2 / p) * Math.log1p(e);
-      u = isUpper ? -tail : 2 * s * (t - tc) - tail;
-      g = Math.exp(u);
-    }
-    grad[0] = 2 * g * oneMinusQ * (t - tc);
-    grad[1] = -2 * g * oneMinusQ * s;
-    if (fixedP === null) grad[2] = g * (2 * oneMinusQ * s * (t - tc) - u);
-    return g;
-  });
+  const nn = fixedP === null ? 3 : 2;
+  const buffers = shapeBuffers(nn);
+  return {
+    nNonlinear: nn,
+    evaluate(t, n, theta, withGrad) {
+      const v = buffers(n);
+      const s = theta[0];
+      const tc = theta[1];
+      const p = fixedP === null ? Math.exp(theta[2]) : fixedP;
+      const isLandau = p === 2 && fixedP !== null;
+      const ps = p * s;
+      const twoOverP = 2 / p;
+      for (let i = 0; i < n; i++) {
+        const dt = t[i] - tc;
+        const z = ps * dt;
+        const e = Math.exp(-Math.abs(z));
+        const inv = 1 / (1 + e);
+        const isUpper = z >= 0;
+        const oneMinusQ = isUpper ? e * inv : inv;
+        // u = (2/p)·ln q.
+        let g: number;
+        let u = 0;
+        if (isLandau) g = isUpper ? inv : e * inv;
+        else {
+          const tail = twoOverP * Math.log1p(e);
+          u = isUpper ? -tail : 2 * s * dt - tail;
+          g = Math.exp(u);
+        }
+        v.g[i] = g;
+        if (!withGrad) continue;
+        v.grad[i * nn] = 2 * g * oneMinusQ * dt;
+        v.grad[i * nn + 1] = -2 * g * oneMinusQ * s;
+        if (fixedP === null) v.grad[i * nn + 2] = g * (2 * oneMinusQ * s * dt - u);
+      }
+      return v;
+    },
+  };
 }
 
 /**
@@ -300,7 +301,8 @@ const MAX_KERNEL_TAPS = 24;
 /**
  * The model seen through an amplitude kernel: G(t) = (Σ h_k √g(t − τ_k))², with
  * ∂G/∂θ = 2·(Σ h_k √g_k)·Σ h_k (∂g_k/∂θ)/(2√g_k). L·G is then the mean power of the smoothed
- * amplitude √L·√g.
+ * amplitude √L·√g. The inner model is evaluated at the times the taps need (TapPlan), √g and
+ * ∂√g/∂θ once per such time, and each sample sums its taps from there.
  */
 function smoothedShape(inner: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
   const n = kernel.weights.length;
@@ -323,57 +325,39 @@ function smoothedShape(inner: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
     offsets[j] = w !== 0 ? wt / w : (j * group + (group - 1) / 2 - (n - 1) / 2) * kernel.spacingS;
   }
   const nn = inner.nNonlinear;
-  const gk = new Float64Array(nn);
-  const acc = new Float64Array(nn);
-  const shape = (t: number, theta: Float64Array, grad: Float64Array): number => {
-    let amp = 0;
-    acc.fill(0);
-    for (let k = 0; k < taps; k++) {
-      const g = inner.shape(t - offsets[k], theta, gk);
-      if (!(g > 0)) continue;
-      const root = Math.sqrt(g);
-      amp += h[k] * root;
-      const f = h[k] / (2 * root);
-      for (let j = 0; j < nn; j++) acc[j] += f * gk[j];
-    }
-    for (let j = 0; j < nn; j++) grad[j] = 2 * amp * acc[j];
-    return amp * amp;
-  };
-  const direct = pointwise(nn, shape);
   const buffers = shapeBuffers(nn);
-  const grid = sharedGrid(offsets, group === 1 ? kernel.spacingS : 0, taps);
+  const planOf = tapPlanner(offsets, group === 1 ? kernel.spacingS : 0);
   let root = new Float64Array(0);
   let rootGrad = new Float64Array(0);
   return {
     nNonlinear: nn,
-    shape,
-    evaluate(t, n, theta, withGrad) {
-      const plan = grid(t, n);
-      if (plan === null) return direct.evaluate(t, n, theta, withGrad);
-      // The inner shape once per grid point: √g and ∂√g/∂θ = (∂g/∂θ)/(2√g), 0 where g ≤ 0.
+    evaluate(t, count, theta, withGrad) {
+      const plan = planOf(t, count);
       const len = plan.times.length;
-      const inner1 = inner.evaluate(plan.times, len, theta, withGrad);
+      const at = inner.evaluate(plan.times, len, theta, withGrad);
       if (root.length < len) {
         root = new Float64Array(len);
         rootGrad = new Float64Array(len * nn);
       }
+      // √g and ∂√g/∂θ = (∂g/∂θ)/(2√g) per tap time; a tap where g ≤ 0 adds nothing.
       for (let m = 0; m < len; m++) {
-        const g = inner1.g[m];
+        const g = at.g[m];
         const r = g > 0 ? Math.sqrt(g) : 0;
         root[m] = r;
-        if (withGrad) for (let j = 0; j < nn; j++) rootGrad[m * nn + j] = r > 0 ? inner1.grad[m * nn + j] / (2 * r) : 0;
+        if (withGrad) for (let j = 0; j < nn; j++) rootGrad[m * nn + j] = r > 0 ? at.grad[m * nn + j] / (2 * r) : 0;
       }
-      const v = buffers.ensure(n);
-      for (let i = 0; i < n; i++) {
-        // Tap k of sample i sits at grid point first[i] + (taps − 1 − k).
-        const top = plan.first[i] + taps - 1;
+      const v = buffers(count);
+      const idx = plan.index;
+      const stride = plan.stride;
+      for (let i = 0; i < count; i++) {
+        const base = i * stride;
         let amp = 0;
-        for (let k = 0; k < taps; k++) amp += h[k] * root[top - k];
+        for (let k = 0; k < taps; k++) amp += h[k] * root[idx[base + k]];
         v.g[i] = amp * amp;
         if (!withGrad) continue;
         for (let j = 0; j < nn; j++) {
           let a = 0;
-          for (let k = 0; k < taps; k++) a += h[k] * rootGrad[(top - k) * nn + j];
+          for (let k = 0; k < taps; k++) a += h[k] * rootGrad[idx[base + k] * nn + j];
           v.grad[i * nn + j] = 2 * amp * a;
         }
       }
@@ -382,46 +366,64 @@ function smoothedShape(inner: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
   };
 }
 
-/** Sample times on a uniform grid of the kernel's tap spacing: the grid's times and each sample's first tap on it. */
-interface GridPlan {
+/** The times at which the taps of a series' samples read the inner model: tap k of sample i reads times[index[i·stride + k]]. */
+interface TapPlan {
   times: Float64Array;
-  first: Int32Array;
+  index: Int32Array;
+  stride: number;
 }
 
 /**
- * For a kernel whose taps lie `spacingS` apart (0: they do not), a function returning the grid
- * plan of a series of sample times, or null when some sample lies off the grid (a gap of a
- * fraction of a spacing) or the grid would hold more points than the direct evaluation (samples
- * far apart). The envelope series are block means of envelope samples on the kernel's own clock,
- * so their times fall on the grid: the inner shape is then evaluated once per grid point instead
- * of once per tap and sample. The plan of the latest series is kept.
+ * For kernel taps at `offsets`, a function giving the tap plan of a series of sample times (the
+ * plan of the latest series is kept). When the taps lie `spacingS` apart (0: they do not) and
+ * every sample time falls on that spacing's grid, the taps share one grid of times: the
+ * envelope series are block means of envelope samples on the kernel's own clock, so the inner
+ * model is evaluated once per clock tick the series spans instead of once per tap and sample.
+ * Otherwise every tap of every sample has its own time t_i − τ_k.
  */
-function sharedGrid(offsets: Float64Array, spacingS: number, taps: number): (t: Float64Array, n: number) => GridPlan | null {
+function tapPlanner(offsets: Float64Array, spacingS: number): (t: Float64Array, n: number) => TapPlan {
+  const taps = offsets.length;
   let lastT: Float64Array | null = null;
   let lastN = -1;
-  let last: GridPlan | null = null;
+  let last: TapPlan = { times: new Float64Array(0), index: new Int32Array(0), stride: taps };
   const tolerance = 1e-6;
   let isUniform = spacingS > 0;
   for (let k = 1; k < taps && isUniform; k++) if (Math.abs((offsets[k] - offsets[0]) / spacingS - k) > tolerance) isUniform = false;
-  return (t, n) => {
+  const onGrid = (t: Float64Array, n: number): TapPlan | null => {
     if (!isUniform || n < 2) return null;
-    if (t === lastT && n === lastN) return last;
-    lastT = t;
-    lastN = n;
-    last = null;
+    // Tap k of a sample at t reads t − τ_k = start + (m + taps − 1 − k)·spacing, m its grid position.
     const start = t[0] - offsets[taps - 1];
     const len = Math.round((t[n - 1] - offsets[0] - start) / spacingS) + 1;
     if (!(len > 0) || len > n * taps) return null;
-    const first = new Int32Array(n);
+    const index = new Int32Array(n * taps);
     for (let i = 0; i < n; i++) {
       const pos = (t[i] - offsets[taps - 1] - start) / spacingS;
       const m = Math.round(pos);
       if (Math.abs(pos - m) > tolerance || m < 0 || m + taps > len) return null;
-      first[i] = m;
+      for (let k = 0; k < taps; k++) index[i * taps + k] = m + taps - 1 - k;
     }
     const times = new Float64Array(len);
     for (let m = 0; m < len; m++) times[m] = start + m * spacingS;
-    last = { times, first };
+    return { times, index, stride: taps };
+  };
+  return (t, n) => {
+    if (t === lastT && n === lastN) return last;
+    lastT = t;
+    lastN = n;
+    const shared = onGrid(t, n);
+    if (shared !== null) {
+      last = shared;
+      return last;
+    }
+    const times = new Float64Array(n * taps);
+    const index = new Int32Array(n * taps);
+    for (let i = 0; i < n; i++) {
+      for (let k = 0; k < taps; k++) {
+        times[i * taps + k] = t[i] - offsets[k];
+        index[i * taps + k] = i * taps + k;
+      }
+    }
+    last = { times, index, stride: taps };
     return last;
   };
 }
@@ -1048,14 +1050,12 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
   if (chosen.fit.cov === null) return { fit: { ...failFit('fit covariance is singular', d.nEff), model }, ratePerS: s, p, tcS: tc };
   const sdRate = Math.sqrt(chosen.fit.cov[1 * chosen.fit.nFree + 1]);
   const q = studentTQuantile(0.975, Math.max(1, chosen.fit.nEff - chosen.fit.nFree));
-  const grad = new Float64Array(3);
-  const shape = saturationShape(p);
-  const theta = Float64Array.of(s, tc);
+  const atRef = saturationShape(p).evaluate(Float64Array.of(ref), 1, Float64Array.of(s, tc), false).g[0];
   const fit: SaturationFit = {
     isValid: Number.isFinite(sdRate),
     ratePerS: s,
     ci95PerS: [s - q * sdRate, s + q * sdRate],
-    amplitudeAtRef: Math.sqrt(limitPower * shape.shape(ref, theta, grad)),
+    amplitudeAtRef: Math.sqrt(limitPower * atRef),
     refTimeS: ref,
     backgroundPower: bg,
     nEffective: chosen.fit.nEff,
