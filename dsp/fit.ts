@@ -671,7 +671,7 @@ function gridSearch(
 }
 
 /** Most samples the grid search looks at; longer series are block-averaged for it. */
-const GRID_MAX_SAMPLES = 160;
+const GRID_MAX_SAMPLES = 48;
 
 /**
  * The grid search on a block-averaged copy of the series (at most GRID_MAX_SAMPLES blocks: mean
