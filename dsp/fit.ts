@@ -64,12 +64,15 @@ export const CHI2_1DOF_99 = 6.634896601021214;
 // ---------------------------------------------------------------------------------------------
 // Small statistics helpers (exported for the damping estimators and the bench)
 
+/** Coefficients of the Lanczos approximation, g = 7, 9 terms. */
+const LANCZOS = [
+  0.99999999999980993, 676.5203681218851, -1259.1392167224028, 771.32342877765313, -176.61502916214059,
+  12.507343278686905, -0.13857109526572012, 9.9843695780195716e-6, 1.5056327351493116e-7,
+];
+
 /** Natural log of the gamma function, x > 0 (Lanczos 1964 approximation, g = 7, 9 terms). */
 export function logGamma(x: number): number {
-  const c = [
-    0.99999999999980993, 676.5203681218851, -1259.1392167224028, 771.32342877765313, -176.61502916214059,
-    12.507343278686905, -0.13857109526572012, 9.9843695780195716e-6, 1.5056327351493116e-7,
-  ];
+  const c = LANCZOS;
   if (x < 0.5) return Math.log(Math.PI / Math.abs(Math.sin(Math.PI * x))) - logGamma(1 - x);
   const xx = x - 1;
   let a = c[0];
@@ -123,18 +126,30 @@ export function studentTCdf(t: number, dof: number): number {
   return t >= 0 ? 1 - tail : tail;
 }
 
-/** Quantile of the Student-t distribution (p in (0.5, 1)), ν ≥ 1 (real ν allowed), by bisection on the CDF. */
+/**
+ * Quantile of the Student-t distribution (p in (0.5, 1)), ν > 0 (real ν allowed): Newton's method
+ * on the CDF with the density f(t) = Γ((ν+1)/2)/(√(νπ) Γ(ν/2))·(1 + t²/ν)^(−(ν+1)/2) (A&S 1964,
+ * 26.7.1), kept inside a bracket that bisection narrows whenever a Newton step would leave it.
+ */
 export function studentTQuantile(p: number, dof: number): number {
   if (!(dof > 0)) return Number.NaN;
   let lo = 0;
   let hi = 1;
   while (studentTCdf(hi, dof) < p && hi < 1e12) hi *= 2;
-  for (let i = 0; i < 200 && hi - lo > 1e-12 * hi; i++) {
-    const mid = 0.5 * (lo + hi);
-    if (studentTCdf(mid, dof) < p) lo = mid;
-    else hi = mid;
+  const logNorm = logGamma((dof + 1) / 2) - logGamma(dof / 2) - 0.5 * Math.log(dof * Math.PI);
+  let t = 0.5 * (lo + hi);
+  for (let i = 0; i < 200; i++) {
+    const excess = studentTCdf(t, dof) - p;
+    if (excess === 0) return t;
+    if (excess < 0) lo = t;
+    else hi = t;
+    const density = Math.exp(logNorm - ((dof + 1) / 2) * Math.log1p((t * t) / dof));
+    let next = t - excess / density;
+    if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
+    if (Math.abs(next - t) <= 1e-14 * next || hi - lo <= 1e-14 * hi) return next;
+    t = next;
   }
-  return 0.5 * (lo + hi);
+  return t;
 }
 
 /** Inverts a small symmetric positive-definite matrix (row-major, size k) by Gauss–Jordan with pivoting; null if singular. */
