@@ -368,7 +368,9 @@ export function simulateRig(spec: SimulationSpec): SimulationResult {
   const dt = 1 / (spec.sampleRateHz * rig.timeScaleS * substeps); // dimensionless step
   if (dt * rig.k[n - 1] > MAX_STEP_TIMES_WAVENUMBER) {
     const needHz = Math.ceil((rig.k[n - 1] / (MAX_STEP_TIMES_WAVENUMBER * rig.timeScaleS * substeps)));
-    throw new RangeError(`sampleRateHz must be at least ${needHz} Hz for this tube (its highest Galerkin mode is ${(rig.k[n - 1] / (2 * Math.PI * rig.timeScaleS)).toFixed(0)} Hz), got ${spec.sampleRateHz} Hz`);
+    throw new RangeError(
+      `sampleRateHz must be at least ${needHz} Hz for this tube, got ${spec.sampleRateHz} Hz: its highest Galerkin mode is ${(rig.k[n - 1] / (2 * Math.PI * rig.timeScaleS)).toFixed(0)} Hz (fewer modes, modeCount, or a longer tube lower it)`,
+    );
   }
   if (rig.tau < dt) throw new RangeError(`heatLagS must be at least one integration step (${(dt * rig.timeScaleS).toExponential(2)} s)`);
   const L = rig.params.lengthM;
