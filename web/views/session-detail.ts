@@ -44,7 +44,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   const destroyers: (() => void)[] = [];
   const { record, track } = full;
   const m = record.meta;
-  const title = h('h2', { text: sessionTitle(m.site, m.equipment) });
+  const title = h('h2', { text: sessionTitle(m.site, m.equipment, m.fileName), attrs: { id: 'session-title' } });
   const offset = typeof m.calibrationOffsetDb === 'number' && Number.isFinite(m.calibrationOffsetDb) ? m.calibrationOffsetDb : undefined;
 
   // Editable details.
@@ -79,7 +79,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
     try {
       const next = await updateSessionMeta(db, id, { site: site.value.trim(), equipment: equipment.value.trim(), notes: notes.value });
       full.record = next;
-      title.textContent = sessionTitle(next.meta.site, next.meta.equipment);
+      title.textContent = sessionTitle(next.meta.site, next.meta.equipment, next.meta.fileName);
       formMsg.className = 'hint';
       formMsg.textContent = 'Saved.';
     } catch (err) {
@@ -154,7 +154,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
     button('Track (.csv)', 'export-csv', () => deliver(new TextEncoder().encode(trackCsv(track, offset)), `${base}-track.csv`, 'text/csv')),
     button('Audio (.wav)', 'export-wav', () => deliver(sessionWav(full.audio as Float32Array, m.sampleRateHz), `${base}.wav`, 'audio/wav'), !full.audio),
     button('Printable report (.html)', 'export-html', () => deliver(new TextEncoder().encode(buildReportHtml(current().record, track, Date.now())), `${base}-report.html`, 'text/html')),
-    button('Delete', 'delete-session', () => ctx.deleteWithUndo(id, sessionTitle(current().record.meta.site, current().record.meta.equipment))),
+    button('Delete', 'delete-session', () => ctx.deleteWithUndo(id, sessionTitle(current().record.meta.site, current().record.meta.equipment, current().record.meta.fileName))),
   );
 
   const facts = `${formatLocalStamp(record.createdAtMs)} · ${formatSeconds(record.durationS)} · ${m.sampleRateHz} Hz · ${m.source}${m.fileName ? ` (${m.fileName})` : ''} · ${full.audio ? `audio kept (${formatSeconds(full.audio.length / m.sampleRateHz)})` : `no audio${record.audio.stoppedReason ? ` (${record.audio.stoppedReason})` : ''}`}`;
