@@ -14,6 +14,7 @@ import { formatLocalStamp, sessionTitle, type SessionsContext, type SessionView 
 import { cssVar, formatBytes, h, table } from './session-dom';
 import { conditionsEditor, markerEditor } from './session-edit';
 import { reanalysisPanel } from './session-reanalyse';
+import { cyclesTable } from './run-result';
 
 /** Rows of the result table: label and formatted value (with unit and interval). */
 export function summaryRows(report: Report | null, calibrationOffsetDb?: number): [string, string][] {
@@ -89,7 +90,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   });
 
   // Figures.
-  const result = h('table', { className: 'segments result-table' }, h('caption', { text: 'Result (95 % intervals)' }), h('tbody', {}, ...summaryRows(record.report, offset).map(([k, v]) => h('tr', {}, h('th', { text: k, attrs: { scope: 'row' } }), h('td', { text: v })))));
+  const result = h('div', { className: 'table-scroll' }, h('table', { className: 'segments result-table' }, h('caption', { text: 'Result (95 % intervals)' }), h('tbody', {}, ...summaryRows(record.report, offset).map(([k, v]) => h('tr', {}, h('th', { text: k, attrs: { scope: 'row' } }), h('td', { text: v }))))));
 
   // Plots.
   const times = track.map((f) => f.timeS);
@@ -119,6 +120,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   const segs = r?.segments.length
     ? table('segments', 'Segments', ['kind', 'time (m:s)', 'frequency', 'rate (95 % CI)', 'model'], r.segments.map((g) => [g.kind, `${formatClock(g.startS)}–${formatClock(g.endS)}`, formatHz(g.frequencyHz), g.ratePerS === null ? '—' : formatRate(g.ratePerS, g.rateCi95PerS), g.model ?? '']))
     : null;
+  const cycles = r ? cyclesTable(r) : null;
   const noise = r?.noiseDriven.length
     ? table('segments', 'Damping of the quiet system (noise-driven)', ['time (m:s)', 'frequency', 'decay rate (95 % CI)'], r.noiseDriven.map((n) => [`${formatClock(n.startS)}–${formatClock(n.endS)}`, formatHz(n.frequencyHz), formatRate(n.decayRatePerS, n.decayRateCi95PerS)]))
     : null;
@@ -169,6 +171,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
       ? h('p', {}, h('a', { className: 'big-link', attrs: { href: `#duct/${r.summary.frequencyHz.toFixed(2)}`, id: 'check-duct-mode' }, text: `Which duct mode is ${formatHz(r.summary.frequencyHz)}? Open the duct model` }))
       : null,
     plots,
+    cycles,
     segs,
     noise,
     markers,

@@ -35,7 +35,7 @@ export function markerEditor(db: SessionDb, id: string, markers: Marker[], onSav
   const form = h(
     'form',
     { className: 'marker-edit' },
-    h(
+    h('div', { className: 'table-scroll' }, h(
       'table',
       { className: 'segments' },
       h('caption', { text: 'Markers (control values feed the stability map)' }),
@@ -54,7 +54,7 @@ export function markerEditor(db: SessionDb, id: string, markers: Marker[], onSav
           ),
         ),
       ),
-    ),
+    )),
     h('button', { className: 'small-button', text: 'Save control values', attrs: { type: 'submit' } }),
     msg,
   );
