@@ -31,7 +31,7 @@
  * 9(3)), as in dsp/damping.ts: every statistic is a smooth function of sums over the record, so
  * the replicates carry the samples' autocorrelation; Student-t with K − 1 degrees of freedom.
  */
-import { studentTQuantile } from './fit';
+import { invertSmallMatrix, studentTQuantile } from './fit';
 import type { Interval } from './types';
 
 /** A complex envelope u (unit: peak amplitude of the tone) sampled at rateHz. */
@@ -41,12 +41,30 @@ export interface ComplexEnvelope {
   rateHz: number;
 }
 
-/** What the band filter in front of the envelope does to the increments. */
+/**
+ * What the band filter in front of the envelope does to the increments (REFERENCES.md §41): for a
+ * Wiener input of unit intensity the filtered M2 at envelope lag k is wienerM2S[k] (s; beyond the
+ * array, k·Δt − structureOffsetS), and white measurement noise keeps the correlation
+ * noiseCorrelation[k] (0 beyond the array).
+ */
 export interface BandFilterEffect {
-  /** First lag (envelope samples) past which the filter's own correlation has died (≥ 1). */
+  /** First lag (envelope samples) past which the filter's own correlation has died (≥ 1): the drift fits start there. */
   minLagSamples: number;
   /** c_h = ΣΣ h_j h_k |t_j − t_k| (s): a filtered Wiener process has M2(τ) = σ²(τ − c_h) beyond the filter span. */
   structureOffsetS: number;
+  wienerM2S: Float64Array;
+  noiseCorrelation: Float64Array;
+}
+
+/** An unfiltered envelope. */
+export const NO_BAND_FILTER: BandFilterEffect = { minLagSamples: 1, structureOffsetS: 0, wienerM2S: new Float64Array(0), noiseCorrelation: new Float64Array(0) };
+
+function wienerM2At(f: BandFilterEffect, k: number, dt: number): number {
+  return k < f.wienerM2S.length ? f.wienerM2S[k] : k * dt - f.structureOffsetS;
+}
+
+function noiseCorrelationAt(f: BandFilterEffect, k: number): number {
+  return k < f.noiseCorrelation.length ? f.noiseCorrelation[k] : k === 0 ? 1 : 0;
 }
 
 /** One route's estimate of the normal form's coefficients. */
@@ -68,6 +86,8 @@ export interface EnvelopeStatistics {
   driftDiffusion: RouteEstimate;
   /** Measurement-noise variance E|e|² in the envelope (unit²), from the increments' intercept. */
   measurementNoiseVariance: number;
+  /** E|u|² of the mode (unit²), measurement noise removed. */
+  meanSquare: number;
   /** Relaxation rate the lag window was sized by, 1/s. */
   relaxationRatePerS: number;
   /** Lags used, s. */
@@ -76,8 +96,9 @@ export interface EnvelopeStatistics {
 
 /** Jackknife blocks (as dsp/damping.ts's autocorrelation estimate). */
 const SEGMENTS = 20;
-/** Most lags in the drift/diffusion fits, and the least (the fits are quadratic in τ). */
-const LAG_COUNT = 10;
+/** Lags of the fits: every lag up to DENSE_LAGS, then up to SPARSE_LAGS more spread to the window's end; the drift fits need LAG_MIN_COUNT past the filter's correlation (they are quadratic in τ). */
+const DENSE_LAGS = 8;
+const SPARSE_LAGS = 12;
 const LAG_MIN_COUNT = 5;
 /** The lag window spans this many relaxation times: the O(τ²) terms stay below ~3 % of the slopes (e^{−x} ≈ 1 − x + x²/2 at x = 0.25). */
 const LAG_SPAN_RELAXATIONS = 0.25;
@@ -85,6 +106,12 @@ const LAG_SPAN_RELAXATIONS = 0.25;
 const FIRST_PASS_SPAN_S = 0.02;
 /** A segment must hold this many lag windows. */
 const SEGMENT_PER_LAG = 5;
+/**
+ * A steady hum: the amplitude's law lies this many of its standard deviations above A = 0 (shape
+ * α0 below −3), so A never nears 0 and σ² is read from the amplitude's increments, which a slow
+ * wander of the tone's phase does not touch (E[(ΔA)²] = σ²τ/2 + O(τ²), REFERENCES.md §41).
+ */
+const HUM_SHAPE = -3;
 /** Shape range of the truncated Gaussian in y, standard deviations (α0 = −mean/sd before truncation); beyond +40 it is the exponential to 1e-3 in E[y²]/E[y]². */
 const SHAPE_LIMIT = 40;
 
@@ -139,16 +166,20 @@ function truncatedRatio(al: number): number {
 
 /**
  * Maximum-likelihood (a, b) of p(y) ∝ exp(a·y − b·y²), y ≥ 0, b ≥ 0, from the means m1 = E[y],
- * m2 = E[y²] (exponential family: the likelihood equations are these moments). Null when the
- * moments admit no such law (m1 ≤ 0 or m2 ≤ m1²).
+ * m2 = E[y²] (exponential family: the likelihood equations are these moments), and the shape α0.
+ * Null when the moments admit no such law (m1 ≤ 0 or m2 ≤ m1²).
  */
-export function truncatedGaussianFromMoments(m1: number, m2: number): { a: number; b: number } | null {
+export function truncatedGaussianFromMoments(m1: number, m2: number): { a: number; b: number; shape: number } | null {
   if (!(m1 > 0) || !(m2 > m1 * m1)) return null;
   const target = m2 / (m1 * m1);
-  if (target >= truncatedRatio(SHAPE_LIMIT)) return { a: -1 / m1, b: 0 };
+  if (target >= truncatedRatio(SHAPE_LIMIT)) return { a: -1 / m1, b: 0, shape: Number.POSITIVE_INFINITY };
   let lo = -SHAPE_LIMIT;
   let hi = SHAPE_LIMIT;
-  if (target <= truncatedRatio(lo)) return null;
+  if (target <= truncatedRatio(lo)) {
+    // Far from 0 (a steady hum) the truncation is nil: the untruncated Gaussian's moments.
+    const v = m2 - m1 * m1;
+    return { a: m1 / v, b: 1 / (2 * v), shape: -m1 / Math.sqrt(v) };
+  }
   for (let i = 0; i < 200 && hi - lo > 1e-12; i++) {
     const mid = 0.5 * (lo + hi);
     if (truncatedRatio(mid) < target) lo = mid;
@@ -156,7 +187,7 @@ export function truncatedGaussianFromMoments(m1: number, m2: number): { a: numbe
   }
   const al = 0.5 * (lo + hi);
   const s = m1 / (inverseMills(al) - al);
-  return { a: -al / s, b: 1 / (2 * s * s) };
+  return { a: -al / s, b: 1 / (2 * s * s), shape: al };
 }
 
 /**
@@ -180,12 +211,13 @@ interface BlockSums {
   sy: Float64Array;
   sy2: Float64Array;
   sy3: Float64Array;
-  /** Per block × lag: Σ u* u(t+k), Σ |u|² u* u(t+k) (complex), Σ |u(t+k) − u(t)|². */
+  /** Per block × lag: Σ u* u(t+k), Σ |u|² u* u(t+k) (complex), Σ |u(t+k) − u(t)|², Σ (|u(t+k)| − |u(t)|)². */
   c1r: Float64Array;
   c1i: Float64Array;
   c3r: Float64Array;
   c3i: Float64Array;
   m2: Float64Array;
+  m2a: Float64Array;
 }
 
 function blockSums(u: ComplexEnvelope, lags: Int32Array, segments: number): BlockSums {
@@ -202,6 +234,7 @@ function blockSums(u: ComplexEnvelope, lags: Int32Array, segments: number): Bloc
     c3r: new Float64Array(segments * L),
     c3i: new Float64Array(segments * L),
     m2: new Float64Array(segments * L),
+    m2a: new Float64Array(segments * L),
   };
   const { re, im } = u;
   for (let g = 0; g < segments; g++) {
@@ -229,6 +262,8 @@ function blockSums(u: ComplexEnvelope, lags: Int32Array, segments: number): Bloc
         const dr = br - ar;
         const di = bi - ai;
         s.m2[q] += dr * dr + di * di;
+        const da = Math.sqrt(br * br + bi * bi) - Math.sqrt(y);
+        s.m2a[q] += da * da;
       }
     }
   }
@@ -290,47 +325,103 @@ interface Solution {
   noiseVar: number;
   nuPdf: number;
   kappaPdf: number;
+  /** E|u|² with the measurement noise removed. */
+  meanSquare: number;
+}
+
+/** The lags with their filter regressors: τ (s), 1 − ρ_noise(τ), the filtered Wiener M2(τ) (s). */
+interface LagDesign {
+  lagsS: Float64Array;
+  noiseShape: Float64Array;
+  wiener: Float64Array;
+  /** Index of the first lag usable by the drift fits. */
+  driftFrom: number;
+}
+
+function lagDesign(lags: Int32Array, rateHz: number, filter: BandFilterEffect): LagDesign {
+  const dt = 1 / rateHz;
+  let driftFrom = lags.findIndex((k) => k >= filter.minLagSamples);
+  if (driftFrom < 0 || lags.length - driftFrom < LAG_MIN_COUNT) driftFrom = Math.max(0, lags.length - LAG_MIN_COUNT);
+  return {
+    lagsS: Float64Array.from(lags, (k) => k * dt),
+    noiseShape: Float64Array.from(lags, (k) => 1 - noiseCorrelationAt(filter, k)),
+    wiener: Float64Array.from(lags, (k) => wienerM2At(filter, k, dt)),
+    driftFrom,
+  };
+}
+
+/** Least squares of y on three given columns; the coefficients (NaN when singular). */
+function fitColumns(c0: Float64Array, c1: Float64Array, c2: Float64Array, y: Float64Array): Float64Array {
+  const cols = [c0, c1, c2];
+  const ata = new Float64Array(9);
+  const aty = new Float64Array(3);
+  // Scale each column to unit size for conditioning.
+  const sc = cols.map((c) => Math.sqrt(c.reduce((a, v) => a + v * v, 0)) || 1);
+  for (let i = 0; i < y.length; i++) {
+    for (let r = 0; r < 3; r++) {
+      const vr = cols[r][i] / sc[r];
+      aty[r] += vr * y[i];
+      for (let c = 0; c < 3; c++) ata[r * 3 + c] += (vr * cols[c][i]) / sc[c];
+    }
+  }
+  const inv = invertSmallMatrix(ata, 3);
+  const out = new Float64Array(3).fill(Number.NaN);
+  if (inv === null) return out;
+  for (let r = 0; r < 3; r++) {
+    let v = 0;
+    for (let c = 0; c < 3; c++) v += inv[r * 3 + c] * aty[c];
+    out[r] = v / sc[r];
+  }
+  return out;
 }
 
 function solveSums(
-  tot: { n: number; sy: number; sy2: number; sy3: number; c1r: Float64Array; c1i: Float64Array; c3r: Float64Array; c3i: Float64Array; m2: Float64Array },
-  lagsS: Float64Array,
-  filter: BandFilterEffect,
+  tot: { n: number; sy: number; sy2: number; sy3: number; c1r: Float64Array; c1i: Float64Array; c3r: Float64Array; c3i: Float64Array; m2: Float64Array; m2a: Float64Array },
+  design: LagDesign,
 ): Solution {
+  const { lagsS, noiseShape, wiener, driftFrom } = design;
   const L = lagsS.length;
-  const reB1 = new Float64Array(L);
-  const reB3 = new Float64Array(L);
+  const reB1 = new Float64Array(L - driftFrom);
+  const reB3 = new Float64Array(L - driftFrom);
   const m2 = new Float64Array(L);
-  // Normal equations of u(t+τ) ≈ b1 u + b3 |u|²u: [[Σy, Σy²], [Σy², Σy³]] (real) · [b1, b3] = [c1, c3].
+  const m2a = new Float64Array(L);
+  const tau2 = Float64Array.from(lagsS, (t) => t * t);
+  // Normal equations of u(t+τ) ≈ b1 u + b3 |u|²u: [[Σy, Σy²], [Σy², Σy³]] (real) · [b1, b3] = [c1, c3];
+  // the mean phase rate is removed upstream, so the real parts carry ν and κ.
   const g11 = tot.sy;
   const g12 = tot.sy2;
   const g22 = tot.sy3;
   const det = g11 * g22 - g12 * g12;
   for (let l = 0; l < L; l++) {
-    const b1r = (g22 * tot.c1r[l] - g12 * tot.c3r[l]) / det;
-    const b1i = (g22 * tot.c1i[l] - g12 * tot.c3i[l]) / det;
-    const b3r = (g11 * tot.c3r[l] - g12 * tot.c1r[l]) / det;
-    const b3i = (g11 * tot.c3i[l] - g12 * tot.c1i[l]) / det;
-    // The mean phase rate is removed upstream, so the real parts carry ν and κ.
-    reB1[l] = b1r;
-    reB3[l] = b3r;
-    void b1i;
-    void b3i;
+    if (l >= driftFrom) {
+      reB1[l - driftFrom] = (g22 * tot.c1r[l] - g12 * tot.c3r[l]) / det;
+      reB3[l - driftFrom] = (g11 * tot.c3r[l] - g12 * tot.c1r[l]) / det;
+    }
     m2[l] = tot.m2[l] / tot.n;
+    m2a[l] = tot.m2a[l] / tot.n;
   }
-  const p1 = polyFit(lagsS, reB1, 2);
-  const p3 = polyFit(lagsS, reB3, 2);
+  const driftLags = lagsS.subarray(driftFrom);
+  const p1 = polyFit(driftLags, reB1, 2);
+  const p3 = polyFit(driftLags, reB3, 2);
   const nuDrift = p1[1] / p1[0];
   const kappaDrift = -p3[1] / p1[0];
-  const q = polyFit(lagsS, m2, 2);
-  const sigma2 = q[1];
-  const noiseVar = Math.max(0, 0.5 * (q[0] + sigma2 * filter.structureOffsetS));
+  // σ² and the measurement noise v from the complex increments: M2 = 2v(1 − ρ(τ)) + σ² G(τ) + c2 τ².
+  const q = fitColumns(noiseShape, wiener, tau2, m2);
+  let sigma2 = q[1];
+  let noiseVar = Math.max(0, 0.5 * q[0]);
   // Route 1: corrected sufficient statistics, then the exact exponential-family solution.
   const e1 = tot.sy / tot.n;
   const e2 = tot.sy2 / tot.n;
-  const m1c = e1 - noiseVar;
-  const m2c = e2 - 4 * e1 * noiseVar + 2 * noiseVar * noiseVar;
-  const ab = truncatedGaussianFromMoments(m1c, m2c);
+  const solvePdf = (v: number): ReturnType<typeof truncatedGaussianFromMoments> => truncatedGaussianFromMoments(e1 - v, e2 - 4 * e1 * v + 2 * v * v);
+  // The shape is judged before any noise correction (which is small for a hum).
+  const raw = solvePdf(0);
+  if (raw !== null && raw.shape < HUM_SHAPE) {
+    // A steady hum: amplitude increments, M2_A = v(1 − ρ) + (σ²/2) G + c2 τ² (radial noise σ/√2, noise v/2 per quadrature).
+    const qa = fitColumns(noiseShape, wiener, tau2, m2a);
+    sigma2 = 2 * qa[1];
+    noiseVar = Math.max(0, qa[0]);
+  }
+  const ab = solvePdf(noiseVar);
   return {
     nuDrift,
     kappaDrift,
@@ -338,15 +429,17 @@ function solveSums(
     noiseVar,
     nuPdf: ab === null ? Number.NaN : 0.5 * ab.a * sigma2,
     kappaPdf: ab === null ? Number.NaN : ab.b * sigma2,
+    meanSquare: e1 - noiseVar,
   };
 }
 
-/** Evenly spaced integer lags from lo to hi (unique, LAG_COUNT of them when the span allows). */
-function lagSet(lo: number, hi: number): Int32Array {
+/** Every lag 1…DENSE_LAGS, then up to SPARSE_LAGS evenly spaced to hi. */
+function lagSet(hi: number): Int32Array {
   const out: number[] = [];
-  for (let i = 0; i < LAG_COUNT; i++) {
-    const k = Math.round(lo + ((hi - lo) * i) / (LAG_COUNT - 1));
-    if (out.length === 0 || k > out[out.length - 1]) out.push(k);
+  for (let k = 1; k <= Math.min(hi, DENSE_LAGS); k++) out.push(k);
+  for (let i = 1; i <= SPARSE_LAGS && hi > DENSE_LAGS; i++) {
+    const k = Math.round(DENSE_LAGS + ((hi - DENSE_LAGS) * i) / SPARSE_LAGS);
+    if (k > out[out.length - 1]) out.push(k);
   }
   return Int32Array.from(out);
 }
@@ -375,9 +468,10 @@ function invalidRoute(reason: string): RouteEstimate {
 function analyseWithLags(u: ComplexEnvelope, lags: Int32Array, filter: BandFilterEffect): { full: Solution; reps: Solution[]; lagsS: Float64Array } {
   const sums = blockSums(u, lags, SEGMENTS);
   const L = lags.length;
-  const lagsS = Float64Array.from(lags, (k) => k / u.rateHz);
+  const design = lagDesign(lags, u.rateHz, filter);
+  const lagsS = design.lagsS;
   const total = (skip: number): Parameters<typeof solveSums>[0] => {
-    const t = { n: 0, sy: 0, sy2: 0, sy3: 0, c1r: new Float64Array(L), c1i: new Float64Array(L), c3r: new Float64Array(L), c3i: new Float64Array(L), m2: new Float64Array(L) };
+    const t = { n: 0, sy: 0, sy2: 0, sy3: 0, c1r: new Float64Array(L), c1i: new Float64Array(L), c3r: new Float64Array(L), c3i: new Float64Array(L), m2: new Float64Array(L), m2a: new Float64Array(L) };
     for (let g = 0; g < SEGMENTS; g++) {
       if (g === skip) continue;
       t.n += sums.count[g];
@@ -390,13 +484,14 @@ function analyseWithLags(u: ComplexEnvelope, lags: Int32Array, filter: BandFilte
         t.c3r[l] += sums.c3r[g * L + l];
         t.c3i[l] += sums.c3i[g * L + l];
         t.m2[l] += sums.m2[g * L + l];
+        t.m2a[l] += sums.m2a[g * L + l];
       }
     }
     return t;
   };
-  const full = solveSums(total(-1), lagsS, filter);
+  const full = solveSums(total(-1), design);
   const reps: Solution[] = [];
-  for (let g = 0; g < SEGMENTS; g++) reps.push(solveSums(total(g), lagsS, filter));
+  for (let g = 0; g < SEGMENTS; g++) reps.push(solveSums(total(g), design));
   return { full, reps, lagsS };
 }
 
@@ -409,36 +504,38 @@ export function estimateEnvelopeStatistics(u: ComplexEnvelope, filter: BandFilte
   const n = u.re.length;
   const lo = Math.max(1, filter.minLagSamples);
   const maxHi = Math.floor(n / (SEGMENTS * SEGMENT_PER_LAG));
+  const lagSpan = (spanS: number): number => Math.min(maxHi, Math.max(lo + LAG_MIN_COUNT - 1, Math.round(spanS * u.rateHz)));
   const fail = (reason: string): EnvelopeStatistics => ({
     pdf: invalidRoute(reason),
     driftDiffusion: invalidRoute(reason),
     measurementNoiseVariance: Number.NaN,
+    meanSquare: Number.NaN,
     relaxationRatePerS: Number.NaN,
     lagsS: new Float64Array(0),
   });
   if (maxHi < lo + LAG_MIN_COUNT - 1) return fail('record too short for the envelope statistics');
-  // Pass 1 on a short lag window, pass 2 on a window sized by the relaxation rate found.
-  let hi = Math.min(maxHi, lo + Math.max(LAG_MIN_COUNT - 1, Math.round(FIRST_PASS_SPAN_S * u.rateHz)));
-  let pass = analyseWithLags(u, lagSet(lo, hi), filter);
+  // Pass 1 on a short lag window, pass 2 on a window sized by the relaxation rate found (the drift
+  // fits start at the filter's correlation length lo).
+  let pass = analyseWithLags(u, lagSet(lagSpan(FIRST_PASS_SPAN_S)), filter);
   const p1 = pass.full;
   let rate = relaxationRate(Number.isFinite(p1.nuPdf) ? p1.nuPdf : p1.nuDrift, Number.isFinite(p1.kappaPdf) ? p1.kappaPdf : p1.kappaDrift, p1.sigma2);
   if (Number.isFinite(rate) && rate > 0) {
-    hi = Math.min(maxHi, lo + Math.max(LAG_MIN_COUNT - 1, Math.round((LAG_SPAN_RELAXATIONS / rate) * u.rateHz)));
-    pass = analyseWithLags(u, lagSet(lo, hi), filter);
+    pass = analyseWithLags(u, lagSet(lagSpan(LAG_SPAN_RELAXATIONS / rate)), filter);
   }
   const { full, reps, lagsS } = pass;
   rate = relaxationRate(Number.isFinite(full.nuPdf) ? full.nuPdf : full.nuDrift, full.kappaPdf, full.sigma2);
   const pick = (f: (s: Solution) => number): Float64Array => Float64Array.from(reps, f);
-  const route = (nu: number, nuReps: Float64Array, kappa: number, kappaReps: Float64Array, what: string): RouteEstimate => {
+  const route = (nu: number, nuReps: Float64Array, kappa: number, kappaReps: Float64Array, what: string, needsSigma2: boolean): RouteEstimate => {
     if (!Number.isFinite(nu) || nuReps.some((v) => !Number.isFinite(v))) return invalidRoute(`${what}: no solution on this record`);
-    if (!(full.sigma2 > 0)) return invalidRoute(`${what}: the increments give no noise intensity`);
+    if (needsSigma2 && !(full.sigma2 > 0)) return invalidRoute(`${what}: the increments give no noise intensity`);
     const { ci } = jackknifeInterval(nu, nuReps);
     return { isValid: true, growthRatePerS: nu, ci95PerS: ci, saturation: kappa, saturationCi95: jackknifeInterval(kappa, kappaReps).ci, noiseIntensity: full.sigma2 };
   };
   return {
-    pdf: route(full.nuPdf, pick((s) => s.nuPdf), full.kappaPdf, pick((s) => s.kappaPdf), 'amplitude PDF'),
-    driftDiffusion: route(full.nuDrift, pick((s) => s.nuDrift), full.kappaDrift, pick((s) => s.kappaDrift), 'drift/diffusion'),
+    pdf: route(full.nuPdf, pick((s) => s.nuPdf), full.kappaPdf, pick((s) => s.kappaPdf), 'amplitude PDF', true),
+    driftDiffusion: route(full.nuDrift, pick((s) => s.nuDrift), full.kappaDrift, pick((s) => s.kappaDrift), 'drift/diffusion', false),
     measurementNoiseVariance: full.noiseVar,
+    meanSquare: full.meanSquare,
     relaxationRatePerS: rate,
     lagsS,
   };

@@ -24,11 +24,11 @@ export const MODE_BAND_HALF_WIDTH_HZ = 40;
 const FILTER_CORRELATION_FLOOR = 1e-3;
 /**
  * Envelope rate in multiples of the half-width (mixDownDecimate's design: flat to W, stopband from
- * rate − W). The real signal's image sits at −2f around the mode, so the stopband must start below
- * 2f − W: W ≤ 2f/rateMultiple caps the half-width (IMAGE_WIDTH_FRACTION).
+ * rate − W = 7W). Mixed down, a hum's second harmonic sits at +f and the real signal's image at −2f;
+ * both must fall in the stopband, so 7W ≤ f caps the half-width (HARMONIC_WIDTH_FRACTION).
  */
 const ENVELOPE_RATE_MULTIPLE = 8;
-const IMAGE_WIDTH_FRACTION = 2 / ENVELOPE_RATE_MULTIPLE;
+const HARMONIC_WIDTH_FRACTION = 1 / (ENVELOPE_RATE_MULTIPLE - 1);
 /** Family-wise false-alarm probability of the second-mode test. */
 const SECOND_MODE_ALPHA = 1e-3;
 /** Smoothing span of the second-mode test, Hz, and the shoulders' distances in smoothing spans (1, 2 and 4 Hz: a second resonance of any half-width up to ~2 Hz stands out at one of them). */
@@ -58,28 +58,34 @@ function invalidRoute(reason: string): RouteEstimate {
   return { isValid: false, growthRatePerS: Number.NaN, ci95PerS: [Number.NaN, Number.NaN], saturation: Number.NaN, noiseIntensity: Number.NaN, reason };
 }
 
-/** What the mix-down filter does to the increments (see BandFilterEffect). */
+/** What the mix-down filter does to the increments (see BandFilterEffect; REFERENCES.md §41). */
 export function bandFilterEffect(sampleRateHz: number, halfWidthHz: number): BandFilterEffect {
   const { h, factor } = basebandFilter(sampleRateHz, halfWidthHz, ENVELOPE_RATE_MULTIPLE);
   const taps = h.length;
-  let e = 0;
-  for (let j = 0; j < taps; j++) e += h[j] * h[j];
-  let minLag = 1;
-  for (let k = 1; k * factor < taps; k++) {
+  // Autocorrelation of the taps a(d), d in input samples.
+  const a = new Float64Array(taps);
+  for (let d = 0; d < taps; d++) {
     let r = 0;
-    for (let j = 0; j + k * factor < taps; j++) r += h[j] * h[j + k * factor];
-    if (Math.abs(r / e) >= FILTER_CORRELATION_FLOOR) minLag = k + 1;
+    for (let j = 0; j + d < taps; j++) r += h[j] * h[j + d];
+    a[d] = r;
   }
-  // ΣΣ h_j h_k |j − k| = 2 Σ_j h_j (j·H_j − G_j), H_j = Σ_{k<j} h_k, G_j = Σ_{k<j} k·h_k.
-  let hSum = 0;
-  let gSum = 0;
+  const span = Math.ceil(taps / factor) + 1;
+  const noiseCorrelation = new Float64Array(span);
+  const wienerM2S = new Float64Array(span);
+  let minLag = 1;
+  for (let k = 0; k < span; k++) {
+    const d0 = k * factor;
+    noiseCorrelation[k] = d0 < taps ? a[d0] / a[0] : 0;
+    if (k > 0 && Math.abs(noiseCorrelation[k]) >= FILTER_CORRELATION_FLOOR) minLag = k + 1;
+    // G(τ) = Σ_j Σ_k h_j h_k max(0, τ − |t_j − t_k|) = a(0)τ + 2 Σ_{d≥1} a(d) max(0, τ − d/fs).
+    let g = a[0] * d0;
+    for (let d = 1; d < Math.min(taps, d0); d++) g += 2 * a[d] * (d0 - d);
+    wienerM2S[k] = g / sampleRateHz;
+  }
+  // ΣΣ h_j h_k |j − k| = 2 Σ_d a(d)·d.
   let acc = 0;
-  for (let j = 0; j < taps; j++) {
-    acc += h[j] * (j * hSum - gSum);
-    hSum += h[j];
-    gSum += j * h[j];
-  }
-  return { minLagSamples: minLag, structureOffsetS: (2 * acc) / sampleRateHz };
+  for (let d = 1; d < taps; d++) acc += a[d] * d;
+  return { minLagSamples: minLag, structureOffsetS: (2 * acc) / sampleRateHz, wienerM2S, noiseCorrelation };
 }
 
 /** Quantile of the F(d1, d2) distribution by bisection on its CDF I_{d1x/(d1x+d2)}(d1/2, d2/2) (A&S 26.6.2). */
@@ -191,7 +197,7 @@ export function estimateModeStatistics(
 ): ModeStatisticsResult {
   const durationS = x.length / sampleRateHz;
   const centre = opts.centreHz;
-  const halfWidth = Math.min(opts.halfWidthHz ?? MODE_BAND_HALF_WIDTH_HZ, IMAGE_WIDTH_FRACTION * centre, 0.8 * (sampleRateHz / 2 - centre));
+  const halfWidth = Math.min(opts.halfWidthHz ?? MODE_BAND_HALF_WIDTH_HZ, HARMONIC_WIDTH_FRACTION * centre, 0.8 * (sampleRateHz / 2 - centre));
   const none = invalidRoute('not computed');
   const fail = (reason: string): ModeStatisticsResult => ({
     isValid: false,
@@ -245,18 +251,16 @@ export function estimateModeStatistics(
     { name: 'drift-diffusion', est: stats.driftDiffusion },
   ]);
   let lorentzian: RouteEstimate = invalidRoute(lor.estimate.reason ?? 'applies to a stable mode only');
-  // The Lorentzian shape holds for linear dynamics only: used when routes 1-2 say stable and both
-  // are consistent with no saturation (κ's interval reaches 0).
-  const reachesZero = (r: RouteEstimate): boolean => !r.isValid || (r.saturationCi95 !== undefined && r.saturationCi95[0] <= 0);
-  const isLinear = stats.pdf.isValid && reachesZero(stats.pdf) && reachesZero(stats.driftDiffusion);
-  if (lor.estimate.isValid && best12 !== null && best12.est.ci95PerS[1] < 0 && isLinear) {
-    lorentzian = {
-      isValid: true,
-      growthRatePerS: -lor.estimate.decayRatePerS,
-      ci95PerS: [-lor.estimate.ci95PerS[1], -lor.estimate.ci95PerS[0]],
-      saturation: 0,
-      noiseIntensity: stats.pdf.noiseIntensity,
-    };
+  // A stable mode only (routes 1-2 say so). The Lorentzian width reads the statistically linearised
+  // rate −ν + 2κE|u|² (REFERENCES.md §42), so the saturation term from the PDF route is added back,
+  // its uncertainty in quadrature.
+  if (lor.estimate.isValid && best12 !== null && best12.est.ci95PerS[1] < 0 && stats.pdf.isValid && stats.pdf.saturationCi95 !== undefined) {
+    const shift = 2 * stats.pdf.saturation * stats.meanSquare;
+    const sdShift = (stats.meanSquare * (stats.pdf.saturationCi95[1] - stats.pdf.saturationCi95[0])) / Z_975;
+    const sdLor = (lor.estimate.ci95PerS[1] - lor.estimate.ci95PerS[0]) / (2 * Z_975);
+    const nu = -lor.estimate.decayRatePerS + shift;
+    const half = Z_975 * Math.hypot(sdLor, sdShift);
+    lorentzian = { isValid: true, growthRatePerS: nu, ci95PerS: [nu - half, nu + half], saturation: stats.pdf.saturation, noiseIntensity: stats.pdf.noiseIntensity };
   }
   const routes = { pdf: stats.pdf, driftDiffusion: stats.driftDiffusion, lorentzian };
   const chosen = reconcileRoutes([

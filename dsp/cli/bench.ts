@@ -26,6 +26,7 @@ import { createWavDecoder } from '../io/wav';
 import { encodeWav } from '../io/wav-write';
 import { createRng, humCycleEnvelope, synthesize, type EnvelopeFn, type Rng } from '../synth';
 import type { Analysis, EnvelopeSeries, Report, Segment } from '../types';
+import { noiseStatisticsBench } from './bench-noise';
 import { num, renderTable } from './format';
 
 type Verdict = 'PASS' | 'MISS' | 'info';
@@ -632,9 +633,10 @@ const SECTIONS: [name: string, title: string, fn: () => void][] = [
   ['onset', '2a. Onset announcement delay (10 Hz band, noise −50 dBFS, tone from 40 dB under the 6 dB point)', onsetDelay],
   ['false', '2b. False onsets', falseOnsets],
   ['speed', `3a. Speed (best of ${SPEED_REPEATS} runs)`, speed],
+  ['noise', '4. Linear growth rate from noise (dsp/cli/bench-noise.ts)', () => noiseStatisticsBench(row)],
 ];
 
-/** `node dist-cli/bench.js [accuracy|rigs|onset|false|speed|memory ...]`: all sections by default. */
+/** `node dist-cli/bench.js [accuracy|rigs|onset|false|speed|memory|noise ...]`: all sections by default. */
 function main(): void {
   const t0 = performance.now();
   const wanted = process.argv.slice(2);
