@@ -186,18 +186,6 @@ export function effectiveSampleCount(n: number, sampleSpacingS: number, bandwidt
 // ---------------------------------------------------------------------------------------------
 // The envelope models (mean of y) with analytic gradients
 
-/** Numerically safe logistic 1/(1 + e^(−z)). */
-function logistic(z: number): number {
-  if (z >= 0) return 1 / (1 + Math.exp(-z));
-  const e = Math.exp(z);
-  return e / (1 + e);
-}
-
-/** ln(logistic(z)) without overflow. */
-function logLogistic(z: number): number {
-  return z >= 0 ? -Math.log1p(Math.exp(-z)) : z - Math.log1p(Math.exp(z));
-}
-
 /**
  * A model of the tone's mean-square envelope without background: value and gradient with respect
  * to the nonlinear parameters, times the amplitude parameter. The background N² enters linearly.
@@ -221,7 +209,13 @@ function exponentialShape(tm: number): ShapeModel {
   };
 }
 
-/** g = logistic(p s (t − tc))^(2/p); θ = [s, tc] with p fixed (2 = Stuart–Landau), or [s, tc, ln p]. */
+/**
+ * g = q^(2/p), q = logistic(p s (t − tc)) = 1/(1 + e^(−z)); θ = [s, tc] with p fixed (2 =
+ * Stuart–Landau, g = q), or [s, tc, ln p]. q, 1 − q and ln q come from the one exponential
+ * e^(−|z|), so nothing overflows; below the knee (2/p)·ln q is written 2 s (t − tc) − (2/p)·ln(1 +
+ * e^z), which stays exact as p grows without bound (a knee sharper than any sample resolves:
+ * the limit is an exponential up to t_c and the level A∞² after it).
+ */
 function saturationShape(fixedP: number | null): ShapeModel {
   return {
     nNonlinear: fixedP === null ? 3 : 2,
@@ -230,12 +224,22 @@ function saturationShape(fixedP: number | null): ShapeModel {
       const tc = theta[1];
       const p = fixedP === null ? Math.exp(theta[2]) : fixedP;
       const z = p * s * (t - tc);
-      const lnq = logLogistic(z);
-      const g = Math.exp((2 / p) * lnq);
-      const oneMinusQ = logistic(-z);
+      const e = Math.exp(-Math.abs(z));
+      const inv = 1 / (1 + e);
+      const isUpper = z >= 0;
+      const oneMinusQ = isUpper ? e * inv : inv;
+      // u = (2/p)·ln q.
+      let g: number;
+      let u = 0;
+      if (p === 2 && fixedP !== null) g = isUpper ? inv : e * inv;
+      else {
+        const tail = (2 / p) * Math.log1p(e);
+        u = isUpper ? -tail : 2 * s * (t - tc) - tail;
+        g = Math.exp(u);
+      }
       grad[0] = 2 * g * oneMinusQ * (t - tc);
       grad[1] = -2 * g * oneMinusQ * s;
-      if (fixedP === null) grad[2] = g * (2 * oneMinusQ * s * (t - tc) - (2 / p) * lnq);
+      if (fixedP === null) grad[2] = g * (2 * oneMinusQ * s * (t - tc) - u);
       return g;
     },
   };
@@ -404,7 +408,10 @@ function rssOf(d: Prepared, w: Float64Array, model: ShapeModel, params: Float64A
   return Number.isFinite(rss) ? rss : Number.POSITIVE_INFINITY;
 }
 
-/** Jacobian products JᵀWJ and JᵀWr for the full parameter vector (free parameters only). */
+/**
+ * Jacobian products JᵀWJ and JᵀWr for the full parameter vector (free parameters only); returns
+ * the weighted RSS at the same parameters (Infinity when not finite), from the same residuals.
+ */
 function normalEquations(
   d: Prepared,
   w: Float64Array,
@@ -413,7 +420,7 @@ function normalEquations(
   nFree: number,
   jtj: Float64Array,
   jtr: Float64Array,
-): void {
+): number {
   const k = model.nNonlinear;
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
@@ -422,18 +429,21 @@ function normalEquations(
   const row = new Float64Array(nFree);
   jtj.fill(0);
   jtr.fill(0);
+  let rss = 0;
   for (let i = 0; i < d.n; i++) {
     const g = model.shape(d.t[i], theta, grad);
     row[0] = amp * g;
     for (let j = 0; j < k; j++) row[j + 1] = amp * grad[j];
     if (nFree === k + 2) row[k + 1] = 1;
     const r = d.y[i] - amp * g - bg;
+    rss += w[i] * r * r;
     for (let a = 0; a < nFree; a++) {
       jtr[a] += w[i] * row[a] * r;
       for (let b = 0; b <= a; b++) jtj[a * nFree + b] += w[i] * row[a] * row[b];
     }
   }
   for (let a = 0; a < nFree; a++) for (let b = a + 1; b < nFree; b++) jtj[a * nFree + b] = jtj[b * nFree + a];
+  return Number.isFinite(rss) ? rss : Number.POSITIVE_INFINITY;
 }
 
 /**
@@ -454,18 +464,21 @@ function levenbergStep(jtj: Float64Array, jtr: Float64Array, size: number, m: nu
   return true;
 }
 
-/** Levenberg–Marquardt polish of all parameters (Marquardt 1963), N² kept ≥ 0. */
+/**
+ * Levenberg–Marquardt polish of all parameters (Marquardt 1963), N² kept ≥ 0. Each trial point is
+ * evaluated with its normal equations, so an accepted step needs no second pass over the data.
+ */
 function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState, maxIter = 100): void {
   const k = model.nNonlinear;
   const nFree = state.isBackgroundFixed ? k + 1 : k + 2;
-  const jtj = new Float64Array(nFree * nFree);
-  const jtr = new Float64Array(nFree);
-  const grad = new Float64Array(k);
+  let jtj = new Float64Array(nFree * nFree);
+  let jtr = new Float64Array(nFree);
+  let trialJtj = new Float64Array(nFree * nFree);
+  let trialJtr = new Float64Array(nFree);
   const trial = new Float64Array(state.params.length);
   let lambda = 1e-3;
-  let rss = rssOf(d, w, model, state.params, grad);
+  let rss = normalEquations(d, w, model, state.params, nFree, jtj, jtr);
   for (let iter = 0; iter < maxIter; iter++) {
-    normalEquations(d, w, model, state.params, nFree, jtj, jtr);
     let isImproved = false;
     for (let attempt = 0; attempt < 12; attempt++) {
       trial.set(state.params);
@@ -482,11 +495,13 @@ function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState
           continue;
         }
       }
-      const rssTrial = rssOf(d, w, model, trial, grad);
+      const rssTrial = normalEquations(d, w, model, trial, nFree, trialJtj, trialJtr);
       if (rssTrial < rss) {
         const drop = (rss - rssTrial) / rss;
         state.params.set(trial);
         rss = rssTrial;
+        [jtj, trialJtj] = [trialJtj, jtj];
+        [jtr, trialJtr] = [trialJtr, jtr];
         lambda = Math.max(lambda / 3, 1e-12);
         isImproved = drop > 1e-9;
         break;
@@ -918,7 +933,8 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
     model,
     limitAmplitude: Math.sqrt(limitPower),
     // (1 + e^{−p s (t − tc)})^{−1/p} = 1/2  ⇔  t = tc − ln(2^p − 1)/(p s); p = 2 gives ln 3/(2 s).
-    halfTimeS: tc - Math.log(2 ** p - 1) / (p * s),
+    // Written ln 2/s + ln(1 − 2^{−p})/(p s): finite for any p > 0, ln 2/s as p grows without bound.
+    halfTimeS: tc - Math.LN2 / s - Math.log1p(-(2 ** -p)) / (p * s),
     ...(Number.isFinite(sdRate) ? {} : { reason: 'rate variance undefined' }),
   };
   return { fit, ratePerS: s, p, tcS: tc };
@@ -950,7 +966,7 @@ function conditionOnUnresolvedKnee(
   const params = chosen.fit.state.params;
   const s = params[1];
   const p = Math.exp(params[3]);
-  if (!Number.isFinite(p) || !(s > 0) || p * s * d.spacingS < 1) return chosen;
+  if (!(p > 0) || !(s > 0) || p * s * d.spacingS < 1) return chosen;
   const corner: FitState = { params: Float64Array.of(params[0], s, params[2], params[4]), isBackgroundFixed: fixedBg !== null, rss: chosen.fit.state.rss };
   const conditional = covarianceAt(d, through(saturationShape(p)), corner, chosen.fit.weights, fixedBg);
   return { fit: { ...chosen.fit, ...conditional }, p: chosen.p };
@@ -995,9 +1011,9 @@ export function fitGrowthIntoLimit(series: EnvelopeSeries, opts?: { backgroundPo
   let endS = Number.NaN;
   const sRate = shaped.ratePerS;
   if (saturation.isValid && sRate > 0 && shaped.p > 0 && Number.isFinite(shaped.tcS)) {
-    // ln(e^x − 1) = x + ln(1 − e^{−x}), x = (p/2)·ln(1/f): no overflow for a very sharp knee (large p).
-    const x = (shaped.p / 2) * Math.log(1 / EARLY_LIMIT_FRACTION);
-    endS = shaped.tcS - (x + Math.log1p(-Math.exp(-x))) / (shaped.p * sRate);
+    // ln(e^x − 1) = x + ln(1 − e^{−x}), x = (p/2)·ln(1/f), over p s: finite for any p > 0, ln(1/f)/(2 s) as p grows without bound.
+    const halfLn = 0.5 * Math.log(1 / EARLY_LIMIT_FRACTION);
+    endS = shaped.tcS - halfLn / sRate - Math.log1p(-Math.exp(-shaped.p * halfLn)) / (shaped.p * sRate);
   } else {
     // No valid curve: the fraction of the mean of the last tenth of the record, on a running mean of 5 samples.
     const from = Math.floor(0.9 * n);

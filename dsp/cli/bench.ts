@@ -550,6 +550,57 @@ function speed(): void {
   row('WAV reader alone, 16-bit 48 kHz mono', `${num(seconds / readS, 3)}× real time (${num(wav.length / 2 ** 20 / readS, 3)} MB/s)`, '—', 'info');
 }
 
+/**
+ * One hum cycle of `periodS` at 48 kHz: quiet, growth at 8 1/s from 1e-4 into a 0.3 limit cycle
+ * (Stuart–Landau), decay at 5 1/s, in −60 dBFS white noise. 171 Hz × period is a whole number of
+ * periods for the periods used, so the clip repeats without a phase jump.
+ */
+function humCycleClip(fs: number, periodS: number, seed: number): Float32Array {
+  const onsetS = Math.min(4, 0.25 * periodS);
+  const offS = onsetS + Math.min(20, 0.4 * periodS);
+  const cycle = humCycleEnvelope({ onsetS, startAmplitude: 1e-4, growthPerS: 8, limitAmplitude: 0.3, offS, decayPerS: 5 });
+  return synthesize({ sampleRateHz: fs, durationS: periodS, tones: [{ frequencyHz: 171, envelope: cycle }], noiseRms: 1e-3, seed });
+}
+
+/** Streams `cycles` repeats of a clip through one analysis in 4096-sample blocks; times push() and finish() apart. */
+function timeRecord(fs: number, clip: Float32Array, cycles: number): { pushS: number; finishS: number; report: Report } {
+  const a = createAnalysis({ sampleRateHz: fs });
+  let pushS = 0;
+  for (let c = 0; c < cycles; c++) {
+    const t0 = performance.now();
+    for (let o = 0; o < clip.length; o += 4096) a.push(clip.subarray(o, Math.min(clip.length, o + 4096)));
+    pushS += (performance.now() - t0) / 1000;
+  }
+  const t1 = performance.now();
+  const report = a.finish();
+  return { pushS, finishS: (performance.now() - t1) / 1000, report };
+}
+
+/** Whole records of many hum cycles: push + finish() against real time, and finish()'s share and cost per cycle. */
+function records(): void {
+  const fs = 48000;
+  const cases: [name: string, periodS: number, cycles: number, repeats: number][] = [
+    ['10-min record, 50 cycles', 12, 50, 3],
+    ['1-hour record, 60 cycles', 60, 60, 1],
+  ];
+  for (const [name, periodS, cycles, repeats] of cases) {
+    const clip = humCycleClip(fs, periodS, 31);
+    let best = { pushS: Infinity, finishS: Infinity, report: null as Report | null };
+    for (let r = 0; r < repeats; r++) {
+      const run = timeRecord(fs, clip, cycles);
+      if (run.pushS + run.finishS < best.pushS + best.finishS) best = run;
+    }
+    const seconds = periodS * cycles;
+    const wallS = best.pushS + best.finishS;
+    const speedX = seconds / wallS;
+    const share = best.finishS / wallS;
+    const onsets = best.report?.onsets.length ?? 0;
+    row(`${name}: push + finish(), 48 kHz mono`, `${num(speedX, 3)}× real time (${num(wallS, 3)} s)`, '≥ 1000×', speedX >= 1000 ? 'PASS' : 'MISS');
+    row(`${name}: finish() share of the total`, `${num(100 * share, 3)} % (${num(best.finishS * 1000, 3)} ms, ${num((best.finishS * 1000) / cycles, 3)} ms per cycle)`, '< 10 %', share < 0.1 ? 'PASS' : 'MISS');
+    row(`${name}: onsets found`, String(onsets), String(cycles), onsets === cycles ? 'PASS' : 'MISS');
+  }
+}
+
 function memory(): void {
   const fs = 48000;
   const seconds = 3600;
@@ -633,10 +684,11 @@ const SECTIONS: [name: string, title: string, fn: () => void][] = [
   ['onset', '2a. Onset announcement delay (10 Hz band, noise −50 dBFS, tone from 40 dB under the 6 dB point)', onsetDelay],
   ['false', '2b. False onsets', falseOnsets],
   ['speed', `3a. Speed (best of ${SPEED_REPEATS} runs)`, speed],
+  ['records', '3c. Whole records of many hum cycles (one thread)', records],
   ['noise', '4. Linear growth rate from noise (dsp/cli/bench-noise.ts)', () => noiseStatisticsBench(row)],
 ];
 
-/** `node dist-cli/bench.js [accuracy|rigs|onset|false|speed|memory|noise ...]`: all sections by default. */
+/** `node dist-cli/bench.js [accuracy|rigs|onset|false|speed|memory|records|noise ...]`: all sections by default. */
 function main(): void {
   const t0 = performance.now();
   const wanted = process.argv.slice(2);

@@ -2,8 +2,8 @@
  * `humgauge modes`: plane-wave modes of a duct from its length, diameter, ends and gas temperature
  * (uniform, with a heater splitting it into a cold and a hot zone, or a measured temperature
  * profile), the Rayleigh reading of the heater for each mode, and, given a measured tone, the
- * matching mode and the mean gas temperature it implies. Also holds the small argument helpers
- * that `humgauge simulate` shares.
+ * matching mode and the mean gas temperature it implies. Options follow the shared rules of
+ * options.ts; failWith and the profile reader are shared with `humgauge simulate`.
  */
 import { readFile } from 'node:fs/promises';
 import {
@@ -23,6 +23,49 @@ import {
 import type { DuctGeometry } from '../types';
 import { num } from './format';
 import { CliError, EXIT, type CliIo } from './io';
+import {
+  HELP_OPTION,
+  MODEL_PARAMETER_OPTIONS,
+  choiceOption,
+  hasFlag,
+  numberOption,
+  optionsHelp,
+  parseCommandArgs,
+  quote,
+  textOption,
+  withOptionNames,
+  type OptionTable,
+} from './options';
+
+/** Options of `humgauge modes` (ranges of the model's own inputs are checked in dsp/duct.ts). */
+export const MODES_OPTIONS: OptionTable = {
+  length: { kind: 'number', value: 'M', unit: 'm', help: 'duct length, m (required)' },
+  diameter: { kind: 'number', value: 'M', unit: 'm', help: 'inner diameter, m (required)' },
+  ends: {
+    kind: 'choice',
+    value: 'KIND',
+    choices: ['open-open', 'closed-open', 'closed-closed'],
+    aliases: { 'open-closed': 'closed-open' },
+    help: 'open-open (default), closed-open (one end closed; open-closed is the\nsame), closed-closed',
+  },
+  'closed-end': { kind: 'choice', value: 'WHICH', choices: ['upstream', 'downstream'], help: 'for closed-open: upstream (default; closed at the bottom) or downstream' },
+  'open-end': { kind: 'choice', value: 'KIND', choices: ['unflanged', 'flanged', 'none'], help: 'end correction of open ends: unflanged (default, 0.6133 a),\nflanged (0.8216 a) or none' },
+  temp: { kind: 'number', value: 'C', unit: '°C', help: 'gas temperature, °C (default 20); below the heater with --heater' },
+  heater: { kind: 'number', value: 'M', unit: 'm', help: 'heater position from the upstream (lower) end, m' },
+  'hot-temp': { kind: 'number', value: 'C', unit: '°C', help: 'gas temperature above the heater, °C (with --heater)' },
+  flow: { kind: 'choice', value: 'DIR', choices: ['upward', 'downward', 'none'], help: 'mean flow through the heater: upward (default), downward, none' },
+  profile: { kind: 'text', value: 'FILE', help: 'temperature profile, CSV "x_m,temp_c" (linear between points)' },
+  // γ of gases lies between 1 (many atoms) and 5/3 (monatomic): kinetic theory, any physics text.
+  gamma: { kind: 'number', value: 'G', unit: '', min: 1, isMinExclusive: true, max: 1.67, help: 'ratio of specific heats, above 1 and at most 1.67 (5/3, a\nmonatomic gas); default 1.4, air' },
+  // From hydrogen (2.016 g/mol) to heavy refrigerant vapours (SF6 146 g/mol) with margin.
+  'molar-mass': { kind: 'number', value: 'G_MOL', unit: 'g/mol', min: 2, max: 400, help: 'molar mass, g/mol, 2 to 400 (default: air, R = 287.05 J/(kg K))' },
+  count: { kind: 'number', value: 'N', unit: '', min: 1, max: 200, isInteger: true, help: 'number of modes (default 5, at most 200)' },
+  measured: { kind: 'number', value: 'HZ', unit: 'Hz', help: 'a measured tone: matching mode and inferred mean gas temperature' },
+  'measured-std': { kind: 'number', value: 'HZ', unit: 'Hz', help: 'standard uncertainty of the measured frequency (default 0.5 Hz)' },
+  'length-std': { kind: 'number', value: 'M', unit: 'm', help: 'standard uncertainty of the length (default 0.005 m)' },
+  json: { kind: 'flag', help: 'print JSON: { "modes": [{ "n", "frequencyHz", ... }], ... }' },
+  help: HELP_OPTION,
+};
 
 export const MODES_HELP = `Usage: humgauge modes --length M --diameter M [options]
 
@@ -31,83 +74,20 @@ gas temperature; with a heater, the duct is split into a cold zone below it and
 a hot zone above it and solved by transfer matrices.
 
 Options
-  --length M            duct length, m (required)
-  --diameter M          inner diameter, m (required)
-  --ends KIND           open-open (default), open-closed, closed-closed
-  --closed-end WHICH    for open-closed: upstream (default; closed at the bottom) or downstream
-  --open-end KIND       end correction of open ends: unflanged (default, 0.6133 a),
-                        flanged (0.8216 a) or none
-  --temp C              gas temperature, °C (default 20); below the heater with --heater
-  --heater M            heater position from the upstream (lower) end, m
-  --hot-temp C          gas temperature above the heater, °C (with --heater)
-  --flow DIR            mean flow through the heater: upward (default), downward, none
-  --profile FILE        temperature profile, CSV "x_m,temp_c" (linear between points)
-  --gamma G             ratio of specific heats (default 1.4, air)
-  --molar-mass G_MOL    molar mass, g/mol (default: air, R = 287.05 J/(kg K))
-  --count N             number of modes (default 5, at most 200)
-  --measured HZ         a measured tone: matching mode and inferred mean gas temperature
-  --measured-std HZ     standard uncertainty of the measured frequency (default 0.5 Hz)
-  --length-std M        standard uncertainty of the length (default 0.005 m)
-  --json                print JSON: { "modes": [{ "n", "frequencyHz", ... }], ... }
-  -h, --help            this text
-
+${optionsHelp(MODES_OPTIONS)}
 Example
   humgauge modes --length 1.2 --diameter 0.048 --temp 20
   humgauge modes --length 1 --diameter 0.04 --heater 0.25 --hot-temp 200 --open-end none
   humgauge modes --length 1.2 --diameter 0.048 --measured 171 --json
 `;
 
-/** Splits `--name value` / `--name=value` / `--flag` arguments; names in `flags` take no value. */
-export function parseOptions(args: string[], known: string[], flags: string[]): Map<string, string> {
-  const out = new Map<string, string>();
-  for (let i = 0; i < args.length; i++) {
-    const a = args[i];
-    if (a === '-h' || a === '--help') {
-      out.set('help', '');
-      continue;
-    }
-    if (!a.startsWith('--')) throw new CliError(`unexpected argument "${a}" (see --help)`, EXIT.USAGE);
-    const eq = a.indexOf('=');
-    const name = eq > 0 ? a.slice(2, eq) : a.slice(2);
-    if (!known.includes(name) && !flags.includes(name)) throw new CliError(`unknown option --${name} (see --help)`, EXIT.USAGE);
-    if (flags.includes(name)) {
-      out.set(name, '');
-      continue;
-    }
-    const value = eq > 0 ? a.slice(eq + 1) : args[++i];
-    if (value === undefined || value === '') throw new CliError(`--${name} needs a value`, EXIT.USAGE);
-    if (out.has(name)) throw new CliError(`--${name} given twice`, EXIT.USAGE);
-    out.set(name, value);
-  }
-  return out;
-}
-
-/** A finite number from option `name`, or undefined when absent; BAD_PARAMETER if it is not a number. */
-export function numberOption(opts: Map<string, string>, name: string, unit: string): number | undefined {
-  const raw = opts.get(name);
-  if (raw === undefined) return undefined;
-  const v = Number(raw);
-  if (raw.trim() === '' || !Number.isFinite(v)) throw new CliError(`--${name} must be a number${unit ? ` of ${unit}` : ''}, got "${raw}"`, EXIT.BAD_PARAMETER);
-  return v;
-}
-
-/** One of the allowed words for option `name` (USAGE otherwise). */
-export function choiceOption<T extends string>(opts: Map<string, string>, name: string, allowed: readonly T[], fallback: T): T {
-  const raw = opts.get(name);
-  if (raw === undefined) return fallback;
-  if (!(allowed as readonly string[]).includes(raw)) throw new CliError(`--${name} must be one of ${allowed.join(', ')}, got "${raw}"`, EXIT.USAGE);
-  return raw as T;
-}
-
 /**
  * One line on stderr and the exit code: model RangeErrors become BAD_PARAMETER, root-finder
  * failures NO_CONVERGENCE. `names` maps the model's parameter names to the command's options.
  */
-export function failWith(e: unknown, io: CliIo, command: string, names: Record<string, string> = {}): number {
+export function failWith(e: unknown, io: CliIo, command: string, names: Readonly<Record<string, string>> = MODEL_PARAMETER_OPTIONS): number {
   if (e instanceof RangeError) {
-    let msg = e.message;
-    for (const [from, to] of Object.entries(names)) msg = msg.replace(new RegExp(`\\b${from}\\b`, 'g'), to);
-    io.err(`humgauge ${command}: ${msg}\n`);
+    io.err(`humgauge ${command}: ${withOptionNames(e.message, names)}\n`);
     return /root finder|converge/.test(e.message) ? EXIT.NO_CONVERGENCE : EXIT.BAD_PARAMETER;
   }
   if (e instanceof CliError) {
@@ -140,56 +120,43 @@ export function parseProfileCsv(text: string): ProfilePoint[] {
   return points;
 }
 
-/** Model parameter → option, for messages (units agree). */
-const OPTION_NAMES: Record<string, string> = {
-  lengthM: '--length',
-  diameterM: '--diameter',
-  gasTemperatureC: '--temp',
-  heaterPositionM: '--heater',
-  hotTemperatureC: '--hot-temp',
-  measuredHz: '--measured',
-  frequencyStdHz: '--measured-std',
-  lengthStdM: '--length-std',
-  heaterXM: '--heater',
-};
-
-const KNOWN = ['length', 'diameter', 'ends', 'closed-end', 'open-end', 'temp', 'heater', 'hot-temp', 'flow', 'profile', 'gamma', 'molar-mass', 'count', 'measured', 'measured-std', 'length-std'];
-
 /** Runs `humgauge modes`; returns the exit code. */
 export async function runModes(args: string[], io: CliIo): Promise<number> {
   try {
-    const o = parseOptions(args, KNOWN, ['json']);
-    if (o.has('help')) {
+    const o = parseCommandArgs('modes', MODES_OPTIONS, args);
+    if (o.positionals.length > 0) throw new CliError(`unexpected argument "${quote(o.positionals[0])}" (see humgauge modes --help)`, EXIT.USAGE);
+    if (hasFlag(o, 'help')) {
       io.out(MODES_HELP);
       return EXIT.OK;
     }
-    const lengthM = numberOption(o, 'length', 'm');
-    const diameterM = numberOption(o, 'diameter', 'm');
+    const lengthM = numberOption(o, 'length');
+    const diameterM = numberOption(o, 'diameter');
     if (lengthM === undefined) throw new CliError('--length is required (duct length in m)', EXIT.USAGE);
     if (diameterM === undefined) throw new CliError('--diameter is required (inner diameter in m)', EXIT.USAGE);
-    const ends = choiceOption(o, 'ends', ['open-open', 'open-closed', 'closed-closed'] as const, 'open-open');
-    const closedEnd = choiceOption(o, 'closed-end', ['upstream', 'downstream'] as const, 'upstream');
-    const openEnd = choiceOption(o, 'open-end', ['unflanged', 'flanged', 'none'] as const, 'unflanged');
-    const flow = choiceOption(o, 'flow', ['upward', 'downward', 'none'] as const, 'upward') as MeanFlow;
-    const gasTemperatureC = numberOption(o, 'temp', '°C') ?? 20;
-    const heaterPositionM = numberOption(o, 'heater', 'm');
-    const hotTemperatureC = numberOption(o, 'hot-temp', '°C');
-    const count = numberOption(o, 'count', '') ?? 5;
-    if (!Number.isInteger(count) || count < 1 || count > 200) throw new CliError(`--count must be a whole number from 1 to 200, got ${count}`, EXIT.BAD_PARAMETER);
-    const gamma = numberOption(o, 'gamma', '');
-    const molarMassG = numberOption(o, 'molar-mass', 'g/mol');
+    const endsWord = choiceOption<'open-open' | 'closed-open' | 'closed-closed'>(o, 'ends', 'open-open');
+    // The model's name for one closed end is 'open-closed'; which end is closed is --closed-end.
+    const ends = endsWord === 'closed-open' ? 'open-closed' : endsWord;
+    const closedEnd = choiceOption<'upstream' | 'downstream'>(o, 'closed-end', 'upstream');
+    const openEnd = choiceOption<'unflanged' | 'flanged' | 'none'>(o, 'open-end', 'unflanged');
+    const flow = choiceOption<MeanFlow>(o, 'flow', 'upward');
+    const gasTemperatureC = numberOption(o, 'temp') ?? 20;
+    const heaterPositionM = numberOption(o, 'heater');
+    const hotTemperatureC = numberOption(o, 'hot-temp');
+    const count = numberOption(o, 'count') ?? 5;
+    const gamma = numberOption(o, 'gamma');
+    const molarMassG = numberOption(o, 'molar-mass');
     let gas: GasProperties = AIR;
     if (gamma !== undefined || molarMassG !== undefined) {
       gas = gasFromMolarMass(gamma ?? AIR.gamma, molarMassG !== undefined ? molarMassG / 1000 : 8.314462618 / AIR.specificGasConstantJPerKgK);
     }
-    if (o.has('profile') && (heaterPositionM !== undefined || hotTemperatureC !== undefined)) {
+    if (o.values.has('profile') && (heaterPositionM !== undefined || hotTemperatureC !== undefined)) {
       throw new CliError('--profile and --heater/--hot-temp exclude each other', EXIT.USAGE);
     }
     const geom: DuctGeometry = { lengthM, diameterM, ends, openEnd, gasTemperatureC, heaterPositionM, hotTemperatureC };
     if (heaterPositionM === undefined) delete geom.heaterPositionM;
     if (hotTemperatureC === undefined) delete geom.hotTemperatureC;
     let model: DuctModel = { ...ductModelFromGeometry(geom, gas), closedEnd };
-    const profilePath = o.get('profile');
+    const profilePath = textOption(o, 'profile');
     if (profilePath !== undefined) {
       let text: string;
       try {
@@ -202,14 +169,14 @@ export async function runModes(args: string[], io: CliIo): Promise<number> {
     const pred = predictModes(model, count);
     const heaterX = heaterPositionM;
     const rayleigh = heaterX === undefined ? null : pred.modes.map((m) => rayleighReading(model, m.frequencyHz, heaterX, flow));
-    const measuredHz = numberOption(o, 'measured', 'Hz');
+    const measuredHz = numberOption(o, 'measured');
     const match =
       measuredHz === undefined
         ? null
-        : matchMeasuredFrequency(model, measuredHz, { frequencyStdHz: numberOption(o, 'measured-std', 'Hz') ?? 0.5, lengthStdM: numberOption(o, 'length-std', 'm') ?? 0.005 }, Math.max(count, 12));
+        : matchMeasuredFrequency(model, measuredHz, { frequencyStdHz: numberOption(o, 'measured-std') ?? 0.5, lengthStdM: numberOption(o, 'length-std') ?? 0.005 }, Math.max(count, 12));
     const cEnds = model.zones.map((z) => speedOfSoundMPerS(z.temperatureC, gas));
     const warnings = [...pred.warnings, ...(match ? match.warnings.filter((w) => !pred.warnings.includes(w)) : [])];
-    if (o.has('json')) {
+    if (hasFlag(o, 'json')) {
       const json = {
         modes: pred.modes.map((m, i) => ({
           n: m.n,
@@ -242,7 +209,7 @@ export async function runModes(args: string[], io: CliIo): Promise<number> {
     }
     const lines: string[] = [];
     const cText = cEnds.length === 1 ? `${num(cEnds[0], 5)} m/s` : `${num(Math.min(...cEnds), 5)} to ${num(Math.max(...cEnds), 5)} m/s`;
-    lines.push(`Duct ${num(lengthM, 4)} m long, ${num(diameterM * 1000, 4)} mm inner diameter, ${ends}${ends === 'open-closed' ? ` (closed ${closedEnd})` : ''}, open ends ${openEnd}`);
+    lines.push(`Duct ${num(lengthM, 4)} m long, ${num(diameterM * 1000, 4)} mm inner diameter, ${endsWord}${endsWord === 'closed-open' ? ` (closed ${closedEnd})` : ''}, open ends ${openEnd}`);
     lines.push(`Speed of sound ${cText}; effective length ${num(pred.effectiveLengthM, 5)} m; cross-mode cut-on ${num(pred.cutOnHz, 4)} Hz`);
     lines.push(`Solved by ${pred.method === 'closed-form' ? 'the closed form f = κ c / L_eff' : 'transfer matrices and Brent root finding'}`);
     lines.push('');
@@ -266,6 +233,6 @@ export async function runModes(args: string[], io: CliIo): Promise<number> {
     io.out(lines.join('\n') + '\n');
     return EXIT.OK;
   } catch (e) {
-    return failWith(e, io, 'modes', OPTION_NAMES);
+    return failWith(e, io, 'modes');
   }
 }

@@ -9,6 +9,7 @@
  * RF64 files (EBU Tech 3306) read as RIFF whose data chunk runs to the end of the file.
  */
 
+import { MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ } from '../condition';
 import { InputError, SILENCE_PEAK_FS, checkDuration } from './errors';
 
 /** Sample format of a WAV file, known once its fmt chunk has been read. */
@@ -80,8 +81,6 @@ const FORMAT_NAMES: Record<number, string> = {
 /** Bytes 2..15 of every WAVE_FORMAT_EXTENSIBLE subformat GUID built from a format tag (KSDATAFORMAT_SUBTYPE_*). */
 const GUID_TAIL = [0x00, 0x00, 0x00, 0x00, 0x10, 0x00, 0x80, 0x00, 0x00, 0xaa, 0x00, 0x38, 0x9b, 0x71];
 
-const MIN_RATE_HZ = 8000;
-const MAX_RATE_HZ = 192000;
 const MAX_FMT_BYTES = 1 << 16;
 const UNKNOWN_SIZE = 0xffffffff;
 
@@ -198,8 +197,8 @@ export function createWavDecoder(options: WavDecodeOptions = {}): WavDecoder {
       throw new InputError('unsupported-encoding', `unsupported encoding: ${name ? `${name}, ${tagText}` : tagText}; convert to PCM or float WAV`);
     }
     if (channelCount < 1) throw new InputError('bad-header', 'fmt chunk declares 0 channels');
-    if (sampleRateHz < MIN_RATE_HZ || sampleRateHz > MAX_RATE_HZ) {
-      throw new InputError('unsupported-encoding', `sample rate ${sampleRateHz} Hz is outside ${MIN_RATE_HZ / 1000}–${MAX_RATE_HZ / 1000} kHz`);
+    if (sampleRateHz < MIN_SAMPLE_RATE_HZ || sampleRateHz > MAX_SAMPLE_RATE_HZ) {
+      throw new InputError('unsupported-encoding', `sample rate ${sampleRateHz} Hz is outside the ${MIN_SAMPLE_RATE_HZ} Hz to ${MAX_SAMPLE_RATE_HZ / 1000} kHz the analysis reads`);
     }
     if (bitsPerSample < 1) throw new InputError('bad-header', 'fmt chunk declares 0 bits per sample');
     if (blockAlign === 0 || blockAlign % channelCount !== 0) {
