@@ -30,6 +30,7 @@ import { encodeWav } from '../io/wav-write';
 import { createRng, humCycleEnvelope, synthesize, type EnvelopeFn, type Rng } from '../synth';
 import type { Analysis, EnvelopeSeries, Report, Segment } from '../types';
 import { analyzeMany } from './batch';
+import { noiseStatisticsBench } from './bench-noise';
 import { num, renderTable } from './format';
 
 type Verdict = 'PASS' | 'MISS' | 'info';
@@ -740,9 +741,10 @@ const SECTIONS: [name: string, title: string, fn: () => void | Promise<void>][] 
   ['speed', `3a. Speed (best of ${SPEED_REPEATS} runs)`, speed],
   ['records', '3c. Whole records of many hum cycles (one thread)', records],
   ['archives', '3d. Archives on every core (humgauge analyze FOLDER, worker threads)', archives],
+  ['noise', '4. Linear growth rate from noise (dsp/cli/bench-noise.ts)', () => noiseStatisticsBench(row)],
 ];
 
-/** `node dist-cli/bench.js [accuracy|rigs|onset|false|speed|memory|records|archives ...]`: all sections by default. */
+/** `node dist-cli/bench.js [accuracy|rigs|onset|false|speed|memory|records|archives|noise ...]`: all sections by default. */
 async function main(): Promise<void> {
   const t0 = performance.now();
   const wanted = process.argv.slice(2);
