@@ -24,6 +24,7 @@ import { computeSpectrumFrame, createSpectrumState, feedSpectrum, resetSpectrumF
 import { createTimeBase, jAtTime, rebaseAfterGap, timeOfJ, type TimeBase } from './time-base';
 import { createToneEnvelope, ENVELOPE_RATE_HZ } from './tone-store';
 import { advanceRegime, breakTones, createToneSet, maxEnvelopeChunk, resumeTonesAfterGap, retireIdleTones, stepToneEnvelopes, stepTonesAtFrame, type ToneSet } from './tones';
+import { quantisationFloorDbfs } from './levels';
 import { isMainsLine } from './track';
 import type { Analysis, AnalysisConfig, AnalysisUpdate, ClippedSpan, Marker, Report } from './types';
 
@@ -55,6 +56,7 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
     sampleRateHz: config.sampleRateHz,
     bandLowHz: config.bandLowHz ?? 20,
     bandHighHz: config.bandHighHz ?? 4000,
+    sampleBits: config.sampleBits ?? 0,
   };
   const cond = createConditionState(cfg);
   const fsA = cond.outputRateHz;
@@ -222,7 +224,9 @@ function finish(ps: PipelineState): Report {
     relabelNoiseSegments(tr);
     if (tr.isSteadyLine) reclaimMainsTone(tr);
   }
-  const grouping = groupTones(all, spec.binHz);
+  // A line that never rises above the input format's quantisation error may be a product of quantising a strong tone.
+  const floorPower = ps.cfg.sampleBits > 0 ? 10 ** (quantisationFloorDbfs(ps.cfg.sampleBits) / 10) : 0;
+  const grouping = groupTones(all, spec.binHz, floorPower);
   const others = [...tones.alive, ...tones.retired];
   const fitted: FittedSegment[] = [];
   for (const tr of all) {

@@ -74,13 +74,13 @@ export interface Run {
 /** Called with the fraction of the input read and its duration in s (when known). */
 export type ProgressFn = (fraction: number, totalS: number) => void;
 
-function makeAnalysis(s: AnalyzeSettings, sampleRateHz: number): Analysis {
+function makeAnalysis(s: AnalyzeSettings, sampleRateHz: number, sampleBits = 0): Analysis {
   const nyquist = sampleRateHz / 2;
   if (s.bandHighHz !== undefined && s.bandHighHz >= nyquist) {
     throw new CliError(`--band up to ${s.bandHighHz} Hz is above half the sample rate (${nyquist} Hz)`, EXIT.BAD_PARAMETER);
   }
   try {
-    return createAnalysis({ sampleRateHz, bandLowHz: s.bandLowHz, bandHighHz: s.bandHighHz });
+    return createAnalysis({ sampleRateHz, bandLowHz: s.bandLowHz, bandHighHz: s.bandHighHz, sampleBits });
   } catch (e) {
     if (e instanceof RangeError) throw new CliError(withOptionNames(e.message), EXIT.BAD_PARAMETER);
     throw e;
@@ -105,7 +105,7 @@ async function analyzeWav(input: Input, s: AnalyzeSettings, progress: ProgressFn
     const fmt = dec.format;
     if (analysis === null && fmt !== null) {
       const f: WavFormat = fmt;
-      analysis = makeAnalysis(s, f.sampleRateHz);
+      analysis = makeAnalysis(s, f.sampleRateHz, f.isFloat ? 0 : f.bitsPerSample);
       totalS = input.size !== null ? input.size / f.blockAlign / f.sampleRateHz : 0;
     }
     if (block.length > 0 && analysis !== null) {

@@ -12,11 +12,14 @@
  *    streaming analysis announces the onset, in e-folding times; false onsets on toneless noise
  *    with ±10 dB loudness steps and on steady 50/60 Hz mains hum with harmonics.
  * 3. Speed on one thread (48 kHz mono): audio seconds per wall second, the ratio to a bare fft.js
- *    pass at the same frame rate, and peak memory streaming a 1-hour WAV through reader + pipeline.
+ *    pass at the same frame rate, and peak memory streaming a 1-hour WAV through reader + pipeline;
+ *    archives: files per second of `humgauge analyze FOLDER` on 1, 2 and all cores.
  */
 
 import FFT from 'fft.js';
-import { cpus, loadavg } from 'node:os';
+import { mkdtemp, rm, writeFile } from 'node:fs/promises';
+import { availableParallelism, cpus, loadavg, tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
 import { crlbDampedTone } from '../crlb';
 import { fitExponential, fitSaturation, landauAmplitude } from '../fit';
@@ -26,6 +29,8 @@ import { createWavDecoder } from '../io/wav';
 import { encodeWav } from '../io/wav-write';
 import { createRng, humCycleEnvelope, synthesize, type EnvelopeFn, type Rng } from '../synth';
 import type { Analysis, EnvelopeSeries, Report, Segment } from '../types';
+import { analyzeMany } from './batch';
+import { noiseStatisticsBench } from './bench-noise';
 import { num, renderTable } from './format';
 
 type Verdict = 'PASS' | 'MISS' | 'info';
@@ -55,10 +60,10 @@ function printSection(title: string, sectionRows: Row[]): void {
   );
 }
 
-function section(title: string, fn: () => void): void {
+async function section(title: string, fn: () => void | Promise<void>): Promise<void> {
   const start = rows.length;
   const t0 = performance.now();
-  fn();
+  await fn();
   printSection(`${title}  (${((performance.now() - t0) / 1000).toFixed(1)} s)`, rows.slice(start));
 }
 
@@ -673,10 +678,61 @@ function memory(): void {
   row('1-hour file: onsets found (one hum cycle a minute)', String(report.onsets.length), '60', report.onsets.length === 60 ? 'PASS' : 'MISS');
 }
 
+/** Files in the archive row and their length, s (issue target: 100 one-minute files). */
+const ARCHIVE_FILES = 100;
+const ARCHIVE_FILE_S = 60;
+
+/**
+ * 3d. Archives: `humgauge analyze FOLDER` on 100 one-minute 16 kHz 16-bit recordings (a hum cycle
+ * in each), files per second on 1, 2 and all cores (worker threads, dsp/cli/batch.ts). Needs the
+ * built worker script beside bench.js (npm run bench:cli); files go to the system's temp folder.
+ */
+async function archives(): Promise<void> {
+  const fs = 16000;
+  const dir = await mkdtemp(join(tmpdir(), 'humgauge-bench-'));
+  try {
+    const files: string[] = [];
+    const distinct = Array.from({ length: 4 }, (_, k) =>
+      encodeWav(
+        synthesize({
+          sampleRateHz: fs,
+          durationS: ARCHIVE_FILE_S,
+          tones: [{ frequencyHz: 150 + 20 * k, envelope: humCycleEnvelope({ onsetS: 15, startAmplitude: 1e-5, growthPerS: 8, limitAmplitude: 0.3, offS: 40, decayPerS: 5 }) }],
+          noiseRms: 1e-3,
+          seed: 50 + k,
+        }),
+        fs,
+        'pcm16',
+      ),
+    );
+    for (let i = 0; i < ARCHIVE_FILES; i++) {
+      const f = join(dir, `log-${String(i).padStart(3, '0')}.wav`);
+      await writeFile(f, distinct[i % distinct.length]);
+      files.push(f);
+    }
+    const all = availableParallelism();
+    const settings = { keepTrack: false };
+    for (const jobs of [...new Set([1, 2, all])]) {
+      const t0 = performance.now();
+      const outcomes = await analyzeMany(files, settings, jobs);
+      const wallS = (performance.now() - t0) / 1000;
+      const failed = outcomes.filter((o) => !o.ok).length;
+      row(
+        `${ARCHIVE_FILES} one-minute files, ${jobs === 1 ? 'one thread' : `${jobs} worker threads`}${jobs === all ? ' (all cores)' : ''}`,
+        `${num(ARCHIVE_FILES / wallS, 3)} files/s (${num((ARCHIVE_FILES * ARCHIVE_FILE_S) / wallS, 3)}× real time)${failed > 0 ? `, ${failed} failed` : ''}`,
+        '—',
+        'info',
+      );
+    }
+  } finally {
+    await rm(dir, { recursive: true, force: true });
+  }
+}
+
 // ---------------------------------------------------------------------------------------------
 
 /** Memory runs first, while the process holds nothing else (RSS never shrinks back). */
-const SECTIONS: [name: string, title: string, fn: () => void][] = [
+const SECTIONS: [name: string, title: string, fn: () => void | Promise<void>][] = [
   ['memory', '3b. Memory (run first, in a fresh process)', memory],
   ['accuracy', '1. Accuracy against the Cramér–Rao bound', accuracy],
   ['rigs', '1b. Simulated rigs: growth rate against the characteristic equation (5 seeds each)', simulatedRigs],
@@ -684,10 +740,12 @@ const SECTIONS: [name: string, title: string, fn: () => void][] = [
   ['false', '2b. False onsets', falseOnsets],
   ['speed', `3a. Speed (best of ${SPEED_REPEATS} runs)`, speed],
   ['records', '3c. Whole records of many hum cycles (one thread)', records],
+  ['archives', '3d. Archives on every core (humgauge analyze FOLDER, worker threads)', archives],
+  ['noise', '4. Linear growth rate from noise (dsp/cli/bench-noise.ts)', () => noiseStatisticsBench(row)],
 ];
 
-/** `node dist-cli/bench.js [accuracy|rigs|onset|false|speed|memory ...]`: all sections by default. */
-function main(): void {
+/** `node dist-cli/bench.js [accuracy|rigs|onset|false|speed|memory|records|archives|noise ...]`: all sections by default. */
+async function main(): Promise<void> {
   const t0 = performance.now();
   const wanted = process.argv.slice(2);
   const unknown = wanted.filter((w) => !SECTIONS.some(([name]) => name === w));
@@ -699,10 +757,10 @@ function main(): void {
   const load = loadavg().map((l) => l.toFixed(1)).join(' ');
   out(`humgauge bench — Node ${process.version}, ${cpus().length} CPU(s), load average ${load}, ${new Date().toISOString()}\n`);
   out('Speed figures are one thread; other load on the machine lowers them.\n');
-  for (const [name, title, fn] of SECTIONS) if (wanted.length === 0 || wanted.includes(name)) section(title, fn);
+  for (const [name, title, fn] of SECTIONS) if (wanted.length === 0 || wanted.includes(name)) await section(title, fn);
   const pass = rows.filter((r) => r.verdict === 'PASS').length;
   const miss = rows.filter((r) => r.verdict === 'MISS').length;
   out(`\nbench: ${pass} PASS, ${miss} MISS, ${((performance.now() - t0) / 1000).toFixed(0)} s\n`);
 }
 
-main();
+void main();

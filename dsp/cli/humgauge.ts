@@ -32,7 +32,7 @@ Exit codes
   4  empty or truncated file
   5  broken RIFF/WAVE header, or neither WAV nor CSV
   6  unsupported encoding (A-law, µ-law, ADPCM, other format tags, rate outside 0.5-192 kHz)
-  7  NaN or infinite samples
+  7  NaN or infinite samples (or values past the 32-bit float range), WAV or CSV
   8  too short (under 0.5 s)
   9  silent (all zeros, or peak below -90 dBFS; a constant CSV)
   10 unreadable CSV line (text in a number field, missing value, time not rising, irregular steps)

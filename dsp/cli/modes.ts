@@ -5,7 +5,6 @@
  * matching mode and the mean gas temperature it implies. Options follow the shared rules of
  * options.ts; failWith and the profile reader are shared with `humgauge simulate`.
  */
-import { readFile } from 'node:fs/promises';
 import {
   ABSOLUTE_ZERO_C,
   AIR,
@@ -20,11 +19,11 @@ import {
   type DuctModel,
   type GasProperties,
   type MeanFlow,
-  type ProfilePoint,
 } from '../duct';
 import { matchMeasuredFrequency, type MeasuredMatch } from '../duct-match';
 import type { DuctGeometry } from '../types';
 import { num } from './format';
+import { readProfile } from './profile';
 import { CliError, EXIT, type CliIo } from './io';
 import {
   HELP_OPTION,
@@ -102,26 +101,7 @@ export function failWith(e: unknown, io: CliIo, command: string, names: Readonly
   return EXIT.INTERNAL;
 }
 
-/** Parses a profile CSV "x_m,temp_c" (optional header line, '#' comments); BAD_CSV with the line number on error. */
-export function parseProfileCsv(text: string): ProfilePoint[] {
-  const points: ProfilePoint[] = [];
-  const lines = text.split(/\r?\n/);
-  for (let i = 0; i < lines.length; i++) {
-    const line = lines[i].trim();
-    if (line === '' || line.startsWith('#')) continue;
-    const cells = line.split(/[,;\t]/).map((c) => c.trim());
-    if (cells.length < 2) throw new CliError(`profile line ${i + 1}: expected "x_m,temp_c", got "${line}"`, EXIT.BAD_CSV);
-    const x = Number(cells[0]);
-    const t = Number(cells[1]);
-    if (!Number.isFinite(x) || !Number.isFinite(t) || cells[0] === '' || cells[1] === '') {
-      if (points.length === 0 && Number.isNaN(x)) continue; // header line
-      throw new CliError(`profile line ${i + 1}: "${line}" is not two numbers`, EXIT.BAD_CSV);
-    }
-    points.push({ xM: x, temperatureC: t });
-  }
-  if (points.length === 0) throw new CliError('profile: no data rows (expected lines "x_m,temp_c")', EXIT.BAD_CSV);
-  return points;
-}
+export { parseProfileCsv } from './profile';
 
 /** Readable lines for a measured tone: the best plausible mode, then every candidate with the temperature it implies. */
 export function measuredLines(match: MeasuredMatch, measuredHz: number): string[] {
@@ -188,13 +168,7 @@ export async function runModes(args: string[], io: CliIo): Promise<number> {
     let model: DuctModel = { ...ductModelFromGeometry(geom, gas), closedEnd };
     const profilePath = textOption(o, 'profile');
     if (profilePath !== undefined) {
-      let text: string;
-      try {
-        text = await readFile(profilePath, 'utf8');
-      } catch (e) {
-        throw new CliError(`${profilePath}: cannot be read (${(e as { code?: string }).code ?? 'error'})`, EXIT.UNREADABLE);
-      }
-      model = { ...model, zones: zonesFromProfile(parseProfileCsv(text), lengthM) };
+      model = { ...model, zones: zonesFromProfile(await readProfile(profilePath), lengthM) };
     }
     const pred = predictModes(model, count);
     const heaterX = heaterPositionM;

@@ -169,8 +169,8 @@ export const mountListenScreen: MountScreen = (root, app) => {
   function ensurePlots(): void {
     if (plots) return;
     plots = createLivePlots(plotHost, model.buffer, () => model.bandHighHz);
-    spectrogram = createSpectrogram(plotHost, model.buffer, () => [model.bandLowHz, model.bandHighHz]);
-    spectrogram.clear();
+    spectrogram = createSpectrogram(plotHost, model.buffer, () => model.inputKind !== 'microphone');
+    spectrogram.redraw();
   }
 
   function startDrawing(): void {
@@ -183,7 +183,8 @@ export const mountListenScreen: MountScreen = (root, app) => {
     rafId = 0;
     // One last full draw so the final state stays on screen.
     model.buffer.version++;
-    plots?.draw();
+    plots?.redraw();
+    spectrogram?.redraw();
     clock.textContent = formatClock(model.timeS);
   }
 
@@ -202,7 +203,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
   });
   controller.on('reset', () => {
     markers.clearPlaced();
-    spectrogram?.clear();
+    spectrogram?.redraw();
     resultHost.hidden = true;
     resultHost.replaceChildren();
   });
@@ -241,12 +242,15 @@ export const mountListenScreen: MountScreen = (root, app) => {
     const options = fileOptions();
     if (file && options) void controller.openFile(file, runMeta(), options);
   });
-  window.addEventListener('resize', () => plots?.resize());
+  window.addEventListener('resize', () => {
+    plots?.resize();
+    spectrogram?.redraw();
+  });
   app.onShow('listen', () => {
     renderDuctChoice();
     plots?.resize();
-    model.buffer.version++;
-    plots?.draw();
+    plots?.redraw();
+    spectrogram?.redraw();
   });
   ensurePlots();
   readouts.update(readoutInput());
