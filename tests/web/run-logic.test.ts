@@ -4,7 +4,7 @@ import { classifyMargin, dampingRatioOf, formatQuietMargin, NEAR_THRESHOLD_DAMPI
 import { paFromSplDb, sensorOffsetDb } from '../../web/run/sensor';
 import { cyclesOf } from '../../web/run/cycles';
 import { emptyLiveSummary } from '../../web/worker/live-summary';
-import { formatPa } from '../../web/format';
+import { formatPa, formatQ, formatRatio } from '../../web/format';
 import { splitInterval } from '../../web/views/live-readouts';
 import { isPascalColumn } from '../../web/capture/file-input';
 import type { NoiseDriven, Report, Segment, Summary } from '../../dsp/types';
@@ -190,6 +190,13 @@ describe('readout layout', () => {
   it('splits a value from its interval so the interval can sit unbroken on its own line', () => {
     expect(splitInterval('7.02 1/s (95 % CI 6.80–7.25)')).toEqual(['7.02 1/s', '(95 % CI 6.80–7.25)']);
     expect(splitInterval('171.3 Hz')).toEqual(['171.3 Hz', '']);
+  });
+
+  it('gives a narrow interval of ζ or Q the decimals that tell its ends apart', () => {
+    // Field screenshot: "0.00418 (95 % CI 0.00418–0.00418)" said nothing about the interval.
+    expect(formatRatio(0.00418, [0.004177, 0.004183])).toBe('0.004180 (95 % CI 0.004177–0.004183)');
+    expect(formatQ(120, [119.6, 120.4])).toBe('120.0 (95 % CI 119.6–120.4)');
+    expect(formatQ(107, [92, 128])).toBe('107 (95 % CI 92–128)');
   });
 });
 
