@@ -94,10 +94,12 @@ export async function decodeAudioFile(file: File, options: FileOptions = {}): Pr
         notes: summary.warnings,
       };
     } catch (err) {
-      // An encoding our reader does not handle may still be one the browser decodes.
+      // An encoding our reader does not handle may still be one the browser decodes; either way
+      // the user is told which encoding it is, in the reader's words (as the command line says it).
       if (!(err instanceof InputError && err.problem === 'unsupported-encoding')) {
         throw new FileProblem(`“${name}” is a WAV file the analysis cannot use: ${err instanceof Error ? err.message : String(err)}.`);
       }
+      return decodeWithBrowser(name, bytes, err.message);
     }
   } else if (isCsvName(name)) {
     try {
@@ -136,8 +138,19 @@ export async function decodeAudioFile(file: File, options: FileOptions = {}): Pr
   return decodeWithBrowser(name, bytes);
 }
 
-async function decodeWithBrowser(name: string, bytes: Uint8Array): Promise<DecodedFile> {
+/**
+ * Decodes with the browser's decoder. `wavProblem` is the WAV reader's description of an encoding
+ * it does not read (the file is a WAV), so every message and note names that encoding.
+ */
+async function decodeWithBrowser(name: string, bytes: Uint8Array, wavProblem?: string): Promise<DecodedFile> {
+  const refuse = (why: string): FileProblem =>
+    new FileProblem(
+      wavProblem
+        ? `“${name}” is a WAV file in an encoding the analysis does not read (${wavProblem}), and ${why}.`
+        : `“${name}” could not be decoded: ${why}. Open a WAV file (PCM or float), a CSV pressure table, or a common audio format such as MP3, M4A/AAC, Ogg/Opus or FLAC.`,
+    );
   if (typeof OfflineAudioContext === 'undefined') {
+    if (wavProblem) throw refuse('this browser has no audio decoder to try instead');
     throw new FileProblem(`“${name}” is not a WAV or CSV file, and this browser has no audio decoder to open it.`);
   }
   const context = new OfflineAudioContext({ numberOfChannels: 1, length: 1, sampleRate: BROWSER_DECODE_RATE_HZ });
@@ -146,19 +159,24 @@ async function decodeWithBrowser(name: string, bytes: Uint8Array): Promise<Decod
     buffer = await context.decodeAudioData(bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength) as ArrayBuffer);
   } catch (err) {
     const why = err instanceof DOMException && err.name === 'EncodingError' ? 'its format is not one the browser recognises as audio' : err instanceof Error ? err.message : String(err);
-    throw new FileProblem(
-      `“${name}” could not be decoded: ${why}. Open a WAV file (PCM or float), a CSV pressure table, or a common audio format such as MP3, M4A/AAC, Ogg/Opus or FLAC.`,
-    );
+    throw refuse(wavProblem ? `the browser could not decode it either (${why})` : why);
   }
-  if (buffer.length === 0 || buffer.numberOfChannels === 0) throw new FileProblem(`“${name}” decoded to no audio samples.`);
+  if (buffer.length === 0 || buffer.numberOfChannels === 0) throw refuse('the browser decoded it to no audio samples');
   const channels: Float32Array[] = [];
-  for (let c = 0; c < buffer.numberOfChannels; c++) channels.push(buffer.getChannelData(c).slice());
+  for (let c = 0; c < buffer.numberOfChannels; c++) {
+    const samples = buffer.getChannelData(c).slice();
+    // A decoder that misreads a file can hand back anything: refuse what the analysis cannot take.
+    for (let i = 0; i < samples.length; i++) {
+      if (!Number.isFinite(samples[i])) throw refuse(`the browser decoded it to a non-finite sample (channel ${c + 1}, sample ${i + 1})`);
+    }
+    channels.push(samples);
+  }
   return {
     fileName: name,
     sampleRateHz: buffer.sampleRate,
     channels,
     durationS: buffer.duration,
     decodedBy: `decoded by the browser (resampled to ${buffer.sampleRate} Hz)`,
-    notes: [],
+    notes: wavProblem ? [`The analysis's own WAV reader does not read this file (${wavProblem}); the browser decoded it instead.`] : [],
   };
 }
