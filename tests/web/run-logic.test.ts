@@ -6,7 +6,6 @@ import { cyclesOf } from '../../web/run/cycles';
 import { emptyLiveSummary } from '../../web/worker/live-summary';
 import { formatPa, formatQ, formatRatio } from '../../web/format';
 import { splitInterval } from '../../web/views/live-readouts';
-import { isPascalColumn } from '../../web/capture/file-input';
 import type { NoiseDriven, Report, Segment, Summary } from '../../dsp/types';
 import { beforeAfterSentences, formatChange, rateChange } from '../../web/run/compare';
 import { checkReanalysis, octaveAround } from '../../web/run/reanalyse';
@@ -150,10 +149,6 @@ describe('pressure-sensor data in Pa (REFERENCES.md §11)', () => {
     expect(formatPa(Number.NaN)).toBe('— (no signal)');
   });
 
-  it('recognises pascal columns by their header', () => {
-    for (const name of ['pressure_pa', 'p (Pa)', 'Pa', 'p[Pa]', 'dp/Pa']) expect(isPascalColumn(name)).toBe(true);
-    for (const name of ['pressure', 'kPa', 'pascal_count', 'spa', null]) expect(isPascalColumn(name)).toBe(false);
-  });
 });
 
 describe('per-cycle table', () => {
