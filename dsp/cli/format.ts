@@ -8,6 +8,7 @@
 
 import { dampingRatio } from '../derived';
 import type { Interval, Report, Segment } from '../types';
+import { modeStatisticsLines } from './format-noise';
 
 /** A table: header row and body rows of cells; `alignRight` per column. */
 export function renderTable(header: string[], rows: string[][], alignRight: boolean[] = []): string {
@@ -235,6 +236,7 @@ export function renderSummary(report: Report, input: InputFacts): string {
       ),
     );
   }
+  out.push(...modeStatisticsLines(report));
   const figures = derivedFigures(report);
   out.push('Main tone');
   out.push(
