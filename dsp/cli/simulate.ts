@@ -13,7 +13,8 @@
  *     --excitation 5e-4 --seed 23 --out public/demo/boiler-flue.wav
  * Bench tube: a 1 m open tube, heater a quarter up, switched on at 3 s (hums, saturates), off at 13 s
  * (dies away). Boiler flue: a 2.2 m flue closed at the appliance, burner 0.5 m up, on at 2 s, off at 12 s.
- * (the truth files go beside them as *.truth.json). Both carry a room background of −52 dBFS
+ * (the truth files go beside them as *.truth.json; each step names its leading mode, the oscillating
+ * mode with the largest growth rate over all modes, and the truth the first mode to go unstable). Both carry a room background of −52 dBFS
  * broadband (a phone in a lab or boiler room), about 50 dB under the limit cycle.
  */
 import { writeFile } from 'node:fs/promises';
@@ -62,9 +63,10 @@ export const SIMULATE_HELP = `Usage: humgauge simulate --out FILE.wav [options]
 Simulates a heated tube (Galerkin acoustic modes, a compact heater with a
 time-lagged King's-law heat release, modal damping) while the heater power is
 switched, and writes the microphone signal as a mono 16-bit WAV plus its truth
-as JSON (FILE.truth.json): for each power step the linear growth rate (1/s) and
-frequency (Hz) of the fundamental from the model's characteristic equation, and
-the decay rate when the power drops.
+as JSON (FILE.truth.json): for each power step the leading mode (the one that
+grows fastest, or decays slowest, of all modes) with its linear growth rate
+(1/s) and frequency (Hz) from the model's characteristic equation, the decay
+rate when the power drops, and the power at which the first mode turns unstable.
 
 Options
 ${optionsHelp(SIMULATE_OPTIONS)}
@@ -150,7 +152,7 @@ export async function runSimulate(args: string[], io: CliIo): Promise<number> {
     for (const st of truth.steps) {
       const rate = st.growthRatePerS;
       lines.push(
-        `  from ${st.atS.toFixed(2)} s, K = ${st.heaterPower}: ${st.frequencyHz.toFixed(2)} Hz, ${rate >= 0 ? 'grows' : 'decays'} at ${Math.abs(rate).toFixed(3)} 1/s` +
+        `  from ${st.atS.toFixed(2)} s, K = ${st.heaterPower}: mode ${st.mode} ${st.frequencyHz.toFixed(2)} Hz, ${rate >= 0 ? 'grows' : 'decays'} at ${Math.abs(rate).toFixed(3)} 1/s` +
           (st.limitCycle ? `; limit cycle ${st.limitCycle.frequencyHz.toFixed(2)} Hz at ${st.limitCycle.amplitudeDbfs.toFixed(1)} dBFS` : ''),
       );
     }

@@ -86,7 +86,7 @@ describe('humgauge simulate', () => {
 
   it.each([
     [[], EXIT.USAGE, /--out is required/],
-    [['--out', 'x.wav', '--length', '0'], EXIT.BAD_PARAMETER, /--length must be a positive/],
+    [['--out', 'x.wav', '--length', '0'], EXIT.BAD_PARAMETER, /--length must lie from 0.001 to 500 m/],
     [['--out', 'x.wav', '--heater', '2'], EXIT.BAD_PARAMETER, /--heater must lie inside/],
     [['--out', 'x.wav', '--temp', '-274'], EXIT.BAD_PARAMETER, /absolute zero/],
     [['--out', 'x.wav', '--rate', '1000'], EXIT.BAD_PARAMETER, /--rate/],
