@@ -150,6 +150,13 @@ const MAINS_TONE_RISE_DB = 40;
 const MAINS_TONE_MIN_RISE_KERNELS = 2;
 /** Active starts of two tracks of one tone closer than this are taken as simultaneous, s. */
 const DUPLICATE_START_S = 0.05;
+/**
+ * Peak-power ratio (dB, and as a ratio) beyond which of two tracks of one tone the weaker holds it through the
+ * skirt of its band: the narrow envelope band (Blackman, noise bandwidth ENVELOPE_BANDWIDTH_HZ)
+ * loses about 0.1 dB at RETUNE_HZ off centre and 1 dB near 2.7 Hz off (dsp/envelope.ts).
+ */
+const DUPLICATE_SKIRT_DB = 1;
+const DUPLICATE_SKIRT_RATIO = 10 ** (DUPLICATE_SKIRT_DB / 10);
 /** Margin on the parent tone's active span for a line that rises and falls with it, s. */
 const WITHIN_MARGIN_S = 1;
 /** Most envelope samples handed to one fit (longer steady stretches are block-averaged). */
@@ -822,7 +829,10 @@ function lookAhead(ps: PipelineState, tr: TrackRuntime): void {
 /**
  * Two tracks on one tone (a second track can start while the first is still moving, e.g. during a
  * fast growth whose frequency drifts) are merged: the older keeps its envelope history and takes
- * the latest frequency; the younger is dropped, so one tone gives one segment history.
+ * the latest frequency; the younger is dropped, so one tone gives one segment history. When the
+ * younger saw the tone clearly stronger (DUPLICATE_SKIRT_RATIO) the older held it through the
+ * skirt of its band (left on a nearby resonance while the tone moved further than the match
+ * tolerance) and is the one dropped: the younger's envelope was rebuilt from the sample history.
  */
 function mergeDuplicateTracks(ps: PipelineState): void {
   for (let a = ps.alive.length - 1; a >= 1; a--) {
@@ -830,14 +840,15 @@ function mergeDuplicateTracks(ps: PipelineState): void {
     for (let b = 0; b < a; b++) {
       const tb = ps.alive[b];
       if (Math.abs(ta.tone.freqHz - tb.tone.freqHz) > matchToleranceHz(ps.spec.binHz, tb.tone.freqHz)) continue;
-      if (ta.tone.lastHitFrame > tb.tone.lastHitFrame) {
-        tb.tone.freqHz = ta.tone.freqHz;
-        tb.tone.lastHitFrame = ta.tone.lastHitFrame;
-        tb.tone.misses = 0;
+      const [keep, drop, at] = ta.maxExcessDb > tb.maxExcessDb + DUPLICATE_SKIRT_DB ? [ta, tb, b] : [tb, ta, a];
+      if (drop.tone.lastHitFrame > keep.tone.lastHitFrame) {
+        keep.tone.freqHz = drop.tone.freqHz;
+        keep.tone.lastHitFrame = drop.tone.lastHitFrame;
+        keep.tone.misses = 0;
       }
-      if (ta.maxExcessDb > tb.maxExcessDb) tb.maxExcessDb = ta.maxExcessDb;
-      ps.alive.splice(a, 1);
-      ps.aliveTones.splice(a, 1);
+      if (drop.maxExcessDb > keep.maxExcessDb) keep.maxExcessDb = drop.maxExcessDb;
+      ps.alive.splice(at, 1);
+      ps.aliveTones.splice(at, 1);
       break;
     }
   }
@@ -893,7 +904,10 @@ function processFrame(ps: PipelineState): void {
     for (const tr of ps.alive) {
       // Same tone, or a harmonic of a tone sounding now (a limit cycle's waveform, distortion).
       const n = Math.round(f / tr.tone.freqHz);
-      if (n === 1 && Math.abs(f - tr.tone.freqHz) <= 2 * matchToleranceHz(spec.binHz, f)) dup = true;
+      // A peak that no track matched within its tolerance is a tone of its own (a track left on
+      // a nearby resonance would read it through the skirt of its band); the finish drops the
+      // weaker of two tracks that hold one tone.
+      if (n === 1 && Math.abs(f - tr.tone.freqHz) <= matchToleranceHz(spec.binHz, tr.tone.freqHz)) dup = true;
       const isSounding = tr.regime.state > STATE_QUIET || tr.isSteadyLine;
       if (n >= 2 && n <= MAX_HARMONIC && isSounding && Math.abs(f - n * tr.tone.freqHz) <= harmonicToleranceHz(spec.binHz, tr.tone.freqHz, n)) dup = true;
     }
@@ -1602,8 +1616,13 @@ function finish(ps: PipelineState): Report {
       const ib = trackInfo.get(b);
       if (b === a || ib === undefined || Number.isNaN(ib.fromS) || duplicates.has(b)) continue;
       if (ib.toS < ia.fromS || ib.fromS > ia.toS) continue;
-      // Keep the track that saw the tone first (it holds the growth), then the stronger.
-      const bFirst = ib.fromS < ia.fromS - DUPLICATE_START_S || (Math.abs(ib.fromS - ia.fromS) <= DUPLICATE_START_S && ib.top > ia.top);
+      // Keep the track whose band is centred on the tone (it sees the tone clearly stronger than
+      // one holding it through its skirt, and its envelope was rebuilt from the sample history,
+      // growth included); between two that see it alike, the one that saw it first, then the stronger.
+      const level = ib.top / ia.top;
+      const bFirst =
+        level > DUPLICATE_SKIRT_RATIO ||
+        (level >= 1 / DUPLICATE_SKIRT_RATIO && (ib.fromS < ia.fromS - DUPLICATE_START_S || (Math.abs(ib.fromS - ia.fromS) <= DUPLICATE_START_S && ib.top > ia.top)));
       if (!bFirst) continue;
       if (Math.abs(ia.freqHz - ib.freqHz) <= matchToleranceHz(ps.spec.binHz, ib.freqHz)) {
         duplicates.add(a);
@@ -1741,9 +1760,15 @@ function finish(ps: PipelineState): Report {
     const freqs = steadyFreqs.length > 0 ? steadyFreqs : famFits.filter((f) => f.seg.state !== STATE_QUIET).map((f) => f.report.frequencyHz);
     freqs.sort((a, b) => a - b);
     const freq = freqs.length > 0 ? freqs[Math.floor(freqs.length / 2)] : mf.freqHz;
-    const limits = famFits
-      .filter((f) => f.seg.state === STATE_STEADY && typeof f.report.limitAmplitudeDbfs === 'number')
-      .map((f) => f.report.limitAmplitudeDbfs as number);
+    // The limit cycle is the level a growth saturated at: the steady stretches a growth reached.
+    // Other steady stretches of the tone (a resonance heard in the quiet before the hum, tens of
+    // dB lower) would pull the mean down; only a tone never seen growing reports them.
+    const steady = famFits.filter((f) => f.seg.state === STATE_STEADY && typeof f.report.limitAmplitudeDbfs === 'number');
+    const reached = steady.filter((f) => {
+      const i = f.tr.regime.segments.indexOf(f.seg);
+      return i > 0 && f.tr.regime.segments[i - 1].state === STATE_GROWTH;
+    });
+    const limits = (reached.length > 0 ? reached : steady).map((f) => f.report.limitAmplitudeDbfs as number);
     const limit = limits.length > 0 ? limits.reduce((a, b) => a + b, 0) / limits.length : null;
     summary = deriveSummary({
       frequencyHz: freq,
