@@ -19,6 +19,7 @@ import {
 } from './condition';
 import { estimateNoiseDrivenDamping } from './damping';
 import { deriveSummary } from './derived';
+import { findKink, MARKER_SEARCH_S } from './kink';
 import {
   bandPowerFromBinPower,
   createEnvelopeState,
@@ -1335,6 +1336,42 @@ function ciOf(fit: RateFit): Interval {
 }
 
 /** Fits one segment of a track and fills its report entry (and the onset time for onsets). */
+/**
+ * Store index where a decay near a 'driving-off' marker begins: the kink of the envelope within
+ * MARKER_SEARCH_S of the marker (dsp/kink.ts), between the start of the stretch before the decay
+ * and the point where the decay meets the background. A warning says so when marker and data
+ * disagree by more than the envelope's resolution (one kernel); with no kink found the marker
+ * stands.
+ */
+function markerKink(ps: PipelineState, tr: TrackRuntime, seg: RegimeSegment, prev: RegimeSegment | null, mk: Marker, isWide: boolean): number {
+  const rate = tr.env.outputRateHz;
+  const src = isWide ? tr.powerWide : tr.power;
+  let m = seg.startIdx;
+  while (m > 0 && tr.timeS[m] > mk.timeS) m--;
+  while (m < tr.processed - 1 && tr.timeS[m] < mk.timeS) m++;
+  const reach = Math.round(MARKER_SEARCH_S * rate);
+  const lo = Math.max(prev !== null ? prev.startIdx : seg.startIdx, tr.validFrom, m - reach);
+  const bgNarrow = meanPower(tr, seg.endIdx + Math.round(0.2 * rate), seg.endIdx + Math.round(BG_WINDOW_S * rate), Math.round(0.1 * rate), isWide);
+  const bg = Number.isFinite(bgNarrow) ? bgNarrow : meanBg(tr, seg.startIdx, seg.endIdx) * (isWide ? tr.env.wideBandwidthHz / tr.env.bandwidthHz : 1);
+  const markerIdx = Math.min(m, seg.endIdx - 1);
+  if (!(bg > 0)) return markerIdx;
+  // The two lines hold down to 10 dB over the background, where it bends ln(A² − N²) by < 0.5 dB.
+  const floorRatio = 10;
+  let hi = Math.max(lo, seg.startIdx);
+  const stop = Math.min(tr.processed, m + reach);
+  while (hi < stop && src[hi] > bg * floorRatio) hi++;
+  hi = contiguousEnd(tr, lo, hi - lo, hi);
+  // Each line needs half a kernel beyond the blurred corner; the kink is placed late by under half
+  // a kernel on a fast decay (tests/dsp/kink.test.ts), so a marker on time stays within one kernel.
+  const kLen = isWide ? tr.env.wideLength : tr.env.kernelLength;
+  const kink = findKink(tr.timeS, src, { i0: lo, i1: hi, s0: Math.max(lo, m - reach), s1: Math.min(hi, m + reach), minSide: Math.ceil(kLen / 2), backgroundPower: bg, floorRatio });
+  if (kink === null || !(kink.slopeAfter < kink.slopeBefore)) return markerIdx;
+  if (Math.abs(kink.timeS - mk.timeS) > kLen / rate) {
+    ps.warnings.push(`marker "${mk.label}" at ${mk.timeS.toFixed(2)} s: the envelope turns at ${kink.timeS.toFixed(2)} s; the decay is fitted from there`);
+  }
+  return kink.index;
+}
+
 function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], i: number, artefacts: Set<TrackRuntime>): FittedSegment {
   const seg = segs[i];
   const rate = tr.env.outputRateHz;
@@ -1463,17 +1500,15 @@ function fitSegment(ps: PipelineState, tr: TrackRuntime, segs: RegimeSegment[], 
   }
 
   if (seg.state === STATE_DECAY) {
-    // A 'driving-off' marker near the start fixes where the free decay begins.
+    // A 'driving-off' marker near the start is a hint: the free decay begins at the kink the
+    // envelope shows near it (markerKink).
     let startIdx = seg.startIdx;
     let hasMarker = false;
     const lookBackS = prev !== null ? Math.min(2, tr.timeS[seg.startIdx] - tr.timeS[prev.startIdx]) : 0;
     for (const mk of ps.markers) {
       if (mk.kind !== 'driving-off') continue;
-      if (mk.timeS < startS - lookBackS || mk.timeS > startS + 0.5) continue;
-      let k = seg.startIdx;
-      while (k > 0 && tr.timeS[k] > mk.timeS) k--;
-      while (k < seg.endIdx - 1 && tr.timeS[k] < mk.timeS) k++;
-      startIdx = k;
+      if (mk.timeS < startS - Math.max(lookBackS, MARKER_SEARCH_S) || mk.timeS > startS + MARKER_SEARCH_S) continue;
+      startIdx = markerKink(ps, tr, seg, prev, mk, isWide);
       hasMarker = true;
     }
     if (!hasMarker && prev !== null) {
