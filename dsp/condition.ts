@@ -125,10 +125,28 @@ function createHalfBandStage(rateHz: number, passHz: number): HalfBandStage {
   return { oddTaps, centreTap: 0.5 / sum, length, work: new Float64Array(length - 1 + CONDITION_MAX_BLOCK), parity: 0 };
 }
 
+/**
+ * Sample rates the analysis accepts, Hz: from pressure-sensor logs at 500 Hz (a band up to 200 Hz,
+ * 0.4 × the rate, holds the low modes of boilers and flues) to 192 kHz audio.
+ */
+export const MIN_SAMPLE_RATE_HZ = 500;
+export const MAX_SAMPLE_RATE_HZ = 192000;
+
+/**
+ * Lowest band edge, Hz: the analysis frame (0.32 s, ~3 Hz bins) needs a tone several bins above
+ * 0 Hz, and the DC blocker's corner (a quarter of the low edge) must stay above the drift it removes.
+ */
+export const MIN_BAND_LOW_HZ = 5;
+
 /** Creates the conditioner; throws RangeError for an unusable rate or band. */
 export function createConditionState(cfg: ConditionConfig): ConditionState {
   const fs = cfg.sampleRateHz;
-  if (!Number.isFinite(fs) || fs < 8000 || fs > 192000) throw new RangeError(`sampleRateHz must be 8000-192000 Hz, got ${fs}`);
+  if (!Number.isFinite(fs) || fs < MIN_SAMPLE_RATE_HZ || fs > MAX_SAMPLE_RATE_HZ) {
+    throw new RangeError(`sampleRateHz must be ${MIN_SAMPLE_RATE_HZ}-${MAX_SAMPLE_RATE_HZ} Hz, got ${fs}`);
+  }
+  if (!(cfg.bandLowHz >= MIN_BAND_LOW_HZ)) {
+    throw new RangeError(`bandLowHz must be at least ${MIN_BAND_LOW_HZ} Hz (tones below it are not resolved by the analysis frame), got ${cfg.bandLowHz} Hz`);
+  }
   if (!(cfg.bandLowHz > 0) || !(cfg.bandHighHz > cfg.bandLowHz)) {
     throw new RangeError(`band must satisfy 0 < bandLowHz < bandHighHz, got ${cfg.bandLowHz}-${cfg.bandHighHz} Hz`);
   }

@@ -8,6 +8,10 @@
  * the lines' meeting point stays on the kink.
  */
 
+import type { RegimeSegment } from './regime';
+import { contiguousEnd, meanBg, meanPower, type ToneRuntime } from './tone-store';
+import type { Marker } from './types';
+
 /** Search half-width around a marker, s: twice a slow human reaction to a switch (0.5 s; common practice). */
 export const MARKER_SEARCH_S = 1;
 
@@ -89,4 +93,56 @@ export function findKink(
     }
   }
   return best;
+}
+
+/** Power ratio over the background down to which the two lines hold (10 dB: the background bends ln(A² − N²) by under 0.5 dB there). */
+const KINK_FLOOR_RATIO = 10;
+
+/**
+ * Store index where a decay near a 'driving-off' marker begins: the kink of the envelope within
+ * MARKER_SEARCH_S of the marker, between the start of the stretch before the decay and where the
+ * decay meets the background. Adds a warning when marker and data disagree by more than the
+ * envelope's resolution (one kernel of the band searched); with no kink found the marker stands.
+ */
+export function decayStartNearMarker(
+  tr: ToneRuntime,
+  seg: RegimeSegment,
+  prev: RegimeSegment | null,
+  mk: Marker,
+  isWide: boolean,
+  warnings: string[],
+): number {
+  const rate = tr.env.outputRateHz;
+  const src = isWide ? tr.powerWide : tr.power;
+  let m = seg.startIdx;
+  while (m > 0 && tr.timeS[m] > mk.timeS) m--;
+  while (m < tr.processed - 1 && tr.timeS[m] < mk.timeS) m++;
+  const markerIdx = Math.min(m, seg.endIdx - 1);
+  const reach = Math.round(MARKER_SEARCH_S * rate);
+  const lo = Math.max(prev !== null ? prev.startIdx : seg.startIdx, tr.validFrom, m - reach);
+  // Background from the quiet after the decay (as the decay fit takes it), else the band's.
+  const after = meanPower(tr, seg.endIdx + Math.round(0.2 * rate), seg.endIdx + Math.round(2 * rate), Math.round(0.1 * rate), isWide);
+  const bg = Number.isFinite(after) ? after : meanBg(tr, seg.startIdx, seg.endIdx) * (isWide ? tr.env.wideBandwidthHz / tr.env.bandwidthHz : 1);
+  if (!(bg > 0)) return markerIdx;
+  let hi = Math.max(lo, seg.startIdx);
+  const stop = Math.min(tr.processed, m + reach);
+  while (hi < stop && src[hi] > bg * KINK_FLOOR_RATIO) hi++;
+  hi = contiguousEnd(tr, lo, hi - lo, hi);
+  // Each line needs half a kernel beyond the blurred corner; the kink is placed late by under half
+  // a kernel on a fast decay (tests/dsp/kink.test.ts), so a marker on time stays within one kernel.
+  const kLen = isWide ? tr.env.wideLength : tr.env.kernelLength;
+  const kink = findKink(tr.timeS, src, {
+    i0: lo,
+    i1: hi,
+    s0: Math.max(lo, m - reach),
+    s1: Math.min(hi, m + reach),
+    minSide: Math.ceil(kLen / 2),
+    backgroundPower: bg,
+    floorRatio: KINK_FLOOR_RATIO,
+  });
+  if (kink === null || !(kink.slopeAfter < kink.slopeBefore)) return markerIdx;
+  if (Math.abs(kink.timeS - mk.timeS) > kLen / rate) {
+    warnings.push(`marker "${mk.label}" at ${mk.timeS.toFixed(2)} s: the envelope turns at ${kink.timeS.toFixed(2)} s; the decay is fitted from there`);
+  }
+  return kink.index;
 }

@@ -17,9 +17,11 @@
  * It gives (a) the linear growth rate and frequency of each mode from the characteristic
  * equation of the linearised delay system, solved in the complex plane, and (b) the time series
  * for a switched heater power, integrated with fixed-step RK4 and a history buffer for the lag.
- * Physical units: time scale L/c₀ with c₀ from the gas temperature (dsp/duct.ts).
+ * Physical units: time scale L/c₀ with c₀ from the gas temperature (dsp/gas.ts), with γ = 1.4 unless
+ * a gas is given: the model's damping constants are from memory, and γ(T) would move c₀ by 0.005 %
+ * at 20 °C and 0.16 % at 120 °C (the demo recordings), well inside them.
  */
-import { AIR, speedOfSoundMPerS, type GasProperties } from './duct';
+import { AIR_FIXED_GAMMA, checkRange, LENGTH_RANGE_M, speedOfSoundMPerS, type GasProperties } from './duct';
 import { createRng } from './synth';
 
 export type RigEnds = 'open-open' | 'closed-open';
@@ -34,7 +36,7 @@ export interface RigParams {
   ends: RigEnds;
   /** Heater position from the upstream end, m. */
   heaterPositionM: number;
-  /** Heat-release time lag, s. Default 0.2 L/c₀ (Balasubramanian & Sujith's τ = 0.2, from memory). */
+  /** Heat-release time lag, s, up to MAX_HEAT_LAG_S. Default 0.2 L/c₀ (Balasubramanian & Sujith's τ = 0.2, from memory). */
   heatLagS?: number;
   /** Number of Galerkin modes (default 10). */
   modeCount?: number;
@@ -62,6 +64,30 @@ export interface Rig {
 
 const SQRT_THIRD = Math.sqrt(1 / 3);
 
+/**
+ * Largest heater power K (dimensionless) the model takes: five times the range Balasubramanian &
+ * Sujith explore (K up to about 2, from memory). It bounds the continuation in K (40 steps per unit).
+ */
+export const MAX_HEATER_POWER = 10;
+
+/** Longest heat-release lag, s: heater and flame lags are milliseconds to tens of milliseconds; the bound caps the lag buffer at lag × rate × substeps values. */
+export const MAX_HEAT_LAG_S = 1;
+
+/**
+ * Largest RMS of the white modal forcing (dimensionless; the mean flow is 1/3). Driven by white
+ * forcing of intensity x², the first mode's amplitude has standard deviation x / sqrt(4 ζ₁ k₁³)
+ * ≈ 0.56 x for the default damping (random-vibration result for a damped oscillator, e.g. Crandall &
+ * Mark 1963 — from memory), so at 0.1 the noise-driven velocity stays near a sixth of the mean flow.
+ */
+export const MAX_EXCITATION_RMS = 0.1;
+
+/**
+ * Largest RK4 step times the highest Galerkin wavenumber, dt·k_max: RK4 is stable on an undamped
+ * oscillator up to 2√2 (Butcher, Numerical Methods for ODEs — from memory); 1 leaves room for the
+ * damping and keeps the phase error per step below 1e-3.
+ */
+const MAX_STEP_TIMES_WAVENUMBER = 1;
+
 function positive(name: string, v: number, unit: string): void {
   if (!Number.isFinite(v) || v <= 0) throw new RangeError(`${name} must be a positive finite number of ${unit}, got ${v}`);
 }
@@ -78,15 +104,15 @@ export function pressureShape(ends: RigEnds, k: number, x: number): number {
 
 /** Validates the parameters and builds the dimensionless rig. Throws RangeError naming the parameter. */
 export function createRig(params: RigParams): Rig {
-  positive('lengthM', params.lengthM, 'm');
-  const gas = params.gas ?? AIR;
+  checkRange('lengthM', params.lengthM, LENGTH_RANGE_M, 'm');
+  const gas = params.gas ?? AIR_FIXED_GAMMA;
   const cMPerS = speedOfSoundMPerS(params.gasTemperatureC, gas);
   if (!Number.isFinite(params.heaterPositionM) || params.heaterPositionM <= 0 || params.heaterPositionM >= params.lengthM) {
     throw new RangeError(`heaterPositionM must lie inside the tube (0 < x < ${params.lengthM} m), got ${params.heaterPositionM} m`);
   }
   const timeScaleS = params.lengthM / cMPerS;
   const lagS = params.heatLagS ?? 0.2 * timeScaleS;
-  positive('heatLagS', lagS, 's');
+  if (!Number.isFinite(lagS) || lagS <= 0 || lagS > MAX_HEAT_LAG_S) throw new RangeError(`heatLagS must lie above 0 and up to ${MAX_HEAT_LAG_S} s, got ${lagS} s`);
   const n = params.modeCount ?? 10;
   if (!Number.isInteger(n) || n < 1 || n > 40) throw new RangeError(`modeCount must be an integer from 1 to 40, got ${n}`);
   const c1 = params.dampingC1 ?? 0.1;
@@ -113,7 +139,19 @@ export interface LinearMode {
   n: number;
   growthRatePerS: number;
   frequencyHz: number;
+  /** False for a root on the real axis (a conjugate pair that met there): it grows or decays without oscillating, so it is no tone. */
+  isOscillating: boolean;
 }
+
+/**
+ * A root is non-oscillating when its dimensionless angular frequency |Im σ| is below this. Newton
+ * stops at 1e-12 relative, so a root on the real axis keeps |Im σ| at rounding level; 1e-8 lies far
+ * above that and far below any acoustic mode (k ≥ π/2).
+ */
+const REAL_ROOT_IMAG = 1e-8;
+
+/** Continuation steps per unit of heater power (each a Newton solve from the previous root). */
+const CONTINUATION_STEPS_PER_POWER = 40;
 
 type C = [number, number];
 const cmul = (a: C, b: C): C => [a[0] * b[0] - a[1] * b[1], a[0] * b[1] + a[1] * b[0]];
@@ -169,42 +207,99 @@ function newton(f: (s: C) => C, start: C, tol = 1e-12, maxIter = 60): C | null {
   return null;
 }
 
+function checkHeaterPower(heaterPower: number): void {
+  if (!Number.isFinite(heaterPower) || heaterPower < 0 || heaterPower > MAX_HEATER_POWER) {
+    throw new RangeError(`heaterPower must lie from 0 to ${MAX_HEATER_POWER}, got ${heaterPower}`);
+  }
+}
+
+/** Root of mode m at K = 0: the damped acoustic mode σ = −ζk + i k sqrt(1 − ζ²). */
+function coldRoot(rig: Rig, m: number): C {
+  return [-rig.zeta[m] * rig.k[m], rig.k[m] * Math.sqrt(1 - rig.zeta[m] * rig.zeta[m])];
+}
+
+/** Newton's method for mode m at heater power kp from the nearby root `from`; RangeError if it fails. */
+function rootAt(rig: Rig, m: number, kp: number, from: C): C {
+  const next = newton((z) => characteristic(rig, kp, m, z), from);
+  if (next === null) throw new RangeError(`root finder did not converge for mode ${m + 1} at heater power ${kp.toFixed(4)}`);
+  return next;
+}
+
+function toMode(rig: Rig, m: number, s: C): LinearMode {
+  return { n: m + 1, growthRatePerS: s[0] / rig.timeScaleS, frequencyHz: Math.abs(s[1]) / (2 * Math.PI * rig.timeScaleS), isOscillating: Math.abs(s[1]) > REAL_ROOT_IMAG };
+}
+
 /**
- * Linear growth rates and frequencies of the first `count` modes at heater power K (dimensionless,
- * Balasubramanian & Sujith's K), by Newton's method on the characteristic function with
- * continuation in K from the damped acoustic modes at K = 0. Throws RangeError when it fails to converge.
+ * Linear growth rates and frequencies of the first `count` modes (default all) at heater power K
+ * (dimensionless, Balasubramanian & Sujith's K), by Newton's method on the characteristic function
+ * with continuation in K from the damped acoustic modes at K = 0. Throws RangeError when it fails to converge.
  */
-export function linearModes(rig: Rig, heaterPower: number, count = 3): LinearMode[] {
-  if (!Number.isFinite(heaterPower) || heaterPower < 0) throw new RangeError(`heaterPower must be a non-negative finite number, got ${heaterPower}`);
+export function linearModes(rig: Rig, heaterPower: number, count = rig.k.length): LinearMode[] {
+  checkHeaterPower(heaterPower);
   const out: LinearMode[] = [];
   const n = Math.min(count, rig.k.length);
   for (let m = 0; m < n; m++) {
-    const zk = rig.zeta[m] * rig.k[m];
-    let s: C = [-zk, rig.k[m] * Math.sqrt(1 - rig.zeta[m] * rig.zeta[m])];
-    const steps = heaterPower === 0 ? 1 : Math.max(8, Math.ceil(heaterPower * 40));
-    for (let i = 1; i <= steps; i++) {
-      const kp = (heaterPower * i) / steps;
-      const next = newton((z) => characteristic(rig, kp, m, z), s);
-      if (next === null) throw new RangeError(`root finder did not converge for mode ${m + 1} at heater power ${kp.toFixed(4)}`);
-      s = next;
-    }
-    out.push({ n: m + 1, growthRatePerS: s[0] / rig.timeScaleS, frequencyHz: s[1] / (2 * Math.PI * rig.timeScaleS) });
+    let s = coldRoot(rig, m);
+    const steps = heaterPower === 0 ? 1 : Math.max(8, Math.ceil(heaterPower * CONTINUATION_STEPS_PER_POWER));
+    for (let i = 1; i <= steps; i++) s = rootAt(rig, m, (heaterPower * i) / steps, s);
+    out.push(toMode(rig, m, s));
   }
   return out;
 }
 
-/** Heater power at which mode 1 turns unstable (its growth rate crosses zero), by bisection; Infinity if still stable at maxPower. */
-export function criticalHeaterPower(rig: Rig, maxPower = 10): number {
-  const rate = (kp: number): number => linearModes(rig, kp, 1)[0].growthRatePerS;
-  if (rate(maxPower) < 0) return Infinity;
-  let lo = 0;
-  let hi = maxPower;
-  for (let i = 0; i < 60; i++) {
-    const mid = 0.5 * (lo + hi);
-    if (rate(mid) < 0) lo = mid;
-    else hi = mid;
+/** The oscillating mode with the largest growth rate (the one that hums first, or decays slowest); mode 1 if none oscillates. */
+export function leadingMode(modes: LinearMode[]): LinearMode {
+  let best: LinearMode | null = null;
+  for (const m of modes) if (m.isOscillating && (!best || m.growthRatePerS > best.growthRatePerS)) best = m;
+  return best ?? modes[0];
+}
+
+/** Where the tube first hums: heater power, the mode and its frequency there. */
+export interface FirstInstability {
+  heaterPower: number;
+  n: number;
+  frequencyHz: number;
+}
+
+/**
+ * The lowest heater power at which any oscillating mode turns unstable (a conjugate pair crosses
+ * into the right half-plane: a Hopf point), over all Galerkin modes: continuation on a grid of
+ * 1/40 in K, then bisection (60 halvings) inside the first grid step where a mode is oscillating
+ * and growing. Roots on the real axis are not tones and do not count. Null if no mode hums up to maxPower.
+ */
+export function firstInstability(rig: Rig, maxPower = MAX_HEATER_POWER): FirstInstability | null {
+  checkHeaterPower(maxPower);
+  const n = rig.k.length;
+  const roots: C[] = [];
+  for (let m = 0; m < n; m++) roots.push(coldRoot(rig, m));
+  const hums = (s: C): boolean => s[0] >= 0 && Math.abs(s[1]) > REAL_ROOT_IMAG;
+  const gridSteps = Math.ceil(maxPower * CONTINUATION_STEPS_PER_POWER);
+  for (let i = 1; i <= gridSteps; i++) {
+    const kLo = (maxPower * (i - 1)) / gridSteps;
+    const kHi = (maxPower * i) / gridSteps;
+    let found: FirstInstability | null = null;
+    for (let m = 0; m < n; m++) {
+      const from = roots[m];
+      const atHi = rootAt(rig, m, kHi, from);
+      if (hums(atHi) && !hums(from)) {
+        let lo = kLo;
+        let hi = kHi;
+        let sHi = atHi;
+        for (let it = 0; it < 60; it++) {
+          const mid = 0.5 * (lo + hi);
+          const sMid = rootAt(rig, m, mid, from);
+          if (hums(sMid)) {
+            hi = mid;
+            sHi = sMid;
+          } else lo = mid;
+        }
+        if (!found || hi < found.heaterPower) found = { heaterPower: hi, n: m + 1, frequencyHz: Math.abs(sHi[1]) / (2 * Math.PI * rig.timeScaleS) };
+      }
+      roots[m] = atHi;
+    }
+    if (found) return found;
   }
-  return 0.5 * (lo + hi);
+  return null;
 }
 
 /**
@@ -264,13 +359,19 @@ export function simulateRig(spec: SimulationSpec): SimulationResult {
   const sched = [...spec.schedule].sort((a, b) => a.atS - b.atS);
   for (const st of sched) {
     if (!Number.isFinite(st.atS) || st.atS < 0) throw new RangeError(`schedule time must be ≥ 0 s, got ${st.atS}`);
-    if (!Number.isFinite(st.heaterPower) || st.heaterPower < 0) throw new RangeError(`heaterPower must be a non-negative finite number, got ${st.heaterPower}`);
+    checkHeaterPower(st.heaterPower);
   }
   const substeps = spec.substeps ?? 4;
-  if (!Number.isInteger(substeps) || substeps < 1) throw new RangeError(`substeps must be a positive integer, got ${substeps}`);
+  if (!Number.isInteger(substeps) || substeps < 1 || substeps > 64) throw new RangeError(`substeps must be an integer from 1 to 64, got ${substeps}`);
   const n = rig.k.length;
   const total = Math.round(spec.durationS * spec.sampleRateHz);
   const dt = 1 / (spec.sampleRateHz * rig.timeScaleS * substeps); // dimensionless step
+  if (dt * rig.k[n - 1] > MAX_STEP_TIMES_WAVENUMBER) {
+    const needHz = Math.ceil((rig.k[n - 1] / (MAX_STEP_TIMES_WAVENUMBER * rig.timeScaleS * substeps)));
+    throw new RangeError(
+      `sampleRateHz must be at least ${needHz} Hz for this tube, got ${spec.sampleRateHz} Hz: its highest Galerkin mode is ${(rig.k[n - 1] / (2 * Math.PI * rig.timeScaleS)).toFixed(0)} Hz (fewer modes, modeCount, or a longer tube lower it)`,
+    );
+  }
   if (rig.tau < dt) throw new RangeError(`heatLagS must be at least one integration step (${(dt * rig.timeScaleS).toExponential(2)} s)`);
   const L = rig.params.lengthM;
   const micM = spec.micPositionM ?? (rig.params.ends === 'open-open' ? 0.9 * L : 0);
@@ -278,6 +379,13 @@ export function simulateRig(spec: SimulationSpec): SimulationResult {
   const micShape = new Float64Array(n);
   for (let j = 0; j < n; j++) micShape[j] = -pressureShape(rig.params.ends, rig.k[j], micM / L) / rig.k[j];
   const excitation = spec.excitationRms ?? 2e-5;
+  if (!Number.isFinite(excitation) || excitation < 0 || excitation > MAX_EXCITATION_RMS) {
+    throw new RangeError(`excitationRms must lie from 0 to ${MAX_EXCITATION_RMS}, got ${excitation}`);
+  }
+  const initialAmplitude = spec.initialAmplitude ?? 0;
+  if (!Number.isFinite(initialAmplitude) || Math.abs(initialAmplitude) > 1 / 3) {
+    throw new RangeError(`initialAmplitude must lie from −1/3 to 1/3 (the mean flow), got ${initialAmplitude}`);
+  }
   const rng = createRng(spec.seed ?? 1);
 
   const y = new Float64Array(2 * n); // η then ξ = η̇
@@ -287,7 +395,7 @@ export function simulateRig(spec: SimulationSpec): SimulationResult {
   const k3 = new Float64Array(2 * n);
   const k4 = new Float64Array(2 * n);
   const noise = new Float64Array(n);
-  y[0] = spec.initialAmplitude ?? 0;
+  y[0] = initialAmplitude;
   // History of u′_f at every step; enough for the lag plus one step.
   const histLen = Math.ceil(rig.tau / dt) + 4;
   const hist = new Float64Array(histLen);
@@ -346,6 +454,8 @@ export function simulateRig(spec: SimulationSpec): SimulationResult {
     }
     let p = 0;
     for (let j = 0; j < n; j++) p += micShape[j] * y[n + j];
+    // The inputs are bounded and RK4 runs inside its stability limit, so this guards the model, not the user.
+    if (!Number.isFinite(p)) throw new RangeError(`the simulation diverged at ${(i / spec.sampleRateHz).toFixed(3)} s: lower the heater power or the excitation`);
     pressure[i] = p;
     heaterVelocity[i] = hist[histHead];
   }
@@ -401,19 +511,28 @@ export interface ScenarioTruth {
   speedOfSoundMPerS: number;
   timeScaleS: number;
   heatLagS: number;
-  /** Heater power at which the fundamental turns unstable; null if it stays stable up to K = 10. */
+  /** Lowest heater power at which any oscillating mode turns unstable; null if none does up to MAX_HEATER_POWER. */
   criticalHeaterPower: number | null;
+  /** That mode's number and its frequency at that power, Hz; null with criticalHeaterPower. */
+  criticalModeN: number | null;
+  criticalFrequencyHz: number | null;
   noiseDbfs: number;
   seed: number;
   params: RigParams;
   steps: {
     atS: number;
     heaterPower: number;
-    /** Fundamental's linear rate, 1/s (> 0 grows) and frequency, Hz. */
+    /** The leading mode: the oscillating mode with the largest linear growth rate at this power (leadingMode). */
+    mode: number;
+    /** Its linear rate, 1/s (> 0 grows) and frequency, Hz. */
     growthRatePerS: number;
     frequencyHz: number;
-    /** Positive decay rate, 1/s, when the step lowers the power and the fundamental is then stable. */
+    /**
+     * Positive decay rate, 1/s, when the step lowers the power and no mode then hums: the rate of the
+     * mode that led the step before (the one sounding when the power drops).
+     */
     decayRatePerS: number | null;
+    /** Some oscillating mode grows at this power (the leading mode's rate is > 0). */
     isUnstable: boolean;
     /**
      * Measured on the simulated (noise-free) signal over the last second of the step, when the
@@ -421,6 +540,7 @@ export interface ScenarioTruth {
      * and RMS level (dBFS, re a full-scale sine). The nonlinear limit cycle, not a model root.
      */
     limitCycle: { frequencyHz: number; amplitudeDbfs: number } | null;
+    /** Every Galerkin mode at this power, non-oscillating roots flagged. */
     modes: LinearMode[];
   }[];
 }
@@ -436,7 +556,7 @@ export function renderScenario(spec: ScenarioSpec): { samples: Float32Array; tru
   const noiseDbfs = spec.noiseDbfs ?? -60;
   if (Number.isNaN(noiseDbfs) || noiseDbfs > 0) throw new RangeError(`noiseDbfs must be ≤ 0 dBFS, got ${noiseDbfs}`);
   const silenceS = spec.silenceS ?? 0.5;
-  if (!Number.isFinite(silenceS) || silenceS < 0) throw new RangeError(`silenceS must be ≥ 0 s, got ${silenceS}`);
+  if (!Number.isFinite(silenceS) || silenceS < 0 || silenceS > 600) throw new RangeError(`silenceS must lie from 0 to 600 s, got ${silenceS}`);
   const seed = spec.seed ?? 1;
   const sim = simulateRig({
     rig,
@@ -455,23 +575,28 @@ export function renderScenario(spec: ScenarioSpec): { samples: Float32Array; tru
   const noiseRms = Number.isFinite(noiseDbfs) ? 10 ** (noiseDbfs / 20) / Math.SQRT2 : 0;
   const rng = createRng(seed + 7919);
   for (let i = 0; i < nSim; i++) samples[i] = gain * sim.pressure[i] + (noiseRms > 0 ? noiseRms * rng.normal() : 0);
-  const kc = criticalHeaterPower(rig);
+  const critical = firstInstability(rig);
   const sorted = [...spec.schedule].sort((a, b) => a.atS - b.atS);
-  let previous = 0;
+  let previousPower = 0;
+  let previousLead = 1;
   const steps = sorted.map((st, i) => {
     const endS = i + 1 < sorted.length ? Math.min(sorted[i + 1].atS, spec.durationS) : spec.durationS;
-    const modes = linearModes(rig, st.heaterPower, 3);
-    const m1 = modes[0];
-    const isDrop = st.heaterPower < previous;
-    previous = st.heaterPower;
+    const modes = linearModes(rig, st.heaterPower);
+    const lead = leadingMode(modes);
+    const isDrop = st.heaterPower < previousPower;
+    const wasSounding = modes[previousLead - 1];
+    previousPower = st.heaterPower;
+    previousLead = lead.n;
+    const isUnstable = lead.growthRatePerS > 0;
     return {
       atS: st.atS,
       heaterPower: st.heaterPower,
-      growthRatePerS: m1.growthRatePerS,
-      frequencyHz: m1.frequencyHz,
-      decayRatePerS: isDrop && m1.growthRatePerS < 0 ? -m1.growthRatePerS : null,
-      isUnstable: m1.growthRatePerS > 0,
-      limitCycle: m1.growthRatePerS > 0 && endS - st.atS >= 2 ? measureCycle(sim.pressure, gain, spec.sampleRateHz, endS - 1, endS) : null,
+      mode: lead.n,
+      growthRatePerS: lead.growthRatePerS,
+      frequencyHz: lead.frequencyHz,
+      decayRatePerS: isDrop && !isUnstable && wasSounding.isOscillating ? -wasSounding.growthRatePerS : null,
+      isUnstable,
+      limitCycle: isUnstable && endS - st.atS >= 2 ? measureCycle(sim.pressure, gain, spec.sampleRateHz, endS - 1, endS) : null,
       modes,
     };
   });
@@ -485,7 +610,9 @@ export function renderScenario(spec: ScenarioSpec): { samples: Float32Array; tru
       speedOfSoundMPerS: rig.cMPerS,
       timeScaleS: rig.timeScaleS,
       heatLagS: rig.tau * rig.timeScaleS,
-      criticalHeaterPower: Number.isFinite(kc) ? kc : null,
+      criticalHeaterPower: critical ? critical.heaterPower : null,
+      criticalModeN: critical ? critical.n : null,
+      criticalFrequencyHz: critical ? critical.frequencyHz : null,
       noiseDbfs,
       seed,
       params: spec.params,

@@ -170,3 +170,15 @@ export function formatPercent(fraction: number | null | undefined, decimals = 0,
   if (!isShowable(percent)) return formatMissing(reason);
   return `${formatFixed(percent, decimals)} %`;
 }
+
+/**
+ * A pressure in pascals with three significant digits, in mPa below 0.1 Pa and kPa from 1000 Pa:
+ * formatPa(0.0421) → "42.1 mPa", formatPa(3.2) → "3.20 Pa".
+ */
+export function formatPa(pa: number | null | undefined, reason = 'no signal'): string {
+  if (!isShowable(pa)) return formatMissing(reason);
+  const abs = Math.abs(pa);
+  if (abs !== 0 && abs < 0.1) return formatQuantity(pa * 1000, 'mPa', null, { significant: 3 });
+  if (abs >= 1000) return formatQuantity(pa / 1000, 'kPa', null, { significant: 3 });
+  return formatQuantity(pa, 'Pa', null, { significant: 3 });
+}

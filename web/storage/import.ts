@@ -89,8 +89,8 @@ export function parseWav(bytes: Uint8Array, where: string): { sampleRateHz: numb
       }
       for (let i = 0; i < n; i++) {
         const x = out[i];
-        // NaN fails both comparisons, so it is caught here too.
-        if (!(x >= -16 && x <= 16)) throw new ImportError(`${where} holds a sample out of range at ${i}.`);
+        // Any finite sample is audio the app may hold (a float WAV may exceed full scale); only NaN and ±∞ are refused.
+        if (!Number.isFinite(x)) throw new ImportError(`${where} holds a non-finite sample at ${i}.`);
       }
       return { sampleRateHz: fmt.rate, samples: out };
     }
@@ -166,7 +166,8 @@ export function readBundle(bytes: Uint8Array, limits: ZipLimits = DEFAULT_ZIP_LI
     if (item.hasAudio) {
       const wavName = `${item.folder}/audio.wav`;
       const wav = parseWav(read(wavName), wavName);
-      if (wav.sampleRateHz !== file.session.meta.sampleRateHz) throw new ImportError(`${wavName} runs at ${wav.sampleRateHz} Hz, but the session says ${file.session.meta.sampleRateHz} Hz.`);
+      // A WAV header holds whole hertz; a session at a fractional rate keeps its exact rate in session.json.
+      if (wav.sampleRateHz !== Math.max(1, Math.round(file.session.meta.sampleRateHz))) throw new ImportError(`${wavName} runs at ${wav.sampleRateHz} Hz, but the session says ${file.session.meta.sampleRateHz} Hz.`);
       if (wav.samples.length !== file.session.audio.sampleCount) throw new ImportError(`${wavName} holds ${wav.samples.length} samples, but the session says ${file.session.audio.sampleCount}.`);
       audio = wav.samples;
     } else if (file.session.audio.sampleCount !== 0) {

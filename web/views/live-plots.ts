@@ -6,7 +6,7 @@
  */
 import uPlot from 'uplot';
 import 'uplot/dist/uPlot.min.css';
-import { fitLineOf, rowCount, rowIndex, type LiveBuffer } from './live-buffer';
+import { fitLineOf, rowCount, rowIndex, type LiveBuffer } from '../run/live-buffer';
 
 export interface LivePlots {
   /** Redraws from the buffer when it changed since the last call. */

@@ -3,7 +3,7 @@
  * at the right, frequency upwards (logarithmic) over the band of interest, level as colour from −120 to 0 dBFS.
  * The column image is allocated once; drawing a column shifts the canvas and writes one strip.
  */
-import type { LiveBuffer } from './live-buffer';
+import type { LiveBuffer } from '../run/live-buffer';
 
 export interface Spectrogram {
   draw(): void;

@@ -5,7 +5,7 @@
  */
 import type { Report } from '../../dsp/types';
 import { formatClock, formatDb, formatHz, formatQ, formatRate, formatRatio, formatSeconds } from '../format';
-import { hasMarkup } from '../storage/bundle-schema';
+import { TEXT_LIMITS } from '../storage/bundle-schema';
 import { buildBundle, sessionBaseName, sessionWav, shareOrDownload, trackCsv } from '../storage/export';
 import { buildReportHtml } from '../storage/report-html';
 import { loadFullSession, updateSessionMeta, type FullSession } from '../storage/sessions';
@@ -13,6 +13,7 @@ import { SERIES_COLORS, timeChart } from './session-charts';
 import { formatLocalStamp, sessionTitle, type SessionsContext, type SessionView } from './session-context';
 import { cssVar, formatBytes, h, table } from './session-dom';
 import { conditionsEditor, markerEditor } from './session-edit';
+import { reanalysisPanel } from './session-reanalyse';
 
 /** Rows of the result table: label and formatted value (with unit and interval). */
 export function summaryRows(report: Report | null, calibrationOffsetDb?: number): [string, string][] {
@@ -47,11 +48,11 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   const offset = typeof m.calibrationOffsetDb === 'number' && Number.isFinite(m.calibrationOffsetDb) ? m.calibrationOffsetDb : undefined;
 
   // Editable details.
-  const site = h('input', { attrs: { type: 'text', id: 'edit-site', maxlength: '200', autocomplete: 'off' } });
+  const site = h('input', { attrs: { type: 'text', id: 'edit-site', maxlength: String(TEXT_LIMITS.site), autocomplete: 'off' } });
   site.value = m.site;
-  const equipment = h('input', { attrs: { type: 'text', id: 'edit-equipment', maxlength: '200', autocomplete: 'off' } });
+  const equipment = h('input', { attrs: { type: 'text', id: 'edit-equipment', maxlength: String(TEXT_LIMITS.equipment), autocomplete: 'off' } });
   equipment.value = m.equipment;
-  const notes = h('textarea', { attrs: { id: 'edit-notes', rows: '4', maxlength: '20000' } });
+  const notes = h('textarea', { attrs: { id: 'edit-notes', rows: '4', maxlength: String(TEXT_LIMITS.notes) } });
   notes.value = m.notes;
   const formMsg = h('p', { className: 'hint', attrs: { 'aria-live': 'polite' } });
   const save = h('button', { className: 'small-button', text: 'Save details', attrs: { type: 'submit' } });
@@ -68,13 +69,6 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   );
   form.addEventListener('submit', async (e) => {
     e.preventDefault();
-    const fields: [string, string][] = [['Site', site.value], ['Equipment', equipment.value], ['Notes', notes.value]];
-    const bad = fields.find(([, v]) => hasMarkup(v));
-    if (bad) {
-      formMsg.className = 'field-error';
-      formMsg.textContent = `${bad[0]}: text may not contain HTML-like tags such as <b> or script links (write "less than" or add a space after "<").`;
-      return;
-    }
     try {
       const next = await updateSessionMeta(db, id, { site: site.value.trim(), equipment: equipment.value.trim(), notes: notes.value });
       full.record = next;
@@ -171,6 +165,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
     segs,
     noise,
     markers,
+    reanalysisPanel(full, () => ctx.go(id)),
     notesList.length ? h('div', {}, h('h3', { className: 'section-title', text: 'Warnings and history' }), h('ul', { className: 'notes' }, ...notesList.map((w) => h('li', { text: w })))) : null,
     form,
     conditions,

@@ -6,7 +6,7 @@
  */
 import type { DuctGeometry, Marker } from '../../dsp/types';
 import { formatClock } from '../format';
-import { hasMarkup } from '../storage/bundle-schema';
+import { TEXT_LIMITS } from '../storage/bundle-schema';
 import type { SessionDb, SessionRecord } from '../storage/db';
 import { updateSessionMarkers, updateSessionMeta } from '../storage/sessions';
 import { h } from './session-dom';
@@ -30,7 +30,7 @@ function numberInput(id: string, value: number | undefined, step = 'any'): HTMLI
 export function markerEditor(db: SessionDb, id: string, markers: Marker[], onSaved: (m: Marker[]) => void): HTMLElement {
   if (markers.length === 0) return h('p', { className: 'hint', text: 'No markers were set while recording.' });
   const msg = h('p', { className: 'hint', attrs: { 'aria-live': 'polite' } });
-  const rows = markers.map((m, k) => ({ m, value: numberInput(`marker-value-${k}`, m.value), unit: h('input', { attrs: { type: 'text', id: `marker-unit-${k}`, maxlength: '30', autocomplete: 'off' } }) }));
+  const rows = markers.map((m, k) => ({ m, value: numberInput(`marker-value-${k}`, m.value), unit: h('input', { attrs: { type: 'text', id: `marker-unit-${k}`, maxlength: String(TEXT_LIMITS.markerUnit), autocomplete: 'off' } }) }));
   rows.forEach((r) => (r.unit.value = r.m.unit ?? ''));
   const form = h(
     'form',
@@ -62,16 +62,11 @@ export function markerEditor(db: SessionDb, id: string, markers: Marker[], onSav
     e.preventDefault();
     const next: Marker[] = [];
     for (const [k, r] of rows.entries()) {
-      const value = readNumber(r.value, -1e9, 1e9);
+      const value = readNumber(r.value, -Number.MAX_VALUE, Number.MAX_VALUE);
       const unit = r.unit.value.trim();
       if (Number.isNaN(value)) {
         msg.className = 'field-error';
-        msg.textContent = `Marker ${k + 1}: the control value must be a number between −1e9 and 1e9, or empty.`;
-        return;
-      }
-      if (hasMarkup(unit)) {
-        msg.className = 'field-error';
-        msg.textContent = `Marker ${k + 1}: the unit may not contain HTML-like tags.`;
+        msg.textContent = `Marker ${k + 1}: the control value must be a number, or empty.`;
         return;
       }
       const { value: _v, unit: _u, ...rest } = r.m;

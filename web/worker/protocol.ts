@@ -6,7 +6,7 @@
  * MessagePort handed over in `start`; the worker runs dsp/ on them and posts batched `update`s
  * (about 15 per second) to the app, which only draws them.
  */
-import type { AnalysisConfig, AnalysisUpdate, Marker, Report } from '../../dsp/types';
+import type { AnalysisConfig, AnalysisUpdate, Interval, Marker, Report } from '../../dsp/types';
 import type { LiveSummary } from './live-summary';
 
 /** Where the samples of a run come from. */
@@ -51,6 +51,8 @@ export interface AnalyseFileRequest {
   config: AnalysisConfig;
   channels: Float32Array[];
   isKeepingAudio: boolean;
+  /** Markers of the record (re-analysis of a stored session), placed before the samples are analysed. */
+  markers?: Marker[];
 }
 
 /**
@@ -81,6 +83,23 @@ export interface ReadyMessage {
   id: number;
 }
 
+/**
+ * How close the quiet system is to humming: the linear growth rate of its least-damped mode
+ * (negative = stable; −growth rate is the decay rate of the quiet system), with its 95 % interval,
+ * estimated while it runs (e.g. from the noise that excites the mode). The verdict of the Listen
+ * screen uses it when present.
+ */
+export interface MarginEstimate {
+  frequencyHz: number;
+  growthRatePerS: number;
+  growthRateCi95PerS: Interval;
+  /** How it was estimated, in words for the user (e.g. "from the noise-excited resonance"). */
+  method: string;
+  /** Time span of the data behind it, s. */
+  startS: number;
+  endS: number;
+}
+
 /** Worker → app: what changed since the previous update. */
 export interface UpdateMessage extends AnalysisUpdate {
   type: 'update';
@@ -93,6 +112,8 @@ export interface UpdateMessage extends AnalysisUpdate {
   summary: LiveSummary;
   /** Last frequency of the main tone the track followed, Hz (NaN before any); segments of other tones are not the main story. */
   mainFrequencyHz: number;
+  /** Latest margin of the quiet system, when the analysis has one (absent: unchanged). */
+  margin?: MarginEstimate | null;
 }
 
 /** Worker → app: samples for the session store (mono, run sample rate). */
@@ -140,6 +161,10 @@ export interface ErrorMessage {
 
 export type FromWorker = ReadyMessage | UpdateMessage | AudioMessage | ProgressMessage | FileFormatMessage | ReportMessage | ErrorMessage;
 
+/** Sample rates a run accepts, Hz: pressure-sensor logs from 500 Hz, audio up to 192 kHz. */
+export const MIN_SAMPLE_RATE_HZ = 500;
+export const MAX_SAMPLE_RATE_HZ = 192_000;
+
 const TO_WORKER_TYPES: ReadonlySet<string> = new Set(['start', 'block', 'gap', 'mark', 'analyse-file', 'analyse-wav', 'finish']);
 const FROM_WORKER_TYPES: ReadonlySet<string> = new Set(['ready', 'update', 'audio', 'progress', 'file-format', 'report', 'error']);
 
@@ -162,8 +187,8 @@ export function parseToWorker(data: unknown): { ok: true; message: ToWorker } | 
     case 'analyse-file': {
       const config = rec.config as Record<string, unknown> | undefined;
       const rate = config?.sampleRateHz;
-      if (typeof rate !== 'number' || !Number.isFinite(rate) || rate < 8000 || rate > 192_000) {
-        return { ok: false, reason: `sample rate ${String(rate)} Hz is outside 8000–192000 Hz` };
+      if (typeof rate !== 'number' || !Number.isFinite(rate) || rate < MIN_SAMPLE_RATE_HZ || rate > MAX_SAMPLE_RATE_HZ) {
+        return { ok: false, reason: `sample rate ${String(rate)} Hz is outside ${MIN_SAMPLE_RATE_HZ}–${MAX_SAMPLE_RATE_HZ} Hz` };
       }
       if (data.type === 'analyse-file') {
         const ch = rec.channels;
