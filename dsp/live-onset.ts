@@ -26,8 +26,8 @@ const FRAME_S = 0.016;
 const HOPS_PER_FRAME = 4;
 /** Background time constant, s: long against a growth's rise, short against a session. */
 const BACKGROUND_S = 3;
-/** Frames of warm-up before any alarm (the background needs some frames), s. */
-const WARM_UP_S = 1;
+/** Warm-up before any alarm, s: the background mean and variance need a few hundred frames. */
+const WARM_UP_S = 2;
 /** CUSUM reference value k, in background sd: half the shift it is tuned to (Page 1954), 2 sd (about 11 dB of log-power): a growing tone soon stands several sd up. */
 const CUSUM_K = 1;
 /** All bins together give one false CUSUM alarm in this many hours of toneless noise. */
@@ -262,7 +262,8 @@ function processFrame(st: LiveOnsetState): void {
     const d = y - st.mean[b] - common;
     st.devRing[b * st.runMax + (frame % st.runMax)] = d;
     const sd = Math.max(SIGMA_MIN_NP, Math.sqrt(st.variance[b]));
-    const s = Math.max(0, st.cusum[b] + d / sd - CUSUM_K);
+    // No run starts before the background has settled.
+    const s = isWarm ? Math.max(0, st.cusum[b] + d / sd - CUSUM_K) : 0;
     st.cusum[b] = s;
     if (s === 0) {
       // In control: the background follows (the common shift included, so it tracks loudness).
@@ -273,7 +274,7 @@ function processFrame(st: LiveOnsetState): void {
       st.variance[b] += a * (d * d - st.variance[b]);
       continue;
     }
-    if (!isWarm || s <= st.threshold) continue;
+    if (s <= st.threshold) continue;
     const len = Math.min(frame - st.runStart[b], st.runMax);
     if (frame >= st.holdUntil[b] && isPeak(st, b) && isRising(st, b, len)) {
       if (st.onsetCount < MAX_ONSETS_PER_STEP) {
