@@ -14,7 +14,7 @@
 import { basebandFilter, dftAnyLength, fitLorentzianWhittle, mixDownDecimate } from './damping';
 import { estimateEnvelopeStatistics, type BandFilterEffect, type ComplexEnvelope, type RouteEstimate } from './envelope-statistics';
 import { incompleteBeta, Z_975 } from './fit';
-import type { Interval, NoiseRegime } from './types';
+import type { Interval, ModeStatistics, NoiseRegime } from './types';
 
 /** Least stretch of steady operation for a verdict, s (issue requirement; at 20 s and |ν| = 5 1/s the interval is about ±1 1/s, REFERENCES.md §7). */
 export const MODE_STATISTICS_MIN_S = 20;
@@ -287,4 +287,31 @@ export function estimateModeStatistics(
     routes,
     durationS,
   };
+}
+
+/**
+ * The report entry (types.ts ModeStatistics) for one stretch of steady operation x (at sampleRateHz,
+ * spanning startS–endS of the record) around a mode near centreHz: null fields and regime
+ * 'undetermined' with the reason when no route gave an estimate.
+ */
+export function modeStatisticsEntry(
+  x: Float32Array,
+  sampleRateHz: number,
+  p: { centreHz: number; startS: number; endS: number; isClipped: boolean },
+): ModeStatistics {
+  const r = estimateModeStatistics(x, sampleRateHz, { centreHz: p.centreHz, isClipped: p.isClipped });
+  const finite = (v: number): number | null => (Number.isFinite(v) ? v : null);
+  const entry: ModeStatistics = {
+    frequencyHz: Number.isFinite(r.frequencyHz) ? r.frequencyHz : p.centreHz,
+    startS: p.startS,
+    endS: p.endS,
+    linearGrowthRatePerS: r.isValid ? r.growthRatePerS : null,
+    linearGrowthRateCi95PerS: r.isValid && Number.isFinite(r.ci95PerS[0]) && Number.isFinite(r.ci95PerS[1]) ? [r.ci95PerS[0], r.ci95PerS[1]] : null,
+    saturation: r.isValid ? finite(r.saturation) : null,
+    noiseIntensity: r.isValid ? finite(r.noiseIntensity) : null,
+    regime: r.regime,
+    method: r.method,
+  };
+  if (r.reason !== undefined) entry.reason = r.reason;
+  return entry;
 }

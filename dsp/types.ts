@@ -20,7 +20,8 @@ export interface AnalysisConfig {
   bandLowHz?: number;
   bandHighHz?: number;
   /**
-   * Bits of an integer sample format (a 16-bit WAV: 16). A tone must stand above the format's
+   * Bits of the sample format over full scale (a 16-bit WAV: 16; a CSV: log2(2/step) of its
+   * printed resolution after scaling, maybe fractional). A tone must stand above the format's
    * quantisation error (dsp/levels.ts quantisationFloorDbfs): a weaker line may be a product of
    * quantising a strong tone. Omitted (or 0) for float samples and live audio.
    */

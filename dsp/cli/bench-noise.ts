@@ -6,7 +6,7 @@
  *   RMS error of the ideal estimator on the exact (noise-free, unfiltered) envelope of the same
  *   trials (target: ≤ 2×); coverage of the 95 % intervals (target 90–98 % over all trials); the
  *   regime called (a definite call must have the truth's sign; 'near threshold' is right when the
- *   interval holds the truth).
+ *   interval holds the truth; target ≥ 90 %, as the call follows the interval).
  * - Heated tube (dsp/rig-sim.ts) with flow noise just below and just above its critical heater
  *   power: ν from the statistics against the characteristic equation's rate, and, on the same run,
  *   against the growth rate the analyser fits when the power is switched up.
@@ -84,7 +84,8 @@ function normalFormRows(row: RowFn): void {
       ratio <= 2 && err.length === trials ? 'PASS' : 'MISS',
     );
     row(`ν = ${nu} 1/s: intervals holding the truth`, `${covered} of ${trials}`, '—', 'info');
-    row(`ν = ${nu} 1/s: regime right (definite calls)`, `${right} of ${trials} (${decisive} definite)`, `${trials} of ${trials}`, right === trials ? 'PASS' : 'MISS');
+    // The call follows the 95 % interval, so it can be no more often right than the interval covers.
+    row(`ν = ${nu} 1/s: regime right (definite calls)`, `${right} of ${trials} (${decisive} definite)`, '≥ 90 %', right >= 0.9 * trials ? 'PASS' : 'MISS');
   }
   const coverage = (100 * coveredAll) / trialsAll;
   row('all trials: 95 % intervals holding the truth', `${num(coverage, 3)} % of ${trialsAll}`, '90–98 %', coverage >= 90 && coverage <= 98 ? 'PASS' : 'MISS');

@@ -46,7 +46,7 @@ describe('phone layout', () => {
     // The growth interval sits on its own unbroken line under the value.
     const ci = page.locator('#readout-growth .tile-value .ci');
     expect(await ci.count()).toBe(1);
-    expect(await ci.evaluate((e) => getComputedStyle(e).whiteSpace)).toBe('nowrap');
+    expect(await ci.evaluate((e) => getComputedStyle(e).display)).toBe('block');
     expect(await ci.evaluate((e) => Number(getComputedStyle(e).fontWeight))).toBeLessThan(600);
     await screenshot(page, 'phone-listen-result');
   });

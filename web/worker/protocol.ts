@@ -8,6 +8,7 @@
  */
 import type { AnalysisConfig, AnalysisUpdate, Interval, Marker, Report } from '../../dsp/types';
 import type { LiveSummary } from './live-summary';
+import { MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ } from '../../dsp/condition';
 
 /** Where the samples of a run come from. */
 export type RunSource = 'microphone' | 'file';
@@ -200,9 +201,8 @@ export interface ErrorMessage {
 
 export type FromWorker = ReadyMessage | UpdateMessage | AudioMessage | ProgressMessage | FileFormatMessage | ReportMessage | ErrorMessage;
 
-/** Sample rates a run accepts, Hz: pressure-sensor logs from 500 Hz, audio up to 192 kHz. */
-export const MIN_SAMPLE_RATE_HZ = 500;
-export const MAX_SAMPLE_RATE_HZ = 192_000;
+/** Sample rates a run accepts, Hz: the analysis's own limits (sensor logs from 500 Hz, audio up to 192 kHz). */
+export { MIN_SAMPLE_RATE_HZ, MAX_SAMPLE_RATE_HZ };
 
 const TO_WORKER_TYPES: ReadonlySet<string> = new Set(['start', 'block', 'gap', 'mark', 'analyse-file', 'analyse-wav', 'finish']);
 const FROM_WORKER_TYPES: ReadonlySet<string> = new Set(['ready', 'update', 'audio', 'progress', 'file-format', 'report', 'error']);
