@@ -27,7 +27,7 @@ export function regimeKind(code: number): RegimeKind {
 export const ON_DB = 12;
 const ON_HOLD_S = 0.08;
 /** Excess at or below which the tone is taken as still at the background (growth start), dB. */
-const LOW_DB = 3;
+export const LOW_DB = 3;
 /** Excess below which a decay has reached the background, dB, and the hold, s. */
 const QUIET_DB = 6;
 const QUIET_HOLD_S = 0.15;
@@ -51,11 +51,11 @@ const MIN_QUIET_S = 0.5;
 const START_DB = 10;
 const WARMUP_S = 2;
 const WARMUP_HEAD_S = 0.3;
-const WARMUP_LAG_S = 0.2;
+export const NOISE_TEST_LAG_S = 0.2;
 /** Stretch at the start over which a sounding tone must look deterministic, s. */
 const WARMUP_HEAD_D2_S = 1.0;
 /** Mean square second difference of ln A² above which the envelope is noise (noise ≈ 6-10, tone < 1). */
-const NOISE_D2 = 2.5;
+export const NOISE_D2 = 2.5;
 /** Time constant of the quiet baseline, s. */
 const BASELINE_TAU_S = 3;
 
@@ -191,6 +191,22 @@ function enterDecay(st: RegimeState): void {
 }
 
 /**
+ * Mean square of the second difference ln p(i+lag) − 2 ln p(i) + ln p(i−lag) over i in
+ * [from + lag, to − lag); NaN when there is no such i. The noise test of endWarmup (below) and
+ * of the report's noise relabelling (noise-label.ts), with NOISE_D2 as threshold.
+ */
+export function logSecondDifferenceMs(p: ArrayLike<number>, from: number, to: number, lag: number): number {
+  let d2 = 0;
+  let cnt = 0;
+  for (let i = from + lag; i + lag < to; i++) {
+    const d = Math.log(Math.max(p[i + lag], 1e-30)) - 2 * Math.log(Math.max(p[i], 1e-30)) + Math.log(Math.max(p[i - lag], 1e-30));
+    d2 += d * d;
+    cnt++;
+  }
+  return cnt === 0 ? Number.NaN : d2 / cnt;
+}
+
+/**
  * Decides the initial state from the warm-up samples and replays them through the detector.
  * Noise (and a noise-driven resonance) makes ln A² jump about at random: with lags L longer than
  * the envelope's correlation time the second difference ln A²(t+L) − 2 ln A²(t) + ln A²(t−L) has
@@ -203,17 +219,11 @@ function enterDecay(st: RegimeState): void {
 function endWarmup(st: RegimeState): void {
   const n = st.warmCount;
   if (n === 0) return;
-  const lag = Math.max(1, Math.round(WARMUP_LAG_S * st.rateHz));
+  const lag = Math.max(1, Math.round(NOISE_TEST_LAG_S * st.rateHz));
   // Mean square second difference of ln A² over warm-up samples [from, to).
   const secondDiff = (from: number, to: number): number => {
-    let d2 = 0;
-    let cnt = 0;
-    for (let i = from + lag; i + lag < to; i++) {
-      const d = Math.log(Math.max(st.warmP[i + lag], 1e-30)) - 2 * Math.log(Math.max(st.warmP[i], 1e-30)) + Math.log(Math.max(st.warmP[i - lag], 1e-30));
-      d2 += d * d;
-      cnt++;
-    }
-    return cnt === 0 ? Infinity : d2 / cnt;
+    const v = logSecondDifferenceMs(st.warmP, from, to, lag);
+    return Number.isNaN(v) ? Infinity : v;
   };
   const isNoiseLike = secondDiff(0, n) > NOISE_D2;
   // The first WARMUP_HEAD_S: is a tone already sounding? (Judged on the head alone, so a tone

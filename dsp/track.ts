@@ -111,6 +111,18 @@ export function matchToleranceHz(binHz: number, freqHz: number): number {
   return Math.max(1.5 * binHz, 0.02 * freqHz);
 }
 
+/** Highest harmonic number grouped under a tone (a limit cycle's waveform reaches k ≈ 20 in a 4 kHz band). */
+export const MAX_HARMONIC = 20;
+
+/**
+ * Tolerance for a line at n·f0 to be the n-th harmonic of a tone tracked at f0, Hz: the harmonic's
+ * own peak error (3/4 bin) plus n times the tracked fundamental's uncertainty (a quarter bin, or
+ * 1 % while it drifts in a growth; common practice: errors of f0 scale with the harmonic number).
+ */
+export function harmonicToleranceHz(binHz: number, f0Hz: number, n: number): number {
+  return 0.75 * binHz + n * Math.max(0.25 * binHz, 0.01 * f0Hz);
+}
+
 function appendHistory(t: ToneTrack, timeS: number, freqHz: number): void {
   if (t.histCount === t.histTimeS.length) {
     // Doubling growth: amortised, bounded by frames seen (~12 per second).

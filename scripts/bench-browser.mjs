@@ -5,6 +5,7 @@
 //   4. storage: opening a 10-minute recording and importing its bundle, each in a fresh profile:
 //      time, peak renderer memory and the longest main-thread stall (target: every stall < 100 ms).
 // Usage: node scripts/bench-browser.mjs [--dist dist] [--port 4196] [--seconds 120] [--no-store]
+// (the port defaults to E2E_PORT when set, as for the browser tests, else 4196).
 // Needs a built app (npx vite build) and Debian's chromium (or CHROMIUM_PATH).
 import { spawn, execSync } from 'node:child_process';
 import { mkdtempSync, readFileSync, writeFileSync, existsSync, mkdirSync, readdirSync, copyFileSync } from 'node:fs';
@@ -19,7 +20,7 @@ const opt = (name, fallback) => {
   return i >= 0 && args[i + 1] ? args[i + 1] : fallback;
 };
 const DIST = opt('dist', 'dist');
-const PORT = Number(opt('port', '4196')); // not 4190: browsers and fetch refuse that port (on the "bad ports" list)
+const PORT = Number(opt('port', process.env.E2E_PORT || '4196')); // not 4190: browsers and fetch refuse that port (on the "bad ports" list)
 const SECONDS = Number(opt('seconds', '120'));
 const URL = `http://127.0.0.1:${PORT}/`;
 

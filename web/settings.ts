@@ -27,6 +27,8 @@ export interface Settings {
   bandHighHz: number;
   /** Show the level readout A-weighted (IEC 61672-1) when calibrated. */
   isAWeighted: boolean;
+  /** Time weighting of the level readout (IEC 61672-1 §5.8): 'slow' 1 s or 'fast' 0.125 s. */
+  levelWeighting: 'slow' | 'fast';
   theme: Theme;
   /** Keep the raw audio with each session (larger storage). */
   isKeepingAudio: boolean;
@@ -47,6 +49,7 @@ export function defaultSettings(): Settings {
     bandLowHz: 20,
     bandHighHz: 4000,
     isAWeighted: false,
+    levelWeighting: 'slow',
     theme: 'daylight',
     isKeepingAudio: true,
     isExportingFloatAudio: false,
@@ -115,6 +118,7 @@ export function loadSettings(store: KeyValueStore | null = browserStore()): Sett
     s.bandHighHz = r.bandHighHz;
   }
   if (typeof r.isAWeighted === 'boolean') s.isAWeighted = r.isAWeighted;
+  if (r.levelWeighting === 'slow' || r.levelWeighting === 'fast') s.levelWeighting = r.levelWeighting;
   if (r.theme === 'daylight' || r.theme === 'dark') s.theme = r.theme;
   if (typeof r.isKeepingAudio === 'boolean') s.isKeepingAudio = r.isKeepingAudio;
   if (typeof r.isExportingFloatAudio === 'boolean') s.isExportingFloatAudio = r.isExportingFloatAudio;

@@ -17,6 +17,18 @@ export interface DecodedFile {
   decodedBy: string;
   /** Notes for the user (e.g. scaling of a CSV). */
   notes: string[];
+  /** True for pressure-sensor data (a CSV), not a microphone's sound. */
+  isSensor?: boolean;
+  /** For sensor data in pascals: pascals per full scale of the samples handed on. */
+  pascalsPerFullScale?: number;
+}
+
+/** What the user may tell about a file before it is read. */
+export interface FileOptions {
+  /** Sample rate of a one-column CSV (no time column), Hz; overrides the time column's rate otherwise. */
+  csvRateHz?: number;
+  /** Unit of the CSV values: pascals (the default, as the command line takes them) or another unit. */
+  csvUnit?: 'Pa' | 'other';
 }
 
 /** Sample rate used when the browser decodes a compressed file (it resamples to this), Hz. */
@@ -55,7 +67,7 @@ function isCsvName(name: string): boolean {
  * Reads and decodes `file`. Throws FileProblem with a message that names the file and the problem.
  * The browser decoder needs an audio context; a short-lived OfflineAudioContext is used.
  */
-export async function decodeAudioFile(file: File): Promise<DecodedFile> {
+export async function decodeAudioFile(file: File, options: FileOptions = {}): Promise<DecodedFile> {
   const name = file.name || 'the file';
   if (file.size === 0) throw new FileProblem(`“${name}” is empty (0 bytes): there is nothing to analyse.`);
   let bytes: Uint8Array;
@@ -86,22 +98,35 @@ export async function decodeAudioFile(file: File): Promise<DecodedFile> {
     }
   } else if (isCsvName(name)) {
     try {
-      const { samples, summary } = decodeCsv(bytes);
+      const { samples, summary } = decodeCsv(bytes, options.csvRateHz ? { rateHz: options.csvRateHz } : {});
       // Sensor values arrive in their own unit (e.g. Pa): scale so the peak sits at half full scale.
       // Rates, frequencies and regimes are unchanged by a constant factor; levels read in dB re peak.
       const peak = Math.max(Math.abs(summary.minValue), Math.abs(summary.maxValue));
       const gain = peak > 0 ? 0.5 / peak : 1;
       for (let i = 0; i < samples.length; i++) samples[i] *= gain;
+      const isPascal = options.csvUnit !== 'other';
+      const rateNote = options.csvRateHz
+        ? [`Sample rate ${options.csvRateHz} Hz as typed${summary.timeRateHz !== null ? ` (the time column says ${summary.timeRateHz.toPrecision(6)} Hz)` : ''}.`]
+        : [];
       return {
+        isSensor: true,
+        ...(isPascal && peak > 0 ? { pascalsPerFullScale: peak / 0.5 } : {}),
         fileName: name,
         sampleRateHz: summary.sampleRateHz,
         channels: [samples],
         durationS: summary.durationS,
         decodedBy: `CSV, ${summary.rows} rows${summary.valueColumnName ? ` of “${summary.valueColumnName}”` : ''}`,
-        notes: [`Values were scaled so the largest (${peak.toPrecision(4)}) reads −6 dBFS; levels in dBFS are relative to that.`],
+        notes: [
+          ...rateNote,
+          isPascal
+            ? `Values read as pressure in Pa (largest ${peak.toPrecision(4)} Pa): amplitudes are shown in Pa and dB SPL.`
+            : `Values were scaled so the largest (${peak.toPrecision(4)}) reads −6 dBFS; levels in dBFS are relative to that. (Values were marked as another unit than Pa.)`,
+        ],
       };
     } catch (err) {
-      throw new FileProblem(`“${name}” could not be read as a pressure table (CSV): ${err instanceof Error ? err.message : String(err)}.`);
+      const why = err instanceof Error ? err.message : String(err);
+      const hint = /rate/i.test(why) && !options.csvRateHz ? ' For a one-column file, type its sample rate in “Sample rate of a one-column CSV” first.' : '';
+      throw new FileProblem(`“${name}” could not be read as a pressure table (CSV): ${why}.${hint}`);
     }
   }
 

@@ -137,6 +137,20 @@ export async function updateSessionMarkers(db: SessionDb, id: string, markers: M
   await tx.done;
 }
 
+/**
+ * Replaces the report and markers of a session after a re-analysis of its stored audio (the
+ * track recorded live stays as it was), and notes it in the session's history.
+ */
+export async function replaceSessionReport(db: SessionDb, id: string, report: Report, markers: Marker[], note: string, nowMs = Date.now()): Promise<SessionRecord> {
+  const tx = db.transaction('sessions', 'readwrite');
+  const rec = await tx.store.get(id);
+  if (!rec) throw new Error(`No session with id ${id}`);
+  const next: SessionRecord = { ...rec, report, markers, durationS: report.durationS, updatedAtMs: nowMs, history: [...rec.history, note] };
+  await tx.store.put(next);
+  await tx.done;
+  return next;
+}
+
 /** Everything removed by a delete, kept in memory so the delete can be undone. */
 export interface DeletedSession {
   record: SessionRecord;

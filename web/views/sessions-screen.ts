@@ -171,7 +171,7 @@ async function renderList(host: HTMLElement, ctx: SessionsContext): Promise<Sess
 
   const listItem = (s: SessionRecord): HTMLElement => {
     const sum = s.report?.summary;
-    const box = h('input', { attrs: { type: 'checkbox', 'aria-label': `Select ${sessionTitle(s.meta.site, s.meta.equipment)}` } });
+    const box = h('input', { attrs: { type: 'checkbox', 'aria-label': `Select ${sessionTitle(s.meta.site, s.meta.equipment, s.meta.fileName)}` } });
     box.checked = selected.has(s.id);
     box.addEventListener('change', () => {
       if (box.checked) selected.add(s.id);
@@ -186,7 +186,7 @@ async function renderList(host: HTMLElement, ctx: SessionsContext): Promise<Sess
       h(
         'div',
         { className: 'session-main' },
-        h('a', { className: 'session-link', text: sessionTitle(s.meta.site, s.meta.equipment), attrs: { href: `#sessions/${encodeURIComponent(s.id)}` } }),
+        h('a', { className: 'session-link', text: sessionTitle(s.meta.site, s.meta.equipment, s.meta.fileName), attrs: { href: `#sessions/${encodeURIComponent(s.id)}` } }),
         badge,
         h('div', { className: 'session-facts', text: `${formatLocalStamp(s.createdAtMs)} · ${formatSeconds(s.durationS)}${s.audio.sampleCount > 0 ? ' · audio' : ''}` }),
         h('div', { className: 'session-facts', text: sum ? `${formatHz(sum.frequencyHz)} · growth ${formatRate(sum.growthRatePerS, sum.growthRateCi95PerS, 'none')} · decay ${formatRate(sum.decayRatePerS, sum.decayRateCi95PerS, 'none')}` : 'no report' }),

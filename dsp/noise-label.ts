@@ -1,0 +1,106 @@
+/**
+ * Line classification by envelope statistics (docs/DESIGN.md "Noise segments"): a growth or
+ * decay that the band's own noise explains is quiet, not a hum.
+ */
+import { logSecondDifferenceMs, NOISE_D2, NOISE_TEST_LAG_S, ON_DB, STATE_DECAY, STATE_GROWTH, STATE_QUIET, type RegimeSegment } from './regime';
+import { meanPower, topPowerIn, type ToneRuntime } from './tone-store';
+
+/** Window either side of a growth or decay in which its noise level is judged, s, and how far above the spectral background that level may lie, dB. */
+const NOISE_PAD_S = 1;
+const NOISE_SPAN_DB = 20;
+/** Quantile of the envelope power that estimates the band's own noise, (the mean of an exponential variable is its q-quantile / −ln(1 − q)). */
+const NOISE_QUANTILE = 0.2;
+
+/**
+ * Whether a growth or decay segment is noise, reading the store up to entry `limit` (exclusive).
+ * The noise level around a segment is the band's own level where it is lowest: the 20th
+ * percentile of the envelope power over the segment and NOISE_PAD_S either side, divided by
+ * −ln 0.8 (A² of narrow-band noise is exponentially distributed). A segment whose top stays below
+ * ON_DB over that level holds no tone beyond chance (P(A² > 16·mean) = e^−16 per correlation
+ * time); the test applies only where that lowest level is itself within NOISE_SPAN_DB of the
+ * spectral background, or where the envelope jumps about as noise does (dsp/regime.ts NOISE_D2).
+ * Common practice for exponential envelope statistics.
+ */
+export function isNoiseSegment(tr: ToneRuntime, s: RegimeSegment, limit: number): boolean {
+  const pad = Math.round(NOISE_PAD_S * tr.env.outputRateHz);
+  const i0 = Math.max(tr.validFrom, s.startIdx - pad);
+  const i1 = Math.min(tr.n, limit, s.endIdx + pad);
+  const vals: number[] = [];
+  let bgSum = 0;
+  let bgCount = 0;
+  for (let k = i0; k < i1; k++) {
+    if (tr.clipped[k]) continue;
+    vals.push(tr.power[k]);
+    if (tr.bg[k] > 0) {
+      bgSum += tr.bg[k];
+      bgCount++;
+    }
+  }
+  if (vals.length < 8 || bgCount === 0) return false;
+  vals.sort((a, b) => a - b);
+  const noiseMean = vals[Math.floor(NOISE_QUANTILE * vals.length)] / -Math.log(0.8);
+  if (!(noiseMean < 10 ** (NOISE_SPAN_DB / 10) * (bgSum / bgCount))) {
+    // Far above the spectral background: noise only if the envelope jumps about as noise does
+    // (a noise-driven resonance), not if it is smooth (a dip in a loud tone).
+    const lag = Math.max(1, Math.round(NOISE_TEST_LAG_S * tr.env.outputRateHz));
+    const d2 = logSecondDifferenceMs(tr.power, i0, i1, lag);
+    if (!(d2 > NOISE_D2)) return false;
+  }
+  const top = topPowerIn(tr, s.startIdx, s.endIdx);
+  return !(top > 10 ** (ON_DB / 10) * noiseMean);
+}
+
+/** Growth and decay segments of noise become quiet (isNoiseSegment), and neighbouring quiet segments join. */
+export function relabelNoiseSegments(tr: ToneRuntime): void {
+  const segs = tr.regime.segments;
+  for (const s of segs) {
+    if ((s.state === STATE_GROWTH || s.state === STATE_DECAY) && isNoiseSegment(tr, s, tr.processed)) {
+      s.state = STATE_QUIET;
+      s.isOnset = false;
+      s.reachedSteady = false;
+    }
+  }
+  let w = 0;
+  for (let r = 0; r < segs.length; r++) {
+    const s = segs[r];
+    if (w > 0 && s.state === STATE_QUIET && segs[w - 1].state === STATE_QUIET && segs[w - 1].endIdx === s.startIdx) {
+      segs[w - 1].endIdx = s.endIdx;
+      continue;
+    }
+    segs[w++] = s;
+  }
+  segs.length = w;
+}
+
+/** Rise (dB) and least duration (envelope kernels) of a growth that makes a mains-frequency track a tone. */
+const MAINS_TONE_RISE_DB = 40;
+const MAINS_TONE_MIN_RISE_KERNELS = 2;
+
+/**
+ * A track on a mains frequency is a steady line, unless it grows out of the background the way a
+ * tone does: a growth segment after MIN_QUIET of quiet that rises MAINS_TONE_RISE_DB and takes
+ * longer than MAINS_TONE_MIN_RISE_KERNELS envelope kernels (a line switched on rises within about
+ * one kernel, the filter's own response to a step). Such a track becomes a tone and the growth an onset.
+ */
+export function reclaimMainsTone(tr: ToneRuntime): void {
+  const segs = tr.regime.segments;
+  const minQuiet = tr.regime.minQuiet;
+  const riseLin = 10 ** (MAINS_TONE_RISE_DB / 10);
+  let isTone = false;
+  for (let i = 1; i < segs.length; i++) {
+    const s = segs[i];
+    const prev = segs[i - 1];
+    if (s.state !== STATE_GROWTH || prev.state !== STATE_QUIET || prev.endIdx - prev.startIdx < minQuiet) continue;
+    if (s.endIdx - s.startIdx < MAINS_TONE_MIN_RISE_KERNELS * tr.env.kernelLength) continue;
+    const start = meanPower(tr, s.startIdx - tr.env.kernelLength, s.startIdx + 1, 1);
+    let top = 0;
+    for (let k = s.startIdx; k < s.endIdx; k++) if (!tr.clipped[k] && tr.power[k] > top) top = tr.power[k];
+    if (!(top > riseLin * start)) continue;
+    s.isOnset = true;
+    isTone = true;
+  }
+  if (isTone) {
+    tr.isSteadyLine = false;
+    tr.regime.allowOnsets = true;
+  }
+}
