@@ -136,6 +136,16 @@ async function freshBrowser(exe) {
   return { context, page, profileDir };
 }
 
+/** Closes the first-run notice when it shows (it appears a moment after load, once per profile). */
+async function dismissFirstRun(page) {
+  try {
+    await page.locator('#first-run-ok').waitFor({ state: 'visible', timeout: 4000 });
+    await page.click('#first-run-ok');
+  } catch {
+    /* not shown */
+  }
+}
+
 const longestStallMs = (page) => page.evaluate(() => Math.max(0, ...window.__stallsMs));
 const clearStalls = (page) => page.evaluate(() => void (window.__stallsMs.length = 0));
 
@@ -151,7 +161,7 @@ async function benchStore(exe) {
   try {
     await a.page.goto(URL);
     await a.page.waitForSelector('#listen-button');
-    if (await a.page.locator('#first-run-ok').count()) await a.page.click('#first-run-ok');
+    await dismissFirstRun(a.page);
     await clearStalls(a.page);
     out.open = await measured(a.profileDir, async () => {
       await a.page.setInputFiles('#file-input', wav);
@@ -172,7 +182,7 @@ async function benchStore(exe) {
   const b = await freshBrowser(exe);
   try {
     await b.page.goto(`${URL}#sessions`);
-    if (await b.page.locator('#first-run-ok').count()) await b.page.click('#first-run-ok');
+    await dismissFirstRun(b.page);
     await b.page.waitForSelector('#import-file', { state: 'attached' });
     await clearStalls(b.page);
     out.import = await measured(b.profileDir, async () => {

@@ -155,6 +155,14 @@ const report: fc.Arbitrary<Report> = fc
       fc.record({ startS: anyNumber, endS: anyNumber, frequencyHz: anyNumber, decayRatePerS: anyNumber, decayRateCi95PerS: interval, lorentzianDecayRatePerS: maybe(anyNumber), lorentzianCi95PerS: maybe(interval), autocorrelationDecayRatePerS: maybe(anyNumber), autocorrelationCi95PerS: maybe(interval) }).map(defined),
       { maxLength: 2 },
     ),
+    modeStatistics: maybe(
+      fc.array(
+        fc
+          .record({ frequencyHz: anyNumber, startS: anyNumber, endS: anyNumber, linearGrowthRatePerS: orNull(anyNumber), linearGrowthRateCi95PerS: orNull(interval), saturation: orNull(anyNumber), noiseIntensity: orNull(anyNumber), regime: fc.constantFrom('stable', 'near-threshold', 'humming', 'undetermined') as fc.Arbitrary<'stable' | 'near-threshold' | 'humming' | 'undetermined'>, method: fc.constantFrom('amplitude-pdf', 'drift-diffusion', 'lorentzian+disagree'), reason: maybe(anyText(300)) })
+          .map(defined),
+        { maxLength: 2 },
+      ),
+    ),
     summary: fc
       .record({
         frequencyHz: orNull(anyNumber), growthRatePerS: orNull(anyNumber), decayRatePerS: orNull(anyNumber), effectiveGainPerS: orNull(anyNumber), dampingRatio: orNull(anyNumber), qFactor: orNull(anyNumber),
