@@ -122,14 +122,15 @@ describe('sessions screen', () => {
     expect(csv.suggestedFilename()).toMatch(/-track\.csv$/);
     expect(readFileSync((await csv.path()) as string, 'utf8').split('\r\n')[0]).toMatch(/^time_s,frequency_hz,amplitude_dbfs/);
 
-    // Edit notes; markup is refused with a message, plain text saved.
-    await page.fill('#edit-notes', 'Baffle <script>alert(1)</script>');
+    // Edit site and notes: text is data, markup-like text included (saved as typed, shown as text, never run).
+    await page.fill('#edit-site', 'Boiler room 3 (east) <b>');
+    await page.fill('#edit-notes', 'Before the baffle; flow < 2 m/s. <script>window.__ran = 1</script>');
     await page.click('.session-edit button[type=submit]');
-    await expect.poll(() => page.locator('.session-edit .field-error').textContent()).toMatch(/may not contain HTML-like tags/);
+    await expect.poll(() => page.locator('#session-title').textContent()).toMatch(/^Boiler room 3 \(east\) <b> – /);
+    expect(await page.evaluate(() => (window as unknown as { __ran?: number }).__ran)).toBeUndefined();
     await page.fill('#edit-site', 'Boiler room 3 (east)');
-    await page.fill('#edit-notes', 'Before the baffle; flow < 2 m/s.');
     await page.click('.session-edit button[type=submit]');
-    await expect.poll(() => page.locator('.screen-sessions h2').first().textContent()).toMatch(/Boiler room 3 \(east\)/);
+    await expect.poll(() => page.locator('#session-title').textContent()).toMatch(/^Boiler room 3 \(east\) – /);
 
     // Control values of markers: a bad entry is refused, a good one kept.
     await page.fill('#marker-value-0', 'lots');
@@ -176,17 +177,19 @@ describe('sessions screen', () => {
     await screenshot(page, 'sessions-stability-map');
     await page.locator('.scatter-chart').first().screenshot({ path: join(SCREEN_DIR, 'sessions-map-rate-chart.png') });
 
-    // A hostile bundle: refused with a message, nothing changed.
+    // A bundle whose text looks like markup: text is data, imported and shown as typed, never run.
     const hostile = sampleSession({ id: 'hostile-0003' });
-    hostile.record.meta.notes = '<img src=x onerror=alert(1)>';
+    hostile.record.meta.notes = '<img src=x onerror="window.__ran=1">';
     const hostilePath = join(TMP, 'hostile.zip');
     writeFileSync(hostilePath, buildBundle([hostile]));
     await page.goto(`${APP_URL}#sessions`);
     await page.waitForSelector('#import-file', { state: 'attached' });
     await page.setInputFiles('#import-file', hostilePath);
-    await expect.poll(() => page.locator('#status').textContent()).toMatch(/was not imported; nothing was changed.*notes holds HTML or script markup/);
-    expect(await page.locator('.session-item').count()).toBe(3);
-    expect(await countStore(page, 'sessions')).toBe(3);
+    await expect.poll(() => page.locator('#status').textContent()).toMatch(/hostile\.zip: imported 1 session/);
+    expect(await countStore(page, 'sessions')).toBe(4);
+    await page.goto(`${APP_URL}#sessions/hostile-0003`);
+    await expect.poll(() => page.inputValue('#edit-notes')).toBe('<img src=x onerror="window.__ran=1">');
+    expect(await page.evaluate(() => (window as unknown as { __ran?: number }).__ran)).toBeUndefined();
   });
 });
 
