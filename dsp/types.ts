@@ -20,7 +20,8 @@ export interface AnalysisConfig {
   bandLowHz?: number;
   bandHighHz?: number;
   /**
-   * Bits of an integer sample format (a 16-bit WAV: 16). A tone must stand above the format's
+   * Bits of the sample format over full scale (a 16-bit WAV: 16; a CSV: log2(2/step) of its
+   * printed resolution after scaling, maybe fractional). A tone must stand above the format's
    * quantisation error (dsp/levels.ts quantisationFloorDbfs): a weaker line may be a product of
    * quantising a strong tone. Omitted (or 0) for float samples and live audio.
    */
@@ -91,6 +92,31 @@ export interface NoiseDriven {
   autocorrelationCi95PerS?: Interval;
 }
 
+/** Regime a stretch of noise-driven operation supports ('undetermined' when the data cannot tell). */
+export type NoiseRegime = 'stable' | 'near-threshold' | 'humming' | 'undetermined';
+
+/**
+ * The mode's normal form du = (ν − κ|u|²)u dt + σ dW fitted to one stretch of steady operation (quiet
+ * or steady hum) of one tone, from the statistics of its envelope (dsp/mode-statistics.ts).
+ */
+export interface ModeStatistics {
+  frequencyHz: number;
+  startS: number;
+  endS: number;
+  /** ν, 1/s: negative when stable (its magnitude is the net damping), positive when humming. */
+  linearGrowthRatePerS: number | null;
+  linearGrowthRateCi95PerS: Interval | null;
+  /** κ, 1/(s·FS²), FS the full-scale peak amplitude of the tone. */
+  saturation: number | null;
+  /** σ², FS²/s. */
+  noiseIntensity: number | null;
+  regime: NoiseRegime;
+  /** 'amplitude-pdf', 'drift-diffusion' or 'lorentzian' ('+disagree' when the routes disagree and the interval covers them all). */
+  method: string;
+  /** Why the regime is 'undetermined' (too short, second mode in the band, clipped input). */
+  reason?: string;
+}
+
 export interface Summary {
   frequencyHz: number | null;
   growthRatePerS: number | null;
@@ -121,6 +147,8 @@ export interface Report {
   onsets: Onset[];
   segments: Segment[];
   noiseDriven: NoiseDriven[];
+  /** Linear growth rate from the noise, per tone and stretch of steady operation. */
+  modeStatistics?: ModeStatistics[];
   summary: Summary;
   /** Candidate tones seen (steady lines such as mains hum included), strongest first. */
   tones?: { frequencyHz: number; isSteadyLine: boolean }[];

@@ -155,7 +155,10 @@ async function analyzeCsv(input: Input, s: AnalyzeSettings, progress: ProgressFn
       throw new CliError(`--rate ${s.rateHz} Hz disagrees with the time column (${fmtRate(s1.timeRateHz)}); leave --rate out for files with a time column`, EXIT.BAD_PARAMETER);
     }
     const { offset, scaleLog2 } = csvScaling(s1);
-    const analysis = makeAnalysis(s, s1.sampleRateHz);
+    // The printed decimals quantise the values: step q = quantum · 2^k in full-scale units, i.e.
+    // log2(2/q) bits over ±1, whose quantisation error a tone must stand above (as for a WAV).
+    const bits = s1.valueQuantum > 0 ? 1 - Math.log2(s1.valueQuantum) - scaleLog2 : 0;
+    const analysis = makeAnalysis(s, s1.sampleRateHz, bits > 0 ? bits : 0);
     const track = s.keepTrack ? new TrackColumns() : null;
     const dec = createCsvDecoder({ rateHz: s.rateHz, offset, scaleLog2, checkContent: false });
     const feed = (b: Float32Array): void => {

@@ -9,6 +9,7 @@
 import { dampingRatio } from '../derived';
 import { paFromSplDb } from '../levels';
 import type { Interval, Report, Segment } from '../types';
+import { modeStatisticsLines } from './format-noise';
 
 /** A table: header row and body rows of cells; `alignRight` per column. */
 export function renderTable(header: string[], rows: string[][], alignRight: boolean[] = []): string {
@@ -270,6 +271,7 @@ export function renderSummary(report: Report, input: InputFacts): string {
       ),
     );
   }
+  out.push(...modeStatisticsLines(report));
   const figures = derivedFigures(report);
   out.push('Main tone');
   out.push(

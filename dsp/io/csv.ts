@@ -52,6 +52,8 @@ export interface CsvSummary {
   minValue: number;
   maxValue: number;
   meanValue: number;
+  /** Resolution of the printed values (10^−decimals, the coarsest over all rows): their quantisation step. */
+  valueQuantum: number;
 }
 
 /**
@@ -125,6 +127,7 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
   let minValue = Infinity;
   let maxValue = -Infinity;
   let meanValue = 0;
+  let valueQuantum = 0;
   let pending: number[] = [];
 
   function fail(message: string): never {
@@ -163,6 +166,8 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
     if (fields.length !== columns) fail(`expected ${columns} field${columns === 1 ? '' : 's'}, found ${fields.length}${commaHint(line)}`);
     const vText = fields[valueCol].trim();
     const v = parseField(vText, valueName ?? 'value');
+    const vq = decimalQuantum(vText);
+    if (vq > valueQuantum) valueQuantum = vq;
     if (timeCol >= 0) {
       const tText = fields[timeCol].trim();
       const t = parseField(tText, timeName ?? 'time');
@@ -287,6 +292,7 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
       minValue,
       maxValue,
       meanValue,
+      valueQuantum,
     };
     return { samples, summary };
   }

@@ -60,6 +60,8 @@ beforeAll(() => {
   const pure = new Float32Array(16000 * 10);
   for (let i = 0; i < pure.length; i++) pure[i] = 0.5 * Math.sin((2 * Math.PI * 200 * i) / 16000);
   writeFileSync(path('pure200.wav'), encodeWav(pure, 16000, 'pcm16'));
+  // The same tone in Pa printed with 3 decimals: the printing quantises it (step 1 mPa).
+  writeFileSync(path('pure200.csv'), Array.from(pure, (v) => (2 * v).toFixed(3)).join('\n') + '\n');
 });
 
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
@@ -177,6 +179,12 @@ describe('bands and quantisation', () => {
     const floor = quantisationFloorDbfs(16);
     expect(rep.tones?.map((t) => Math.round(t.frequencyHz))).toEqual([200]);
     expect(rep.summary.limitAmplitudeDbfs === null || (rep.summary.limitAmplitudeDbfs as number) > floor).toBe(true);
+  });
+
+  it('a CSV printed with 3 decimals: its step is the quantiser, and its products are no tones either', async () => {
+    const r = await run(['analyze', path('pure200.csv'), '--rate', '16000', '--band', '50-6000', '--json']);
+    expect(r.code).toBe(EXIT.OK);
+    expect((JSON.parse(r.out) as Report).tones?.map((t) => Math.round(t.frequencyHz))).toEqual([200]);
   });
 });
 

@@ -30,7 +30,7 @@ const INTERNAL = /temperatureC|heatLagS|molarMassKgPerMol|lengthM|diameterM|exci
 describe('option names in messages', () => {
   it('every model parameter of the table maps to an option', () => {
     for (const [name, option] of Object.entries(MODEL_PARAMETER_OPTIONS)) {
-      expect(option).toMatch(/^--[a-z-]+$/);
+      expect(option).toMatch(/^--[a-z-]+( [a-z]+)?$/);
       expect(withOptionNames(`${name} must be positive, got 0`)).toBe(`${option} must be positive, got 0`);
     }
   });

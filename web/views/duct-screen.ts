@@ -2,7 +2,8 @@
  * Rig and duct screen: the geometry form (stored for the next session under
  * 'humgauge.ductGeometry'), the predicted plane-wave modes, a measured tone → matching mode and
  * inferred mean gas temperature, a sketch of the duct with the mode shape and the heater, and the
- * Rayleigh reading of the heater for the chosen mode. All numbers come from dsp/duct.ts.
+ * Rayleigh reading of the heater for the chosen mode. All numbers come from dsp/duct.ts and
+ * dsp/duct-match.ts; every field is checked against the model's physical ranges (dsp/gas.ts).
  * A measured frequency can arrive in the URL: #duct/171.2 (Hz).
  */
 import './duct-screen.css';
