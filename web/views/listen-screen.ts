@@ -57,9 +57,12 @@ export const mountListenScreen: MountScreen = (root, app) => {
 
   // Site and equipment: empty at each start (a new job does not inherit the last one's site);
   // what was typed before is offered as a suggestion.
-  const history = loadJson<LabelHistory>(LABELS_KEY, { sites: [], equipment: [] });
-  const site = suggestingInput('session-site', 'e.g. bench rig 2', Array.isArray(history.sites) ? history.sites : []);
-  const equipment = suggestingInput('session-equipment', 'e.g. heated tube, 1 m', Array.isArray(history.equipment) ? history.equipment : []);
+  // Stored lists are checked item by item (an older layout kept one site and one equipment text).
+  const stored = loadJson<Partial<Record<keyof LabelHistory, unknown>>>(LABELS_KEY, {});
+  const textsOf = (v: unknown): string[] => (Array.isArray(v) ? v.filter((x): x is string => typeof x === 'string') : []);
+  const history: LabelHistory = { sites: textsOf(stored.sites), equipment: textsOf(stored.equipment) };
+  const site = suggestingInput('session-site', 'e.g. bench rig 2', history.sites);
+  const equipment = suggestingInput('session-equipment', 'e.g. heated tube, 1 m', history.equipment);
   const ductBox = el('input', { type: 'checkbox', id: 'session-attach-duct' });
   const ductText = el('span', { id: 'session-duct-text' });
   const saveBox = el('input', { type: 'checkbox', id: 'session-save', checked: true });
@@ -129,7 +132,9 @@ export const mountListenScreen: MountScreen = (root, app) => {
   function runMeta(): RunMeta {
     const s = site.input.value.trim();
     const e = equipment.input.value.trim();
-    saveJson(LABELS_KEY, { sites: remember(history.sites, s), equipment: remember(history.equipment, e) } satisfies LabelHistory);
+    history.sites = remember(history.sites, s);
+    history.equipment = remember(history.equipment, e);
+    saveJson(LABELS_KEY, history);
     const g = ductBox.checked ? readDuctScreenGeometry() : undefined;
     return { ...(s ? { site: s } : {}), ...(e ? { equipment: e } : {}), ...(g ? { geometry: g } : {}), isSaved: saveBox.checked };
   }
