@@ -133,8 +133,12 @@ function assignParents(families: Family[], binHz: number): void {
   }
 }
 
-/** Groups the record's tracks into tones (spectral bin width binHz). */
-export function groupTones(all: ToneRuntime[], binHz: number): Grouping {
+/**
+ * Groups the record's tracks into tones (spectral bin width binHz). A track whose envelope power
+ * never rises above `floorPower` (full-scale sine = 1; the quantisation error of the input format,
+ * dsp/levels.ts) is left out: it may be a product of quantising a strong tone.
+ */
+export function groupTones(all: ToneRuntime[], binHz: number, floorPower = 0): Grouping {
   const info = new Map<ToneRuntime, TrackInfo>();
   for (const tr of all) info.set(tr, trackInfo(tr));
   const duplicates = findDuplicates(all, info, binHz);
@@ -143,7 +147,7 @@ export function groupTones(all: ToneRuntime[], binHz: number): Grouping {
     if (duplicates.has(tr)) continue;
     if (tr.regime.segments.every((s) => s.state === STATE_QUIET) && !tr.isSteadyLine && tr.maxExcessDb < QUIET_LINE_MIN_DB) continue;
     const ti = info.get(tr);
-    if (ti === undefined) continue;
+    if (ti === undefined || ti.top <= floorPower) continue;
     const { freqHz: f, top, fromS: from, toS: to } = ti;
     const fam = families.find((q) => Math.abs(q.freqHz - f) <= matchToleranceHz(binHz, f));
     if (fam) {

@@ -26,6 +26,7 @@ import { computeSpectrumFrame, createSpectrumState, feedSpectrum, resetSpectrumF
 import { createTimeBase, jAtTime, rebaseAfterGap, timeOfJ, type TimeBase } from './time-base';
 import { createToneEnvelope, ENVELOPE_RATE_HZ } from './tone-store';
 import { advanceRegime, breakTones, createToneSet, maxEnvelopeChunk, resumeTonesAfterGap, retireIdleTones, stepToneEnvelopes, stepTonesAtFrame, type ToneSet } from './tones';
+import { quantisationFloorDbfs } from './levels';
 import { isMainsLine } from './track';
 import type { Analysis, AnalysisConfig, AnalysisUpdate, ClippedSpan, Marker, ModeStatistics, Report } from './types';
 
@@ -60,6 +61,7 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
     sampleRateHz: config.sampleRateHz,
     bandLowHz: config.bandLowHz ?? 20,
     bandHighHz: config.bandHighHz ?? 4000,
+    sampleBits: config.sampleBits ?? 0,
   };
   const cond = createConditionState(cfg);
   const fsA = cond.outputRateHz;
@@ -208,11 +210,13 @@ function push(ps: PipelineState, block: Float32Array): AnalysisUpdate {
   }
   ps.tb.durationInputSamples += block.length;
   if (ps.sawFrame) {
-    // Only the analysed band is converted (the rest stays at the floor value).
+    // Only the analysed band is converted (the rest stays at the floor value). 10·log10 p is
+    // taken as (10/ln 10)·ln p: Math.log costs about 60 % of Math.log10 and the float32 dB agree.
     const p = ps.spec.power;
     const out = ps.spectrumDbfs;
     const hi = Math.min(out.length, ps.hist.hiBin + 1);
-    for (let k = 0; k < hi; k++) out[k] = 10 * Math.log10(p[k] > 1e-20 ? p[k] : 1e-20);
+    const dbPerNeper = 10 / Math.LN10;
+    for (let k = 0; k < hi; k++) out[k] = dbPerNeper * Math.log(p[k] > 1e-20 ? p[k] : 1e-20);
     ps.hasSpectrum = true;
   }
   return {
@@ -260,7 +264,9 @@ function finish(ps: PipelineState): Report {
     relabelNoiseSegments(tr);
     if (tr.isSteadyLine) reclaimMainsTone(tr);
   }
-  const grouping = groupTones(all, spec.binHz);
+  // A line that never rises above the input format's quantisation error may be a product of quantising a strong tone.
+  const floorPower = ps.cfg.sampleBits > 0 ? 10 ** (quantisationFloorDbfs(ps.cfg.sampleBits) / 10) : 0;
+  const grouping = groupTones(all, spec.binHz, floorPower);
   const others = [...tones.alive, ...tones.retired];
   const fitted: FittedSegment[] = [];
   for (const tr of all) {

@@ -14,11 +14,18 @@ export type Interval = [number, number];
 
 /** Configuration of one analysis run. Only sampleRateHz is required. */
 export interface AnalysisConfig {
-  /** Rate of the samples given to push(), Hz (8 000 to 192 000). */
+  /** Rate of the samples given to push(), Hz (500 to 192 000; dsp/condition.ts MIN_SAMPLE_RATE_HZ). */
   sampleRateHz: number;
   /** Band of interest, Hz. Defaults 20 and 4000. */
   bandLowHz?: number;
   bandHighHz?: number;
+  /**
+   * Bits of the sample format over full scale (a 16-bit WAV: 16; a CSV: log2(2/step) of its
+   * printed resolution after scaling, maybe fractional). A tone must stand above the format's
+   * quantisation error (dsp/levels.ts quantisationFloorDbfs): a weaker line may be a product of
+   * quantising a strong tone. Omitted (or 0) for float samples and live audio.
+   */
+  sampleBits?: number;
 }
 
 /** A user marker typed while recording ("driving off", "firing rate 60 %"). */

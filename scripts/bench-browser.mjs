@@ -3,6 +3,7 @@
 //   2. initial JavaScript of the app, gzipped (target ≤ 200 KB),
 //   3. first paint of the installed app reloaded offline in headless Chromium (target ≤ 1 s).
 // Usage: node scripts/bench-browser.mjs [--dist dist] [--port 4196] [--seconds 120]
+// (the port defaults to E2E_PORT when set, as for the browser tests, else 4196).
 // Needs a built app (npx vite build) and Debian's chromium (or CHROMIUM_PATH).
 import { spawn, execSync } from 'node:child_process';
 import { mkdtempSync, readFileSync, writeFileSync, existsSync, mkdirSync } from 'node:fs';
@@ -17,7 +18,7 @@ const opt = (name, fallback) => {
   return i >= 0 && args[i + 1] ? args[i + 1] : fallback;
 };
 const DIST = opt('dist', 'dist');
-const PORT = Number(opt('port', '4196')); // not 4190: browsers and fetch refuse that port (on the "bad ports" list)
+const PORT = Number(opt('port', process.env.E2E_PORT || '4196')); // not 4190: browsers and fetch refuse that port (on the "bad ports" list)
 const SECONDS = Number(opt('seconds', '120'));
 const URL = `http://127.0.0.1:${PORT}/`;
 

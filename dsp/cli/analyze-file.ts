@@ -74,13 +74,13 @@ export interface Run {
 /** Called with the fraction of the input read and its duration in s (when known). */
 export type ProgressFn = (fraction: number, totalS: number) => void;
 
-function makeAnalysis(s: AnalyzeSettings, sampleRateHz: number): Analysis {
+function makeAnalysis(s: AnalyzeSettings, sampleRateHz: number, sampleBits = 0): Analysis {
   const nyquist = sampleRateHz / 2;
   if (s.bandHighHz !== undefined && s.bandHighHz >= nyquist) {
     throw new CliError(`--band up to ${s.bandHighHz} Hz is above half the sample rate (${nyquist} Hz)`, EXIT.BAD_PARAMETER);
   }
   try {
-    return createAnalysis({ sampleRateHz, bandLowHz: s.bandLowHz, bandHighHz: s.bandHighHz });
+    return createAnalysis({ sampleRateHz, bandLowHz: s.bandLowHz, bandHighHz: s.bandHighHz, sampleBits });
   } catch (e) {
     if (e instanceof RangeError) throw new CliError(withOptionNames(e.message), EXIT.BAD_PARAMETER);
     throw e;
@@ -105,7 +105,7 @@ async function analyzeWav(input: Input, s: AnalyzeSettings, progress: ProgressFn
     const fmt = dec.format;
     if (analysis === null && fmt !== null) {
       const f: WavFormat = fmt;
-      analysis = makeAnalysis(s, f.sampleRateHz);
+      analysis = makeAnalysis(s, f.sampleRateHz, f.isFloat ? 0 : f.bitsPerSample);
       totalS = input.size !== null ? input.size / f.blockAlign / f.sampleRateHz : 0;
     }
     if (block.length > 0 && analysis !== null) {
@@ -155,7 +155,10 @@ async function analyzeCsv(input: Input, s: AnalyzeSettings, progress: ProgressFn
       throw new CliError(`--rate ${s.rateHz} Hz disagrees with the time column (${fmtRate(s1.timeRateHz)}); leave --rate out for files with a time column`, EXIT.BAD_PARAMETER);
     }
     const { offset, scaleLog2 } = csvScaling(s1);
-    const analysis = makeAnalysis(s, s1.sampleRateHz);
+    // The printed decimals quantise the values: step q = quantum · 2^k in full-scale units, i.e.
+    // log2(2/q) bits over ±1, whose quantisation error a tone must stand above (as for a WAV).
+    const bits = s1.valueQuantum > 0 ? 1 - Math.log2(s1.valueQuantum) - scaleLog2 : 0;
+    const analysis = makeAnalysis(s, s1.sampleRateHz, bits > 0 ? bits : 0);
     const track = s.keepTrack ? new TrackColumns() : null;
     const dec = createCsvDecoder({ rateHz: s.rateHz, offset, scaleLog2, checkContent: false });
     const feed = (b: Float32Array): void => {

@@ -6,9 +6,11 @@
 
 import { basename } from 'node:path';
 import { MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ } from '../condition';
-import { STATES, analyzeInput, failureOf, type AnalyzeSettings } from './analyze-file';
+import { STATES, TrackColumns, analyzeInput, failureOf, type AnalyzeSettings } from './analyze-file';
+import { paFromSplDb } from '../levels';
+import type { Report } from '../types';
 import { isFolder, runBatch } from './batch';
-import { renderSummary } from './format';
+import { groupByTone, renderSummary } from './format';
 import { CliError, EXIT, type CliIo } from './io';
 import { HELP_OPTION, hasFlag, numberOption, optionsHelp, parseCommandArgs, parseNumberValue, quote, textOption, type OptionTable } from './options';
 import { openInput } from './read-file';
@@ -16,7 +18,7 @@ import { openInput } from './read-file';
 /** Options of `humgauge analyze`. */
 export const ANALYZE_OPTIONS: OptionTable = {
   json: { kind: 'flag', help: 'print the report (JSON; field names carry their units)' },
-  csv: { kind: 'flag', help: 'print the per-frame track: time_s,frequency_hz,amplitude_dbfs,state' },
+  csv: { kind: 'flag', help: 'print the per-frame track: time_s,frequency_hz,amplitude_dbfs,state\n(CSV input: also amplitude_pa_rms,amplitude_db_spl)' },
   band: { kind: 'text', value: 'LOW-HIGH', help: 'band of interest in Hz (default 20-4000), e.g. --band 50-600' },
   rate: {
     kind: 'number',
@@ -134,13 +136,29 @@ class Progress {
   }
 }
 
-/** The per-frame track as CSV text. */
-export function trackCsv(track: { timeS: Float64Array; freqHz: Float32Array; ampDbfs: Float32Array; state: Uint8Array; length: number }): string {
-  const lines: string[] = ['time_s,frequency_hz,amplitude_dbfs,state'];
+/**
+ * The per-frame track as CSV text. The state column follows the report's final segments of the
+ * main tone: the track's own states are the live ones, which the regime detector confirms only
+ * after the envelope has bent (0.1 s into a growth, about 1 s into a steady limit cycle), while
+ * finish() places each boundary where the fitted curves put it. For pressure input
+ * (`splOffsetDb` given) the level is also given in Pa RMS and dB SPL.
+ */
+export function trackCsv(track: TrackColumns, report?: Report, splOffsetDb?: number): string {
+  const segments = report ? (groupByTone(report)[0]?.segments ?? []) : [];
+  const hasSpl = splOffsetDb !== undefined;
+  const lines: string[] = [`time_s,frequency_hz,amplitude_dbfs,${hasSpl ? 'amplitude_pa_rms,amplitude_db_spl,' : ''}state`];
+  let seg = 0;
   for (let i = 0; i < track.length; i++) {
+    const t = track.timeS[i];
     const f = track.freqHz[i];
     const a = track.ampDbfs[i];
-    lines.push(`${track.timeS[i].toFixed(4)},${Number.isFinite(f) ? f.toFixed(2) : ''},${Number.isFinite(a) ? a.toFixed(2) : ''},${STATES[track.state[i]] ?? ''}`);
+    let state = STATES[track.state[i]] ?? '';
+    if (segments.length > 0) {
+      while (seg + 1 < segments.length && segments[seg + 1].startS <= t) seg++;
+      state = t < segments[0].startS ? 'quiet' : segments[seg].kind;
+    }
+    const spl = hasSpl && Number.isFinite(a) ? `${paFromSplDb(a + splOffsetDb).toPrecision(4)},${(a + splOffsetDb).toFixed(2)},` : hasSpl ? ',,' : '';
+    lines.push(`${t.toFixed(4)},${Number.isFinite(f) ? f.toFixed(2) : ''},${Number.isFinite(a) ? a.toFixed(2) : ''},${spl}${state}`);
   }
   return lines.join('\n') + '\n';
 }
@@ -164,7 +182,7 @@ export async function runAnalyze(args: string[], io: CliIo): Promise<number> {
     progress.done();
     run.facts.fileName = file === '-' ? 'standard input' : basename(file);
     if (opts.output === 'json') io.out(JSON.stringify(run.report, null, 2) + '\n');
-    else if (opts.output === 'csv' && run.track) io.out(trackCsv(run.track));
+    else if (opts.output === 'csv' && run.track) io.out(trackCsv(run.track, run.report, run.facts.splOffsetDb));
     else io.out(renderSummary(run.report, run.facts));
     return EXIT.OK;
   } catch (e) {

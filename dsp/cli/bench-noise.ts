@@ -14,7 +14,7 @@
 import { fitNormalFormExact } from '../envelope-statistics';
 import { createAnalysis } from '../index';
 import { estimateModeStatistics } from '../mode-statistics';
-import { createRig, criticalHeaterPower, linearModes, renderScenario } from '../rig-sim';
+import { createRig, firstInstability, linearModes, renderScenario } from '../rig-sim';
 import { normalFormMode } from '../synth';
 import type { NoiseRegime } from '../types';
 import { num } from './format';
@@ -97,7 +97,9 @@ const TUBE = { lengthM: 1, gasTemperatureC: 20, ends: 'open-open' as const, heat
 
 function heatedTubeRows(row: RowFn): void {
   const rig = createRig(TUBE);
-  const kc = criticalHeaterPower(rig);
+  const first = firstInstability(rig);
+  if (!first) throw new Error('the bench tube never hums: no heated-tube rows');
+  const kc = first.heaterPower;
   const fs = 16000;
   const stayS = 40;
   const below = 0.93 * kc;

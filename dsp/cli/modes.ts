@@ -5,12 +5,13 @@
  * matching mode and the mean gas temperature it implies. Options follow the shared rules of
  * options.ts; failWith and the profile reader are shared with `humgauge simulate`.
  */
-import { readFile } from 'node:fs/promises';
 import {
+  ABSOLUTE_ZERO_C,
   AIR,
+  airLikeGas,
   ductModelFromGeometry,
+  gammaAtK,
   gasFromMolarMass,
-  matchMeasuredFrequency,
   predictModes,
   rayleighReading,
   speedOfSoundMPerS,
@@ -18,10 +19,11 @@ import {
   type DuctModel,
   type GasProperties,
   type MeanFlow,
-  type ProfilePoint,
 } from '../duct';
+import { matchMeasuredFrequency, type MeasuredMatch } from '../duct-match';
 import type { DuctGeometry } from '../types';
 import { num } from './format';
+import { readProfile } from './profile';
 import { CliError, EXIT, type CliIo } from './io';
 import {
   HELP_OPTION,
@@ -56,11 +58,11 @@ export const MODES_OPTIONS: OptionTable = {
   flow: { kind: 'choice', value: 'DIR', choices: ['upward', 'downward', 'none'], help: 'mean flow through the heater: upward (default), downward, none' },
   profile: { kind: 'text', value: 'FILE', help: 'temperature profile, CSV "x_m,temp_c" (linear between points)' },
   // γ of gases lies between 1 (many atoms) and 5/3 (monatomic): kinetic theory, any physics text.
-  gamma: { kind: 'number', value: 'G', unit: '', min: 1, isMinExclusive: true, max: 1.67, help: 'ratio of specific heats, above 1 and at most 1.67 (5/3, a\nmonatomic gas); default 1.4, air' },
+  gamma: { kind: 'number', value: 'G', unit: '', min: 1, isMinExclusive: true, max: 1.67, help: 'ratio of specific heats, above 1 and at most 1.67 (5/3, a\nmonatomic gas), held constant; default air\'s γ(T) (NBS table,\n1.401 at -23 °C to 1.309 at 1227 °C)' },
   // From hydrogen (2.016 g/mol) to heavy refrigerant vapours (SF6 146 g/mol) with margin.
   'molar-mass': { kind: 'number', value: 'G_MOL', unit: 'g/mol', min: 2, max: 400, help: 'molar mass, g/mol, 2 to 400 (default: air, R = 287.05 J/(kg K))' },
   count: { kind: 'number', value: 'N', unit: '', min: 1, max: 200, isInteger: true, help: 'number of modes (default 5, at most 200)' },
-  measured: { kind: 'number', value: 'HZ', unit: 'Hz', help: 'a measured tone: matching mode and inferred mean gas temperature' },
+  measured: { kind: 'number', value: 'HZ', unit: 'Hz', help: 'a measured tone: every mode it can be, with the gas temperature\neach implies; the best plausible one (-90 to 2130 °C) first' },
   'measured-std': { kind: 'number', value: 'HZ', unit: 'Hz', help: 'standard uncertainty of the measured frequency (default 0.5 Hz)' },
   'length-std': { kind: 'number', value: 'M', unit: 'm', help: 'standard uncertainty of the length (default 0.005 m)' },
   json: { kind: 'flag', help: 'print JSON: { "modes": [{ "n", "frequencyHz", ... }], ... }' },
@@ -99,25 +101,33 @@ export function failWith(e: unknown, io: CliIo, command: string, names: Readonly
   return EXIT.INTERNAL;
 }
 
-/** Parses a profile CSV "x_m,temp_c" (optional header line, '#' comments); BAD_CSV with the line number on error. */
-export function parseProfileCsv(text: string): ProfilePoint[] {
-  const points: ProfilePoint[] = [];
-  const lines = text.split(/\r?\n/);
-  for (let i = 0; i < lines.length; i++) {
-    const line = lines[i].trim();
-    if (line === '' || line.startsWith('#')) continue;
-    const cells = line.split(/[,;\t]/).map((c) => c.trim());
-    if (cells.length < 2) throw new CliError(`profile line ${i + 1}: expected "x_m,temp_c", got "${line}"`, EXIT.BAD_CSV);
-    const x = Number(cells[0]);
-    const t = Number(cells[1]);
-    if (!Number.isFinite(x) || !Number.isFinite(t) || cells[0] === '' || cells[1] === '') {
-      if (points.length === 0 && Number.isNaN(x)) continue; // header line
-      throw new CliError(`profile line ${i + 1}: "${line}" is not two numbers`, EXIT.BAD_CSV);
-    }
-    points.push({ xM: x, temperatureC: t });
+export { parseProfileCsv } from './profile';
+
+/** Readable lines for a measured tone: the best plausible mode, then every candidate with the temperature it implies. */
+export function measuredLines(match: MeasuredMatch, measuredHz: number): string[] {
+  const lines: string[] = [];
+  const best = match.best;
+  const what = match.isEquivalentTemperature ? 'Equivalent uniform gas temperature' : 'Mean gas temperature';
+  const interval = (c: { temperatureCi95C: [number, number] }): string => `${c.temperatureCi95C[0].toFixed(1)} to ${c.temperatureCi95C[1].toFixed(1)} °C`;
+  if (best) {
+    lines.push(`Measured ${num(measuredHz, 5)} Hz: mode ${best.n}${match.isAmbiguous ? ' (ambiguous, see the candidates)' : ''} (predicted ${best.predictedHz.toFixed(3)} Hz at the temperatures given, ${best.relativeDeviation >= 0 ? '+' : ''}${(best.relativeDeviation * 100).toFixed(2)} %)`);
+    lines.push(`${what} for an exact match: ${best.temperatureC.toFixed(1)} °C, u = ${best.temperatureStdK.toFixed(1)} K (95 % ${interval(best)})`);
+  } else {
+    lines.push(`Measured ${num(measuredHz, 5)} Hz: no mode of this duct at a plausible gas temperature (${match.plausibleRangeC[0]} to ${match.plausibleRangeC[1]} °C)`);
   }
-  if (points.length === 0) throw new CliError('profile: no data rows (expected lines "x_m,temp_c")', EXIT.BAD_CSV);
-  return points;
+  if (match.candidates.length === 0) return lines;
+  lines.push(`Candidates: the uniform gas temperature that puts each mode at ${num(measuredHz, 5)} Hz`);
+  const header = ['mode', 'temperature (°C)', '95 % interval', 'plausible'];
+  const rows = match.candidates.map((c) => [
+    String(c.n),
+    c.temperatureC.toFixed(1),
+    interval(c),
+    c.plausible ? (c === best ? 'yes, best' : 'yes') : c.isAboveCutOn ? 'no (above cut-on)' : 'no',
+  ]);
+  const widths = header.map((h, k) => Math.max(h.length, ...rows.map((r) => r[k].length)));
+  const fmt = (cells: string[]): string => cells.map((c, k) => (k <= 1 ? c.padStart(widths[k]) : c.padEnd(widths[k]))).join('  ').trimEnd();
+  lines.push(fmt(header), widths.map((w) => '-'.repeat(w)).join('  '), ...rows.map(fmt));
+  return lines;
 }
 
 /** Runs `humgauge modes`; returns the exit code. */
@@ -145,10 +155,10 @@ export async function runModes(args: string[], io: CliIo): Promise<number> {
     const count = numberOption(o, 'count') ?? 5;
     const gamma = numberOption(o, 'gamma');
     const molarMassG = numberOption(o, 'molar-mass');
+    // Air's γ(T) unless a constant γ is given; a molar mass alone keeps air's γ(T) (a flue gas near air).
     let gas: GasProperties = AIR;
-    if (gamma !== undefined || molarMassG !== undefined) {
-      gas = gasFromMolarMass(gamma ?? AIR.gamma, molarMassG !== undefined ? molarMassG / 1000 : 8.314462618 / AIR.specificGasConstantJPerKgK);
-    }
+    if (gamma !== undefined) gas = gasFromMolarMass(gamma, molarMassG !== undefined ? molarMassG / 1000 : 8.314462618 / AIR.specificGasConstantJPerKgK);
+    else if (molarMassG !== undefined) gas = airLikeGas(molarMassG / 1000);
     if (o.values.has('profile') && (heaterPositionM !== undefined || hotTemperatureC !== undefined)) {
       throw new CliError('--profile and --heater/--hot-temp exclude each other', EXIT.USAGE);
     }
@@ -158,13 +168,7 @@ export async function runModes(args: string[], io: CliIo): Promise<number> {
     let model: DuctModel = { ...ductModelFromGeometry(geom, gas), closedEnd };
     const profilePath = textOption(o, 'profile');
     if (profilePath !== undefined) {
-      let text: string;
-      try {
-        text = await readFile(profilePath, 'utf8');
-      } catch (e) {
-        throw new CliError(`${profilePath}: cannot be read (${(e as { code?: string }).code ?? 'error'})`, EXIT.UNREADABLE);
-      }
-      model = { ...model, zones: zonesFromProfile(parseProfileCsv(text), lengthM) };
+      model = { ...model, zones: zonesFromProfile(await readProfile(profilePath), lengthM) };
     }
     const pred = predictModes(model, count);
     const heaterX = heaterPositionM;
@@ -173,9 +177,17 @@ export async function runModes(args: string[], io: CliIo): Promise<number> {
     const match =
       measuredHz === undefined
         ? null
-        : matchMeasuredFrequency(model, measuredHz, { frequencyStdHz: numberOption(o, 'measured-std') ?? 0.5, lengthStdM: numberOption(o, 'length-std') ?? 0.005 }, Math.max(count, 12));
+        : matchMeasuredFrequency(
+            model,
+            measuredHz,
+            // The defaults (0.5 Hz, 5 mm) shrink for a tone or duct smaller than them: an uncertainty is at most the quantity.
+            { frequencyStdHz: numberOption(o, 'measured-std') ?? Math.min(0.5, measuredHz), lengthStdM: numberOption(o, 'length-std') ?? Math.min(0.005, lengthM) },
+            Math.max(count, 12),
+          );
     const cEnds = model.zones.map((z) => speedOfSoundMPerS(z.temperatureC, gas));
+    const gammas = model.zones.map((z) => gammaAtK(gas, z.temperatureC - ABSOLUTE_ZERO_C));
     const warnings = [...pred.warnings, ...(match ? match.warnings.filter((w) => !pred.warnings.includes(w)) : [])];
+    const best = match?.best ?? null;
     if (hasFlag(o, 'json')) {
       const json = {
         modes: pred.modes.map((m, i) => ({
@@ -189,16 +201,21 @@ export async function runModes(args: string[], io: CliIo): Promise<number> {
         speedOfSoundMPerS: cEnds.length === 1 ? cEnds[0] : null,
         speedOfSoundRangeMPerS: [Math.min(...cEnds), Math.max(...cEnds)],
         cutOnHz: pred.cutOnHz,
+        gammaRange: [Math.min(...gammas), Math.max(...gammas)],
         ...(match
           ? {
               measured: {
                 frequencyHz: measuredHz,
-                n: match.n,
-                predictedHz: match.predictedHz,
-                relativeDeviation: match.relativeDeviation,
-                temperatureC: match.temperatureC,
-                temperatureStdK: match.temperatureStdK,
-                temperatureCi95C: match.temperatureCi95C,
+                n: best ? best.n : null,
+                predictedHz: best ? best.predictedHz : null,
+                relativeDeviation: best ? best.relativeDeviation : null,
+                temperatureC: best ? best.temperatureC : null,
+                temperatureStdK: best ? best.temperatureStdK : null,
+                temperatureCi95C: best ? best.temperatureCi95C : null,
+                isAmbiguous: match.isAmbiguous,
+                isEquivalentTemperature: match.isEquivalentTemperature,
+                plausibleRangeC: match.plausibleRangeC,
+                candidates: match.candidates,
               },
             }
           : {}),
@@ -223,12 +240,7 @@ export async function runModes(args: string[], io: CliIo): Promise<number> {
     const widths = header.map((h, c) => Math.max(h.length, ...rows.map((r) => r[c].length)));
     const fmt = (cells: string[]): string => cells.map((c, k) => (k <= 1 ? c.padStart(widths[k]) : c.padEnd(widths[k]))).join('  ').trimEnd();
     lines.push(fmt(header), widths.map((w) => '-'.repeat(w)).join('  '), ...rows.map(fmt));
-    if (match) {
-      const [lo, hi] = match.temperatureCi95C;
-      lines.push('');
-      lines.push(`Measured ${num(measuredHz, 5)} Hz: mode ${match.n} (predicted ${match.predictedHz.toFixed(3)} Hz, ${match.relativeDeviation >= 0 ? '+' : ''}${(match.relativeDeviation * 100).toFixed(2)} %)`);
-      lines.push(`Mean gas temperature for an exact match: ${match.temperatureC.toFixed(1)} °C ± ${(1.96 * match.temperatureStdK).toFixed(1)} K (95 % ${lo.toFixed(1)} to ${hi.toFixed(1)} °C)`);
-    }
+    if (match && measuredHz !== undefined) lines.push('', ...measuredLines(match, measuredHz));
     for (const w of warnings) lines.push(`warning: ${w}`);
     io.out(lines.join('\n') + '\n');
     return EXIT.OK;

@@ -230,6 +230,7 @@ export const MODEL_PARAMETER_OPTIONS: Readonly<Record<string, string>> = {
   micPositionM: '--mic',
   noiseDbfs: '--noise-dbfs',
   excitationRms: '--excitation',
+  heaterPower: '--steps power',
   seed: '--seed',
   sampleRateHz: '--rate',
   bandLowHz: '--band',

@@ -13,7 +13,8 @@
  *     --excitation 5e-4 --seed 23 --out public/demo/boiler-flue.wav
  * Bench tube: a 1 m open tube, heater a quarter up, switched on at 3 s (hums, saturates), off at 13 s
  * (dies away). Boiler flue: a 2.2 m flue closed at the appliance, burner 0.5 m up, on at 2 s, off at 12 s.
- * (the truth files go beside them as *.truth.json). Both carry a room background of −52 dBFS
+ * (the truth files go beside them as *.truth.json; each step names its leading mode, the oscillating
+ * mode with the largest growth rate over all modes, and the truth the first mode to go unstable). Both carry a room background of −52 dBFS
  * broadband (a phone in a lab or boiler room), about 50 dB under the limit cycle.
  */
 import { writeFile } from 'node:fs/promises';
@@ -21,7 +22,7 @@ import { encodeWav } from '../io/wav-write';
 import { renderScenario, type PowerStep, type RigEnds } from '../rig-sim';
 import { CliError, EXIT, type CliIo } from './io';
 import { failWith } from './modes';
-import { HELP_OPTION, choiceOption, hasFlag, numberOption, optionsHelp, parseCommandArgs, quote, textOption, type OptionTable } from './options';
+import { HELP_OPTION, choiceOption, hasFlag, numberOption, optionsHelp, parseCommandArgs, parseNumberValue, quote, textOption, type OptionTable } from './options';
 
 /** Options of `humgauge simulate` (the rig's own ranges are checked in dsp/rig-sim.ts). */
 export const SIMULATE_OPTIONS: OptionTable = {
@@ -38,7 +39,8 @@ export const SIMULATE_OPTIONS: OptionTable = {
   },
   temp: { kind: 'number', value: 'C', unit: '°C', help: 'mean gas temperature, °C (default 20)' },
   heater: { kind: 'number', value: 'M', unit: 'm', help: 'heater position from the lower end, m (default a quarter of the length)' },
-  'lag-ms': { kind: 'number', value: 'MS', unit: 'ms', min: 0, isMinExclusive: true, help: 'heat-release time lag, ms (default 0.2 L/c)' },
+  // Heat-release lags of flames and heated gauzes are fractions of an acoustic period (ms); a second is far past any.
+  'lag-ms': { kind: 'number', value: 'MS', unit: 'ms', min: 0, isMinExclusive: true, max: 1000, help: 'heat-release time lag, ms (default 0.2 L/c; at most 1000)' },
   modes: { kind: 'number', value: 'N', unit: '', help: 'Galerkin modes (default 10)' },
   steps: { kind: 'text', value: 'LIST', help: 'heater-power schedule "t_s:K,t_s:K,...", K dimensionless\n(default 0:0,3:0.8,13:0)' },
   duration: { kind: 'number', value: 'S', unit: 's', min: 0, isMinExclusive: true, max: 3600, help: 'simulated time, s (default 17.5, at most 3600)' },
@@ -61,9 +63,10 @@ export const SIMULATE_HELP = `Usage: humgauge simulate --out FILE.wav [options]
 Simulates a heated tube (Galerkin acoustic modes, a compact heater with a
 time-lagged King's-law heat release, modal damping) while the heater power is
 switched, and writes the microphone signal as a mono 16-bit WAV plus its truth
-as JSON (FILE.truth.json): for each power step the linear growth rate (1/s) and
-frequency (Hz) of the fundamental from the model's characteristic equation, and
-the decay rate when the power drops.
+as JSON (FILE.truth.json): for each power step the leading mode (the one that
+grows fastest, or decays slowest, of all modes) with its linear growth rate
+(1/s) and frequency (Hz) from the model's characteristic equation, the decay
+rate when the power drops, and the power at which the first mode turns unstable.
 
 Options
 ${optionsHelp(SIMULATE_OPTIONS)}
@@ -71,20 +74,35 @@ Example
   humgauge simulate --steps 0:0,2:0.9,10:0 --duration 14 --out rig.wav
 `;
 
-/** Parses "t:K,t:K" into power steps. */
+/** A step's time: within the longest simulation (--duration). */
+const STEP_TIME = { unit: 's', min: 0, max: 3600 };
+/**
+ * A step's heater power K (dimensionless): onset lies near K ≈ 0.5-1 for the bench tube and the
+ * truth searches the critical power up to K = 10; 100 bounds it well beyond any rig.
+ */
+const STEP_POWER = { unit: '', min: 0, max: 100 };
+
+/** Parses "t:K,t:K" into power steps (numbers by the shared option rules). */
 export function parseSteps(text: string): PowerStep[] {
   const steps: PowerStep[] = [];
   for (const part of text.split(',')) {
     const m = /^\s*([^:]+):([^:]+)\s*$/.exec(part);
-    const atS = m ? Number(m[1]) : Number.NaN;
-    const heaterPower = m ? Number(m[2]) : Number.NaN;
-    if (!m || !Number.isFinite(atS) || !Number.isFinite(heaterPower)) throw new CliError(`--steps: "${part}" is not "time_s:power"`, EXIT.BAD_PARAMETER);
-    if (atS < 0) throw new CliError(`--steps: time must be ≥ 0 s, got ${atS}`, EXIT.BAD_PARAMETER);
-    if (heaterPower < 0) throw new CliError(`--steps: heater power must be ≥ 0, got ${heaterPower}`, EXIT.BAD_PARAMETER);
+    if (!m) throw new CliError(`--steps: "${quote(part)}" is not "time_s:power"`, EXIT.USAGE);
+    const atS = parseNumberValue('--steps time', m[1].trim(), STEP_TIME);
+    const heaterPower = parseNumberValue('--steps power', m[2].trim(), STEP_POWER);
     if (steps.length > 0 && atS <= steps[steps.length - 1].atS) throw new CliError('--steps: times must increase', EXIT.BAD_PARAMETER);
     steps.push({ atS, heaterPower });
   }
   return steps;
+}
+
+/** Writes one output file; a failure names that file and the option that chose it. */
+async function writeOutput(path: string, option: string, data: Uint8Array | string): Promise<void> {
+  try {
+    await writeFile(path, data);
+  } catch (e) {
+    throw new CliError(`cannot write ${path} (${option}): ${(e as { code?: string }).code ?? (e as Error).message}`, EXIT.WRITE_FAILED);
+  }
 }
 
 /** Runs `humgauge simulate`; returns the exit code. */
@@ -128,17 +146,13 @@ export async function runSimulate(args: string[], io: CliIo): Promise<number> {
     });
     const truthPath = textOption(o, 'truth') ?? out.replace(/\.wav$/i, '') + '.truth.json';
     const wav = encodeWav(samples, rateHz, 'pcm16');
-    try {
-      await writeFile(out, wav);
-      await writeFile(truthPath, JSON.stringify({ ...truth, diameterM, noiseDbfs: Number.isFinite(noiseDbfs) ? noiseDbfs : null }, null, 2) + '\n');
-    } catch (e) {
-      throw new CliError(`cannot write ${out} (${(e as { code?: string }).code ?? (e as Error).message})`, EXIT.WRITE_FAILED);
-    }
+    await writeOutput(out, '--out', wav);
+    await writeOutput(truthPath, textOption(o, 'truth') !== undefined ? '--truth' : 'the truth file', JSON.stringify({ ...truth, diameterM, noiseDbfs: Number.isFinite(noiseDbfs) ? noiseDbfs : null }, null, 2) + '\n');
     const lines = [`wrote ${out} (${(samples.length / rateHz).toFixed(2)} s, ${rateHz} Hz, 16-bit mono) and ${truthPath}`];
     for (const st of truth.steps) {
       const rate = st.growthRatePerS;
       lines.push(
-        `  from ${st.atS.toFixed(2)} s, K = ${st.heaterPower}: ${st.frequencyHz.toFixed(2)} Hz, ${rate >= 0 ? 'grows' : 'decays'} at ${Math.abs(rate).toFixed(3)} 1/s` +
+        `  from ${st.atS.toFixed(2)} s, K = ${st.heaterPower}: mode ${st.mode} ${st.frequencyHz.toFixed(2)} Hz, ${rate >= 0 ? 'grows' : 'decays'} at ${Math.abs(rate).toFixed(3)} 1/s` +
           (st.limitCycle ? `; limit cycle ${st.limitCycle.frequencyHz.toFixed(2)} Hz at ${st.limitCycle.amplitudeDbfs.toFixed(1)} dBFS` : ''),
       );
     }

@@ -52,6 +52,8 @@ export interface CsvSummary {
   minValue: number;
   maxValue: number;
   meanValue: number;
+  /** Resolution of the printed values (10^−decimals, the coarsest over all rows): their quantisation step. */
+  valueQuantum: number;
 }
 
 /**
@@ -60,13 +62,16 @@ export interface CsvSummary {
  * (±1e308, or 0 alternating with 5e-324). A power of two scales exactly.
  */
 export function csvScaling(summary: Pick<CsvSummary, 'minValue' | 'maxValue' | 'meanValue'>): { offset: number; scaleLog2: number } {
-  const m = summary.meanValue;
-  // Halves first: max − mean can exceed the largest double when the values span ±1e308.
-  const halfExcursion = Math.max(summary.maxValue / 2 - m / 2, m / 2 - summary.minValue / 2);
-  // Exponent of the excursion from its bits' worth: frexp without a library (log2 of a subnormal is finite).
-  const e = Math.floor(Math.log2(halfExcursion)) + 1;
-  // halfExcursion · 2^−e lies in [0.5, 1): the full excursion then in [0.25, 0.5) after one more halving.
-  return { offset: m, scaleLog2: -e - 1 };
+  const lo = summary.minValue;
+  const hi = summary.maxValue;
+  // The running mean may round a hair outside the range.
+  const m = Math.min(hi, Math.max(lo, summary.meanValue));
+  // log2 of the largest excursion from the mean: directly for everyday values (subnormals
+  // included), by halves past 1e307, where max − mean can exceed the largest double.
+  const isHuge = Math.max(Math.abs(lo), Math.abs(hi)) > 1e307;
+  const log2Excursion = isHuge ? Math.log2(Math.max(hi / 2 - m / 2, m / 2 - lo / 2)) + 1 : Math.log2(Math.max(hi - m, m - lo));
+  // excursion · 2^k then lies in [0.25, 0.5): a scale by a power of two is exact.
+  return { offset: m, scaleLog2: -Math.floor(log2Excursion) - 2 };
 }
 
 /** (v − offset) · 2^k for finite v and offset, without overflow (k from csvScaling). */
@@ -122,6 +127,7 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
   let minValue = Infinity;
   let maxValue = -Infinity;
   let meanValue = 0;
+  let valueQuantum = 0;
   let pending: number[] = [];
 
   function fail(message: string): never {
@@ -160,6 +166,8 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
     if (fields.length !== columns) fail(`expected ${columns} field${columns === 1 ? '' : 's'}, found ${fields.length}${commaHint(line)}`);
     const vText = fields[valueCol].trim();
     const v = parseField(vText, valueName ?? 'value');
+    const vq = decimalQuantum(vText);
+    if (vq > valueQuantum) valueQuantum = vq;
     if (timeCol >= 0) {
       const tText = fields[timeCol].trim();
       const t = parseField(tText, timeName ?? 'time');
@@ -284,6 +292,7 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
       minValue,
       maxValue,
       meanValue,
+      valueQuantum,
     };
     return { samples, summary };
   }

@@ -272,17 +272,17 @@ export function createWavDecoder(options: WavDecodeOptions = {}): WavDecoder {
     for (let c = 0; c < channelsUsed; c++) {
       const p = off + f * fmt.blockAlign + (firstChannel + c) * fmt.containerBytes;
       const x = kind === Kind.F32 ? view.getFloat32(p, true) : view.getFloat64(p, true);
-      if (!Number.isFinite(x)) {
+      if (!Number.isFinite(Math.fround(x))) {
         channel = firstChannel + c;
         break;
       }
     }
     const p = off + f * fmt.blockAlign + channel * fmt.containerBytes;
     const x = kind === Kind.F32 ? view.getFloat32(p, true) : view.getFloat64(p, true);
-    throw new InputError(
-      'bad-samples',
-      `sample ${frame} (t = ${(frame / fmt.sampleRateHz).toFixed(4)} s, channel ${channel + 1}) is ${Number.isNaN(x) ? 'NaN' : 'infinite'}`,
-    );
+    const where = `sample ${frame} (t = ${(frame / fmt.sampleRateHz).toFixed(4)} s, channel ${channel + 1})`;
+    // Finite 64-bit values past the 32-bit range (3.4e38) cannot be held by the analysis.
+    const what = Number.isNaN(x) ? 'NaN' : Number.isFinite(x) ? `${x.toPrecision(3)}, beyond the range of 32-bit samples (full scale is ±1)` : 'infinite';
+    throw new InputError('bad-samples', `${where} is ${what}`);
   }
 
   const EMPTY = new Float32Array(0);
@@ -452,20 +452,26 @@ function decodeSums(kind: number, view: DataView, base: number, stride: number, 
         out[outOff + f] = sum;
       }
       return 2147483648;
-    case Kind.F32:
+    // Floats are averaged as they are summed (each channel / nc), so finite samples near the
+    // largest double do not overflow their sum; the caller's scale 1/(full·nc) is then 1.
+    case Kind.F32: {
+      const inv = 1 / nc;
       for (let f = 0; f < frames; f++) {
         let sum = 0;
-        for (let c = 0, p = base + f * stride; c < nc; c++, p += cb) sum += view.getFloat32(p, true);
+        for (let c = 0, p = base + f * stride; c < nc; c++, p += cb) sum += view.getFloat32(p, true) * inv;
         out[outOff + f] = sum;
       }
-      return 1;
-    default:
+      return inv;
+    }
+    default: {
+      const inv = 1 / nc;
       for (let f = 0; f < frames; f++) {
         let sum = 0;
-        for (let c = 0, p = base + f * stride; c < nc; c++, p += cb) sum += view.getFloat64(p, true);
+        for (let c = 0, p = base + f * stride; c < nc; c++, p += cb) sum += view.getFloat64(p, true) * inv;
         out[outOff + f] = sum;
       }
-      return 1;
+      return inv;
+    }
   }
 }
 

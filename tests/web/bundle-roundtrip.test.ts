@@ -28,7 +28,7 @@ function wavFormat(bytes: Uint8Array): { tag: number; bits: number; rate: number
 }
 
 describe('bundle audio', () => {
-  it('is 16-bit PCM by default: half the bytes of float, every sample within the quantisation step', () => {
+  it('is 16-bit PCM by default: half the bytes of float, every sample within the quantisation step', async () => {
     const s = sampleSession();
     const pcm = unzipSync(buildBundle([s], AT));
     const float = unzipSync(buildBundle([s], AT, { audio: 'float32' }));
@@ -37,24 +37,24 @@ describe('bundle audio', () => {
     expect(wavFormat(pcm[folder])).toEqual({ tag: 1, bits: 16, rate: 8000 });
     expect(wavFormat(float[folder])).toEqual({ tag: 3, bits: 32, rate: 8000 });
     expect(pcm[folder].length - 44).toBe(2 * s.audio!.length);
-    const back = readBundle(buildBundle([s], AT))[0].audio!;
+    const back = (await readBundle(buildBundle([s], AT)))[0].audio!;
     // The encoder writes round(x·32767) for x ≥ 0 and round(x·32768) below; the reader divides by
     // 32768: the error is at most half a step plus the gain difference x/32768.
     for (let i = 0; i < back.length; i++) expect(Math.abs(back[i] - s.audio![i])).toBeLessThanOrEqual((0.5 + Math.abs(s.audio![i])) / 32768 + 1e-9);
   });
 
-  it('as float32 on request: every sample back exactly', () => {
+  it('as float32 on request: every sample back exactly', async () => {
     const s = sampleSession();
-    expect(readBundle(buildBundle([s], AT, { audio: 'float32' }))[0].audio).toEqual(s.audio);
+    expect((await readBundle(buildBundle([s], AT, { audio: 'float32' })))[0].audio).toEqual(s.audio);
   });
 
-  it('stays float when a sample lies beyond full scale, so nothing is clipped', () => {
+  it('stays float when a sample lies beyond full scale, so nothing is clipped', async () => {
     const s = sampleSession();
     s.audio![10] = 1.7;
     s.audio![11] = -2.5;
     const files = unzipSync(buildBundle([s], AT));
     expect(wavFormat(files[Object.keys(files).find((n) => n.endsWith('/audio.wav'))!]).tag).toBe(3);
-    expect(readBundle(buildBundle([s], AT))[0].audio).toEqual(s.audio);
+    expect((await readBundle(buildBundle([s], AT)))[0].audio).toEqual(s.audio);
   });
 });
 
@@ -72,20 +72,20 @@ describe('what the app produces imports back', () => {
     db.close();
   });
 
-  it('a 10-minute session whose Q interval is unbounded above imports', () => {
+  it('a 10-minute session whose Q interval is unbounded above imports', async () => {
     const s = sampleSession();
     s.record.durationS = 600;
     s.record.report!.summary.qFactor = 2.4e5;
     s.record.report!.summary.qFactorCi95 = [9e4, 3.7e7];
     s.record.report!.summary.decayRateCi95PerS = [-1e-4, 2e-3];
-    expect(readBundle(buildBundle([s], AT))[0].record.report!.summary.qFactorCi95).toEqual([9e4, 3.7e7]);
+    expect((await readBundle(buildBundle([s], AT)))[0].record.report!.summary.qFactorCi95).toEqual([9e4, 3.7e7]);
   });
 
-  it('a sensor session at a rate below 1 kHz that is not a whole number of Hz, with its audio', () => {
+  it('a sensor session at a rate below 1 kHz that is not a whole number of Hz, with its audio', async () => {
     const s = sampleSession();
     s.record.meta.sampleRateHz = 512.5;
     s.record.report!.sampleRateHz = 512.5;
-    const back = readBundle(buildBundle([s], AT, { audio: 'float32' }))[0];
+    const back = (await readBundle(buildBundle([s], AT, { audio: 'float32' })))[0];
     expect(carried(back)).toEqual(carried(s));
   });
 

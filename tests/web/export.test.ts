@@ -65,14 +65,14 @@ describe('export → import round trip', () => {
     db.close();
   });
 
-  it('a bundle of several sessions holds one folder each and a manifest', () => {
+  it('a bundle of several sessions holds one folder each and a manifest', async () => {
     const files = unzipSync(buildBundle([sampleSession(), sampleSession({ id: 'b2', site: 'Boiler room', withAudio: false })], EXPORTED_AT));
     const names = Object.keys(files).sort();
     expect(names).toContain('manifest.json');
     expect(names.filter((n) => n.endsWith('/session.json'))).toHaveLength(2);
     expect(names.filter((n) => n.endsWith('/audio.wav'))).toHaveLength(1);
     expect(names.filter((n) => n.endsWith('/report.html'))).toHaveLength(2);
-    expect(readBundle(buildBundle([sampleSession()], EXPORTED_AT))).toHaveLength(1);
+    expect(await readBundle(buildBundle([sampleSession()], EXPORTED_AT))).toHaveLength(1);
   });
 });
 

@@ -27,13 +27,8 @@ export interface DecodedFile {
 export interface FileOptions {
   /** Sample rate of a one-column CSV (no time column), Hz; overrides the time column's rate otherwise. */
   csvRateHz?: number;
-  /** Unit of the CSV values: pascals, another unit, or as the header says ('auto', the default). */
-  csvUnit?: 'auto' | 'Pa' | 'other';
-}
-
-/** True when a column name says pascals: "pressure_pa", "p (Pa)", "Pa", "p[Pa]". */
-export function isPascalColumn(name: string | null): boolean {
-  return name !== null && /(^|[\s_(\[/-])pa($|[\s)\]])/i.test(name.trim());
+  /** Unit of the CSV values: pascals (the default, as the command line takes them) or another unit. */
+  csvUnit?: 'Pa' | 'other';
 }
 
 /** Sample rate used when the browser decodes a compressed file (it resamples to this), Hz. */
@@ -109,7 +104,7 @@ export async function decodeAudioFile(file: File, options: FileOptions = {}): Pr
       const peak = Math.max(Math.abs(summary.minValue), Math.abs(summary.maxValue));
       const gain = peak > 0 ? 0.5 / peak : 1;
       for (let i = 0; i < samples.length; i++) samples[i] *= gain;
-      const isPascal = options.csvUnit === 'Pa' || (options.csvUnit !== 'other' && isPascalColumn(summary.valueColumnName));
+      const isPascal = options.csvUnit !== 'other';
       const rateNote = options.csvRateHz
         ? [`Sample rate ${options.csvRateHz} Hz as typed${summary.timeRateHz !== null ? ` (the time column says ${summary.timeRateHz.toPrecision(6)} Hz)` : ''}.`]
         : [];
@@ -125,7 +120,7 @@ export async function decodeAudioFile(file: File, options: FileOptions = {}): Pr
           ...rateNote,
           isPascal
             ? `Values read as pressure in Pa (largest ${peak.toPrecision(4)} Pa): amplitudes are shown in Pa and dB SPL.`
-            : `Values were scaled so the largest (${peak.toPrecision(4)}) reads −6 dBFS; levels in dBFS are relative to that. Choose “Pa” before opening to read them as pressure.`,
+            : `Values were scaled so the largest (${peak.toPrecision(4)}) reads −6 dBFS; levels in dBFS are relative to that. (Values were marked as another unit than Pa.)`,
         ],
       };
     } catch (err) {

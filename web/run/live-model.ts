@@ -8,7 +8,7 @@ import type { Marker } from '../../dsp/types';
 import type { UpdateMessage, MarginEstimate } from '../worker/protocol';
 import { emptyLiveSummary, isSameTone, type LiveSummary } from '../worker/live-summary';
 import type { Calibration } from '../settings';
-import { appendFrames, createLiveBuffer, resetLiveBuffer, type LiveBuffer } from './live-buffer';
+import { appendColumns, appendFrames, createLiveBuffer, resetLiveBuffer, type LiveBuffer } from './live-buffer';
 import { createTimeWeightedLevel, resetTimeWeightedLevel, stepTimeWeightedLevel, weightedLevelDb, type TimeWeightedLevel, type TimeWeighting } from './time-weighting';
 
 /** Rows of track kept on screen: 100 rows/s for 10 minutes. */
@@ -91,6 +91,7 @@ export function applyUpdate(model: LiveModel, m: UpdateMessage): Marker[] {
     b.spectrumBinHz = m.spectrumBinHz;
     b.spectrumCount++;
   }
+  appendColumns(b, m.columns, m.columnBandHz);
   b.version++;
   model.summary = m.summary;
   if (m.margin !== undefined) model.margin = m.margin;

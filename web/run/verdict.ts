@@ -34,6 +34,8 @@ export interface Verdict {
   basis: string;
   /** The regime word consistent with the verdict (never "Quiet" while a tone sounds). */
   regimeWord: string;
+  /** Frequency of the mode the margin belongs to, Hz (NaN when the margin is not a quiet mode's). */
+  marginFrequencyHz: number;
 }
 
 /** A margin in the verdict's terms: σ of the least-damped mode with its interval and frequency. */
@@ -121,6 +123,7 @@ export function verdictOf({ summary, margin, noiseDriven, isFinal }: VerdictInpu
       margin: `${growthText}${isShowable(d) ? ` · decay rate ${formatRate(d, summary.decayRateCi95PerS)}` : ''}`,
       basis: 'the tone grew out of the background and died away when the driving stopped',
       regimeWord: REGIME_WORDS[regime],
+      marginFrequencyHz: Number.NaN,
     };
   }
   if (regime === 'growth' || regime === 'steady') {
@@ -130,6 +133,7 @@ export function verdictOf({ summary, margin, noiseDriven, isFinal }: VerdictInpu
       margin: growthText,
       basis: isShowable(growth) ? 'how fast the hum grew from the background' : 'a tone rose out of the background',
       regimeWord: REGIME_WORDS[regime],
+      marginFrequencyHz: Number.NaN,
     };
   }
   if (regime === 'decay') {
@@ -140,6 +144,7 @@ export function verdictOf({ summary, margin, noiseDriven, isFinal }: VerdictInpu
       margin: isShowable(d) ? `decay rate ${formatRate(d, summary.decayRateCi95PerS)}` : 'decay rate being fitted',
       basis: 'the hum stops: the driving is off or below threshold',
       regimeWord: REGIME_WORDS.decay,
+      marginFrequencyHz: Number.NaN,
     };
   }
   const hasTone = isShowable(summary.latestFrequencyHz);
@@ -147,7 +152,7 @@ export function verdictOf({ summary, margin, noiseDriven, isFinal }: VerdictInpu
   if (m) {
     const kind = classifyMargin(m);
     const headline = kind === 'stable' ? 'Stable' : kind === 'near-threshold' ? 'Near threshold' : 'Humming';
-    return { kind, headline, margin: formatQuietMargin(m), basis: m.basis, regimeWord: hasTone ? 'Tone present' : REGIME_WORDS.quiet };
+    return { kind, headline, margin: formatQuietMargin(m), basis: m.basis, regimeWord: hasTone ? 'Tone present' : REGIME_WORDS.quiet, marginFrequencyHz: m.frequencyHz };
   }
   if (hasTone) {
     return {
@@ -156,6 +161,7 @@ export function verdictOf({ summary, margin, noiseDriven, isFinal }: VerdictInpu
       margin: isShowable(growth) ? growthText : 'no growth seen',
       basis: isFinal ? 'a steady tone with no onset in this record: a hum already running, or a resonance driven by noise' : 'no onset seen yet: a hum already running, or a resonance driven by noise',
       regimeWord: 'Tone present',
+      marginFrequencyHz: Number.NaN,
     };
   }
   const d = summary.decayRatePerS;
@@ -166,6 +172,7 @@ export function verdictOf({ summary, margin, noiseDriven, isFinal }: VerdictInpu
       margin: `decay rate ${formatRate(d, summary.decayRateCi95PerS)}`,
       basis: 'the free decay after the driving stopped',
       regimeWord: REGIME_WORDS.quiet,
+      marginFrequencyHz: Number.NaN,
     };
   }
   return {
@@ -174,5 +181,6 @@ export function verdictOf({ summary, margin, noiseDriven, isFinal }: VerdictInpu
     margin: isFinal ? 'no margin measured (no resonance stood out of the noise)' : 'margin needs a few seconds of quiet',
     basis: 'no tone stands out of the background',
     regimeWord: REGIME_WORDS.quiet,
+    marginFrequencyHz: Number.NaN,
   };
 }

@@ -15,6 +15,15 @@ export const SESSION_FORMAT = 'humgauge-session';
 /** Layout version of session.json and manifest.json (follows the database schema). */
 export const BUNDLE_SCHEMA_VERSION = DB_VERSION;
 
+/**
+ * Largest session.json, bytes (REFERENCES.md §81; export refuses to write more): the track of two hours (twice the hour-long
+ * recording the bench uses) at 100 frames/s (99 measured at 48 kHz), each frame at most 125 bytes
+ * of JSON (four numbers of at most 24 characters in ECMAScript's shortest form, a state and two
+ * booleans, with separators; 98 measured on a noisy recording), plus 16 MiB for notes, markers and
+ * the report: about 107 MB. An hour of track is about 35 MB.
+ */
+export const SESSION_JSON_MAX_BYTES = 2 * 3600 * 100 * 125 + 16 * 1024 * 1024;
+
 const NON_FINITE = ['NaN', 'Infinity', '-Infinity'] as const;
 
 /** JSON encoding of a measured value: non-finite numbers become tokens. */

@@ -6,7 +6,8 @@
 import { strToU8, zipSync, type Zippable } from 'fflate';
 import type { TrackFrame } from '../../dsp/types';
 import { encodeWav } from '../../dsp/io/wav-write';
-import { BUNDLE_FORMAT, BUNDLE_SCHEMA_VERSION, SESSION_FORMAT, encodeNumber } from './bundle-schema';
+import { BUNDLE_FORMAT, BUNDLE_SCHEMA_VERSION, SESSION_FORMAT, SESSION_JSON_MAX_BYTES, encodeNumber } from './bundle-schema';
+import { DEFAULT_ZIP_LIMITS, formatBytes } from './zip-read';
 import type { SessionRecord } from './db';
 import { buildReportHtml } from './report-html';
 import type { FullSession } from './sessions';
@@ -122,13 +123,19 @@ export function buildBundle(sessions: readonly FullSession[], exportedAtMs = Dat
     while (listed.some((l) => l.folder === folder)) folder += '-x';
     const hasAudio = !!s.audio && s.audio.length > 0;
     listed.push({ id: s.record.id, folder, hasAudio });
-    files[`${folder}/session.json`] = strToU8(toJsonText(toSessionFile(s, exportedAtMs)));
+    const json = strToU8(toJsonText(toSessionFile(s, exportedAtMs)));
+    // What we export we import: never write what the import would refuse.
+    if (json.length > SESSION_JSON_MAX_BYTES) throw new RangeError(`The session of ${formatBytes(json.length)} of JSON is longer than an import accepts (${formatBytes(SESSION_JSON_MAX_BYTES)}); export its track as CSV and its audio as WAV instead.`);
+    files[`${folder}/session.json`] = json;
     files[`${folder}/track.csv`] = strToU8(trackCsv(s.track, s.record.meta.calibrationOffsetDb));
     files[`${folder}/report.html`] = strToU8(buildReportHtml(s.record, s.track, exportedAtMs));
     // Deflate gains little on microphone noise and is slow on hundreds of megabytes, so the audio
     // is stored uncompressed.
     if (hasAudio) files[`${folder}/audio.wav`] = [sessionAudioWav(s.audio as Float32Array, s.record.meta.sampleRateHz, options.audio ?? 'pcm16'), { level: 0 }];
   }
+  let audioBytes = 0;
+  for (const f of Object.values(files)) if (Array.isArray(f)) audioBytes += (f[0] as Uint8Array).length;
+  if (audioBytes > DEFAULT_ZIP_LIMITS.maxZipBytes) throw new RangeError(`The audio of these sessions is ${formatBytes(audioBytes)}, more than a bundle may hold (${formatBytes(DEFAULT_ZIP_LIMITS.maxZipBytes)}): export fewer sessions at a time, or with 16-bit audio.`);
   files['manifest.json'] = strToU8(toJsonText({ format: BUNDLE_FORMAT, schemaVersion: BUNDLE_SCHEMA_VERSION, exportedAtMs: Math.round(exportedAtMs), sessions: listed }));
   // Zip (DOS) dates start in 1980.
   return zipSync(files, { level: 1, mtime: new Date(Math.max(exportedAtMs, Date.UTC(1980, 0, 2))) });

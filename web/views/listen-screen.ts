@@ -9,6 +9,7 @@ import { createRunController, type RunMeta, type RunResult, type RunState } from
 import { liveLevels } from '../run/live-model';
 import { readDuctScreenGeometry, describeGeometry } from '../run/geometry';
 import type { FileOptions } from '../capture/file-input';
+import { MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ } from '../worker/protocol';
 import { createLivePlots, type LivePlots } from './live-plots';
 import { createSpectrogram, type Spectrogram } from './live-spectrogram';
 import { createReadouts } from './live-readouts';
@@ -88,7 +89,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
 
   // Sensor files: a one-column CSV has no time column, so its rate is typed here.
   const csvRate = el('input', { type: 'text', inputMode: 'decimal', id: 'csv-rate', placeholder: 'e.g. 2000', className: 'short-input' });
-  const csvUnit = el('select', { id: 'csv-unit' }, el('option', { value: 'auto', text: 'as its header says' }), el('option', { value: 'Pa', text: 'pressure, Pa' }), el('option', { value: 'other', text: 'another unit' }));
+  const csvUnit = el('select', { id: 'csv-unit' }, el('option', { value: 'Pa', text: 'pressure, Pa' }), el('option', { value: 'other', text: 'another unit (levels relative to the largest value)' }));
   const csvError = el('span', { className: 'field-error', id: 'csv-rate-error', attrs: { role: 'alert' } });
   const csvBox = el(
     'details',
@@ -136,11 +137,11 @@ export const mountListenScreen: MountScreen = (root, app) => {
   function fileOptions(): FileOptions | null {
     const text = csvRate.value.trim().replace(',', '.');
     csvError.textContent = '';
-    const unit = csvUnit.value === 'Pa' || csvUnit.value === 'other' ? csvUnit.value : 'auto';
+    const unit = csvUnit.value === 'other' ? 'other' : 'Pa';
     if (!text) return { csvUnit: unit };
     const rate = Number(text);
-    if (!Number.isFinite(rate) || rate < 500 || rate > 192_000) {
-      csvError.textContent = `“Sample rate of a one-column CSV” must be a number of Hz from 500 to 192000 (got “${csvRate.value}”).`;
+    if (!Number.isFinite(rate) || rate < MIN_SAMPLE_RATE_HZ || rate > MAX_SAMPLE_RATE_HZ) {
+      csvError.textContent = `“Sample rate of a one-column CSV” must be a number of Hz from ${MIN_SAMPLE_RATE_HZ} to ${MAX_SAMPLE_RATE_HZ} (got “${csvRate.value}”).`;
       csvBox.open = true;
       return null;
     }
@@ -169,8 +170,8 @@ export const mountListenScreen: MountScreen = (root, app) => {
   function ensurePlots(): void {
     if (plots) return;
     plots = createLivePlots(plotHost, model.buffer, () => model.bandHighHz);
-    spectrogram = createSpectrogram(plotHost, model.buffer, () => [model.bandLowHz, model.bandHighHz]);
-    spectrogram.clear();
+    spectrogram = createSpectrogram(plotHost, model.buffer, () => model.inputKind !== 'microphone');
+    spectrogram.redraw();
   }
 
   function startDrawing(): void {
@@ -183,7 +184,8 @@ export const mountListenScreen: MountScreen = (root, app) => {
     rafId = 0;
     // One last full draw so the final state stays on screen.
     model.buffer.version++;
-    plots?.draw();
+    plots?.redraw();
+    spectrogram?.redraw();
     clock.textContent = formatClock(model.timeS);
   }
 
@@ -202,7 +204,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
   });
   controller.on('reset', () => {
     markers.clearPlaced();
-    spectrogram?.clear();
+    spectrogram?.redraw();
     resultHost.hidden = true;
     resultHost.replaceChildren();
   });
@@ -241,12 +243,15 @@ export const mountListenScreen: MountScreen = (root, app) => {
     const options = fileOptions();
     if (file && options) void controller.openFile(file, runMeta(), options);
   });
-  window.addEventListener('resize', () => plots?.resize());
+  window.addEventListener('resize', () => {
+    plots?.resize();
+    spectrogram?.redraw();
+  });
   app.onShow('listen', () => {
     renderDuctChoice();
     plots?.resize();
-    model.buffer.version++;
-    plots?.draw();
+    plots?.redraw();
+    spectrogram?.redraw();
   });
   ensurePlots();
   readouts.update(readoutInput());

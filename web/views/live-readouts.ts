@@ -150,21 +150,28 @@ export function createReadouts(host: HTMLElement): Readouts {
     const { summary, isFinal } = input;
     // The frequency stays beside its rates after the tone stops: the latest tracked one, else the rates' own.
     const latest = summary.latestFrequencyHz;
-    const f = isFinal && summary.frequencyHz !== null ? summary.frequencyHz : isShowable(latest) ? latest : summary.frequencyHz;
-    const isRatesOnly = !isFinal && !isShowable(latest) && isShowable(f);
+    const v = verdictOf({ summary, margin: input.margin, noiseDriven: report?.noiseDriven, isFinal });
+    // Without a tone, the frequency of the resonance whose damping the verdict reports.
+    const marginHz = v.marginFrequencyHz;
+    let f = isFinal && summary.frequencyHz !== null ? summary.frequencyHz : isShowable(latest) ? latest : summary.frequencyHz;
+    let isMarginFrequency = false;
+    if (!isShowable(f) && isShowable(marginHz)) {
+      f = marginHz;
+      isMarginFrequency = true;
+    }
+    const isRatesOnly = !isFinal && !isShowable(latest) && isShowable(f) && !isMarginFrequency;
     const isMicrophone = input.inputKind !== 'sensor';
     const rollOff = isMicrophone && isShowable(f) && f < LOW_FREQUENCY_NOTE_HZ;
     setValue(
       freq,
       formatHz(f, null, isFinal ? 'no tone found' : 'no tone'),
-      [isRatesOnly ? 'tone no longer heard; frequency of the rates below' : '', rollOff ? `Below ${LOW_FREQUENCY_NOTE_HZ} Hz phone microphones roll off: levels read low, rates are unaffected.` : ''].filter(Boolean).join(' · '),
+      [isRatesOnly ? 'tone no longer heard; frequency of the rates below' : '', isMarginFrequency ? 'resonance excited by the noise (no tone sounding)' : '', rollOff ? `Below ${LOW_FREQUENCY_NOTE_HZ} Hz phone microphones roll off: levels read low, rates are unaffected.` : ''].filter(Boolean).join(' · '),
     );
     freq.root.classList.toggle('has-note', rollOff);
 
     // The tone's level shows while a tone is heard (its weighted level falls away after it).
     const loudness = showLevel(isShowable(latest) || isFinal ? input : { ...input, toneDbfs: Number.NaN }, isShowable(f) ? f : Number.NaN);
 
-    const v = verdictOf({ summary, margin: input.margin, noiseDriven: report?.noiseDriven, isFinal });
     setText(verdict.value, v.headline);
     setText(verdict.detail, `${v.margin} · ${v.basis}`);
     verdict.root.dataset.verdict = v.kind;

@@ -37,7 +37,7 @@ export async function renderCompare(host: HTMLElement, ctx: SessionsContext, ids
     return { destroy: () => undefined };
   }
   // Label each by date when titles repeat (the same rig before and after a fix).
-  const titles = sessions.map((s) => sessionTitle(s.record.meta.site, s.record.meta.equipment));
+  const titles = sessions.map((s) => sessionTitle(s.record.meta.site, s.record.meta.equipment, s.record.meta.fileName));
   const labels = sessions.map((s, k) => (titles.filter((t) => t === titles[k]).length > 1 ? `${titles[k]} ${formatLocalStamp(s.record.createdAtMs)}` : titles[k]));
   const shortLabels = sessions.map((s, k) => `${k + 1}. ${formatLocalStamp(s.record.createdAtMs).slice(5)}`);
   const onsets = sessions.map((s) => onsetTimeS(s.record.report, s.track));

@@ -14,6 +14,7 @@ import { formatLocalStamp, sessionTitle, type SessionsContext, type SessionView 
 import { cssVar, formatBytes, h, table } from './session-dom';
 import { conditionsEditor, markerEditor } from './session-edit';
 import { reanalysisPanel } from './session-reanalyse';
+import { cyclesTable } from './run-result';
 
 /** Rows of the result table: label and formatted value (with unit and interval). */
 export function summaryRows(report: Report | null, calibrationOffsetDb?: number): [string, string][] {
@@ -44,7 +45,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   const destroyers: (() => void)[] = [];
   const { record, track } = full;
   const m = record.meta;
-  const title = h('h2', { text: sessionTitle(m.site, m.equipment) });
+  const title = h('h2', { text: sessionTitle(m.site, m.equipment, m.fileName), attrs: { id: 'session-title' } });
   const offset = typeof m.calibrationOffsetDb === 'number' && Number.isFinite(m.calibrationOffsetDb) ? m.calibrationOffsetDb : undefined;
 
   // Editable details.
@@ -72,7 +73,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
     try {
       const next = await updateSessionMeta(db, id, { site: site.value.trim(), equipment: equipment.value.trim(), notes: notes.value });
       full.record = next;
-      title.textContent = sessionTitle(next.meta.site, next.meta.equipment);
+      title.textContent = sessionTitle(next.meta.site, next.meta.equipment, next.meta.fileName);
       formMsg.className = 'hint';
       formMsg.textContent = 'Saved.';
     } catch (err) {
@@ -82,7 +83,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   });
 
   // Figures.
-  const result = h('table', { className: 'segments result-table' }, h('caption', { text: 'Result (95 % intervals)' }), h('tbody', {}, ...summaryRows(record.report, offset).map(([k, v]) => h('tr', {}, h('th', { text: k, attrs: { scope: 'row' } }), h('td', { text: v })))));
+  const result = h('div', { className: 'table-scroll' }, h('table', { className: 'segments result-table' }, h('caption', { text: 'Result (95 % intervals)' }), h('tbody', {}, ...summaryRows(record.report, offset).map(([k, v]) => h('tr', {}, h('th', { text: k, attrs: { scope: 'row' } }), h('td', { text: v }))))));
 
   // Plots.
   const times = track.map((f) => f.timeS);
@@ -112,6 +113,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   const segs = r?.segments.length
     ? table('segments', 'Segments', ['kind', 'time (m:s)', 'frequency', 'rate (95 % CI)', 'model'], r.segments.map((g) => [g.kind, `${formatClock(g.startS)}–${formatClock(g.endS)}`, formatHz(g.frequencyHz), g.ratePerS === null ? '—' : formatRate(g.ratePerS, g.rateCi95PerS), g.model ?? '']))
     : null;
+  const cycles = r ? cyclesTable(r) : null;
   const noise = r?.noiseDriven.length
     ? table('segments', 'Damping of the quiet system (noise-driven)', ['time (m:s)', 'frequency', 'decay rate (95 % CI)'], r.noiseDriven.map((n) => [`${formatClock(n.startS)}–${formatClock(n.endS)}`, formatHz(n.frequencyHz), formatRate(n.decayRatePerS, n.decayRateCi95PerS)]))
     : null;
@@ -147,7 +149,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
     button('Track (.csv)', 'export-csv', () => deliver(new TextEncoder().encode(trackCsv(track, offset)), `${base}-track.csv`, 'text/csv')),
     button('Audio (.wav)', 'export-wav', () => deliver(sessionWav(full.audio as Float32Array, m.sampleRateHz), `${base}.wav`, 'audio/wav'), !full.audio),
     button('Printable report (.html)', 'export-html', () => deliver(new TextEncoder().encode(buildReportHtml(current().record, track, Date.now())), `${base}-report.html`, 'text/html')),
-    button('Delete', 'delete-session', () => ctx.deleteWithUndo(id, sessionTitle(current().record.meta.site, current().record.meta.equipment))),
+    button('Delete', 'delete-session', () => ctx.deleteWithUndo(id, sessionTitle(current().record.meta.site, current().record.meta.equipment, current().record.meta.fileName))),
   );
 
   const facts = `${formatLocalStamp(record.createdAtMs)} · ${formatSeconds(record.durationS)} · ${m.sampleRateHz} Hz · ${m.source}${m.fileName ? ` (${m.fileName})` : ''} · ${full.audio ? `audio kept (${formatSeconds(full.audio.length / m.sampleRateHz)})` : `no audio${record.audio.stoppedReason ? ` (${record.audio.stoppedReason})` : ''}`}`;
@@ -162,6 +164,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
       ? h('p', {}, h('a', { className: 'big-link', attrs: { href: `#duct/${r.summary.frequencyHz.toFixed(2)}`, id: 'check-duct-mode' }, text: `Which duct mode is ${formatHz(r.summary.frequencyHz)}? Open the duct model` }))
       : null,
     plots,
+    cycles,
     segs,
     noise,
     markers,

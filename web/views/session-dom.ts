@@ -15,14 +15,18 @@ export function svg<K extends keyof SVGElementTagNameMap>(tag: K, attrs: Record<
   return el;
 }
 
-/** A table from a header row and body rows of text cells. */
-export function table(className: string, caption: string, head: string[], rows: string[][]): HTMLTableElement {
-  return h(
-    'table',
-    { className },
-    h('caption', { text: caption }),
-    h('thead', {}, h('tr', {}, ...head.map((c) => h('th', { text: c, attrs: { scope: 'col' } })))),
-    h('tbody', {}, ...rows.map((r) => h('tr', {}, ...r.map((c) => h('td', { text: c }))))),
+/** A table from a header row and body rows of text cells, in a box that scrolls sideways on a narrow screen. */
+export function table(className: string, caption: string, head: string[], rows: string[][]): HTMLElement {
+  return el(
+    'div',
+    { className: 'table-scroll' },
+    el(
+      'table',
+      { className },
+      el('caption', { text: caption }),
+      el('thead', {}, el('tr', {}, ...head.map((c) => el('th', { text: c, attrs: { scope: 'col' } })))),
+      el('tbody', {}, ...rows.map((r) => el('tr', {}, ...r.map((c) => el('td', { text: c }))))),
+    ),
   );
 }
 

@@ -9,7 +9,7 @@ import { createWavDecoder } from '../../dsp/io/wav';
 import { InputError } from '../../dsp/io/errors';
 import type { Analysis, AnalysisConfig, Marker, Onset, Segment, TrackFrame } from '../../dsp/types';
 import { emptyLiveSummary, updateLiveSummary, type LiveSummary } from './live-summary';
-import { parseToWorker, transferablesOf, type FromWorker, type ToWorker, type UpdateMessage } from './protocol';
+import { parseToWorker, reduceToLogRows, SPECTROGRAM_ROWS, SPECTROGRAM_STEP_S, transferablesOf, type FromWorker, type SpectrogramColumn, type ToWorker, type UpdateMessage } from './protocol';
 
 declare const self: DedicatedWorkerGlobalScope;
 
@@ -41,7 +41,14 @@ interface Run {
   analysisMs: number;
   /** Last frequency of the main tone the track followed, Hz (NaN before any). */
   mainFrequencyHz: number;
+  /** Spectrogram columns not yet posted, the band they span, and the time of the last one, s. */
+  pendingColumns: SpectrogramColumn[];
+  columnBandHz: [number, number];
+  lastColumnS: number;
 }
+
+/** Band of the analysis when the request does not give one, Hz (dsp/types.ts AnalysisConfig defaults). */
+const DEFAULT_BAND_HZ: [number, number] = [20, 4000];
 
 let run: Run | null = null;
 
@@ -76,6 +83,9 @@ function createRun(id: number, config: AnalysisConfig, isKeepingAudio: boolean, 
     summary: emptyLiveSummary(),
     analysisMs: 0,
     mainFrequencyHz: Number.NaN,
+    pendingColumns: [],
+    columnBandHz: [config.bandLowHz ?? DEFAULT_BAND_HZ[0], Math.min(config.bandHighHz ?? DEFAULT_BAND_HZ[1], config.sampleRateHz / 2)],
+    lastColumnS: -Infinity,
   };
 }
 
@@ -95,6 +105,14 @@ function pushBlock(r: Run, samples: Float32Array): void {
     if (!r.spectrum || r.spectrum.length !== u.spectrumDbfs.length) r.spectrum = new Float32Array(u.spectrumDbfs.length);
     r.spectrum.set(u.spectrumDbfs);
     r.spectrumBinHz = u.spectrumBinHz;
+    // A spectrogram column every SPECTROGRAM_STEP_S of the record, however fast a file is read.
+    const timeS = r.samplesSeen / r.sampleRateHz;
+    if (timeS - r.lastColumnS >= SPECTROGRAM_STEP_S && u.spectrumBinHz > 0) {
+      const dbfs = new Float32Array(SPECTROGRAM_ROWS);
+      reduceToLogRows(u.spectrumDbfs, u.spectrumBinHz, r.columnBandHz[0], r.columnBandHz[1], dbfs);
+      r.pendingColumns.push({ timeS, dbfs });
+      r.lastColumnS = timeS;
+    }
   }
   if (u.peakAbs > r.peakAbs) r.peakAbs = u.peakAbs;
   if (u.isClipped) r.isClipped = true;
@@ -140,6 +158,8 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
     peakAbs: r.peakAbs,
     isClipped: r.isClipped,
     markers: r.pendingMarkers,
+    columns: r.pendingColumns,
+    columnBandHz: r.columnBandHz,
     summary: { ...r.summary },
     mainFrequencyHz: r.mainFrequencyHz,
   };
@@ -147,6 +167,7 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
   r.pendingOnsets = [];
   r.pendingSegments = [];
   r.pendingMarkers = [];
+  r.pendingColumns = [];
   r.peakAbs = 0;
   r.isClipped = false;
   post(message);
