@@ -118,17 +118,18 @@ const NoiseDrivenSchema = v.strictObject({
   autocorrelationCi95PerS: v.optional(v.strictTuple([rate('autocorrelation interval'), rate('autocorrelation interval')])),
 });
 
+/** report.modeStatistics (dsp/types.ts ModeStatistics): the growth rate from the noise per stretch. */
 const ModeStatisticsSchema = v.strictObject({
-  frequencyHz: FREQ('mode frequency'),
-  startS: measured('mode statistics start'),
-  endS: measured('mode statistics end'),
-  linearGrowthRatePerS: v.nullable(rate('linear growth rate')),
+  frequencyHz: FREQ('mode-statistics frequency'),
+  startS: measured('mode-statistics start'),
+  endS: measured('mode-statistics end'),
+  linearGrowthRatePerS: v.nullable(rate('linear growth rate from noise')),
   linearGrowthRateCi95PerS: interval('linear growth rate interval'),
   saturation: v.nullable(measured('saturation')),
   noiseIntensity: v.nullable(measured('noise intensity')),
   regime: v.picklist(['stable', 'near-threshold', 'humming', 'undetermined'], 'regime must be stable, near-threshold, humming or undetermined'),
-  method: text(TEXT_LIMITS.segmentModel, 'mode statistics method'),
-  reason: v.optional(text(TEXT_LIMITS.reportWarning, 'mode statistics reason')),
+  method: text(TEXT_LIMITS.segmentModel, 'mode-statistics method'),
+  reason: v.optional(text(TEXT_LIMITS.reportWarning, 'mode-statistics reason')),
 });
 
 const optNum = (what: string) => v.optional(v.nullable(rate(what)));
@@ -159,7 +160,7 @@ export const ReportSchema = v.strictObject({
   onsets: v.pipe(v.array(v.strictObject({ timeS: measured('onset time'), frequencyHz: FREQ('onset frequency') })), v.maxLength(100_000, 'too many onsets')),
   segments: v.pipe(v.array(SegmentSchema), v.maxLength(100_000, 'too many segments')),
   noiseDriven: v.pipe(v.array(NoiseDrivenSchema), v.maxLength(100_000, 'too many noise-driven estimates')),
-  modeStatistics: v.optional(v.pipe(v.array(ModeStatisticsSchema), v.maxLength(100_000, 'too many mode statistics'))),
+  modeStatistics: v.optional(v.pipe(v.array(ModeStatisticsSchema), v.maxLength(100_000, 'too many mode-statistics entries'))),
   summary: SummarySchema,
   tones: v.optional(v.pipe(v.array(v.strictObject({ frequencyHz: FREQ('tone frequency'), isSteadyLine: v.boolean() })), v.maxLength(1000))),
   clipped: v.optional(v.pipe(v.array(v.strictObject({ startS: measured('clipped start'), endS: measured('clipped end') })), v.maxLength(100_000))),

@@ -13,6 +13,7 @@ import { MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ } from '../worker/protocol';
 import { createLivePlots, type LivePlots } from './live-plots';
 import { createSpectrogram, type Spectrogram } from './live-spectrogram';
 import { createReadouts } from './live-readouts';
+import { createLiveMarginView } from './live-margin-view';
 import { createMarkerBar } from './live-markers';
 import { renderRunResult } from './run-result';
 import { formatClock } from '../format';
@@ -125,6 +126,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
   root.append(el('h2', { className: 'visually-hidden', text: 'Listen' }), controls, labelRow, optionRow, csvBox, meterRow, progressRow, alertBox, notes, readoutHost, markerHost, plotHost, resultHost);
 
   const readouts = createReadouts(readoutHost);
+  const marginView = createLiveMarginView(readoutHost);
   const markers = createMarkerBar(markerHost, (m) => controller.mark(m));
   markers.setEnabled(false);
 
@@ -164,6 +166,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
     plots?.draw();
     spectrogram?.draw();
     readouts.update(readoutInput());
+    marginView.update(model.margin);
     const peakDb = model.peakAbs > 0 ? 20 * Math.log10(model.peakAbs) : -90;
     const pct = Math.max(0, Math.min(100, ((peakDb + 90) / 90) * 100));
     meterBar.style.width = `${pct.toFixed(1)}%`;
@@ -208,6 +211,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
     if (s === 'idle') stopDrawing();
   });
   controller.on('reset', () => {
+    marginView.reset();
     markers.clearPlaced();
     spectrogram?.redraw();
     resultHost.hidden = true;
