@@ -11,8 +11,9 @@ export default defineConfig({
     target: 'node20',
     minify: false,
     rollupOptions: {
-      input: { humgauge: 'dsp/cli/humgauge.ts', bench: 'dsp/cli/bench.ts' },
-      output: { entryFileNames: '[name].js', banner: '#!/usr/bin/env node' },
+      input: { humgauge: 'dsp/cli/humgauge.ts', bench: 'dsp/cli/bench.ts', 'analyze-worker': 'dsp/cli/analyze-worker.ts' },
+      // Chunks beside the entries: the batch finds its worker script (analyze-worker.js) next to itself.
+      output: { entryFileNames: '[name].js', chunkFileNames: '[name]-[hash].js', banner: '#!/usr/bin/env node' },
     },
   },
   ssr: { noExternal: true },

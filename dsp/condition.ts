@@ -125,10 +125,28 @@ function createHalfBandStage(rateHz: number, passHz: number): HalfBandStage {
   return { oddTaps, centreTap: 0.5 / sum, length, work: new Float64Array(length - 1 + CONDITION_MAX_BLOCK), parity: 0 };
 }
 
+/**
+ * Sample rates the analysis accepts, Hz: from pressure-sensor logs at 500 Hz (a band up to 200 Hz,
+ * 0.4 × the rate, holds the low modes of boilers and flues) to 192 kHz audio.
+ */
+export const MIN_SAMPLE_RATE_HZ = 500;
+export const MAX_SAMPLE_RATE_HZ = 192000;
+
+/**
+ * Lowest band edge, Hz: the analysis frame (0.32 s, ~3 Hz bins) needs a tone several bins above
+ * 0 Hz, and the DC blocker's corner (a quarter of the low edge) must stay above the drift it removes.
+ */
+export const MIN_BAND_LOW_HZ = 5;
+
 /** Creates the conditioner; throws RangeError for an unusable rate or band. */
 export function createConditionState(cfg: ConditionConfig): ConditionState {
   const fs = cfg.sampleRateHz;
-  if (!Number.isFinite(fs) || fs < 8000 || fs > 192000) throw new RangeError(`sampleRateHz must be 8000-192000 Hz, got ${fs}`);
+  if (!Number.isFinite(fs) || fs < MIN_SAMPLE_RATE_HZ || fs > MAX_SAMPLE_RATE_HZ) {
+    throw new RangeError(`sampleRateHz must be ${MIN_SAMPLE_RATE_HZ}-${MAX_SAMPLE_RATE_HZ} Hz, got ${fs}`);
+  }
+  if (!(cfg.bandLowHz >= MIN_BAND_LOW_HZ)) {
+    throw new RangeError(`bandLowHz must be at least ${MIN_BAND_LOW_HZ} Hz (tones below it are not resolved by the analysis frame), got ${cfg.bandLowHz} Hz`);
+  }
   if (!(cfg.bandLowHz > 0) || !(cfg.bandHighHz > cfg.bandLowHz)) {
     throw new RangeError(`band must satisfy 0 < bandLowHz < bandHighHz, got ${cfg.bandLowHz}-${cfg.bandHighHz} Hz`);
   }
@@ -196,36 +214,53 @@ function recordClippedSample(st: ConditionState, timeS: number, runStartS: numbe
   st.clipCount = n + 1;
 }
 
-/** Runs one half-band stage over src[0 .. n) into dst; returns the number of outputs. */
-function runHalfBand(stg: HalfBandStage, src: Float64Array | null, n: number, dst: Float64Array): number {
+/**
+ * Runs one half-band stage over the n inputs already in its work buffer (after the history) into
+ * dst from dstAt on; returns the number of outputs.
+ */
+function runHalfBand(stg: HalfBandStage, n: number, dst: Float64Array, dstAt: number): number {
   const L = stg.length;
   const w = stg.work;
   const hist = L - 1;
-  // src null: the input is already in the work buffer.
-  if (src !== null) for (let i = 0; i < n; i++) w[hist + i] = src[i];
   const taps = stg.oddTaps;
   const nt = taps.length;
   const c0 = stg.centreTap;
   const h = (L - 1) / 2;
-  let m = 0;
+  let m = dstAt;
   // Input i completes a pair when the running count is odd; its window is w[i .. i + L − 1].
   // Each output folds the mirrored samples first (symmetric taps) and sums its terms in tap order.
   let i = stg.parity === 1 ? 0 : 1;
-  // Four outputs per pass (windows two inputs apart) share the loop over the taps.
+  // Four outputs per pass (windows two inputs apart) share the loop over the taps. Tap j of output
+  // r (centre c + 2r) reads L_{j−r} = w[c − 1 − 2(j − r)] and R_{j+r} = w[c + 1 + 2(j + r)]; the
+  // four left and four right samples slide by one per tap, so each tap loads two new samples.
   for (; i + 6 < n; i += 8) {
     const centre = i + h;
     let a0 = c0 * w[centre];
     let a1 = c0 * w[centre + 2];
     let a2 = c0 * w[centre + 4];
     let a3 = c0 * w[centre + 6];
+    let l1 = w[centre + 1];
+    let l2 = w[centre + 3];
+    let l3 = w[centre + 5];
+    let r0 = l1;
+    let r1 = l2;
+    let r2 = l3;
     let lo = centre - 1;
-    let hi = centre + 1;
+    let hi = centre + 7;
     for (let j = 0; j < nt; j++) {
       const t = taps[j];
-      a0 += t * (w[lo] + w[hi]);
-      a1 += t * (w[lo + 2] + w[hi + 2]);
-      a2 += t * (w[lo + 4] + w[hi + 4]);
-      a3 += t * (w[lo + 6] + w[hi + 6]);
+      const l0 = w[lo];
+      const r3 = w[hi];
+      a0 += t * (l0 + r0);
+      a1 += t * (l1 + r1);
+      a2 += t * (l2 + r2);
+      a3 += t * (l3 + r3);
+      l3 = l2;
+      l2 = l1;
+      l1 = l0;
+      r0 = r1;
+      r1 = r2;
+      r2 = r3;
       lo -= 2;
       hi += 2;
     }
@@ -248,7 +283,7 @@ function runHalfBand(stg: HalfBandStage, src: Float64Array | null, n: number, ds
   }
   stg.parity = (stg.parity + n) & 1;
   w.copyWithin(0, n, n + hist);
-  return m;
+  return m - dstAt;
 }
 
 /** Marks the clipped samples of a block (slow path, only for blocks that reach full scale). */
@@ -311,14 +346,18 @@ export function stepCondition(st: ConditionState, block: Float32Array): void {
   } else st.clipRun = 0;
   const carryBefore = st.clipCarry;
 
+  // Each stage reads its input from its own work buffer, where the stage before wrote it.
   let src = st.scratchA;
-  let dst = st.scratchB;
+  let srcAt = 0;
   let len = n;
-  for (let s = 0; s < st.stages.length; s++) {
-    len = runHalfBand(st.stages[s], s === 0 ? null : src, len, dst);
-    const t = src;
+  const stages = st.stages;
+  for (let s = 0; s < stages.length; s++) {
+    const next = s + 1 < stages.length ? stages[s + 1] : null;
+    const dst = next !== null ? next.work : st.scratchB;
+    const dstAt = next !== null ? next.length - 1 : 0;
+    len = runHalfBand(stages[s], len, dst, dstAt);
     src = dst;
-    dst = t;
+    srcAt = dstAt;
   }
   const out = st.out;
   const outClipped = st.outClipped;
@@ -329,7 +368,7 @@ export function stepCondition(st: ConditionState, block: Float32Array): void {
   let x1 = st.dcX1;
   let y1 = st.dcY1;
   for (let i = 0; i < len; i++) {
-    const x = src[i];
+    const x = src[srcAt + i];
     const y = g * (x - x1) + r * y1;
     x1 = x;
     y1 = y;

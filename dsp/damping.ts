@@ -52,23 +52,20 @@ export interface Baseband {
 }
 
 /**
- * Mixes x down by centreHz, low-passes and decimates to a complex baseband whose flat band covers
- * ±halfWidthHz; output rate ≈ 8 × halfWidthHz. Blackman-windowed sinc FIR (Harris 1978), length
- * chosen for a transition from halfWidthHz to (rate − halfWidthHz), unit gain at centreHz.
+ * The low-pass of mixDownDecimate: Blackman-windowed sinc (Harris 1978) with unit DC gain (taps h
+ * sum to 1), decimation factor and output rate ≈ rateMultiple × halfWidthHz (default 8), flat over
+ * ±halfWidthHz.
  */
-export function mixDownDecimate(x: Float32Array, sampleRateHz: number, centreHz: number, halfWidthHz: number): Baseband {
-  const factor = Math.max(1, Math.floor(sampleRateHz / (8 * halfWidthHz)));
+export function basebandFilter(sampleRateHz: number, halfWidthHz: number, rateMultiple = 8): { h: Float64Array; factor: number; rateHz: number } {
+  const factor = Math.max(1, Math.floor(sampleRateHz / (rateMultiple * halfWidthHz)));
   const rateHz = sampleRateHz / factor;
   const transitionHz = rateHz - 2 * halfWidthHz;
   let taps = Math.ceil((6.6 * sampleRateHz) / transitionHz);
   if (taps % 2 === 0) taps++;
   const half = (taps - 1) / 2;
   const fc = rateHz / 2 / sampleRateHz;
-  const hr = new Float64Array(taps);
-  const hi = new Float64Array(taps);
-  const w = (2 * Math.PI * centreHz) / sampleRateHz;
-  let sum = 0;
   const h = new Float64Array(taps);
+  let sum = 0;
   for (let k = 0; k < taps; k++) {
     const m = k - half;
     const sinc = m === 0 ? 2 * fc : Math.sin(2 * Math.PI * fc * m) / (Math.PI * m);
@@ -76,9 +73,26 @@ export function mixDownDecimate(x: Float32Array, sampleRateHz: number, centreHz:
     h[k] = sinc * win;
     sum += h[k];
   }
+  for (let k = 0; k < taps; k++) h[k] /= sum;
+  return { h, factor, rateHz };
+}
+
+/**
+ * Mixes x down by centreHz, low-passes and decimates to a complex baseband whose flat band covers
+ * ±halfWidthHz; output rate ≈ rateMultiple × halfWidthHz (default 8). Blackman-windowed sinc FIR
+ * (Harris 1978), length chosen for a transition from halfWidthHz to (rate − halfWidthHz), unit gain
+ * at centreHz.
+ */
+export function mixDownDecimate(x: Float32Array, sampleRateHz: number, centreHz: number, halfWidthHz: number, rateMultiple = 8): Baseband {
+  const { h, factor, rateHz } = basebandFilter(sampleRateHz, halfWidthHz, rateMultiple);
+  const taps = h.length;
+  const half = (taps - 1) / 2;
+  const hr = new Float64Array(taps);
+  const hi = new Float64Array(taps);
+  const w = (2 * Math.PI * centreHz) / sampleRateHz;
   for (let k = 0; k < taps; k++) {
-    hr[k] = (h[k] / sum) * Math.cos(w * k);
-    hi[k] = (-h[k] / sum) * Math.sin(w * k);
+    hr[k] = h[k] * Math.cos(w * k);
+    hi[k] = -h[k] * Math.sin(w * k);
   }
   const count = x.length >= taps ? Math.floor((x.length - taps) / factor) + 1 : 0;
   const re = new Float64Array(count);

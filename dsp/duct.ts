@@ -1,8 +1,10 @@
 /**
- * Duct acoustics: speed of sound, end corrections, plane-wave mode frequencies and mode shapes of
- * straight ducts with uniform, two-zone (heater) or piecewise temperature, identification of a
- * measured tone, inference of the mean gas temperature, and the Rayleigh reading for a compact
- * heater. Lengths in m, temperatures in °C (K where the name says so), frequencies in Hz.
+ * Duct acoustics: end corrections, plane-wave mode frequencies and mode shapes of straight ducts
+ * with uniform, two-zone (heater) or piecewise temperature, and the Rayleigh reading for a compact
+ * heater. Gas properties and input ranges live in dsp/gas.ts (re-exported here); a measured tone →
+ * mode candidates and gas temperature in dsp/duct-match.ts. Every input is checked against its
+ * physical range before any computation, and every loop has a bound. Lengths in m, temperatures
+ * in °C (K where the name says so), frequencies in Hz.
  *
  * Orientation: x runs from the upstream (lower) end x = 0 to the downstream (upper) end x = L; a
  * heater sits at heaterPositionM from the upstream end. For 'open-closed' ducts the closed end is
@@ -10,56 +12,33 @@
  * `closedEnd: 'downstream'` for the other way round.
  */
 import type { DuctGeometry } from './types';
+import {
+  AIR,
+  checkGasTemperatureC,
+  checkRange,
+  DIAMETER_RANGE_M,
+  gammaAtK,
+  gammaTableTopC,
+  LENGTH_RANGE_M,
+  ABSOLUTE_ZERO_C,
+  speedOfSoundMPerS,
+  type GasProperties,
+} from './gas';
 
-/** Ideal-gas properties: ratio of specific heats and specific gas constant, J/(kg·K). */
-export interface GasProperties {
-  gamma: number;
-  specificGasConstantJPerKgK: number;
-}
-
-/** Universal gas constant, J/(mol·K) (CODATA 2018 exact value). */
-export const UNIVERSAL_GAS_CONSTANT_J_PER_MOL_K = 8.314462618;
-
-/** Dry air near room temperature: γ = 1.4, R = 287.05 J/(kg·K) (REFERENCES.md §1). */
-export const AIR: GasProperties = { gamma: 1.4, specificGasConstantJPerKgK: 287.05 };
-
-/** Absolute zero in °C. */
-export const ABSOLUTE_ZERO_C = -273.15;
+export * from './gas';
 
 /** First cut-on root of a circular duct, j'₁₁ = 1.8412 (first zero of J₁'; common practice). */
 export const FIRST_CROSS_MODE_ROOT = 1.8412;
 
-/** Gas from γ and molar mass (kg/mol): R = R_u / M. Throws RangeError on non-positive inputs. */
-export function gasFromMolarMass(gamma: number, molarMassKgPerMol: number): GasProperties {
-  if (!Number.isFinite(gamma) || gamma <= 1) throw new RangeError(`gamma must be a finite number above 1, got ${gamma}`);
-  if (!Number.isFinite(molarMassKgPerMol) || molarMassKgPerMol <= 0) {
-    throw new RangeError(`molarMassKgPerMol must be a positive finite number, got ${molarMassKgPerMol}`);
-  }
-  return { gamma, specificGasConstantJPerKgK: UNIVERSAL_GAS_CONSTANT_J_PER_MOL_K / molarMassKgPerMol };
-}
+/** Most modes predicted at once. */
+export const MAX_MODE_COUNT = 200;
 
-function checkTemperatureC(name: string, temperatureC: number): void {
-  if (!Number.isFinite(temperatureC)) throw new RangeError(`${name} must be a finite temperature in °C, got ${temperatureC}`);
-  if (temperatureC <= ABSOLUTE_ZERO_C) throw new RangeError(`${name} must be above absolute zero (−273.15 °C), got ${temperatureC} °C`);
-}
+/** Most points of a temperature profile and most zones it is cut into (bounds the transfer-matrix work). */
+export const MAX_PROFILE_POINTS = 10000;
+export const MAX_PROFILE_ZONES = 4000;
 
 function checkPositive(name: string, value: number, unit: string): void {
   if (!Number.isFinite(value) || value <= 0) throw new RangeError(`${name} must be a positive finite number of ${unit}, got ${value}`);
-}
-
-/**
- * Adiabatic speed of sound of an ideal gas, m/s: c = sqrt(γ R T), T in K (e.g. J. O. Smith,
- * "Physical Audio Signal Processing", CCRMA, "Speed of sound in air").
- */
-export function speedOfSoundMPerS(temperatureC: number, gas: GasProperties = AIR): number {
-  checkTemperatureC('temperatureC', temperatureC);
-  return Math.sqrt(gas.gamma * gas.specificGasConstantJPerKgK * (temperatureC - ABSOLUTE_ZERO_C));
-}
-
-/** Gas temperature (°C) at which the speed of sound is cMPerS: T = c² / (γ R). */
-export function temperatureForSpeedC(cMPerS: number, gas: GasProperties = AIR): number {
-  checkPositive('cMPerS', cMPerS, 'm/s');
-  return (cMPerS * cMPerS) / (gas.gamma * gas.specificGasConstantJPerKgK) + ABSOLUTE_ZERO_C;
 }
 
 export type OpenEndKind = DuctGeometry['openEnd'];
@@ -97,10 +76,10 @@ export interface DuctModel {
 
 /** Checks a geometry and returns the duct model (one zone, or two with a heater). Throws RangeError naming the parameter. */
 export function ductModelFromGeometry(geom: DuctGeometry, gas: GasProperties = AIR): DuctModel {
-  checkPositive('lengthM', geom.lengthM, 'm');
-  checkPositive('diameterM', geom.diameterM, 'm');
-  checkTemperatureC('gasTemperatureC', geom.gasTemperatureC);
-  const base = { lengthM: geom.lengthM, diameterM: geom.diameterM, ends: geom.ends, openEnd: geom.openEnd, gas };
+  checkRange('lengthM', geom.lengthM, LENGTH_RANGE_M, 'm');
+  checkRange('diameterM', geom.diameterM, DIAMETER_RANGE_M, 'm');
+  checkGasTemperatureC('gasTemperatureC', geom.gasTemperatureC);
+  const base = { lengthM: geom.lengthM, diameterM: geom.diameterM, ends: geom.ends, openEnd: geom.openEnd, gas, ...(geom.closedEnd ? { closedEnd: geom.closedEnd } : {}) };
   const hasHeater = geom.heaterPositionM !== undefined || geom.hotTemperatureC !== undefined;
   if (!hasHeater) return { ...base, zones: [{ lengthM: geom.lengthM, temperatureC: geom.gasTemperatureC }] };
   const x1 = geom.heaterPositionM;
@@ -110,7 +89,7 @@ export function ductModelFromGeometry(geom: DuctGeometry, gas: GasProperties = A
   if (!Number.isFinite(x1) || x1 <= 0 || x1 >= geom.lengthM) {
     throw new RangeError(`heaterPositionM must lie inside the duct (0 < x < ${geom.lengthM} m), got ${x1} m`);
   }
-  checkTemperatureC('hotTemperatureC', hot);
+  checkGasTemperatureC('hotTemperatureC', hot);
   return {
     ...base,
     zones: [
@@ -131,15 +110,18 @@ export interface ProfilePoint {
  * first and last point), cut into `segmentCount` equal zones at their mid-point temperature.
  */
 export function zonesFromProfile(points: ProfilePoint[], lengthM: number, segmentCount = 400): TemperatureZone[] {
-  checkPositive('lengthM', lengthM, 'm');
+  checkRange('lengthM', lengthM, LENGTH_RANGE_M, 'm');
   if (points.length === 0) throw new RangeError('profile needs at least one point');
-  if (!Number.isInteger(segmentCount) || segmentCount < 1) throw new RangeError(`segmentCount must be a positive integer, got ${segmentCount}`);
+  if (points.length > MAX_PROFILE_POINTS) throw new RangeError(`profile must have at most ${MAX_PROFILE_POINTS} points, got ${points.length}`);
+  if (!Number.isInteger(segmentCount) || segmentCount < 1 || segmentCount > MAX_PROFILE_ZONES) {
+    throw new RangeError(`segmentCount must be an integer from 1 to ${MAX_PROFILE_ZONES}, got ${segmentCount}`);
+  }
   for (let i = 0; i < points.length; i++) {
     const p = points[i];
     if (!Number.isFinite(p.xM) || p.xM < 0 || p.xM > lengthM) {
       throw new RangeError(`profile point ${i + 1}: x must lie within the duct (0 to ${lengthM} m), got ${p.xM} m`);
     }
-    checkTemperatureC(`profile point ${i + 1} temperature`, p.temperatureC);
+    checkGasTemperatureC(`profile point ${i + 1} temperature`, p.temperatureC);
     if (i > 0 && p.xM <= points[i - 1].xM) throw new RangeError(`profile point ${i + 1}: x must increase from point to point`);
   }
   const at = (x: number): number => {
@@ -191,20 +173,39 @@ function acousticZones(model: DuctModel): TemperatureZone[] {
 interface PreparedZone {
   lengthM: number;
   cMPerS: number;
-  /** Characteristic impedance up to the mean pressure: ρc = p̄ γ / c, so ρc ∝ γ / c. */
+  /** Characteristic impedance up to the mean pressure: ρc = p̄ γ / c (ρ = p̄ / (R T), c² = γ R T), so ρc ∝ γ(T) / c. */
   impedance: number;
 }
 
+/** Checks the model (geometry ranges, zones, at most MAX_PROFILE_ZONES) and returns its zones with c and impedance, end stubs included. */
 function prepare(model: DuctModel): PreparedZone[] {
-  const zones = acousticZones(model);
-  for (const z of zones) {
-    checkPositive('zone lengthM', z.lengthM, 'm');
-    checkTemperatureC('zone temperatureC', z.temperatureC);
+  checkRange('lengthM', model.lengthM, LENGTH_RANGE_M, 'm');
+  checkRange('diameterM', model.diameterM, DIAMETER_RANGE_M, 'm');
+  if (model.zones.length < 1 || model.zones.length > MAX_PROFILE_ZONES) {
+    throw new RangeError(`zones must number from 1 to ${MAX_PROFILE_ZONES}, got ${model.zones.length}`);
   }
-  return zones.map((z) => {
+  let total = 0;
+  for (const z of model.zones) {
+    checkPositive('zone lengthM', z.lengthM, 'm');
+    checkGasTemperatureC('zone temperatureC', z.temperatureC);
+    total += z.lengthM;
+  }
+  if (Math.abs(total - model.lengthM) > 1e-6 * model.lengthM) throw new RangeError(`zones must add up to lengthM (${model.lengthM} m), got ${total} m`);
+  return acousticZones(model).map((z) => {
     const c = speedOfSoundMPerS(z.temperatureC, model.gas);
-    return { lengthM: z.lengthM, cMPerS: c, impedance: model.gas.gamma / c };
+    return { lengthM: z.lengthM, cMPerS: c, impedance: gammaAtK(model.gas, z.temperatureC - ABSOLUTE_ZERO_C) / c };
   });
+}
+
+/** Length-weighted mean gas temperature of the model's zones, °C. */
+export function meanTemperatureC(model: DuctModel): number {
+  let sum = 0;
+  let len = 0;
+  for (const z of model.zones) {
+    sum += z.lengthM * z.temperatureC;
+    len += z.lengthM;
+  }
+  return sum / len;
 }
 
 /**
@@ -329,9 +330,8 @@ export function cutOnFrequencyHz(cMPerS: number, diameterM: number): number {
  * eq. E3 and its matrix form). Throws RangeError when the root finder fails.
  */
 export function predictModes(model: DuctModel, count: number): ModePrediction {
-  if (!Number.isInteger(count) || count < 1 || count > 200) throw new RangeError(`count must be an integer from 1 to 200, got ${count}`);
+  if (!Number.isInteger(count) || count < 1 || count > MAX_MODE_COUNT) throw new RangeError(`count must be an integer from 1 to ${MAX_MODE_COUNT}, got ${count}`);
   const zones = prepare(model);
-  checkPositive('diameterM', model.diameterM, 'm');
   const cMin = Math.min(...zones.map((z) => z.cMPerS));
   const cutOnHz = cutOnFrequencyHz(cMin, model.diameterM);
   const lEff = effectiveLengthM(model);
@@ -346,11 +346,14 @@ export function predictModes(model: DuctModel, count: number): ModePrediction {
     const state = new Float64Array(2);
     const g = (f: number): number => residual(zones, up, down, f, state);
     // Mode spacing is at least about c_min / (2 L_eff) (travel time bounded by the slowest zone); scan finer than that.
+    // The scan is bounded: with the gas and geometry ranges checked, fMax / step ≤ 128 (count + 2) c_max / c_min,
+    // at most about 1.7e5 steps (c_max / c_min ≤ 6.5 over GAS_TEMPERATURE_RANGE_C).
     const step = cMin / (2 * lEff) / 64;
     const fMax = (count + 2) * (Math.max(...zones.map((z) => z.cMPerS)) / lEff);
+    const maxSteps = Math.ceil(fMax / step) + 1;
     let fPrev = step / 2;
     let gPrev = g(fPrev);
-    while (freqs.length < count && fPrev < fMax) {
+    for (let i = 0; i < maxSteps && freqs.length < count; i++) {
       const f = fPrev + step;
       const gf = g(f);
       if (gf === 0) {
@@ -372,6 +375,11 @@ export function predictModes(model: DuctModel, count: number): ModePrediction {
     );
   }
   if (model.diameterM > 0.5 * model.lengthM) warnings.push(`the diameter (${model.diameterM} m) is comparable to the length (${model.lengthM} m): end corrections and plane waves are rough`);
+  const gammaTop = gammaTableTopC(model.gas);
+  const hottest = Math.max(...model.zones.map((z) => z.temperatureC));
+  if (hottest > gammaTop) {
+    warnings.push(`γ of the gas is tabulated up to ${gammaTop.toFixed(0)} °C and held at its last value above (gas at ${hottest.toFixed(0)} °C), where the true γ is lower: the speed of sound there is slightly overestimated`);
+  }
   return { modes, effectiveLengthM: lEff, cutOnHz, method, warnings };
 }
 
@@ -386,7 +394,7 @@ export interface ModeShape {
 
 /** Pressure and velocity shapes of the mode at freqHz at `pointCount` evenly spaced points of the physical duct. */
 export function modeShape(model: DuctModel, freqHz: number, pointCount = 101): ModeShape {
-  if (!Number.isInteger(pointCount) || pointCount < 2) throw new RangeError(`pointCount must be an integer ≥ 2, got ${pointCount}`);
+  if (!Number.isInteger(pointCount) || pointCount < 2 || pointCount > 100000) throw new RangeError(`pointCount must be an integer from 2 to 100000, got ${pointCount}`);
   const xM = new Float64Array(pointCount);
   for (let i = 0; i < pointCount; i++) xM[i] = (model.lengthM * i) / (pointCount - 1);
   const { pressure, velocity } = sampleShape(model, freqHz, xM);
@@ -397,7 +405,7 @@ export function modeShape(model: DuctModel, freqHz: number, pointCount = 101): M
 
 /** Raw pressure and velocity (velocity scaled by the upstream impedance) at ascending positions xM of the physical duct. */
 function sampleShape(model: DuctModel, freqHz: number, xM: Float64Array): { pressure: Float64Array; velocity: Float64Array } {
-  checkPositive('freqHz', freqHz, 'Hz');
+  checkRange('freqHz', freqHz, { min: Number.MIN_VALUE, max: 1e12 }, 'Hz');
   const zones = prepare(model);
   const [up] = openFlags(model);
   const stub = up ? endCorrectionM(model.diameterM / 2, model.openEnd) : 0;
@@ -480,96 +488,4 @@ export function rayleighReading(model: DuctModel, freqHz: number, heaterXM: numb
   const reading = index > 0 ? 'drives' : index < 0 ? 'damps' : 'neutral';
   const where = reading === 'drives' ? 'adds heat in phase with pressure: it drives this mode' : reading === 'damps' ? 'adds heat out of phase with pressure: it damps this mode' : 'sits at a pressure or velocity node: no driving';
   return { index, reading, message: `heater ${where} (Rayleigh index ${index.toFixed(3)} of ±0.5 for a uniform open–open duct)` };
-}
-
-export interface MeasuredMatch {
-  /** Best-matching mode number of the predicted set. */
-  n: number;
-  predictedHz: number;
-  /** (measured − predicted) / predicted. */
-  relativeDeviation: number;
-  /** Uniform gas temperature that puts mode n exactly at the measured frequency, °C. */
-  temperatureC: number;
-  /** Standard uncertainty of that temperature, K. */
-  temperatureStdK: number;
-  /** 95 % interval (± 1.96 standard uncertainties), °C. */
-  temperatureCi95C: [number, number];
-  warnings: string[];
-}
-
-/**
- * Matches a measured tone to the predicted modes (nearest on a log-frequency scale) and infers the
- * uniform gas temperature that puts that mode exactly at the measured frequency: c = f L_eff / κ_n,
- * T = c² / (γ R), so T ∝ (f L_eff)² and the relative standard uncertainty is
- * u(T)/T = 2 sqrt((u(f)/f)² + (u(L)/L_eff)²) (first-order propagation, GUM JCGM 100:2008 §5.1 —
- * from memory). End corrections are taken as exact; a heater's zones are replaced by one mean temperature.
- */
-export function matchMeasuredFrequency(
-  model: DuctModel,
-  measuredHz: number,
-  uncertainty: { frequencyStdHz: number; lengthStdM: number } = { frequencyStdHz: 0.5, lengthStdM: 0.005 },
-  count = 12,
-): MeasuredMatch {
-  checkPositive('measuredHz', measuredHz, 'Hz');
-  if (!Number.isFinite(uncertainty.frequencyStdHz) || uncertainty.frequencyStdHz < 0) {
-    throw new RangeError(`frequencyStdHz must be a non-negative finite number, got ${uncertainty.frequencyStdHz}`);
-  }
-  if (!Number.isFinite(uncertainty.lengthStdM) || uncertainty.lengthStdM < 0) {
-    throw new RangeError(`lengthStdM must be a non-negative finite number, got ${uncertainty.lengthStdM}`);
-  }
-  const pred = predictModes(model, count);
-  let best = pred.modes[0];
-  for (const m of pred.modes) if (Math.abs(Math.log(measuredHz / m.frequencyHz)) < Math.abs(Math.log(measuredHz / best.frequencyHz))) best = m;
-  const lEff = pred.effectiveLengthM;
-  const c = (measuredHz * lEff) / modeFactor(model.ends, best.n);
-  const tK = (c * c) / (model.gas.gamma * model.gas.specificGasConstantJPerKgK);
-  const rel = 2 * Math.hypot(uncertainty.frequencyStdHz / measuredHz, uncertainty.lengthStdM / lEff);
-  const stdK = rel * tK;
-  const temperatureC = tK + ABSOLUTE_ZERO_C;
-  const warnings = [...pred.warnings];
-  const dev = (measuredHz - best.frequencyHz) / best.frequencyHz;
-  if (best === pred.modes[pred.modes.length - 1] && dev > 0.2) warnings.push(`the tone lies well above the ${count} predicted modes; the match is uncertain`);
-  if (model.zones.length > 1) warnings.push('the inferred temperature is a uniform equivalent of the whole gas column');
-  return {
-    n: best.n,
-    predictedHz: best.frequencyHz,
-    relativeDeviation: dev,
-    temperatureC,
-    temperatureStdK: stdK,
-    temperatureCi95C: [temperatureC - 1.96 * stdK, temperatureC + 1.96 * stdK],
-    warnings,
-  };
-}
-
-/**
- * Speed of sound in humid air with CO₂, m/s, by Cramer's interpolating polynomial (O. Cramer 1993,
- * "The variation of the specific heat ratio and the speed of sound in air with temperature,
- * pressure, humidity, and CO₂ concentration", JASA 93(5) 2510; coefficients as in REFERENCES.md §1).
- * Valid 0–30 °C; water-vapour mole fraction from relative humidity with the enhancement factor and
- * saturation pressure given there.
- */
-export function speedOfSoundHumidAirMPerS(temperatureC: number, pressurePa: number, relativeHumidityPct: number, co2MoleFraction = 0.0004): number {
-  checkTemperatureC('temperatureC', temperatureC);
-  checkPositive('pressurePa', pressurePa, 'Pa');
-  if (!Number.isFinite(relativeHumidityPct) || relativeHumidityPct < 0 || relativeHumidityPct > 100) {
-    throw new RangeError(`relativeHumidityPct must lie from 0 to 100, got ${relativeHumidityPct}`);
-  }
-  if (!Number.isFinite(co2MoleFraction) || co2MoleFraction < 0 || co2MoleFraction > 0.01) {
-    throw new RangeError(`co2MoleFraction must lie from 0 to 0.01, got ${co2MoleFraction}`);
-  }
-  const t = temperatureC;
-  const tK = t - ABSOLUTE_ZERO_C;
-  const p = pressurePa;
-  const psv = Math.exp(1.2378847e-5 * tK * tK - 1.9121316e-2 * tK + 33.93711047 - 6.3431645e3 / tK);
-  const fe = 1.00062 + 3.14e-8 * p + 5.6e-7 * t * t;
-  const xw = ((relativeHumidityPct / 100) * fe * psv) / p;
-  const xc = co2MoleFraction;
-  const a = [331.5024, 0.603055, -0.000528, 51.471935, 0.1495874, -0.000782, -1.82e-7, 3.73e-8, -2.93e-10, -85.20931, -0.228525, 5.91e-5, -2.835149, -2.15e-13, 29.179762, 0.000486];
-  return (
-    a[0] + a[1] * t + a[2] * t * t +
-    (a[3] + a[4] * t + a[5] * t * t) * xw +
-    (a[6] + a[7] * t + a[8] * t * t) * p +
-    (a[9] + a[10] * t + a[11] * t * t) * xc +
-    a[12] * xw * xw + a[13] * p * p + a[14] * xc * xc + a[15] * xw * p * xc
-  );
 }

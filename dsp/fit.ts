@@ -64,12 +64,15 @@ export const CHI2_1DOF_99 = 6.634896601021214;
 // ---------------------------------------------------------------------------------------------
 // Small statistics helpers (exported for the damping estimators and the bench)
 
+/** Coefficients of the Lanczos approximation, g = 7, 9 terms. */
+const LANCZOS = [
+  0.99999999999980993, 676.5203681218851, -1259.1392167224028, 771.32342877765313, -176.61502916214059,
+  12.507343278686905, -0.13857109526572012, 9.9843695780195716e-6, 1.5056327351493116e-7,
+];
+
 /** Natural log of the gamma function, x > 0 (Lanczos 1964 approximation, g = 7, 9 terms). */
 export function logGamma(x: number): number {
-  const c = [
-    0.99999999999980993, 676.5203681218851, -1259.1392167224028, 771.32342877765313, -176.61502916214059,
-    12.507343278686905, -0.13857109526572012, 9.9843695780195716e-6, 1.5056327351493116e-7,
-  ];
+  const c = LANCZOS;
   if (x < 0.5) return Math.log(Math.PI / Math.abs(Math.sin(Math.PI * x))) - logGamma(1 - x);
   const xx = x - 1;
   let a = c[0];
@@ -123,18 +126,30 @@ export function studentTCdf(t: number, dof: number): number {
   return t >= 0 ? 1 - tail : tail;
 }
 
-/** Quantile of the Student-t distribution (p in (0.5, 1)), ν ≥ 1 (real ν allowed), by bisection on the CDF. */
+/**
+ * Quantile of the Student-t distribution (p in (0.5, 1)), ν > 0 (real ν allowed): Newton's method
+ * on the CDF with the density f(t) = Γ((ν+1)/2)/(√(νπ) Γ(ν/2))·(1 + t²/ν)^(−(ν+1)/2) (A&S 1964,
+ * 26.7.1), kept inside a bracket that bisection narrows whenever a Newton step would leave it.
+ */
 export function studentTQuantile(p: number, dof: number): number {
   if (!(dof > 0)) return Number.NaN;
   let lo = 0;
   let hi = 1;
   while (studentTCdf(hi, dof) < p && hi < 1e12) hi *= 2;
-  for (let i = 0; i < 200 && hi - lo > 1e-12 * hi; i++) {
-    const mid = 0.5 * (lo + hi);
-    if (studentTCdf(mid, dof) < p) lo = mid;
-    else hi = mid;
+  const logNorm = logGamma((dof + 1) / 2) - logGamma(dof / 2) - 0.5 * Math.log(dof * Math.PI);
+  let t = 0.5 * (lo + hi);
+  for (let i = 0; i < 200; i++) {
+    const excess = studentTCdf(t, dof) - p;
+    if (excess === 0) return t;
+    if (excess < 0) lo = t;
+    else hi = t;
+    const density = Math.exp(logNorm - ((dof + 1) / 2) * Math.log1p((t * t) / dof));
+    let next = t - excess / density;
+    if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
+    if (Math.abs(next - t) <= 1e-14 * next || hi - lo <= 1e-14 * hi) return next;
+    t = next;
   }
-  return 0.5 * (lo + hi);
+  return t;
 }
 
 /** Inverts a small symmetric positive-definite matrix (row-major, size k) by Gauss–Jordan with pivoting; null if singular. */
@@ -186,57 +201,99 @@ export function effectiveSampleCount(n: number, sampleSpacingS: number, bandwidt
 // ---------------------------------------------------------------------------------------------
 // The envelope models (mean of y) with analytic gradients
 
-/** Numerically safe logistic 1/(1 + e^(−z)). */
-function logistic(z: number): number {
-  if (z >= 0) return 1 / (1 + Math.exp(-z));
-  const e = Math.exp(z);
-  return e / (1 + e);
-}
-
-/** ln(logistic(z)) without overflow. */
-function logLogistic(z: number): number {
-  return z >= 0 ? -Math.log1p(Math.exp(-z)) : z - Math.log1p(Math.exp(z));
-}
-
 /**
  * A model of the tone's mean-square envelope without background: value and gradient with respect
  * to the nonlinear parameters, times the amplitude parameter. The background N² enters linearly.
+ * Each model evaluates a whole series in one loop of its own (no call per sample).
  */
 interface ShapeModel {
   /** Number of nonlinear parameters (after ln L). */
   nNonlinear: number;
-  /** Unit-amplitude shape g(t) and ∂g/∂θ_j (j over nonlinear parameters) into grad. */
-  shape(t: number, theta: Float64Array, grad: Float64Array): number;
+  /**
+   * Unit-amplitude shape g at the first n times of `t` and, when asked, ∂g/∂θ_j at index
+   * i·nNonlinear + j: buffers owned by the model, valid until its next evaluation.
+   */
+  evaluate(t: Float64Array, n: number, theta: Float64Array, withGrad: boolean): ShapeValues;
+}
+
+interface ShapeValues {
+  g: Float64Array;
+  grad: Float64Array;
+}
+
+/** Output buffers of a model's evaluations, grown to the longest series seen. */
+function shapeBuffers(nNonlinear: number): (n: number) => ShapeValues {
+  const values: ShapeValues = { g: new Float64Array(0), grad: new Float64Array(0) };
+  return (n) => {
+    if (values.g.length < n) {
+      values.g = new Float64Array(n);
+      values.grad = new Float64Array(n * nNonlinear);
+    }
+    return values;
+  };
 }
 
 /** g = exp(2 s (t − tm)); θ = [s]. */
 function exponentialShape(tm: number): ShapeModel {
+  const buffers = shapeBuffers(1);
   return {
     nNonlinear: 1,
-    shape(t, theta, grad) {
-      const g = Math.exp(2 * theta[0] * (t - tm));
-      grad[0] = 2 * (t - tm) * g;
-      return g;
+    evaluate(t, n, theta, withGrad) {
+      const v = buffers(n);
+      const s2 = 2 * theta[0];
+      for (let i = 0; i < n; i++) {
+        const g = Math.exp(s2 * (t[i] - tm));
+        v.g[i] = g;
+        if (withGrad) v.grad[i] = 2 * (t[i] - tm) * g;
+      }
+      return v;
     },
   };
 }
 
-/** g = logistic(p s (t − tc))^(2/p); θ = [s, tc] with p fixed (2 = Stuart–Landau), or [s, tc, ln p]. */
+/**
+ * g = q^(2/p), q = logistic(p s (t − tc)) = 1/(1 + e^(−z)); θ = [s, tc] with p fixed (2 =
+ * Stuart–Landau, g = q), or [s, tc, ln p]. q, 1 − q and ln q come from the one exponential
+ * e^(−|z|), so nothing overflows; below the knee (2/p)·ln q is written 2 s (t − tc) − (2/p)·ln(1 +
+ * e^z), which stays exact as p grows without bound (a knee sharper than any sample resolves:
+ * the limit is an exponential up to t_c and the level A∞² after it).
+ */
 function saturationShape(fixedP: number | null): ShapeModel {
+  const nn = fixedP === null ? 3 : 2;
+  const buffers = shapeBuffers(nn);
   return {
-    nNonlinear: fixedP === null ? 3 : 2,
-    shape(t, theta, grad) {
+    nNonlinear: nn,
+    evaluate(t, n, theta, withGrad) {
+      const v = buffers(n);
       const s = theta[0];
       const tc = theta[1];
       const p = fixedP === null ? Math.exp(theta[2]) : fixedP;
-      const z = p * s * (t - tc);
-      const lnq = logLogistic(z);
-      const g = Math.exp((2 / p) * lnq);
-      const oneMinusQ = logistic(-z);
-      grad[0] = 2 * g * oneMinusQ * (t - tc);
-      grad[1] = -2 * g * oneMinusQ * s;
-      if (fixedP === null) grad[2] = g * (2 * oneMinusQ * s * (t - tc) - (2 / p) * lnq);
-      return g;
+      const isLandau = p === 2 && fixedP !== null;
+      const ps = p * s;
+      const twoOverP = 2 / p;
+      for (let i = 0; i < n; i++) {
+        const dt = t[i] - tc;
+        const z = ps * dt;
+        const e = Math.exp(-Math.abs(z));
+        const inv = 1 / (1 + e);
+        const isUpper = z >= 0;
+        const oneMinusQ = isUpper ? e * inv : inv;
+        // u = (2/p)·ln q.
+        let g: number;
+        let u = 0;
+        if (isLandau) g = isUpper ? inv : e * inv;
+        else {
+          const tail = twoOverP * Math.log1p(e);
+          u = isUpper ? -tail : 2 * s * dt - tail;
+          g = Math.exp(u);
+        }
+        v.g[i] = g;
+        if (!withGrad) continue;
+        v.grad[i * nn] = 2 * g * oneMinusQ * dt;
+        v.grad[i * nn + 1] = -2 * g * oneMinusQ * s;
+        if (fixedP === null) v.grad[i * nn + 2] = g * (2 * oneMinusQ * s * dt - u);
+      }
+      return v;
     },
   };
 }
@@ -259,7 +316,8 @@ const MAX_KERNEL_TAPS = 24;
 /**
  * The model seen through an amplitude kernel: G(t) = (Σ h_k √g(t − τ_k))², with
  * ∂G/∂θ = 2·(Σ h_k √g_k)·Σ h_k (∂g_k/∂θ)/(2√g_k). L·G is then the mean power of the smoothed
- * amplitude √L·√g.
+ * amplitude √L·√g. The inner model is evaluated at the times the taps need (TapPlan), √g and
+ * ∂√g/∂θ once per such time, and each sample sums its taps from there.
  */
 function smoothedShape(inner: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
   const n = kernel.weights.length;
@@ -282,24 +340,106 @@ function smoothedShape(inner: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
     offsets[j] = w !== 0 ? wt / w : (j * group + (group - 1) / 2 - (n - 1) / 2) * kernel.spacingS;
   }
   const nn = inner.nNonlinear;
-  const gk = new Float64Array(nn);
-  const acc = new Float64Array(nn);
+  const buffers = shapeBuffers(nn);
+  const planOf = tapPlanner(offsets, group === 1 ? kernel.spacingS : 0);
+  let root = new Float64Array(0);
+  let rootGrad = new Float64Array(0);
   return {
     nNonlinear: nn,
-    shape(t, theta, grad) {
-      let amp = 0;
-      acc.fill(0);
-      for (let k = 0; k < taps; k++) {
-        const g = inner.shape(t - offsets[k], theta, gk);
-        if (!(g > 0)) continue;
-        const root = Math.sqrt(g);
-        amp += h[k] * root;
-        const f = h[k] / (2 * root);
-        for (let j = 0; j < nn; j++) acc[j] += f * gk[j];
+    evaluate(t, count, theta, withGrad) {
+      const plan = planOf(t, count);
+      const len = plan.times.length;
+      const at = inner.evaluate(plan.times, len, theta, withGrad);
+      if (root.length < len) {
+        root = new Float64Array(len);
+        rootGrad = new Float64Array(len * nn);
       }
-      for (let j = 0; j < nn; j++) grad[j] = 2 * amp * acc[j];
-      return amp * amp;
+      // √g and ∂√g/∂θ = (∂g/∂θ)/(2√g) per tap time; a tap where g ≤ 0 adds nothing.
+      for (let m = 0; m < len; m++) {
+        const g = at.g[m];
+        const r = g > 0 ? Math.sqrt(g) : 0;
+        root[m] = r;
+        if (withGrad) for (let j = 0; j < nn; j++) rootGrad[m * nn + j] = r > 0 ? at.grad[m * nn + j] / (2 * r) : 0;
+      }
+      const v = buffers(count);
+      const idx = plan.index;
+      const stride = plan.stride;
+      for (let i = 0; i < count; i++) {
+        const base = i * stride;
+        let amp = 0;
+        for (let k = 0; k < taps; k++) amp += h[k] * root[idx[base + k]];
+        v.g[i] = amp * amp;
+        if (!withGrad) continue;
+        for (let j = 0; j < nn; j++) {
+          let a = 0;
+          for (let k = 0; k < taps; k++) a += h[k] * rootGrad[idx[base + k] * nn + j];
+          v.grad[i * nn + j] = 2 * amp * a;
+        }
+      }
+      return v;
     },
+  };
+}
+
+/** The times at which the taps of a series' samples read the inner model: tap k of sample i reads times[index[i·stride + k]]. */
+interface TapPlan {
+  times: Float64Array;
+  index: Int32Array;
+  stride: number;
+}
+
+/**
+ * For kernel taps at `offsets`, a function giving the tap plan of a series of sample times (the
+ * plan of the latest series is kept). When the taps lie `spacingS` apart (0: they do not) and
+ * every sample time falls on that spacing's grid, the taps share one grid of times: the
+ * envelope series are block means of envelope samples on the kernel's own clock, so the inner
+ * model is evaluated once per clock tick the series spans instead of once per tap and sample.
+ * Otherwise every tap of every sample has its own time t_i − τ_k.
+ */
+function tapPlanner(offsets: Float64Array, spacingS: number): (t: Float64Array, n: number) => TapPlan {
+  const taps = offsets.length;
+  let lastT: Float64Array | null = null;
+  let lastN = -1;
+  let last: TapPlan = { times: new Float64Array(0), index: new Int32Array(0), stride: taps };
+  const tolerance = 1e-6;
+  let isUniform = spacingS > 0;
+  for (let k = 1; k < taps && isUniform; k++) if (Math.abs((offsets[k] - offsets[0]) / spacingS - k) > tolerance) isUniform = false;
+  const onGrid = (t: Float64Array, n: number): TapPlan | null => {
+    if (!isUniform || n < 2) return null;
+    // Tap k of a sample at t reads t − τ_k = start + (m + taps − 1 − k)·spacing, m its grid position.
+    const start = t[0] - offsets[taps - 1];
+    const len = Math.round((t[n - 1] - offsets[0] - start) / spacingS) + 1;
+    if (!(len > 0) || len > n * taps) return null;
+    const index = new Int32Array(n * taps);
+    for (let i = 0; i < n; i++) {
+      const pos = (t[i] - offsets[taps - 1] - start) / spacingS;
+      const m = Math.round(pos);
+      if (Math.abs(pos - m) > tolerance || m < 0 || m + taps > len) return null;
+      for (let k = 0; k < taps; k++) index[i * taps + k] = m + taps - 1 - k;
+    }
+    const times = new Float64Array(len);
+    for (let m = 0; m < len; m++) times[m] = start + m * spacingS;
+    return { times, index, stride: taps };
+  };
+  return (t, n) => {
+    if (t === lastT && n === lastN) return last;
+    lastT = t;
+    lastN = n;
+    const shared = onGrid(t, n);
+    if (shared !== null) {
+      last = shared;
+      return last;
+    }
+    const times = new Float64Array(n * taps);
+    const index = new Int32Array(n * taps);
+    for (let i = 0; i < n; i++) {
+      for (let k = 0; k < taps; k++) {
+        times[i * taps + k] = t[i] - offsets[k];
+        index[i * taps + k] = i * taps + k;
+      }
+    }
+    last = { times, index, stride: taps };
+    return last;
   };
 }
 
@@ -391,20 +531,23 @@ function solveLinear(
 }
 
 /** Weighted RSS of a full parameter vector. */
-function rssOf(d: Prepared, w: Float64Array, model: ShapeModel, params: Float64Array, grad: Float64Array): number {
+function rssOf(d: Prepared, w: Float64Array, model: ShapeModel, params: Float64Array): number {
   const k = model.nNonlinear;
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
-  const theta = params.subarray(1, k + 1);
+  const g = model.evaluate(d.t, d.n, params.subarray(1, k + 1), false).g;
   let rss = 0;
   for (let i = 0; i < d.n; i++) {
-    const r = d.y[i] - amp * model.shape(d.t[i], theta, grad) - bg;
+    const r = d.y[i] - amp * g[i] - bg;
     rss += w[i] * r * r;
   }
   return Number.isFinite(rss) ? rss : Number.POSITIVE_INFINITY;
 }
 
-/** Jacobian products JᵀWJ and JᵀWr for the full parameter vector (free parameters only). */
+/**
+ * Jacobian products JᵀWJ and JᵀWr for the full parameter vector (free parameters only); returns
+ * the weighted RSS at the same parameters (Infinity when not finite), from the same residuals.
+ */
 function normalEquations(
   d: Prepared,
   w: Float64Array,
@@ -413,27 +556,29 @@ function normalEquations(
   nFree: number,
   jtj: Float64Array,
   jtr: Float64Array,
-): void {
+): number {
   const k = model.nNonlinear;
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
-  const theta = params.subarray(1, k + 1);
-  const grad = new Float64Array(k);
+  const v = model.evaluate(d.t, d.n, params.subarray(1, k + 1), true);
   const row = new Float64Array(nFree);
   jtj.fill(0);
   jtr.fill(0);
+  let rss = 0;
   for (let i = 0; i < d.n; i++) {
-    const g = model.shape(d.t[i], theta, grad);
+    const g = v.g[i];
     row[0] = amp * g;
-    for (let j = 0; j < k; j++) row[j + 1] = amp * grad[j];
+    for (let j = 0; j < k; j++) row[j + 1] = amp * v.grad[i * k + j];
     if (nFree === k + 2) row[k + 1] = 1;
     const r = d.y[i] - amp * g - bg;
+    rss += w[i] * r * r;
     for (let a = 0; a < nFree; a++) {
       jtr[a] += w[i] * row[a] * r;
       for (let b = 0; b <= a; b++) jtj[a * nFree + b] += w[i] * row[a] * row[b];
     }
   }
   for (let a = 0; a < nFree; a++) for (let b = a + 1; b < nFree; b++) jtj[a * nFree + b] = jtj[b * nFree + a];
+  return Number.isFinite(rss) ? rss : Number.POSITIVE_INFINITY;
 }
 
 /**
@@ -454,18 +599,21 @@ function levenbergStep(jtj: Float64Array, jtr: Float64Array, size: number, m: nu
   return true;
 }
 
-/** Levenberg–Marquardt polish of all parameters (Marquardt 1963), N² kept ≥ 0. */
+/**
+ * Levenberg–Marquardt polish of all parameters (Marquardt 1963), N² kept ≥ 0. Each trial point is
+ * evaluated with its normal equations, so an accepted step needs no second pass over the data.
+ */
 function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState, maxIter = 100): void {
   const k = model.nNonlinear;
   const nFree = state.isBackgroundFixed ? k + 1 : k + 2;
-  const jtj = new Float64Array(nFree * nFree);
-  const jtr = new Float64Array(nFree);
-  const grad = new Float64Array(k);
+  let jtj = new Float64Array(nFree * nFree);
+  let jtr = new Float64Array(nFree);
+  let trialJtj = new Float64Array(nFree * nFree);
+  let trialJtr = new Float64Array(nFree);
   const trial = new Float64Array(state.params.length);
   let lambda = 1e-3;
-  let rss = rssOf(d, w, model, state.params, grad);
+  let rss = normalEquations(d, w, model, state.params, nFree, jtj, jtr);
   for (let iter = 0; iter < maxIter; iter++) {
-    normalEquations(d, w, model, state.params, nFree, jtj, jtr);
     let isImproved = false;
     for (let attempt = 0; attempt < 12; attempt++) {
       trial.set(state.params);
@@ -482,11 +630,13 @@ function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState
           continue;
         }
       }
-      const rssTrial = rssOf(d, w, model, trial, grad);
+      const rssTrial = normalEquations(d, w, model, trial, nFree, trialJtj, trialJtr);
       if (rssTrial < rss) {
         const drop = (rss - rssTrial) / rss;
         state.params.set(trial);
         rss = rssTrial;
+        [jtj, trialJtj] = [trialJtj, jtj];
+        [jtr, trialJtr] = [trialJtr, jtr];
         lambda = Math.max(lambda / 3, 1e-12);
         isImproved = drop > 1e-9;
         break;
@@ -513,8 +663,6 @@ function gridSearch(
 ): FitState | null {
   const k = model.nNonlinear;
   const theta = new Float64Array(k);
-  const grad = new Float64Array(k);
-  const g = new Float64Array(d.n);
   const lin = { lnL: 0, bg: 0 };
   let best: FitState | null = null;
   const counts = grid.values.map((v) => v.length);
@@ -525,8 +673,7 @@ function gridSearch(
       theta[j] = grid.values[j][rem % counts[j]];
       rem = Math.floor(rem / counts[j]);
     }
-    for (let i = 0; i < d.n; i++) g[i] = model.shape(d.t[i], theta, grad);
-    const rss = solveLinear(d, w, g, fixedBg, lin);
+    const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, lin);
     if (rss < (best?.rss ?? Number.POSITIVE_INFINITY)) {
       const params = new Float64Array(k + 2);
       params[0] = lin.lnL;
@@ -539,7 +686,7 @@ function gridSearch(
 }
 
 /** Most samples the grid search looks at; longer series are block-averaged for it. */
-const GRID_MAX_SAMPLES = 160;
+const GRID_MAX_SAMPLES = 48;
 
 /**
  * The grid search on a block-averaged copy of the series (at most GRID_MAX_SAMPLES blocks: mean
@@ -549,7 +696,21 @@ const GRID_MAX_SAMPLES = 160;
  */
 function gridSearchThinned(d: Prepared, w: Float64Array, model: ShapeModel, grid: GridSpec, fixedBg: number | null): FitState | null {
   if (d.n <= GRID_MAX_SAMPLES) return gridSearch(d, w, model, grid, fixedBg);
-  const block = Math.ceil(d.n / GRID_MAX_SAMPLES);
+  const thin = blockMeans(d, w, GRID_MAX_SAMPLES);
+  const state = gridSearch(thin.d, thin.w, model, grid, fixedBg);
+  if (state !== null) state.rss = rssOf(d, w, model, state.params);
+  return state;
+}
+
+/**
+ * Most samples the starts of the flexible saturation fit look at (block means, the curve without
+ * the kernel); the one start polished fully uses every sample through the kernel.
+ */
+const START_MAX_SAMPLES = 80;
+
+/** A block-averaged copy of a series (at most maxSamples blocks: mean time, mean power, summed weight). */
+function blockMeans(d: Prepared, w: Float64Array, maxSamples: number): { d: Prepared; w: Float64Array } {
+  const block = Math.ceil(d.n / maxSamples);
   const m = Math.ceil(d.n / block);
   const t = new Float64Array(m);
   const y = new Float64Array(m);
@@ -569,10 +730,7 @@ function gridSearchThinned(d: Prepared, w: Float64Array, model: ShapeModel, grid
     y[j] = sy / (i1 - i0);
     wm[j] = sw;
   }
-  const thin: Prepared = { t, y, n: m, spacingS: d.spacingS * block, nEff: d.nEff };
-  const state = gridSearch(thin, wm, model, grid, fixedBg);
-  if (state !== null) state.rss = rssOf(d, w, model, state.params, new Float64Array(model.nNonlinear));
-  return state;
+  return { d: { t, y, n: m, spacingS: d.spacingS * block, nEff: d.nEff }, w: wm };
 }
 
 /** Updates the IRLS weights 1/V(m̂) from the current parameters. */
@@ -580,9 +738,8 @@ function updateWeights(d: Prepared, model: ShapeModel, state: FitState, w: Float
   const k = model.nNonlinear;
   const amp = Math.exp(state.params[0]);
   const bg = state.params[k + 1];
-  const theta = state.params.subarray(1, k + 1);
-  const grad = new Float64Array(k);
-  for (let i = 0; i < d.n; i++) w[i] = 1 / varianceOf(amp * model.shape(d.t[i], theta, grad) + bg, bg, bgFloor);
+  const g = model.evaluate(d.t, d.n, state.params.subarray(1, k + 1), false).g;
+  for (let i = 0; i < d.n; i++) w[i] = 1 / varianceOf(amp * g[i] + bg, bg, bgFloor);
   // Normalise so that RSS values stay of order n (the scale of w is irrelevant to the estimates).
   let mean = 0;
   for (let i = 0; i < d.n; i++) mean += w[i];
@@ -640,7 +797,7 @@ function fitIrls(
       const regrid = gridSearchThinned(d, w, model, grid, fixedBg);
       if (regrid !== null) {
         polish(d, w, model, regrid);
-        state.rss = rssOf(d, w, model, state.params, new Float64Array(model.nNonlinear));
+        state.rss = rssOf(d, w, model, state.params);
         if (regrid.rss < state.rss) state = regrid;
       }
     }
@@ -696,12 +853,11 @@ function residualCorrelationTime(d: Prepared, model: ShapeModel, params: Float64
   const k = model.nNonlinear;
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
-  const theta = params.subarray(1, k + 1);
-  const grad = new Float64Array(k);
+  const g = model.evaluate(d.t, d.n, params.subarray(1, k + 1), false).g;
   const e = new Float64Array(d.n);
   let c0 = 0;
   for (let i = 0; i < d.n; i++) {
-    e[i] = (d.y[i] - amp * model.shape(d.t[i], theta, grad) - bg) * Math.sqrt(w[i]);
+    e[i] = (d.y[i] - amp * g[i] - bg) * Math.sqrt(w[i]);
     c0 += e[i] * e[i];
   }
   if (!(c0 > 0)) return 1;
@@ -861,9 +1017,12 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
   let model: SaturationFit['model'] = 'stuart-landau';
 
   // Flexible model, started from the Stuart–Landau solution at several knee sharpness values,
-  // compared with the same weights (nested models: p = 2 is the Stuart–Landau case).
+  // compared with the same weights (nested models: p = 2 is the Stuart–Landau case). The starts
+  // only pick the basin, as the grid does: they run on block means without the kernel.
   const general = through(saturationShape(null));
-  let bestGeneral: IrlsResult | null = null;
+  const thin = d.n > START_MAX_SAMPLES ? blockMeans(d, landau.weights, START_MAX_SAMPLES) : { d, w: landau.weights };
+  const startModel = saturationShape(null);
+  let bestStart: FitState | null = null;
   for (const p of [0.5, 1, 2, 4, 8, 16, 32]) {
     const params = new Float64Array(5);
     params[0] = landau.state.params[0];
@@ -873,12 +1032,14 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
     params[4] = landau.state.params[3];
     const start: FitState = { params, isBackgroundFixed: fixedBg !== null, rss: Number.POSITIVE_INFINITY };
     // A few steps from each start tell the basins apart; only the best start is polished fully.
-    polish(d, landau.weights, general, start, 5);
-    if (start.rss < (bestGeneral?.state.rss ?? Number.POSITIVE_INFINITY)) {
-      bestGeneral = { state: start, weights: landau.weights, cov: null, nFree: 0, dispersion: Number.NaN, nEff: d.nEff };
-    }
+    polish(thin.d, thin.w, startModel, start, 5);
+    if (start.rss < (bestStart?.rss ?? Number.POSITIVE_INFINITY)) bestStart = start;
   }
-  if (bestGeneral !== null) polish(d, landau.weights, general, bestGeneral.state);
+  let bestGeneral: IrlsResult | null = null;
+  if (bestStart !== null) {
+    bestGeneral = { state: bestStart, weights: landau.weights, cov: null, nFree: 0, dispersion: Number.NaN, nEff: d.nEff };
+    polish(d, landau.weights, general, bestGeneral.state);
+  }
   if (bestGeneral !== null && Number.isFinite(bestGeneral.state.rss)) {
     const inflation = d.n / d.nEff;
     const nFreeGeneral = fixedBg === null ? 5 : 4;
@@ -904,21 +1065,20 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
   if (chosen.fit.cov === null) return { fit: { ...failFit('fit covariance is singular', d.nEff), model }, ratePerS: s, p, tcS: tc };
   const sdRate = Math.sqrt(chosen.fit.cov[1 * chosen.fit.nFree + 1]);
   const q = studentTQuantile(0.975, Math.max(1, chosen.fit.nEff - chosen.fit.nFree));
-  const grad = new Float64Array(3);
-  const shape = saturationShape(p);
-  const theta = Float64Array.of(s, tc);
+  const atRef = saturationShape(p).evaluate(Float64Array.of(ref), 1, Float64Array.of(s, tc), false).g[0];
   const fit: SaturationFit = {
     isValid: Number.isFinite(sdRate),
     ratePerS: s,
     ci95PerS: [s - q * sdRate, s + q * sdRate],
-    amplitudeAtRef: Math.sqrt(limitPower * shape.shape(ref, theta, grad)),
+    amplitudeAtRef: Math.sqrt(limitPower * atRef),
     refTimeS: ref,
     backgroundPower: bg,
     nEffective: chosen.fit.nEff,
     model,
     limitAmplitude: Math.sqrt(limitPower),
     // (1 + e^{−p s (t − tc)})^{−1/p} = 1/2  ⇔  t = tc − ln(2^p − 1)/(p s); p = 2 gives ln 3/(2 s).
-    halfTimeS: tc - Math.log(2 ** p - 1) / (p * s),
+    // Written ln 2/s + ln(1 − 2^{−p})/(p s): finite for any p > 0, ln 2/s as p grows without bound.
+    halfTimeS: tc - Math.LN2 / s - Math.log1p(-(2 ** -p)) / (p * s),
     ...(Number.isFinite(sdRate) ? {} : { reason: 'rate variance undefined' }),
   };
   return { fit, ratePerS: s, p, tcS: tc };
@@ -950,7 +1110,7 @@ function conditionOnUnresolvedKnee(
   const params = chosen.fit.state.params;
   const s = params[1];
   const p = Math.exp(params[3]);
-  if (!Number.isFinite(p) || !(s > 0) || p * s * d.spacingS < 1) return chosen;
+  if (!(p > 0) || !(s > 0) || p * s * d.spacingS < 1) return chosen;
   const corner: FitState = { params: Float64Array.of(params[0], s, params[2], params[4]), isBackgroundFixed: fixedBg !== null, rss: chosen.fit.state.rss };
   const conditional = covarianceAt(d, through(saturationShape(p)), corner, chosen.fit.weights, fixedBg);
   return { fit: { ...chosen.fit, ...conditional }, p: chosen.p };
@@ -995,9 +1155,9 @@ export function fitGrowthIntoLimit(series: EnvelopeSeries, opts?: { backgroundPo
   let endS = Number.NaN;
   const sRate = shaped.ratePerS;
   if (saturation.isValid && sRate > 0 && shaped.p > 0 && Number.isFinite(shaped.tcS)) {
-    // ln(e^x − 1) = x + ln(1 − e^{−x}), x = (p/2)·ln(1/f): no overflow for a very sharp knee (large p).
-    const x = (shaped.p / 2) * Math.log(1 / EARLY_LIMIT_FRACTION);
-    endS = shaped.tcS - (x + Math.log1p(-Math.exp(-x))) / (shaped.p * sRate);
+    // ln(e^x − 1) = x + ln(1 − e^{−x}), x = (p/2)·ln(1/f), over p s: finite for any p > 0, ln(1/f)/(2 s) as p grows without bound.
+    const halfLn = 0.5 * Math.log(1 / EARLY_LIMIT_FRACTION);
+    endS = shaped.tcS - halfLn / sRate - Math.log1p(-Math.exp(-shaped.p * halfLn)) / (shaped.p * sRate);
   } else {
     // No valid curve: the fraction of the mean of the last tenth of the record, on a running mean of 5 samples.
     const from = Math.floor(0.9 * n);

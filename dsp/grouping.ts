@@ -13,6 +13,12 @@ import { harmonicToleranceHz, matchToleranceHz, MAX_HARMONIC, medianFrequencyHz 
 /** A weaker line within this fraction of a tone's frequency and this many dB below it is its sidelobe or intermodulation product. */
 const NEAR_LINE_FRACTION = 0.35;
 export const NEAR_LINE_DB = 20;
+/**
+ * Peak-power ratio (dB) beyond which of two tracks of one tone the weaker holds it through the
+ * skirt of its band: the narrow envelope band (dsp/envelope.ts, Blackman, noise bandwidth 5 Hz)
+ * loses 0.14 dB at the 1 Hz retune step off centre and 1 dB near 2.7 Hz off.
+ */
+export const DUPLICATE_SKIRT_DB = 1;
 /** Margin on the parent tone's active span for a line that rises and falls with it, s. */
 const WITHIN_MARGIN_S = 1;
 /** A track that never left the quiet state counts as a line only when it stood this far over its background, dB. */
@@ -156,13 +162,15 @@ function assignParents(families: Family[], binHz: number, dropped: Set<RegimeSeg
  * Groups the record's tracks into tones (spectral bin width binHz): tracks sharing a tone
  * identity (track.ts toneId) form one family, whatever the quiet gaps between them.
  */
-export function groupTones(all: ToneRuntime[], binHz: number): Grouping {
+export function groupTones(all: ToneRuntime[], binHz: number, floorPower = 0): Grouping {
   const dropped = new Set<RegimeSegment>();
   const byId = new Map<number, Family>();
   const families: Family[] = [];
   for (const tr of all) {
     if (tr.regime.segments.every((s) => s.state === STATE_QUIET) && !tr.isSteadyLine && tr.maxExcessDb < QUIET_LINE_MIN_DB) continue;
     const ti = trackInfo(tr);
+    // A track never above the format's quantisation error may be a product of quantising a strong tone (dsp/levels.ts).
+    if (ti.top <= floorPower) continue;
     const fam = byId.get(tr.tone.toneId);
     if (fam) {
       fam.tracks.push(tr);

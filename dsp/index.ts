@@ -19,3 +19,4 @@ export * from './duct';
 export * from './crlb';
 export * from './rig-sim';
 export * from './synth';
+export * from './duct-match';

@@ -113,3 +113,13 @@ export function exposureCaution(levelDba: number): { allowedTimeH: number; euBan
     isProtectionAdvised: levelDba >= NIOSH_REL_DBA,
   };
 }
+
+/**
+ * Level of the error of a uniform quantiser with `bits` bits, dBFS (0 dBFS = a full-scale sine):
+ * error power q²/12 with step q = 2·2^−bits against the full-scale sine's A²/2, i.e.
+ * −(6.02·bits + 1.76) dB (REFERENCES.md §60). The products of quantising a periodic tone together
+ * carry this power, so a line below it may be such a product rather than a tone.
+ */
+export function quantisationFloorDbfs(bits: number): number {
+  return -(20 * Math.log10(2) * bits + 10 * Math.log10(1.5));
+}

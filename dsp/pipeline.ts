@@ -18,14 +18,18 @@ import { beginLive, collectLive, createLiveState, emitRows, type LiveState } fro
 import { classifyTransitions } from './line-class';
 import { relabelNoiseSegments } from './noise-label';
 import { closeQuietStretch, createQuietStore, openQuietStretch, QUIET_AFTER_DECAY_S, QUIET_GUARD_S, stepQuietStore, type QuietStore, type ResonanceContext } from './quiet-store';
-import { beginRegimeStep, finishRegime, STATE_QUIET, STATE_STEADY } from './regime';
+import { beginRegimeStep, finishRegime, STATE_DECAY, STATE_GROWTH, STATE_QUIET, STATE_STEADY } from './regime';
+import { modeStatisticsEntry } from './mode-statistics';
+import { closeSteadyStretch, createSteadyStore, openSteadyStretch, STEADY_SETTLE_S, stepSteadyStore, type SteadyStore } from './steady-store';
 import { assembleReport } from './report';
 import { fitSegment, type FittedSegment } from './segment-fit';
 import { computeSpectrumFrame, createSpectrumState, feedSpectrum, resetSpectrumFraming, type SpectrumState } from './spectrum';
 import { createTimeBase, jAtTime, rebaseAfterGap, timeOfJ, type TimeBase } from './time-base';
 import { createToneEnvelope, ENVELOPE_RATE_HZ } from './tone-store';
+import { claimAnnouncement, createLiveOnsetState, gapLiveOnset, stepLiveOnset, type LiveOnsetState } from './live-onset';
 import { advanceRegime, breakTones, createToneSet, maxEnvelopeChunk, resumeTonesAfterGap, retireIdleTones, stepToneEnvelopes, stepTonesAtFrame, type ToneSet } from './tones';
-import type { Analysis, AnalysisConfig, AnalysisUpdate, ClippedSpan, Marker, Report } from './types';
+import { quantisationFloorDbfs } from './levels';
+import type { Analysis, AnalysisConfig, AnalysisUpdate, ClippedSpan, Marker, ModeStatistics, Onset, Report } from './types';
 
 /** Analysis frame length, s (rounded to a power of two of samples): ~3 Hz bins. */
 const FRAME_S = 0.32;
@@ -41,7 +45,13 @@ interface PipelineState {
   hist: History;
   tones: ToneSet;
   quiet: QuietStore;
+  /** Steady-hum stretches (sharing the quiet store's ring) and the growth rate from noise of quiet stretches. */
+  steady: SteadyStore;
+  quietModeStatistics: ModeStatistics[];
   live: LiveState;
+  /** Short-frame sequential onset detector (live-onset.ts) and the onsets it found in this push. */
+  liveOnset: LiveOnsetState;
+  detected: Onset[];
   markers: Marker[];
   warnings: string[];
   spectrumDbfs: Float32Array;
@@ -56,6 +66,7 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
     bandLowHz: config.bandLowHz ?? 20,
     bandHighHz: config.bandHighHz ?? 4000,
     mainsHz: config.mainsHz ?? 0,
+    sampleBits: config.sampleBits ?? 0,
   };
   if (!(cfg.mainsHz === 0 || cfg.mainsHz === 50 || cfg.mainsHz === 60)) throw new RangeError(`mainsHz must be 50 or 60 Hz (or 0: detect), got ${cfg.mainsHz}`);
   const cond = createConditionState(cfg);
@@ -65,6 +76,7 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
   const envM = Math.max(1, Math.round(fsA / ENVELOPE_RATE_HZ));
   const probe = createToneEnvelope(fsA, envM);
   const loBin = Math.max(1, Math.floor(cond.bandLowHz / spec.binHz));
+  const quiet = createQuietStore(fsA);
   const hiBin = Math.min(spec.binCount - 1, Math.ceil(cond.bandHighHz / spec.binHz));
   return {
     cfg,
@@ -74,8 +86,12 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
     tb: createTimeBase({ inputRateHz: cfg.sampleRateHz, decimation: cond.decimation, conditionDelayS: cond.delayS, envM, envDelayS: probe.delayS }),
     hist: createHistory({ analysisRateHz: fsA, spec, envRateHz: probe.outputRateHz, envBandwidthHz: probe.bandwidthHz, loBin, hiBin }),
     tones: createToneSet(spec, fsA, envM),
-    quiet: createQuietStore(fsA),
+    quiet,
+    steady: createSteadyStore(quiet.ring, fsA),
+    quietModeStatistics: [],
     live: createLiveState(probe.outputRateHz),
+    liveOnset: createLiveOnsetState({ sampleRateHz: fsA, bandLowHz: cond.bandLowHz, bandHighHz: cond.bandHighHz }),
+    detected: [],
     markers: [],
     warnings: [],
     spectrumDbfs: new Float32Array(spec.binCount).fill(-200),
@@ -97,7 +113,33 @@ function resonanceContext(ps: PipelineState): ResonanceContext {
 
 function closeQuiet(ps: PipelineState, jEnd: number): void {
   if (!ps.quiet.isOpen) return;
-  closeQuietStretch(ps.quiet, jEnd, resonanceContext(ps), (j) => timeOfJ(ps.tb, j), ps.warnings);
+  const timeOf = (j: number): number => timeOfJ(ps.tb, j);
+  closeQuietStretch(ps.quiet, jEnd, resonanceContext(ps), timeOf, ps.warnings, (x, centreHz, j0) =>
+    ps.quietModeStatistics.push(modeStatisticsEntry(x, ps.fsA, { centreHz, startS: Math.max(0, timeOf(j0)), endS: timeOf(jEnd - 1), isClipped: ps.hist.lastClipJ >= j0 })),
+  );
+}
+
+function closeSteady(ps: PipelineState, jEnd: number): void {
+  closeSteadyStretch(ps.steady, jEnd, (j) => timeOfJ(ps.tb, j), (j) => ps.hist.lastClipJ >= j);
+}
+
+/**
+ * Steady-hum store: open while every active tone holds its limit cycle, closed (back to where a
+ * tone started to grow or decay again) when one leaves it. Never open with the quiet store.
+ */
+function updateSteady(ps: PipelineState): void {
+  const { tb } = ps;
+  const steadyHz: number[] = [];
+  let changeJ = Infinity;
+  for (const tr of ps.tones.alive) {
+    if (tr.isSteadyLine) continue;
+    const st = tr.regime.state;
+    if (st === STATE_STEADY) steadyHz.push(tr.tone.freqHz);
+    else if (st === STATE_GROWTH || st === STATE_DECAY) changeJ = Math.min(changeJ, jAtTime(tb, ps.fsA, tr.timeS[Math.min(tr.regime.segStart, tr.n - 1)]));
+  }
+  const isSteady = changeJ === Infinity && steadyHz.length > 0;
+  if (!isSteady && ps.steady.isOpen) closeSteady(ps, Math.max(ps.steady.startJ, Math.min(tb.j, changeJ) - Math.round(QUIET_GUARD_S * ps.fsA)));
+  else if (isSteady && !ps.steady.isOpen && !ps.quiet.isOpen) openSteadyStretch(ps.steady, tb.j + Math.round(STEADY_SETTLE_S * ps.fsA), steadyHz);
 }
 
 /** Work done at each spectral frame. */
@@ -127,6 +169,7 @@ function processFrame(ps: PipelineState): void {
   }
   for (const tr of tones.alive) stepEarlyOnset(tr, hist, spec.frameCount, ps.live.onsets);
   emitRows(ps.live, tb, hist, tones.alive, tF);
+  updateSteady(ps);
   // Quiet store for noise-driven damping.
   if (anyActive && ps.quiet.isOpen) closeQuiet(ps, Math.max(ps.quiet.startJ, Math.min(tb.j, earliestGrowthJ) - Math.round(QUIET_GUARD_S * ps.fsA)));
   else if (!anyActive && !ps.quiet.isOpen) {
@@ -146,8 +189,11 @@ function processConditioned(ps: PipelineState): void {
     const k = Math.min(cnt - i, spec.toFrame, maxEnvelopeChunk(tones));
     const j0 = tb.j;
     stepQuietStore(ps.quiet, x, i, i + k, j0);
+    stepSteadyStore(ps.steady, x, i, i + k, j0);
     const j = stepHistory(hist, x, cond.outClipped, i, i + k, j0, tb.envM);
     stepToneEnvelopes(tones, x, i, i + k, j0, tb, hist);
+    stepLiveOnset(ps.liveOnset, x, i, i + k);
+    for (let q = 0; q < ps.liveOnset.onsetCount; q++) ps.detected.push({ timeS: timeOfJ(tb, ps.liveOnset.onsetJ[q]), frequencyHz: ps.liveOnset.onsetFreqHz[q] });
     tb.j = j;
     // The early onset test runs on every new envelope sample, not only at frames (a frame hop is
     // 0.16 s, several e-folds of a fast growth). It uses the latest frame's background either way,
@@ -172,12 +218,21 @@ function push(ps: PipelineState, block: Float32Array): AnalysisUpdate {
     processConditioned(ps);
   }
   ps.tb.durationInputSamples += block.length;
+  // One announcement per rise, whichever detector saw it first (the tone's own test, or the short-frame one).
+  const onsets = ps.live.onsets;
+  let w = 0;
+  for (const o of onsets) if (claimAnnouncement(ps.liveOnset, o.timeS, o.frequencyHz)) onsets[w++] = o;
+  onsets.length = w;
+  for (const o of ps.detected) if (claimAnnouncement(ps.liveOnset, o.timeS, o.frequencyHz)) onsets.push(o);
+  ps.detected.length = 0;
   if (ps.sawFrame) {
-    // Only the analysed band is converted (the rest stays at the floor value).
+    // Only the analysed band is converted (the rest stays at the floor value). 10·log10 p is
+    // taken as (10/ln 10)·ln p: Math.log costs about 60 % of Math.log10 and the float32 dB agree.
     const p = ps.spec.power;
     const out = ps.spectrumDbfs;
     const hi = Math.min(out.length, ps.hist.hiBin + 1);
-    for (let k = 0; k < hi; k++) out[k] = 10 * Math.log10(p[k] > 1e-20 ? p[k] : 1e-20);
+    const dbPerNeper = 10 / Math.LN10;
+    for (let k = 0; k < hi; k++) out[k] = dbPerNeper * Math.log(p[k] > 1e-20 ? p[k] : 1e-20);
     ps.hasSpectrum = true;
   }
   return {
@@ -199,9 +254,11 @@ function gap(ps: PipelineState, missingSamples: number): void {
   breakTones(tones, hist, spec.frameCount);
   emitRows(live, tb, hist, tones.alive, Infinity);
   closeQuiet(ps, tb.j);
+  closeSteady(ps, tb.j);
   gapCondition(ps.cond, missing);
   resetSpectrumFraming(spec);
   const jNext = rebaseAfterGap(tb, missing);
+  gapLiveOnset(ps.liveOnset, jNext);
   breakHistory(hist, jNext, spec.frameCount);
   // Rows resume at the first envelope time after the gap (envelope times lag the samples by the filter delay).
   live.rowG = jNext / tb.envM + Math.ceil(tb.envDelayS * (ps.fsA / tb.envM));
@@ -218,6 +275,7 @@ function finish(ps: PipelineState): Report {
     finishRegime(tr.regime, tr.n);
   }
   closeQuiet(ps, ps.tb.j);
+  closeSteady(ps, ps.tb.j);
   const all = [...tones.retired, ...tones.alive.filter((t) => t.regime.segments.length > 0)];
   for (const tr of all) {
     relabelNoiseSegments(tr);
@@ -225,7 +283,9 @@ function finish(ps: PipelineState): Report {
     // A ring-down now starts at its step: the noise test again, on the segment as it stands.
     relabelNoiseSegments(tr);
   }
-  const grouping = groupTones(all, spec.binHz);
+  // A line that never rises above the input format's quantisation error may be a product of quantising a strong tone.
+  const floorPower = ps.cfg.sampleBits > 0 ? 10 ** (quantisationFloorDbfs(ps.cfg.sampleBits) / 10) : 0;
+  const grouping = groupTones(all, spec.binHz, floorPower);
   const others = [...tones.alive, ...tones.retired];
   const fitted: FittedSegment[] = [];
   for (const tr of all) {
@@ -242,7 +302,7 @@ function finish(ps: PipelineState): Report {
   }
   const clipped: ClippedSpan[] = [];
   for (let i = 0; i < ps.cond.clipCount; i++) clipped.push({ startS: ps.cond.clipStartS[i], endS: ps.cond.clipEndS[i] });
-  return assembleReport({
+  const report = assembleReport({
     sampleRateHz: ps.cfg.sampleRateHz,
     durationS: ps.tb.durationInputSamples / ps.cfg.sampleRateHz,
     grouping,
@@ -254,6 +314,8 @@ function finish(ps: PipelineState): Report {
     mainsHz: ps.cfg.mainsHz,
     warnings: ps.warnings,
   });
+  report.modeStatistics = [...ps.quietModeStatistics, ...ps.steady.results].sort((a, b) => a.startS - b.startS);
+  return report;
 }
 
 /**

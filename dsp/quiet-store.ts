@@ -66,8 +66,16 @@ export interface ResonanceContext {
 /**
  * Closes the open quiet stretch at global analysis index jEnd and estimates noise-driven damping
  * at its resonance; startS/endS come from timeOf (s of an analysis index). Warnings are appended.
+ * `onStretch` receives the stretch, its resonance and first index (the growth rate from noise).
  */
-export function closeQuietStretch(qs: QuietStore, jEnd: number, ctx: ResonanceContext, timeOf: (j: number) => number, warnings: string[]): void {
+export function closeQuietStretch(
+  qs: QuietStore,
+  jEnd: number,
+  ctx: ResonanceContext,
+  timeOf: (j: number) => number,
+  warnings: string[],
+  onStretch?: (x: Float32Array, centreHz: number, j0: number) => void,
+): void {
   if (!qs.isOpen) return;
   qs.isOpen = false;
   const cap = qs.ring.length;
@@ -78,6 +86,7 @@ export function closeQuietStretch(qs: QuietStore, jEnd: number, ctx: ResonanceCo
   for (let q = 0; q < len; q++) x[q] = qs.ring[(j0 + q) % cap];
   const centre = findResonance(ctx, x);
   if (centre === null) return;
+  onStretch?.(x, centre, j0);
   const r = estimateNoiseDrivenDamping(x, qs.analysisRateHz, { centreHz: centre, searchHalfWidthHz: RESONANCE_SEARCH_HALF_WIDTH_HZ });
   if (!r.combined.isValid) {
     warnings.push(`noise-driven damping near ${centre.toFixed(1)} Hz not estimated: ${r.combined.reason ?? 'fit failed'}`);

@@ -1,210 +1,33 @@
 /**
- * Reduced-order heated-tube simulator. Galerkin expansion of the acoustic field of a tube in its
- * duct modes with a compact heat source whose heat release follows a time-lagged, modified King's
- * law, after K. Balasubramanian & R. I. Sujith 2008, "Thermoacoustic instability in a Rijke tube:
- * non-normality and nonlinearity", Phys. Fluids 20, 044103 (model form and default parameters from
- * memory), building on M. A. Heckl 1990, "Non-linear acoustic effects in the Rijke tube", Acustica
- * 72 (from memory). Dimensionless form (time in units of L/c₀, x in units of L):
- *
- *   u′ = Σ η_j U_j(x),  p′ ∝ −Σ (η̇_j / k_j) P_j(x)
- *   η̈_j + 2 ζ_j ω_j η̇_j + k_j² η_j = −k_j K P_j(x_f) [ sqrt|1/3 + u′_f(t − τ)| − sqrt(1/3) ]
- *
- * open–open: U_j = cos(jπx), P_j = sin(jπx), k_j = ω_j = jπ; closed (x = 0) – open (x = 1):
- * U_j = sin(k_j x), P_j = −cos(k_j x), k_j = (j − ½)π. Modal damping
- * ζ_j = (c₁ ω_j/ω₁ + c₂ sqrt(ω₁/ω_j)) / (2π) (Matveev's frequency-dependent damping as used by
- * Balasubramanian & Sujith; c₁ = 0.1, c₂ = 0.06 from memory).
- *
- * It gives (a) the linear growth rate and frequency of each mode from the characteristic
- * equation of the linearised delay system, solved in the complex plane, and (b) the time series
- * for a switched heater power, integrated with fixed-step RK4 and a history buffer for the lag.
- * Physical units: time scale L/c₀ with c₀ from the gas temperature (dsp/duct.ts).
+ * Heated-tube simulator: integrates the reduced-order model of dsp/rig-model.ts (Galerkin modes, a
+ * compact heater with a time-lagged, modified King's-law heat release; Balasubramanian & Sujith
+ * 2008, from memory) with fixed-step RK4 for a switched heater power, and renders demo scenarios
+ * with their truth from the model's characteristic equation. The model's exports are re-exported here.
  */
-import { AIR, speedOfSoundMPerS, type GasProperties } from './duct';
+import { checkHeaterPower, createRig, firstInstability, leadingMode, linearModes, pressureShape, type LinearMode, type Rig, type RigParams } from './rig-model';
 import { createRng } from './synth';
 
-export type RigEnds = 'open-open' | 'closed-open';
-
-/** Physical set-up of the rig. */
-export interface RigParams {
-  /** Tube length, m. */
-  lengthM: number;
-  /** Mean gas temperature, °C (sets c₀ and the time scale L/c₀). */
-  gasTemperatureC: number;
-  /** 'open-open' (bench tube) or 'closed-open' (closed at the upstream end: a flue). */
-  ends: RigEnds;
-  /** Heater position from the upstream end, m. */
-  heaterPositionM: number;
-  /** Heat-release time lag, s. Default 0.2 L/c₀ (Balasubramanian & Sujith's τ = 0.2, from memory). */
-  heatLagS?: number;
-  /** Number of Galerkin modes (default 10). */
-  modeCount?: number;
-  /** Damping coefficients c₁, c₂ (defaults 0.1 and 0.06). */
-  dampingC1?: number;
-  dampingC2?: number;
-  gas?: GasProperties;
-}
-
-/** Validated rig in dimensionless form, plus its scales. */
-export interface Rig {
-  params: RigParams;
-  cMPerS: number;
-  /** Time scale L/c₀, s. */
-  timeScaleS: number;
-  /** Dimensionless heater position x_f and lag τ. */
-  xf: number;
-  tau: number;
-  k: Float64Array;
-  zeta: Float64Array;
-  /** Mode shapes at the heater: U_j(x_f), P_j(x_f). */
-  uAtHeater: Float64Array;
-  pAtHeater: Float64Array;
-}
+export * from './rig-model';
 
 const SQRT_THIRD = Math.sqrt(1 / 3);
 
+/**
+ * Largest RMS of the white modal forcing (dimensionless; the mean flow is 1/3). Driven by white
+ * forcing of intensity x², the first mode's amplitude has standard deviation x / sqrt(4 ζ₁ k₁³)
+ * ≈ 0.56 x for the default damping (random-vibration result for a damped oscillator, e.g. Crandall &
+ * Mark 1963 — from memory), so at 0.1 the noise-driven velocity stays near a sixth of the mean flow.
+ */
+export const MAX_EXCITATION_RMS = 0.1;
+
+/**
+ * Largest RK4 step times the highest Galerkin wavenumber, dt·k_max: RK4 is stable on an undamped
+ * oscillator up to 2√2 (Butcher, Numerical Methods for ODEs — from memory); 1 leaves room for the
+ * damping and keeps the phase error per step below 1e-3.
+ */
+const MAX_STEP_TIMES_WAVENUMBER = 1;
+
 function positive(name: string, v: number, unit: string): void {
   if (!Number.isFinite(v) || v <= 0) throw new RangeError(`${name} must be a positive finite number of ${unit}, got ${v}`);
-}
-
-/** Velocity mode shape U_j at dimensionless x. */
-export function velocityShape(ends: RigEnds, k: number, x: number): number {
-  return ends === 'open-open' ? Math.cos(k * x) : Math.sin(k * x);
-}
-
-/** Pressure mode shape P_j at dimensionless x (p′ ∝ −η̇_j P_j / k_j). */
-export function pressureShape(ends: RigEnds, k: number, x: number): number {
-  return ends === 'open-open' ? Math.sin(k * x) : -Math.cos(k * x);
-}
-
-/** Validates the parameters and builds the dimensionless rig. Throws RangeError naming the parameter. */
-export function createRig(params: RigParams): Rig {
-  positive('lengthM', params.lengthM, 'm');
-  const gas = params.gas ?? AIR;
-  const cMPerS = speedOfSoundMPerS(params.gasTemperatureC, gas);
-  if (!Number.isFinite(params.heaterPositionM) || params.heaterPositionM <= 0 || params.heaterPositionM >= params.lengthM) {
-    throw new RangeError(`heaterPositionM must lie inside the tube (0 < x < ${params.lengthM} m), got ${params.heaterPositionM} m`);
-  }
-  const timeScaleS = params.lengthM / cMPerS;
-  const lagS = params.heatLagS ?? 0.2 * timeScaleS;
-  positive('heatLagS', lagS, 's');
-  const n = params.modeCount ?? 10;
-  if (!Number.isInteger(n) || n < 1 || n > 40) throw new RangeError(`modeCount must be an integer from 1 to 40, got ${n}`);
-  const c1 = params.dampingC1 ?? 0.1;
-  const c2 = params.dampingC2 ?? 0.06;
-  if (!Number.isFinite(c1) || c1 < 0) throw new RangeError(`dampingC1 must be a non-negative number, got ${c1}`);
-  if (!Number.isFinite(c2) || c2 < 0) throw new RangeError(`dampingC2 must be a non-negative number, got ${c2}`);
-  const xf = params.heaterPositionM / params.lengthM;
-  const k = new Float64Array(n);
-  const zeta = new Float64Array(n);
-  const uAtHeater = new Float64Array(n);
-  const pAtHeater = new Float64Array(n);
-  for (let j = 0; j < n; j++) {
-    k[j] = params.ends === 'open-open' ? (j + 1) * Math.PI : (j + 0.5) * Math.PI;
-    const r = k[j] / k[0];
-    zeta[j] = (c1 * r + c2 / Math.sqrt(r)) / (2 * Math.PI);
-    uAtHeater[j] = velocityShape(params.ends, k[j], xf);
-    pAtHeater[j] = pressureShape(params.ends, k[j], xf);
-  }
-  return { params, cMPerS, timeScaleS, xf, tau: lagS / timeScaleS, k, zeta, uAtHeater, pAtHeater };
-}
-
-/** One linear mode of the heated tube: growth rate (1/s, > 0 grows) and frequency (Hz). */
-export interface LinearMode {
-  n: number;
-  growthRatePerS: number;
-  frequencyHz: number;
-}
-
-type C = [number, number];
-const cmul = (a: C, b: C): C => [a[0] * b[0] - a[1] * b[1], a[0] * b[1] + a[1] * b[0]];
-const cdiv = (a: C, b: C): C => {
-  const d = b[0] * b[0] + b[1] * b[1];
-  return [(a[0] * b[0] + a[1] * b[1]) / d, (a[1] * b[0] - a[0] * b[1]) / d];
-};
-const cexpNeg = (s: C, tau: number): C => {
-  const m = Math.exp(-s[0] * tau);
-  return [m * Math.cos(s[1] * tau), -m * Math.sin(s[1] * tau)];
-};
-
-/**
- * Characteristic function of the linearised model for mode m (dimensionless σ):
- * H_m(σ) = D_m(σ) + e^{−στ} [g_m + D_m Σ_{j≠m} g_j / D_j], D_j = σ² + 2ζ_jω_jσ + k_j²,
- * g_j = (√3/2) K k_j P_j(x_f) U_j(x_f) (√3/2 = slope of sqrt(1/3 + u) at u = 0). Its zeros are
- * those of 1 + e^{−στ} Σ g_j/D_j = 0 (the rank-one delay coupling), with the pole of mode m removed
- * so that continuation from K = 0 starts at H_m = D_m.
- */
-export function characteristic(rig: Rig, heaterPower: number, m: number, s: C): C {
-  const n = rig.k.length;
-  const d = (j: number): C => [s[0] * s[0] - s[1] * s[1] + 2 * rig.zeta[j] * rig.k[j] * s[0] + rig.k[j] * rig.k[j], 2 * s[0] * s[1] + 2 * rig.zeta[j] * rig.k[j] * s[1]];
-  const g = (j: number): number => (Math.sqrt(3) / 2) * heaterPower * rig.k[j] * rig.pAtHeater[j] * rig.uAtHeater[j];
-  const dm = d(m);
-  let sum: C = [0, 0];
-  for (let j = 0; j < n; j++) {
-    if (j === m) continue;
-    const t = cdiv([g(j), 0], d(j));
-    sum = [sum[0] + t[0], sum[1] + t[1]];
-  }
-  const inner = cmul(dm, sum);
-  const e = cexpNeg(s, rig.tau);
-  const bracket: C = [g(m) + inner[0], inner[1]];
-  const eb = cmul(e, bracket);
-  return [dm[0] + eb[0], dm[1] + eb[1]];
-}
-
-/** Newton's method in the complex plane with a central-difference derivative (H is analytic). */
-function newton(f: (s: C) => C, start: C, tol = 1e-12, maxIter = 60): C | null {
-  let s: C = [start[0], start[1]];
-  for (let it = 0; it < maxIter; it++) {
-    const v = f(s);
-    const h = 1e-6 * Math.max(1, Math.hypot(s[0], s[1]));
-    const fp = f([s[0] + h, s[1]]);
-    const fm = f([s[0] - h, s[1]]);
-    const der: C = [(fp[0] - fm[0]) / (2 * h), (fp[1] - fm[1]) / (2 * h)];
-    if (!Number.isFinite(der[0]) || (der[0] === 0 && der[1] === 0)) return null;
-    const step = cdiv(v, der);
-    s = [s[0] - step[0], s[1] - step[1]];
-    if (!Number.isFinite(s[0]) || !Number.isFinite(s[1])) return null;
-    if (Math.hypot(step[0], step[1]) < tol * Math.max(1, Math.hypot(s[0], s[1]))) return s;
-  }
-  return null;
-}
-
-/**
- * Linear growth rates and frequencies of the first `count` modes at heater power K (dimensionless,
- * Balasubramanian & Sujith's K), by Newton's method on the characteristic function with
- * continuation in K from the damped acoustic modes at K = 0. Throws RangeError when it fails to converge.
- */
-export function linearModes(rig: Rig, heaterPower: number, count = 3): LinearMode[] {
-  if (!Number.isFinite(heaterPower) || heaterPower < 0) throw new RangeError(`heaterPower must be a non-negative finite number, got ${heaterPower}`);
-  const out: LinearMode[] = [];
-  const n = Math.min(count, rig.k.length);
-  for (let m = 0; m < n; m++) {
-    const zk = rig.zeta[m] * rig.k[m];
-    let s: C = [-zk, rig.k[m] * Math.sqrt(1 - rig.zeta[m] * rig.zeta[m])];
-    const steps = heaterPower === 0 ? 1 : Math.max(8, Math.ceil(heaterPower * 40));
-    for (let i = 1; i <= steps; i++) {
-      const kp = (heaterPower * i) / steps;
-      const next = newton((z) => characteristic(rig, kp, m, z), s);
-      if (next === null) throw new RangeError(`root finder did not converge for mode ${m + 1} at heater power ${kp.toFixed(4)}`);
-      s = next;
-    }
-    out.push({ n: m + 1, growthRatePerS: s[0] / rig.timeScaleS, frequencyHz: s[1] / (2 * Math.PI * rig.timeScaleS) });
-  }
-  return out;
-}
-
-/** Heater power at which mode 1 turns unstable (its growth rate crosses zero), by bisection; Infinity if still stable at maxPower. */
-export function criticalHeaterPower(rig: Rig, maxPower = 10): number {
-  const rate = (kp: number): number => linearModes(rig, kp, 1)[0].growthRatePerS;
-  if (rate(maxPower) < 0) return Infinity;
-  let lo = 0;
-  let hi = maxPower;
-  for (let i = 0; i < 60; i++) {
-    const mid = 0.5 * (lo + hi);
-    if (rate(mid) < 0) lo = mid;
-    else hi = mid;
-  }
-  return 0.5 * (lo + hi);
 }
 
 /**
@@ -264,13 +87,19 @@ export function simulateRig(spec: SimulationSpec): SimulationResult {
   const sched = [...spec.schedule].sort((a, b) => a.atS - b.atS);
   for (const st of sched) {
     if (!Number.isFinite(st.atS) || st.atS < 0) throw new RangeError(`schedule time must be ≥ 0 s, got ${st.atS}`);
-    if (!Number.isFinite(st.heaterPower) || st.heaterPower < 0) throw new RangeError(`heaterPower must be a non-negative finite number, got ${st.heaterPower}`);
+    checkHeaterPower(st.heaterPower);
   }
   const substeps = spec.substeps ?? 4;
-  if (!Number.isInteger(substeps) || substeps < 1) throw new RangeError(`substeps must be a positive integer, got ${substeps}`);
+  if (!Number.isInteger(substeps) || substeps < 1 || substeps > 64) throw new RangeError(`substeps must be an integer from 1 to 64, got ${substeps}`);
   const n = rig.k.length;
   const total = Math.round(spec.durationS * spec.sampleRateHz);
   const dt = 1 / (spec.sampleRateHz * rig.timeScaleS * substeps); // dimensionless step
+  if (dt * rig.k[n - 1] > MAX_STEP_TIMES_WAVENUMBER) {
+    const needHz = Math.ceil((rig.k[n - 1] / (MAX_STEP_TIMES_WAVENUMBER * rig.timeScaleS * substeps)));
+    throw new RangeError(
+      `sampleRateHz must be at least ${needHz} Hz for this tube, got ${spec.sampleRateHz} Hz: its highest Galerkin mode is ${(rig.k[n - 1] / (2 * Math.PI * rig.timeScaleS)).toFixed(0)} Hz (fewer modes, modeCount, or a longer tube lower it)`,
+    );
+  }
   if (rig.tau < dt) throw new RangeError(`heatLagS must be at least one integration step (${(dt * rig.timeScaleS).toExponential(2)} s)`);
   const L = rig.params.lengthM;
   const micM = spec.micPositionM ?? (rig.params.ends === 'open-open' ? 0.9 * L : 0);
@@ -278,6 +107,13 @@ export function simulateRig(spec: SimulationSpec): SimulationResult {
   const micShape = new Float64Array(n);
   for (let j = 0; j < n; j++) micShape[j] = -pressureShape(rig.params.ends, rig.k[j], micM / L) / rig.k[j];
   const excitation = spec.excitationRms ?? 2e-5;
+  if (!Number.isFinite(excitation) || excitation < 0 || excitation > MAX_EXCITATION_RMS) {
+    throw new RangeError(`excitationRms must lie from 0 to ${MAX_EXCITATION_RMS}, got ${excitation}`);
+  }
+  const initialAmplitude = spec.initialAmplitude ?? 0;
+  if (!Number.isFinite(initialAmplitude) || Math.abs(initialAmplitude) > 1 / 3) {
+    throw new RangeError(`initialAmplitude must lie from −1/3 to 1/3 (the mean flow), got ${initialAmplitude}`);
+  }
   const rng = createRng(spec.seed ?? 1);
 
   const y = new Float64Array(2 * n); // η then ξ = η̇
@@ -287,7 +123,7 @@ export function simulateRig(spec: SimulationSpec): SimulationResult {
   const k3 = new Float64Array(2 * n);
   const k4 = new Float64Array(2 * n);
   const noise = new Float64Array(n);
-  y[0] = spec.initialAmplitude ?? 0;
+  y[0] = initialAmplitude;
   // History of u′_f at every step; enough for the lag plus one step.
   const histLen = Math.ceil(rig.tau / dt) + 4;
   const hist = new Float64Array(histLen);
@@ -346,6 +182,8 @@ export function simulateRig(spec: SimulationSpec): SimulationResult {
     }
     let p = 0;
     for (let j = 0; j < n; j++) p += micShape[j] * y[n + j];
+    // The inputs are bounded and RK4 runs inside its stability limit, so this guards the model, not the user.
+    if (!Number.isFinite(p)) throw new RangeError(`the simulation diverged at ${(i / spec.sampleRateHz).toFixed(3)} s: lower the heater power or the excitation`);
     pressure[i] = p;
     heaterVelocity[i] = hist[histHead];
   }
@@ -401,19 +239,28 @@ export interface ScenarioTruth {
   speedOfSoundMPerS: number;
   timeScaleS: number;
   heatLagS: number;
-  /** Heater power at which the fundamental turns unstable; null if it stays stable up to K = 10. */
+  /** Lowest heater power at which any oscillating mode turns unstable; null if none does up to MAX_HEATER_POWER. */
   criticalHeaterPower: number | null;
+  /** That mode's number and its frequency at that power, Hz; null with criticalHeaterPower. */
+  criticalModeN: number | null;
+  criticalFrequencyHz: number | null;
   noiseDbfs: number;
   seed: number;
   params: RigParams;
   steps: {
     atS: number;
     heaterPower: number;
-    /** Fundamental's linear rate, 1/s (> 0 grows) and frequency, Hz. */
+    /** The leading mode: the oscillating mode with the largest linear growth rate at this power (leadingMode). */
+    mode: number;
+    /** Its linear rate, 1/s (> 0 grows) and frequency, Hz. */
     growthRatePerS: number;
     frequencyHz: number;
-    /** Positive decay rate, 1/s, when the step lowers the power and the fundamental is then stable. */
+    /**
+     * Positive decay rate, 1/s, when the step lowers the power and no mode then hums: the rate of the
+     * mode that led the step before (the one sounding when the power drops).
+     */
     decayRatePerS: number | null;
+    /** Some oscillating mode grows at this power (the leading mode's rate is > 0). */
     isUnstable: boolean;
     /**
      * Measured on the simulated (noise-free) signal over the last second of the step, when the
@@ -421,6 +268,7 @@ export interface ScenarioTruth {
      * and RMS level (dBFS, re a full-scale sine). The nonlinear limit cycle, not a model root.
      */
     limitCycle: { frequencyHz: number; amplitudeDbfs: number } | null;
+    /** Every Galerkin mode at this power, non-oscillating roots flagged. */
     modes: LinearMode[];
   }[];
 }
@@ -436,7 +284,7 @@ export function renderScenario(spec: ScenarioSpec): { samples: Float32Array; tru
   const noiseDbfs = spec.noiseDbfs ?? -60;
   if (Number.isNaN(noiseDbfs) || noiseDbfs > 0) throw new RangeError(`noiseDbfs must be ≤ 0 dBFS, got ${noiseDbfs}`);
   const silenceS = spec.silenceS ?? 0.5;
-  if (!Number.isFinite(silenceS) || silenceS < 0) throw new RangeError(`silenceS must be ≥ 0 s, got ${silenceS}`);
+  if (!Number.isFinite(silenceS) || silenceS < 0 || silenceS > 600) throw new RangeError(`silenceS must lie from 0 to 600 s, got ${silenceS}`);
   const seed = spec.seed ?? 1;
   const sim = simulateRig({
     rig,
@@ -455,23 +303,28 @@ export function renderScenario(spec: ScenarioSpec): { samples: Float32Array; tru
   const noiseRms = Number.isFinite(noiseDbfs) ? 10 ** (noiseDbfs / 20) / Math.SQRT2 : 0;
   const rng = createRng(seed + 7919);
   for (let i = 0; i < nSim; i++) samples[i] = gain * sim.pressure[i] + (noiseRms > 0 ? noiseRms * rng.normal() : 0);
-  const kc = criticalHeaterPower(rig);
+  const critical = firstInstability(rig);
   const sorted = [...spec.schedule].sort((a, b) => a.atS - b.atS);
-  let previous = 0;
+  let previousPower = 0;
+  let previousLead = 1;
   const steps = sorted.map((st, i) => {
     const endS = i + 1 < sorted.length ? Math.min(sorted[i + 1].atS, spec.durationS) : spec.durationS;
-    const modes = linearModes(rig, st.heaterPower, 3);
-    const m1 = modes[0];
-    const isDrop = st.heaterPower < previous;
-    previous = st.heaterPower;
+    const modes = linearModes(rig, st.heaterPower);
+    const lead = leadingMode(modes);
+    const isDrop = st.heaterPower < previousPower;
+    const wasSounding = modes[previousLead - 1];
+    previousPower = st.heaterPower;
+    previousLead = lead.n;
+    const isUnstable = lead.growthRatePerS > 0;
     return {
       atS: st.atS,
       heaterPower: st.heaterPower,
-      growthRatePerS: m1.growthRatePerS,
-      frequencyHz: m1.frequencyHz,
-      decayRatePerS: isDrop && m1.growthRatePerS < 0 ? -m1.growthRatePerS : null,
-      isUnstable: m1.growthRatePerS > 0,
-      limitCycle: m1.growthRatePerS > 0 && endS - st.atS >= 2 ? measureCycle(sim.pressure, gain, spec.sampleRateHz, endS - 1, endS) : null,
+      mode: lead.n,
+      growthRatePerS: lead.growthRatePerS,
+      frequencyHz: lead.frequencyHz,
+      decayRatePerS: isDrop && !isUnstable && wasSounding.isOscillating ? -wasSounding.growthRatePerS : null,
+      isUnstable,
+      limitCycle: isUnstable && endS - st.atS >= 2 ? measureCycle(sim.pressure, gain, spec.sampleRateHz, endS - 1, endS) : null,
       modes,
     };
   });
@@ -485,7 +338,9 @@ export function renderScenario(spec: ScenarioSpec): { samples: Float32Array; tru
       speedOfSoundMPerS: rig.cMPerS,
       timeScaleS: rig.timeScaleS,
       heatLagS: rig.tau * rig.timeScaleS,
-      criticalHeaterPower: Number.isFinite(kc) ? kc : null,
+      criticalHeaterPower: critical ? critical.heaterPower : null,
+      criticalModeN: critical ? critical.n : null,
+      criticalFrequencyHz: critical ? critical.frequencyHz : null,
       noiseDbfs,
       seed,
       params: spec.params,

@@ -19,7 +19,7 @@ export type Interval = [number, number];
 
 /** Configuration of one analysis run. Only sampleRateHz is required. */
 export interface AnalysisConfig {
-  /** Rate of the samples given to push(), Hz (8 000 to 192 000). */
+  /** Rate of the samples given to push(), Hz (500 to 192 000; dsp/condition.ts MIN_SAMPLE_RATE_HZ). */
   sampleRateHz: number;
   /** Band of interest, Hz. Defaults 20 and 4000. */
   bandLowHz?: number;
@@ -29,6 +29,13 @@ export interface AnalysisConfig {
    * taken from the steady lines of the record when one lies on a multiple of 50 or 60 Hz.
    */
   mainsHz?: number;
+  /**
+   * Bits of the sample format over full scale (a 16-bit WAV: 16; a CSV: log2(2/step) of its
+   * printed resolution after scaling, maybe fractional). A tone must stand above the format's
+   * quantisation error (dsp/levels.ts quantisationFloorDbfs): a weaker line may be a product of
+   * quantising a strong tone. Omitted (or 0) for float samples and live audio.
+   */
+  sampleBits?: number;
 }
 
 /** A user marker typed while recording ("driving off", "firing rate 60 %"). */
@@ -128,6 +135,31 @@ export interface NoiseDriven {
   autocorrelationCi95PerS?: Interval;
 }
 
+/** Regime a stretch of noise-driven operation supports ('undetermined' when the data cannot tell). */
+export type NoiseRegime = 'stable' | 'near-threshold' | 'humming' | 'undetermined';
+
+/**
+ * The mode's normal form du = (ν − κ|u|²)u dt + σ dW fitted to one stretch of steady operation (quiet
+ * or steady hum) of one tone, from the statistics of its envelope (dsp/mode-statistics.ts).
+ */
+export interface ModeStatistics {
+  frequencyHz: number;
+  startS: number;
+  endS: number;
+  /** ν, 1/s: negative when stable (its magnitude is the net damping), positive when humming. */
+  linearGrowthRatePerS: number | null;
+  linearGrowthRateCi95PerS: Interval | null;
+  /** κ, 1/(s·FS²), FS the full-scale peak amplitude of the tone. */
+  saturation: number | null;
+  /** σ², FS²/s. */
+  noiseIntensity: number | null;
+  regime: NoiseRegime;
+  /** 'amplitude-pdf', 'drift-diffusion' or 'lorentzian' ('+disagree' when the routes disagree and the interval covers them all). */
+  method: string;
+  /** Why the regime is 'undetermined' (too short, second mode in the band, clipped input). */
+  reason?: string;
+}
+
 export interface Summary {
   frequencyHz: number | null;
   growthRatePerS: number | null;
@@ -165,6 +197,8 @@ export interface Report {
   onsets: Onset[];
   segments: Segment[];
   noiseDriven: NoiseDriven[];
+  /** Linear growth rate from the noise, per tone and stretch of steady operation. */
+  modeStatistics?: ModeStatistics[];
   summary: Summary;
   /** Tones and steady lines seen (mains hum included), strongest first, with their cycles. */
   tones?: ToneEntry[];

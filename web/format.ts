@@ -117,16 +117,27 @@ export function formatDb(db: number | null | undefined, unit: DbUnit = 'dB', ci9
   return formatQuantity(db, unit, ci95, { decimals: 1 });
 }
 
+/**
+ * Decimals for a value with three significant digits, plus up to two more when its interval is so
+ * narrow that its ends would print alike (as formatRate does).
+ */
+function decimalsWithInterval(value: number, ci95: Interval | null | undefined): number {
+  const decimals = decimalsFor(value, 3);
+  if (!isShowableInterval(ci95)) return decimals;
+  const halfWidth = Math.abs(ci95[1] - ci95[0]) / 2;
+  return halfWidth > 0 ? Math.min(decimals + 2, Math.max(decimals, decimalsFor(halfWidth, 1))) : decimals;
+}
+
 /** A dimensionless ratio (damping ratio) with three significant digits: "0.00468 (95 % CI 0.00401–0.00535)". */
 export function formatRatio(ratio: number | null | undefined, ci95?: Interval | null, reason = 'no decay fit'): string {
   if (!isShowable(ratio)) return formatMissing(reason);
-  return formatQuantity(ratio, '', ci95, { significant: 3 });
+  return formatQuantity(ratio, '', ci95, { decimals: decimalsWithInterval(ratio, ci95) });
 }
 
 /** Quality factor Q (dimensionless), three significant digits, no decimals above 100: "107 (95 % CI 92–128)". */
 export function formatQ(q: number | null | undefined, ci95?: Interval | null, reason = 'no decay fit'): string {
   if (!isShowable(q)) return formatMissing(reason);
-  return formatQuantity(q, '', ci95, { significant: 3 });
+  return formatQuantity(q, '', ci95, { decimals: decimalsWithInterval(q, ci95) });
 }
 
 /** A duration in seconds: "1.38 s"; below 1 s in milliseconds: "139 ms". */
@@ -169,4 +180,16 @@ export function formatPercent(fraction: number | null | undefined, decimals = 0,
   const percent = isShowable(fraction) ? fraction * 100 : Number.NaN;
   if (!isShowable(percent)) return formatMissing(reason);
   return `${formatFixed(percent, decimals)} %`;
+}
+
+/**
+ * A pressure in pascals with three significant digits, in mPa below 0.1 Pa and kPa from 1000 Pa:
+ * formatPa(0.0421) → "42.1 mPa", formatPa(3.2) → "3.20 Pa".
+ */
+export function formatPa(pa: number | null | undefined, reason = 'no signal'): string {
+  if (!isShowable(pa)) return formatMissing(reason);
+  const abs = Math.abs(pa);
+  if (abs !== 0 && abs < 0.1) return formatQuantity(pa * 1000, 'mPa', null, { significant: 3 });
+  if (abs >= 1000) return formatQuantity(pa / 1000, 'kPa', null, { significant: 3 });
+  return formatQuantity(pa, 'Pa', null, { significant: 3 });
 }

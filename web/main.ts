@@ -34,8 +34,13 @@ function parseHash(): { screen: ScreenName; param: string | undefined } {
   return { screen: known ? known.name : 'listen', param: rest.length ? decodeURIComponent(rest.join('/')) : undefined };
 }
 
+let shownHash = '';
+
 function show(): void {
   const { screen, param } = parseHash();
+  // A new screen (or another session) starts at its top, not where the previous one was scrolled.
+  if (location.hash !== shownHash) window.scrollTo(0, 0);
+  shownHash = location.hash;
   for (const [name, el] of sections) el.hidden = name !== screen;
   for (const [name, a] of navButtons) {
     if (name === screen) a.setAttribute('aria-current', 'page');
@@ -63,16 +68,10 @@ const app: AppContext = {
 };
 
 for (const s of SCREENS) {
-  const a = document.createElement('a');
-  a.href = `#${s.name}`;
-  a.textContent = s.label;
-  a.className = 'navlink';
+  const a = el('a', { href: `#${s.name}`, text: s.label, className: 'navlink' });
   nav.append(a);
   navButtons.set(s.name, a);
-  const section = document.createElement('section');
-  section.className = `screen screen-${s.name}`;
-  section.setAttribute('aria-label', s.label);
-  section.hidden = true;
+  const section = el('section', { className: `screen screen-${s.name}`, hidden: true, attrs: { 'aria-label': s.label } });
   main.append(section);
   sections.set(s.name, section);
   try {

@@ -27,9 +27,13 @@ export interface Settings {
   bandHighHz: number;
   /** Show the level readout A-weighted (IEC 61672-1) when calibrated. */
   isAWeighted: boolean;
+  /** Time weighting of the level readout (IEC 61672-1 §5.8): 'slow' 1 s or 'fast' 0.125 s. */
+  levelWeighting: 'slow' | 'fast';
   theme: Theme;
   /** Keep the raw audio with each session (larger storage). */
   isKeepingAudio: boolean;
+  /** Exported bundles carry 32-bit float audio (exact, twice the size) instead of 16-bit PCM. */
+  isExportingFloatAudio: boolean;
   /** First-run cautions acknowledged. */
   hasSeenCautions: boolean;
   /** Calibration per microphone, keyed by deviceKey(). */
@@ -45,8 +49,10 @@ export function defaultSettings(): Settings {
     bandLowHz: 20,
     bandHighHz: 4000,
     isAWeighted: false,
+    levelWeighting: 'slow',
     theme: 'daylight',
     isKeepingAudio: true,
+    isExportingFloatAudio: false,
     hasSeenCautions: false,
     calibrations: {},
   };
@@ -112,8 +118,10 @@ export function loadSettings(store: KeyValueStore | null = browserStore()): Sett
     s.bandHighHz = r.bandHighHz;
   }
   if (typeof r.isAWeighted === 'boolean') s.isAWeighted = r.isAWeighted;
+  if (r.levelWeighting === 'slow' || r.levelWeighting === 'fast') s.levelWeighting = r.levelWeighting;
   if (r.theme === 'daylight' || r.theme === 'dark') s.theme = r.theme;
   if (typeof r.isKeepingAudio === 'boolean') s.isKeepingAudio = r.isKeepingAudio;
+  if (typeof r.isExportingFloatAudio === 'boolean') s.isExportingFloatAudio = r.isExportingFloatAudio;
   if (typeof r.hasSeenCautions === 'boolean') s.hasSeenCautions = r.hasSeenCautions;
   s.calibrations = readCalibrations(r.calibrations);
   return s;
@@ -152,4 +160,9 @@ export function calibrationOffsetDb(referenceDbSpl: number, measuredDbfs: number
 export function toDbSpl(levelDbfs: number, calibration: Calibration | undefined): number | null {
   if (!calibration || !isFiniteNumber(levelDbfs)) return null;
   return levelDbfs + calibration.offsetDb;
+}
+
+/** Export options from the settings: the audio encoding of bundles (16-bit unless float is asked for). */
+export function bundleOptions(settings: Settings = loadSettings()): { audio: 'pcm16' | 'float32' } {
+  return { audio: settings.isExportingFloatAudio ? 'float32' : 'pcm16' };
 }

@@ -12,20 +12,31 @@
  *    streaming analysis announces the onset, in e-folding times; false onsets on toneless noise
  *    with ±10 dB loudness steps and on steady 50/60 Hz mains hum with harmonics.
  * 3. Speed on one thread (48 kHz mono): audio seconds per wall second, the ratio to a bare fft.js
- *    pass at the same frame rate, and peak memory streaming a 1-hour WAV through reader + pipeline.
+ *    pass at the same frame rate, the cost of each streaming stage per minute of audio, and peak
+ *    memory streaming a 1-hour WAV through reader + pipeline; whole records of many hum cycles
+ *    (10 minutes with 50, 1 hour with 60) against 1000× real time, with finish()'s share;
+ *    archives: files per second of `humgauge analyze FOLDER` on 1, 2 and all cores.
  */
 
 import FFT from 'fft.js';
-import { cpus, loadavg } from 'node:os';
+import { mkdtemp, rm, writeFile } from 'node:fs/promises';
+import { availableParallelism, cpus, loadavg, tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
+import { createConditionState, stepCondition } from '../condition';
 import { crlbDampedTone } from '../crlb';
+import { createEnvelopeState, setEnvelopeFrequency, stepEnvelope } from '../envelope';
 import { fitExponential, fitSaturation, landauAmplitude } from '../fit';
 import { renderScenario, type ScenarioSpec } from '../rig-sim';
 import { createAnalysis } from '../index';
 import { createWavDecoder } from '../io/wav';
+import { createPeakList, findPeaks, groupHarmonics, suppressLeakage } from '../peak';
+import { computeSpectrumFrame, createSpectrumState, feedSpectrum } from '../spectrum';
 import { encodeWav } from '../io/wav-write';
 import { createRng, humCycleEnvelope, synthesize, type EnvelopeFn, type Rng } from '../synth';
 import type { Analysis, EnvelopeSeries, Report, Segment } from '../types';
+import { analyzeMany } from './batch';
+import { noiseStatisticsBench } from './bench-noise';
 import { num, renderTable } from './format';
 
 type Verdict = 'PASS' | 'MISS' | 'info';
@@ -55,10 +66,10 @@ function printSection(title: string, sectionRows: Row[]): void {
   );
 }
 
-function section(title: string, fn: () => void): void {
+async function section(title: string, fn: () => void | Promise<void>): Promise<void> {
   const start = rows.length;
   const t0 = performance.now();
-  fn();
+  await fn();
   printSection(`${title}  (${((performance.now() - t0) / 1000).toFixed(1)} s)`, rows.slice(start));
 }
 
@@ -281,6 +292,90 @@ function onsetDelay(): void {
     );
     row(`growth ${rate} 1/s: missed / extra onsets`, `${missed} / ${extra} of ${trials}`, '0 / 0', missed === 0 && extra === 0 ? 'PASS' : 'MISS');
     row(`growth ${rate} 1/s: reported onset − 0 dB crossing`, `median ${num(quantile(stampErr, 0.5), 2)}, max |${num(Math.max(...stampErr.map(Math.abs)), 2)}| e-folds`, '—', 'info');
+  }
+}
+
+// ---------------------------------------------------------------------------------------------
+// 2c. Live onset announcement over the whole band (short-frame detector, dsp/live-onset.ts)
+
+/** Announcement delay after the 6 dB point at 3–50 1/s, tones anywhere in 40–1000 Hz from 40 dB under that point; false live onsets on noise steps, mains switched on, knocks. */
+function liveOnsetRows(): void {
+  const fs = 16000;
+  const noiseRms = 10 ** (-50 / 20);
+  const bandPower = (noiseRms * noiseRms * 10) / (fs / 2);
+  const rng = createRng(808);
+  const trials = 12;
+  for (const rate of [3, 10, 30, 50]) {
+    const delays: number[] = [];
+    let missed = 0;
+    let extra = 0;
+    for (let k = 0; k < trials; k++) {
+      const freq = 40 + 960 * rng.uniform();
+      const startS = 2 + rng.uniform();
+      const a6 = Math.sqrt(8 * bandPower);
+      const aStart = a6 / 100;
+      const t6 = startS + Math.log(a6 / aStart) / rate;
+      const durationS = t6 + Math.max(3, 8 / rate) + 1;
+      const env = humCycleEnvelope({ onsetS: startS, startAmplitude: aStart, growthPerS: rate, limitAmplitude: 0.3, offS: durationS + 1, decayPerS: 5 });
+      const x = toneInNoise(fs, durationS, freq, env, noiseRms, 900 + k + 100 * rate, rng);
+      const { announcedS } = runAnalysis(x, fs, 128);
+      if (announcedS.length === 0) {
+        missed++;
+        continue;
+      }
+      extra += announcedS.length - 1;
+      delays.push((announcedS[0] - t6) * rate);
+    }
+    const p90 = quantile(delays, 0.9);
+    row(
+      `live, growth ${rate} 1/s, 40–1000 Hz: announcement after the 6 dB point`,
+      `median ${num(quantile(delays, 0.5), 2)}, 90 % ${num(p90, 2)} e-folds; missed / extra ${missed} / ${extra} of ${trials}`,
+      '90 % ≤ 2 e-folds, 0 / 0',
+      p90 <= 2 && missed === 0 && extra === 0 ? 'PASS' : 'MISS',
+    );
+  }
+  {
+    const r = createRng(31);
+    let gainDb = 0;
+    let nextStep = 0;
+    const run = streamGenerated(fs, 120, (b, start) => {
+      for (let i = 0; i < b.length; i++) {
+        if (start + i >= nextStep) {
+          if (nextStep > 0) gainDb += gainDb >= 10 ? -10 : gainDb <= -10 ? 10 : r.uniform() < 0.5 ? -10 : 10;
+          nextStep += Math.round((5 + 10 * r.uniform()) * fs);
+        }
+        b[i] = 0.01 * 10 ** (gainDb / 20) * r.normal();
+      }
+    });
+    row('live: toneless noise, 2 min, ±10 dB steps every 5–15 s', `${run.liveOnsets} live onsets`, '0', run.liveOnsets === 0 ? 'PASS' : 'MISS');
+  }
+  for (const mainsHz of [50, 60]) {
+    const r = createRng(mainsHz + 1);
+    const run = streamGenerated(fs, 60, (b, start) => {
+      for (let i = 0; i < b.length; i++) {
+        const t = (start + i) / fs;
+        let v = 0.003 * r.normal();
+        if (t > 20) for (let h = 1; h <= 7; h++) v += 0.05 * 0.5 ** (h - 1) * Math.sin(2 * Math.PI * mainsHz * h * t);
+        b[i] = v;
+      }
+    });
+    row(`live: ${mainsHz} Hz mains with harmonics switched on at 20 s`, `${run.liveOnsets} live onsets`, '0', run.liveOnsets === 0 ? 'PASS' : 'MISS');
+  }
+  {
+    const r = createRng(7);
+    const run = streamGenerated(fs, 40, (b, start) => {
+      for (let i = 0; i < b.length; i++) {
+        const t = (start + i) / fs;
+        let v = 0.001 * r.normal();
+        for (const t0 of [5, 11, 17, 23, 29, 35]) {
+          if (t < t0) continue;
+          const u = t - t0;
+          v += 0.3 * Math.exp(-15 * u) * Math.sin(2 * Math.PI * 171 * u) + 0.1 * Math.exp(-40 * u) * Math.sin(2 * Math.PI * 343 * u);
+        }
+        b[i] = v;
+      }
+    });
+    row('live: 6 knocks, two modes ringing down (15 and 40 1/s)', `${run.liveOnsets} live onsets`, '0', run.liveOnsets === 0 ? 'PASS' : 'MISS');
   }
 }
 
@@ -513,6 +608,7 @@ function speed(): void {
     ratio <= 3 ? 'PASS' : 'MISS',
   );
   if (Number.isNaN(sink)) out('');
+  stageCosts(x, fs, n, Math.round(hop), seconds, pushS, wallS - pushS);
 
   // One saturation fit (the bulk of finish()): 1000 envelope samples of a Stuart–Landau rise, 2 s.
   {
@@ -547,6 +643,131 @@ function speed(): void {
     readS = Math.min(readS, (performance.now() - t2) / 1000);
   }
   row('WAV reader alone, 16-bit 48 kHz mono', `${num(seconds / readS, 3)}× real time (${num(wav.length / 2 ** 20 / readS, 3)} MB/s)`, '—', 'info');
+}
+
+/** Best of SPEED_REPEATS timings of fn, s. */
+function bestOf(fn: () => void): number {
+  let best = Infinity;
+  for (let rep = 0; rep < SPEED_REPEATS; rep++) {
+    const t0 = performance.now();
+    fn();
+    best = Math.min(best, (performance.now() - t0) / 1000);
+  }
+  return best;
+}
+
+/**
+ * Cost of each streaming stage per minute of 48 kHz audio, each run alone on the speed minute
+ * with the layout the analysis uses (default band 20-4000 Hz; the frame length and hop the probe
+ * measured; peaks listed from 6 dB prominence, subharmonics from 10 dB, an envelope sample
+ * every ~300th of a second through ±5 and ±20 Hz bands, as dsp/pipeline.ts sets them), so a
+ * regression shows by stage. The rest of push() (tracking, regimes, stores, live fits) is what
+ * remains of the pipeline's own push() time.
+ */
+function stageCosts(x: Float32Array, fs: number, frameSize: number, hop: number, seconds: number, pushS: number, finishS: number): void {
+  const perMin = (s: number): string => `${num((s * 1000 * 60) / seconds, 3)} ms per min`;
+  const band = { sampleRateHz: fs, bandLowHz: 20, bandHighHz: 4000 };
+  const probe = createConditionState(band);
+  const conditioned = new Float32Array(Math.ceil(x.length / probe.decimation) + 8);
+  let nc = 0;
+  const condS = bestOf(() => {
+    const c = createConditionState(band);
+    nc = 0;
+    for (let o = 0; o < x.length; o += 4096) {
+      stepCondition(c, x.subarray(o, Math.min(x.length, o + 4096)));
+      conditioned.set(c.out.subarray(0, c.outCount), nc);
+      nc += c.outCount;
+    }
+  });
+  const y = conditioned.subarray(0, nc);
+  const fsA = probe.outputRateHz;
+  const hopA = Math.max(1, Math.round(hop / probe.decimation));
+  const loBin = Math.max(1, Math.floor(20 / (fsA / frameSize)));
+  const hiBin = Math.ceil(4000 / (fsA / frameSize));
+  const peaks = createPeakList(32);
+  let frames = 0;
+  const frameLoop = (withPeaks: boolean): void => {
+    const sp = createSpectrumState({ sampleRateHz: fsA, frameSize, hopSize: hopA });
+    frames = 0;
+    for (let i = 0; i < nc; ) {
+      const k = Math.min(nc - i, sp.toFrame);
+      if (feedSpectrum(sp, y, i, i + k)) {
+        computeSpectrumFrame(sp);
+        frames++;
+        if (withPeaks) {
+          findPeaks(sp, loBin, hiBin, 6, peaks);
+          suppressLeakage(sp, peaks);
+          groupHarmonics(sp, peaks, loBin, hiBin, 10);
+        }
+      }
+      i += k;
+    }
+  };
+  const specS = bestOf(() => frameLoop(false));
+  const peakS = Math.max(0, bestOf(() => frameLoop(true)) - specS);
+  const outs = [new Float64Array(1024), new Float64Array(1024), new Float64Array(1024)];
+  const envS = bestOf(() => {
+    const e = createEnvelopeState({ sampleRateHz: fsA, decimation: Math.max(1, Math.round(fsA / 300)), bandwidthHz: 5, wideBandwidthHz: 20 });
+    setEnvelopeFrequency(e, 171);
+    for (let i = 0; i < nc; i += 2048) stepEnvelope(e, y, i, Math.min(nc, i + 2048), outs[0], outs[1], outs[2], 0);
+  });
+  row('stage: conditioning (decimation to the analysis rate)', `${perMin(condS)} (${num(fs / 1000, 3)} → ${num(fsA / 1000, 3)} kHz)`, '—', 'info');
+  row('stage: spectral frames (window, fft.js, averages)', `${perMin(specS)} (${num(frames / seconds, 3)} frames of ${frameSize} per s)`, '—', 'info');
+  row('stage: peak picking and harmonic grouping', perMin(peakS), '—', 'info');
+  row('stage: one envelope demodulator (narrow and wide band)', perMin(envS), '—', 'info');
+  row('stage: rest of push() (tracking, regimes, stores, live fits)', `${perMin(Math.max(0, pushS - condS - specS - peakS - envS))} (push() ${perMin(pushS)}, one demodulator counted)`, '—', 'info');
+  row('stage: finish() (segment fits, report)', perMin(finishS), '—', 'info');
+}
+
+/**
+ * One hum cycle of `periodS` at 48 kHz: quiet, growth at 8 1/s from 1e-4 into a 0.3 limit cycle
+ * (Stuart–Landau), decay at 5 1/s, in −60 dBFS white noise. 171 Hz × period is a whole number of
+ * periods for the periods used, so the clip repeats without a phase jump.
+ */
+function humCycleClip(fs: number, periodS: number, seed: number): Float32Array {
+  const onsetS = Math.min(4, 0.25 * periodS);
+  const offS = onsetS + Math.min(20, 0.4 * periodS);
+  const cycle = humCycleEnvelope({ onsetS, startAmplitude: 1e-4, growthPerS: 8, limitAmplitude: 0.3, offS, decayPerS: 5 });
+  return synthesize({ sampleRateHz: fs, durationS: periodS, tones: [{ frequencyHz: 171, envelope: cycle }], noiseRms: 1e-3, seed });
+}
+
+/** Streams `cycles` repeats of a clip through one analysis in 4096-sample blocks; times push() and finish() apart. */
+function timeRecord(fs: number, clip: Float32Array, cycles: number): { pushS: number; finishS: number; report: Report } {
+  const a = createAnalysis({ sampleRateHz: fs });
+  let pushS = 0;
+  for (let c = 0; c < cycles; c++) {
+    const t0 = performance.now();
+    for (let o = 0; o < clip.length; o += 4096) a.push(clip.subarray(o, Math.min(clip.length, o + 4096)));
+    pushS += (performance.now() - t0) / 1000;
+  }
+  const t1 = performance.now();
+  const report = a.finish();
+  return { pushS, finishS: (performance.now() - t1) / 1000, report };
+}
+
+/** Whole records of many hum cycles: push + finish() against real time, and finish()'s share and cost per cycle. */
+function records(): void {
+  const fs = 48000;
+  const cases: [name: string, periodS: number, cycles: number, repeats: number][] = [
+    ['10-min record, 50 cycles', 12, 50, 3],
+    ['1-hour record, 60 cycles', 60, 60, 1],
+  ];
+  for (const [name, periodS, cycles, repeats] of cases) {
+    const clip = humCycleClip(fs, periodS, 31);
+    let best = { pushS: Infinity, finishS: Infinity, report: null as Report | null };
+    for (let r = 0; r < repeats; r++) {
+      const run = timeRecord(fs, clip, cycles);
+      if (run.pushS + run.finishS < best.pushS + best.finishS) best = run;
+    }
+    const seconds = periodS * cycles;
+    const wallS = best.pushS + best.finishS;
+    const speedX = seconds / wallS;
+    const share = best.finishS / wallS;
+    const onsets = best.report?.onsets.length ?? 0;
+    row(`${name}: push + finish(), 48 kHz mono`, `${num(speedX, 3)}× real time (${num(wallS, 3)} s)`, '≥ 1000×', speedX >= 1000 ? 'PASS' : 'MISS');
+    row(`${name}: finish() share of the total`, `${num(100 * share, 3)} % (${num(best.finishS * 1000, 3)} ms, ${num((best.finishS * 1000) / cycles, 3)} ms per cycle)`, '< 10 %', share < 0.1 ? 'PASS' : 'MISS');
+    row(`${name}: onsets found`, String(onsets), String(cycles), onsets === cycles ? 'PASS' : 'MISS');
+  }
 }
 
 function memory(): void {
@@ -622,20 +843,75 @@ function memory(): void {
   row('1-hour file: onsets found (one hum cycle a minute)', String(report.onsets.length), '60', report.onsets.length === 60 ? 'PASS' : 'MISS');
 }
 
+/** Files in the archive row and their length, s (issue target: 100 one-minute files). */
+const ARCHIVE_FILES = 100;
+const ARCHIVE_FILE_S = 60;
+
+/**
+ * 3d. Archives: `humgauge analyze FOLDER` on 100 one-minute 16 kHz 16-bit recordings (a hum cycle
+ * in each), files per second on 1, 2 and all cores (worker threads, dsp/cli/batch.ts). Needs the
+ * built worker script beside bench.js (npm run bench:cli); files go to the system's temp folder.
+ */
+async function archives(): Promise<void> {
+  const fs = 16000;
+  const dir = await mkdtemp(join(tmpdir(), 'humgauge-bench-'));
+  try {
+    const files: string[] = [];
+    const distinct = Array.from({ length: 4 }, (_, k) =>
+      encodeWav(
+        synthesize({
+          sampleRateHz: fs,
+          durationS: ARCHIVE_FILE_S,
+          tones: [{ frequencyHz: 150 + 20 * k, envelope: humCycleEnvelope({ onsetS: 15, startAmplitude: 1e-5, growthPerS: 8, limitAmplitude: 0.3, offS: 40, decayPerS: 5 }) }],
+          noiseRms: 1e-3,
+          seed: 50 + k,
+        }),
+        fs,
+        'pcm16',
+      ),
+    );
+    for (let i = 0; i < ARCHIVE_FILES; i++) {
+      const f = join(dir, `log-${String(i).padStart(3, '0')}.wav`);
+      await writeFile(f, distinct[i % distinct.length]);
+      files.push(f);
+    }
+    const all = availableParallelism();
+    const settings = { keepTrack: false };
+    for (const jobs of [...new Set([1, 2, all])]) {
+      const t0 = performance.now();
+      const outcomes = await analyzeMany(files, settings, jobs);
+      const wallS = (performance.now() - t0) / 1000;
+      const failed = outcomes.filter((o) => !o.ok).length;
+      row(
+        `${ARCHIVE_FILES} one-minute files, ${jobs === 1 ? 'one thread' : `${jobs} worker threads`}${jobs === all ? ' (all cores)' : ''}`,
+        `${num(ARCHIVE_FILES / wallS, 3)} files/s (${num((ARCHIVE_FILES * ARCHIVE_FILE_S) / wallS, 3)}× real time)${failed > 0 ? `, ${failed} failed` : ''}`,
+        '—',
+        'info',
+      );
+    }
+  } finally {
+    await rm(dir, { recursive: true, force: true });
+  }
+}
+
 // ---------------------------------------------------------------------------------------------
 
 /** Memory runs first, while the process holds nothing else (RSS never shrinks back). */
-const SECTIONS: [name: string, title: string, fn: () => void][] = [
+const SECTIONS: [name: string, title: string, fn: () => void | Promise<void>][] = [
   ['memory', '3b. Memory (run first, in a fresh process)', memory],
   ['accuracy', '1. Accuracy against the Cramér–Rao bound', accuracy],
   ['rigs', '1b. Simulated rigs: growth rate against the characteristic equation (5 seeds each)', simulatedRigs],
   ['onset', '2a. Onset announcement delay (10 Hz band, noise −50 dBFS, tone from 40 dB under the 6 dB point)', onsetDelay],
   ['false', '2b. False onsets', falseOnsets],
+  ['live', '2c. Live onset over the band (short-frame detector): announcement delay and false live onsets', liveOnsetRows],
   ['speed', `3a. Speed (best of ${SPEED_REPEATS} runs)`, speed],
+  ['records', '3c. Whole records of many hum cycles (one thread)', records],
+  ['archives', '3d. Archives on every core (humgauge analyze FOLDER, worker threads)', archives],
+  ['noise', '4. Linear growth rate from noise (dsp/cli/bench-noise.ts)', () => noiseStatisticsBench(row)],
 ];
 
-/** `node dist-cli/bench.js [accuracy|rigs|onset|false|speed|memory ...]`: all sections by default. */
-function main(): void {
+/** `node dist-cli/bench.js [accuracy|rigs|onset|false|live|speed|memory|records|archives|noise ...]`: all sections by default. */
+async function main(): Promise<void> {
   const t0 = performance.now();
   const wanted = process.argv.slice(2);
   const unknown = wanted.filter((w) => !SECTIONS.some(([name]) => name === w));
@@ -647,10 +923,10 @@ function main(): void {
   const load = loadavg().map((l) => l.toFixed(1)).join(' ');
   out(`humgauge bench — Node ${process.version}, ${cpus().length} CPU(s), load average ${load}, ${new Date().toISOString()}\n`);
   out('Speed figures are one thread; other load on the machine lowers them.\n');
-  for (const [name, title, fn] of SECTIONS) if (wanted.length === 0 || wanted.includes(name)) section(title, fn);
+  for (const [name, title, fn] of SECTIONS) if (wanted.length === 0 || wanted.includes(name)) await section(title, fn);
   const pass = rows.filter((r) => r.verdict === 'PASS').length;
   const miss = rows.filter((r) => r.verdict === 'MISS').length;
   out(`\nbench: ${pass} PASS, ${miss} MISS, ${((performance.now() - t0) / 1000).toFixed(0)} s\n`);
 }
 
-main();
+void main();

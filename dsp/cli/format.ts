@@ -7,7 +7,9 @@
  */
 
 import { dampingRatio } from '../derived';
+import { paFromSplDb } from '../levels';
 import type { Interval, Report, Segment } from '../types';
+import { modeStatisticsLines } from './format-noise';
 
 /** A table: header row and body rows of cells; `alignRight` per column. */
 export function renderTable(header: string[], rows: string[][], alignRight: boolean[] = []): string {
@@ -97,8 +99,8 @@ export function derivedFigures(report: Report): DerivedFigure[] {
   const growthPositive = g !== null && g > 0;
   return [
     { label: 'frequency', value: f, unit: 'Hz', ci: null },
-    { label: 'growth rate', value: g, unit: '1/s', ci: gCi, note: g !== null ? `${num(g * 20 * Math.LOG10E, 3)} dB/s` : undefined },
-    { label: 'decay rate', value: a, unit: '1/s', ci: aCi, note: a !== null ? `${num(a * 20 * Math.LOG10E, 3)} dB/s` : undefined },
+    { label: 'growth rate', value: g, unit: '1/s', ci: gCi, note: g !== null ? num(g * 20 * Math.LOG10E, 3) : undefined },
+    { label: 'decay rate', value: a, unit: '1/s', ci: aCi, note: a !== null ? num(a * 20 * Math.LOG10E, 3) : undefined },
     { label: 'effective gain (growth + decay)', value: gain, unit: '1/s', ci: gainCi },
     { label: 'damping ratio', value: zeta, unit: '', ci: zetaCi },
     { label: 'Q', value: q, unit: '', ci: qCi },
@@ -108,17 +110,47 @@ export function derivedFigures(report: Report): DerivedFigure[] {
   ];
 }
 
+/**
+ * A rate in 1/s with 3 significant digits but never more than 3 decimals, so a near-zero drift
+ * reads 0.000 rather than 7.17e-5 (its interval shows what it is worth).
+ */
+export function rateText(x: number | null | undefined): string {
+  if (x === null || x === undefined || !Number.isFinite(x)) return '—';
+  const a = Math.abs(x);
+  if (a >= 1e7) return num(x, 3);
+  const decimals = a === 0 ? 3 : Math.min(3, Math.max(0, 2 - Math.floor(Math.log10(a))));
+  const t = x.toFixed(decimals);
+  return /^-0\.?0*$/.test(t) ? t.slice(1) : t;
+}
+
+/**
+ * The one sign convention of the text output: a growth rate s and a decay rate α are both
+ * positive (amplitude ∝ e^(+s·t) while growing, e^(−α·t) while decaying), as in the report's
+ * summary; a steady segment shows its residual drift, signed (+ grows, − decays). The report's
+ * segments carry the signed e-folding rate, so a decay's is negated here.
+ */
+export function displayedRate(seg: Pick<Segment, 'kind' | 'ratePerS' | 'rateCi95PerS'>): { rate: number | null; ci: Interval | null } {
+  if (seg.ratePerS === null) return { rate: null, ci: null };
+  if (seg.kind !== 'decay') return { rate: seg.ratePerS, ci: seg.rateCi95PerS ?? null };
+  const ci = seg.rateCi95PerS;
+  return { rate: -seg.ratePerS, ci: ci ? [-ci[1], -ci[0]] : null };
+}
+
 /** Rows of the segment table. */
 export function segmentRows(segments: Segment[]): string[][] {
-  return segments.map((seg) => [
-    seg.kind,
-    timeS(seg.startS),
-    timeS(seg.endS),
-    num(seg.frequencyHz, 5),
-    seg.ratePerS === null ? '—' : (seg.ratePerS > 0 ? '+' : '') + num(seg.ratePerS, 3),
-    interval(seg.rateCi95PerS, 3),
-    seg.model ?? '',
-  ]);
+  return segments.map((seg) => {
+    const { rate, ci } = displayedRate(seg);
+    const sign = seg.kind === 'steady' && rate !== null && /[1-9]/.test(rateText(rate)) && rate > 0 ? '+' : '';
+    return [
+      seg.kind,
+      timeS(seg.startS),
+      timeS(seg.endS),
+      num(seg.frequencyHz, 5),
+      rate === null ? '—' : sign + rateText(rate),
+      ci ? `[${rateText(ci[0])}, ${rateText(ci[1])}]` : '—',
+      seg.model ?? '',
+    ];
+  });
 }
 
 /** One tone of the report with the segments and onsets nearest to it in frequency. */
@@ -158,6 +190,9 @@ export function groupByTone(report: Report): ToneGroup[] {
   return groups;
 }
 
+/** What the rate columns mean (one convention for every table of the text output). */
+export const RATE_NOTE = '* growth and decay rates both positive: amplitude ∝ e^(+rate·t) growing, e^(−rate·t) decaying;\n  steady: the drift left (+ grows, − decays)\n';
+
 /** Rows of the segment table and warning lines shown before pointing to --json. */
 const MAX_SEGMENT_ROWS = 60;
 const MAX_WARNINGS = 8;
@@ -175,7 +210,8 @@ export function renderSummary(report: Report, input: InputFacts): string {
   const out: string[] = [];
   out.push(`${input.fileName}: ${input.description}, ${num(report.durationS, 4)} s analysed`);
   if (input.splOffsetDb !== undefined) {
-    out.push(`levels: dB SPL = dBFS + ${num(input.splOffsetDb, 4)} dB (pressure values in Pa)`);
+    const o = input.splOffsetDb;
+    out.push(`levels: dB SPL = dBFS ${o < 0 ? '−' : '+'} ${num(Math.abs(o), 4)} dB (pressure values in Pa, re 20 µPa)`);
   }
   out.push('');
   const groups = groupByTone(report);
@@ -195,12 +231,13 @@ export function renderSummary(report: Report, input: InputFacts): string {
     out.push(
       main.segments.length > 0
         ? renderTable(
-            ['state', 'start s', 'end s', 'frequency Hz', 'rate 1/s', '95 % interval 1/s', 'model'],
+            ['state', 'start s', 'end s', 'frequency Hz', 'rate 1/s *', '95 % interval 1/s', 'model'],
             segmentRows(shown),
             [false, true, true, true, true, false, false],
           )
         : 'none\n',
     );
+    if (main.segments.length > 0) out.push(RATE_NOTE);
   }
   if (groups.length > 1) {
     out.push('Other tones (first growth and decay of each; all segments in --json)');
@@ -215,9 +252,9 @@ export function renderSummary(report: Report, input: InputFacts): string {
             g.isSteadyLine ? 'steady line' : 'tone',
             String(g.onsets),
             String(g.segments.length),
-            grow ? num(grow.ratePerS, 3) : '—',
+            grow ? rateText(grow.ratePerS) : '—',
             interval(grow?.rateCi95PerS, 3),
-            dec && dec.ratePerS !== null ? num(-dec.ratePerS, 3) : '—',
+            dec && dec.ratePerS !== null ? rateText(-dec.ratePerS) : '—',
             dec?.rateCi95PerS ? interval([-dec.rateCi95PerS[1], -dec.rateCi95PerS[0]], 3) : '—',
           ];
         }),
@@ -235,17 +272,19 @@ export function renderSummary(report: Report, input: InputFacts): string {
       ),
     );
   }
+  out.push(...modeStatisticsLines(report));
   const figures = derivedFigures(report);
   out.push('Main tone');
   out.push(
     renderTable(
-      ['figure', 'value', 'unit', '95 % interval', ''],
+      ['figure', 'value', 'unit', '95 % interval', 'in dB/s'],
       figures.map((d) => [d.label, num(d.value, 4), d.value === null ? '' : d.unit || '(ratio)', interval(d.ci, 4), d.note ?? '']),
       [false, true, false, false, false],
     ),
   );
   if (report.summary.limitAmplitudeDbfs !== undefined && report.summary.limitAmplitudeDbfs !== null) {
-    const spl = input.splOffsetDb !== undefined ? ` (${num(report.summary.limitAmplitudeDbfs + input.splOffsetDb, 4)} dB SPL)` : '';
+    const lp = input.splOffsetDb !== undefined ? report.summary.limitAmplitudeDbfs + input.splOffsetDb : null;
+    const spl = lp !== null ? ` (${num(paFromSplDb(lp), 4)} Pa RMS, ${num(lp, 4)} dB SPL)` : '';
     out.push(`limit-cycle amplitude: ${num(report.summary.limitAmplitudeDbfs, 4)} dBFS${spl}`);
   }
   const clipped = report.clipped ?? [];

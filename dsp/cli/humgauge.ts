@@ -17,28 +17,31 @@ export const VERSION = '0.1.0';
 export const MAIN_HELP = `humgauge ${VERSION} - thermoacoustic hum analyser
 
 Usage
-  humgauge analyze FILE [options]   tones, onsets, growth/decay rates with 95 % intervals
-  humgauge modes [options]          duct mode frequencies, mode identification
-  humgauge simulate [options]       heated-tube simulator, writes a demo WAV
-  humgauge COMMAND --help           options of one command
+  humgauge analyze FILE... [options]  tones, onsets, growth/decay rates with 95 % intervals
+  humgauge modes [options]            duct mode frequencies, mode identification
+  humgauge simulate [options]         heated-tube simulator, writes a demo WAV
+  humgauge COMMAND --help             options of one command
   humgauge --version
 
 ${ANALYZE_HELP.replace(/^Usage: /, 'analyze: ')}
 Exit codes
   0  success
   1  internal error (please report it)
-  2  usage error (unknown command or option, no input file given, malformed option value)
+  2  usage error (unknown command or option, no input file given, malformed option value:
+     numbers are decimal, e.g. -40 or 2.5e-3, not 0x10 or 1,2)
   3  file cannot be read (missing, no permission, a directory)
   4  empty or truncated file
   5  broken RIFF/WAVE header, or neither WAV nor CSV
-  6  unsupported encoding (A-law, µ-law, ADPCM, other format tags, rate outside 8-192 kHz)
-  7  NaN or infinite samples
+  6  unsupported encoding (A-law, µ-law, ADPCM, other format tags, rate outside 0.5-192 kHz)
+  7  NaN or infinite samples (or values past the 32-bit float range), WAV or CSV
   8  too short (under 0.5 s)
   9  silent (all zeros, or peak below -90 dBFS; a constant CSV)
   10 unreadable CSV line (text in a number field, missing value, time not rising, irregular steps)
-  11 parameter does not fit the input (channel the file lacks, band above half the rate)
+  11 parameter outside its physical range, or not fitting the input (channel the file
+     lacks, band above half the rate)
   12 a computation did not converge (modes)
-  13 output could not be written (simulate --out)
+  13 output could not be written (simulate --out, analyze --summary/--json-dir)
+  14 several files: at least one failed (its row in the summary names the problem)
 `;
 
 /** Runs the command line with `args` (process.argv without node and script); returns the exit code. */

@@ -25,6 +25,7 @@ export const EXIT = {
   BAD_PARAMETER: 11,
   NO_CONVERGENCE: 12,
   WRITE_FAILED: 13,
+  BATCH_FAILED: 14,
 } as const;
 
 /** A failure to report as one line on stderr with a distinct exit code (never a stack trace). */

@@ -4,7 +4,8 @@
  * pressure values come out as Float32 blocks, so a file is read in bounded memory.
  *
  * Rules (stated so a user can fix the file):
- * - separator `,` `;` or tab; `.` as decimal point; UTF-8, an optional byte-order mark;
+ * - separator tab, `;` or `,` (the first of these found on the first content line); `.` as decimal
+ *   point (a decimal comma is detected and named in the error); UTF-8, an optional byte-order mark;
  *   blank lines and lines starting with `#` are skipped;
  * - a first line with a non-numeric field is the header; with two or more columns the time column
  *   is the one named `time…`/`t…` (else the first) and the value column the one named
@@ -22,9 +23,14 @@ export interface CsvDecodeOptions {
   /** Sample rate of a one-column file, Hz. Required when there is no time column; for a file with a time column, it overrides the timestamps' rate. */
   rateHz?: number | null;
   /** Output value = (value − offset) · scale, computed in double precision (e.g. to remove the
-   * static pressure and bring pascals near full scale before the Float32 conversion). Defaults 0 and 1. */
+   * static pressure and bring pascals near full scale before the Float32 conversion). Defaults 0 and 1.
+   * `scaleLog2` gives the scale as 2^scaleLog2 instead (csvScaling), computed without overflow for
+   * any finite values. */
   offset?: number;
   scale?: number;
+  scaleLog2?: number;
+  /** Produce samples (default true); false checks the file and sums it up only (a first pass). */
+  emitSamples?: boolean;
   /** Reject files shorter than MIN_DURATION_S and constant files at end(). Default true. */
   checkContent?: boolean;
 }
@@ -42,10 +48,40 @@ export interface CsvSummary {
   /** Largest step deviation from the running mean step, as a fraction of the mean step. */
   maxJitter: number;
   durationS: number;
-  /** Extremes and mean of the raw values (before offset and scale). */
+  /** Extremes and mean of the raw values (before offset and scale); the mean is a running mean, finite for any finite values. */
   minValue: number;
   maxValue: number;
   meanValue: number;
+  /** Resolution of the printed values (10^−decimals, the coarsest over all rows): their quantisation step. */
+  valueQuantum: number;
+}
+
+/**
+ * Offset and power-of-two scale that bring a file's values to at most half full scale around their
+ * mean (static pressure removed), computed without overflow or underflow for any finite values
+ * (±1e308, or 0 alternating with 5e-324). A power of two scales exactly.
+ */
+export function csvScaling(summary: Pick<CsvSummary, 'minValue' | 'maxValue' | 'meanValue'>): { offset: number; scaleLog2: number } {
+  const lo = summary.minValue;
+  const hi = summary.maxValue;
+  // The running mean may round a hair outside the range.
+  const m = Math.min(hi, Math.max(lo, summary.meanValue));
+  // log2 of the largest excursion from the mean: directly for everyday values (subnormals
+  // included), by halves past 1e307, where max − mean can exceed the largest double.
+  const isHuge = Math.max(Math.abs(lo), Math.abs(hi)) > 1e307;
+  const log2Excursion = isHuge ? Math.log2(Math.max(hi / 2 - m / 2, m / 2 - lo / 2)) + 1 : Math.log2(Math.max(hi - m, m - lo));
+  // excursion · 2^k then lies in [0.25, 0.5): a scale by a power of two is exact.
+  return { offset: m, scaleLog2: -Math.floor(log2Excursion) - 2 };
+}
+
+/** (v − offset) · 2^k for finite v and offset, without overflow (k from csvScaling). */
+function scaleByPowerOfTwo(v: number, offset: number, k: number): number {
+  if (k <= 0) {
+    const s = 2 ** Math.max(k, -1074);
+    return k < -1000 ? (v * 2 ** -1000 - offset * 2 ** -1000) * 2 ** (k + 1000) : v * s - offset * s;
+  }
+  const d = v - offset;
+  return k > 1000 ? d * 2 ** 1000 * 2 ** (k - 1000) : d * 2 ** k;
 }
 
 export interface CsvDecoder {
@@ -68,6 +104,8 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
   }
   const offset = options.offset ?? 0;
   const scale = options.scale ?? 1;
+  const scaleLog2 = options.scaleLog2 ?? null;
+  const emitSamples = options.emitSamples ?? true;
   const checkContent = options.checkContent ?? true;
 
   let lineBuf = new Uint8Array(256);
@@ -88,7 +126,8 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
   let maxJitter = 0;
   let minValue = Infinity;
   let maxValue = -Infinity;
-  let sumValue = 0;
+  let meanValue = 0;
+  let valueQuantum = 0;
   let pending: number[] = [];
 
   function fail(message: string): never {
@@ -124,9 +163,11 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
 
   function readRow(line: string): void {
     const fields = line.split(sep);
-    if (fields.length !== columns) fail(`expected ${columns} field${columns === 1 ? '' : 's'}, found ${fields.length}`);
+    if (fields.length !== columns) fail(`expected ${columns} field${columns === 1 ? '' : 's'}, found ${fields.length}${commaHint(line)}`);
     const vText = fields[valueCol].trim();
     const v = parseField(vText, valueName ?? 'value');
+    const vq = decimalQuantum(vText);
+    if (vq > valueQuantum) valueQuantum = vq;
     if (timeCol >= 0) {
       const tText = fields[timeCol].trim();
       const t = parseField(tText, timeName ?? 'time');
@@ -135,7 +176,7 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
       if (rows === 0) t0 = t;
       else {
         const step = t - tPrev;
-        if (!(step > 0)) fail(`time ${tText} s does not rise above the previous ${formatNum(tPrev)} s`);
+        if (!(step > 0)) fail(`time ${tText} s does not rise above the previous ${formatNum(tPrev)} s${commaHint(line)}`);
         if (rows >= 2) {
           const meanStep = (tPrev - t0) / (rows - 1);
           const dev = Math.abs(step - meanStep);
@@ -143,7 +184,7 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
           if (dev > CSV_JITTER_TOLERANCE * meanStep + stepQuantumS) {
             fail(
               `time step ${formatNum(step)} s differs from the mean step ${formatNum(meanStep)} s by ${(rel * 100).toFixed(1)} % ` +
-                `(more than ${CSV_JITTER_TOLERANCE * 100} % plus the ${formatNum(stepQuantumS)} s timestamp resolution): irregular sampling`,
+                `(more than ${CSV_JITTER_TOLERANCE * 100} % plus the ${formatNum(stepQuantumS)} s timestamp resolution): irregular sampling${commaHint(line)}`,
             );
           }
           if (rel > maxJitter) maxJitter = rel;
@@ -153,16 +194,28 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
     }
     if (v < minValue) minValue = v;
     if (v > maxValue) maxValue = v;
-    sumValue += v;
     rows++;
-    pending.push((v - offset) * scale);
+    // Running mean, each term at most |v|: a sum of values near 1e308 would overflow.
+    meanValue += v / rows - meanValue / rows;
+    if (emitSamples) {
+      const y = Math.fround(scaleLog2 !== null ? scaleByPowerOfTwo(v, offset, scaleLog2) : (v - offset) * scale);
+      if (!Number.isFinite(y)) {
+        throw new InputError('bad-samples', `line ${lineNo}: value ${formatNum(v)} is beyond the range of 32-bit samples after scaling`);
+      }
+      pending.push(y);
+    }
   }
 
   function parseField(text: string, what: string): number {
     if (text === '') fail(`missing ${what}`);
-    if (!isNumberText(text)) fail(`${what} "${text.length > 24 ? `${text.slice(0, 24)}…` : text}" is not a number`);
+    if (!isNumberText(text)) {
+      const hint = DECIMAL_COMMA_RE.test(text) ? DECIMAL_COMMA_HINT : '';
+      if (NON_FINITE_RE.test(text)) throw new InputError('bad-samples', `line ${lineNo}: ${what} is ${/nan/i.test(text) ? 'NaN' : 'infinite'}`);
+      fail(`${what} "${text.length > 24 ? `${text.slice(0, 24)}…` : text}" is not a number${hint}`);
+    }
     const x = Number(text);
-    if (!Number.isFinite(x)) fail(`${what} "${text}" is not a finite number`);
+    // A decimal number past the largest double (1e999) is read as infinite: refused like a WAV's ∞.
+    if (!Number.isFinite(x)) throw new InputError('bad-samples', `line ${lineNo}: ${what} ${text.length > 24 ? `${text.slice(0, 24)}…` : text} is beyond the largest finite number`);
     return x;
   }
 
@@ -178,7 +231,8 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
     if (trimmed === '' || trimmed.startsWith('#')) return;
     if (!sawContent) {
       sawContent = true;
-      sep = line.includes(',') ? ',' : line.includes(';') ? ';' : line.includes('\t') ? '\t' : ',';
+      // Tab or ';' first: files written with a decimal comma separate their fields with those.
+      sep = line.includes('\t') ? '\t' : line.includes(';') ? ';' : ',';
       if (readHeaderOrFirst(line.split(sep))) return;
     }
     readRow(line);
@@ -237,7 +291,8 @@ export function createCsvDecoder(options: CsvDecodeOptions = {}): CsvDecoder {
       durationS: rows / sampleRateHz,
       minValue,
       maxValue,
-      meanValue: sumValue / rows,
+      meanValue,
+      valueQuantum,
     };
     return { samples, summary };
   }
@@ -257,6 +312,16 @@ export function decodeCsv(bytes: Uint8Array, options: CsvDecodeOptions = {}): { 
 }
 
 const NUMBER_RE = /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/;
+/** Words some loggers print for non-finite values. */
+const NON_FINITE_RE = /^[+-]?(nan|inf|infinity|1\.#inf|1\.#ind|1\.#qnan)$/i;
+/** A number written with a decimal comma: "101325,12", "-0,5". */
+const DECIMAL_COMMA_RE = /^[+-]?\d+,\d+$/;
+const DECIMAL_COMMA_HINT = ' (it looks like a decimal comma: this reader wants "." as decimal point; export with "." or convert the file)';
+
+/** The decimal-comma hint for a line that reads as "digits,digits" (one value with a decimal comma split into two fields). */
+function commaHint(line: string): string {
+  return DECIMAL_COMMA_RE.test(line.trim()) ? DECIMAL_COMMA_HINT : '';
+}
 
 function isNumberText(s: string): boolean {
   return NUMBER_RE.test(s);

@@ -9,6 +9,7 @@
  * RF64 files (EBU Tech 3306) read as RIFF whose data chunk runs to the end of the file.
  */
 
+import { MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ } from '../condition';
 import { InputError, SILENCE_PEAK_FS, checkDuration } from './errors';
 
 /** Sample format of a WAV file, known once its fmt chunk has been read. */
@@ -80,8 +81,6 @@ const FORMAT_NAMES: Record<number, string> = {
 /** Bytes 2..15 of every WAVE_FORMAT_EXTENSIBLE subformat GUID built from a format tag (KSDATAFORMAT_SUBTYPE_*). */
 const GUID_TAIL = [0x00, 0x00, 0x00, 0x00, 0x10, 0x00, 0x80, 0x00, 0x00, 0xaa, 0x00, 0x38, 0x9b, 0x71];
 
-const MIN_RATE_HZ = 8000;
-const MAX_RATE_HZ = 192000;
 const MAX_FMT_BYTES = 1 << 16;
 const UNKNOWN_SIZE = 0xffffffff;
 
@@ -198,8 +197,8 @@ export function createWavDecoder(options: WavDecodeOptions = {}): WavDecoder {
       throw new InputError('unsupported-encoding', `unsupported encoding: ${name ? `${name}, ${tagText}` : tagText}; convert to PCM or float WAV`);
     }
     if (channelCount < 1) throw new InputError('bad-header', 'fmt chunk declares 0 channels');
-    if (sampleRateHz < MIN_RATE_HZ || sampleRateHz > MAX_RATE_HZ) {
-      throw new InputError('unsupported-encoding', `sample rate ${sampleRateHz} Hz is outside ${MIN_RATE_HZ / 1000}–${MAX_RATE_HZ / 1000} kHz`);
+    if (sampleRateHz < MIN_SAMPLE_RATE_HZ || sampleRateHz > MAX_SAMPLE_RATE_HZ) {
+      throw new InputError('unsupported-encoding', `sample rate ${sampleRateHz} Hz is outside the ${MIN_SAMPLE_RATE_HZ} Hz to ${MAX_SAMPLE_RATE_HZ / 1000} kHz the analysis reads`);
     }
     if (bitsPerSample < 1) throw new InputError('bad-header', 'fmt chunk declares 0 bits per sample');
     if (blockAlign === 0 || blockAlign % channelCount !== 0) {
@@ -273,17 +272,17 @@ export function createWavDecoder(options: WavDecodeOptions = {}): WavDecoder {
     for (let c = 0; c < channelsUsed; c++) {
       const p = off + f * fmt.blockAlign + (firstChannel + c) * fmt.containerBytes;
       const x = kind === Kind.F32 ? view.getFloat32(p, true) : view.getFloat64(p, true);
-      if (!Number.isFinite(x)) {
+      if (!Number.isFinite(Math.fround(x))) {
         channel = firstChannel + c;
         break;
       }
     }
     const p = off + f * fmt.blockAlign + channel * fmt.containerBytes;
     const x = kind === Kind.F32 ? view.getFloat32(p, true) : view.getFloat64(p, true);
-    throw new InputError(
-      'bad-samples',
-      `sample ${frame} (t = ${(frame / fmt.sampleRateHz).toFixed(4)} s, channel ${channel + 1}) is ${Number.isNaN(x) ? 'NaN' : 'infinite'}`,
-    );
+    const where = `sample ${frame} (t = ${(frame / fmt.sampleRateHz).toFixed(4)} s, channel ${channel + 1})`;
+    // Finite 64-bit values past the 32-bit range (3.4e38) cannot be held by the analysis.
+    const what = Number.isNaN(x) ? 'NaN' : Number.isFinite(x) ? `${x.toPrecision(3)}, beyond the range of 32-bit samples (full scale is ±1)` : 'infinite';
+    throw new InputError('bad-samples', `${where} is ${what}`);
   }
 
   const EMPTY = new Float32Array(0);
@@ -453,20 +452,26 @@ function decodeSums(kind: number, view: DataView, base: number, stride: number, 
         out[outOff + f] = sum;
       }
       return 2147483648;
-    case Kind.F32:
+    // Floats are averaged as they are summed (each channel / nc), so finite samples near the
+    // largest double do not overflow their sum; the caller's scale 1/(full·nc) is then 1.
+    case Kind.F32: {
+      const inv = 1 / nc;
       for (let f = 0; f < frames; f++) {
         let sum = 0;
-        for (let c = 0, p = base + f * stride; c < nc; c++, p += cb) sum += view.getFloat32(p, true);
+        for (let c = 0, p = base + f * stride; c < nc; c++, p += cb) sum += view.getFloat32(p, true) * inv;
         out[outOff + f] = sum;
       }
-      return 1;
-    default:
+      return inv;
+    }
+    default: {
+      const inv = 1 / nc;
       for (let f = 0; f < frames; f++) {
         let sum = 0;
-        for (let c = 0, p = base + f * stride; c < nc; c++, p += cb) sum += view.getFloat64(p, true);
+        for (let c = 0, p = base + f * stride; c < nc; c++, p += cb) sum += view.getFloat64(p, true) * inv;
         out[outOff + f] = sum;
       }
-      return 1;
+      return inv;
+    }
   }
 }
 

@@ -154,12 +154,17 @@ describe('help and usage', () => {
 
   it('unknown option', () => expectFailure(['analyze', path('cycle.wav'), '--fast'], EXIT.USAGE, /unknown option --fast/));
   it('no file', () => expectFailure(['analyze'], EXIT.USAGE, /no input file/));
-  it('two files', () => expectFailure(['analyze', 'a.wav', 'b.wav'], EXIT.USAGE, /one input file/));
+  it('two missing files: a batch of two error rows, exit 14 (some failed)', async () => {
+    const r = await run(['analyze', path('a.wav'), path('b.wav')]);
+    expect(r.code).toBe(EXIT.BATCH_FAILED);
+    expect(r.out.trimEnd().split('\n')).toHaveLength(3);
+    expect(r.out).toMatch(/a\.wav,error 3,.*no such file/);
+  });
   it('--json with --csv', () => expectFailure(['analyze', path('cycle.wav'), '--json', '--csv'], EXIT.USAGE, /cannot be combined/));
   it('--band without a range', () => expectFailure(['analyze', path('cycle.wav'), '--band', 'low'], EXIT.USAGE, /LOW-HIGH/));
   it('--band upside down', () => expectFailure(['analyze', path('cycle.wav'), '--band', '500-100'], EXIT.BAD_PARAMETER, /LOW must be/));
   it('--rate on a WAV', () => expectFailure(['analyze', path('cycle.wav'), '--rate', '8000'], EXIT.USAGE, /--rate applies to one-column CSV/, path('cycle.wav')));
-  it('--channel 0', () => expectFailure(['analyze', path('cycle.wav'), '--channel', '0'], EXIT.USAGE, /channel number from 1/));
+  it('--channel 0', () => expectFailure(['analyze', path('cycle.wav'), '--channel', '0'], EXIT.BAD_PARAMETER, /--channel 0 is outside its range \(1 to/));
   it('unknown command', () => expectFailure(['analyse-all'], EXIT.USAGE, /unknown command "analyse-all"/));
   it('no command', async () => {
     const r = await run([]);
@@ -169,7 +174,7 @@ describe('help and usage', () => {
 
 describe('bad input: one line on stderr, a distinct exit code', () => {
   it('missing file', () => expectFailure(['analyze', path('nope.wav')], EXIT.UNREADABLE, /no such file/, path('nope.wav')));
-  it('a directory', () => expectFailure(['analyze', path('a-folder')], EXIT.UNREADABLE, /directory/, path('a-folder')));
+  it('a folder without recordings', () => expectFailure(['analyze', path('a-folder')], EXIT.USAGE, /no \.wav or \.csv files/));
   it('empty file', () => expectFailure(['analyze', path('empty.wav')], EXIT.EMPTY_OR_TRUNCATED, /empty/, path('empty.wav')));
   it('truncated file', () => expectFailure(['analyze', path('truncated.wav')], EXIT.EMPTY_OR_TRUNCATED, /truncated/, path('truncated.wav')));
   it('broken RIFF header', () => expectFailure(['analyze', path('junk.wav')], EXIT.BAD_HEADER, /no RIFF header/, path('junk.wav')));

@@ -81,16 +81,16 @@ describe('humgauge simulate', () => {
     ]);
     expect(() => parseSteps('0:0,3')).toThrow(/time_s:power/);
     expect(() => parseSteps('2:0,1:1')).toThrow(/increase/);
-    expect(() => parseSteps('0:-1')).toThrow(/≥ 0/);
+    expect(() => parseSteps('0:-1')).toThrow(/--steps power -1 is outside its range \(0 to 100\)/);
   });
 
   it.each([
     [[], EXIT.USAGE, /--out is required/],
-    [['--out', 'x.wav', '--length', '0'], EXIT.BAD_PARAMETER, /--length must be a positive/],
+    [['--out', 'x.wav', '--length', '0'], EXIT.BAD_PARAMETER, /--length must lie from 0.001 to 500 m/],
     [['--out', 'x.wav', '--heater', '2'], EXIT.BAD_PARAMETER, /--heater must lie inside/],
     [['--out', 'x.wav', '--temp', '-274'], EXIT.BAD_PARAMETER, /absolute zero/],
     [['--out', 'x.wav', '--rate', '1000'], EXIT.BAD_PARAMETER, /--rate/],
-    [['--out', 'x.wav', '--steps', 'on'], EXIT.BAD_PARAMETER, /--steps/],
+    [['--out', 'x.wav', '--steps', 'on'], EXIT.USAGE, /--steps/],
     [['--out', 'x.wav', '--ends', 'closed-closed'], EXIT.USAGE, /--ends must be one of/],
     [['--out', 'x.wav', '--peak', '2'], EXIT.BAD_PARAMETER, /--peak must lie/],
     [['--out', '/nonexistent-dir/x.wav', '--duration', '0.1'], EXIT.WRITE_FAILED, /cannot write/],

@@ -67,7 +67,10 @@ describe('analysis rate', () => {
   });
 
   it('rejects rates and bands it cannot serve', () => {
-    expect(() => createConditionState({ sampleRateHz: 4000, ...band })).toThrow(RangeError);
+    // Pressure-sensor logs from 500 Hz are served (MIN_SAMPLE_RATE_HZ); below is refused.
+    expect(() => createConditionState({ sampleRateHz: 400, ...band })).toThrow(RangeError);
+    expect(createConditionState({ sampleRateHz: 500, ...band }).bandHighHz).toBe(200);
+    expect(() => createConditionState({ sampleRateHz: 48000, bandLowHz: 0.0001, bandHighHz: 0.0002 })).toThrow(/bandLowHz must be at least 5 Hz/);
     expect(() => createConditionState({ sampleRateHz: 48000, bandLowHz: 0, bandHighHz: 4000 })).toThrow(RangeError);
     expect(() => createConditionState({ sampleRateHz: 48000, bandLowHz: 500, bandHighHz: 400 })).toThrow(RangeError);
   });

@@ -273,8 +273,8 @@ describe('bad input, each with its own problem code', () => {
     expect(messageOf(() => decodeWav(wav))).toMatch(/GUID/);
   });
 
-  it('a sample rate outside 8–192 kHz is refused', () => {
-    expect(problemOf(() => decodeWav(riff([fmt(1, 1, 4000, 16), { id: 'data', body: tone16() }])))).toBe('unsupported-encoding');
+  it('a sample rate outside 0.5–192 kHz is refused (dsp/condition.ts MIN_SAMPLE_RATE_HZ)', () => {
+    expect(problemOf(() => decodeWav(riff([fmt(1, 1, 400, 16), { id: 'data', body: tone16() }])))).toBe('unsupported-encoding');
     expect(problemOf(() => decodeWav(riff([fmt(1, 1, 384000, 16), { id: 'data', body: tone16() }])))).toBe('unsupported-encoding');
   });
 

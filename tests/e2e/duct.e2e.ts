@@ -2,8 +2,9 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { APP_URL, launch, screenshot, type Launched } from './browser';
 
 // The duct screen in headless Chromium: the REFERENCES.md §2 worked example (L 1.20 m, inner
-// diameter 48 mm, open–open, unflanged ends, 20 °C → 139.5889 Hz, Levine & Schwinger 1948 end
-// correction), the two-zone example of §3 (196.9157 Hz), bad input, and the stored geometry.
+// diameter 48 mm, open–open, unflanged ends, 20 °C, Levine & Schwinger 1948 end correction) with
+// air's γ(T) (§70: 139.5958 Hz; 139.5889 Hz with γ = 1.4), the two-zone example of §3 with γ per zone
+// (§70: 196.2504 Hz), the candidates of a measured tone (§71), bad and absurd input, the stored geometry.
 describe('duct screen', () => {
   let b: Launched;
   beforeAll(async () => {
@@ -28,7 +29,7 @@ describe('duct screen', () => {
     await b.page.fill(`#${id}`, value);
   }
 
-  it('shows the 139.59 Hz fundamental of the worked example, the sketch and a measured-tone match', async () => {
+  it('shows the 139.60 Hz fundamental of the worked example, the sketch and a measured-tone match', async () => {
     const { page } = b;
     await page.goto(`${APP_URL}#duct`);
     await page.waitForSelector('#duct-length');
@@ -39,13 +40,13 @@ describe('duct screen', () => {
     await page.selectOption('#duct-open-end', 'unflanged');
     await fill('duct-temp', '20');
     const firstRow = page.locator('table.duct-modes tbody tr').first();
-    await expect.poll(async () => firstRow.textContent()).toContain('139.59 Hz');
+    await expect.poll(async () => firstRow.textContent()).toContain('139.60 Hz');
     const second = await page.locator('table.duct-modes tbody tr').nth(1).textContent();
-    expect(second).toContain('279.18 Hz');
+    expect(second).toContain('279.19 Hz');
     expect(await page.locator('.duct-svg path.duct-p').count()).toBe(1);
-    // A 150 °C column hums at 167.7078 Hz (REFERENCES.md §2): typing that tone must give mode 1 and ~150 °C.
+    // A 150 °C column hums at 167.7078 Hz with γ = 1.4 (REFERENCES.md §2); with air's γ(T) that tone means 152.1 °C (§70).
     await fill('duct-measured', '167.71');
-    await expect.poll(async () => page.locator('.duct-match-temp').textContent()).toMatch(/150 °C \(95 % CI \d+–\d+\)/);
+    await expect.poll(async () => page.locator('.duct-match-temp').textContent()).toMatch(/152 °C \(95 % CI \d+–\d+\)/);
     expect(await page.locator('.duct-match-mode').textContent()).toContain('mode 1');
     const body = (await page.locator('.screen-duct').textContent()) ?? '';
     expect(body).not.toMatch(/NaN|undefined|Infinity/);
@@ -61,7 +62,7 @@ describe('duct screen', () => {
     await fill('duct-heater', '0.25');
     await fill('duct-hot-temp', '200');
     await fill('duct-measured', '');
-    await expect.poll(async () => page.locator('table.duct-modes tbody tr').first().textContent()).toContain('196.92 Hz');
+    await expect.poll(async () => page.locator('table.duct-modes tbody tr').first().textContent()).toContain('196.25 Hz');
     expect(await page.locator('table.duct-modes tbody tr').first().textContent()).toContain('drives');
     expect(await page.locator('.duct-rayleigh').textContent()).toMatch(/drives/);
     await screenshot(page, 'duct-heater');
@@ -89,7 +90,44 @@ describe('duct screen', () => {
     await page.goto(`${APP_URL}#duct/171.2`);
     await expect.poll(async () => page.inputValue('#duct-length')).toBe('1');
     await expect.poll(async () => page.inputValue('#duct-measured')).toBe('171.2');
-    await expect.poll(async () => page.locator('table.duct-modes tbody tr').first().textContent()).toContain('196.92 Hz');
+    await expect.poll(async () => page.locator('table.duct-modes tbody tr').first().textContent()).toContain('196.25 Hz');
+  });
+
+  it('lists every mode a tone can be: 245 Hz in a 1 m tube is mode 1 at 375 °C, not mode 2 at −115 °C (REFERENCES.md §71)', async () => {
+    const { page } = b;
+    await page.uncheck('#duct-has-heater');
+    await fill('duct-length', '1');
+    await fill('duct-diameter', '50');
+    await page.selectOption('#duct-open-end', 'unflanged');
+    await fill('duct-temp', '20');
+    await fill('duct-measured', '245');
+    await expect.poll(async () => page.locator('.duct-match-mode').textContent()).toMatch(/245\.0 Hz is mode 1 /);
+    expect(await page.locator('.duct-match-temp').textContent()).toMatch(/Mean gas temperature for an exact match: 375 °C \(95 % CI 36\d–3[89]\d\)/);
+    const rows = page.locator('table.duct-candidates tbody tr');
+    expect(await rows.count()).toBe(2);
+    expect(await rows.nth(0).textContent()).toMatch(/^1375 °C.*yes \(best\)$/);
+    expect(await rows.nth(1).textContent()).toMatch(/^2−115 °C.*no: implausible temperature$/);
+    await screenshot(page, 'duct-candidates');
+  });
+
+  it('absurd values (1e308 hot zone, a diameter of 1e-300 mm) get a message at once; no Infinity, the page stays live', async () => {
+    const { page } = b;
+    await page.check('#duct-has-heater');
+    await fill('duct-heater', '0.25');
+    await fill('duct-hot-temp', '1e308');
+    await expect.poll(async () => page.locator('#duct-hot-temp-error').textContent()).toMatch(/Must lie from −?-?190 to 3000 °C/);
+    expect(await page.locator('table.duct-modes tbody tr').count()).toBe(0);
+    await fill('duct-hot-temp', '200');
+    await fill('duct-diameter', '1e-300');
+    await expect.poll(async () => page.locator('#duct-diameter-error').textContent()).toMatch(/Must lie from 1 to 20000 mm/);
+    await fill('duct-diameter', '50');
+    await fill('duct-measured', '1e308');
+    await expect.poll(async () => page.locator('#duct-measured-error').textContent()).toMatch(/Must lie from/);
+    await fill('duct-measured', '');
+    // The page still answers: the modes come back at once.
+    await expect.poll(async () => page.locator('table.duct-modes tbody tr').count()).toBeGreaterThan(0);
+    const body = (await page.locator('.screen-duct').textContent()) ?? '';
+    expect(body).not.toMatch(/NaN|undefined|Infinity/);
   });
 
   it('takes the main tone of a stored session', async () => {

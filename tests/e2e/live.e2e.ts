@@ -35,10 +35,13 @@ describe('live listening with a hum cycle as the microphone', () => {
   it('shows the tone, growth and decay of the truth, with intervals, and a marker in the track', async () => {
     const { page } = b;
     await screenshot(page, 'listen-idle');
-    // The duct screen keeps the geometry here; the session takes it along (REFERENCES.md §2 example duct).
+    // The duct screen keeps the geometry here; the session takes it along when the user ticks it (REFERENCES.md §2 example duct).
     await page.evaluate(() =>
       localStorage.setItem('humgauge.ductGeometry', JSON.stringify({ lengthM: 1.2, diameterM: 0.048, ends: 'open-open', openEnd: 'unflanged', gasTemperatureC: 20 })),
     );
+    await page.reload();
+    await page.waitForSelector('#listen-button');
+    await page.check('#session-attach-duct');
     await page.click('#listen-button');
     await expect.poll(() => page.locator('#listen-button').textContent(), { timeout: 15_000 }).toBe('Stop');
 
@@ -54,7 +57,7 @@ describe('live listening with a hum cycle as the microphone', () => {
 
     // A "setting changed" marker with a control value while the tone is steady.
     await page.fill('#mark-value', '60');
-    await page.selectOption('#mark-unit', '%');
+    await page.fill('#mark-unit', '%');
     await page.click('#mark-setting');
     await expect.poll(() => page.locator('#marker-list li').count()).toBe(1);
     expect(await page.locator('#marker-list li').first().textContent()).toContain('setting 60 %');

@@ -115,21 +115,21 @@ describe('sessions screen', () => {
     // Export: bundle captured as a download, and it reads back to the same session.
     const [download] = await Promise.all([page.waitForEvent('download'), page.click('#export-bundle')]);
     expect(download.suggestedFilename()).toMatch(/^humgauge-2026-11-20-boiler-room-3-before-f\.zip$/);
-    const got = readBundle(new Uint8Array(readFileSync((await download.path()) as string)));
+    const got = await readBundle(new Uint8Array(readFileSync((await download.path()) as string)));
     expect(got.map((s) => s.record.id)).toEqual(['before-fix-0001']);
     expect(got[0].track).toEqual(before.track);
     const [csv] = await Promise.all([page.waitForEvent('download'), page.click('#export-csv')]);
     expect(csv.suggestedFilename()).toMatch(/-track\.csv$/);
     expect(readFileSync((await csv.path()) as string, 'utf8').split('\r\n')[0]).toMatch(/^time_s,frequency_hz,amplitude_dbfs/);
 
-    // Edit notes; markup is refused with a message, plain text saved.
-    await page.fill('#edit-notes', 'Baffle <script>alert(1)</script>');
+    // Edit notes: markup-like text is data, saved as typed and never run (the import takes it back too).
+    await page.fill('#edit-notes', 'Baffle <script>window.__ran = 1</script>');
     await page.click('.session-edit button[type=submit]');
-    await expect.poll(() => page.locator('.session-edit .field-error').textContent()).toMatch(/may not contain HTML-like tags/);
+    await expect.poll(() => page.locator('.session-edit .hint').textContent()).toMatch(/Saved/);
+    expect(await page.evaluate(() => (window as unknown as { __ran?: number }).__ran)).toBeUndefined();
     await page.fill('#edit-site', 'Boiler room 3 (east)');
-    await page.fill('#edit-notes', 'Before the baffle; flow < 2 m/s.');
     await page.click('.session-edit button[type=submit]');
-    await expect.poll(() => page.locator('.screen-sessions h2').first().textContent()).toMatch(/Boiler room 3 \(east\)/);
+    await expect.poll(() => page.locator('#session-title').textContent()).toMatch(/^Boiler room 3 \(east\) – /);
 
     // Control values of markers: a bad entry is refused, a good one kept.
     await page.fill('#marker-value-0', 'lots');
@@ -176,17 +176,42 @@ describe('sessions screen', () => {
     await screenshot(page, 'sessions-stability-map');
     await page.locator('.scatter-chart').first().screenshot({ path: join(SCREEN_DIR, 'sessions-map-rate-chart.png') });
 
-    // A hostile bundle: refused with a message, nothing changed.
+    // Markup-like text in a bundle is data: imported, and shown as text (no element is made of it).
     const hostile = sampleSession({ id: 'hostile-0003' });
     hostile.record.meta.notes = '<img src=x onerror=alert(1)>';
+    hostile.record.meta.site = '"><b id=injected>bold</b>';
     const hostilePath = join(TMP, 'hostile.zip');
     writeFileSync(hostilePath, buildBundle([hostile]));
     await page.goto(`${APP_URL}#sessions`);
     await page.waitForSelector('#import-file', { state: 'attached' });
     await page.setInputFiles('#import-file', hostilePath);
-    await expect.poll(() => page.locator('#status').textContent()).toMatch(/was not imported; nothing was changed.*notes holds HTML or script markup/);
-    expect(await page.locator('.session-item').count()).toBe(3);
-    expect(await countStore(page, 'sessions')).toBe(3);
+    await expect.poll(() => page.locator('#status').textContent()).toMatch(/imported 1 session/);
+    expect(await page.locator('.session-item[data-id="hostile-0003"]').textContent()).toContain('"><b id=injected>bold</b>');
+    await page.click('.session-item[data-id="hostile-0003"] .session-link');
+    await expect.poll(() => page.locator('.screen-sessions h2').first().textContent()).toContain('"><b id=injected>bold</b>');
+    expect(await page.inputValue('#edit-notes')).toBe('<img src=x onerror=alert(1)>');
+    expect(await page.evaluate(() => document.querySelectorAll('img[src="x"], #injected').length)).toBe(0);
+
+    // A zip bomb (session.json declaring 1 GB in a small file): refused before inflating, with a
+    // message naming the limit; nothing changed.
+    const bomb = buildBundle([sampleSession({ id: 'bomb-0004' })]).slice();
+    const dv = new DataView(bomb.buffer);
+    for (let p = 0; p + 46 < bomb.length; p++) {
+      const sig = dv.getUint32(p, true);
+      // APPNOTE 4.3.7 / 4.3.12: uncompressed size at offset 22 of a local header, 24 of a central record.
+      const nameAt = sig === 0x04034b50 ? p + 30 : sig === 0x02014b50 ? p + 46 : -1;
+      if (nameAt < 0) continue;
+      const nameLen = dv.getUint16(p + (sig === 0x04034b50 ? 26 : 28), true);
+      if (Buffer.from(bomb.subarray(nameAt, nameAt + nameLen)).toString().endsWith('session.json')) dv.setUint32(p + (sig === 0x04034b50 ? 22 : 24), 1e9, true);
+    }
+    const bombPath = join(TMP, 'bomb.zip');
+    writeFileSync(bombPath, bomb);
+    await page.goto(`${APP_URL}#sessions`);
+    await page.waitForSelector('#import-file', { state: 'attached' });
+    await page.setInputFiles('#import-file', bombPath);
+    await expect.poll(() => page.locator('#status').textContent()).toMatch(/bomb\.zip was not imported; nothing was changed\..*session\.json would expand to 1\.0 GB, more than the 106\.8 MB the JSON of a session can need/);
+    expect(await page.locator('.session-item').count()).toBe(4);
+    expect(await countStore(page, 'sessions')).toBe(4);
   });
 });
 

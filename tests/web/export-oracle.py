@@ -59,8 +59,8 @@ for item in manifest["sessions"]:
         riff, size, wave, fmt, fmtlen, tag, ch, rate, byterate, align, bits = struct.unpack("<4sI4s4sIHHIIHH", w[:36])
         data_size = struct.unpack("<I", w[40:44])[0]
         res["wav"] = {"riff": riff.decode(), "wave": wave.decode(), "formatTag": tag, "channels": ch, "rateHz": rate, "bits": bits,
-                      "samples": data_size // 4, "riffSizeOk": size == len(w) - 8,
-                      "first": list(struct.unpack("<4f", w[44:60]))}
+                      "samples": data_size // (bits // 8), "riffSizeOk": size == len(w) - 8,
+                      "first": list(struct.unpack("<4f", w[44:60])) if tag == 3 else [x / 32768 for x in struct.unpack("<4h", w[44:52])]}
     p = Tags()
     p.feed(z.read(folder + "/report.html").decode("utf-8"))
     res["htmlTags"] = sorted(p.tags)

@@ -10,7 +10,7 @@ import {
   toDbSpl,
   type KeyValueStore,
 } from '../../web/settings';
-import { createLiveBuffer, appendFrames, fitLineOf, rowCount, rowIndex } from '../../web/views/live-buffer';
+import { createLiveBuffer, appendFrames, fitLineOf, rowCount, rowIndex } from '../../web/run/live-buffer';
 import { parseControlValue } from '../../web/views/live-markers';
 import type { TrackFrame } from '../../dsp/types';
 

@@ -276,7 +276,7 @@ describe('storage full (QuotaExceededError)', () => {
     expect(full?.track).toHaveLength(200);
     // The audio stored before the disk filled is intact, sample for sample.
     expect(full?.audio).toEqual(first);
-    expect(full?.record.audio).toMatchObject({ isKept: false, stoppedReason: 'storage full', sampleCount: 4000 });
+    expect(full?.record.audio).toMatchObject({ isKept: false, stoppedReason: 'storage full or failing', sampleCount: 4000 });
     expect(full?.record.status).toBe('complete');
     db.close();
   });

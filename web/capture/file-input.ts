@@ -17,6 +17,18 @@ export interface DecodedFile {
   decodedBy: string;
   /** Notes for the user (e.g. scaling of a CSV). */
   notes: string[];
+  /** True for pressure-sensor data (a CSV), not a microphone's sound. */
+  isSensor?: boolean;
+  /** For sensor data in pascals: pascals per full scale of the samples handed on. */
+  pascalsPerFullScale?: number;
+}
+
+/** What the user may tell about a file before it is read. */
+export interface FileOptions {
+  /** Sample rate of a one-column CSV (no time column), Hz; overrides the time column's rate otherwise. */
+  csvRateHz?: number;
+  /** Unit of the CSV values: pascals (the default, as the command line takes them) or another unit. */
+  csvUnit?: 'Pa' | 'other';
 }
 
 /** Sample rate used when the browser decodes a compressed file (it resamples to this), Hz. */
@@ -55,7 +67,7 @@ function isCsvName(name: string): boolean {
  * Reads and decodes `file`. Throws FileProblem with a message that names the file and the problem.
  * The browser decoder needs an audio context; a short-lived OfflineAudioContext is used.
  */
-export async function decodeAudioFile(file: File): Promise<DecodedFile> {
+export async function decodeAudioFile(file: File, options: FileOptions = {}): Promise<DecodedFile> {
   const name = file.name || 'the file';
   if (file.size === 0) throw new FileProblem(`“${name}” is empty (0 bytes): there is nothing to analyse.`);
   let bytes: Uint8Array;
@@ -77,37 +89,63 @@ export async function decodeAudioFile(file: File): Promise<DecodedFile> {
         notes: summary.warnings,
       };
     } catch (err) {
-      // An encoding our reader does not handle may still be one the browser decodes.
+      // An encoding our reader does not handle may still be one the browser decodes; either way
+      // the user is told which encoding it is, in the reader's words (as the command line says it).
       if (!(err instanceof InputError && err.problem === 'unsupported-encoding')) {
         throw new FileProblem(`“${name}” is a WAV file the analysis cannot use: ${err instanceof Error ? err.message : String(err)}.`);
       }
+      return decodeWithBrowser(name, bytes, err.message);
     }
   } else if (isCsvName(name)) {
     try {
-      const { samples, summary } = decodeCsv(bytes);
+      const { samples, summary } = decodeCsv(bytes, options.csvRateHz ? { rateHz: options.csvRateHz } : {});
       // Sensor values arrive in their own unit (e.g. Pa): scale so the peak sits at half full scale.
       // Rates, frequencies and regimes are unchanged by a constant factor; levels read in dB re peak.
       const peak = Math.max(Math.abs(summary.minValue), Math.abs(summary.maxValue));
       const gain = peak > 0 ? 0.5 / peak : 1;
       for (let i = 0; i < samples.length; i++) samples[i] *= gain;
+      const isPascal = options.csvUnit !== 'other';
+      const rateNote = options.csvRateHz
+        ? [`Sample rate ${options.csvRateHz} Hz as typed${summary.timeRateHz !== null ? ` (the time column says ${summary.timeRateHz.toPrecision(6)} Hz)` : ''}.`]
+        : [];
       return {
+        isSensor: true,
+        ...(isPascal && peak > 0 ? { pascalsPerFullScale: peak / 0.5 } : {}),
         fileName: name,
         sampleRateHz: summary.sampleRateHz,
         channels: [samples],
         durationS: summary.durationS,
         decodedBy: `CSV, ${summary.rows} rows${summary.valueColumnName ? ` of “${summary.valueColumnName}”` : ''}`,
-        notes: [`Values were scaled so the largest (${peak.toPrecision(4)}) reads −6 dBFS; levels in dBFS are relative to that.`],
+        notes: [
+          ...rateNote,
+          isPascal
+            ? `Values read as pressure in Pa (largest ${peak.toPrecision(4)} Pa): amplitudes are shown in Pa and dB SPL.`
+            : `Values were scaled so the largest (${peak.toPrecision(4)}) reads −6 dBFS; levels in dBFS are relative to that. (Values were marked as another unit than Pa.)`,
+        ],
       };
     } catch (err) {
-      throw new FileProblem(`“${name}” could not be read as a pressure table (CSV): ${err instanceof Error ? err.message : String(err)}.`);
+      const why = err instanceof Error ? err.message : String(err);
+      const hint = /rate/i.test(why) && !options.csvRateHz ? ' For a one-column file, type its sample rate in “Sample rate of a one-column CSV” first.' : '';
+      throw new FileProblem(`“${name}” could not be read as a pressure table (CSV): ${why}.${hint}`);
     }
   }
 
   return decodeWithBrowser(name, bytes);
 }
 
-async function decodeWithBrowser(name: string, bytes: Uint8Array): Promise<DecodedFile> {
+/**
+ * Decodes with the browser's decoder. `wavProblem` is the WAV reader's description of an encoding
+ * it does not read (the file is a WAV), so every message and note names that encoding.
+ */
+async function decodeWithBrowser(name: string, bytes: Uint8Array, wavProblem?: string): Promise<DecodedFile> {
+  const refuse = (why: string): FileProblem =>
+    new FileProblem(
+      wavProblem
+        ? `“${name}” is a WAV file in an encoding the analysis does not read (${wavProblem}), and ${why}.`
+        : `“${name}” could not be decoded: ${why}. Open a WAV file (PCM or float), a CSV pressure table, or a common audio format such as MP3, M4A/AAC, Ogg/Opus or FLAC.`,
+    );
   if (typeof OfflineAudioContext === 'undefined') {
+    if (wavProblem) throw refuse('this browser has no audio decoder to try instead');
     throw new FileProblem(`“${name}” is not a WAV or CSV file, and this browser has no audio decoder to open it.`);
   }
   const context = new OfflineAudioContext({ numberOfChannels: 1, length: 1, sampleRate: BROWSER_DECODE_RATE_HZ });
@@ -116,19 +154,24 @@ async function decodeWithBrowser(name: string, bytes: Uint8Array): Promise<Decod
     buffer = await context.decodeAudioData(bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength) as ArrayBuffer);
   } catch (err) {
     const why = err instanceof DOMException && err.name === 'EncodingError' ? 'its format is not one the browser recognises as audio' : err instanceof Error ? err.message : String(err);
-    throw new FileProblem(
-      `“${name}” could not be decoded: ${why}. Open a WAV file (PCM or float), a CSV pressure table, or a common audio format such as MP3, M4A/AAC, Ogg/Opus or FLAC.`,
-    );
+    throw refuse(wavProblem ? `the browser could not decode it either (${why})` : why);
   }
-  if (buffer.length === 0 || buffer.numberOfChannels === 0) throw new FileProblem(`“${name}” decoded to no audio samples.`);
+  if (buffer.length === 0 || buffer.numberOfChannels === 0) throw refuse('the browser decoded it to no audio samples');
   const channels: Float32Array[] = [];
-  for (let c = 0; c < buffer.numberOfChannels; c++) channels.push(buffer.getChannelData(c).slice());
+  for (let c = 0; c < buffer.numberOfChannels; c++) {
+    const samples = buffer.getChannelData(c).slice();
+    // A decoder that misreads a file can hand back anything: refuse what the analysis cannot take.
+    for (let i = 0; i < samples.length; i++) {
+      if (!Number.isFinite(samples[i])) throw refuse(`the browser decoded it to a non-finite sample (channel ${c + 1}, sample ${i + 1})`);
+    }
+    channels.push(samples);
+  }
   return {
     fileName: name,
     sampleRateHz: buffer.sampleRate,
     channels,
     durationS: buffer.duration,
     decodedBy: `decoded by the browser (resampled to ${buffer.sampleRate} Hz)`,
-    notes: [],
+    notes: wavProblem ? [`The analysis's own WAV reader does not read this file (${wavProblem}); the browser decoded it instead.`] : [],
   };
 }

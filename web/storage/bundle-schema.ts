@@ -15,6 +15,15 @@ export const SESSION_FORMAT = 'humgauge-session';
 /** Layout version of session.json and manifest.json (follows the database schema). */
 export const BUNDLE_SCHEMA_VERSION = DB_VERSION;
 
+/**
+ * Largest session.json, bytes (REFERENCES.md §81; export refuses to write more): the track of two hours (twice the hour-long
+ * recording the bench uses) at 100 frames/s (99 measured at 48 kHz), each frame at most 125 bytes
+ * of JSON (four numbers of at most 24 characters in ECMAScript's shortest form, a state and two
+ * booleans, with separators; 98 measured on a noisy recording), plus 16 MiB for notes, markers and
+ * the report: about 107 MB. An hour of track is about 35 MB.
+ */
+export const SESSION_JSON_MAX_BYTES = 2 * 3600 * 100 * 125 + 16 * 1024 * 1024;
+
 const NON_FINITE = ['NaN', 'Infinity', '-Infinity'] as const;
 
 /** JSON encoding of a measured value: non-finite numbers become tokens. */
@@ -32,63 +41,75 @@ function decodeNumber(x: number | (typeof NON_FINITE)[number]): number {
 const finite = (min: number, max: number, what: string) =>
   v.pipe(v.number(`${what} must be a number`), v.minValue(min, `${what} must be at least ${min}`), v.maxValue(max, `${what} must be at most ${max}`));
 
-/** A measured value: a number in [min, max], or a non-finite token. */
-const real = (min: number, max: number, what: string) =>
-  v.pipe(v.union([finite(min, max, what), v.picklist(NON_FINITE, `${what} must be a number`)], `${what} must be a number`), v.transform(decodeNumber));
+/** Any finite number (an input the app takes as typed, or a figure it computed). */
+const anyFinite = (what: string) => v.pipe(v.number(`${what} must be a number`), v.finite(`${what} must be a finite number`));
 
 /**
- * Markup: "<" directly followed by a letter, "!", "/" or "?" opens a tag, comment or declaration
- * in an HTML parser (WHATWG HTML Living Standard, tokenization, "tag open state"); plus script
- * URLs. "<" before a space or a digit ("flow < 2 m/s", "<5 %") is plain text and allowed.
+ * A measured value: any number, or a non-finite token. The analysis may give any figure (a Q of
+ * millions on a long quiet record, an interval with an infinite end), so none is refused.
  */
-const MARKUP = /<[a-z!?/]|javascript:/i;
-/** Control characters other than tab, line feed and carriage return. */
-// eslint-disable-next-line no-control-regex
-const CONTROL = /[\u0000-\u0008\u000b\u000c\u000e-\u001f\u007f]/;
+const measured = (what: string) =>
+  v.pipe(v.union([v.number(`${what} must be a number`), v.picklist(NON_FINITE, `${what} must be a number`)], `${what} must be a number`), v.transform(decodeNumber));
 
-/** True when text holds tag-like markup or a script URL (refused in every text field of a session). */
-export function hasMarkup(text: string): boolean {
-  return MARKUP.test(text);
-}
+/**
+ * Longest text accepted in each text field, characters: the same limits bind the app's entry
+ * fields (maxlength) and the import, so whatever the app stores it also imports. Any characters
+ * are accepted: text is data, and every place that shows it escapes it (DOM text nodes; the HTML
+ * report escapes &, <, >, " and ').
+ */
+export const TEXT_LIMITS = {
+  site: 200,
+  equipment: 200,
+  notes: 20_000,
+  /** Longer than any file system's name limit (255 bytes on ext4, NTFS, APFS). */
+  fileName: 1000,
+  markerKind: 50,
+  markerLabel: 500,
+  markerUnit: 30,
+  calibrationSource: 300,
+  captureSetting: 200,
+  segmentModel: 200,
+  reportWarning: 10_000,
+  historyEntry: 1000,
+  audioNote: 200,
+} as const;
 
-const text = (maxLength: number, what: string) =>
-  v.pipe(
-    v.string(`${what} must be text`),
-    v.maxLength(maxLength, `${what} is longer than ${maxLength} characters`),
-    v.check((s) => !MARKUP.test(s), `${what} holds HTML or script markup, which a session may not carry`),
-    v.check((s) => !CONTROL.test(s), `${what} holds control characters`),
-  );
+const text = (maxLength: number, what: string) => v.pipe(v.string(`${what} must be text`), v.maxLength(maxLength, `${what} is longer than ${maxLength} characters`));
 
-const interval = (what: string) => v.nullable(v.strictTuple([real(-1e6, 1e6, what), real(-1e6, 1e6, what)], `${what} must be a pair [low, high]`));
-const rate = (what: string) => real(-1e6, 1e6, what);
-const TIME = (what: string) => finite(0, 1e7, what);
-const FREQ = (what: string) => real(0, 1e6, what);
-const DB = (what: string) => real(-1000, 1000, what);
+const interval = (what: string) => v.nullable(v.strictTuple([measured(what), measured(what)], `${what} must be a pair [low, high]`));
+const rate = (what: string) => measured(what);
+/** Times of markers, gaps and the session: finite and not before the start. */
+const TIME = (what: string) => v.pipe(anyFinite(what), v.minValue(0, `${what} must be at least 0`));
+const FREQ = (what: string) => measured(what);
+const DB = (what: string) => measured(what);
+/** Sample rates a session may have, Hz: pressure sensors log from a few hundred Hz, audio up to 768 kHz. */
+const MIN_RATE_HZ = 100;
+const MAX_RATE_HZ = 768_000;
 const REGIME = v.picklist(['quiet', 'growth', 'steady', 'decay'], 'state must be quiet, growth, steady or decay');
 
 export const MarkerSchema = v.strictObject({
   timeS: TIME('marker time'),
-  kind: text(50, 'marker kind'),
-  label: text(500, 'marker label'),
-  value: v.optional(finite(-1e9, 1e9, 'marker control value')),
-  unit: v.optional(text(30, 'marker unit')),
+  kind: text(TEXT_LIMITS.markerKind, 'marker kind'),
+  label: text(TEXT_LIMITS.markerLabel, 'marker label'),
+  value: v.optional(anyFinite('marker control value')),
+  unit: v.optional(text(TEXT_LIMITS.markerUnit, 'marker unit')),
 });
 
 const SegmentSchema = v.strictObject({
   kind: REGIME,
-  startS: TIME('segment start'),
-  endS: TIME('segment end'),
+  startS: measured('segment start'),
+  endS: measured('segment end'),
   frequencyHz: FREQ('segment frequency'),
   ratePerS: v.nullable(rate('segment rate')),
   rateCi95PerS: interval('segment rate interval'),
-  model: v.optional(v.nullable(text(40, 'segment model'))),
+  model: v.optional(v.nullable(text(TEXT_LIMITS.segmentModel, 'segment model'))),
   limitAmplitudeDbfs: v.optional(v.nullable(DB('limit amplitude'))),
   isImpulseResponse: v.optional(v.boolean()),
 });
 
 const NoiseDrivenSchema = v.strictObject({
-  startS: TIME('noise-driven start'),
-  endS: TIME('noise-driven end'),
+  startS: measured('noise-driven start'),
+  endS: measured('noise-driven end'),
   frequencyHz: FREQ('noise-driven frequency'),
   decayRatePerS: rate('noise-driven decay rate'),
   decayRateCi95PerS: v.strictTuple([rate('decay interval'), rate('decay interval')]),
@@ -96,6 +117,20 @@ const NoiseDrivenSchema = v.strictObject({
   lorentzianCi95PerS: v.optional(v.strictTuple([rate('Lorentzian interval'), rate('Lorentzian interval')])),
   autocorrelationDecayRatePerS: v.optional(rate('autocorrelation decay rate')),
   autocorrelationCi95PerS: v.optional(v.strictTuple([rate('autocorrelation interval'), rate('autocorrelation interval')])),
+});
+
+/** report.modeStatistics (dsp/types.ts ModeStatistics): the growth rate from the noise per stretch. */
+const ModeStatisticsSchema = v.strictObject({
+  frequencyHz: FREQ('mode-statistics frequency'),
+  startS: measured('mode-statistics start'),
+  endS: measured('mode-statistics end'),
+  linearGrowthRatePerS: v.nullable(rate('linear growth rate from noise')),
+  linearGrowthRateCi95PerS: interval('linear growth rate interval'),
+  saturation: v.nullable(measured('saturation')),
+  noiseIntensity: v.nullable(measured('noise intensity')),
+  regime: v.picklist(['stable', 'near-threshold', 'humming', 'undetermined'], 'regime must be stable, near-threshold, humming or undetermined'),
+  method: text(TEXT_LIMITS.segmentModel, 'mode-statistics method'),
+  reason: v.optional(text(TEXT_LIMITS.reportWarning, 'mode-statistics reason')),
 });
 
 const optNum = (what: string) => v.optional(v.nullable(rate(what)));
@@ -140,11 +175,12 @@ const CycleSchema = v.strictObject({
 
 export const ReportSchema = v.strictObject({
   reportVersion: v.pipe(finite(1, 1000, 'report version'), v.integer('report version must be a whole number')),
-  sampleRateHz: finite(1, 1e7, 'report sample rate'),
-  durationS: TIME('report duration'),
-  onsets: v.pipe(v.array(v.strictObject({ timeS: TIME('onset time'), frequencyHz: FREQ('onset frequency') })), v.maxLength(100_000, 'too many onsets')),
+  sampleRateHz: finite(MIN_RATE_HZ, MAX_RATE_HZ, 'report sample rate'),
+  durationS: measured('report duration'),
+  onsets: v.pipe(v.array(v.strictObject({ timeS: measured('onset time'), frequencyHz: FREQ('onset frequency') })), v.maxLength(100_000, 'too many onsets')),
   segments: v.pipe(v.array(SegmentSchema), v.maxLength(100_000, 'too many segments')),
   noiseDriven: v.pipe(v.array(NoiseDrivenSchema), v.maxLength(100_000, 'too many noise-driven estimates')),
+  modeStatistics: v.optional(v.pipe(v.array(ModeStatisticsSchema), v.maxLength(100_000, 'too many mode-statistics entries'))),
   summary: SummarySchema,
   tones: v.optional(
     v.pipe(
@@ -152,33 +188,40 @@ export const ReportSchema = v.strictObject({
       v.maxLength(1000),
     ),
   ),
-  clipped: v.optional(v.pipe(v.array(v.strictObject({ startS: TIME('clipped start'), endS: TIME('clipped end') })), v.maxLength(100_000))),
-  warnings: v.optional(v.pipe(v.array(text(2000, 'report warning')), v.maxLength(1000, 'too many warnings'))),
+  clipped: v.optional(v.pipe(v.array(v.strictObject({ startS: measured('clipped start'), endS: measured('clipped end') })), v.maxLength(100_000))),
+  warnings: v.optional(v.pipe(v.array(text(TEXT_LIMITS.reportWarning, 'report warning')), v.maxLength(1000, 'too many warnings'))),
 });
 
+/**
+ * Duct geometry as the app takes it (any positive length and diameter, any temperature above
+ * absolute zero); the duct model checks its own ranges when it is used, naming the field.
+ */
+const positive = (what: string) => v.pipe(anyFinite(what), v.gtValue(0, `${what} must be more than 0`));
+const kelvinAbove0 = (what: string) => v.pipe(anyFinite(what), v.gtValue(-273.15, `${what} must be above absolute zero (−273.15 °C)`));
 const GeometrySchema = v.strictObject({
-  lengthM: finite(0, 1000, 'duct length'),
-  diameterM: finite(0, 100, 'duct diameter'),
+  lengthM: positive('duct length'),
+  diameterM: positive('duct diameter'),
   ends: v.picklist(['open-open', 'open-closed', 'closed-closed'], 'duct ends must be open-open, open-closed or closed-closed'),
   openEnd: v.picklist(['unflanged', 'flanged', 'none'], 'open end must be unflanged, flanged or none'),
-  gasTemperatureC: finite(-273.15, 3000, 'gas temperature'),
-  heaterPositionM: v.optional(finite(0, 1000, 'heater position')),
-  hotTemperatureC: v.optional(finite(-273.15, 3000, 'hot gas temperature')),
+  closedEnd: v.optional(v.picklist(['upstream', 'downstream'], 'closed end must be upstream or downstream')),
+  gasTemperatureC: kelvinAbove0('gas temperature'),
+  heaterPositionM: v.optional(v.pipe(anyFinite('heater position'), v.minValue(0, 'heater position must be at least 0'))),
+  hotTemperatureC: v.optional(kelvinAbove0('hot gas temperature')),
 });
 
 const MetaSchema = v.strictObject({
   source: v.picklist(['microphone', 'file', 'import'], 'source must be microphone, file or import'),
-  fileName: v.optional(text(300, 'file name')),
-  sampleRateHz: v.pipe(finite(1000, 768_000, 'sample rate'), v.integer('sample rate must be a whole number of Hz')),
-  site: text(200, 'site'),
-  equipment: text(200, 'equipment'),
-  notes: text(20_000, 'notes'),
+  fileName: v.optional(text(TEXT_LIMITS.fileName, 'file name')),
+  sampleRateHz: finite(MIN_RATE_HZ, MAX_RATE_HZ, 'sample rate'),
+  site: text(TEXT_LIMITS.site, 'site'),
+  equipment: text(TEXT_LIMITS.equipment, 'equipment'),
+  notes: text(TEXT_LIMITS.notes, 'notes'),
   geometry: v.optional(GeometrySchema),
-  calibrationOffsetDb: v.optional(finite(-300, 300, 'calibration offset')),
-  calibrationSource: v.optional(text(300, 'calibration source')),
+  calibrationOffsetDb: v.optional(anyFinite('calibration offset')),
+  calibrationSource: v.optional(text(TEXT_LIMITS.calibrationSource, 'calibration source')),
   captureSettings: v.optional(
     v.pipe(
-      v.record(v.pipe(v.string(), v.regex(/^[A-Za-z0-9_]{1,64}$/, 'capture setting names are letters, digits and _')), v.union([text(200, 'capture setting'), finite(-1e9, 1e9, 'capture setting'), v.boolean()])),
+      v.record(v.pipe(v.string(), v.regex(/^[A-Za-z0-9_]{1,64}$/, 'capture setting names are letters, digits and _')), v.union([text(TEXT_LIMITS.captureSetting, 'capture setting'), anyFinite('capture setting'), v.boolean()])),
       v.check((r) => Object.keys(r).length <= 50, 'too many capture settings'),
     ),
   ),
@@ -212,21 +255,22 @@ function column<T>(what: string, problem: string, accept: (x: unknown) => boolea
 }
 
 const isToken = (x: unknown): boolean => x === 'NaN' || x === 'Infinity' || x === '-Infinity';
-const numberColumn = (what: string, min: number, max: number, allowNonFinite: boolean) =>
+/** A column of measured numbers: any finite number, and where allowed a non-finite token. */
+const numberColumn = (what: string, allowNonFinite: boolean) =>
   column<number>(
     what,
-    `must be at least ${min} and at most ${max}${allowNonFinite ? ' (or NaN/Infinity/-Infinity)' : ''}`,
-    (x) => (typeof x === 'number' && x >= min && x <= max) || (allowNonFinite && isToken(x)),
+    allowNonFinite ? 'must be a number (or NaN/Infinity/-Infinity)' : 'must be a finite number',
+    (x) => (typeof x === 'number' && Number.isFinite(x)) || (allowNonFinite && isToken(x)),
     (x) => decodeNumber(x as number | (typeof NON_FINITE)[number]),
   );
 const REGIME_SET = new Set<unknown>(['quiet', 'growth', 'steady', 'decay']);
 
 export const TrackColumnsSchema = v.pipe(
   v.strictObject({
-    timeS: numberColumn('track time', 0, 1e7, false),
-    frequencyHz: numberColumn('track frequency', 0, 1e6, true),
-    amplitudeDbfs: numberColumn('track amplitude', -1000, 1000, true),
-    levelDbfs: numberColumn('track level', -1000, 1000, true),
+    timeS: numberColumn('track time', false),
+    frequencyHz: numberColumn('track frequency', true),
+    amplitudeDbfs: numberColumn('track amplitude', true),
+    levelDbfs: numberColumn('track level', true),
     state: column<RegimeKind>('track state', 'must be quiet, growth, steady or decay', (x) => REGIME_SET.has(x), (x) => x as RegimeKind),
     isClipped: column<boolean>('track clipping', 'must be true or false', (x) => typeof x === 'boolean', (x) => x as boolean),
     isAfterGap: column<boolean>('track gaps', 'must be true or false', (x) => typeof x === 'boolean', (x) => x as boolean),
@@ -247,9 +291,9 @@ export const SessionSchema = v.strictObject({
   audio: v.strictObject({
     isKept: v.boolean(),
     sampleCount: v.pipe(finite(0, 1e11, 'audio sample count'), v.integer('audio sample count must be whole')),
-    stoppedReason: v.optional(text(200, 'audio note')),
+    stoppedReason: v.optional(text(TEXT_LIMITS.audioNote, 'audio note')),
   }),
-  history: v.pipe(v.array(text(1000, 'history entry')), v.maxLength(1000, 'too many history entries')),
+  history: v.pipe(v.array(text(TEXT_LIMITS.historyEntry, 'history entry')), v.maxLength(1000, 'too many history entries')),
 });
 
 export const SessionFileSchema = v.strictObject({
@@ -287,6 +331,20 @@ type Validated<T> = v.InferOutput<typeof ReportSchema> extends T ? (T extends v.
 const reportMatches: Validated<Report> = true;
 const markerMatches: v.InferOutput<typeof MarkerSchema> extends Marker ? (Marker extends v.InferOutput<typeof MarkerSchema> ? true : false) : false = true;
 const sessionFits: ExportedSession extends Pick<SessionRecord, 'id' | 'createdAtMs' | 'updatedAtMs' | 'meta' | 'markers' | 'gaps' | 'report' | 'durationS' | 'history'> ? true : false = true;
+/** True when A and B have exactly the same keys (an optional field added to one side alone fails). */
+type SameKeys<A, B> = [Exclude<keyof A, keyof B>, Exclude<keyof B, keyof A>] extends [never, never] ? true : false;
+type Out<S extends v.GenericSchema> = v.InferOutput<S>;
+const sameKeys: [
+  SameKeys<Report, Out<typeof ReportSchema>>,
+  SameKeys<Report['summary'], Out<typeof SummarySchema>>,
+  SameKeys<Report['segments'][number], Out<typeof SegmentSchema>>,
+  SameKeys<Report['noiseDriven'][number], Out<typeof NoiseDrivenSchema>>,
+  SameKeys<NonNullable<Report['modeStatistics']>[number], Out<typeof ModeStatisticsSchema>>,
+  SameKeys<Marker, Out<typeof MarkerSchema>>,
+  SameKeys<SessionRecord['meta'], Out<typeof MetaSchema>>,
+  SameKeys<NonNullable<SessionRecord['meta']['geometry']>, Out<typeof GeometrySchema>>,
+] = [true, true, true, true, true, true, true, true];
+void sameKeys;
 void reportMatches;
 void markerMatches;
 void sessionFits;

@@ -60,6 +60,11 @@ export interface SessionRecord {
   /** Last time a live recorder wrote, ms since 1970; used to tell abandoned recordings. */
   heartbeatAtMs: number;
   status: SessionStatus;
+  /**
+   * Set on a session this device recorded (at its creation by the recorder, or carried over from
+   * v1); imported sessions never carry it. Only such sessions are ever recovered after a crash.
+   */
+  isLocalRecording?: boolean;
   meta: SessionMeta;
   markers: Marker[];
   gaps: Gap[];
@@ -211,6 +216,8 @@ async function upgradeV1ToV2(db: IDBPDatabase<HumgaugeDB>, tx: UpgradeTx): Promi
       heartbeatAtMs: old.createdAtMs,
       // A v1 record that never completed was abandoned long ago: mark it for recovery.
       status: old.isComplete ? 'complete' : 'interrupted',
+      // v1 had no import: every record was recorded here.
+      isLocalRecording: true,
       meta: {
         source: 'microphone',
         sampleRateHz: old.sampleRateHz,
@@ -244,6 +251,8 @@ export interface OpenOptions {
   onBlocked?: () => void;
   /** A newer version of the app wants the database: this connection has been closed. */
   onVersionChange?: () => void;
+  /** The browser closed the connection abnormally (e.g. after an I/O error on a full disk). */
+  onTerminated?: () => void;
 }
 
 /**
@@ -267,13 +276,9 @@ export async function openSessionDb(opts: OpenOptions = {}): Promise<SessionDb> 
       db.close();
       opts.onVersionChange?.();
     },
+    terminated() {
+      opts.onTerminated?.();
+    },
   });
   return db;
-}
-
-/** True when `err` is the browser's "storage full" error. */
-export function isQuotaError(err: unknown): boolean {
-  if (typeof err !== 'object' || err === null) return false;
-  const name = (err as { name?: unknown }).name;
-  return name === 'QuotaExceededError' || (name === 'UnknownError' && /quota|space/i.test(String((err as { message?: unknown }).message)));
 }

@@ -6,7 +6,8 @@
 import { strToU8, zipSync, type Zippable } from 'fflate';
 import type { TrackFrame } from '../../dsp/types';
 import { encodeWav } from '../../dsp/io/wav-write';
-import { BUNDLE_FORMAT, BUNDLE_SCHEMA_VERSION, SESSION_FORMAT, encodeNumber } from './bundle-schema';
+import { BUNDLE_FORMAT, BUNDLE_SCHEMA_VERSION, SESSION_FORMAT, SESSION_JSON_MAX_BYTES, encodeNumber } from './bundle-schema';
+import { DEFAULT_ZIP_LIMITS, formatBytes } from './zip-read';
 import type { SessionRecord } from './db';
 import { buildReportHtml } from './report-html';
 import type { FullSession } from './sessions';
@@ -35,7 +36,7 @@ export function toSessionFile(full: FullSession, exportedAtMs: number): object {
       gaps: r.gaps,
       report: r.report,
       durationS: r.durationS,
-      audio: { isKept: r.audio.isKept, sampleCount: full.audio?.length ?? 0, ...(r.audio.stoppedReason ? { stoppedReason: r.audio.stoppedReason } : {}) },
+      audio: { isKept: r.audio.isKept, sampleCount: full.audio?.length ?? 0, ...(r.audio.stoppedReason !== undefined ? { stoppedReason: r.audio.stoppedReason } : {}) },
       history: r.history,
     },
     track: {
@@ -85,8 +86,35 @@ export function sessionBaseName(r: SessionRecord): string {
   return ['humgauge', date, site, r.id.slice(0, 8)].filter(Boolean).join('-');
 }
 
+/** Sample encoding of a bundle's audio.wav files. */
+export type BundleAudio = 'pcm16' | 'float32';
+
+export interface BundleOptions {
+  /**
+   * 'pcm16' (default): half the size of float, quantisation noise 98 dB below full scale
+   * (6.02·16 + 1.76 dB, REFERENCES.md §80), under any phone microphone's own noise. 'float32'
+   * keeps every stored sample exactly. A session with samples beyond full scale is always written
+   * as float, so nothing is clipped.
+   */
+  audio?: BundleAudio;
+}
+
+/** True when every sample fits 16-bit PCM without clipping (|x| ≤ 1). */
+function fitsPcm16(samples: Float32Array): boolean {
+  for (let i = 0; i < samples.length; i++) if (!(Math.abs(samples[i]) <= 1)) return false;
+  return true;
+}
+
+/**
+ * The audio.wav of a session. A WAV header holds a whole number of Hz: a session at a fractional
+ * rate (a sensor log) is written at the nearest whole rate, and its exact rate stays in session.json.
+ */
+function sessionAudioWav(audio: Float32Array, sampleRateHz: number, format: BundleAudio): Uint8Array {
+  return encodeWav(audio, Math.max(1, Math.round(sampleRateHz)), format === 'pcm16' && fitsPcm16(audio) ? 'pcm16' : 'float32');
+}
+
 /** The zip bundle of one or more sessions: manifest.json plus one folder per session. */
-export function buildBundle(sessions: readonly FullSession[], exportedAtMs = Date.now()): Uint8Array {
+export function buildBundle(sessions: readonly FullSession[], exportedAtMs = Date.now(), options: BundleOptions = {}): Uint8Array {
   if (sessions.length === 0) throw new RangeError('buildBundle: no session given');
   const files: Zippable = {};
   const listed: { id: string; folder: string; hasAudio: boolean }[] = [];
@@ -95,21 +123,27 @@ export function buildBundle(sessions: readonly FullSession[], exportedAtMs = Dat
     while (listed.some((l) => l.folder === folder)) folder += '-x';
     const hasAudio = !!s.audio && s.audio.length > 0;
     listed.push({ id: s.record.id, folder, hasAudio });
-    files[`${folder}/session.json`] = strToU8(toJsonText(toSessionFile(s, exportedAtMs)));
+    const json = strToU8(toJsonText(toSessionFile(s, exportedAtMs)));
+    // What we export we import: never write what the import would refuse.
+    if (json.length > SESSION_JSON_MAX_BYTES) throw new RangeError(`The session of ${formatBytes(json.length)} of JSON is longer than an import accepts (${formatBytes(SESSION_JSON_MAX_BYTES)}); export its track as CSV and its audio as WAV instead.`);
+    files[`${folder}/session.json`] = json;
     files[`${folder}/track.csv`] = strToU8(trackCsv(s.track, s.record.meta.calibrationOffsetDb));
     files[`${folder}/report.html`] = strToU8(buildReportHtml(s.record, s.track, exportedAtMs));
-    // Float WAV keeps every stored sample exactly; deflate gains little on microphone noise and is
-    // slow on hundreds of megabytes, so the audio is stored uncompressed.
-    if (hasAudio) files[`${folder}/audio.wav`] = [encodeWav(s.audio as Float32Array, s.record.meta.sampleRateHz, 'float32'), { level: 0 }];
+    // Deflate gains little on microphone noise and is slow on hundreds of megabytes, so the audio
+    // is stored uncompressed.
+    if (hasAudio) files[`${folder}/audio.wav`] = [sessionAudioWav(s.audio as Float32Array, s.record.meta.sampleRateHz, options.audio ?? 'pcm16'), { level: 0 }];
   }
+  let audioBytes = 0;
+  for (const f of Object.values(files)) if (Array.isArray(f)) audioBytes += (f[0] as Uint8Array).length;
+  if (audioBytes > DEFAULT_ZIP_LIMITS.maxZipBytes) throw new RangeError(`The audio of these sessions is ${formatBytes(audioBytes)}, more than a bundle may hold (${formatBytes(DEFAULT_ZIP_LIMITS.maxZipBytes)}): export fewer sessions at a time, or with 16-bit audio.`);
   files['manifest.json'] = strToU8(toJsonText({ format: BUNDLE_FORMAT, schemaVersion: BUNDLE_SCHEMA_VERSION, exportedAtMs: Math.round(exportedAtMs), sessions: listed }));
   // Zip (DOS) dates start in 1980.
   return zipSync(files, { level: 1, mtime: new Date(Math.max(exportedAtMs, Date.UTC(1980, 0, 2))) });
 }
 
-/** The WAV alone (16-bit PCM, the most widely readable form). */
+/** The WAV alone: 16-bit PCM, the most widely readable form (float when a sample lies beyond full scale). */
 export function sessionWav(audio: Float32Array, sampleRateHz: number): Uint8Array {
-  return encodeWav(audio, sampleRateHz, 'pcm16');
+  return sessionAudioWav(audio, sampleRateHz, 'pcm16');
 }
 
 export type DeliveryResult = 'shared' | 'downloaded' | 'cancelled';

@@ -5,10 +5,10 @@
  */
 import * as v from 'valibot';
 import type { TrackFrame } from '../../dsp/types';
-import { ManifestSchema, SessionFileSchema, type SessionFile } from './bundle-schema';
+import { ManifestSchema, SESSION_JSON_MAX_BYTES, SessionFileSchema, type SessionFile } from './bundle-schema';
 import type { SessionDb } from './db';
 import { putFullSessions, type FullSession } from './sessions';
-import { DEFAULT_ZIP_LIMITS, listZip, readZipEntry, ZipError, type ZipEntry, type ZipLimits } from './zip-read';
+import { blobSource, bytesSource, DEFAULT_ZIP_LIMITS, listZip, readZipEntry, ZipError, type ByteSource, type ZipEntry, type ZipLimits } from './zip-read';
 
 /** A bundle was refused; the message says why, for the user. Nothing was written. */
 export class ImportError extends Error {
@@ -89,8 +89,8 @@ export function parseWav(bytes: Uint8Array, where: string): { sampleRateHz: numb
       }
       for (let i = 0; i < n; i++) {
         const x = out[i];
-        // NaN fails both comparisons, so it is caught here too.
-        if (!(x >= -16 && x <= 16)) throw new ImportError(`${where} holds a sample out of range at ${i}.`);
+        // Any finite sample is audio the app may hold (a float WAV may exceed full scale); only NaN and ±∞ are refused.
+        if (!Number.isFinite(x)) throw new ImportError(`${where} holds a non-finite sample at ${i}.`);
       }
       return { sampleRateHz: fmt.rate, samples: out };
     }
@@ -121,35 +121,42 @@ function toFullSession(file: SessionFile, audio: Float32Array | null): FullSessi
   };
 }
 
+/** Largest manifest.json, bytes: a bundle lists at most 1000 sessions in about 120 bytes each. */
+const MANIFEST_MAX_BYTES = 1024 * 1024;
+/** Bytes of the canonical WAV header the app writes (RIFF, fmt of 16 bytes, data). */
+const WAV_HEADER_BYTES = 44;
+
+/** A bundle to read: a file (read piece by piece, never whole) or bytes in memory. */
+export type BundleInput = Blob | Uint8Array;
+
 /** Reads and validates every session of a bundle. Throws ImportError; writes nothing. */
-export function readBundle(bytes: Uint8Array, limits: ZipLimits = DEFAULT_ZIP_LIMITS): FullSession[] {
-  let entries: ZipEntry[];
+export async function readBundle(input: BundleInput, limits: ZipLimits = DEFAULT_ZIP_LIMITS): Promise<FullSession[]> {
+  const source: ByteSource = input instanceof Uint8Array ? bytesSource(input) : blobSource(input);
   const files = new Map<string, ZipEntry>();
-  const read = (name: string): Uint8Array => {
+  const read = async (name: string, maxBytes: number, what: string): Promise<Uint8Array> => {
     const e = files.get(name);
     if (!e) throw new ImportError(`The bundle has no ${name}.`);
     try {
-      return readZipEntry(bytes, e);
+      return await readZipEntry(source, e, maxBytes, what);
     } catch (err) {
       throw new ImportError(err instanceof Error ? err.message : String(err));
     }
   };
   try {
-    entries = listZip(bytes, limits);
+    for (const e of await listZip(source, limits)) files.set(e.name, e);
   } catch (err) {
     if (err instanceof ZipError) throw new ImportError(err.message);
     throw err;
   }
-  for (const e of entries) files.set(e.name, e);
-  const text = (name: string): string => {
+  const text = async (name: string, maxBytes: number, what: string): Promise<string> => {
+    const bytes = await read(name, maxBytes, what);
     try {
-      return new TextDecoder('utf-8', { fatal: true }).decode(read(name));
-    } catch (err) {
-      if (err instanceof ImportError) throw err;
+      return new TextDecoder('utf-8', { fatal: true }).decode(bytes);
+    } catch {
       throw new ImportError(`${name} is not valid UTF-8 text.`);
     }
   };
-  const manifestResult = v.safeParse(ManifestSchema, parseJsonSafely(text('manifest.json'), 'manifest.json'));
+  const manifestResult = v.safeParse(ManifestSchema, parseJsonSafely(await text('manifest.json', MANIFEST_MAX_BYTES, 'a bundle\'s manifest'), 'manifest.json'));
   if (!manifestResult.success) throw firstIssue(manifestResult.issues, 'manifest.json');
   const manifest = manifestResult.output;
   const ids = new Set<string>();
@@ -158,16 +165,24 @@ export function readBundle(bytes: Uint8Array, limits: ZipLimits = DEFAULT_ZIP_LI
     if (ids.has(item.id)) throw new ImportError(`manifest.json lists session ${item.id} twice.`);
     ids.add(item.id);
     const where = `${item.folder}/session.json`;
-    const parsed = v.safeParse(SessionFileSchema, parseJsonSafely(text(where), where));
+    const parsed = v.safeParse(SessionFileSchema, parseJsonSafely(await text(where, SESSION_JSON_MAX_BYTES, 'the JSON of a session'), where));
     if (!parsed.success) throw firstIssue(parsed.issues, where);
     const file = parsed.output;
     if (file.session.id !== item.id) throw new ImportError(`${where} holds session ${file.session.id}, but the manifest says ${item.id}.`);
     let audio: Float32Array | null = null;
     if (item.hasAudio) {
       const wavName = `${item.folder}/audio.wav`;
-      const wav = parseWav(read(wavName), wavName);
-      if (wav.sampleRateHz !== file.session.meta.sampleRateHz) throw new ImportError(`${wavName} runs at ${wav.sampleRateHz} Hz, but the session says ${file.session.meta.sampleRateHz} Hz.`);
-      if (wav.samples.length !== file.session.audio.sampleCount) throw new ImportError(`${wavName} holds ${wav.samples.length} samples, but the session says ${file.session.audio.sampleCount}.`);
+      const n = file.session.audio.sampleCount;
+      // The app writes 16-bit or float samples after a 44-byte header: the size is known before reading.
+      const entry = files.get(wavName);
+      if (entry && entry.size !== WAV_HEADER_BYTES + 2 * n && entry.size !== WAV_HEADER_BYTES + 4 * n) {
+        throw new ImportError(`${wavName} would expand to ${entry.size} bytes, but ${n} samples of 16-bit or float audio take ${WAV_HEADER_BYTES + 2 * n} or ${WAV_HEADER_BYTES + 4 * n}.`);
+      }
+      // Audio is stored uncompressed, so an audio.wav the app wrote is never larger than a bundle may be.
+      const wav = parseWav(await read(wavName, limits.maxZipBytes, 'the audio of a session'), wavName);
+      // A WAV header holds whole hertz; a session at a fractional rate keeps its exact rate in session.json.
+      if (wav.sampleRateHz !== Math.max(1, Math.round(file.session.meta.sampleRateHz))) throw new ImportError(`${wavName} runs at ${wav.sampleRateHz} Hz, but the session says ${file.session.meta.sampleRateHz} Hz.`);
+      if (wav.samples.length !== n) throw new ImportError(`${wavName} holds ${wav.samples.length} samples, but the session says ${n}.`);
       audio = wav.samples;
     } else if (file.session.audio.sampleCount !== 0) {
       throw new ImportError(`${where} says it has ${file.session.audio.sampleCount} audio samples, but the bundle holds no audio for it.`);
@@ -185,8 +200,8 @@ export interface ImportResult {
 }
 
 /** Validates the whole bundle, then writes its new sessions in one transaction. */
-export async function importBundle(db: SessionDb, bytes: Uint8Array, limits: ZipLimits = DEFAULT_ZIP_LIMITS): Promise<ImportResult> {
-  const sessions = readBundle(bytes, limits);
+export async function importBundle(db: SessionDb, input: BundleInput, limits: ZipLimits = DEFAULT_ZIP_LIMITS): Promise<ImportResult> {
+  const sessions = await readBundle(input, limits);
   const fresh: FullSession[] = [];
   const alreadyPresent: string[] = [];
   for (const s of sessions) {

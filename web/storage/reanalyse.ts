@@ -1,7 +1,7 @@
 /**
  * Runs the streaming analysis of dsp/ again over a session's stored audio (recovery of an
- * interrupted recording). Works on the main thread in blocks and yields between batches so the
- * page stays responsive.
+ * interrupted recording). The app runs it in the storage worker (off-thread.ts); it works in
+ * blocks and yields between batches, so a thread running it also stays responsive.
  */
 import { createAnalysis, type Marker, type Report } from '../../dsp/index';
 import type { AudioAnalyser } from './sessions';

@@ -1,11 +1,11 @@
 /**
  * Crash-safe recording of a session: the track, markers, gaps and (optionally) raw audio are kept
- * in memory for about a second and then written to IndexedDB in one transaction, so a closed tab,
- * a crash or a flat battery loses at most a couple of seconds. When storage is full the audio is
- * dropped first; the track and the report keep being saved, and the user is told.
+ * in memory for about a second and then written to IndexedDB, so a closed tab, a crash or a flat
+ * battery loses at most a couple of seconds. When storage is full or failing the audio is dropped
+ * first; the track and the report keep being saved, and the user is told.
  */
 import type { Marker, Report, TrackFrame } from '../../dsp/types';
-import { isQuotaError, packFrames, type SessionDb, type SessionRecord } from './db';
+import { packFrames, type SessionDb, type SessionRecord } from './db';
 import type { NewSessionMeta, SessionRecorder } from './recording-api';
 import { getSessionDb, newSessionId, recordingLockName, requestPersistentStorage } from './sessions';
 
@@ -13,9 +13,16 @@ import { getSessionDb, newSessionId, recordingLockName, requestPersistentStorage
 export const FLUSH_INTERVAL_MS = 1000;
 /** Track frames held in memory while storage refuses them (about 10 minutes at 100 frames/s). */
 const MAX_PENDING_FRAMES = 60_000;
+/** Shortest interval between two repeats of the "track not saved" message, ms. */
+const TRACK_PROBLEM_REPEAT_MS = 30_000;
 
 export interface RecorderOptions {
   db?: SessionDb;
+  /**
+   * The connection to write with, asked before every write, so one the browser closed after a
+   * failure is replaced (default: the app's shared connection, or `db` when given).
+   */
+  connect?: () => Promise<SessionDb>;
   flushIntervalMs?: number;
   /** Clock, ms since 1970 (tests pass a fake one). */
   nowMs?: () => number;
@@ -31,8 +38,21 @@ export interface StoredSessionRecorder extends SessionRecorder {
   readonly isKeepingAudio: boolean;
 }
 
-const MSG_AUDIO_DROPPED = 'Storage is full: the raw audio is no longer kept for this session. The track, the markers and the report are still being saved.';
-const MSG_TRACK_FAILED = 'Storage is full: the track could not be saved just now; it is held in memory and saving will be tried again. Free some space (delete or export old sessions).';
+/** What the browser said, in a few words for the user. */
+function describeFailure(err: unknown): string {
+  if (typeof err === 'object' && err !== null) {
+    const { name, message } = err as { name?: unknown; message?: unknown };
+    const text = [name, message].filter((x) => typeof x === 'string' && x).join(': ');
+    if (text) return `the browser said “${text.slice(0, 160)}”`;
+  }
+  return `the browser said “${String(err).slice(0, 160)}”`;
+}
+
+const msgAudioDropped = (err: unknown): string =>
+  `Storage is full or failing (${describeFailure(err)}): the raw audio is no longer kept for this session. The track, the markers and the report are still being saved.`;
+const msgTrackFailed = (err: unknown): string =>
+  `Storage is full or failing (${describeFailure(err)}): the track could not be saved just now; it is held in memory and saving will be tried again. Free some space: export, then delete old sessions.`;
+const MSG_AUDIO_REMOVED = 'Storage is full: the raw audio of this session was removed to save its report. The track, the markers and the report are saved.';
 
 function cleanSettings(settings: Record<string, unknown> | undefined): Record<string, string | number | boolean> | undefined {
   if (!settings) return undefined;
@@ -43,9 +63,53 @@ function cleanSettings(settings: Record<string, unknown> | undefined): Record<st
   return out;
 }
 
-/** Creates the session record and returns its recorder (the app uses startSessionRecording). */
+/** Joins blocks into consecutive chunks of at most `maxSamples` (the last may be shorter). */
+function secondChunks(blocks: readonly Float32Array[], maxSamples: number): Float32Array[] {
+  let total = 0;
+  for (const b of blocks) total += b.length;
+  const out: Float32Array[] = [];
+  let current = new Float32Array(Math.min(maxSamples, total));
+  let filled = 0;
+  for (const b of blocks) {
+    let at = 0;
+    while (at < b.length) {
+      const n = Math.min(b.length - at, current.length - filled);
+      current.set(b.subarray(at, at + n), filled);
+      filled += n;
+      at += n;
+      total -= n;
+      if (filled === current.length) {
+        out.push(current);
+        current = new Float32Array(Math.min(maxSamples, total));
+        filled = 0;
+      }
+    }
+  }
+  return out;
+}
+
+/** Aborts a failed transaction and silences the rejections of what it held. */
+function abandon(tx: { abort(): void; done: Promise<void> }, writes: Promise<unknown>[]): void {
+  try {
+    tx.abort();
+  } catch {
+    /* already aborted by the browser */
+  }
+  tx.done.catch(() => undefined);
+  for (const w of writes) w.catch(() => undefined);
+}
+
+/**
+ * Creates the session record and returns its recorder (the app uses startSessionRecording).
+ *
+ * Every write failure is taken as possible storage pressure, whatever the browser calls it
+ * (QuotaExceededError, UnknownError "Failed to write blobs", an aborted transaction, a closed
+ * connection): the track, markers and report are small and written first, each flush in its own
+ * transaction; the audio follows in a second one and is the first thing given up.
+ */
 export async function createSessionRecorder(meta: NewSessionMeta, opts: RecorderOptions = {}): Promise<StoredSessionRecorder> {
-  const db = opts.db ?? (await getSessionDb());
+  const fixedDb = opts.db;
+  const connect = opts.connect ?? (fixedDb ? async () => fixedDb : getSessionDb);
   const now = opts.nowMs ?? (() => Date.now());
   const t0 = now();
   const id = newSessionId();
@@ -71,6 +135,7 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
     updatedAtMs: t0,
     heartbeatAtMs: t0,
     status: 'recording',
+    isLocalRecording: true,
     meta: {
       source: meta.source,
       ...(meta.fileName !== undefined ? { fileName: meta.fileName } : {}),
@@ -94,7 +159,7 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
     equipmentKey: (meta.equipment ?? '').toLowerCase(),
     history: [],
   };
-  await db.put('sessions', record);
+  await (await connect()).put('sessions', record);
 
   let pendingFrames: TrackFrame[] = [];
   let pendingAudio: Float32Array[] = [];
@@ -117,33 +182,28 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
     }
   };
 
-  /** One write of everything pending; returns false on a quota error. */
-  const writeOnce = async (withAudio: boolean): Promise<'ok' | 'quota'> => {
+  /** Stops keeping audio after a failed write: what is pending is let go, the user told once. */
+  const dropAudio = (err: unknown): void => {
+    pendingAudio = [];
+    pendingAudioSamples = 0;
+    if (!isKeepingAudio) return;
+    isKeepingAudio = false;
+    record = { ...record, audio: { ...record.audio, isKept: false, stoppedReason: 'storage full or failing' } };
+    problem(msgAudioDropped(err));
+  };
+
+  /**
+   * Writes the pending track, markers and gaps with the session record (and `final`, the last
+   * fields of a finished session) in one transaction. On failure everything taken is put back.
+   */
+  const writeTrack = async (db: SessionDb, final?: Partial<SessionRecord>): Promise<void> => {
     // Take what is pending; appends made while the write runs go to fresh arrays.
     const frames = pendingFrames;
-    const audio = withAudio ? pendingAudio : [];
-    const audioSamples = withAudio ? pendingAudioSamples : 0;
     const markers = pendingMarkers;
     const gaps = pendingGaps;
     pendingFrames = [];
     pendingMarkers = [];
     pendingGaps = [];
-    if (withAudio) {
-      pendingAudio = [];
-      pendingAudioSamples = 0;
-    }
-    const putBack = (): void => {
-      pendingFrames = frames.concat(pendingFrames);
-      pendingMarkers = markers.concat(pendingMarkers);
-      pendingGaps = gaps.concat(pendingGaps);
-      if (withAudio) {
-        pendingAudio = audio.concat(pendingAudio);
-        pendingAudioSamples += audioSamples;
-      }
-    };
-    const stores: ('sessions' | 'frames' | 'audio')[] = ['sessions', 'frames'];
-    if (audio.length) stores.push('audio');
-    const tx = db.transaction(stores, 'readwrite');
     const t = now();
     const next: SessionRecord = {
       ...record,
@@ -153,63 +213,93 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
       gaps: gaps.length ? [...record.gaps, ...gaps] : record.gaps,
       frameCount: record.frameCount + frames.length,
       frameChunkCount: record.frameChunkCount + (frames.length ? 1 : 0),
-      audio: { ...record.audio, isKept: isKeepingAudio, sampleCount: record.audio.sampleCount + audioSamples, chunkCount: record.audio.chunkCount + (audio.length ? 1 : 0) },
+      durationS: Math.max(record.durationS, frames.length ? frames[frames.length - 1].timeS : 0),
+      ...final,
     };
-    next.durationS = Math.max(record.durationS, frames.length ? frames[frames.length - 1].timeS : 0, next.audio.sampleCount / record.meta.sampleRateHz);
     const writes: Promise<unknown>[] = [];
+    let tx: ReturnType<SessionDb['transaction']> | null = null;
     try {
-      if (frames.length) writes.push(tx.objectStore('frames').put(packFrames(id, record.frameChunkCount, frames)));
-      if (audio.length) {
-        const joined = new Float32Array(audioSamples);
-        let off = 0;
-        for (const b of audio) {
-          joined.set(b, off);
-          off += b.length;
-        }
-        writes.push(tx.objectStore('audio').put({ sessionId: id, seq: record.audio.chunkCount, startSample: record.audio.sampleCount, samples: joined }));
-      }
-      writes.push(tx.objectStore('sessions').put(next));
-      await Promise.all([...writes, tx.done]);
+      const trackTx = db.transaction(['sessions', 'frames'], 'readwrite');
+      tx = trackTx;
+      if (frames.length) writes.push(trackTx.objectStore('frames').put(packFrames(id, record.frameChunkCount, frames)));
+      writes.push(trackTx.objectStore('sessions').put(next));
+      await Promise.all([...writes, trackTx.done]);
     } catch (err) {
-      // Nothing of a failed write may stay: abort what the transaction holds.
-      try {
-        tx.abort();
-      } catch {
-        /* already aborted by the browser */
-      }
-      tx.done.catch(() => undefined);
-      for (const w of writes) w.catch(() => undefined);
-      putBack();
-      if (isQuotaError(err)) return 'quota';
+      if (tx) abandon(tx, writes);
+      pendingFrames = frames.concat(pendingFrames);
+      pendingMarkers = markers.concat(pendingMarkers);
+      pendingGaps = gaps.concat(pendingGaps);
       throw err;
     }
     record = next;
-    return 'ok';
   };
 
-  const flushNow = async (): Promise<void> => {
+  /**
+   * Writes the pending audio in chunks of at most a second, each put awaited before the next, so
+   * the copy each put makes runs in a task of its own (a file analysed faster than real time
+   * delivers many seconds per write: one put of them all stalled the page for over a second).
+   * One transaction with the session record: all of it lands or none; on failure it is let go.
+   */
+  const writeAudio = async (db: SessionDb): Promise<void> => {
+    const audio = pendingAudio;
+    pendingAudio = [];
+    pendingAudioSamples = 0;
+    const chunks = secondChunks(audio, Math.max(1, Math.round(record.meta.sampleRateHz)));
+    let sampleCount = record.audio.sampleCount;
+    let chunkCount = record.audio.chunkCount;
+    const writes: Promise<unknown>[] = [];
+    let tx: ReturnType<SessionDb['transaction']> | null = null;
     try {
-      let result = await writeOnce(isKeepingAudio);
-      if (result === 'quota' && isKeepingAudio) {
-        isKeepingAudio = false;
-        pendingAudio = [];
-        pendingAudioSamples = 0;
-        record = { ...record, audio: { ...record.audio, isKept: false, stoppedReason: 'storage full' } };
-        problem(MSG_AUDIO_DROPPED);
-        result = await writeOnce(false);
+      const audioTx = db.transaction(['sessions', 'audio'], 'readwrite');
+      tx = audioTx;
+      for (const samples of chunks) {
+        const put = audioTx.objectStore('audio').put({ sessionId: id, seq: chunkCount++, startSample: sampleCount, samples });
+        writes.push(put);
+        sampleCount += samples.length;
+        await put;
       }
-      if (result === 'quota') {
-        if (now() - lastTrackProblemMs > 30_000) problem(MSG_TRACK_FAILED);
-        lastTrackProblemMs = now();
-        if (pendingFrames.length > MAX_PENDING_FRAMES) pendingFrames = pendingFrames.slice(pendingFrames.length - MAX_PENDING_FRAMES);
-      }
+      const next: SessionRecord = {
+        ...record,
+        audio: { ...record.audio, sampleCount, chunkCount },
+        durationS: Math.max(record.durationS, sampleCount / record.meta.sampleRateHz),
+      };
+      writes.push(audioTx.objectStore('sessions').put(next));
+      await Promise.all([...writes, audioTx.done]);
+      record = next;
     } catch (err) {
-      problem(`Saving the session failed: ${err instanceof Error ? err.message : String(err)}`);
+      if (tx) abandon(tx, writes);
+      throw err;
     }
   };
 
+  /** Track first, audio second; any failure gives up the audio and keeps the track pending. */
+  const flushNow = async (final?: Partial<SessionRecord>): Promise<unknown> => {
+    let db: SessionDb;
+    try {
+      db = await connect();
+      await writeTrack(db, final);
+    } catch (err) {
+      dropAudio(err);
+      if (now() - lastTrackProblemMs > TRACK_PROBLEM_REPEAT_MS) problem(msgTrackFailed(err));
+      lastTrackProblemMs = now();
+      if (pendingFrames.length > MAX_PENDING_FRAMES) pendingFrames = pendingFrames.slice(pendingFrames.length - MAX_PENDING_FRAMES);
+      return err;
+    }
+    if (isKeepingAudio && pendingAudioSamples > 0) {
+      try {
+        await writeAudio(db);
+      } catch (err) {
+        dropAudio(err);
+        // Record at once that the audio stops here; if even this fails, the next write says it.
+        await writeTrack(db).catch(() => undefined);
+      }
+    }
+    return null;
+  };
+
   const flush = (): Promise<void> => {
-    chain = chain.then(flushNow);
+    const run = chain.then(() => flushNow());
+    chain = run.then(() => undefined);
     return chain;
   };
 
@@ -220,6 +310,45 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
     if (typeof document !== 'undefined' && document.visibilityState === 'hidden') void flush();
   };
   if (useTimer && typeof document !== 'undefined') document.addEventListener('visibilitychange', onHide);
+
+  /**
+   * The last write: the report and status complete, with whatever track is still pending. When
+   * storage refuses it, the session's stored audio is removed to make room and it is tried again;
+   * if it still fails the session stays 'recording' and is completed from its stored track at the
+   * next start.
+   */
+  const writeDone = async (report: Report): Promise<void> => {
+    const done = (): Partial<SessionRecord> => ({ status: 'complete', report, durationS: Math.max(record.durationS, report.durationS) });
+    let failure = await flushNow(done());
+    if (failure === null) return;
+    try {
+      const db = await connect();
+      await removeStoredAudio(db);
+      problem(MSG_AUDIO_REMOVED);
+      failure = await flushNow(done());
+    } catch (err) {
+      failure = err;
+    }
+    if (failure === null) return;
+    const message = `The report of this session could not be saved (${describeFailure(failure)}); it will be completed from the stored track when the app next starts.`;
+    problem(message);
+    throw new Error(message);
+  };
+
+  /** Deletes the session's stored audio and records that it did, in one transaction. */
+  const removeStoredAudio = async (db: SessionDb): Promise<void> => {
+    const next: SessionRecord = { ...record, audio: { isKept: false, sampleCount: 0, chunkCount: 0, stoppedReason: 'removed to make room for the report (storage full)' } };
+    const tx = db.transaction(['sessions', 'audio'], 'readwrite');
+    const writes = [tx.objectStore('audio').delete(IDBKeyRange.bound([id, -Infinity], [id, Infinity])), tx.objectStore('sessions').put(next)];
+    try {
+      await Promise.all([...writes, tx.done]);
+    } catch (err) {
+      abandon(tx, writes);
+      throw err;
+    }
+    isKeepingAudio = false;
+    record = next;
+  };
 
   const recorder: StoredSessionRecorder = {
     id,
@@ -253,28 +382,14 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
       isFinished = true;
       if (timer !== null) clearInterval(timer);
       if (useTimer && typeof document !== 'undefined') document.removeEventListener('visibilitychange', onHide);
+      const run = chain.then(() => writeDone(report));
+      chain = run.catch(() => undefined);
       try {
-        await flush();
-        if (pendingFrames.length) await flush();
-        await writeDone(report);
+        await run;
       } finally {
         releaseLock();
       }
     },
-  };
-  /** The last write: status complete with the report. */
-  const writeDone = async (report: Report): Promise<void> => {
-    const t = now();
-    const done: SessionRecord = { ...record, status: 'complete', report, updatedAtMs: t, heartbeatAtMs: t, durationS: Math.max(record.durationS, report.durationS) };
-    if (pendingFrames.length) done.history = [...done.history, `${pendingFrames.length} track frames could not be saved (storage full).`];
-    try {
-      await db.put('sessions', done);
-      record = done;
-    } catch (err) {
-      const message = isQuotaError(err) ? 'Storage is full: the report of this session could not be saved.' : `Saving the report failed: ${err instanceof Error ? err.message : String(err)}`;
-      problem(message);
-      throw new Error(message);
-    }
   };
   return recorder;
 }

@@ -36,6 +36,8 @@ export function trackPlotsSvg(record: SessionRecord, track: readonly TrackFrame[
       { x: t, y: track.map((f) => f.levelDbfs + (hasSpl ? (offset as number) : 0)), label: 'broadband level', color: '#999' },
     ],
     marks,
+    // The axis covers the sound, not digital silence far below it.
+    maxYSpan: 100,
   });
   const freq = svgLinePlot({
     title: 'Tracked frequency (Hz) against time',

@@ -37,7 +37,7 @@ export function onDatabaseBlocked(fn: () => void): void {
   blockedHandler = fn;
 }
 
-/** The app's shared connection (opened once). */
+/** The app's shared connection (opened once, and again after the browser closed it). */
 export function getSessionDb(): Promise<SessionDb> {
   if (!shared) {
     shared = openSessionDb({
@@ -45,6 +45,9 @@ export function getSessionDb(): Promise<SessionDb> {
       onVersionChange: () => {
         shared = null;
         versionChangeHandler?.();
+      },
+      onTerminated: () => {
+        shared = null;
       },
     });
     shared.catch(() => {
@@ -132,6 +135,20 @@ export async function updateSessionMarkers(db: SessionDb, id: string, markers: M
   if (!rec) throw new Error(`No session with id ${id}`);
   await tx.store.put({ ...rec, markers, updatedAtMs: nowMs });
   await tx.done;
+}
+
+/**
+ * Replaces the report and markers of a session after a re-analysis of its stored audio (the
+ * track recorded live stays as it was), and notes it in the session's history.
+ */
+export async function replaceSessionReport(db: SessionDb, id: string, report: Report, markers: Marker[], note: string, nowMs = Date.now()): Promise<SessionRecord> {
+  const tx = db.transaction('sessions', 'readwrite');
+  const rec = await tx.store.get(id);
+  if (!rec) throw new Error(`No session with id ${id}`);
+  const next: SessionRecord = { ...rec, report, markers, durationS: report.durationS, updatedAtMs: nowMs, history: [...rec.history, note] };
+  await tx.store.put(next);
+  await tx.done;
+  return next;
 }
 
 /** Everything removed by a delete, kept in memory so the delete can be undone. */
@@ -242,12 +259,15 @@ export const webLockLiveCheck: LiveCheck = async (id) => {
 };
 
 /**
- * Sessions left in 'recording' by a closed tab or a crash: no tab holds their recording lock (or,
- * without Web Locks, no heartbeat for STALE_RECORDING_MS); plus those already marked interrupted.
+ * Recordings of this device left in 'recording' by a closed tab or a crash: no tab holds their
+ * recording lock (or, without Web Locks, no heartbeat for STALE_RECORDING_MS); plus those already
+ * marked interrupted. Only sessions this device recorded count (`isLocalRecording`); an imported
+ * session is what its author exported and is never rewritten. (Status 'recording' comes only from
+ * this device's recorder, the import refuses it, so such records from before the marker count too.)
  */
 export async function findInterruptedSessions(db: SessionDb, nowMs = Date.now(), liveCheck: LiveCheck = webLockLiveCheck): Promise<SessionRecord[]> {
   const recording = await db.getAllFromIndex('sessions', 'by-status', 'recording');
-  const interrupted = await db.getAllFromIndex('sessions', 'by-status', 'interrupted');
+  const interrupted = (await db.getAllFromIndex('sessions', 'by-status', 'interrupted')).filter((r) => r.isLocalRecording === true);
   const abandoned: SessionRecord[] = [];
   for (const r of recording) {
     const alive = await liveCheck(r.id);
@@ -255,6 +275,12 @@ export async function findInterruptedSessions(db: SessionDb, nowMs = Date.now(),
   }
   return [...abandoned, ...interrupted];
 }
+
+/**
+ * How far the stored track may run past the stored audio, s, with the audio still taken as
+ * covering it: two write intervals (frames of the last block can land one write after its audio).
+ */
+const AUDIO_TRACK_SLACK_S = 2;
 
 /** Re-analyses stored audio into a report (the streaming analysis of dsp/). Null when not possible. */
 export type AudioAnalyser = (audio: Float32Array, sampleRateHz: number, markers: readonly Marker[]) => Promise<Report | null>;
@@ -286,7 +312,7 @@ async function whileHoldingRecordingLock(id: string, fn: () => Promise<boolean>)
 async function completeOne(db: SessionDb, id: string, analyse: AudioAnalyser | null, nowMs: number): Promise<boolean> {
   const mark = db.transaction('sessions', 'readwrite');
   const fresh = await mark.store.get(id);
-  if (!fresh || (fresh.status !== 'recording' && fresh.status !== 'interrupted')) {
+  if (!fresh || (fresh.status !== 'recording' && !(fresh.status === 'interrupted' && fresh.isLocalRecording === true))) {
     await mark.done;
     return false;
   }
@@ -295,22 +321,26 @@ async function completeOne(db: SessionDb, id: string, analyse: AudioAnalyser | n
 
   const track = await loadTrack(db, id);
   const audio = await loadAudio(db, id);
+  const last = track.length ? track[track.length - 1].timeS : 0;
+  const audioS = audio ? audio.length / fresh.meta.sampleRateHz : 0;
+  // Audio and track are written together about once a second, so stored audio normally ends
+  // with the track; when it stopped earlier (storage full) the track is the fuller record.
+  const audioCoversTrack = audioS >= last - AUDIO_TRACK_SLACK_S;
   let report: Report | null = null;
   let how = '';
-  if (audio && audio.length > 0 && analyse) {
+  if (audio && audio.length > 0 && analyse && audioCoversTrack) {
     try {
       report = await analyse(audio, fresh.meta.sampleRateHz, fresh.markers);
-      if (report) how = `analysed again from ${(audio.length / fresh.meta.sampleRateHz).toFixed(1)} s of stored audio`;
+      if (report) how = `analysed again from ${audioS.toFixed(1)} s of stored audio`;
     } catch {
       report = null;
     }
   }
   if (!report) {
     report = summariseTrack(track, fresh.meta.sampleRateHz);
-    how = `summarised from ${track.length} stored track frames (no audio analysis)`;
+    how = `summarised from ${track.length} stored track frames (${last.toFixed(1)} s)`;
+    if (audioS > 0) how += audioCoversTrack ? `; the ${audioS.toFixed(1)} s of stored audio could not be analysed` : `, which run longer than the ${audioS.toFixed(1)} s of stored audio`;
   }
-  const last = track.length ? track[track.length - 1].timeS : 0;
-  const audioS = audio ? audio.length / fresh.meta.sampleRateHz : 0;
   const tx = db.transaction('sessions', 'readwrite');
   const cur = await tx.store.get(id);
   if (cur) {

@@ -2,6 +2,7 @@
  * Small static line plots as SVG text, for the printable report (no script, no external files).
  * Every label passes through escapeXml.
  */
+import { layoutLabels, safeRange } from '../plot-safety';
 
 /** Escapes text for HTML or XML content and attribute values (the five characters of XML 1.0 §2.4/§4.6). */
 export function escapeXml(text: string): string {
@@ -24,6 +25,8 @@ export interface PlotSpec {
   marks?: { x: number; label: string }[];
   widthPx?: number;
   heightPx?: number;
+  /** Widest span of y shown below its highest value (dB plots: digital silence at −300 dBFS does not squash the view). */
+  maxYSpan?: number;
 }
 
 /** "Nice" tick values (1, 2, 5 × 10^k) covering [lo, hi] with about `count` steps. */
@@ -103,7 +106,8 @@ export function svgLinePlot(spec: PlotSpec): string {
   let y1 = -Infinity;
   for (const s of spec.series) {
     for (let i = 0; i < Math.min(s.x.length, s.y.length); i++) {
-      if (!Number.isFinite(s.x[i]) || !Number.isFinite(s.y[i])) continue;
+      // Values beyond ±1e12 are not data a plot can show (they would squash or break the axes).
+      if (!Number.isFinite(s.x[i]) || !Number.isFinite(s.y[i]) || Math.abs(s.x[i]) > 1e12 || Math.abs(s.y[i]) > 1e12) continue;
       x0 = Math.min(x0, s.x[i]);
       x1 = Math.max(x1, s.x[i]);
       y0 = Math.min(y0, s.y[i]);
@@ -118,13 +122,7 @@ export function svgLinePlot(spec: PlotSpec): string {
     return parts.join('');
   }
   if (x1 === x0) x1 = x0 + 1;
-  if (y1 === y0) {
-    y0 -= 1;
-    y1 += 1;
-  }
-  const pad = (y1 - y0) * 0.05;
-  y0 -= pad;
-  y1 += pad;
+  [y0, y1] = safeRange(y0, y1, { fallback: [0, 1], minSpan: 2, ...(spec.maxYSpan !== undefined ? { maxSpan: spec.maxYSpan } : {}) });
   const px = (x: number): number => m.l + ((x - x0) / (x1 - x0)) * (w - m.l - m.r);
   const py = (y: number): number => h - m.b - ((y - y0) / (y1 - y0)) * (h - m.t - m.b);
   parts.push(`<rect x="${m.l}" y="${m.t}" width="${w - m.l - m.r}" height="${h - m.t - m.b}" fill="none" stroke="#888"/>`);
@@ -138,25 +136,32 @@ export function svgLinePlot(spec: PlotSpec): string {
   }
   parts.push(`<text x="${(m.l + w - m.r) / 2}" y="${h - 6}" text-anchor="middle">${escapeXml(spec.xLabel)}</text>`);
   parts.push(`<text transform="translate(12 ${(m.t + h - m.b) / 2}) rotate(-90)" text-anchor="middle">${escapeXml(spec.yLabel)}</text>`);
-  for (const mk of spec.marks ?? []) {
-    if (!Number.isFinite(mk.x) || mk.x < x0 || mk.x > x1) continue;
+  // Marker labels in rows so they never overprint (about 6 px a character at 11 px); one that fits no row keeps its line.
+  const marks = (spec.marks ?? []).filter((mk) => Number.isFinite(mk.x) && mk.x >= x0 && mk.x <= x1);
+  const markRows = layoutLabels(marks.map((mk) => px(mk.x) + 2), marks.map((mk) => 6 * Math.min(24, mk.label.length)), 3, 4);
+  marks.forEach((mk, k) => {
     const X = px(mk.x).toFixed(1);
-    parts.push(`<line x1="${X}" x2="${X}" y1="${m.t}" y2="${h - m.b}" stroke="#b05" stroke-dasharray="3 3"/><text x="${X}" y="${m.t + 10}" fill="#b05" transform="rotate(0)">${escapeXml(mk.label.slice(0, 24))}</text>`);
-  }
+    const row = markRows[k];
+    const label = row === null || row === undefined ? '' : `<text x="${(px(mk.x) + 2).toFixed(1)}" y="${m.t + 10 + 12 * row}" fill="#b05">${escapeXml(mk.label.slice(0, 24))}</text>`;
+    parts.push(`<line x1="${X}" x2="${X}" y1="${m.t}" y2="${h - m.b}" stroke="#b05" stroke-dasharray="3 3"/>${label}`);
+  });
+  // Lines stay inside the plotting area when part of the data lies outside the range shown.
+  const clipId = `clip-${spec.title.replace(/[^A-Za-z0-9]/g, '').slice(0, 32)}`;
+  parts.push(`<clipPath id="${clipId}"><rect x="${m.l}" y="${m.t}" width="${w - m.l - m.r}" height="${h - m.t - m.b}"/></clipPath>`);
   const columns = w - m.l - m.r;
   spec.series.forEach((s, k) => {
     const pts = reduce(s.x, s.y, x0, x1, columns);
     let d = '';
     let isPenDown = false;
     for (const [x, y] of pts) {
-      if (!Number.isFinite(x) || !Number.isFinite(y)) {
+      if (!Number.isFinite(x) || !Number.isFinite(y) || Math.abs(x) > 1e12 || Math.abs(y) > 1e12) {
         isPenDown = false;
         continue;
       }
       d += `${isPenDown ? 'L' : 'M'}${px(x).toFixed(1)} ${py(y).toFixed(1)}`;
       isPenDown = true;
     }
-    if (d) parts.push(`<path d="${d}" fill="none" stroke="${escapeXml(s.color)}" stroke-width="1.4"/>`);
+    if (d) parts.push(`<path d="${d}" fill="none" stroke="${escapeXml(s.color)}" stroke-width="1.4" clip-path="url(#${clipId})"/>`);
     const ly = m.t + 12 + 13 * k;
     parts.push(`<rect x="${w - m.r - 150}" y="${ly - 8}" width="10" height="3" fill="${escapeXml(s.color)}"/><text x="${w - m.r - 136}" y="${ly - 4}">${escapeXml(s.label.slice(0, 28))}</text>`);
   });

@@ -46,52 +46,43 @@ export const CAUTIONS: CautionSection[] = [
   },
 ];
 
-function renderSections(container: HTMLElement, headingLevel: 'h2' | 'h3'): void {
-  for (const s of CAUTIONS) {
-    const h = document.createElement(headingLevel);
-    h.textContent = s.title;
-    const ul = document.createElement('ul');
-    for (const item of s.items) {
-      const li = document.createElement('li');
-      li.textContent = item;
-      ul.append(li);
-    }
-    container.append(h, ul);
-  }
-}
-
 export const mountCautionsScreen: MountScreen = (root) => {
-  const h = document.createElement('h2');
-  h.textContent = 'Cautions';
-  const intro = document.createElement('p');
-  intro.className = 'lead';
-  intro.textContent = 'Read before listening near a heater, burner, flue or heated tube.';
-  root.append(h, intro);
-  const body = document.createElement('div');
-  body.className = 'cautions';
-  renderSections(body, 'h3');
-  root.append(body);
+  root.append(
+    el('h2', { text: 'Cautions' }),
+    el('p', { className: 'lead', text: 'Read before listening near a heater, burner, flue or heated tube.' }),
+    el('div', { className: 'cautions' }, ...CAUTIONS.flatMap((s) => [el('h3', { text: s.title }), el('ul', {}, ...s.items.map((t) => el('li', { text: t })))])),
+  );
 };
 
+/** The first-run notice: the cautions in three lines for a technician; the full text one tap away. */
+export const FIRST_RUN_LINES = [
+  'This app only listens. A hum in a boiler, furnace or burner is a fault for a licensed technician: do not adjust burners, flues or gas settings to make or stop it.',
+  'Flue gas can hold carbon monoxide: work ventilated, keep a CO alarm on you. Burner parts and tubes stay hot after the flame.',
+  `Loud tones: above ${LOWER_ACTION_DBA} dB(A) wear hearing protection and keep your time close by short.`,
+];
+
 /**
- * Shows the cautions at first start as a panel above the screens (not a modal: the app stays
- * usable, and keyboard and screen-reader users meet it first). Acknowledging it is remembered in
- * the settings. Returns true when the notice was shown.
+ * Shows the cautions at first start as a short panel above the screens (not a modal: the app
+ * stays usable, and keyboard and screen-reader users meet it first), with the full cautions one
+ * tap away. Acknowledging it is remembered in the settings. Returns true when it was shown.
  */
 export function showFirstRunNotice(app: AppContext, host: HTMLElement): boolean {
   const settings = loadSettings();
   if (settings.hasSeenCautions) return false;
-  const panel = el('section', { className: 'first-run', id: 'first-run' }, el('h2', { id: 'first-run-title', textContent: 'Before you listen' }));
-  panel.setAttribute('aria-labelledby', 'first-run-title');
-  renderSections(panel, 'h3');
-  const ok = el('button', { type: 'button', className: 'big-button primary', id: 'first-run-ok', textContent: 'I understand' });
+  const panel = el(
+    'section',
+    { className: 'first-run', id: 'first-run', attrs: { 'aria-labelledby': 'first-run-title' } },
+    el('h2', { id: 'first-run-title', text: 'Before you listen' }),
+    el('ul', {}, ...FIRST_RUN_LINES.map((t) => el('li', { text: t }))),
+  );
+  const ok = el('button', { type: 'button', className: 'big-button primary', id: 'first-run-ok', text: 'I understand' });
   ok.addEventListener('click', () => {
     const s = loadSettings();
     s.hasSeenCautions = true;
     if (!saveSettings(s)) app.notify('Could not remember this notice (storage unavailable); it will show again.', 'warn');
     panel.remove();
   });
-  panel.append(el('div', { className: 'controls' }, ok));
+  panel.append(el('div', { className: 'controls' }, ok, el('a', { href: '#cautions', className: 'big-link', id: 'first-run-more', text: 'All cautions' })));
   host.prepend(panel);
   return true;
 }

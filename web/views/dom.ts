@@ -1,10 +1,30 @@
-/** Small DOM and local-storage helpers shared by the screens. */
+/**
+ * The one DOM helper of the screens, and small local-storage helpers. Text only ever goes in
+ * through textContent, properties or attribute setters, never through innerHTML, so user text
+ * cannot become markup.
+ */
 
-/** Creates an element, assigns its properties (never innerHTML for user text) and appends children. */
-export function el<K extends keyof HTMLElementTagNameMap>(tag: K, props: Partial<HTMLElementTagNameMap[K]> = {}, ...children: (Node | string)[]): HTMLElementTagNameMap[K] {
+/** A child of an element; null, undefined and false are skipped (handy for optional parts). */
+export type Child = Node | string | null | undefined | false;
+
+/** Extra keys of `el`: `text` (textContent), `attrs` (setAttribute), `on` (listeners). */
+export interface ElExtras {
+  text?: string;
+  attrs?: Record<string, string>;
+  on?: { [K in keyof HTMLElementEventMap]?: (ev: HTMLElementEventMap[K]) => void };
+}
+
+export type ElProps<K extends keyof HTMLElementTagNameMap> = Partial<Omit<HTMLElementTagNameMap[K], keyof ElExtras>> & ElExtras;
+
+/** Creates an element, assigns its properties, attributes and listeners, and appends children. */
+export function el<K extends keyof HTMLElementTagNameMap>(tag: K, props: ElProps<K> = {}, ...children: Child[]): HTMLElementTagNameMap[K] {
   const e = document.createElement(tag);
-  Object.assign(e, props);
-  e.append(...children);
+  const { text, attrs, on, ...rest } = props;
+  Object.assign(e, rest);
+  if (text !== undefined) e.textContent = text;
+  for (const [k, v] of Object.entries(attrs ?? {})) e.setAttribute(k, v);
+  for (const [type, fn] of Object.entries(on ?? {})) e.addEventListener(type, fn as EventListener);
+  for (const c of children) if (c !== null && c !== undefined && c !== false) e.append(c);
   return e;
 }
 

@@ -2,14 +2,17 @@
  * Rig and duct screen: the geometry form (stored for the next session under
  * 'humgauge.ductGeometry'), the predicted plane-wave modes, a measured tone → matching mode and
  * inferred mean gas temperature, a sketch of the duct with the mode shape and the heater, and the
- * Rayleigh reading of the heater for the chosen mode. All numbers come from dsp/duct.ts.
+ * Rayleigh reading of the heater for the chosen mode. All numbers come from dsp/duct.ts and
+ * dsp/duct-match.ts; every field is checked against the model's physical ranges (dsp/gas.ts).
  * A measured frequency can arrive in the URL: #duct/171.2 (Hz).
  */
 import './duct-screen.css';
 import type { MountScreen } from '../app-context';
 import {
+  DIAMETER_RANGE_M,
   ductModelFromGeometry,
-  matchMeasuredFrequency,
+  GAS_TEMPERATURE_RANGE_C,
+  LENGTH_RANGE_M,
   modeShape,
   predictModes,
   rayleighReading,
@@ -18,6 +21,7 @@ import {
   type MeanFlow,
   type ModePrediction,
 } from '../../dsp/duct';
+import { matchMeasuredFrequency, MEASURED_FREQUENCY_RANGE_HZ, type MeasuredMatch } from '../../dsp/duct-match';
 import type { DuctGeometry } from '../../dsp/types';
 import { formatFixed, formatHz, formatQuantity } from '../format';
 import { getSessionDb, listSessions } from '../storage/sessions';
@@ -174,14 +178,22 @@ export const mountDuctScreen: MountScreen = (root, app) => {
     return msg ? null : v;
   };
   const positive = (unit: string) => (v: number): string | null => (v > 0 ? null : `Must be more than 0 ${unit}.`);
-  const aboveZeroK = (v: number): string | null => (v > -273.15 ? null : 'Must be above absolute zero (−273.15 °C).');
+  /** The model's physical ranges (dsp/gas.ts), in the unit of the field (scale × SI). */
+  const within = (min: number, max: number, unit: string, why: string) => (v: number): string | null =>
+    v >= min && v <= max ? null : `Must lie from ${formatPlain(min)} to ${formatPlain(max)} ${unit} (${why}).`;
+  const lengthRange = within(LENGTH_RANGE_M.min, LENGTH_RANGE_M.max, 'm', 'a duct from a millimetre to the tallest chimneys');
+  const diameterRange = within(DIAMETER_RANGE_M.min * 1000, DIAMETER_RANGE_M.max * 1000, 'mm', 'a capillary to the widest stacks');
+  const gasRange = (v: number): string | null =>
+    v > -273.15
+      ? within(GAS_TEMPERATURE_RANGE_C.min, GAS_TEMPERATURE_RANGE_C.max, '°C', 'a gas: air condenses below, flames do not reach above')(v)
+      : 'Must be above absolute zero (−273.15 °C).';
 
   function update(): void {
     closedEnd.wrap.hidden = ends.select.value !== 'open-closed';
     heaterGroup.hidden = !heaterBox.checked;
-    const lengthM = read(length, 'length', positive('m'));
-    const diameterMm = read(diameter, 'inner diameter', positive('mm'));
-    const gasC = read(temp, 'gas temperature', aboveZeroK);
+    const lengthM = read(length, 'length', lengthRange);
+    const diameterMm = read(diameter, 'inner diameter', diameterRange);
+    const gasC = read(temp, 'gas temperature', gasRange);
     let heaterM: number | null = null;
     let hotC: number | null = null;
     let heaterOk = true;
@@ -189,7 +201,7 @@ export const mountDuctScreen: MountScreen = (root, app) => {
       heaterM = read(heaterPos, 'heater position', (v) =>
         lengthM !== null && !(v > 0 && v < lengthM) ? `Must lie inside the duct, between 0 and ${formatPlain(lengthM)} m.` : v > 0 ? null : 'Must be more than 0 m.',
       );
-      hotC = read(hotTemp, 'temperature above the heater', aboveZeroK);
+      hotC = read(hotTemp, 'temperature above the heater', gasRange);
       heaterOk = heaterM !== null && hotC !== null;
     } else {
       heaterPos.error.textContent = '';
@@ -289,25 +301,17 @@ export const mountDuctScreen: MountScreen = (root, app) => {
       matchOut.textContent = 'Enter a measured tone to find its mode and the gas temperature it implies.';
       return;
     }
-    const fHz = read(measured, 'measured tone', positive('Hz'));
-    const sf = read(fStd, 'frequency uncertainty', (v) => (v >= 0 ? null : 'Must be 0 Hz or more.'));
-    const sl = read(lStd, 'length uncertainty', (v) => (v >= 0 ? null : 'Must be 0 mm or more.'));
+    const fHz = read(measured, 'measured tone', (v) => positive('Hz')(v) ?? within(0, MEASURED_FREQUENCY_RANGE_HZ.max, 'Hz', 'the audio band')(v));
+    const sf = read(fStd, 'frequency uncertainty', (v) => within(0, fHz ?? Number.POSITIVE_INFINITY, 'Hz', 'at most the tone itself')(v));
+    const sl = read(lStd, 'length uncertainty', (v) => within(0, current ? current.geometry.lengthM * 1000 : Number.POSITIVE_INFINITY, 'mm', 'at most the length')(v));
     if (fHz === null || sf === null || sl === null) {
       matchOut.textContent = 'Correct the measured-tone fields to see the match.';
       return;
     }
     try {
       const m = matchMeasuredFrequency(current.model, fHz, { frequencyStdHz: sf, lengthStdM: sl / 1000 }, Math.max(MODE_COUNT, 12));
-      const dev = m.relativeDeviation * 100;
-      matchOut.replaceChildren(
-        el('p', { className: 'duct-match-mode', textContent: `${formatHz(fHz)} is mode ${m.n} (predicted ${formatQuantity(m.predictedHz, 'Hz', null, { decimals: 2 })}, ${dev >= 0 ? '+' : ''}${formatFixed(dev, 1)} %).` }),
-        el('p', {
-          className: 'duct-match-temp',
-          textContent: `Mean gas temperature for an exact match: ${formatQuantity(m.temperatureC, '°C', m.temperatureCi95C, { decimals: 0 })}.`,
-        }),
-        ...m.warnings.map((w) => el('p', { className: 'hint', textContent: `Note: ${w}.` })),
-      );
-      modePick.select.value = String(Math.min(m.n, MODE_COUNT));
+      matchOut.replaceChildren(...matchView(m, fHz));
+      if (m.best) modePick.select.value = String(Math.min(m.best.n, MODE_COUNT));
     } catch (err) {
       matchOut.textContent = `No match: ${err instanceof Error ? err.message : String(err)}.`;
     }
@@ -423,6 +427,43 @@ export const mountDuctScreen: MountScreen = (root, app) => {
   });
   update();
 };
+
+/** The measured-tone result: the best plausible mode and its temperature, then every candidate mode with the temperature it implies. */
+function matchView(m: MeasuredMatch, fHz: number): HTMLElement[] {
+  const best = m.best;
+  const what = m.isEquivalentTemperature ? 'Equivalent uniform gas temperature' : 'Mean gas temperature';
+  const out: HTMLElement[] = [];
+  if (best) {
+    const dev = best.relativeDeviation * 100;
+    out.push(
+      el('p', {
+        className: 'duct-match-mode',
+        textContent: `${formatHz(fHz)} is mode ${best.n}${m.isAmbiguous ? ', or another mode below' : ''} (predicted ${formatQuantity(best.predictedHz, 'Hz', null, { decimals: 2 })} at the temperatures above, ${dev >= 0 ? '+' : ''}${formatFixed(dev, 1)} %).`,
+      }),
+      el('p', { className: 'duct-match-temp', textContent: `${what} for an exact match: ${formatQuantity(best.temperatureC, '°C', best.temperatureCi95C, { decimals: 0 })}.` }),
+    );
+  } else {
+    out.push(el('p', { className: 'duct-match-mode', textContent: `${formatHz(fHz)} is no mode of this duct at a plausible gas temperature (${formatFixed(m.plausibleRangeC[0], 0)} to ${formatFixed(m.plausibleRangeC[1], 0)} °C).` }));
+  }
+  if (m.candidates.length > 0) {
+    const body = el('tbody');
+    for (const c of m.candidates) {
+      const verdict = c.plausible ? (c === best ? 'yes (best)' : 'yes') : c.isAboveCutOn ? 'no: above the cross-mode cut-on' : 'no: implausible temperature';
+      body.append(el('tr', { className: c.plausible ? 'plausible' : 'implausible' }, el('td', { textContent: String(c.n) }), el('td', { className: 'num', textContent: formatQuantity(c.temperatureC, '°C', c.temperatureCi95C, { decimals: 0 }) }), el('td', { textContent: verdict })));
+    }
+    out.push(
+      el(
+        'table',
+        { className: 'segments duct-candidates' },
+        el('caption', { textContent: `Every mode ${formatHz(fHz)} can be, with the ${m.isEquivalentTemperature ? 'equivalent uniform ' : ''}gas temperature it needs` }),
+        el('thead', {}, el('tr', {}, el('th', { scope: 'col', textContent: 'Mode' }), el('th', { scope: 'col', textContent: 'Gas temperature' }), el('th', { scope: 'col', textContent: 'Plausible' }))),
+        body,
+      ),
+    );
+  }
+  out.push(...m.warnings.map((w) => el('p', { className: 'hint', textContent: `Note: ${w}.` })));
+  return out;
+}
 
 function readingText(r: 'drives' | 'damps' | 'neutral'): string {
   return r === 'drives' ? 'drives' : r === 'damps' ? 'damps' : 'no driving';

@@ -5,6 +5,7 @@
  */
 import type { Marker } from '../../dsp/types';
 import { formatClock, formatFixed } from '../format';
+import { el } from './dom';
 
 /** Decimals as typed ("60" → 0, "12.5" → 1), so the label repeats what the user entered. */
 function decimalsOf(text: string): number {
@@ -21,8 +22,14 @@ export interface MarkerBar {
   clearPlaced(): void;
 }
 
-/** Units offered for the control value of a "setting changed" marker. */
-export const CONTROL_UNITS = ['%', 'W', 'kW', 'Hz', 'm³/h', 'V', 'A'] as const;
+/**
+ * Units offered for the control value of a "setting changed" marker (firing rate, heater power,
+ * gas pressure, temperature, fuel and air flow, flue oxygen, air ratio); any other unit may be typed.
+ */
+export const CONTROL_UNITS = ['%', 'W', 'kW', 'mbar', 'Pa', '°C', 'kg/h', 'm³/h', 'O₂ %', 'λ', 'Hz', 'V', 'A'] as const;
+
+/** Longest unit text accepted, characters. */
+const MAX_UNIT_CHARS = 30;
 
 /** Checks the control value field: null when empty, a number, or an error message. */
 export function parseControlValue(text: string): { value: number | null } | { error: string } {
@@ -61,15 +68,9 @@ export function createMarkerBar(host: HTMLElement, onMark: (m: NewMarker) => voi
   valueInput.id = 'mark-value';
   valueInput.placeholder = 'value';
   valueInput.setAttribute('aria-label', 'control value (optional)');
-  const unitSelect = document.createElement('select');
-  unitSelect.id = 'mark-unit';
-  unitSelect.setAttribute('aria-label', 'unit of the control value');
-  for (const u of CONTROL_UNITS) {
-    const o = document.createElement('option');
-    o.value = u;
-    o.textContent = u;
-    unitSelect.append(o);
-  }
+  // A unit from the list or typed freely.
+  const unitList = el('datalist', { id: 'mark-unit-list' }, ...CONTROL_UNITS.map((u) => el('option', { value: u })));
+  const unitSelect = el('input', { type: 'text', id: 'mark-unit', value: '%', maxLength: MAX_UNIT_CHARS, autocomplete: 'off', className: 'unit-input', attrs: { list: unitList.id, 'aria-label': 'unit of the control value (pick or type)' } });
   const settingButton = document.createElement('button');
   settingButton.type = 'button';
   settingButton.id = 'mark-setting';
@@ -85,11 +86,11 @@ export function createMarkerBar(host: HTMLElement, onMark: (m: NewMarker) => voi
       return;
     }
     error.textContent = '';
-    const unit = unitSelect.value;
+    const unit = unitSelect.value.trim();
     if (parsed.value === null) onMark({ kind: 'setting', label: 'setting changed' });
-    else onMark({ kind: 'setting', label: `setting ${formatFixed(parsed.value, decimalsOf(valueInput.value))} ${unit}`, value: parsed.value, unit });
+    else onMark({ kind: 'setting', label: `setting ${formatFixed(parsed.value, decimalsOf(valueInput.value))}${unit ? ` ${unit}` : ''}`, value: parsed.value, ...(unit ? { unit } : {}) });
   });
-  setting.append(valueInput, unitSelect, settingButton, error);
+  setting.append(valueInput, unitSelect, unitList, settingButton, error);
 
   const list = document.createElement('ol');
   list.className = 'marker-list';
@@ -97,7 +98,7 @@ export function createMarkerBar(host: HTMLElement, onMark: (m: NewMarker) => voi
   list.setAttribute('aria-label', 'markers placed');
 
   host.append(heading, row, setting, list);
-  const controls: (HTMLButtonElement | HTMLInputElement | HTMLSelectElement)[] = [on, off, settingButton, valueInput, unitSelect];
+  const controls: (HTMLButtonElement | HTMLInputElement)[] = [on, off, settingButton, valueInput, unitSelect];
 
   return {
     setEnabled(isEnabled) {

@@ -1,13 +1,19 @@
 /**
- * The big readouts of the Listen screen (frequency, level, regime, growth and decay rates,
- * effective gain, damping ratio, Q), each with its unit and 95 % interval, and the table of the
- * final report. Text changes only when the value changes, so screen readers are not flooded.
+ * The big readouts of the Listen screen: the verdict at a glance with its margin, then frequency,
+ * level, regime, growth and decay rates, effective gain, damping ratio and Q, each with its unit
+ * and 95 % interval. Text changes only when the value changes, so screen readers are not flooded.
  */
-import type { Report, RegimeKind } from '../../dsp/types';
+import type { Report } from '../../dsp/types';
 import type { LiveSummary } from '../worker/live-summary';
+import type { MarginEstimate } from '../worker/protocol';
 import type { Calibration } from '../settings';
+import type { InputKind } from '../run/live-model';
+import { TIME_WEIGHTING_WORDS, type TimeWeighting } from '../run/time-weighting';
+import { verdictOf } from '../run/verdict';
+import { paFromSplDb } from '../run/sensor';
 import { aWeightedToneDb, EU_EXPOSURE_VALUES, exposureCaution } from '../../dsp/levels';
-import { formatClock, formatDb, formatDuration, formatHz, formatQ, formatRate, formatRatio, formatSeconds, isShowable, MISSING } from '../format';
+import { formatDb, formatDuration, formatHz, formatPa, formatQ, formatRate, formatRatio, formatSeconds, isShowable, MISSING } from '../format';
+import { el } from './dom';
 
 /** Below this, phone microphones roll off (levels read low; rates are unaffected). Common practice. */
 export const LOW_FREQUENCY_NOTE_HZ = 100;
@@ -21,25 +27,24 @@ export const UPPER_ACTION_DBA = EU_EXPOSURE_VALUES.upperAction.lex8hDba;
 
 export interface ReadoutInput {
   summary: LiveSummary;
+  margin: MarginEstimate | null;
+  /** Time-weighted levels, dBFS (full-scale sine = 0 dBFS). */
   levelDbfs: number;
   toneDbfs: number;
+  /** dBFS → dB SPL offset (a microphone's calibration or the scale of Pa sensor data). */
   calibration: Calibration | undefined;
   /** Show the tone level A-weighted (IEC 61672-1) when calibrated. */
   isAWeighted: boolean;
+  inputKind: InputKind;
+  weighting: TimeWeighting;
   isFinal?: boolean;
 }
 
 export interface Readouts {
   update(input: ReadoutInput): void;
-  renderReport(report: Report, title: string): HTMLElement[];
+  /** The final figures of a finished record (the whole record's fits refine the live ones). */
+  showFinal(report: Report, input: ReadoutInput): void;
 }
-
-const REGIME_WORDS: Record<RegimeKind, string> = {
-  quiet: 'Quiet',
-  growth: 'Growing',
-  steady: 'Steady hum',
-  decay: 'Dying away',
-};
 
 interface Tile {
   value: HTMLElement;
@@ -47,34 +52,30 @@ interface Tile {
   root: HTMLElement;
 }
 
+/** Splits "7.02 1/s (95 % CI 6.80–7.25)" into the value and its interval (shown smaller, unbroken). */
+export function splitInterval(text: string): [string, string] {
+  const at = text.indexOf(' (95 % CI');
+  return at < 0 ? [text, ''] : [text.slice(0, at), text.slice(at + 1)];
+}
+
 /** The readouts inside `host`. */
 export function createReadouts(host: HTMLElement): Readouts {
-  const tiles = new Map<string, Tile>();
   const add = (key: string, label: string, isBig = false): Tile => {
-    const root = document.createElement('div');
-    root.className = `tile${isBig ? ' tile-big' : ''}`;
-    root.id = `readout-${key}`;
-    const l = document.createElement('div');
-    l.className = 'tile-label';
-    l.textContent = label;
-    l.id = `readout-${key}-label`;
-    const value = document.createElement('div');
-    value.className = 'tile-value';
-    value.setAttribute('aria-labelledby', l.id);
+    const labelEl = el('div', { className: 'tile-label', id: `readout-${key}-label`, text: label });
+    const value = el('div', { className: 'tile-value', attrs: { 'aria-labelledby': labelEl.id } });
     value.dataset.testid = `value-${key}`;
-    const detail = document.createElement('div');
-    detail.className = 'tile-detail';
-    root.append(l, value, detail);
+    const detail = el('div', { className: 'tile-detail' });
+    const root = el('div', { className: `tile${isBig ? ' tile-big' : ''}`, id: `readout-${key}` }, labelEl, value, detail);
     host.append(root);
-    const t = { value, detail, root };
-    tiles.set(key, t);
-    return t;
+    return { value, detail, root };
   };
+  const verdict = add('verdict', 'Verdict', true);
+  verdict.root.classList.add('tile-verdict');
+  // The verdict is announced when it changes; the numbers are not, they change too often.
+  verdict.value.setAttribute('aria-live', 'polite');
   const freq = add('frequency', 'Frequency', true);
   const level = add('level', 'Level', true);
   const regime = add('regime', 'Regime', true);
-  // A change of regime (growing, steady, dying away) is announced; the numbers are not, they change too often.
-  regime.value.setAttribute('aria-live', 'polite');
   const growth = add('growth', 'Growth rate');
   const decay = add('decay', 'Decay rate');
   const gain = add('gain', 'Effective gain (growth + decay)');
@@ -84,123 +85,118 @@ export function createReadouts(host: HTMLElement): Readouts {
   const setText = (node: HTMLElement, text: string): void => {
     if (node.textContent !== text) node.textContent = text;
   };
-  /** Shows a formatted value; a missing one ("— (reason)") shows the dash big and the reason small. */
+  /** Shows a formatted value, its interval in a smaller unbroken line; a missing one ("— (reason)") shows the dash big and the reason small. */
   const setValue = (tile: Tile, text: string, detail = ''): void => {
     const missing = text.startsWith(`${MISSING} (`) ? text.slice(MISSING.length + 2, -1) : null;
-    setText(tile.value, missing === null ? text : MISSING);
+    const [main, ci] = missing === null ? splitInterval(text) : [MISSING, ''];
+    if (tile.value.textContent !== `${main}${ci ? ` ${ci}` : ''}`) {
+      tile.value.replaceChildren(main, ...(ci ? [' ', el('span', { className: 'ci', text: ci })] : []));
+    }
     setText(tile.detail, missing === null ? detail : missing);
     tile.root.classList.toggle('is-missing', missing !== null);
   };
 
-  return {
-    update({ summary, levelDbfs, toneDbfs, calibration, isAWeighted, isFinal }) {
-      const f = isFinal && summary.frequencyHz !== null ? summary.frequencyHz : summary.latestFrequencyHz;
-      setValue(freq, formatHz(f, null, isFinal ? 'no tone found' : 'no tone'), isShowable(f) && f < LOW_FREQUENCY_NOTE_HZ ? `Below ${LOW_FREQUENCY_NOTE_HZ} Hz phone microphones roll off: levels read low, rates are unaffected.` : '');
-      freq.root.classList.toggle('has-note', isShowable(f) && f < LOW_FREQUENCY_NOTE_HZ);
-
-      const toneHz = summary.latestFrequencyHz;
-      if (calibration && isShowable(levelDbfs) && levelDbfs > SILENCE_DBFS) {
-        const spl = levelDbfs + calibration.offsetDb;
-        const toneSpl = isShowable(toneDbfs) ? toneDbfs + calibration.offsetDb : Number.NaN;
-        const toneDba = isShowable(toneSpl) && isShowable(toneHz) && toneHz > 0 ? aWeightedToneDb(toneSpl, toneHz) : Number.NaN;
-        let note: string;
-        let loudness = Number.NaN;
-        if (isAWeighted && isShowable(toneDba)) {
-          setText(level.value, `${formatDb(toneDba, 'dB(A)')} tone`);
-          note = `all sound ${formatDb(spl, 'dB SPL')} · ${formatDb(levelDbfs, 'dBFS')}`;
-          loudness = toneDba;
-        } else {
-          setText(level.value, formatDb(spl, 'dB SPL'));
-          note = `tone ${formatDb(toneSpl, 'dB SPL')} · ${formatDb(levelDbfs, 'dBFS')}`;
-          if (isShowable(toneDba)) {
-            note += ` · tone ${formatDb(toneDba, 'dB(A)')}`;
-            loudness = toneDba;
-          }
-        }
-        // Exposure against the common action values (EU 2003/10/EC; NIOSH 1998), via dsp/levels.ts.
-        if (isShowable(loudness) && loudness >= LOWER_ACTION_DBA) {
-          const c = exposureCaution(loudness);
-          note += c.isProtectionAdvised
-            ? ` — loud: wear hearing protection; NIOSH allows ${formatDuration(c.allowedTimeH * 3600)} a day at this level.`
-            : ` — above the ${LOWER_ACTION_DBA} dB(A) lower action value if it lasted a working day.`;
-        }
-        setText(level.detail, note);
-        level.root.classList.remove('is-missing');
-        level.root.classList.toggle('is-loud', isShowable(loudness) && loudness >= LOWER_ACTION_DBA);
+  const showLevel = (input: ReadoutInput, toneHz: number): number => {
+    const { levelDbfs, toneDbfs, calibration, isAWeighted, inputKind, weighting } = input;
+    const timeWords = TIME_WEIGHTING_WORDS[weighting];
+    if (calibration && isShowable(levelDbfs) && levelDbfs > SILENCE_DBFS) {
+      const spl = levelDbfs + calibration.offsetDb;
+      const toneSpl = isShowable(toneDbfs) ? toneDbfs + calibration.offsetDb : Number.NaN;
+      if (inputKind === 'sensor') {
+        // Sensor data in Pa: pressure amplitudes, no A-weighting (a transducer in a duct is not a listener).
+        setText(level.value, formatDb(spl, 'dB SPL'));
+        setText(level.detail, `${isShowable(toneSpl) ? `tone ${formatPa(paFromSplDb(toneSpl))} rms, ${formatDb(toneSpl, 'dB SPL')} · ` : ''}all ${formatPa(paFromSplDb(spl))} rms · ${timeWords}`);
+        level.root.classList.remove('is-missing', 'is-loud');
+        return Number.NaN;
+      }
+      const toneDba = isShowable(toneSpl) && isShowable(toneHz) && toneHz > 0 ? aWeightedToneDb(toneSpl, toneHz) : Number.NaN;
+      let note: string;
+      let loudness = Number.NaN;
+      if (isAWeighted && isShowable(toneDba)) {
+        setText(level.value, `${formatDb(toneDba, 'dB(A)')} tone`);
+        note = `all sound ${formatDb(spl, 'dB SPL')} · ${formatDb(levelDbfs, 'dBFS')}`;
+        loudness = toneDba;
       } else {
-        setValue(level, formatDb(levelDbfs > SILENCE_DBFS ? levelDbfs : Number.NaN, 'dBFS', null, isShowable(levelDbfs) ? 'digital silence' : 'no signal'), isShowable(toneDbfs) ? `tone ${formatDb(toneDbfs, 'dBFS')} · uncalibrated` : 'uncalibrated');
-        level.root.classList.remove('is-loud');
-      }
-
-      setText(regime.value, REGIME_WORDS[summary.regime] ?? summary.regime);
-      regime.root.dataset.regime = summary.regime;
-      setText(regime.detail, isFinal ? 'at the end of the record' : '');
-
-      setValue(growth, formatRate(summary.growthRatePerS, summary.growthRateCi95PerS, 'no growth seen yet'), isShowable(summary.doublingTimeS) ? `doubling time ${formatSeconds(summary.doublingTimeS)}` : '');
-      setValue(decay, formatRate(summary.decayRatePerS, summary.decayRateCi95PerS, 'no decay seen yet'), isShowable(summary.t60S) ? `T60 ${formatSeconds(summary.t60S)}` : '');
-      setValue(gain, formatRate(summary.effectiveGainPerS, summary.effectiveGainCi95PerS, 'needs growth and decay'));
-      setValue(zeta, formatRatio(summary.dampingRatio, summary.dampingRatioCi95, 'needs a decay'));
-      setValue(q, formatQ(summary.qFactor, summary.qFactorCi95, 'needs a decay'));
-    },
-
-    renderReport(report, title) {
-      const h = document.createElement('h2');
-      h.textContent = title;
-      const p = document.createElement('p');
-      p.textContent = `${formatSeconds(report.durationS)} at ${report.sampleRateHz} Hz · ${report.onsets.length} onset${report.onsets.length === 1 ? '' : 's'} · ${report.segments.length} segment${report.segments.length === 1 ? '' : 's'}`;
-      const table = document.createElement('table');
-      table.className = 'segments';
-      const caption = document.createElement('caption');
-      caption.textContent = 'Segments of the record';
-      const head = document.createElement('tr');
-      for (const t of ['Regime', 'From', 'To', 'Frequency', 'Rate']) {
-        const th = document.createElement('th');
-        th.scope = 'col';
-        th.textContent = t;
-        head.append(th);
-      }
-      table.append(caption, head);
-      for (const s of report.segments) {
-        const tr = document.createElement('tr');
-        tr.dataset.kind = s.kind;
-        const cells = [
-          REGIME_WORDS[s.kind] ?? s.kind,
-          formatClock(s.startS),
-          formatClock(s.endS),
-          formatHz(s.frequencyHz),
-          s.kind === 'quiet' ? '—' : formatRate(s.ratePerS, s.rateCi95PerS, s.kind === 'steady' ? 'steady' : 'no fit'),
-        ];
-        for (const c of cells) {
-          const td = document.createElement('td');
-          td.textContent = c;
-          tr.append(td);
+        setText(level.value, formatDb(spl, 'dB SPL'));
+        note = `tone ${formatDb(toneSpl, 'dB SPL')} · ${formatDb(levelDbfs, 'dBFS')}`;
+        if (isShowable(toneDba)) {
+          note += ` · tone ${formatDb(toneDba, 'dB(A)')}`;
+          loudness = toneDba;
         }
-        table.append(tr);
       }
-      const out: HTMLElement[] = [h, p, table];
-      if (report.clipped?.length) {
-        const cp = document.createElement('p');
-        cp.className = 'alert clipped-note';
-        const spans = report.clipped.slice(0, 5).map((c) => `${formatClock(c.startS)}–${formatClock(c.endS)}`).join(', ');
-        cp.textContent = `The input clipped (${spans}${report.clipped.length > 5 ? ', …' : ''}): levels there read low and rates fitted across it are unreliable. Move the phone further away.`;
-        out.push(cp);
+      note += ` · ${timeWords}`;
+      // Exposure against the common action values (EU 2003/10/EC; NIOSH 1998), via dsp/levels.ts.
+      if (isShowable(loudness) && loudness >= LOWER_ACTION_DBA) {
+        const c = exposureCaution(loudness);
+        note += c.isProtectionAdvised
+          ? ` — loud: wear hearing protection; NIOSH allows ${formatDuration(c.allowedTimeH * 3600)} a day at this level.`
+          : ` — above the ${LOWER_ACTION_DBA} dB(A) lower action value if it lasted a working day.`;
       }
-      for (const n of report.noiseDriven) {
-        const np = document.createElement('p');
-        np.textContent = `Noise-excited resonance at ${formatHz(n.frequencyHz)} (${formatClock(n.startS)}–${formatClock(n.endS)}): decay rate ${formatRate(n.decayRatePerS, n.decayRateCi95PerS)}.`;
-        out.push(np);
-      }
-      if (report.warnings?.length) {
-        const ul = document.createElement('ul');
-        ul.className = 'notes';
-        for (const w of report.warnings) {
-          const li = document.createElement('li');
-          li.textContent = w;
-          ul.append(li);
-        }
-        out.push(ul);
-      }
-      return out;
+      setText(level.detail, note);
+      level.root.classList.remove('is-missing');
+      level.root.classList.toggle('is-loud', isShowable(loudness) && loudness >= LOWER_ACTION_DBA);
+      return loudness;
+    }
+    setValue(
+      level,
+      formatDb(levelDbfs > SILENCE_DBFS ? levelDbfs : Number.NaN, 'dBFS', null, isShowable(levelDbfs) ? 'digital silence' : 'no signal'),
+      `${isShowable(toneDbfs) && toneDbfs > SILENCE_DBFS ? `tone ${formatDb(toneDbfs, 'dBFS')} · ` : ''}uncalibrated · ${timeWords}`,
+    );
+    level.root.classList.remove('is-loud');
+    return Number.NaN;
+  };
+
+  const update = (input: ReadoutInput, report?: Report): void => {
+    const { summary, isFinal } = input;
+    // The frequency stays beside its rates after the tone stops: the latest tracked one, else the rates' own.
+    const latest = summary.latestFrequencyHz;
+    const v = verdictOf({ summary, margin: input.margin, noiseDriven: report?.noiseDriven, modeStatistics: report?.modeStatistics, isFinal });
+    // Without a tone, the frequency of the resonance whose damping the verdict reports.
+    const marginHz = v.marginFrequencyHz;
+    let f = isFinal && summary.frequencyHz !== null ? summary.frequencyHz : isShowable(latest) ? latest : summary.frequencyHz;
+    let isMarginFrequency = false;
+    if (!isShowable(f) && isShowable(marginHz)) {
+      f = marginHz;
+      isMarginFrequency = true;
+    }
+    const isRatesOnly = !isFinal && !isShowable(latest) && isShowable(f) && !isMarginFrequency;
+    const isMicrophone = input.inputKind !== 'sensor';
+    const rollOff = isMicrophone && isShowable(f) && f < LOW_FREQUENCY_NOTE_HZ;
+    setValue(
+      freq,
+      formatHz(f, null, isFinal ? 'no tone found' : 'no tone'),
+      [isRatesOnly ? 'tone no longer heard; frequency of the rates below' : '', isMarginFrequency ? 'resonance excited by the noise (no tone sounding)' : '', rollOff ? `Below ${LOW_FREQUENCY_NOTE_HZ} Hz phone microphones roll off: levels read low, rates are unaffected.` : ''].filter(Boolean).join(' · '),
+    );
+    freq.root.classList.toggle('has-note', rollOff);
+
+    // The tone's level shows while a tone is heard (its weighted level falls away after it).
+    const loudness = showLevel(isShowable(latest) || isFinal ? input : { ...input, toneDbfs: Number.NaN }, isShowable(f) ? f : Number.NaN);
+
+    setText(verdict.value, v.headline);
+    setText(verdict.detail, `${v.margin} · ${v.basis}`);
+    verdict.root.dataset.verdict = v.kind;
+    // One state on the screen: a loud tone is never called quiet.
+    const regimeWord = isShowable(loudness) && loudness >= LOWER_ACTION_DBA && v.regimeWord === 'Quiet' ? 'Tone present' : v.regimeWord;
+    setText(regime.value, regimeWord);
+    regime.root.dataset.regime = summary.regime;
+    setText(regime.detail, isFinal ? 'at the end of the record' : '');
+
+    setValue(growth, formatRate(summary.growthRatePerS, summary.growthRateCi95PerS, 'no growth seen yet'), isShowable(summary.doublingTimeS) ? `doubling time ${formatSeconds(summary.doublingTimeS)}` : '');
+    setValue(decay, formatRate(summary.decayRatePerS, summary.decayRateCi95PerS, 'no decay seen yet'), isShowable(summary.t60S) ? `T60 ${formatSeconds(summary.t60S)}` : '');
+    setValue(gain, formatRate(summary.effectiveGainPerS, summary.effectiveGainCi95PerS, 'needs growth and decay'));
+    setValue(zeta, formatRatio(summary.dampingRatio, summary.dampingRatioCi95, 'needs a decay'));
+    setValue(q, formatQ(summary.qFactor, summary.qFactorCi95, 'needs a decay'));
+  };
+
+  return {
+    update: (input) => update(input),
+    showFinal(report, input) {
+      const summary: LiveSummary = {
+        ...input.summary,
+        ...report.summary,
+        latestFrequencyHz: report.summary.frequencyHz ?? input.summary.latestFrequencyHz,
+      };
+      update({ ...input, summary, isFinal: true }, report);
     },
   };
 }

@@ -7,6 +7,8 @@ import uPlot from 'uplot';
 import 'uplot/dist/uPlot.min.css';
 import { niceTicks } from '../storage/svg-plot';
 import { cssVar, h, svg } from './session-dom';
+import { layoutLabels, safeRange } from '../plot-safety';
+import { formatFixed } from '../format';
 
 export interface TimeSeries {
   label: string;
@@ -35,24 +37,32 @@ export function timeChart(spec: TimeChartSpec): { figure: HTMLElement; destroy: 
   const fg = cssVar('--fg', '#111');
   const grid = cssVar('--plot-grid', 'rgba(127,127,127,0.25)');
   const mark = cssVar('--plot-mark', '#7c3aed');
-  const tables: uPlot.AlignedData[] = spec.series.map((s) => [Array.from(s.x), Array.from(s.y, (v) => (Number.isFinite(v) ? v : null))] as unknown as uPlot.AlignedData);
+  // Non-finite and absurd values are left out (they would blow the axis up).
+  const isPlottable = (v: number): boolean => Number.isFinite(v) && Math.abs(v) < 1e12;
+  const tables: uPlot.AlignedData[] = spec.series.map((s) => {
+    const x: number[] = [];
+    const y: (number | null)[] = [];
+    for (let i = 0; i < Math.min(s.x.length, s.y.length); i++) {
+      const xv = s.x[i] ?? Number.NaN;
+      if (!isPlottable(xv) || (x.length && xv <= (x[x.length - 1] ?? -Infinity))) continue;
+      x.push(xv);
+      const yv = s.y[i] ?? Number.NaN;
+      y.push(isPlottable(yv) ? yv : null);
+    }
+    return [x, y] as unknown as uPlot.AlignedData;
+  });
   const data: uPlot.AlignedData = tables.length === 1 ? tables[0] : uPlot.join(tables);
   const axis = (label: string): uPlot.Axis => ({ label, stroke: fg, grid: { stroke: grid, width: 1 }, ticks: { stroke: grid, width: 1 } });
   const opts: uPlot.Options = {
     width: 360,
     height: spec.heightPx ?? 220,
     scales: {
-      x: { time: false },
-      y: {
-        range: (_u: uPlot, lo: number, hi: number): [number, number] => {
-          const low = spec.maxSpan !== undefined ? Math.max(lo, hi - spec.maxSpan) : lo;
-          const pad = (hi - low) * 0.05 || 1;
-          return [low - pad, hi + pad];
-        },
-      },
+      x: { time: false, range: (_u: uPlot, lo: number, hi: number): [number, number] => safeRange(lo, hi, { fallback: [0, 10], minSpan: 1, pad: 0 }) },
+      y: { range: (_u: uPlot, lo: number, hi: number): [number, number] => safeRange(lo, hi, { fallback: [0, 1], minSpan: 1, ...(spec.maxSpan !== undefined ? { maxSpan: spec.maxSpan } : {}) }) },
     },
     axes: [axis(spec.xLabel), axis(spec.yLabel)],
-    legend: { show: true },
+    legend: { show: false },
+    cursor: { show: true, y: false, points: { show: false } },
     series: [{ label: spec.xLabel }, ...spec.series.map((s) => ({ label: s.label, stroke: s.color, width: 1.5, spanGaps: spec.series.length > 1 }))],
     hooks: {
       draw: [
@@ -67,21 +77,47 @@ export function timeChart(spec: TimeChartSpec): { figure: HTMLElement; destroy: 
           ctx.lineWidth = Math.max(1, devicePixelRatio * 1.5);
           ctx.setLineDash([6 * devicePixelRatio, 4 * devicePixelRatio]);
           ctx.font = `${12 * devicePixelRatio}px system-ui, sans-serif`;
-          for (const m of marks) {
-            const x = u.valToPos(m.x, 'x', true);
-            if (!Number.isFinite(x)) continue;
+          // Labels in rows so they never overprint; one that fits no row keeps its line only.
+          const xs = marks.map((m) => u.valToPos(m.x, 'x', true));
+          const labels = marks.map((m) => m.label.slice(0, 30));
+          const rows = layoutLabels(xs.map((x) => x + 3 * devicePixelRatio), labels.map((t) => ctx.measureText(t).width), 3, 6 * devicePixelRatio);
+          marks.forEach((_m, k) => {
+            const x = xs[k] ?? Number.NaN;
+            if (!Number.isFinite(x)) return;
             ctx.beginPath();
             ctx.moveTo(x, top);
             ctx.lineTo(x, top + height);
             ctx.stroke();
-            ctx.fillText(m.label.slice(0, 30), x + 3 * devicePixelRatio, top + 12 * devicePixelRatio);
-          }
+            const row = rows[k];
+            if (row !== null && row !== undefined) ctx.fillText(labels[k] ?? '', x + 3 * devicePixelRatio, top + (12 + 14 * row) * devicePixelRatio);
+          });
           ctx.restore();
         },
       ],
     },
   };
+  // Our legend and cursor readout, in words, under the plot.
+  const readout = h('p', { className: 'plot-readout', text: 'Touch or hover the plot to read a moment.' });
+  opts.hooks = {
+    ...opts.hooks,
+    setCursor: [
+      (u: uPlot) => {
+        const i = u.cursor.idx;
+        const xv = i === null || i === undefined ? undefined : u.data[0][i];
+        if (xv === undefined) return;
+        const parts = spec.series.map((s, k) => {
+          const v = u.data[k + 1]?.[i as number];
+          return `${s.label} ${typeof v === 'number' && Number.isFinite(v) ? formatFixed(v, 1) : '—'} ${spec.yLabel}`;
+        });
+        readout.textContent = `At ${formatFixed(xv, 2)} ${spec.xLabel.replace(/^.*\((.*)\)$/, '$1')}: ${parts.join(', ')}`;
+      },
+    ],
+  };
   const plot = new uPlot(opts, data, figure);
+  figure.append(
+    h('ul', { className: 'plot-legend' }, ...spec.series.map((s) => h('li', {}, h('span', { className: 'swatch', attrs: { style: `border-color:${s.color}` } }), s.label))),
+    readout,
+  );
   const fit = (): void => {
     const w = Math.max(260, Math.floor(figure.clientWidth || 360) - 12);
     if (Math.abs(plot.width - w) > 2) plot.setSize({ width: w, height: opts.height });

@@ -8,6 +8,7 @@ import { loadFullSession, type FullSession } from '../storage/sessions';
 import { intervalChart, SERIES_COLORS, timeChart } from './session-charts';
 import { formatLocalStamp, sessionTitle, type SessionsContext, type SessionView } from './session-context';
 import { h, table } from './session-dom';
+import { beforeAfterSentences } from '../run/compare';
 
 /**
  * Time of the first onset, s: the report's first onset, else the start of the first growth
@@ -36,7 +37,7 @@ export async function renderCompare(host: HTMLElement, ctx: SessionsContext, ids
     return { destroy: () => undefined };
   }
   // Label each by date when titles repeat (the same rig before and after a fix).
-  const titles = sessions.map((s) => sessionTitle(s.record.meta.site, s.record.meta.equipment));
+  const titles = sessions.map((s) => sessionTitle(s.record.meta.site, s.record.meta.equipment, s.record.meta.fileName));
   const labels = sessions.map((s, k) => (titles.filter((t) => t === titles[k]).length > 1 ? `${titles[k]} ${formatLocalStamp(s.record.createdAtMs)}` : titles[k]));
   const shortLabels = sessions.map((s, k) => `${k + 1}. ${formatLocalStamp(s.record.createdAtMs).slice(5)}`);
   const onsets = sessions.map((s) => onsetTimeS(s.record.report, s.track));
@@ -78,11 +79,22 @@ export async function renderCompare(host: HTMLElement, ctx: SessionsContext, ids
       formatDb(sum?.limitAmplitudeDbfs, 'dBFS', null, 'no limit cycle'),
     ]),
   );
+  // Before and after: the earliest and the latest of the sessions compared.
+  const byTime = sessions.map((s, k) => ({ s, k })).sort((a, b) => a.s.record.createdAtMs - b.s.record.createdAtMs);
+  const first = byTime[0];
+  const last = byTime[byTime.length - 1];
+  const sentence = h(
+    'div',
+    { className: 'before-after', attrs: { id: 'compare-sentence' } },
+    h('h3', { className: 'section-title', text: `Before (${first.k + 1}) and after (${last.k + 1})` }),
+    ...beforeAfterSentences(first.s.record.report?.summary, last.s.record.report?.summary).map((t) => h('p', { text: t })),
+  );
   const legend = h('ol', { className: 'compare-legend' }, ...sessions.map((s, k) => h('li', {}, h('span', { className: 'swatch', attrs: { style: `background:${SERIES_COLORS[k]}` } }), h('a', { text: labels[k], attrs: { href: `#sessions/${encodeURIComponent(s.record.id)}` } }))));
   host.replaceChildren(
     back,
     h('h2', { text: `Compare ${sessions.length} sessions` }),
     legend,
+    sentence,
     h('div', { className: 'plots' }, chart.figure),
     h('figure', { className: 'plot' }, growth),
     h('figure', { className: 'plot' }, decay),

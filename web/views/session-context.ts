@@ -16,10 +16,15 @@ export interface SessionView {
   destroy(): void;
 }
 
-/** The title of a session for lists and headings: "site – equipment", or a fallback. */
-export function sessionTitle(site: string, equipment: string): string {
+/**
+ * The title of a session for lists and headings: "site – equipment"; without either, the name
+ * of the recording it was read from (without its extension); else "Unnamed session".
+ */
+export function sessionTitle(site: string, equipment: string, fileName?: string): string {
   const parts = [site.trim(), equipment.trim()].filter(Boolean);
-  return parts.length ? parts.join(' – ') : 'Unnamed session';
+  if (parts.length) return parts.join(' – ');
+  const file = (fileName ?? '').trim().replace(/\.[A-Za-z0-9]{1,5}$/, '');
+  return file || 'Unnamed session';
 }
 
 /** Local date and time, e.g. "2026-12-02 09:41". */

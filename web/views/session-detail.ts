@@ -5,7 +5,8 @@
  */
 import type { Report } from '../../dsp/types';
 import { formatClock, formatDb, formatHz, formatQ, formatRate, formatRatio, formatSeconds } from '../format';
-import { hasMarkup } from '../storage/bundle-schema';
+import { TEXT_LIMITS } from '../storage/bundle-schema';
+import { bundleOptions } from '../settings';
 import { buildBundle, sessionBaseName, sessionWav, shareOrDownload, trackCsv } from '../storage/export';
 import { buildReportHtml } from '../storage/report-html';
 import { loadFullSession, updateSessionMeta, type FullSession } from '../storage/sessions';
@@ -13,6 +14,8 @@ import { SERIES_COLORS, timeChart } from './session-charts';
 import { formatLocalStamp, sessionTitle, type SessionsContext, type SessionView } from './session-context';
 import { cssVar, formatBytes, h, table } from './session-dom';
 import { conditionsEditor, markerEditor } from './session-edit';
+import { reanalysisPanel } from './session-reanalyse';
+import { cyclesTable } from './run-result';
 
 /** Rows of the result table: label and formatted value (with unit and interval). */
 export function summaryRows(report: Report | null, calibrationOffsetDb?: number): [string, string][] {
@@ -43,15 +46,15 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   const destroyers: (() => void)[] = [];
   const { record, track } = full;
   const m = record.meta;
-  const title = h('h2', { text: sessionTitle(m.site, m.equipment) });
+  const title = h('h2', { text: sessionTitle(m.site, m.equipment, m.fileName), attrs: { id: 'session-title' } });
   const offset = typeof m.calibrationOffsetDb === 'number' && Number.isFinite(m.calibrationOffsetDb) ? m.calibrationOffsetDb : undefined;
 
   // Editable details.
-  const site = h('input', { attrs: { type: 'text', id: 'edit-site', maxlength: '200', autocomplete: 'off' } });
+  const site = h('input', { attrs: { type: 'text', id: 'edit-site', maxlength: String(TEXT_LIMITS.site), autocomplete: 'off' } });
   site.value = m.site;
-  const equipment = h('input', { attrs: { type: 'text', id: 'edit-equipment', maxlength: '200', autocomplete: 'off' } });
+  const equipment = h('input', { attrs: { type: 'text', id: 'edit-equipment', maxlength: String(TEXT_LIMITS.equipment), autocomplete: 'off' } });
   equipment.value = m.equipment;
-  const notes = h('textarea', { attrs: { id: 'edit-notes', rows: '4', maxlength: '20000' } });
+  const notes = h('textarea', { attrs: { id: 'edit-notes', rows: '4', maxlength: String(TEXT_LIMITS.notes) } });
   notes.value = m.notes;
   const formMsg = h('p', { className: 'hint', attrs: { 'aria-live': 'polite' } });
   const save = h('button', { className: 'small-button', text: 'Save details', attrs: { type: 'submit' } });
@@ -68,17 +71,10 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   );
   form.addEventListener('submit', async (e) => {
     e.preventDefault();
-    const fields: [string, string][] = [['Site', site.value], ['Equipment', equipment.value], ['Notes', notes.value]];
-    const bad = fields.find(([, v]) => hasMarkup(v));
-    if (bad) {
-      formMsg.className = 'field-error';
-      formMsg.textContent = `${bad[0]}: text may not contain HTML-like tags such as <b> or script links (write "less than" or add a space after "<").`;
-      return;
-    }
     try {
       const next = await updateSessionMeta(db, id, { site: site.value.trim(), equipment: equipment.value.trim(), notes: notes.value });
       full.record = next;
-      title.textContent = sessionTitle(next.meta.site, next.meta.equipment);
+      title.textContent = sessionTitle(next.meta.site, next.meta.equipment, next.meta.fileName);
       formMsg.className = 'hint';
       formMsg.textContent = 'Saved.';
     } catch (err) {
@@ -88,7 +84,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   });
 
   // Figures.
-  const result = h('table', { className: 'segments result-table' }, h('caption', { text: 'Result (95 % intervals)' }), h('tbody', {}, ...summaryRows(record.report, offset).map(([k, v]) => h('tr', {}, h('th', { text: k, attrs: { scope: 'row' } }), h('td', { text: v })))));
+  const result = h('div', { className: 'table-scroll' }, h('table', { className: 'segments result-table' }, h('caption', { text: 'Result (95 % intervals)' }), h('tbody', {}, ...summaryRows(record.report, offset).map(([k, v]) => h('tr', {}, h('th', { text: k, attrs: { scope: 'row' } }), h('td', { text: v }))))));
 
   // Plots.
   const times = track.map((f) => f.timeS);
@@ -118,6 +114,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   const segs = r?.segments.length
     ? table('segments', 'Segments', ['kind', 'time (m:s)', 'frequency', 'rate (95 % CI)', 'model'], r.segments.map((g) => [g.kind, `${formatClock(g.startS)}–${formatClock(g.endS)}`, formatHz(g.frequencyHz), g.ratePerS === null ? '—' : formatRate(g.ratePerS, g.rateCi95PerS), g.model ?? '']))
     : null;
+  const cycles = r ? cyclesTable(r) : null;
   const noise = r?.noiseDriven.length
     ? table('segments', 'Damping of the quiet system (noise-driven)', ['time (m:s)', 'frequency', 'decay rate (95 % CI)'], r.noiseDriven.map((n) => [`${formatClock(n.startS)}–${formatClock(n.endS)}`, formatHz(n.frequencyHz), formatRate(n.decayRatePerS, n.decayRateCi95PerS)]))
     : null;
@@ -149,11 +146,11 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   const actions = h(
     'div',
     { className: 'controls session-actions' },
-    button('Export bundle (.zip)', 'export-bundle', () => deliver(buildBundle([current()]), `${base}.zip`, 'application/zip')),
+    button('Export bundle (.zip)', 'export-bundle', () => deliver(buildBundle([current()], Date.now(), bundleOptions()), `${base}.zip`, 'application/zip')),
     button('Track (.csv)', 'export-csv', () => deliver(new TextEncoder().encode(trackCsv(track, offset)), `${base}-track.csv`, 'text/csv')),
     button('Audio (.wav)', 'export-wav', () => deliver(sessionWav(full.audio as Float32Array, m.sampleRateHz), `${base}.wav`, 'audio/wav'), !full.audio),
     button('Printable report (.html)', 'export-html', () => deliver(new TextEncoder().encode(buildReportHtml(current().record, track, Date.now())), `${base}-report.html`, 'text/html')),
-    button('Delete', 'delete-session', () => ctx.deleteWithUndo(id, sessionTitle(current().record.meta.site, current().record.meta.equipment))),
+    button('Delete', 'delete-session', () => ctx.deleteWithUndo(id, sessionTitle(current().record.meta.site, current().record.meta.equipment, current().record.meta.fileName))),
   );
 
   const facts = `${formatLocalStamp(record.createdAtMs)} · ${formatSeconds(record.durationS)} · ${m.sampleRateHz} Hz · ${m.source}${m.fileName ? ` (${m.fileName})` : ''} · ${full.audio ? `audio kept (${formatSeconds(full.audio.length / m.sampleRateHz)})` : `no audio${record.audio.stoppedReason ? ` (${record.audio.stoppedReason})` : ''}`}`;
@@ -168,9 +165,11 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
       ? h('p', {}, h('a', { className: 'big-link', attrs: { href: `#duct/${r.summary.frequencyHz.toFixed(2)}`, id: 'check-duct-mode' }, text: `Which duct mode is ${formatHz(r.summary.frequencyHz)}? Open the duct model` }))
       : null,
     plots,
+    cycles,
     segs,
     noise,
     markers,
+    reanalysisPanel(full, () => ctx.go(id)),
     notesList.length ? h('div', {}, h('h3', { className: 'section-title', text: 'Warnings and history' }), h('ul', { className: 'notes' }, ...notesList.map((w) => h('li', { text: w })))) : null,
     form,
     conditions,

@@ -1,27 +1,9 @@
-/**
- * A tiny element builder for the session views. Text only ever goes in through textContent or
- * attribute setters, never through innerHTML, so user text cannot become markup.
- */
+/** SVG, table and formatting helpers of the session views (elements come from dom.ts). */
 
-type Child = Node | string | null | undefined | false;
+import { el } from './dom';
 
-export interface Props {
-  className?: string;
-  text?: string;
-  attrs?: Record<string, string>;
-  on?: { [K in keyof HTMLElementEventMap]?: (ev: HTMLElementEventMap[K]) => void };
-}
-
-/** Creates an HTML element with a class, text, attributes, listeners and children. */
-export function h<K extends keyof HTMLElementTagNameMap>(tag: K, props: Props = {}, ...children: Child[]): HTMLElementTagNameMap[K] {
-  const el = document.createElement(tag);
-  if (props.className) el.className = props.className;
-  if (props.text !== undefined) el.textContent = props.text;
-  for (const [k, v] of Object.entries(props.attrs ?? {})) el.setAttribute(k, v);
-  for (const [type, fn] of Object.entries(props.on ?? {})) el.addEventListener(type, fn as EventListener);
-  for (const c of children) if (c !== null && c !== undefined && c !== false) el.append(c);
-  return el;
-}
+/** The screens' one element helper (dom.ts), under the short name the session views use. */
+export const h = el;
 
 const SVG_NS = 'http://www.w3.org/2000/svg';
 
@@ -33,14 +15,18 @@ export function svg<K extends keyof SVGElementTagNameMap>(tag: K, attrs: Record<
   return el;
 }
 
-/** A table from a header row and body rows of text cells. */
-export function table(className: string, caption: string, head: string[], rows: string[][]): HTMLTableElement {
-  return h(
-    'table',
-    { className },
-    h('caption', { text: caption }),
-    h('thead', {}, h('tr', {}, ...head.map((c) => h('th', { text: c, attrs: { scope: 'col' } })))),
-    h('tbody', {}, ...rows.map((r) => h('tr', {}, ...r.map((c) => h('td', { text: c }))))),
+/** A table from a header row and body rows of text cells, in a box that scrolls sideways on a narrow screen. */
+export function table(className: string, caption: string, head: string[], rows: string[][]): HTMLElement {
+  return el(
+    'div',
+    { className: 'table-scroll' },
+    el(
+      'table',
+      { className },
+      el('caption', { text: caption }),
+      el('thead', {}, el('tr', {}, ...head.map((c) => el('th', { text: c, attrs: { scope: 'col' } })))),
+      el('tbody', {}, ...rows.map((r) => el('tr', {}, ...r.map((c) => el('td', { text: c }))))),
+    ),
   );
 }
 

@@ -5,8 +5,8 @@
  * imported again.
  */
 import type { DuctGeometry, Marker } from '../../dsp/types';
-import { formatClock } from '../format';
-import { hasMarkup } from '../storage/bundle-schema';
+import { formatClock, formatFixed } from '../format';
+import { TEXT_LIMITS } from '../storage/bundle-schema';
 import type { SessionDb, SessionRecord } from '../storage/db';
 import { updateSessionMarkers, updateSessionMeta } from '../storage/sessions';
 import { h } from './session-dom';
@@ -30,12 +30,12 @@ function numberInput(id: string, value: number | undefined, step = 'any'): HTMLI
 export function markerEditor(db: SessionDb, id: string, markers: Marker[], onSaved: (m: Marker[]) => void): HTMLElement {
   if (markers.length === 0) return h('p', { className: 'hint', text: 'No markers were set while recording.' });
   const msg = h('p', { className: 'hint', attrs: { 'aria-live': 'polite' } });
-  const rows = markers.map((m, k) => ({ m, value: numberInput(`marker-value-${k}`, m.value), unit: h('input', { attrs: { type: 'text', id: `marker-unit-${k}`, maxlength: '30', autocomplete: 'off' } }) }));
+  const rows = markers.map((m, k) => ({ m, value: numberInput(`marker-value-${k}`, m.value), unit: h('input', { attrs: { type: 'text', id: `marker-unit-${k}`, maxlength: String(TEXT_LIMITS.markerUnit), autocomplete: 'off' } }) }));
   rows.forEach((r) => (r.unit.value = r.m.unit ?? ''));
   const form = h(
     'form',
     { className: 'marker-edit' },
-    h(
+    h('div', { className: 'table-scroll' }, h(
       'table',
       { className: 'segments' },
       h('caption', { text: 'Markers (control values feed the stability map)' }),
@@ -54,7 +54,7 @@ export function markerEditor(db: SessionDb, id: string, markers: Marker[], onSav
           ),
         ),
       ),
-    ),
+    )),
     h('button', { className: 'small-button', text: 'Save control values', attrs: { type: 'submit' } }),
     msg,
   );
@@ -62,16 +62,11 @@ export function markerEditor(db: SessionDb, id: string, markers: Marker[], onSav
     e.preventDefault();
     const next: Marker[] = [];
     for (const [k, r] of rows.entries()) {
-      const value = readNumber(r.value, -1e9, 1e9);
+      const value = readNumber(r.value, -Number.MAX_VALUE, Number.MAX_VALUE);
       const unit = r.unit.value.trim();
       if (Number.isNaN(value)) {
         msg.className = 'field-error';
-        msg.textContent = `Marker ${k + 1}: the control value must be a number between −1e9 and 1e9, or empty.`;
-        return;
-      }
-      if (hasMarkup(unit)) {
-        msg.className = 'field-error';
-        msg.textContent = `Marker ${k + 1}: the unit may not contain HTML-like tags.`;
+        msg.textContent = `Marker ${k + 1}: the control value must be a number, or empty.`;
         return;
       }
       const { value: _v, unit: _u, ...rest } = r.m;
@@ -92,14 +87,27 @@ export function markerEditor(db: SessionDb, id: string, markers: Marker[], onSav
   return form;
 }
 
-/** A form editing the stored duct geometry, gas temperature and calibration offset. */
+/** Words for a session's duct geometry: the figures, or "not given". */
+export function geometryWords(geometry: DuctGeometry | undefined): string {
+  if (!geometry) return 'Duct geometry: not given';
+  return `Duct: ${formatFixed(geometry.lengthM, 3)} m long, ${formatFixed(geometry.diameterM * 1000, 1)} mm bore, ${geometry.ends.replace('-', '–')}, gas ${formatFixed(geometry.gasTemperatureC, 0)} °C`;
+}
+
+/**
+ * A form editing the duct geometry, gas temperature and calibration offset stored with the
+ * session. A session without geometry says so ("not given") and takes one only when all three
+ * figures are entered; no default is ever filled in.
+ */
 export function conditionsEditor(db: SessionDb, id: string, geometry: DuctGeometry | undefined, calibrationOffsetDb: number | undefined, onSaved: (record: SessionRecord) => void): HTMLElement {
   const msg = h('p', { className: 'hint', attrs: { 'aria-live': 'polite' } });
   const length = numberInput('edit-length', geometry?.lengthM);
   const diameter = numberInput('edit-diameter', geometry ? geometry.diameterM * 1000 : undefined);
   const gas = numberInput('edit-gas', geometry?.gasTemperatureC);
+  const ends = h('select', { attrs: { id: 'edit-ends' } }, ...(['open-open', 'open-closed', 'closed-closed'] as const).map((v) => h('option', { text: v.replace('-', '–'), attrs: { value: v } })));
+  ends.value = geometry?.ends ?? 'open-open';
   const cal = numberInput('edit-calibration', calibrationOffsetDb);
-  const field = (label: string, input: HTMLInputElement): HTMLElement => h('div', { className: 'field' }, h('label', { text: label, attrs: { for: input.id } }), input);
+  const status = h('p', { className: 'hint', text: geometryWords(geometry), attrs: { id: 'session-geometry' } });
+  const field = (label: string, input: HTMLInputElement | HTMLSelectElement): HTMLElement => h('div', { className: 'field' }, h('label', { text: label, attrs: { for: input.id } }), input);
   const form = h(
     'form',
     { className: 'conditions-edit' },
@@ -107,10 +115,11 @@ export function conditionsEditor(db: SessionDb, id: string, geometry: DuctGeomet
       'fieldset',
       {},
       h('legend', { text: 'Duct, gas temperature and calibration' }),
-      geometry ? null : h('p', { className: 'hint', text: 'No duct geometry was stored with this session (it is taken from the Duct screen when recording starts).' }),
-      geometry ? field('Duct length (m)', length) : null,
-      geometry ? field('Inner diameter (mm)', diameter) : null,
-      geometry ? field('Gas temperature (°C)', gas) : null,
+      status,
+      field('Duct length (m)', length),
+      field('Inner diameter (mm)', diameter),
+      field('Ends', ends),
+      field('Gas temperature (°C)', gas),
       field('Calibration offset added to dBFS (dB)', cal),
       h('button', { className: 'small-button', text: 'Save', attrs: { type: 'submit' } }),
       msg,
@@ -124,18 +133,21 @@ export function conditionsEditor(db: SessionDb, id: string, geometry: DuctGeomet
     };
     const offset = readNumber(cal, -300, 300);
     if (Number.isNaN(offset)) return fail('The calibration offset must be a number of dB between −300 and 300, or empty.');
+    const l = readNumber(length, 0.001, 1000);
+    const d = readNumber(diameter, 0.1, 100_000);
+    const t = readNumber(gas, -273.15, 3000);
     let nextGeometry: DuctGeometry | undefined = geometry;
-    if (geometry) {
-      const l = readNumber(length, 0.001, 1000);
-      const d = readNumber(diameter, 0.1, 100_000);
-      const t = readNumber(gas, -273.15, 3000);
+    const isAnyGiven = l !== undefined || d !== undefined || t !== undefined;
+    if (isAnyGiven || geometry) {
       if (l === undefined || Number.isNaN(l)) return fail('Duct length must be a number of metres between 0.001 and 1000.');
       if (d === undefined || Number.isNaN(d)) return fail('Inner diameter must be a number of millimetres between 0.1 and 100000.');
       if (t === undefined || Number.isNaN(t)) return fail('Gas temperature must be a number of °C between −273.15 and 3000.');
-      nextGeometry = { ...geometry, lengthM: l, diameterM: d / 1000, gasTemperatureC: t };
+      const endsValue = ends.value === 'open-closed' || ends.value === 'closed-closed' ? ends.value : 'open-open';
+      nextGeometry = { openEnd: 'unflanged', ...geometry, lengthM: l, diameterM: d / 1000, gasTemperatureC: t, ends: endsValue };
     }
     try {
       onSaved(await updateSessionMeta(db, id, { ...(nextGeometry ? { geometry: nextGeometry } : {}), calibrationOffsetDb: offset }));
+      status.textContent = geometryWords(nextGeometry);
       msg.className = 'hint';
       msg.textContent = 'Saved. Reopen the session to see levels with the new calibration.';
     } catch (err) {

@@ -6,9 +6,10 @@
 import type { MountScreen } from '../app-context';
 import { formatHz, formatRate, formatSeconds } from '../format';
 import type { SessionRecord } from '../storage/db';
+import { bundleOptions } from '../settings';
 import { buildBundle, shareOrDownload } from '../storage/export';
-import { ImportError, importBundle } from '../storage/import';
-import { analyseStoredAudio } from '../storage/reanalyse';
+import { ImportError } from '../storage/import';
+import { importBundleFile, recoverInterruptedOffThread } from '../storage/off-thread';
 import {
   deleteSession,
   getSessionDb,
@@ -16,7 +17,6 @@ import {
   loadFullSession,
   onDatabaseBlocked,
   onDatabaseVersionChange,
-  recoverInterruptedSessions,
   requestPersistentStorage,
   restoreSession,
   storageFigures,
@@ -123,8 +123,9 @@ export const mountSessionsScreen: MountScreen = (root, app) => {
   // Recording left unfinished by a closed tab or a crash: complete it now, from what was stored.
   void (async () => {
     try {
-      const db = await getSessionDb();
-      const done = await recoverInterruptedSessions(db, analyseStoredAudio);
+      // Opened here first, so an upgrade of the store happens before the storage worker opens it.
+      await getSessionDb();
+      const done = await recoverInterruptedOffThread();
       if (done.length) {
         app.notify(`${done.length === 1 ? 'A recording was' : `${done.length} recordings were`} interrupted (tab closed or crashed); completed from what was stored. See Sessions.`, 'warn');
         if (!root.hidden && !location.hash.includes('/')) void show(undefined);
@@ -170,7 +171,7 @@ async function renderList(host: HTMLElement, ctx: SessionsContext): Promise<Sess
 
   const listItem = (s: SessionRecord): HTMLElement => {
     const sum = s.report?.summary;
-    const box = h('input', { attrs: { type: 'checkbox', 'aria-label': `Select ${sessionTitle(s.meta.site, s.meta.equipment)}` } });
+    const box = h('input', { attrs: { type: 'checkbox', 'aria-label': `Select ${sessionTitle(s.meta.site, s.meta.equipment, s.meta.fileName)}` } });
     box.checked = selected.has(s.id);
     box.addEventListener('change', () => {
       if (box.checked) selected.add(s.id);
@@ -185,7 +186,7 @@ async function renderList(host: HTMLElement, ctx: SessionsContext): Promise<Sess
       h(
         'div',
         { className: 'session-main' },
-        h('a', { className: 'session-link', text: sessionTitle(s.meta.site, s.meta.equipment), attrs: { href: `#sessions/${encodeURIComponent(s.id)}` } }),
+        h('a', { className: 'session-link', text: sessionTitle(s.meta.site, s.meta.equipment, s.meta.fileName), attrs: { href: `#sessions/${encodeURIComponent(s.id)}` } }),
         badge,
         h('div', { className: 'session-facts', text: `${formatLocalStamp(s.createdAtMs)} · ${formatSeconds(s.durationS)}${s.audio.sampleCount > 0 ? ' · audio' : ''}` }),
         h('div', { className: 'session-facts', text: sum ? `${formatHz(sum.frequencyHz)} · growth ${formatRate(sum.growthRatePerS, sum.growthRateCi95PerS, 'none')} · decay ${formatRate(sum.decayRatePerS, sum.decayRateCi95PerS, 'none')}` : 'no report' }),
@@ -239,7 +240,7 @@ async function renderList(host: HTMLElement, ctx: SessionsContext): Promise<Sess
     }
     if (!full.length) return;
     try {
-      const bytes = buildBundle(full);
+      const bytes = buildBundle(full, Date.now(), bundleOptions());
       const stamp = new Date().toISOString().slice(0, 10);
       const how = await shareOrDownload(bytes, `humgauge-${full.length}-sessions-${stamp}.zip`, 'application/zip');
       if (how !== 'cancelled') ctx.app.notify(`Exported ${full.length} session${full.length === 1 ? '' : 's'} (${formatBytes(bytes.length)}).`, 'info');
@@ -260,7 +261,7 @@ async function renderList(host: HTMLElement, ctx: SessionsContext): Promise<Sess
     }
     importMsg.textContent = `Reading ${file.name}…`;
     try {
-      const result = await importBundle(db, new Uint8Array(await file.arrayBuffer()));
+      const result = await importBundleFile(file);
       const parts = [];
       if (result.imported.length) parts.push(`imported ${result.imported.length} session${result.imported.length === 1 ? '' : 's'}`);
       if (result.alreadyPresent.length) parts.push(`${result.alreadyPresent.length} already stored (left unchanged)`);

@@ -13,8 +13,8 @@ import {
   type Settings,
   type Theme,
 } from '../settings';
-import { measureLevel } from '../capture/measure-level';
-import { CaptureError } from '../capture/mic';
+import { el } from './dom';
+import { measureMicrophoneLevel } from '../run/calibration-run';
 import { formatDb, formatHz } from '../format';
 
 /** Seconds of sound measured for a calibration. */
@@ -118,6 +118,11 @@ export const mountSettingsScreen: MountScreen = (root, app) => {
     settings.isKeepingAudio = keep.input.checked;
     save(keep.input.checked ? 'Audio will be kept with sessions.' : 'Only the track and results will be kept.');
   });
+  const floatAudio = checkbox('export-float-audio', settings.isExportingFloatAudio, 'Export bundles with 32-bit float audio (every sample exact, twice the size; 16-bit otherwise)');
+  floatAudio.input.addEventListener('change', () => {
+    settings.isExportingFloatAudio = floatAudio.input.checked;
+    save(floatAudio.input.checked ? 'Bundles will carry 32-bit float audio.' : 'Bundles will carry 16-bit audio.');
+  });
   const theme = document.createElement('select');
   theme.id = 'theme';
   for (const [value, text] of [['daylight', 'Daylight (high contrast, light)'], ['dark', 'Dark (dim rooms)']] as const) {
@@ -132,7 +137,14 @@ export const mountSettingsScreen: MountScreen = (root, app) => {
     applyTheme(settings.theme);
     save('Theme changed; plots take it from the next start of the app.');
   });
-  displayBox.append(displayLegend, aw.wrap, keep.wrap, field('Theme', theme));
+  // Time weighting of the level readout, IEC 61672-1 §5.8 (web/run/time-weighting.ts).
+  const weighting = el('select', { id: 'level-weighting' }, el('option', { value: 'slow', text: 'Slow, S (1 s): steady hums, readable' }), el('option', { value: 'fast', text: 'Fast, F (0.125 s): follows quick changes' }));
+  weighting.value = settings.levelWeighting;
+  weighting.addEventListener('change', () => {
+    settings.levelWeighting = weighting.value === 'fast' ? 'fast' : 'slow';
+    save(`Level readout time weighting ${settings.levelWeighting === 'fast' ? 'F (0.125 s)' : 'S (1 s)'} from the next run.`);
+  });
+  displayBox.append(displayLegend, aw.wrap, keep.wrap, floatAudio.wrap, field('Level time weighting', weighting), field('Theme', theme));
 
   // Calibration.
   const calBox = document.createElement('fieldset');
@@ -220,7 +232,7 @@ export const mountSettingsScreen: MountScreen = (root, app) => {
     calProgress.value = 0;
     calResult.textContent = 'Measuring… keep the sound steady.';
     try {
-      const m = await measureLevel(MEASURE_S, (f) => {
+      const m = await measureMicrophoneLevel(MEASURE_S, (f) => {
         calProgress.value = f;
       });
       const offset = calibrationOffsetDb(ref, m.levelDbfs);
@@ -235,7 +247,7 @@ export const mountSettingsScreen: MountScreen = (root, app) => {
       calResult.textContent = text;
       renderCalibrations();
     } catch (err) {
-      calResult.textContent = err instanceof CaptureError ? err.message : `Calibration failed: ${err instanceof Error ? err.message : String(err)}.`;
+      calResult.textContent = err instanceof Error ? err.message : String(err);
     } finally {
       measure.disabled = false;
       calProgress.hidden = true;

@@ -5,11 +5,12 @@
  * updates go back to the app in batches of about 66 ms so the app only draws.
  */
 import { createAnalysis } from '../../dsp/index';
+import { createLiveMargin, estimateLiveMargin, feedLiveMargin, isLiveMarginDue, LIVE_MARGIN_EVERY_S, restartLiveMargin, type LiveMarginState } from '../../dsp/live-margin';
 import { createWavDecoder } from '../../dsp/io/wav';
 import { InputError } from '../../dsp/io/errors';
 import type { Analysis, AnalysisConfig, Marker, Onset, Segment, TrackFrame } from '../../dsp/types';
 import { emptyLiveSummary, updateLiveSummary, type LiveSummary } from './live-summary';
-import { parseToWorker, transferablesOf, type FromWorker, type ToWorker, type UpdateMessage } from './protocol';
+import { parseToWorker, reduceToLogRows, SPECTROGRAM_ROWS, SPECTROGRAM_STEP_S, transferablesOf, type FromWorker, type SpectrogramColumn, type ToWorker, type UpdateMessage } from './protocol';
 
 declare const self: DedicatedWorkerGlobalScope;
 
@@ -41,7 +42,17 @@ interface Run {
   analysisMs: number;
   /** Last frequency of the main tone the track followed, Hz (NaN before any). */
   mainFrequencyHz: number;
+  /** Spectrogram columns not yet posted, the band they span, and the time of the last one, s. */
+  pendingColumns: SpectrogramColumn[];
+  columnBandHz: [number, number];
+  lastColumnS: number;
+  /** The growth rate from the noise over the current stretch of steady operation (dsp/live-margin.ts), and when it was last estimated (wall ms). */
+  liveMargin: LiveMarginState;
+  lastMarginMs: number;
 }
+
+/** Band of the analysis when the request does not give one, Hz (dsp/types.ts AnalysisConfig defaults). */
+const DEFAULT_BAND_HZ: [number, number] = [20, 4000];
 
 let run: Run | null = null;
 
@@ -76,6 +87,11 @@ function createRun(id: number, config: AnalysisConfig, isKeepingAudio: boolean, 
     summary: emptyLiveSummary(),
     analysisMs: 0,
     mainFrequencyHz: Number.NaN,
+    pendingColumns: [],
+    columnBandHz: [config.bandLowHz ?? DEFAULT_BAND_HZ[0], Math.min(config.bandHighHz ?? DEFAULT_BAND_HZ[1], config.sampleRateHz / 2)],
+    lastColumnS: -Infinity,
+    liveMargin: createLiveMargin({ sampleRateHz: config.sampleRateHz }),
+    lastMarginMs: -Infinity,
   };
 }
 
@@ -95,9 +111,18 @@ function pushBlock(r: Run, samples: Float32Array): void {
     if (!r.spectrum || r.spectrum.length !== u.spectrumDbfs.length) r.spectrum = new Float32Array(u.spectrumDbfs.length);
     r.spectrum.set(u.spectrumDbfs);
     r.spectrumBinHz = u.spectrumBinHz;
+    // A spectrogram column every SPECTROGRAM_STEP_S of the record, however fast a file is read.
+    const timeS = r.samplesSeen / r.sampleRateHz;
+    if (timeS - r.lastColumnS >= SPECTROGRAM_STEP_S && u.spectrumBinHz > 0) {
+      const dbfs = new Float32Array(SPECTROGRAM_ROWS);
+      reduceToLogRows(u.spectrumDbfs, u.spectrumBinHz, r.columnBandHz[0], r.columnBandHz[1], dbfs);
+      r.pendingColumns.push({ timeS, dbfs });
+      r.lastColumnS = timeS;
+    }
   }
   if (u.peakAbs > r.peakAbs) r.peakAbs = u.peakAbs;
   if (u.isClipped) r.isClipped = true;
+  feedLiveMargin(r.liveMargin, samples, u);
   if (r.isKeepingAudio) keepAudio(r, samples);
 }
 
@@ -140,13 +165,21 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
     peakAbs: r.peakAbs,
     isClipped: r.isClipped,
     markers: r.pendingMarkers,
+    columns: r.pendingColumns,
+    columnBandHz: r.columnBandHz,
     summary: { ...r.summary },
     mainFrequencyHz: r.mainFrequencyHz,
   };
+  // At most every LIVE_MARGIN_EVERY_S of wall time, so a file read fast is not held up.
+  if (isLiveMarginDue(r.liveMargin) && now - r.lastMarginMs >= LIVE_MARGIN_EVERY_S * 1000) {
+    r.lastMarginMs = now;
+    message.margin = estimateLiveMargin(r.liveMargin, last?.state === 'steady' ? r.mainFrequencyHz : Number.NaN, r.columnBandHz[1]);
+  }
   r.pendingFrames = [];
   r.pendingOnsets = [];
   r.pendingSegments = [];
   r.pendingMarkers = [];
+  r.pendingColumns = [];
   r.peakAbs = 0;
   r.isClipped = false;
   post(message);
@@ -270,6 +303,7 @@ function handle(message: ToWorker): void {
     }
     case 'analyse-file': {
       run = createRun(message.id, message.config, message.isKeepingAudio, null);
+      for (const m of message.markers ?? []) run.analysis.mark({ ...m });
       post({ type: 'ready', id: message.id });
       analyseFile(run, message.channels);
       return;
@@ -295,6 +329,7 @@ function handle(message: ToWorker): void {
       return;
     case 'gap':
       r.analysis.gap(Math.round(message.missingSamples));
+      restartLiveMargin(r.liveMargin, Math.round(message.missingSamples));
       r.samplesSeen += Math.round(message.missingSamples);
       return;
     case 'mark': {

@@ -6,8 +6,9 @@
  * MessagePort handed over in `start`; the worker runs dsp/ on them and posts batched `update`s
  * (about 15 per second) to the app, which only draws them.
  */
-import type { AnalysisConfig, AnalysisUpdate, Marker, Report } from '../../dsp/types';
+import type { AnalysisConfig, AnalysisUpdate, Interval, Marker, Report } from '../../dsp/types';
 import type { LiveSummary } from './live-summary';
+import { MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ } from '../../dsp/condition';
 
 /** Where the samples of a run come from. */
 export type RunSource = 'microphone' | 'file';
@@ -51,6 +52,8 @@ export interface AnalyseFileRequest {
   config: AnalysisConfig;
   channels: Float32Array[];
   isKeepingAudio: boolean;
+  /** Markers of the record (re-analysis of a stored session), placed before the samples are analysed. */
+  markers?: Marker[];
 }
 
 /**
@@ -81,6 +84,59 @@ export interface ReadyMessage {
   id: number;
 }
 
+/**
+ * How close the quiet system is to humming: the linear growth rate of its least-damped mode
+ * (negative = stable; −growth rate is the decay rate of the quiet system), with its 95 % interval,
+ * estimated while it runs (e.g. from the noise that excites the mode). The verdict of the Listen
+ * screen uses it when present.
+ */
+export interface MarginEstimate {
+  frequencyHz: number;
+  growthRatePerS: number;
+  growthRateCi95PerS: Interval;
+  /** How it was estimated, in words for the user (e.g. "from the noise-excited resonance"). */
+  method: string;
+  /** Time span of the data behind it, s. */
+  startS: number;
+  endS: number;
+}
+
+/** Rows of a spectrogram column: log-spaced from the band's low to its high edge. */
+export const SPECTROGRAM_ROWS = 192;
+/** Shortest time between two spectrogram columns, s of record (10 columns a second at most). */
+export const SPECTROGRAM_STEP_S = 0.1;
+
+/** One column of the spectrogram: the spectrum at `timeS` reduced to SPECTROGRAM_ROWS log-spaced rows (the loudest bin of each, dBFS). */
+export interface SpectrogramColumn {
+  timeS: number;
+  dbfs: Float32Array;
+}
+
+/**
+ * Reduces a spectrum (dBFS per bin of `binHz`) to `out.length` rows log-spaced over [lowHz, highHz]:
+ * each row holds the loudest bin between its edges (the nearest bin when a row is narrower than a
+ * bin), so a tone between rows is never lost.
+ */
+export function reduceToLogRows(spectrumDbfs: Float32Array, binHz: number, lowHz: number, highHz: number, out: Float32Array): void {
+  const rows = out.length;
+  const lo = Math.max(lowHz, binHz);
+  const ratio = highHz / lo;
+  for (let r = 0; r < rows; r++) {
+    const f0 = lo * ratio ** (r / rows);
+    const f1 = lo * ratio ** ((r + 1) / rows);
+    let k0 = Math.round(f0 / binHz);
+    let k1 = Math.max(k0, Math.round(f1 / binHz) - 1);
+    k0 = Math.min(spectrumDbfs.length - 1, Math.max(0, k0));
+    k1 = Math.min(spectrumDbfs.length - 1, Math.max(k0, k1));
+    let best = -Infinity;
+    for (let k = k0; k <= k1; k++) {
+      const v = spectrumDbfs[k] ?? -Infinity;
+      if (v > best) best = v;
+    }
+    out[r] = Number.isFinite(best) ? best : -200;
+  }
+}
+
 /** Worker → app: what changed since the previous update. */
 export interface UpdateMessage extends AnalysisUpdate {
   type: 'update';
@@ -93,6 +149,11 @@ export interface UpdateMessage extends AnalysisUpdate {
   summary: LiveSummary;
   /** Last frequency of the main tone the track followed, Hz (NaN before any); segments of other tones are not the main story. */
   mainFrequencyHz: number;
+  /** Spectrogram columns since the previous update: dBFS in SPECTROGRAM_ROWS log-spaced rows over `columnBandHz`. */
+  columns: SpectrogramColumn[];
+  columnBandHz: [number, number];
+  /** Latest margin of the quiet system, when the analysis has one (absent: unchanged). */
+  margin?: MarginEstimate | null;
 }
 
 /** Worker → app: samples for the session store (mono, run sample rate). */
@@ -140,6 +201,9 @@ export interface ErrorMessage {
 
 export type FromWorker = ReadyMessage | UpdateMessage | AudioMessage | ProgressMessage | FileFormatMessage | ReportMessage | ErrorMessage;
 
+/** Sample rates a run accepts, Hz: the analysis's own limits (sensor logs from 500 Hz, audio up to 192 kHz). */
+export { MIN_SAMPLE_RATE_HZ, MAX_SAMPLE_RATE_HZ };
+
 const TO_WORKER_TYPES: ReadonlySet<string> = new Set(['start', 'block', 'gap', 'mark', 'analyse-file', 'analyse-wav', 'finish']);
 const FROM_WORKER_TYPES: ReadonlySet<string> = new Set(['ready', 'update', 'audio', 'progress', 'file-format', 'report', 'error']);
 
@@ -162,8 +226,8 @@ export function parseToWorker(data: unknown): { ok: true; message: ToWorker } | 
     case 'analyse-file': {
       const config = rec.config as Record<string, unknown> | undefined;
       const rate = config?.sampleRateHz;
-      if (typeof rate !== 'number' || !Number.isFinite(rate) || rate < 8000 || rate > 192_000) {
-        return { ok: false, reason: `sample rate ${String(rate)} Hz is outside 8000–192000 Hz` };
+      if (typeof rate !== 'number' || !Number.isFinite(rate) || rate < MIN_SAMPLE_RATE_HZ || rate > MAX_SAMPLE_RATE_HZ) {
+        return { ok: false, reason: `sample rate ${String(rate)} Hz is outside ${MIN_SAMPLE_RATE_HZ}–${MAX_SAMPLE_RATE_HZ} Hz` };
       }
       if (data.type === 'analyse-file') {
         const ch = rec.channels;
@@ -215,7 +279,7 @@ export function transferablesOf(message: ToWorker | FromWorker): Transferable[] 
     case 'start':
       return message.port ? [message.port] : [];
     case 'update':
-      return message.spectrumDbfs ? [message.spectrumDbfs.buffer as ArrayBuffer] : [];
+      return [...(message.spectrumDbfs ? [message.spectrumDbfs.buffer as ArrayBuffer] : []), ...message.columns.map((c) => c.dbfs.buffer as ArrayBuffer)];
     default:
       return [];
   }

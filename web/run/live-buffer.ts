@@ -4,6 +4,13 @@
  * A gap in the input is stored as a row of NaN so the plots break the line there.
  */
 import type { Marker, Segment, TrackFrame } from '../../dsp/types';
+import type { SpectrogramColumn } from '../worker/protocol';
+
+/**
+ * Most spectrogram columns held. When full, every second column is dropped, so a long record
+ * keeps its whole span at a coarser time step (10 columns/s for the first 6 minutes).
+ */
+export const MAX_COLUMNS = 3600;
 
 export interface LiveBuffer {
   readonly capacity: number;
@@ -19,8 +26,13 @@ export interface LiveBuffer {
   gapTimesS: number[];
   spectrumDbfs: Float32Array | null;
   spectrumBinHz: number;
-  /** Spectra received so far (the spectrogram draws one column per new spectrum). */
+  /** Spectra received so far. */
   spectrumCount: number;
+  /** Spectrogram columns in time order, and the band their rows span, Hz. */
+  columns: SpectrogramColumn[];
+  columnBandHz: [number, number];
+  /** A moment the user picked (spectrum of that moment), s, or NaN. */
+  chosenTimeS: number;
   /** Bumped on every change, so a view can skip drawing when nothing changed. */
   version: number;
 }
@@ -41,6 +53,9 @@ export function createLiveBuffer(capacity: number): LiveBuffer {
     spectrumDbfs: null,
     spectrumBinHz: 0,
     spectrumCount: 0,
+    columns: [],
+    columnBandHz: [20, 4000],
+    chosenTimeS: Number.NaN,
     version: 0,
   };
 }
@@ -54,7 +69,35 @@ export function resetLiveBuffer(b: LiveBuffer): void {
   b.spectrumDbfs = null;
   b.spectrumBinHz = 0;
   b.spectrumCount = 0;
+  b.columns = [];
+  b.chosenTimeS = Number.NaN;
   b.version++;
+}
+
+/** Appends spectrogram columns, thinning the held ones by half whenever MAX_COLUMNS is reached. */
+export function appendColumns(b: LiveBuffer, columns: readonly SpectrogramColumn[], bandHz: [number, number]): void {
+  if (!columns.length) return;
+  b.columnBandHz = bandHz;
+  for (const c of columns) {
+    b.columns.push(c);
+    if (b.columns.length >= MAX_COLUMNS) b.columns = b.columns.filter((_, k) => k % 2 === 0);
+  }
+  b.version++;
+}
+
+/** Index of the column nearest to `timeS` (−1 when there is none). */
+export function columnAt(b: LiveBuffer, timeS: number): number {
+  const cs = b.columns;
+  if (!cs.length || !Number.isFinite(timeS)) return -1;
+  let lo = 0;
+  let hi = cs.length - 1;
+  while (lo < hi) {
+    const mid = (lo + hi) >> 1;
+    if ((cs[mid]?.timeS ?? 0) < timeS) lo = mid + 1;
+    else hi = mid;
+  }
+  if (lo > 0 && Math.abs((cs[lo - 1]?.timeS ?? 0) - timeS) < Math.abs((cs[lo]?.timeS ?? 0) - timeS)) return lo - 1;
+  return lo;
 }
 
 function writeRow(b: LiveBuffer, timeS: number, freqHz: number, ampDbfs: number, levelDbfs: number): void {

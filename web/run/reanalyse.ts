@@ -1,0 +1,73 @@
+/**
+ * Re-analysis of a stored session: its kept audio runs again through the analysis worker (the
+ * same pipeline as a live run or an opened file), with a band, markers moved or added after the
+ * fact, or a band centred on another mode of interest. The session changes only when the user
+ * keeps the new result.
+ */
+import type { Marker, Report } from '../../dsp/types';
+import { checkBand } from '../settings';
+import { getSessionDb, replaceSessionReport } from '../storage/sessions';
+import { formatClock, formatHz } from '../format';
+import { createWorkerClient } from './worker-client';
+
+export interface ReanalysisOptions {
+  bandLowHz: number;
+  bandHighHz: number;
+  markers: Marker[];
+}
+
+/**
+ * The band of one octave centred (geometrically) on a mode of interest: [f/√2, f·√2]. One octave
+ * is the narrowest band the analysis accepts (settings.ts checkBand), so neighbouring modes of a
+ * duct (f, 2f, 3f) fall outside it.
+ */
+export function octaveAround(frequencyHz: number): [number, number] {
+  return [frequencyHz / Math.SQRT2, frequencyHz * Math.SQRT2];
+}
+
+/** Checks the options; returns a message naming the field at fault, or null. */
+export function checkReanalysis(o: ReanalysisOptions, durationS: number): string | null {
+  const band = checkBand(o.bandLowHz, o.bandHighHz);
+  if (band) return `Band: ${band}`;
+  for (const [k, m] of o.markers.entries()) {
+    if (!Number.isFinite(m.timeS) || m.timeS < 0 || m.timeS > durationS) return `Marker ${k + 1} (“${m.label}”): its time must lie within the record, 0:00.0 to ${formatClock(durationS)}.`;
+  }
+  return null;
+}
+
+/** Runs the analysis over `audio`; resolves with the report or rejects with a message for the user. */
+export function reanalyseAudio(audio: Float32Array, sampleRateHz: number, o: ReanalysisOptions, onProgress: (fraction: number) => void): Promise<Report> {
+  return new Promise((resolve, reject) => {
+    const id = 1;
+    const client = createWorkerClient(
+      (m) => {
+        if (m.id !== id) return;
+        if (m.type === 'progress') onProgress(m.fraction);
+        else if (m.type === 'report') {
+          client.terminate();
+          resolve(m.report);
+        } else if (m.type === 'error') {
+          client.terminate();
+          reject(new Error(m.message));
+        }
+      },
+      (message) => reject(new Error(`The analysis stopped with an error: ${message}.`)),
+    );
+    const markers = [...o.markers].sort((a, b) => a.timeS - b.timeS);
+    client.send({
+      type: 'analyse-file',
+      id,
+      config: { sampleRateHz, bandLowHz: o.bandLowHz, bandHighHz: o.bandHighHz },
+      channels: [audio.slice()],
+      isKeepingAudio: false,
+      markers,
+    });
+  });
+}
+
+/** Keeps a re-analysis as the session's report, with its markers, and notes how it was made. */
+export async function keepReanalysis(sessionId: string, report: Report, o: ReanalysisOptions): Promise<void> {
+  const db = await getSessionDb();
+  const note = `Re-analysed on ${new Date().toISOString()} with the band ${formatHz(o.bandLowHz)}–${formatHz(o.bandHighHz)} and ${o.markers.length} marker${o.markers.length === 1 ? '' : 's'}${o.markers.length ? ` (${o.markers.map((m) => `${m.label} at ${formatClock(m.timeS)}`).join(', ')})` : ''}.`;
+  await replaceSessionReport(db, sessionId, report, [...o.markers].sort((a, b) => a.timeS - b.timeS), note);
+}

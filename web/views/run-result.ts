@@ -1,0 +1,114 @@
+/**
+ * The result panel of a finished run or a re-analysis: a one-line summary, the segments of the
+ * record, a table per firing cycle when there are several, clipping, noise-excited resonances,
+ * the analysis warnings, and what the analysis cost on this device. Tables scroll inside their box.
+ */
+import type { Report, RegimeKind } from '../../dsp/types';
+import type { RunResult } from '../run/run-controller';
+import { cyclesOf } from '../run/cycles';
+import { formatClock, formatDb, formatHz, formatRate, formatSeconds } from '../format';
+import { el } from './dom';
+
+export const REGIME_WORDS: Record<RegimeKind, string> = {
+  quiet: 'Quiet',
+  growth: 'Growing',
+  steady: 'Steady hum',
+  decay: 'Dying away',
+};
+
+/** A table of text cells inside a box that scrolls sideways on a narrow screen. */
+export function scrollTable(id: string, caption: string, head: string[], rows: string[][], rowData: (Record<string, string> | undefined)[] = []): HTMLElement {
+  const table = el(
+    'table',
+    { className: 'segments', id },
+    el('caption', { text: caption }),
+    el('thead', {}, el('tr', {}, ...head.map((c) => el('th', { text: c, attrs: { scope: 'col' } })))),
+    el(
+      'tbody',
+      {},
+      ...rows.map((r, k) => {
+        const tr = el('tr', {}, ...r.map((c) => el('td', { text: c })));
+        for (const [key, v] of Object.entries(rowData[k] ?? {})) tr.dataset[key] = v;
+        return tr;
+      }),
+    ),
+  );
+  return el('div', { className: 'table-scroll' }, table);
+}
+
+/** The segments table of a report. */
+export function segmentsTable(report: Report): HTMLElement {
+  return scrollTable(
+    'segments-table',
+    'Segments of the record',
+    ['Regime', 'From', 'To', 'Frequency', 'Rate'],
+    report.segments.map((s) => [
+      REGIME_WORDS[s.kind] ?? s.kind,
+      formatClock(s.startS),
+      formatClock(s.endS),
+      formatHz(s.frequencyHz),
+      s.kind === 'quiet' ? '—' : formatRate(s.ratePerS, s.rateCi95PerS, s.kind === 'steady' ? 'steady' : 'no fit'),
+    ]),
+    report.segments.map((s) => ({ kind: s.kind })),
+  );
+}
+
+/** One row per firing cycle, when the record holds more than one (null otherwise). */
+export function cyclesTable(report: Report): HTMLElement | null {
+  const cycles = cyclesOf(report);
+  if (cycles.length < 2) return null;
+  return scrollTable(
+    'cycles-table',
+    `Firing cycles (${cycles.length})`,
+    ['#', 'From', 'To', 'Frequency', 'Growth rate', 'Decay rate', 'Limit amplitude'],
+    cycles.map((c, k) => [
+      String(k + 1),
+      formatClock(c.startS),
+      formatClock(c.endS),
+      formatHz(c.frequencyHz),
+      formatRate(c.growthRatePerS, c.growthRateCi95PerS, 'not fitted'),
+      formatRate(c.decayRatePerS, c.decayRateCi95PerS, 'not seen'),
+      formatDb(c.limitAmplitudeDbfs, 'dBFS', null, 'no limit cycle'),
+    ]),
+  );
+}
+
+/** The parts of a report's panel that do not depend on how it was run. */
+export function renderReportParts(report: Report, title: string): HTMLElement[] {
+  const out: HTMLElement[] = [
+    el('h2', { text: title }),
+    el('p', {
+      text: `${formatSeconds(report.durationS)} at ${report.sampleRateHz} Hz · ${report.onsets.length} onset${report.onsets.length === 1 ? '' : 's'} · ${report.segments.length} segment${report.segments.length === 1 ? '' : 's'}`,
+    }),
+  ];
+  const cycles = cyclesTable(report);
+  if (cycles) out.push(cycles);
+  out.push(segmentsTable(report));
+  if (report.clipped?.length) {
+    const spans = report.clipped.slice(0, 5).map((c) => `${formatClock(c.startS)}–${formatClock(c.endS)}`).join(', ');
+    out.push(el('p', { className: 'alert clipped-note', text: `The input clipped (${spans}${report.clipped.length > 5 ? ', …' : ''}): levels there read low and rates fitted across it are unreliable. Move the phone further away.` }));
+  }
+  for (const n of report.noiseDriven) {
+    out.push(el('p', { text: `Noise-excited resonance at ${formatHz(n.frequencyHz)} (${formatClock(n.startS)}–${formatClock(n.endS)}): decay rate ${formatRate(n.decayRatePerS, n.decayRateCi95PerS)}.` }));
+  }
+  if (report.warnings?.length) out.push(el('ul', { className: 'notes' }, ...report.warnings.map((w) => el('li', { text: w }))));
+  return out;
+}
+
+/** The whole result panel of a run. */
+export function renderRunResult(r: RunResult): HTMLElement[] {
+  const out = renderReportParts(r.report, r.title);
+  if (r.samplesAnalysed > 0 && r.report.sampleRateHz > 0) {
+    // Cost of the analysis on this device: ms of computing per second of audio.
+    const audioS = r.samplesAnalysed / r.report.sampleRateHz;
+    const cost = el('p', {
+      className: 'hint',
+      id: 'analysis-cost',
+      text: `Analysis took ${formatSeconds(r.analysisMs / 1000)} for ${formatSeconds(audioS)} of audio (${formatSeconds(r.analysisMs / 1000 / audioS)} per second of audio) on this device.`,
+    });
+    cost.dataset.analysisMs = String(r.analysisMs);
+    cost.dataset.audioS = String(audioS);
+    out.push(cost);
+  }
+  return out;
+}
