@@ -7,7 +7,7 @@
 import { STATE_GROWTH, STATE_QUIET, STATE_STEADY, type RegimeSegment } from './regime';
 import { isLockedHarmonic } from './locking';
 import { segmentFrequency } from './segment-fit';
-import { peakPower, type ToneRuntime } from './tone-store';
+import { peakPower, topPowerIn, type ToneRuntime } from './tone-store';
 import { harmonicToleranceHz, matchToleranceHz, MAX_HARMONIC, medianFrequencyHz } from './track';
 
 /** A weaker line within this fraction of a tone's frequency and this many dB below it is its sidelobe or intermodulation product. */
@@ -105,6 +105,46 @@ function dropOverlaps(fam: Family, dropped: Set<RegimeSegment>): void {
   }
 }
 
+/**
+ * Tracks of two tones that tell one line at once: a track left on a nearby resonance reads a hum
+ * that rose beside it through the skirt of its band (phase-slope frequency of the segment on the
+ * hum, level clearly lower). Where active segments of tracks of different families overlap in
+ * time and lie within the match tolerance of each other, the line is told by the track that sees
+ * it more than DUPLICATE_SKIRT_DB stronger over the overlap; between two that see it alike, by the
+ * one started first. The other's segment is dropped.
+ */
+function dropSkirtDuplicates(families: Family[], binHz: number, dropped: Set<RegimeSegment>): void {
+  const skirt = 10 ** (DUPLICATE_SKIRT_DB / 10);
+  const segs: { fam: Family; tr: ToneRuntime; s: RegimeSegment; a: number; b: number; f: number }[] = [];
+  for (const fam of families) {
+    for (const tr of fam.tracks) {
+      for (const s of tr.regime.segments) {
+        if (s.state === STATE_QUIET || s.endIdx <= s.startIdx || dropped.has(s)) continue;
+        const f = segmentFrequency(tr, s);
+        if (Number.isFinite(f)) segs.push({ fam, tr, s, a: tr.timeS[s.startIdx], b: tr.timeS[s.endIdx - 1], f });
+      }
+    }
+  }
+  for (const x of segs) {
+    for (const y of segs) {
+      if (x.fam === y.fam || dropped.has(x.s) || dropped.has(y.s) || !(x.a < y.b && x.b > y.a)) continue;
+      if (Math.abs(x.f - y.f) > matchToleranceHz(binHz, Math.max(x.f, y.f))) continue;
+      // Levels of both over the overlap (each track's envelope index from its own time axis).
+      const t0 = Math.max(x.a, y.a);
+      const t1 = Math.min(x.b, y.b);
+      const px = topPowerIn(x.tr, x.s.startIdx + indexOffset(x.tr, x.s.startIdx, t0), x.s.startIdx + indexOffset(x.tr, x.s.startIdx, t1) + 1);
+      const py = topPowerIn(y.tr, y.s.startIdx + indexOffset(y.tr, y.s.startIdx, t0), y.s.startIdx + indexOffset(y.tr, y.s.startIdx, t1) + 1);
+      const isXWeaker = py > skirt * px || (px <= skirt * py && y.tr.tone.id < x.tr.tone.id);
+      dropped.add(isXWeaker ? x.s : y.s);
+    }
+  }
+}
+
+/** Envelope samples from index i0 of tr to time tS (rounded, ≥ 0). */
+function indexOffset(tr: ToneRuntime, i0: number, tS: number): number {
+  return Math.max(0, Math.round((tS - tr.timeS[i0]) * tr.env.outputRateHz));
+}
+
 /** Growth spans [start, end] (s) of a family's tracks. */
 function growthSpans(q: Family): [number, number][] {
   return q.tracks.flatMap((t) => t.regime.segments.filter((g) => g.state === STATE_GROWTH && g.endIdx > g.startIdx).map((g): [number, number] => [t.timeS[g.startIdx], t.timeS[g.endIdx - 1]]));
@@ -193,6 +233,7 @@ export function groupTones(all: ToneRuntime[], binHz: number, floorPower = 0): G
     const segs = fam.tracks.flatMap((t) => t.regime.segments).filter((s) => !dropped.has(s));
     if (segs.length > 0 && segs.every((s) => s.state === STATE_STEADY)) fam.isSteadyLine = true;
   }
+  dropSkirtDuplicates(families, binHz, dropped);
   assignParents(families, binHz, dropped);
   // A line whose harmonic segments went to a stronger tone is known by the segments it keeps.
   for (const fam of families) {

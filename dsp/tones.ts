@@ -130,14 +130,15 @@ export function maxEnvelopeChunk(ts: ToneSet): number {
 }
 
 /**
- * The tone a new line at freqHz continues: the quiet (alive or retired) track heard most recently
- * whose last frequency lies within the identity neighbourhood (isSameToneHz); null when none. A
- * track sounding now is another line: the same tone would have matched it.
+ * The tone a new line at freqHz continues: the retired track heard most recently whose last
+ * frequency lies within the identity neighbourhood (isSameToneHz); null when none. A track still
+ * alive is another line sounding beside it (a resonance in the quiet next to a hum), unless it was
+ * handed over to this line and retired just before (stepTonesAtFrame): two alive tracks never
+ * share a tone, so each stretch of the record is told by one of them.
  */
 function identityOf(ts: ToneSet, binHz: number, freqHz: number): number | null {
   let best: ToneRuntime | null = null;
-  for (const tr of [...ts.alive, ...ts.retired]) {
-    if (tr.isAlive && (tr.regime.state > STATE_QUIET || tr.isSteadyLine)) continue;
+  for (const tr of ts.retired) {
     if (!isSameToneHz(binHz, tr.tone.heardHz, freqHz)) continue;
     if (best === null || tr.tone.lastHitFrame > best.tone.lastHitFrame) best = tr;
   }
