@@ -167,17 +167,21 @@ function assignParents(families: Family[], binHz: number, dropped: Set<RegimeSeg
       const par = byPower[j];
       if (par.parent !== null || (Number.isNaN(par.activeFromS) && !par.isSteadyLine)) continue;
       if (!(fam.peakPower < par.peakPower)) continue;
-      const k = Math.round(fam.freqHz / par.freqHz);
-      const isHarmonic = k >= 2 && k <= MAX_HARMONIC && Math.abs(fam.freqHz - k * par.freqHz) <= harmonicToleranceHz(binHz, par.freqHz, k);
-      if (isHarmonic) {
+      // Near a harmonic, each segment is judged on its own frequency: a family may hold tracks
+      // that read the harmonic through the skirts of their bands, so its mean can sit off k·f.
+      const kFam = Math.round(fam.freqHz / par.freqHz);
+      if (kFam >= 2 && kFam <= MAX_HARMONIC) {
         let isAllLocked = true;
         const parGrowths = growthSpans(par);
         for (const tr of fam.tracks) {
           for (const s of tr.regime.segments) {
             if (s.state === STATE_QUIET || s.endIdx <= s.startIdx || dropped.has(s)) continue;
             const a = tr.timeS[s.startIdx];
+            const f = segmentFrequency(tr, s);
+            const k = Number.isFinite(f) ? Math.round(f / par.freqHz) : kFam;
+            const isOnHarmonic = k >= 2 && k <= MAX_HARMONIC && (!Number.isFinite(f) || Math.abs(f - k * par.freqHz) <= harmonicToleranceHz(binHz, par.freqHz, k));
             const risesWith = s.state === STATE_GROWTH && parGrowths.some(([p0, p1]) => a >= p0 - WITHIN_MARGIN_S && a <= p1 + WITHIN_MARGIN_S);
-            if (isLockedHarmonic(tr, s.startIdx, s.endIdx, par.tracks, k, risesWith)) dropped.add(s);
+            if (isOnHarmonic && isLockedHarmonic(tr, s.startIdx, s.endIdx, par.tracks, k, risesWith)) dropped.add(s);
             else isAllLocked = false;
           }
         }

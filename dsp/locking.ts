@@ -9,7 +9,7 @@
 import { studentTQuantile, Z_975 } from './fit';
 import { addLinePoint, createLineSums, lineRss, lineSxx, lineSxy } from './line-fit';
 import { phaseFrequency } from './segment-fit';
-import type { ToneRuntime } from './tone-store';
+import { topPowerIn, type ToneRuntime } from './tone-store';
 
 /** Samples used for a rate stand this far (power ratio, 10 dB) over the band background. */
 export const RATE_MIN_OVER_BG = 10;
@@ -89,13 +89,24 @@ export function isLockedHarmonic(child: ToneRuntime, i0: number, i1: number, par
   const t1 = child.timeS[i1 - 1];
   const par = parents.find((p) => p.n > 0 && p.timeS[0] <= t0 && p.timeS[p.n - 1] >= t1);
   if (par === undefined) return false;
-  const j0 = indexAt(par, t0);
+  // Phase is compared where the line stands within RATE_MIN_OVER_BG of its top: there it holds
+  // its band (another line in the band, e.g. a noise-driven mode beside a rising harmonic, turns
+  // the phase by at most asin(1/√10) = 0.32 rad), and a line rising through it does not.
+  const top = topPowerIn(child, i0, i1);
+  let iPh = i0;
+  while (iPh < i1 - 1 && !(child.power[iPh] * RATE_MIN_OVER_BG >= top)) iPh++;
+  const tPh = child.timeS[iPh];
+  const j0 = indexAt(par, tPh);
   const j1 = indexAt(par, t1) + 1;
-  const fc = phaseFrequency(child, i0, i1);
+  // A tone not heard over its background there cannot hold a harmonic there.
+  let isParentHeard = false;
+  for (let j = j0; j < Math.min(j1, par.n) && !isParentHeard; j++) isParentHeard = !par.clipped[j] && par.power[j] - par.bg[j] > RATE_MIN_OVER_BG * par.bg[j];
+  if (!isParentHeard) return false;
+  const fc = phaseFrequency(child, iPh, i1);
   const fp = phaseFrequency(par, j0, j1);
   if (Number.isFinite(fc) && Number.isFinite(fp)) {
     // Half a cycle of relative phase over the stretch, or LOCK_FRACTION of the harmonic.
-    const tol = Math.max(1 / (2 * Math.max(t1 - t0, 1e-3)), LOCK_FRACTION * fc);
+    const tol = Math.max(1 / (2 * Math.max(t1 - tPh, 1e-3)), LOCK_FRACTION * fc);
     if (Math.abs(fc - k * fp) > tol) return false;
   }
   if (isRateFree) return true;
