@@ -21,6 +21,7 @@ import {
   type ToneRuntime,
 } from './tone-store';
 import {
+  CONFIRM_HITS,
   createToneTrack,
   createTrackerState,
   harmonicToleranceHz,
@@ -264,7 +265,9 @@ export function stepTonesAtFrame(ts: ToneSet, spec: SpectrumState, hist: History
       // Only for a tone that has sounded (a history to continue), and a line outside its narrow
       // band (its demodulator would hear it attenuated); otherwise the tone's own track follows.
       const hasSounded = tr.regime.segments.some((q) => q.state !== STATE_QUIET);
-      if (!isSounding && hasSounded && isSameToneHz(spec.binHz, tr.tone.heardHz, f) && Math.abs(f - tr.env.freqHz) > tr.env.bandwidthHz) handover = i;
+      // A tone heard as prominently as a new one while that was being confirmed sounds beside it.
+      const isHeardNow = frameIdx - tr.tone.heardFrame < CONFIRM_HITS;
+      if (!isSounding && !isHeardNow && hasSounded && isSameToneHz(spec.binHz, tr.tone.heardHz, f) && Math.abs(f - tr.env.freqHz) > tr.env.bandwidthHz) handover = i;
       if (n >= 2 && n <= MAX_HARMONIC && isSounding && Math.abs(f - n * tr.tone.freqHz) <= harmonicToleranceHz(spec.binHz, tr.tone.freqHz, n)) dup = true;
     }
     if (handover >= 0 && (!dup || Math.abs(f - ts.alive[handover].tone.freqHz) > matchToleranceHz(spec.binHz, f))) {
@@ -277,7 +280,7 @@ export function stepTonesAtFrame(ts: ToneSet, spec: SpectrumState, hist: History
       let victim = -1;
       for (let i = 0; i < ts.alive.length; i++) {
         const tr = ts.alive[i];
-        if (tr.regime.state > STATE_QUIET) continue;
+        if (tr.regime.state > STATE_QUIET || frameIdx - tr.tone.heardFrame < CONFIRM_HITS) continue;
         if (victim < 0 || tr.tone.lastHitFrame < ts.alive[victim].tone.lastHitFrame) victim = i;
       }
       if (victim < 0) continue;

@@ -40,6 +40,8 @@ export interface ToneTrack {
   toneId: number;
   /** Frequency where a prominent peak last placed the tone, Hz. */
   heardHz: number;
+  /** Frame where a prominent peak last placed the tone. */
+  heardFrame: number;
   freqHz: number;
   /** Consecutive frames without a matching peak. */
   misses: number;
@@ -98,6 +100,7 @@ export function createToneTrack(st: TrackerState, freqHz: number, frame: number,
     id: st.nextId,
     toneId: st.nextId++,
     heardHz: freqHz,
+    heardFrame: frame,
     freqHz,
     misses: 0,
     lastHitFrame: frame,
@@ -189,7 +192,10 @@ export function stepTracker(st: TrackerState, tracks: ToneTrack[], peaks: PeakLi
     // Where the tone was last heard: only a peak as prominent as one that starts a tone. Weaker
     // peaks near a quiet tone are mostly the band's noise; the identity of a tone that returns is
     // judged from here (docs/DESIGN.md, Tone identity).
-    if (peaks.prominenceDb[best] >= newMinProminenceDb) tr.heardHz = tr.freqHz;
+    if (peaks.prominenceDb[best] >= newMinProminenceDb) {
+      tr.heardHz = tr.freqHz;
+      tr.heardFrame = frame;
+    }
   }
   // Tentative tracks.
   for (let j = 0; j < st.tentCount; j++) st.tentMisses[j]++;
