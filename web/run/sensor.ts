@@ -13,9 +13,9 @@ export function sensorOffsetDb(pascalsPerFullScale: number): number {
   return 20 * Math.log10(pascalsPerFullScale / (Math.SQRT2 * REFERENCE_PRESSURE_PA));
 }
 
-/** The calibration a Pa sensor file carries (not a microphone's: no roll-off, no device). */
-export function sensorCalibration(pascalsPerFullScale: number): Calibration {
-  return { offsetDb: sensorOffsetDb(pascalsPerFullScale), source: 'pressure data in Pa', dateIso: '' };
+/** The calibration a Pa sensor file carries (not a microphone's: no roll-off, no device), from its dBFS → dB SPL offset. */
+export function sensorCalibration(offsetDb: number): Calibration {
+  return { offsetDb, source: 'pressure data in Pa', dateIso: '' };
 }
 
 export { paFromSplDb };
