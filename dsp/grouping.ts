@@ -14,6 +14,13 @@ const NEAR_LINE_FRACTION = 0.35;
 export const NEAR_LINE_DB = 20;
 /** Active starts of two tracks of one tone closer than this are taken as simultaneous, s. */
 const DUPLICATE_START_S = 0.05;
+/**
+ * Peak-power ratio (dB, and as a ratio) beyond which of two tracks of one tone the weaker holds it
+ * through the skirt of its band: the narrow envelope band (dsp/envelope.ts, Blackman, noise
+ * bandwidth 5 Hz) loses 0.14 dB at the 1 Hz retune step off centre and 1 dB near 2.7 Hz off.
+ */
+export const DUPLICATE_SKIRT_DB = 1;
+const DUPLICATE_SKIRT_RATIO = 10 ** (DUPLICATE_SKIRT_DB / 10);
 /** Margin on the parent tone's active span for a line that rises and falls with it, s. */
 const WITHIN_MARGIN_S = 1;
 /** A track that never left the quiet state counts as a line only when it stood this far over its background, dB. */
@@ -75,8 +82,9 @@ function trackInfo(tr: ToneRuntime): TrackInfo {
 
 /**
  * A track beside a loud tone can hold that tone through its band's skirt: two tracks whose active
- * stretches overlap and whose envelopes turn at the same frequency are one tone; the one that saw
- * the tone later (or the weaker, at once) is dropped.
+ * stretches overlap and whose envelopes turn at the same frequency are one tone; the one holding it
+ * through its skirt (clearly weaker), else the one that saw it later (or the weaker, at once), is
+ * dropped.
  */
 function findDuplicates(all: ToneRuntime[], info: Map<ToneRuntime, TrackInfo>, binHz: number): Set<ToneRuntime> {
   const duplicates = new Set<ToneRuntime>();
@@ -87,7 +95,13 @@ function findDuplicates(all: ToneRuntime[], info: Map<ToneRuntime, TrackInfo>, b
       const ib = info.get(b);
       if (b === a || ib === undefined || Number.isNaN(ib.fromS) || duplicates.has(b)) continue;
       if (ib.toS < ia.fromS || ib.fromS > ia.toS) continue;
-      const bFirst = ib.fromS < ia.fromS - DUPLICATE_START_S || (Math.abs(ib.fromS - ia.fromS) <= DUPLICATE_START_S && ib.top > ia.top);
+      // Keep the track whose band is centred on the tone (it sees the tone clearly stronger, and its
+      // envelope was rebuilt from the sample history, growth included); between two that see it
+      // alike, the one that saw it first, then the stronger.
+      const level = ib.top / ia.top;
+      const bFirst =
+        level > DUPLICATE_SKIRT_RATIO ||
+        (level >= 1 / DUPLICATE_SKIRT_RATIO && (ib.fromS < ia.fromS - DUPLICATE_START_S || (Math.abs(ib.fromS - ia.fromS) <= DUPLICATE_START_S && ib.top > ia.top)));
       if (!bFirst) continue;
       if (Math.abs(ia.freqHz - ib.freqHz) <= matchToleranceHz(binHz, ib.freqHz)) {
         duplicates.add(a);

@@ -25,10 +25,11 @@ import { fitSegment, type FittedSegment } from './segment-fit';
 import { computeSpectrumFrame, createSpectrumState, feedSpectrum, resetSpectrumFraming, type SpectrumState } from './spectrum';
 import { createTimeBase, jAtTime, rebaseAfterGap, timeOfJ, type TimeBase } from './time-base';
 import { createToneEnvelope, ENVELOPE_RATE_HZ } from './tone-store';
+import { claimAnnouncement, createLiveOnsetState, gapLiveOnset, stepLiveOnset, type LiveOnsetState } from './live-onset';
 import { advanceRegime, breakTones, createToneSet, maxEnvelopeChunk, resumeTonesAfterGap, retireIdleTones, stepToneEnvelopes, stepTonesAtFrame, type ToneSet } from './tones';
 import { quantisationFloorDbfs } from './levels';
 import { isMainsLine } from './track';
-import type { Analysis, AnalysisConfig, AnalysisUpdate, ClippedSpan, Marker, ModeStatistics, Report } from './types';
+import type { Analysis, AnalysisConfig, AnalysisUpdate, ClippedSpan, Marker, ModeStatistics, Onset, Report } from './types';
 
 /** Analysis frame length, s (rounded to a power of two of samples): ~3 Hz bins. */
 const FRAME_S = 0.32;
@@ -48,6 +49,9 @@ interface PipelineState {
   steady: SteadyStore;
   quietModeStatistics: ModeStatistics[];
   live: LiveState;
+  /** Short-frame sequential onset detector (live-onset.ts) and the onsets it found in this push. */
+  liveOnset: LiveOnsetState;
+  detected: Onset[];
   markers: Marker[];
   warnings: string[];
   spectrumDbfs: Float32Array;
@@ -84,6 +88,8 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
     steady: createSteadyStore(quiet.ring, fsA),
     quietModeStatistics: [],
     live: createLiveState(probe.outputRateHz),
+    liveOnset: createLiveOnsetState({ sampleRateHz: fsA, bandLowHz: cond.bandLowHz, bandHighHz: cond.bandHighHz }),
+    detected: [],
     markers: [],
     warnings: [],
     spectrumDbfs: new Float32Array(spec.binCount).fill(-200),
@@ -185,6 +191,8 @@ function processConditioned(ps: PipelineState): void {
     stepSteadyStore(ps.steady, x, i, i + k, j0);
     const j = stepHistory(hist, x, cond.outClipped, i, i + k, j0, tb.envM);
     stepToneEnvelopes(tones, x, i, i + k, j0, tb, hist);
+    stepLiveOnset(ps.liveOnset, x, i, i + k);
+    for (let q = 0; q < ps.liveOnset.onsetCount; q++) ps.detected.push({ timeS: timeOfJ(tb, ps.liveOnset.onsetJ[q]), frequencyHz: ps.liveOnset.onsetFreqHz[q] });
     tb.j = j;
     // The early onset test runs on every new envelope sample, not only at frames (a frame hop is
     // 0.16 s, several e-folds of a fast growth). It uses the latest frame's background either way,
@@ -209,6 +217,13 @@ function push(ps: PipelineState, block: Float32Array): AnalysisUpdate {
     processConditioned(ps);
   }
   ps.tb.durationInputSamples += block.length;
+  // One announcement per rise, whichever detector saw it first (the tone's own test, or the short-frame one).
+  const onsets = ps.live.onsets;
+  let w = 0;
+  for (const o of onsets) if (claimAnnouncement(ps.liveOnset, o.timeS, o.frequencyHz)) onsets[w++] = o;
+  onsets.length = w;
+  for (const o of ps.detected) if (claimAnnouncement(ps.liveOnset, o.timeS, o.frequencyHz)) onsets.push(o);
+  ps.detected.length = 0;
   if (ps.sawFrame) {
     // Only the analysed band is converted (the rest stays at the floor value). 10·log10 p is
     // taken as (10/ln 10)·ln p: Math.log costs about 60 % of Math.log10 and the float32 dB agree.
@@ -242,6 +257,7 @@ function gap(ps: PipelineState, missingSamples: number): void {
   gapCondition(ps.cond, missing);
   resetSpectrumFraming(spec);
   const jNext = rebaseAfterGap(tb, missing);
+  gapLiveOnset(ps.liveOnset, jNext);
   breakHistory(hist, jNext, spec.frameCount);
   // Rows resume at the first envelope time after the gap (envelope times lag the samples by the filter delay).
   live.rowG = jNext / tb.envM + Math.ceil(tb.envDelayS * (ps.fsA / tb.envM));

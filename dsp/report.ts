@@ -88,7 +88,15 @@ function summarise(main: Family, fitted: FittedSegment[]): Report['summary'] {
   const freqs = steadyFreqs.length > 0 ? steadyFreqs : famFits.filter((f) => f.seg.state !== STATE_QUIET).map((f) => f.report.frequencyHz);
   freqs.sort((a, b) => a - b);
   const freq = freqs.length > 0 ? freqs[Math.floor(freqs.length / 2)] : main.freqHz;
-  const limits = famFits.filter((f) => f.seg.state === STATE_STEADY && typeof f.report.limitAmplitudeDbfs === 'number').map((f) => f.report.limitAmplitudeDbfs as number);
+  // The limit cycle is the level a growth saturated at: the steady stretches a growth reached.
+  // Other steady stretches of the tone (a resonance heard in the quiet before the hum, tens of dB
+  // lower) would pull the mean down; only a tone never seen growing reports them.
+  const steady = famFits.filter((f) => f.seg.state === STATE_STEADY && typeof f.report.limitAmplitudeDbfs === 'number');
+  const reached = steady.filter((f) => {
+    const i = f.tr.regime.segments.indexOf(f.seg);
+    return i > 0 && f.tr.regime.segments[i - 1].state === STATE_GROWTH;
+  });
+  const limits = (reached.length > 0 ? reached : steady).map((f) => f.report.limitAmplitudeDbfs as number);
   const limit = limits.length > 0 ? limits.reduce((a, b) => a + b, 0) / limits.length : null;
   return deriveSummary({
     frequencyHz: freq,

@@ -5,6 +5,7 @@
  * growth that starts from quiet.
  */
 import { backgroundCrossingTimeS, fitExponential, fitGrowthIntoLimit, Z_975 } from './fit';
+import { decayStartNearMarker, MARKER_SEARCH_S } from './kink';
 import { addLinePoint, createLineSums, lineSxx, lineSxy, resetLineSums } from './line-fit';
 import { ON_DB, regimeKind, STATE_DECAY, STATE_GROWTH, STATE_QUIET, STATE_STEADY, type RegimeSegment } from './regime';
 import { buildSeries, contiguousEnd, contiguousStart, meanBg, meanPower, topPowerIn, type ToneRuntime } from './tone-store';
@@ -267,24 +268,23 @@ function fitGrowthIntoSteady(out: FittedSegment, w0: number, w1: number, opts: {
 }
 
 /**
- * Where a free decay starts: a 'driving-off' marker near the segment start fixes it; without one,
+ * Where a free decay starts: the kink near a 'driving-off' marker (within MARKER_SEARCH_S of the
+ * segment start) when there is one; without one,
  * the kink is where the wide-band level first falls 1 dB below the level held just before (the
  * narrow band's decay start can lie half a narrow kernel early). Returns the store index and
  * whether the kink is known (else the regime's start stands).
  */
-function decayKink(tr: ToneRuntime, seg: RegimeSegment, prev: RegimeSegment | null, markers: Marker[]): { startIdx: number; isKnown: boolean } {
+function decayKink(tr: ToneRuntime, seg: RegimeSegment, prev: RegimeSegment | null, ctx: SegmentFitContext): { startIdx: number; isKnown: boolean } {
   const rate = tr.env.outputRateHz;
   const startS = tr.timeS[seg.startIdx];
   let startIdx = seg.startIdx;
   let isKnown = false;
   const lookBackS = prev !== null ? Math.min(2, tr.timeS[seg.startIdx] - tr.timeS[prev.startIdx]) : 0;
-  for (const mk of markers) {
+  for (const mk of ctx.markers) {
     if (mk.kind !== 'driving-off') continue;
-    if (mk.timeS < startS - lookBackS || mk.timeS > startS + 0.5) continue;
-    let k = seg.startIdx;
-    while (k > 0 && tr.timeS[k] > mk.timeS) k--;
-    while (k < seg.endIdx - 1 && tr.timeS[k] < mk.timeS) k++;
-    startIdx = k;
+    if (mk.timeS < startS - Math.max(lookBackS, MARKER_SEARCH_S) || mk.timeS > startS + MARKER_SEARCH_S) continue;
+    // A marker is a hint: the decay starts at the kink the envelope shows near it (kink.ts).
+    startIdx = decayStartNearMarker(tr, seg, prev, mk, ctx.isWide, ctx.warnings);
     isKnown = true;
   }
   if (!isKnown && prev !== null) {
@@ -305,7 +305,7 @@ function fitDecaySegment(out: FittedSegment, segs: RegimeSegment[], i: number, c
   const rate = tr.env.outputRateHz;
   const prev = i > 0 ? segs[i - 1] : null;
   const next = i + 1 < segs.length ? segs[i + 1] : null;
-  const { startIdx, isKnown } = decayKink(tr, seg, prev, ctx.markers);
+  const { startIdx, isKnown } = decayKink(tr, seg, prev, ctx);
   // Skip the envelope filter's transient: it spans half a kernel either side of the kink (the
   // marker), and the regime's own decay start may lie up to half a kernel before the kink.
   const quietHi = next !== null && next.state === STATE_QUIET ? next.endIdx : seg.endIdx;

@@ -6,6 +6,7 @@
  * report). Between frames every tone's demodulator runs on the conditioned samples.
  */
 import { resetEnvelope, setEnvelopeFrequency, stepEnvelope } from './envelope';
+import { DUPLICATE_SKIRT_DB } from './grouping';
 import { bandBackground, type History } from './history';
 import { createPeakList, findPeaks, groupHarmonics, suppressLeakage, type PeakList } from './peak';
 import { finishRegime, restartRegime, STATE_QUIET, stepRegime } from './regime';
@@ -178,7 +179,10 @@ export function retireTone(ts: ToneSet, hist: History, frameCount: number, idx: 
 /**
  * Two tracks on one tone (a second track can start while the first is still moving, e.g. during a
  * fast growth whose frequency drifts) are merged: the older keeps its envelope history and takes
- * the latest frequency; the younger is dropped, so one tone gives one segment history.
+ * the latest frequency; the younger is dropped, so one tone gives one segment history. When the
+ * younger saw the tone clearly stronger (DUPLICATE_SKIRT_DB, grouping.ts) the older held it
+ * through the skirt of its band (left on a nearby resonance while the tone moved further than the
+ * match tolerance) and is the one dropped: the younger's envelope was rebuilt from the history.
  */
 function mergeDuplicateTones(ts: ToneSet, binHz: number): void {
   for (let a = ts.alive.length - 1; a >= 1; a--) {
@@ -186,14 +190,18 @@ function mergeDuplicateTones(ts: ToneSet, binHz: number): void {
     for (let b = 0; b < a; b++) {
       const tb = ts.alive[b];
       if (Math.abs(ta.tone.freqHz - tb.tone.freqHz) > matchToleranceHz(binHz, tb.tone.freqHz)) continue;
-      if (ta.tone.lastHitFrame > tb.tone.lastHitFrame) {
-        tb.tone.freqHz = ta.tone.freqHz;
-        tb.tone.lastHitFrame = ta.tone.lastHitFrame;
-        tb.tone.misses = 0;
+      const isYoungerCentred = ta.maxExcessDb > tb.maxExcessDb + DUPLICATE_SKIRT_DB;
+      const keep = isYoungerCentred ? ta : tb;
+      const drop = isYoungerCentred ? tb : ta;
+      const at = isYoungerCentred ? b : a;
+      if (drop.tone.lastHitFrame > keep.tone.lastHitFrame) {
+        keep.tone.freqHz = drop.tone.freqHz;
+        keep.tone.lastHitFrame = drop.tone.lastHitFrame;
+        keep.tone.misses = 0;
       }
-      if (ta.maxExcessDb > tb.maxExcessDb) tb.maxExcessDb = ta.maxExcessDb;
-      ts.alive.splice(a, 1);
-      ts.aliveTones.splice(a, 1);
+      if (drop.maxExcessDb > keep.maxExcessDb) keep.maxExcessDb = drop.maxExcessDb;
+      ts.alive.splice(at, 1);
+      ts.aliveTones.splice(at, 1);
       break;
     }
   }
@@ -232,7 +240,10 @@ export function stepTonesAtFrame(ts: ToneSet, spec: SpectrumState, hist: History
     for (const tr of ts.alive) {
       // Same tone, or a harmonic of a tone sounding now (a limit cycle's waveform, distortion).
       const n = Math.round(f / tr.tone.freqHz);
-      if (n === 1 && Math.abs(f - tr.tone.freqHz) <= 2 * matchToleranceHz(spec.binHz, f)) dup = true;
+      // A peak that no track matched within its tolerance is a tone of its own (a track left on
+      // a nearby resonance would read it through the skirt of its band); of two tracks that then
+      // hold one tone, the one seeing it through the centre of its band is kept.
+      if (n === 1 && Math.abs(f - tr.tone.freqHz) <= matchToleranceHz(spec.binHz, tr.tone.freqHz)) dup = true;
       const isSounding = tr.regime.state > STATE_QUIET || tr.isSteadyLine;
       if (n >= 2 && n <= MAX_HARMONIC && isSounding && Math.abs(f - n * tr.tone.freqHz) <= harmonicToleranceHz(spec.binHz, tr.tone.freqHz, n)) dup = true;
     }

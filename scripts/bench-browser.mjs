@@ -1,12 +1,14 @@
 // Browser bench of the field app (printed, never asserted):
 //   1. analysis cost in the browser worker per second of 48 kHz audio (target ≤ 20 ms),
 //   2. initial JavaScript of the app, gzipped (target ≤ 200 KB),
-//   3. first paint of the installed app reloaded offline in headless Chromium (target ≤ 1 s).
-// Usage: node scripts/bench-browser.mjs [--dist dist] [--port 4196] [--seconds 120]
+//   3. first paint of the installed app reloaded offline in headless Chromium (target ≤ 1 s),
+//   4. storage: opening a 10-minute recording and importing its bundle, each in a fresh profile:
+//      time, peak renderer memory and the longest main-thread stall (target: every stall < 100 ms).
+// Usage: node scripts/bench-browser.mjs [--dist dist] [--port 4196] [--seconds 120] [--no-store]
 // (the port defaults to E2E_PORT when set, as for the browser tests, else 4196).
 // Needs a built app (npx vite build) and Debian's chromium (or CHROMIUM_PATH).
 import { spawn, execSync } from 'node:child_process';
-import { mkdtempSync, readFileSync, writeFileSync, existsSync, mkdirSync } from 'node:fs';
+import { mkdtempSync, readFileSync, writeFileSync, existsSync, mkdirSync, readdirSync, copyFileSync } from 'node:fs';
 import { gzipSync } from 'node:zlib';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
@@ -77,6 +79,139 @@ function writeBenchWav(path, seconds) {
   writeFileSync(path, data);
 }
 
+// ---- 4. Storage figures (opening a 10-minute recording, importing its bundle) -------------------
+
+/** Resident memory, MB, of every renderer process of the browser using `profileDir` (Linux /proc). */
+function rendererRssMb(profileDir) {
+  let kb = 0;
+  for (const pid of readdirSync('/proc')) {
+    if (!/^\d+$/.test(pid)) continue;
+    try {
+      const cmd = readFileSync(`/proc/${pid}/cmdline`, 'utf8');
+      if (!cmd.includes('--type=renderer')) continue;
+      // Renderers do not carry the profile path; their parent browser does.
+      const ppid = readFileSync(`/proc/${pid}/stat`, 'utf8').split(') ')[1].split(' ')[1];
+      if (!readFileSync(`/proc/${ppid}/cmdline`, 'utf8').includes(profileDir)) continue;
+      const m = /VmRSS:\s+(\d+) kB/.exec(readFileSync(`/proc/${pid}/status`, 'utf8'));
+      if (m) kb += Number(m[1]);
+    } catch {
+      /* the process ended meanwhile */
+    }
+  }
+  return kb / 1024;
+}
+
+/** Runs `action` while sampling renderer memory every 50 ms; resolves with its time and the peak. */
+async function measured(profileDir, action) {
+  let peakMb = rendererRssMb(profileDir);
+  const timer = setInterval(() => {
+    peakMb = Math.max(peakMb, rendererRssMb(profileDir));
+  }, 50);
+  const t0 = performance.now();
+  try {
+    await action();
+  } finally {
+    clearInterval(timer);
+  }
+  return { ms: performance.now() - t0, peakMb: Math.max(peakMb, rendererRssMb(profileDir)) };
+}
+
+/** A fresh profile with a long-task observer on every page (main-thread stalls of 50 ms and more, W3C Long Tasks API). */
+async function freshBrowser(exe) {
+  const profileDir = mkdtempSync(join(tmpdir(), 'humgauge-bench-store-'));
+  const context = await chromium.launchPersistentContext(profileDir, {
+    executablePath: exe,
+    headless: true,
+    acceptDownloads: true,
+    viewport: { width: 412, height: 915 },
+    args: ['--headless', '--no-sandbox', '--disable-gpu', '--no-first-run', '--disable-background-networking'],
+  });
+  await context.addInitScript(() => {
+    window.__stallsMs = [];
+    new PerformanceObserver((list) => {
+      for (const e of list.getEntries()) window.__stallsMs.push(e.duration);
+    }).observe({ type: 'longtask', buffered: true });
+  });
+  const page = context.pages()[0] ?? (await context.newPage());
+  return { context, page, profileDir };
+}
+
+/** Closes the first-run notice when it shows (it appears a moment after load, once per profile). */
+async function dismissFirstRun(page) {
+  try {
+    await page.locator('#first-run-ok').waitFor({ state: 'visible', timeout: 4000 });
+    await page.click('#first-run-ok');
+  } catch {
+    /* not shown */
+  }
+}
+
+const longestStallMs = (page) => page.evaluate(() => Math.max(0, ...window.__stallsMs));
+const clearStalls = (page) => page.evaluate(() => void (window.__stallsMs.length = 0));
+
+/** Opens a 10-minute recording on the Listen screen, exports its bundle, and imports it into another profile. */
+async function benchStore(exe) {
+  const minutes = 10;
+  const wav = resolve('e2e-out/bench-store-10min.wav');
+  writeBenchWav(wav, minutes * 60);
+  const bundle = resolve('e2e-out/bench-store-10min.zip');
+  const out = {};
+
+  const a = await freshBrowser(exe);
+  try {
+    await a.page.goto(URL);
+    await a.page.waitForSelector('#listen-button');
+    await dismissFirstRun(a.page);
+    await clearStalls(a.page);
+    out.open = await measured(a.profileDir, async () => {
+      await a.page.setInputFiles('#file-input', wav);
+      await a.page.waitForSelector('#analysis-cost', { timeout: 600_000 });
+    });
+    out.open.stallMs = await longestStallMs(a.page);
+    // The session is saved with its audio; export it as the app does.
+    await a.page.goto(`${URL}#sessions`);
+    await a.page.waitForSelector('.session-item .session-link', { timeout: 120_000 });
+    await a.page.click('.session-item .session-link');
+    const [download] = await Promise.all([a.page.waitForEvent('download', { timeout: 300_000 }), a.page.click('#export-bundle')]);
+    copyFileSync(await download.path(), bundle);
+  } finally {
+    await a.context.close();
+  }
+  out.bundleMb = readFileSync(bundle).length / 1e6;
+
+  const b = await freshBrowser(exe);
+  try {
+    await b.page.goto(`${URL}#sessions`);
+    await dismissFirstRun(b.page);
+    await b.page.waitForSelector('#import-file', { state: 'attached' });
+    await clearStalls(b.page);
+    out.import = await measured(b.profileDir, async () => {
+      await b.page.setInputFiles('#import-file', bundle);
+      await b.page.waitForFunction(() => /imported 1 session|not imported/.test(document.querySelector('#status')?.textContent ?? ''), null, { timeout: 600_000 });
+    });
+    out.import.stallMs = await longestStallMs(b.page);
+    out.importStatus = await b.page.locator('#status').textContent();
+  } finally {
+    await b.context.close();
+  }
+  return out;
+}
+
+function printStore(store) {
+  if (!store) {
+    line('opening a 10-minute recording: longest stall', Number.NaN, 'ms', '< 100 ms', false);
+    return;
+  }
+  line('opening a 10-minute recording: time to result', store.open.ms / 1000, 's', 'printed', true);
+  line('opening a 10-minute recording: peak renderer memory', store.open.peakMb, 'MB', 'printed', true);
+  line('opening a 10-minute recording: longest main-thread stall', store.open.stallMs, 'ms', '< 100 ms', store.open.stallMs < 100);
+  line('importing its bundle: time', store.import.ms / 1000, 's', 'printed', true);
+  line('importing its bundle: peak renderer memory', store.import.peakMb, 'MB', 'printed', true);
+  line('importing its bundle: longest main-thread stall', store.import.stallMs, 'ms', '< 100 ms', store.import.stallMs < 100);
+  console.log(`  bundle of the 10-minute session (16-bit audio): ${store.bundleMb.toFixed(1)} MB; import said: ${store.importStatus}`);
+  console.log('  stalls are long tasks (≥ 50 ms) on the page\'s main thread; 0 means none; memory is the resident size of all renderer processes (page and workers)');
+}
+
 async function main() {
   if (!existsSync(join(DIST, 'index.html'))) {
     console.error(`${DIST}/index.html is missing: build the app first (npx vite build).`);
@@ -96,6 +231,7 @@ async function main() {
   let costMsPerS = Number.NaN;
   let firstPaintMs = Number.NaN;
   let detail = '';
+  let store = null;
   try {
     for (let i = 0; ; i++) {
       try {
@@ -152,6 +288,13 @@ async function main() {
     firstPaintMs = samples[Math.floor(samples.length / 2)];
     detail += `; offline first paint over 5 reloads: ${samples.map((s) => s.toFixed(0)).join(', ')} ms`;
     await context.close();
+    if (!args.includes('--no-store')) {
+      try {
+        store = await benchStore(exe);
+      } catch (err) {
+        console.error(`storage figures not measured: ${err instanceof Error ? err.message : String(err)}`);
+      }
+    }
   } finally {
     stopServer();
   }
@@ -161,6 +304,7 @@ async function main() {
   line('first paint of the installed app, offline (median)', firstPaintMs, 'ms', '≤ 1000 ms', firstPaintMs <= 1000);
   console.log(`  ${detail}`);
   console.log(`  initial JS: ${js.parts.join(', ')}`);
+  if (!args.includes('--no-store')) printStore(store);
 }
 
 main().catch((err) => {

@@ -32,6 +32,8 @@ export interface Settings {
   theme: Theme;
   /** Keep the raw audio with each session (larger storage). */
   isKeepingAudio: boolean;
+  /** Exported bundles carry 32-bit float audio (exact, twice the size) instead of 16-bit PCM. */
+  isExportingFloatAudio: boolean;
   /** First-run cautions acknowledged. */
   hasSeenCautions: boolean;
   /** Calibration per microphone, keyed by deviceKey(). */
@@ -50,6 +52,7 @@ export function defaultSettings(): Settings {
     levelWeighting: 'slow',
     theme: 'daylight',
     isKeepingAudio: true,
+    isExportingFloatAudio: false,
     hasSeenCautions: false,
     calibrations: {},
   };
@@ -118,6 +121,7 @@ export function loadSettings(store: KeyValueStore | null = browserStore()): Sett
   if (r.levelWeighting === 'slow' || r.levelWeighting === 'fast') s.levelWeighting = r.levelWeighting;
   if (r.theme === 'daylight' || r.theme === 'dark') s.theme = r.theme;
   if (typeof r.isKeepingAudio === 'boolean') s.isKeepingAudio = r.isKeepingAudio;
+  if (typeof r.isExportingFloatAudio === 'boolean') s.isExportingFloatAudio = r.isExportingFloatAudio;
   if (typeof r.hasSeenCautions === 'boolean') s.hasSeenCautions = r.hasSeenCautions;
   s.calibrations = readCalibrations(r.calibrations);
   return s;
@@ -156,4 +160,9 @@ export function calibrationOffsetDb(referenceDbSpl: number, measuredDbfs: number
 export function toDbSpl(levelDbfs: number, calibration: Calibration | undefined): number | null {
   if (!calibration || !isFiniteNumber(levelDbfs)) return null;
   return levelDbfs + calibration.offsetDb;
+}
+
+/** Export options from the settings: the audio encoding of bundles (16-bit unless float is asked for). */
+export function bundleOptions(settings: Settings = loadSettings()): { audio: 'pcm16' | 'float32' } {
+  return { audio: settings.isExportingFloatAudio ? 'float32' : 'pcm16' };
 }

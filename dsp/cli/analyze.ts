@@ -180,7 +180,8 @@ export async function runAnalyze(args: string[], io: CliIo): Promise<number> {
     const progress = new Progress(io, file === '-' ? 'stdin' : basename(file));
     const run = await analyzeInput(input, { ...opts, keepTrack: opts.output === 'csv' }, (f, t) => progress.update(f, t));
     progress.done();
-    run.facts.fileName = file === '-' ? 'standard input' : basename(file);
+    // A stream's path (/dev/fd/63 of a <(...)) says more than its last part.
+    run.facts.fileName = file === '-' ? 'standard input' : input.size === null ? file : basename(file);
     if (opts.output === 'json') io.out(JSON.stringify(run.report, null, 2) + '\n');
     else if (opts.output === 'csv' && run.track) io.out(trackCsv(run.track, run.report, run.facts.splOffsetDb));
     else io.out(renderSummary(run.report, run.facts));

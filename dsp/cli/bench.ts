@@ -295,6 +295,90 @@ function onsetDelay(): void {
   }
 }
 
+// ---------------------------------------------------------------------------------------------
+// 2c. Live onset announcement over the whole band (short-frame detector, dsp/live-onset.ts)
+
+/** Announcement delay after the 6 dB point at 3–50 1/s, tones anywhere in 40–1000 Hz from 40 dB under that point; false live onsets on noise steps, mains switched on, knocks. */
+function liveOnsetRows(): void {
+  const fs = 16000;
+  const noiseRms = 10 ** (-50 / 20);
+  const bandPower = (noiseRms * noiseRms * 10) / (fs / 2);
+  const rng = createRng(808);
+  const trials = 12;
+  for (const rate of [3, 10, 30, 50]) {
+    const delays: number[] = [];
+    let missed = 0;
+    let extra = 0;
+    for (let k = 0; k < trials; k++) {
+      const freq = 40 + 960 * rng.uniform();
+      const startS = 2 + rng.uniform();
+      const a6 = Math.sqrt(8 * bandPower);
+      const aStart = a6 / 100;
+      const t6 = startS + Math.log(a6 / aStart) / rate;
+      const durationS = t6 + Math.max(3, 8 / rate) + 1;
+      const env = humCycleEnvelope({ onsetS: startS, startAmplitude: aStart, growthPerS: rate, limitAmplitude: 0.3, offS: durationS + 1, decayPerS: 5 });
+      const x = toneInNoise(fs, durationS, freq, env, noiseRms, 900 + k + 100 * rate, rng);
+      const { announcedS } = runAnalysis(x, fs, 128);
+      if (announcedS.length === 0) {
+        missed++;
+        continue;
+      }
+      extra += announcedS.length - 1;
+      delays.push((announcedS[0] - t6) * rate);
+    }
+    const p90 = quantile(delays, 0.9);
+    row(
+      `live, growth ${rate} 1/s, 40–1000 Hz: announcement after the 6 dB point`,
+      `median ${num(quantile(delays, 0.5), 2)}, 90 % ${num(p90, 2)} e-folds; missed / extra ${missed} / ${extra} of ${trials}`,
+      '90 % ≤ 2 e-folds, 0 / 0',
+      p90 <= 2 && missed === 0 && extra === 0 ? 'PASS' : 'MISS',
+    );
+  }
+  {
+    const r = createRng(31);
+    let gainDb = 0;
+    let nextStep = 0;
+    const run = streamGenerated(fs, 120, (b, start) => {
+      for (let i = 0; i < b.length; i++) {
+        if (start + i >= nextStep) {
+          if (nextStep > 0) gainDb += gainDb >= 10 ? -10 : gainDb <= -10 ? 10 : r.uniform() < 0.5 ? -10 : 10;
+          nextStep += Math.round((5 + 10 * r.uniform()) * fs);
+        }
+        b[i] = 0.01 * 10 ** (gainDb / 20) * r.normal();
+      }
+    });
+    row('live: toneless noise, 2 min, ±10 dB steps every 5–15 s', `${run.liveOnsets} live onsets`, '0', run.liveOnsets === 0 ? 'PASS' : 'MISS');
+  }
+  for (const mainsHz of [50, 60]) {
+    const r = createRng(mainsHz + 1);
+    const run = streamGenerated(fs, 60, (b, start) => {
+      for (let i = 0; i < b.length; i++) {
+        const t = (start + i) / fs;
+        let v = 0.003 * r.normal();
+        if (t > 20) for (let h = 1; h <= 7; h++) v += 0.05 * 0.5 ** (h - 1) * Math.sin(2 * Math.PI * mainsHz * h * t);
+        b[i] = v;
+      }
+    });
+    row(`live: ${mainsHz} Hz mains with harmonics switched on at 20 s`, `${run.liveOnsets} live onsets`, '0', run.liveOnsets === 0 ? 'PASS' : 'MISS');
+  }
+  {
+    const r = createRng(7);
+    const run = streamGenerated(fs, 40, (b, start) => {
+      for (let i = 0; i < b.length; i++) {
+        const t = (start + i) / fs;
+        let v = 0.001 * r.normal();
+        for (const t0 of [5, 11, 17, 23, 29, 35]) {
+          if (t < t0) continue;
+          const u = t - t0;
+          v += 0.3 * Math.exp(-15 * u) * Math.sin(2 * Math.PI * 171 * u) + 0.1 * Math.exp(-40 * u) * Math.sin(2 * Math.PI * 343 * u);
+        }
+        b[i] = v;
+      }
+    });
+    row('live: 6 knocks, two modes ringing down (15 and 40 1/s)', `${run.liveOnsets} live onsets`, '0', run.liveOnsets === 0 ? 'PASS' : 'MISS');
+  }
+}
+
 /** Streams `seconds` of a generated signal through one analysis in blocks; returns the onsets. */
 /** Streams a generated signal through the analysis; counts the onsets announced live by push() too. */
 function streamGenerated(fs: number, seconds: number, fill: (block: Float32Array, startSample: number) => void): { report: Report; liveOnsets: number } {
@@ -819,13 +903,14 @@ const SECTIONS: [name: string, title: string, fn: () => void | Promise<void>][] 
   ['rigs', '1b. Simulated rigs: growth rate against the characteristic equation (5 seeds each)', simulatedRigs],
   ['onset', '2a. Onset announcement delay (10 Hz band, noise −50 dBFS, tone from 40 dB under the 6 dB point)', onsetDelay],
   ['false', '2b. False onsets', falseOnsets],
+  ['live', '2c. Live onset over the band (short-frame detector): announcement delay and false live onsets', liveOnsetRows],
   ['speed', `3a. Speed (best of ${SPEED_REPEATS} runs)`, speed],
   ['records', '3c. Whole records of many hum cycles (one thread)', records],
   ['archives', '3d. Archives on every core (humgauge analyze FOLDER, worker threads)', archives],
   ['noise', '4. Linear growth rate from noise (dsp/cli/bench-noise.ts)', () => noiseStatisticsBench(row)],
 ];
 
-/** `node dist-cli/bench.js [accuracy|rigs|onset|false|speed|memory|records|archives|noise ...]`: all sections by default. */
+/** `node dist-cli/bench.js [accuracy|rigs|onset|false|live|speed|memory|records|archives|noise ...]`: all sections by default. */
 async function main(): Promise<void> {
   const t0 = performance.now();
   const wanted = process.argv.slice(2);

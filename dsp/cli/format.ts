@@ -117,6 +117,7 @@ export function derivedFigures(report: Report): DerivedFigure[] {
 export function rateText(x: number | null | undefined): string {
   if (x === null || x === undefined || !Number.isFinite(x)) return '—';
   const a = Math.abs(x);
+  if (a >= 1e7) return num(x, 3);
   const decimals = a === 0 ? 3 : Math.min(3, Math.max(0, 2 - Math.floor(Math.log10(a))));
   const t = x.toFixed(decimals);
   return /^-0\.?0*$/.test(t) ? t.slice(1) : t;

@@ -109,8 +109,8 @@ describe('median rate over cycles', () => {
   });
 });
 
-describe('worker threads (the built command line)', () => {
-  it('gives the same summary on 2 workers as on one thread', () => {
+describe('worker threads and pipes (the built command line)', () => {
+  it('gives the same summary on 2 workers as on one thread; pipes and <(...) read as streams', () => {
     const out = join(dir, 'dist-cli');
     const vite = join(ROOT, 'node_modules', 'vite', 'bin', 'vite.js');
     const b = spawnSync(process.execPath, [vite, 'build', '--config', 'vite.cli.config.ts', '--logLevel', 'warn', '--outDir', out], { cwd: ROOT, encoding: 'utf8' });
@@ -122,5 +122,15 @@ describe('worker threads (the built command line)', () => {
     expect(two.status).toBe(EXIT.BATCH_FAILED);
     expect(two.stdout).toBe(one.stdout);
     expect(two.stdout.split('\n').filter((l) => l.includes(',ok,')).length).toBeGreaterThanOrEqual(3);
+    // A pipe and <(...) (they used to fail with ESPIPE) give the file's report.
+    const bin = join(out, 'humgauge.js');
+    const file = path('logs/a-rig.wav');
+    const direct = spawnSync(process.execPath, [bin, 'analyze', file, '--json'], { encoding: 'utf8' });
+    const piped = spawnSync('bash', ['-c', `cat "${file}" | "${process.execPath}" "${bin}" analyze - --json`], { encoding: 'utf8' });
+    const substituted = spawnSync('bash', ['-c', `"${process.execPath}" "${bin}" analyze <(cat "${file}") --json`], { encoding: 'utf8' });
+    expect(piped.status, piped.stderr).toBe(EXIT.OK);
+    expect(substituted.status, substituted.stderr).toBe(EXIT.OK);
+    expect(JSON.parse(piped.stdout)).toEqual(JSON.parse(direct.stdout));
+    expect(JSON.parse(substituted.stdout)).toEqual(JSON.parse(direct.stdout));
   }, 120_000);
 });

@@ -46,6 +46,10 @@ describe('option names in messages', () => {
     [['simulate', '--out', 'x.wav', '--duration', '1e309'], EXIT.BAD_PARAMETER, /--duration 1e309 is too large/],
     [['simulate', '--out', 'x.wav', '--lag-ms', '0.000001', '--duration', '0.1'], EXIT.BAD_PARAMETER, /--lag-ms/],
     [['analyze', 'x.wav', '--rate', '1e308'], EXIT.BAD_PARAMETER, /--rate 1e308 Hz is outside its range/],
+    // The model's own ranges (dsp/duct.ts, dsp/rig-sim.ts) reach the user under the option's name.
+    [['simulate', '--out', 'x.wav', '--length', '1e308'], EXIT.BAD_PARAMETER, /^humgauge simulate: --length must lie from/],
+    [['modes', '--length', '1.2', '--diameter', '0.048', '--measured', '1e308'], EXIT.BAD_PARAMETER, /--measured must lie from/],
+    [['modes', '--length', '1.2', '--diameter', '0.048', '--heater', '0.3', '--hot-temp', '1e308'], EXIT.BAD_PARAMETER, /--hot-temp must lie from/],
   ])('%j → exit %i, the option named', async (args, code, msg) => {
     const r = await run(args as string[]);
     expect(r.code).toBe(code);

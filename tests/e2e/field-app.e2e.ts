@@ -172,7 +172,7 @@ describe('the field app', () => {
     await page.fill('#csv-rate', '2000');
     await page.selectOption('#csv-unit', 'Pa');
     await page.setInputFiles('#file-input', path);
-    await expect.poll(async () => (await page.locator('#run-result').isVisible()) || (await page.locator('#listen-alert').isVisible()), { timeout: 60_000 }).toBe(true);
+    await expect.poll(async () => `${await page.locator('#run-result h2').textContent()}${await page.locator('#listen-alert').textContent()}`, { timeout: 60_000 }).toMatch(/sensor-2khz\.csv/);
     expect(await page.locator('#listen-alert').textContent()).toBe('');
     expect((await page.locator('#listen-notes').textContent()) ?? '').toMatch(/2000 Hz/);
     const freq = firstNumber(await page.locator('#readout-frequency .tile-value').textContent());

@@ -128,9 +128,8 @@ describe('sessions screen', () => {
     await expect.poll(() => page.locator('.session-edit .hint').textContent()).toMatch(/Saved/);
     expect(await page.evaluate(() => (window as unknown as { __ran?: number }).__ran)).toBeUndefined();
     await page.fill('#edit-site', 'Boiler room 3 (east)');
-    await page.fill('#edit-notes', 'Before the baffle; flow < 2 m/s.');
     await page.click('.session-edit button[type=submit]');
-    await expect.poll(() => page.locator('.screen-sessions h2').first().textContent()).toMatch(/Boiler room 3 \(east\)/);
+    await expect.poll(() => page.locator('#session-title').textContent()).toMatch(/^Boiler room 3 \(east\) – /);
 
     // Control values of markers: a bad entry is refused, a good one kept.
     await page.fill('#marker-value-0', 'lots');

@@ -9,6 +9,7 @@ import { openSessionDb } from '../../web/storage/db';
 import { buildBundle, toJsonText, toSessionFile } from '../../web/storage/export';
 import { importBundle, readBundle } from '../../web/storage/import';
 import { deleteSession, loadFullSession, type FullSession } from '../../web/storage/sessions';
+import { bundleOptions, defaultSettings, loadSettings, SETTINGS_KEY } from '../../web/settings';
 import { sampleSession } from './export-sample';
 
 const AT = Date.UTC(2026, 11, 1, 8, 0);
@@ -55,6 +56,16 @@ describe('bundle audio', () => {
     const files = unzipSync(buildBundle([s], AT));
     expect(wavFormat(files[Object.keys(files).find((n) => n.endsWith('/audio.wav'))!]).tag).toBe(3);
     expect((await readBundle(buildBundle([s], AT)))[0].audio).toEqual(s.audio);
+  });
+});
+
+describe('the bundle audio setting', () => {
+  it('is 16-bit unless float is asked for, and a damaged stored value falls back to 16-bit', () => {
+    expect(bundleOptions(defaultSettings())).toEqual({ audio: 'pcm16' });
+    expect(bundleOptions({ ...defaultSettings(), isExportingFloatAudio: true })).toEqual({ audio: 'float32' });
+    const store = new Map<string, string>([[SETTINGS_KEY, JSON.stringify({ isExportingFloatAudio: 'yes' })]]);
+    const kv = { getItem: (k: string) => store.get(k) ?? null, setItem: (k: string, v: string) => void store.set(k, v) };
+    expect(bundleOptions(loadSettings(kv))).toEqual({ audio: 'pcm16' });
   });
 });
 
@@ -143,6 +154,14 @@ const report: fc.Arbitrary<Report> = fc
     noiseDriven: fc.array(
       fc.record({ startS: anyNumber, endS: anyNumber, frequencyHz: anyNumber, decayRatePerS: anyNumber, decayRateCi95PerS: interval, lorentzianDecayRatePerS: maybe(anyNumber), lorentzianCi95PerS: maybe(interval), autocorrelationDecayRatePerS: maybe(anyNumber), autocorrelationCi95PerS: maybe(interval) }).map(defined),
       { maxLength: 2 },
+    ),
+    modeStatistics: maybe(
+      fc.array(
+        fc
+          .record({ frequencyHz: anyNumber, startS: anyNumber, endS: anyNumber, linearGrowthRatePerS: orNull(anyNumber), linearGrowthRateCi95PerS: orNull(interval), saturation: orNull(anyNumber), noiseIntensity: orNull(anyNumber), regime: fc.constantFrom('stable', 'near-threshold', 'humming', 'undetermined') as fc.Arbitrary<'stable' | 'near-threshold' | 'humming' | 'undetermined'>, method: fc.constantFrom('amplitude-pdf', 'drift-diffusion', 'lorentzian+disagree'), reason: maybe(anyText(300)) })
+          .map(defined),
+        { maxLength: 2 },
+      ),
     ),
     summary: fc
       .record({

@@ -6,7 +6,7 @@ import { cyclesOf } from '../../web/run/cycles';
 import { emptyLiveSummary } from '../../web/worker/live-summary';
 import { formatPa, formatQ, formatRatio } from '../../web/format';
 import { splitInterval } from '../../web/views/live-readouts';
-import type { NoiseDriven, Report, Segment, Summary } from '../../dsp/types';
+import type { ModeStatistics, NoiseDriven, Report, Segment, Summary } from '../../dsp/types';
 import { beforeAfterSentences, formatChange, rateChange } from '../../web/run/compare';
 import { checkReanalysis, octaveAround } from '../../web/run/reanalyse';
 
@@ -101,6 +101,16 @@ describe('verdict at a glance (REFERENCES.md §5, §6, §92)', () => {
     expect(m?.frequencyHz).toBe(176);
     expect(m?.growthRatePerS).toBe(-5);
     expect(m?.ci95PerS).toEqual([-6, -4]);
+  });
+
+  it('takes the largest linear growth rate of the report’s noise statistics before the noise-excited decay', () => {
+    // ν of the normal form du = (ν − κ|u|²)u dt + σ dW (report.modeStatistics): the stretch closest to humming sets the margin.
+    const stat = (nu: number): ModeStatistics => ({ frequencyHz: 177, startS: 0, endS: 20, linearGrowthRatePerS: nu, linearGrowthRateCi95PerS: [nu - 0.5, nu + 0.5], saturation: null, noiseIntensity: null, regime: 'stable', method: 'amplitude-pdf' });
+    const nd: NoiseDriven = { startS: 0, endS: 20, frequencyHz: 177, decayRatePerS: 9, decayRateCi95PerS: [8, 10] };
+    const m = quietMargin(null, [nd], [stat(-6), stat(-1.6)]);
+    expect(m?.growthRatePerS).toBe(-1.6);
+    expect(m?.basis).toContain('amplitude-pdf');
+    expect(classifyMargin(m as NonNullable<typeof m>)).toBe('near-threshold');
   });
 
   it('prefers the live margin when the analysis gives one', () => {

@@ -8,7 +8,7 @@
  * Relations (REFERENCES.md §5): amplitude e-folding rate σ (positive grows); a stable mode's
  * decay rate α = −σ; damping ratio ζ = α / (2π f); a mode rings for 1/(2π ζ) cycles per e-fold.
  */
-import type { Interval, NoiseDriven, RegimeKind } from '../../dsp/types';
+import type { Interval, ModeStatistics, NoiseDriven, RegimeKind } from '../../dsp/types';
 import type { MarginEstimate } from '../worker/protocol';
 import type { LiveSummary } from '../worker/live-summary';
 import { formatRate, formatRatio, isShowable, isShowableInterval } from '../format';
@@ -53,12 +53,21 @@ export function dampingRatioOf(decayRatePerS: number, frequencyHz: number): numb
 
 /**
  * The margin to show for a quiet system: the live estimate when the analysis gives one, else the
- * least-damped of the noise-excited resonances reported (the mode closest to humming sets the
- * margin, whichever is the loudest), else null.
+ * largest linear growth rate from the noise statistics of the report (report.modeStatistics),
+ * else the least-damped of the noise-excited resonances reported; the mode closest to humming
+ * sets the margin, whichever is the loudest. Null when there is none.
  */
-export function quietMargin(live: MarginEstimate | null | undefined, noiseDriven: readonly NoiseDriven[] = []): Margin | null {
+export function quietMargin(live: MarginEstimate | null | undefined, noiseDriven: readonly NoiseDriven[] = [], modeStatistics: readonly ModeStatistics[] = []): Margin | null {
   if (live && isShowable(live.growthRatePerS)) {
     return { growthRatePerS: live.growthRatePerS, ci95PerS: isShowableInterval(live.growthRateCi95PerS) ? live.growthRateCi95PerS : null, frequencyHz: live.frequencyHz, basis: live.method };
+  }
+  let closest: ModeStatistics | null = null;
+  for (const m of modeStatistics) {
+    if (!isShowable(m.linearGrowthRatePerS) || !isShowableInterval(m.linearGrowthRateCi95PerS) || !(m.frequencyHz > 0)) continue;
+    if (!closest || m.linearGrowthRatePerS > (closest.linearGrowthRatePerS ?? -Infinity)) closest = m;
+  }
+  if (closest && isShowable(closest.linearGrowthRatePerS)) {
+    return { growthRatePerS: closest.linearGrowthRatePerS, ci95PerS: closest.linearGrowthRateCi95PerS ?? null, frequencyHz: closest.frequencyHz, basis: `linear growth rate from the noise statistics (${closest.method})` };
   }
   let best: NoiseDriven | null = null;
   let bestZeta = Infinity;
@@ -103,14 +112,15 @@ const REGIME_WORDS: Record<RegimeKind, string> = {
 export interface VerdictInput {
   summary: LiveSummary;
   margin?: MarginEstimate | null;
-  /** Noise-excited resonances of a finished record (report.noiseDriven). */
+  /** Noise-excited resonances and noise statistics of a finished record (report.noiseDriven, report.modeStatistics). */
   noiseDriven?: readonly NoiseDriven[];
+  modeStatistics?: readonly ModeStatistics[];
   /** True once the record is finished (the words speak of its end). */
   isFinal?: boolean;
 }
 
 /** The verdict for what the analysis has seen so far. */
-export function verdictOf({ summary, margin, noiseDriven, isFinal }: VerdictInput): Verdict {
+export function verdictOf({ summary, margin, noiseDriven, modeStatistics, isFinal }: VerdictInput): Verdict {
   const regime = summary.regime;
   const growth = summary.growthRatePerS;
   const growthText = isShowable(growth) ? `growth rate ${formatRate(growth, summary.growthRateCi95PerS)}` : 'growth rate not fitted yet';
@@ -148,7 +158,7 @@ export function verdictOf({ summary, margin, noiseDriven, isFinal }: VerdictInpu
     };
   }
   const hasTone = isShowable(summary.latestFrequencyHz);
-  const m = quietMargin(margin, noiseDriven);
+  const m = quietMargin(margin, noiseDriven, modeStatistics);
   if (m) {
     const kind = classifyMargin(m);
     const headline = kind === 'stable' ? 'Stable' : kind === 'near-threshold' ? 'Near threshold' : 'Humming';

@@ -118,6 +118,20 @@ const NoiseDrivenSchema = v.strictObject({
   autocorrelationCi95PerS: v.optional(v.strictTuple([rate('autocorrelation interval'), rate('autocorrelation interval')])),
 });
 
+/** report.modeStatistics (dsp/types.ts ModeStatistics): the growth rate from the noise per stretch. */
+const ModeStatisticsSchema = v.strictObject({
+  frequencyHz: FREQ('mode-statistics frequency'),
+  startS: measured('mode-statistics start'),
+  endS: measured('mode-statistics end'),
+  linearGrowthRatePerS: v.nullable(rate('linear growth rate from noise')),
+  linearGrowthRateCi95PerS: interval('linear growth rate interval'),
+  saturation: v.nullable(measured('saturation')),
+  noiseIntensity: v.nullable(measured('noise intensity')),
+  regime: v.picklist(['stable', 'near-threshold', 'humming', 'undetermined'], 'regime must be stable, near-threshold, humming or undetermined'),
+  method: text(TEXT_LIMITS.segmentModel, 'mode-statistics method'),
+  reason: v.optional(text(TEXT_LIMITS.reportWarning, 'mode-statistics reason')),
+});
+
 const optNum = (what: string) => v.optional(v.nullable(rate(what)));
 const optCi = (what: string) => v.optional(interval(what));
 
@@ -146,6 +160,7 @@ export const ReportSchema = v.strictObject({
   onsets: v.pipe(v.array(v.strictObject({ timeS: measured('onset time'), frequencyHz: FREQ('onset frequency') })), v.maxLength(100_000, 'too many onsets')),
   segments: v.pipe(v.array(SegmentSchema), v.maxLength(100_000, 'too many segments')),
   noiseDriven: v.pipe(v.array(NoiseDrivenSchema), v.maxLength(100_000, 'too many noise-driven estimates')),
+  modeStatistics: v.optional(v.pipe(v.array(ModeStatisticsSchema), v.maxLength(100_000, 'too many mode-statistics entries'))),
   summary: SummarySchema,
   tones: v.optional(v.pipe(v.array(v.strictObject({ frequencyHz: FREQ('tone frequency'), isSteadyLine: v.boolean() })), v.maxLength(1000))),
   clipped: v.optional(v.pipe(v.array(v.strictObject({ startS: measured('clipped start'), endS: measured('clipped end') })), v.maxLength(100_000))),
@@ -291,6 +306,20 @@ type Validated<T> = v.InferOutput<typeof ReportSchema> extends T ? (T extends v.
 const reportMatches: Validated<Report> = true;
 const markerMatches: v.InferOutput<typeof MarkerSchema> extends Marker ? (Marker extends v.InferOutput<typeof MarkerSchema> ? true : false) : false = true;
 const sessionFits: ExportedSession extends Pick<SessionRecord, 'id' | 'createdAtMs' | 'updatedAtMs' | 'meta' | 'markers' | 'gaps' | 'report' | 'durationS' | 'history'> ? true : false = true;
+/** True when A and B have exactly the same keys (an optional field added to one side alone fails). */
+type SameKeys<A, B> = [Exclude<keyof A, keyof B>, Exclude<keyof B, keyof A>] extends [never, never] ? true : false;
+type Out<S extends v.GenericSchema> = v.InferOutput<S>;
+const sameKeys: [
+  SameKeys<Report, Out<typeof ReportSchema>>,
+  SameKeys<Report['summary'], Out<typeof SummarySchema>>,
+  SameKeys<Report['segments'][number], Out<typeof SegmentSchema>>,
+  SameKeys<Report['noiseDriven'][number], Out<typeof NoiseDrivenSchema>>,
+  SameKeys<NonNullable<Report['modeStatistics']>[number], Out<typeof ModeStatisticsSchema>>,
+  SameKeys<Marker, Out<typeof MarkerSchema>>,
+  SameKeys<SessionRecord['meta'], Out<typeof MetaSchema>>,
+  SameKeys<NonNullable<SessionRecord['meta']['geometry']>, Out<typeof GeometrySchema>>,
+] = [true, true, true, true, true, true, true, true];
+void sameKeys;
 void reportMatches;
 void markerMatches;
 void sessionFits;

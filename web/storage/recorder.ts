@@ -63,6 +63,31 @@ function cleanSettings(settings: Record<string, unknown> | undefined): Record<st
   return out;
 }
 
+/** Joins blocks into consecutive chunks of at most `maxSamples` (the last may be shorter). */
+function secondChunks(blocks: readonly Float32Array[], maxSamples: number): Float32Array[] {
+  let total = 0;
+  for (const b of blocks) total += b.length;
+  const out: Float32Array[] = [];
+  let current = new Float32Array(Math.min(maxSamples, total));
+  let filled = 0;
+  for (const b of blocks) {
+    let at = 0;
+    while (at < b.length) {
+      const n = Math.min(b.length - at, current.length - filled);
+      current.set(b.subarray(at, at + n), filled);
+      filled += n;
+      at += n;
+      total -= n;
+      if (filled === current.length) {
+        out.push(current);
+        current = new Float32Array(Math.min(maxSamples, total));
+        filled = 0;
+      }
+    }
+  }
+  return out;
+}
+
 /** Aborts a failed transaction and silences the rejections of what it held. */
 function abandon(tx: { abort(): void; done: Promise<void> }, writes: Promise<unknown>[]): void {
   try {
@@ -209,37 +234,42 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
     record = next;
   };
 
-  /** Writes the pending audio as one chunk with the session record; on failure the audio is let go. */
+  /**
+   * Writes the pending audio in chunks of at most a second, each put awaited before the next, so
+   * the copy each put makes runs in a task of its own (a file analysed faster than real time
+   * delivers many seconds per write: one put of them all stalled the page for over a second).
+   * One transaction with the session record: all of it lands or none; on failure it is let go.
+   */
   const writeAudio = async (db: SessionDb): Promise<void> => {
     const audio = pendingAudio;
-    const audioSamples = pendingAudioSamples;
     pendingAudio = [];
     pendingAudioSamples = 0;
-    const joined = new Float32Array(audioSamples);
-    let off = 0;
-    for (const b of audio) {
-      joined.set(b, off);
-      off += b.length;
-    }
-    const sampleCount = record.audio.sampleCount + audioSamples;
-    const next: SessionRecord = {
-      ...record,
-      audio: { ...record.audio, sampleCount, chunkCount: record.audio.chunkCount + 1 },
-      durationS: Math.max(record.durationS, sampleCount / record.meta.sampleRateHz),
-    };
+    const chunks = secondChunks(audio, Math.max(1, Math.round(record.meta.sampleRateHz)));
+    let sampleCount = record.audio.sampleCount;
+    let chunkCount = record.audio.chunkCount;
     const writes: Promise<unknown>[] = [];
     let tx: ReturnType<SessionDb['transaction']> | null = null;
     try {
       const audioTx = db.transaction(['sessions', 'audio'], 'readwrite');
       tx = audioTx;
-      writes.push(audioTx.objectStore('audio').put({ sessionId: id, seq: record.audio.chunkCount, startSample: record.audio.sampleCount, samples: joined }));
+      for (const samples of chunks) {
+        const put = audioTx.objectStore('audio').put({ sessionId: id, seq: chunkCount++, startSample: sampleCount, samples });
+        writes.push(put);
+        sampleCount += samples.length;
+        await put;
+      }
+      const next: SessionRecord = {
+        ...record,
+        audio: { ...record.audio, sampleCount, chunkCount },
+        durationS: Math.max(record.durationS, sampleCount / record.meta.sampleRateHz),
+      };
       writes.push(audioTx.objectStore('sessions').put(next));
       await Promise.all([...writes, audioTx.done]);
+      record = next;
     } catch (err) {
       if (tx) abandon(tx, writes);
       throw err;
     }
-    record = next;
   };
 
   /** Track first, audio second; any failure gives up the audio and keeps the track pending. */

@@ -6,6 +6,7 @@
  * (Gopalakrishnan et al. 2016, Sci. Rep. 6, 35310, on a thermoacoustic subcritical Hopf
  * transition; REFERENCES.md §12).
  */
+import { studentTQuantile, Z_975 } from '../../dsp/fit';
 import type { Interval, Marker, Report } from '../../dsp/types';
 
 export type MapState = 'quiet' | 'humming';
@@ -21,7 +22,7 @@ export interface MapStep {
   /** Net linear rate at this setting, 1/s (growth > 0; stable decay < 0), with its 95 % interval. */
   ratePerS: number | null;
   rateCi95PerS: Interval | null;
-  /** Where the rate came from: 'growth', 'decay', 'noise-driven'. */
+  /** Where the rate came from: 'growth', 'decay', 'from noise' (report.modeStatistics), 'noise-driven'. */
   rateSource: string | null;
   /** Limit-cycle amplitude while humming, dBFS. */
   limitAmplitudeDbfs: number | null;
@@ -44,13 +45,36 @@ export interface StabilityMap {
   units: { unit: string; count: number }[];
   /** Control value where the net rate crosses zero (linear interpolation between neighbouring settings), if it does. */
   zeroRateControl: number | null;
+  /** Where a straight line through every rate predicts it crosses zero (REFERENCES.md §44), or null with fewer than two settings. */
+  predictedZero: ZeroPrediction | null;
   /**
    * Onset and shut-off thresholds (midpoint of the two settings either side of the first onset /
    * last shut-off) and their difference, the hysteresis width; null when not observed.
    */
   onsetControl: number | null;
   shutOffControl: number | null;
+  /**
+   * Hysteresis (onset − shut-off) and the range the settings bracket it to: null ("not
+   * determined") until both an onset and a shut-off are observed and their brackets exclude zero
+   * (two settings either side of one threshold bracket both at once: 0 lies in the range).
+   */
   hysteresis: number | null;
+  hysteresisRange: Interval | null;
+}
+
+/** The control value at which the line ν = c0 + c1·x crosses zero. */
+export interface ZeroPrediction {
+  control: number;
+  /** Fieller 95 % interval; null when the slope is not significantly non-zero (the crossing is not determined). */
+  ci95: Interval | null;
+  /** Settings used and the span of their controls. */
+  pointCount: number;
+  observedRange: Interval;
+  /** Distance from the nearest observed setting (0 inside the observed range), in control units and in observed spans. */
+  extrapolation: number;
+  extrapolationSpans: number;
+  /** Slope dν/dx (1/s per control unit). */
+  slopePerUnit: number;
 }
 
 /** What the map needs of a session. */
@@ -83,15 +107,16 @@ export function buildSteps(sessions: readonly MapSession[]): MapStep[] {
       if (!(t1 > t0)) continue;
       const span = t1 - t0;
       const inSpan = s.report.segments.filter((g) => overlap(g.startS, g.endS, t0, t1) > 0);
-      const humS = inSpan.filter((g) => g.kind === 'steady' || g.kind === 'growth').reduce((acc, g) => acc + overlap(g.startS, g.endS, t0, t1), 0);
+      // The settled behaviour: after a change of setting the system grows or decays for a while, so
+      // the state is what the second half of the span holds (hum = growth or steady).
+      const mid = t0 + span / 2;
+      const humLateS = inSpan.filter((g) => g.kind === 'steady' || g.kind === 'growth').reduce((acc, g) => acc + overlap(g.startS, g.endS, mid, t1), 0);
       const steady = inSpan.filter((g) => g.kind === 'steady' && typeof g.limitAmplitudeDbfs === 'number');
-      // A hum that starts is a growth into a steady state; a hum that stops is a decay to quiet.
-      const last = inSpan.length ? inSpan.reduce((a, b) => (b.endS > a.endS ? b : a)) : null;
-      const endsHumming = last ? last.kind === 'steady' || last.kind === 'growth' : false;
-      const state: MapState = endsHumming || humS > span / 3 ? 'humming' : 'quiet';
+      const state: MapState = humLateS > (t1 - mid) / 2 ? 'humming' : 'quiet';
       const growth = inSpan.find((g) => g.kind === 'growth' && g.ratePerS !== null);
       const decay = inSpan.find((g) => g.kind === 'decay' && g.ratePerS !== null);
       const noise = s.report.noiseDriven.find((n) => overlap(n.startS, n.endS, t0, t1) > span / 3);
+      const fromNoise = (s.report.modeStatistics ?? []).find((n) => n.linearGrowthRatePerS !== null && n.linearGrowthRateCi95PerS !== null && overlap(n.startS, n.endS, t0, t1) > span / 3);
       let ratePerS: number | null = null;
       let ci: Interval | null = null;
       let source: string | null = null;
@@ -103,6 +128,10 @@ export function buildSteps(sessions: readonly MapSession[]): MapStep[] {
         ratePerS = decay.ratePerS;
         ci = decay.rateCi95PerS;
         source = 'decay';
+      } else if (fromNoise) {
+        ratePerS = fromNoise.linearGrowthRatePerS;
+        ci = fromNoise.linearGrowthRateCi95PerS;
+        source = 'from noise';
       } else if (noise) {
         ratePerS = -noise.decayRatePerS;
         ci = [-noise.decayRateCi95PerS[1], -noise.decayRateCi95PerS[0]];
@@ -148,6 +177,13 @@ export function buildStabilityMap(sessions: readonly MapSession[], unit?: string
   const shut = [...transitions].reverse().find((t) => t.kind === 'shut-off');
   const onsetControl = onset ? (onset.fromControl + onset.toControl) / 2 : null;
   const shutOffControl = shut ? (shut.fromControl + shut.toControl) / 2 : null;
+  let hysteresisRange: Interval | null = null;
+  if (onset && shut) {
+    const lo = Math.min(onset.fromControl, onset.toControl) - Math.max(shut.fromControl, shut.toControl);
+    const hi = Math.max(onset.fromControl, onset.toControl) - Math.min(shut.fromControl, shut.toControl);
+    hysteresisRange = [lo, hi];
+  }
+  const isHysteresisDetermined = hysteresisRange !== null && (hysteresisRange[0] > 0 || hysteresisRange[1] < 0);
 
   // Zero crossing of the rate against the control value: average rates at equal controls, sort, interpolate.
   const byControl = new Map<number, number[]>();
@@ -172,8 +208,72 @@ export function buildStabilityMap(sessions: readonly MapSession[], unit?: string
     unit: chosen,
     units,
     zeroRateControl,
+    predictedZero: predictZeroCrossing(steps),
     onsetControl,
     shutOffControl,
-    hysteresis: onsetControl !== null && shutOffControl !== null ? onsetControl - shutOffControl : null,
+    hysteresis: isHysteresisDetermined && onsetControl !== null && shutOffControl !== null ? onsetControl - shutOffControl : null,
+    hysteresisRange: isHysteresisDetermined ? hysteresisRange : null,
   };
+}
+
+/**
+ * Weighted least-squares line ν = c0 + c1·x through the settings with a rate and interval
+ * (weights 1/sd², sd from the 95 % interval), its zero x0 = −c0/c1 and Fieller's 95 % interval
+ * (Fieller 1954; REFERENCES.md §44). When the points scatter more than their intervals allow
+ * (reduced χ² > 1) the covariance is scaled by it and Student-t with n − 2 degrees of freedom is
+ * used (Birge ratio; common practice).
+ */
+export function predictZeroCrossing(steps: readonly MapStep[]): ZeroPrediction | null {
+  const pts = steps.filter((s) => s.ratePerS !== null && Number.isFinite(s.ratePerS) && s.rateCi95PerS !== null && s.rateCi95PerS[1] > s.rateCi95PerS[0]);
+  const xs = pts.map((p) => p.control);
+  if (pts.length < 2 || Math.max(...xs) === Math.min(...xs)) return null;
+  let sw = 0;
+  let swx = 0;
+  let swxx = 0;
+  let swy = 0;
+  let swxy = 0;
+  const w = pts.map((p) => {
+    const ci = p.rateCi95PerS as Interval;
+    const sd = (ci[1] - ci[0]) / (2 * Z_975);
+    return 1 / (sd * sd);
+  });
+  pts.forEach((p, i) => {
+    const x = p.control;
+    const y = p.ratePerS as number;
+    sw += w[i];
+    swx += w[i] * x;
+    swxx += w[i] * x * x;
+    swy += w[i] * y;
+    swxy += w[i] * x * y;
+  });
+  const det = sw * swxx - swx * swx;
+  const c1 = (sw * swxy - swx * swy) / det;
+  const c0 = (swy - c1 * swx) / sw;
+  let chi2 = 0;
+  pts.forEach((p, i) => {
+    chi2 += w[i] * ((p.ratePerS as number) - c0 - c1 * p.control) ** 2;
+  });
+  const dof = pts.length - 2;
+  const birge = dof > 0 ? Math.max(1, chi2 / dof) : 1;
+  const v00 = (swxx / det) * birge;
+  const v01 = (-swx / det) * birge;
+  const v11 = (sw / det) * birge;
+  const q = birge > 1 && dof > 0 ? studentTQuantile(0.975, dof) : Z_975;
+  const lo = Math.min(...xs);
+  const hi = Math.max(...xs);
+  const base = { pointCount: pts.length, observedRange: [lo, hi] as Interval, slopePerUnit: c1 };
+  if (c1 === 0 || !Number.isFinite(c1)) return null;
+  const x0 = -c0 / c1;
+  const extrapolation = x0 < lo ? lo - x0 : x0 > hi ? x0 - hi : 0;
+  // Fieller: (c0 + c1 x)² ≤ q² (v00 + 2 v01 x + v11 x²), bounded when c1² > q² v11.
+  const A = c1 * c1 - q * q * v11;
+  const B = 2 * (c0 * c1 - q * q * v01);
+  const C = c0 * c0 - q * q * v00;
+  const disc = B * B - 4 * A * C;
+  let ci95: Interval | null = null;
+  if (A > 0 && disc >= 0) {
+    const r = Math.sqrt(disc);
+    ci95 = [(-B - r) / (2 * A), (-B + r) / (2 * A)];
+  }
+  return { ...base, control: x0, ci95, extrapolation, extrapolationSpans: extrapolation / (hi - lo) };
 }

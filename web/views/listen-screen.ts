@@ -13,6 +13,7 @@ import { MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ } from '../worker/protocol';
 import { createLivePlots, type LivePlots } from './live-plots';
 import { createSpectrogram, type Spectrogram } from './live-spectrogram';
 import { createReadouts } from './live-readouts';
+import { createLiveMarginView } from './live-margin-view';
 import { createMarkerBar } from './live-markers';
 import { renderRunResult } from './run-result';
 import { formatClock } from '../format';
@@ -57,9 +58,12 @@ export const mountListenScreen: MountScreen = (root, app) => {
 
   // Site and equipment: empty at each start (a new job does not inherit the last one's site);
   // what was typed before is offered as a suggestion.
-  const history = loadJson<LabelHistory>(LABELS_KEY, { sites: [], equipment: [] });
-  const site = suggestingInput('session-site', 'e.g. bench rig 2', Array.isArray(history.sites) ? history.sites : []);
-  const equipment = suggestingInput('session-equipment', 'e.g. heated tube, 1 m', Array.isArray(history.equipment) ? history.equipment : []);
+  // Stored lists are checked item by item (an older layout kept one site and one equipment text).
+  const stored = loadJson<Partial<Record<keyof LabelHistory, unknown>>>(LABELS_KEY, {});
+  const textsOf = (v: unknown): string[] => (Array.isArray(v) ? v.filter((x): x is string => typeof x === 'string') : []);
+  const history: LabelHistory = { sites: textsOf(stored.sites), equipment: textsOf(stored.equipment) };
+  const site = suggestingInput('session-site', 'e.g. bench rig 2', history.sites);
+  const equipment = suggestingInput('session-equipment', 'e.g. heated tube, 1 m', history.equipment);
   const ductBox = el('input', { type: 'checkbox', id: 'session-attach-duct' });
   const ductText = el('span', { id: 'session-duct-text' });
   const saveBox = el('input', { type: 'checkbox', id: 'session-save', checked: true });
@@ -122,6 +126,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
   root.append(el('h2', { className: 'visually-hidden', text: 'Listen' }), controls, labelRow, optionRow, csvBox, meterRow, progressRow, alertBox, notes, readoutHost, markerHost, plotHost, resultHost);
 
   const readouts = createReadouts(readoutHost);
+  const marginView = createLiveMarginView(readoutHost);
   const markers = createMarkerBar(markerHost, (m) => controller.mark(m));
   markers.setEnabled(false);
 
@@ -129,7 +134,9 @@ export const mountListenScreen: MountScreen = (root, app) => {
   function runMeta(): RunMeta {
     const s = site.input.value.trim();
     const e = equipment.input.value.trim();
-    saveJson(LABELS_KEY, { sites: remember(history.sites, s), equipment: remember(history.equipment, e) } satisfies LabelHistory);
+    history.sites = remember(history.sites, s);
+    history.equipment = remember(history.equipment, e);
+    saveJson(LABELS_KEY, history);
     const g = ductBox.checked ? readDuctScreenGeometry() : undefined;
     return { ...(s ? { site: s } : {}), ...(e ? { equipment: e } : {}), ...(g ? { geometry: g } : {}), isSaved: saveBox.checked };
   }
@@ -159,6 +166,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
     plots?.draw();
     spectrogram?.draw();
     readouts.update(readoutInput());
+    marginView.update(model.margin);
     const peakDb = model.peakAbs > 0 ? 20 * Math.log10(model.peakAbs) : -90;
     const pct = Math.max(0, Math.min(100, ((peakDb + 90) / 90) * 100));
     meterBar.style.width = `${pct.toFixed(1)}%`;
@@ -203,6 +211,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
     if (s === 'idle') stopDrawing();
   });
   controller.on('reset', () => {
+    marginView.reset();
     markers.clearPlaced();
     spectrogram?.redraw();
     resultHost.hidden = true;

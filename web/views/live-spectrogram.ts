@@ -140,6 +140,11 @@ export function createSpectrogram(host: HTMLElement, buffer: LiveBuffer, isWhole
     ctx.restore();
     ctx.textAlign = 'center';
     ctx.textBaseline = 'top';
+    if (!cols.length) {
+      ctx.fillText('time axis starts with the first sound', x0 + w / 2, y0 + h + 5 * dpr);
+      fig.dataset.columns = '0';
+      return;
+    }
     for (const t of niceTicks(t0, t1, Math.max(2, Math.floor(w / (70 * dpr))))) {
       const x = x0 + ((t - t0) / (t1 - t0)) * w;
       if (!Number.isFinite(x)) continue;

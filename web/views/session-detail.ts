@@ -6,6 +6,7 @@
 import type { Report } from '../../dsp/types';
 import { formatClock, formatDb, formatHz, formatQ, formatRate, formatRatio, formatSeconds } from '../format';
 import { TEXT_LIMITS } from '../storage/bundle-schema';
+import { bundleOptions } from '../settings';
 import { buildBundle, sessionBaseName, sessionWav, shareOrDownload, trackCsv } from '../storage/export';
 import { buildReportHtml } from '../storage/report-html';
 import { loadFullSession, updateSessionMeta, type FullSession } from '../storage/sessions';
@@ -145,7 +146,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   const actions = h(
     'div',
     { className: 'controls session-actions' },
-    button('Export bundle (.zip)', 'export-bundle', () => deliver(buildBundle([current()]), `${base}.zip`, 'application/zip')),
+    button('Export bundle (.zip)', 'export-bundle', () => deliver(buildBundle([current()], Date.now(), bundleOptions()), `${base}.zip`, 'application/zip')),
     button('Track (.csv)', 'export-csv', () => deliver(new TextEncoder().encode(trackCsv(track, offset)), `${base}-track.csv`, 'text/csv')),
     button('Audio (.wav)', 'export-wav', () => deliver(sessionWav(full.audio as Float32Array, m.sampleRateHz), `${base}.wav`, 'audio/wav'), !full.audio),
     button('Printable report (.html)', 'export-html', () => deliver(new TextEncoder().encode(buildReportHtml(current().record, track, Date.now())), `${base}-report.html`, 'text/html')),

@@ -6,6 +6,7 @@
 import type { MountScreen } from '../app-context';
 import { formatHz, formatRate, formatSeconds } from '../format';
 import type { SessionRecord } from '../storage/db';
+import { bundleOptions } from '../settings';
 import { buildBundle, shareOrDownload } from '../storage/export';
 import { ImportError } from '../storage/import';
 import { importBundleFile, recoverInterruptedOffThread } from '../storage/off-thread';
@@ -239,7 +240,7 @@ async function renderList(host: HTMLElement, ctx: SessionsContext): Promise<Sess
     }
     if (!full.length) return;
     try {
-      const bytes = buildBundle(full);
+      const bytes = buildBundle(full, Date.now(), bundleOptions());
       const stamp = new Date().toISOString().slice(0, 10);
       const how = await shareOrDownload(bytes, `humgauge-${full.length}-sessions-${stamp}.zip`, 'application/zip');
       if (how !== 'cancelled') ctx.app.notify(`Exported ${full.length} session${full.length === 1 ? '' : 's'} (${formatBytes(bytes.length)}).`, 'info');

@@ -118,6 +118,11 @@ export const mountSettingsScreen: MountScreen = (root, app) => {
     settings.isKeepingAudio = keep.input.checked;
     save(keep.input.checked ? 'Audio will be kept with sessions.' : 'Only the track and results will be kept.');
   });
+  const floatAudio = checkbox('export-float-audio', settings.isExportingFloatAudio, 'Export bundles with 32-bit float audio (every sample exact, twice the size; 16-bit otherwise)');
+  floatAudio.input.addEventListener('change', () => {
+    settings.isExportingFloatAudio = floatAudio.input.checked;
+    save(floatAudio.input.checked ? 'Bundles will carry 32-bit float audio.' : 'Bundles will carry 16-bit audio.');
+  });
   const theme = document.createElement('select');
   theme.id = 'theme';
   for (const [value, text] of [['daylight', 'Daylight (high contrast, light)'], ['dark', 'Dark (dim rooms)']] as const) {
@@ -139,7 +144,7 @@ export const mountSettingsScreen: MountScreen = (root, app) => {
     settings.levelWeighting = weighting.value === 'fast' ? 'fast' : 'slow';
     save(`Level readout time weighting ${settings.levelWeighting === 'fast' ? 'F (0.125 s)' : 'S (1 s)'} from the next run.`);
   });
-  displayBox.append(displayLegend, aw.wrap, keep.wrap, field('Level time weighting', weighting), field('Theme', theme));
+  displayBox.append(displayLegend, aw.wrap, keep.wrap, floatAudio.wrap, field('Level time weighting', weighting), field('Theme', theme));
 
   // Calibration.
   const calBox = document.createElement('fieldset');

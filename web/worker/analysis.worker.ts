@@ -5,6 +5,7 @@
  * updates go back to the app in batches of about 66 ms so the app only draws.
  */
 import { createAnalysis } from '../../dsp/index';
+import { createLiveMargin, estimateLiveMargin, feedLiveMargin, isLiveMarginDue, LIVE_MARGIN_EVERY_S, restartLiveMargin, type LiveMarginState } from '../../dsp/live-margin';
 import { createWavDecoder } from '../../dsp/io/wav';
 import { InputError } from '../../dsp/io/errors';
 import type { Analysis, AnalysisConfig, Marker, Onset, Segment, TrackFrame } from '../../dsp/types';
@@ -45,6 +46,9 @@ interface Run {
   pendingColumns: SpectrogramColumn[];
   columnBandHz: [number, number];
   lastColumnS: number;
+  /** The growth rate from the noise over the current stretch of steady operation (dsp/live-margin.ts), and when it was last estimated (wall ms). */
+  liveMargin: LiveMarginState;
+  lastMarginMs: number;
 }
 
 /** Band of the analysis when the request does not give one, Hz (dsp/types.ts AnalysisConfig defaults). */
@@ -86,6 +90,8 @@ function createRun(id: number, config: AnalysisConfig, isKeepingAudio: boolean, 
     pendingColumns: [],
     columnBandHz: [config.bandLowHz ?? DEFAULT_BAND_HZ[0], Math.min(config.bandHighHz ?? DEFAULT_BAND_HZ[1], config.sampleRateHz / 2)],
     lastColumnS: -Infinity,
+    liveMargin: createLiveMargin({ sampleRateHz: config.sampleRateHz }),
+    lastMarginMs: -Infinity,
   };
 }
 
@@ -116,6 +122,7 @@ function pushBlock(r: Run, samples: Float32Array): void {
   }
   if (u.peakAbs > r.peakAbs) r.peakAbs = u.peakAbs;
   if (u.isClipped) r.isClipped = true;
+  feedLiveMargin(r.liveMargin, samples, u);
   if (r.isKeepingAudio) keepAudio(r, samples);
 }
 
@@ -163,6 +170,11 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
     summary: { ...r.summary },
     mainFrequencyHz: r.mainFrequencyHz,
   };
+  // At most every LIVE_MARGIN_EVERY_S of wall time, so a file read fast is not held up.
+  if (isLiveMarginDue(r.liveMargin) && now - r.lastMarginMs >= LIVE_MARGIN_EVERY_S * 1000) {
+    r.lastMarginMs = now;
+    message.margin = estimateLiveMargin(r.liveMargin, last?.state === 'steady' ? r.mainFrequencyHz : Number.NaN, r.columnBandHz[1]);
+  }
   r.pendingFrames = [];
   r.pendingOnsets = [];
   r.pendingSegments = [];
@@ -317,6 +329,7 @@ function handle(message: ToWorker): void {
       return;
     case 'gap':
       r.analysis.gap(Math.round(message.missingSamples));
+      restartLiveMargin(r.liveMargin, Math.round(message.missingSamples));
       r.samplesSeen += Math.round(message.missingSamples);
       return;
     case 'mark': {

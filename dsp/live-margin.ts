@@ -1,0 +1,165 @@
+/**
+ * The margin to humming while listening: the linear growth rate ν from the noise
+ * (dsp/mode-statistics.ts) over the latest stretch of steady operation, re-estimated every few
+ * seconds so its interval narrows as data comes in. The input is kept in a ring after a boxcar
+ * decimation to about 8 kHz (a mode above 4 kHz is outside the default band; the boxcar's nulls
+ * sit on the frequencies that would fold onto the band's low end, and the broadband noise it lets
+ * fold is a floor the estimator removes). pushLiveMargin allocates nothing; estimateLiveMargin
+ * works on the whole window and allocates.
+ */
+import { fftInPlace } from './damping';
+import { estimateModeStatistics } from './mode-statistics';
+import { isMainsLine } from './track';
+import type { Interval, NoiseRegime } from './types';
+
+/** Ring rate target, Hz; window, cadence and least data before a first estimate, s. */
+const TARGET_RATE_HZ = 8000;
+export const LIVE_MARGIN_WINDOW_S = 60;
+export const LIVE_MARGIN_EVERY_S = 2;
+export const LIVE_MARGIN_MIN_S = 10;
+/** Welch frame for the resonance search (~1 Hz bins at 8 kHz) and the least prominence over the local median, dB. */
+const SEARCH_FRAME = 8192;
+const RESONANCE_MIN_DB = 6;
+/** Lowest mode searched, Hz (the estimator's band is capped at f/7; below this it is too narrow to hold a mode). */
+const SEARCH_LOW_HZ = 30;
+
+export interface LiveMarginState {
+  inputRateHz: number;
+  factor: number;
+  rateHz: number;
+  ring: Float32Array;
+  /** Samples written since the last restart (may exceed the ring), and the boxcar accumulator. */
+  count: number;
+  acc: number;
+  accN: number;
+  /** Input time of the stretch start, s, and of the latest sample. */
+  startS: number;
+  inputSamples: number;
+  lastEstimateCount: number;
+}
+
+export interface LiveMargin {
+  frequencyHz: number;
+  growthRatePerS: number;
+  growthRateCi95PerS: Interval;
+  regime: NoiseRegime;
+  method: string;
+  startS: number;
+  endS: number;
+}
+
+export function createLiveMargin(cfg: { sampleRateHz: number; windowS?: number }): LiveMarginState {
+  const fs = cfg.sampleRateHz;
+  if (!(fs >= 500 && fs <= 384000)) throw new RangeError(`sampleRateHz must lie in 500–384000 Hz, got ${fs}`);
+  const windowS = cfg.windowS ?? LIVE_MARGIN_WINDOW_S;
+  if (!(windowS >= LIVE_MARGIN_MIN_S && windowS <= 600)) throw new RangeError(`windowS must lie in ${LIVE_MARGIN_MIN_S}–600 s, got ${windowS}`);
+  const factor = Math.max(1, Math.floor(fs / TARGET_RATE_HZ));
+  const rateHz = fs / factor;
+  return { inputRateHz: fs, factor, rateHz, ring: new Float32Array(Math.ceil(windowS * rateHz)), count: 0, acc: 0, accN: 0, startS: 0, inputSamples: 0, lastEstimateCount: 0 };
+}
+
+/** Feeds input samples (never throws, allocates nothing). */
+export function pushLiveMargin(st: LiveMarginState, block: Float32Array): void {
+  const cap = st.ring.length;
+  for (let i = 0; i < block.length; i++) {
+    st.acc += block[i];
+    if (++st.accN === st.factor) {
+      st.ring[st.count % cap] = st.acc / st.factor;
+      st.count++;
+      st.acc = 0;
+      st.accN = 0;
+    }
+  }
+  st.inputSamples += block.length;
+}
+
+/** Starts a new stretch (a tone started or stopped, a gap): the window restarts empty. */
+export function restartLiveMargin(st: LiveMarginState, missingSamples = 0): void {
+  st.inputSamples += missingSamples;
+  st.count = 0;
+  st.acc = 0;
+  st.accN = 0;
+  st.lastEstimateCount = 0;
+  st.startS = st.inputSamples / st.inputRateHz;
+}
+
+/** True when enough new data has come in for a fresh estimate. */
+export function isLiveMarginDue(st: LiveMarginState): boolean {
+  return st.count >= LIVE_MARGIN_MIN_S * st.rateHz && st.count - st.lastEstimateCount >= LIVE_MARGIN_EVERY_S * st.rateHz;
+}
+
+/** The most prominent peak of the window's Welch spectrum (Hann, 50 % overlap) away from mains lines; NaN when none stands out. */
+function findResonanceHz(x: Float32Array, rateHz: number, bandHighHz: number): number {
+  const n = Math.min(SEARCH_FRAME, 1 << Math.floor(Math.log2(Math.max(2, x.length / 4))));
+  const re = new Float64Array(n);
+  const im = new Float64Array(n);
+  const acc = new Float64Array(n / 2);
+  for (let s = 0; s + n <= x.length; s += n / 2) {
+    for (let i = 0; i < n; i++) {
+      re[i] = x[s + i] * (0.5 - 0.5 * Math.cos((2 * Math.PI * i) / n));
+      im[i] = 0;
+    }
+    fftInPlace(re, im, -1);
+    for (let k = 0; k < n / 2; k++) acc[k] += re[k] * re[k] + im[k] * im[k];
+  }
+  const binHz = rateHz / n;
+  const half = Math.max(4, Math.round(20 / binHz));
+  const lo = Math.max(half + 1, Math.ceil(SEARCH_LOW_HZ / binHz));
+  const hi = Math.min(n / 2 - half - 1, Math.floor(Math.min(bandHighHz, rateHz / 2 - 50) / binHz));
+  let best = Number.NaN;
+  let bestProm = RESONANCE_MIN_DB;
+  const around = new Float64Array(2 * half);
+  for (let k = lo; k < hi; k++) {
+    if (!(acc[k] > acc[k - 1] && acc[k] >= acc[k + 1])) continue;
+    const f = k * binHz;
+    if (isMainsLine(f)) continue;
+    // Local median of ±20 Hz, the peak's own ±2 bins left out.
+    let m = 0;
+    for (let j = k - half; j <= k + half; j++) if (Math.abs(j - k) > 2) around[m++] = acc[j];
+    const med = around.subarray(0, m).sort()[m >> 1];
+    const prom = 10 * Math.log10(acc[k] / med);
+    if (prom > bestProm) {
+      bestProm = prom;
+      best = f;
+    }
+  }
+  return best;
+}
+
+/**
+ * ν with its 95 % interval over the current stretch (at most the window), at the tone's frequency
+ * `centreHz` when one is tracked, else at the most prominent resonance; null when there is none
+ * or no route gave an estimate.
+ */
+export function estimateLiveMargin(st: LiveMarginState, centreHz: number, bandHighHz = 4000): LiveMargin | null {
+  st.lastEstimateCount = st.count;
+  const cap = st.ring.length;
+  const len = Math.min(st.count, cap);
+  if (len < LIVE_MARGIN_MIN_S * st.rateHz) return null;
+  const x = new Float32Array(len);
+  const first = st.count - len;
+  for (let i = 0; i < len; i++) x[i] = st.ring[(first + i) % cap];
+  const f = Number.isFinite(centreHz) && centreHz > 0 ? centreHz : findResonanceHz(x, st.rateHz, bandHighHz);
+  if (!Number.isFinite(f)) return null;
+  const r = estimateModeStatistics(x, st.rateHz, { centreHz: f });
+  if (!r.isValid) return null;
+  const endS = st.startS + (st.count * st.factor) / st.inputRateHz;
+  return {
+    frequencyHz: r.frequencyHz,
+    growthRatePerS: r.growthRatePerS,
+    growthRateCi95PerS: [r.ci95PerS[0], r.ci95PerS[1]],
+    regime: r.regime,
+    method: 'linear growth rate from the noise (envelope statistics)',
+    startS: endS - len / st.rateHz,
+    endS,
+  };
+}
+
+/**
+ * Feeds one analysed block: a tone that starts, grows or decays (an onset, or a growth or decay
+ * segment closing in `update`) ends the stretch of steady operation, so the window restarts.
+ */
+export function feedLiveMargin(st: LiveMarginState, block: Float32Array, update: { onsets: readonly unknown[]; segments: readonly { kind: string }[] }): void {
+  if (update.onsets.length > 0 || update.segments.some((s) => s.kind === 'growth' || s.kind === 'decay')) restartLiveMargin(st);
+  pushLiveMargin(st, block);
+}
