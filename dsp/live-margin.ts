@@ -7,7 +7,8 @@
  * fold is a floor the estimator removes). pushLiveMargin allocates nothing; estimateLiveMargin
  * works on the whole window and allocates.
  */
-import { fftInPlace } from './damping';
+import { fftInPlace, mixDownDecimate } from './damping';
+import { earlyWarningIndicators } from './early-warning';
 import { estimateModeStatistics } from './mode-statistics';
 import { isMainsLine } from './track';
 import type { Interval, NoiseRegime } from './types';
@@ -46,7 +47,13 @@ export interface LiveMargin {
   method: string;
   startS: number;
   endS: number;
+  /** Kendall's τ of the envelope's variance and lag autocorrelation over 5 s windows (dsp/early-warning.ts): near +1 while the damping falls; NaN with too few windows. */
+  varianceTrend: number;
+  autocorrelationTrend: number;
 }
+
+/** Half-width of the band whose envelope feeds the early-warning indicators, Hz (the estimator's default band, REFERENCES.md §41). */
+const WARNING_HALF_WIDTH_HZ = 25;
 
 export function createLiveMargin(cfg: { sampleRateHz: number; windowS?: number }): LiveMarginState {
   const fs = cfg.sampleRateHz;
@@ -144,6 +151,10 @@ export function estimateLiveMargin(st: LiveMarginState, centreHz: number, bandHi
   const r = estimateModeStatistics(x, st.rateHz, { centreHz: f });
   if (!r.isValid) return null;
   const endS = st.startS + (st.count * st.factor) / st.inputRateHz;
+  // Early-warning trends on the envelope amplitude of the same band (REFERENCES.md §43).
+  const z = mixDownDecimate(x, st.rateHz, r.frequencyHz, Math.min(WARNING_HALF_WIDTH_HZ, r.frequencyHz / 7));
+  const amp = Float64Array.from(z.re, (re, i) => Math.hypot(re, z.im[i]));
+  const ew = earlyWarningIndicators(amp, z.rateHz);
   return {
     frequencyHz: r.frequencyHz,
     growthRatePerS: r.growthRatePerS,
@@ -152,6 +163,8 @@ export function estimateLiveMargin(st: LiveMarginState, centreHz: number, bandHi
     method: 'linear growth rate from the noise (envelope statistics)',
     startS: endS - len / st.rateHz,
     endS,
+    varianceTrend: ew.varianceTrend,
+    autocorrelationTrend: ew.autocorrelationTrend,
   };
 }
 

@@ -184,7 +184,8 @@ describe('bands and quantisation', () => {
 
 describe('text and --csv agree', () => {
   it('one sign convention: the decay rate is positive in the segment table and the summary, the dB/s column has a header', async () => {
-    const r = await run(['analyze', path('cycle.wav')]);
+    // The bundled demo (README): a bench tube switched on, humming, switched off.
+    const r = await run(['analyze', join(__dirname, '../../public/demo/bench-tube.wav')]);
     const decayRow = r.out.split('\n').find((l) => l.startsWith('decay '));
     expect(decayRow).toMatch(/^decay\s+[\d.]+\s+[\d.]+\s+[\d.]+\s+\d[\d.]*\s+\[\d/);
     expect(r.out).toMatch(/growth and decay rates both positive/);

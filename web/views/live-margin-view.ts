@@ -15,15 +15,33 @@ const HISTORY = 30;
 const WIDTH = 320;
 const HEIGHT = 64;
 
+/**
+ * Both trends above this are called rising: with no trend, Kendall's τ over n windows has sd
+ * √(2(2n+5)/(9n(n−1))) (Kendall 1938), 0.15 for the 23 windows of a full minute, so 0.5 is over 3 sd.
+ */
+const RISING_TAU = 0.5;
+
+/** The margin as the worker sends it, with the early-warning trends when present (dsp/live-margin.ts). */
+type MarginWithTrends = MarginEstimate & { varianceTrend?: number; autocorrelationTrend?: number };
+
+function trendText(m: MarginWithTrends): string {
+  const v = m.varianceTrend;
+  const a = m.autocorrelationTrend;
+  if (v === undefined || a === undefined || !Number.isFinite(v) || !Number.isFinite(a)) return 'Early-warning trend: not enough steady operation yet.';
+  const rising = v > RISING_TAU && a > RISING_TAU;
+  return `Early-warning trend (Kendall τ, −1 to +1): envelope variance ${v.toFixed(2)}, autocorrelation ${a.toFixed(2)}${rising ? ' — both rising: the damping is falling' : ''}.`;
+}
+
 export interface LiveMarginView {
-  update(margin: MarginEstimate | null): void;
+  update(margin: MarginWithTrends | null): void;
   reset(): void;
 }
 
 export function createLiveMarginView(host: HTMLElement): LiveMarginView {
   const text = el('p', { className: 'live-margin-text', attrs: { 'aria-live': 'polite' } });
+  const trend = el('p', { className: 'live-margin-trend hint' });
   const chart = svg('svg', { viewBox: `0 0 ${WIDTH} ${HEIGHT}`, class: 'live-margin-strip', role: 'img', 'aria-label': 'linear growth rate from the noise, 95 % interval of each estimate' });
-  const box = el('div', { className: 'live-margin', hidden: true }, el('h3', { text: 'Margin to humming (from the noise)' }), text, chart);
+  const box = el('div', { className: 'live-margin', hidden: true }, el('h3', { text: 'Margin to humming (from the noise)' }), text, chart, trend);
   host.append(box);
   const history: MarginEstimate[] = [];
   let latest: MarginEstimate | null = null;
@@ -54,6 +72,7 @@ export function createLiveMarginView(host: HTMLElement): LiveMarginView {
       const word = margin.growthRateCi95PerS[1] < 0 ? 'stable' : margin.growthRateCi95PerS[0] > 0 ? 'humming' : 'near threshold (the interval reaches zero)';
       const span = formatQuantity(margin.endS - margin.startS, 's', null, { decimals: 0 });
       text.textContent = `linear growth rate (from noise) ${formatRate(margin.growthRatePerS, margin.growthRateCi95PerS)} at ${formatQuantity(margin.frequencyHz, 'Hz', null, { decimals: 1 })}: ${word}; ${span} of steady operation`;
+      trend.textContent = trendText(margin);
       box.hidden = false;
       draw();
     },
