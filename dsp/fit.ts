@@ -459,6 +459,8 @@ interface Prepared {
   n: number;
   spacingS: number;
   nEff: number;
+  /** One-sided noise-equivalent bandwidth of the envelope low-pass, Hz. */
+  bandwidthHz: number;
 }
 
 function prepare(series: EnvelopeSeries): Prepared | string {
@@ -472,7 +474,7 @@ function prepare(series: EnvelopeSeries): Prepared | string {
     if (i > 0 && !(series.timeS[i] > series.timeS[i - 1])) return 'times must increase';
   }
   const spacingS = (series.timeS[n - 1] - series.timeS[0]) / (n - 1);
-  return { t: series.timeS, y: series.power, n, spacingS, nEff: effectiveSampleCount(n, spacingS, series.bandwidthHz) };
+  return { t: series.timeS, y: series.power, n, spacingS, nEff: effectiveSampleCount(n, spacingS, series.bandwidthHz), bandwidthHz: series.bandwidthHz };
 }
 
 /** Variance function of the envelope power: V(m) = N²(2m − N²), floored for a noise-free record. */
@@ -730,7 +732,7 @@ function blockMeans(d: Prepared, w: Float64Array, maxSamples: number): { d: Prep
     y[j] = sy / (i1 - i0);
     wm[j] = sw;
   }
-  return { d: { t, y, n: m, spacingS: d.spacingS * block, nEff: d.nEff }, w: wm };
+  return { d: { t, y, n: m, spacingS: d.spacingS * block, nEff: d.nEff, bandwidthHz: d.bandwidthHz }, w: wm };
 }
 
 /** Updates the IRLS weights 1/V(m̂) from the current parameters. */
@@ -1022,21 +1024,28 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
   const general = through(saturationShape(null));
   const thin = d.n > START_MAX_SAMPLES ? blockMeans(d, landau.weights, START_MAX_SAMPLES) : { d, w: landau.weights };
   const startModel = saturationShape(null);
-  let bestStart: FitState | null = null;
-  for (const p of [0.5, 1, 2, 4, 8, 16, 32]) {
+  const fromLandau = (p: number): Float64Array => {
     const params = new Float64Array(5);
     params[0] = landau.state.params[0];
     params[1] = landau.state.params[1];
     params[2] = landau.state.params[2];
     params[3] = Math.log(p);
     params[4] = landau.state.params[3];
-    const start: FitState = { params, isBackgroundFixed: fixedBg !== null, rss: Number.POSITIVE_INFINITY };
+    return params;
+  };
+  let bestStart: FitState | null = null;
+  for (const p of [0.5, 1, 2, 4, 8, 16, 32]) {
+    const start: FitState = { params: fromLandau(p), isBackgroundFixed: fixedBg !== null, rss: Number.POSITIVE_INFINITY };
     // A few steps from each start tell the basins apart; only the best start is polished fully.
     polish(thin.d, thin.w, startModel, start, 5);
     if (start.rss < (bestStart?.rss ?? Number.POSITIVE_INFINITY)) bestStart = start;
   }
   let bestGeneral: IrlsResult | null = null;
   if (bestStart !== null) {
+    // The cheap start may sit in a basin that the full data, through the kernel, rate worse than
+    // the Stuart–Landau solution itself (the flexible model at p = 2): then start from that solution.
+    const landauStart = fromLandau(2);
+    if (!(rssOf(d, landau.weights, general, bestStart.params) <= rssOf(d, landau.weights, general, landauStart))) bestStart.params = landauStart;
     bestGeneral = { state: bestStart, weights: landau.weights, cov: null, nFree: 0, dispersion: Number.NaN, nEff: d.nEff };
     polish(d, landau.weights, general, bestGeneral.state);
   }
@@ -1053,7 +1062,14 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
       }
     }
   }
-  if (model === 'generalised-saturation') chosen = conditionOnUnresolvedKnee(d, chosen, through, fixedBg);
+  if (model === 'generalised-saturation') {
+    chosen = conditionOnUnresolvedKnee(d, chosen, through, fixedBg);
+    // A flexible fit the data do not identify gives way to the Stuart–Landau one.
+    if (unidentifiedRate(d, chosen, 3) !== null) {
+      chosen = { fit: landau, p: 2 };
+      model = 'stuart-landau';
+    }
+  }
   const k = model === 'stuart-landau' ? 2 : 3;
   const params = chosen.fit.state.params;
   const s = params[1];
@@ -1062,12 +1078,13 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
   const bg = params[k + 1];
   const p = chosen.p;
   if (!(s > 0)) return fail('no growth found', d.nEff);
-  if (chosen.fit.cov === null) return { fit: { ...failFit('fit covariance is singular', d.nEff), model }, ratePerS: s, p, tcS: tc };
-  const sdRate = Math.sqrt(chosen.fit.cov[1 * chosen.fit.nFree + 1]);
+  const unidentified = unidentifiedRate(d, chosen, k);
+  if (unidentified !== null) return { fit: { ...failFit(unidentified, d.nEff), model }, ratePerS: s, p, tcS: tc };
+  const sdRate = Math.sqrt(chosen.fit.cov![1 * chosen.fit.nFree + 1]);
   const q = studentTQuantile(0.975, Math.max(1, chosen.fit.nEff - chosen.fit.nFree));
   const atRef = saturationShape(p).evaluate(Float64Array.of(ref), 1, Float64Array.of(s, tc), false).g[0];
   const fit: SaturationFit = {
-    isValid: Number.isFinite(sdRate),
+    isValid: true,
     ratePerS: s,
     ci95PerS: [s - q * sdRate, s + q * sdRate],
     amplitudeAtRef: Math.sqrt(limitPower * atRef),
@@ -1079,9 +1096,32 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
     // (1 + e^{−p s (t − tc)})^{−1/p} = 1/2  ⇔  t = tc − ln(2^p − 1)/(p s); p = 2 gives ln 3/(2 s).
     // Written ln 2/s + ln(1 − 2^{−p})/(p s): finite for any p > 0, ln 2/s as p grows without bound.
     halfTimeS: tc - Math.LN2 / s - Math.log1p(-(2 ** -p)) / (p * s),
-    ...(Number.isFinite(sdRate) ? {} : { reason: 'rate variance undefined' }),
   };
   return { fit, ratePerS: s, p, tcS: tc };
+}
+
+/**
+ * Why the data do not identify a saturation fit's rate s (its parameters [ln A∞², s, t_c, (ln p,)
+ * N²], k the index of N²), or null when they do. Not identified:
+ * - no covariance (JᵀWJ singular), or a rate variance or 95 % interval that is not finite;
+ * - a rate, or a 95 % interval, reaching past the fastest rise the envelope band resolves. On
+ *   every saturation curve d ln A²/dt = 2 s (1 − q) ≤ 2 s (header of this file), and a
+ *   non-negative kernel keeps that bound (the derivative of Σ h_k a(t − τ_k) is at most
+ *   s·Σ h_k a(t − τ_k)), so the mean power A² + N² takes at least ln(1 + A∞²/N²)/(2 s) to climb
+ *   from the background to the limit. The envelope's samples are independent only 1/(2B) apart
+ *   (the kernel's equivalent duration, header), so for s > B·ln(1 + A∞²/N²) the whole rise lies
+ *   within one independent sample: it reads as a step, and every faster rate predicts the same
+ *   data. An interval that reaches past that rate has not bounded s either.
+ */
+function unidentifiedRate(d: Prepared, c: SaturationCandidate, k: number): string | null {
+  if (c.fit.cov === null) return 'fit covariance is singular';
+  const params = c.fit.state.params;
+  const s = params[1];
+  const half = studentTQuantile(0.975, Math.max(1, c.fit.nEff - c.fit.nFree)) * Math.sqrt(c.fit.cov[1 * c.fit.nFree + 1]);
+  if (!Number.isFinite(s + half)) return 'rate variance undefined';
+  const fastest = d.bandwidthHz * Math.log1p(Math.exp(params[0]) / params[k + 1]);
+  if (s + half > fastest) return 'rate not resolved by the envelope band (the rise reads as a step)';
+  return null;
 }
 
 /**

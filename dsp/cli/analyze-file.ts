@@ -7,9 +7,9 @@ import { mkdtemp, open, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { createAnalysis } from '../index';
-import { createCsvDecoder, csvScaling, type CsvSummary } from '../io/csv';
+import { createCsvDecoder, csvSampleBits, csvScaling, csvSplOffsetDb, type CsvSummary } from '../io/csv';
 import { InputError, type InputProblem } from '../io/errors';
-import { createWavDecoder, type WavFormat } from '../io/wav';
+import { createWavDecoder, wavSampleBits, type WavFormat } from '../io/wav';
 import type { Analysis, AnalysisUpdate, RegimeKind, Report } from '../types';
 import type { InputFacts } from './format';
 import { CliError, EXIT } from './io';
@@ -105,7 +105,7 @@ async function analyzeWav(input: Input, s: AnalyzeSettings, progress: ProgressFn
     const fmt = dec.format;
     if (analysis === null && fmt !== null) {
       const f: WavFormat = fmt;
-      analysis = makeAnalysis(s, f.sampleRateHz, f.isFloat ? 0 : f.bitsPerSample);
+      analysis = makeAnalysis(s, f.sampleRateHz, wavSampleBits(f));
       totalS = input.size !== null ? input.size / f.blockAlign / f.sampleRateHz : 0;
     }
     if (block.length > 0 && analysis !== null) {
@@ -155,10 +155,7 @@ async function analyzeCsv(input: Input, s: AnalyzeSettings, progress: ProgressFn
       throw new CliError(`--rate ${s.rateHz} Hz disagrees with the time column (${fmtRate(s1.timeRateHz)}); leave --rate out for files with a time column`, EXIT.BAD_PARAMETER);
     }
     const { offset, scaleLog2 } = csvScaling(s1);
-    // The printed decimals quantise the values: step q = quantum · 2^k in full-scale units, i.e.
-    // log2(2/q) bits over ±1, whose quantisation error a tone must stand above (as for a WAV).
-    const bits = s1.valueQuantum > 0 ? 1 - Math.log2(s1.valueQuantum) - scaleLog2 : 0;
-    const analysis = makeAnalysis(s, s1.sampleRateHz, bits > 0 ? bits : 0);
+    const analysis = makeAnalysis(s, s1.sampleRateHz, csvSampleBits(s1, scaleLog2));
     const track = s.keepTrack ? new TrackColumns() : null;
     const dec = createCsvDecoder({ rateHz: s.rateHz, offset, scaleLog2, checkContent: false });
     const feed = (b: Float32Array): void => {
@@ -176,8 +173,7 @@ async function analyzeCsv(input: Input, s: AnalyzeSettings, progress: ProgressFn
     }
     feed(dec.end().samples);
     const report = analysis.finish();
-    // A sine of amplitude 2^−k Pa is 0 dBFS; its RMS 2^−k/√2 Pa against 20 µPa gives dB SPL.
-    const splOffsetDb = -scaleLog2 * 20 * Math.log10(2) - 20 * Math.log10(Math.SQRT2 * 20e-6);
+    const splOffsetDb = csvSplOffsetDb(scaleLog2);
     const layout = s1.hasTimeColumn
       ? `columns ${s1.timeColumnName ?? '1'} and ${s1.valueColumnName ?? '2'}, ${s1.rows} rows, ${fmtRate(s1.sampleRateHz)} from the mean time step`
       : `one column, ${s1.rows} rows at ${fmtRate(s1.sampleRateHz)}`;

@@ -10,7 +10,8 @@ import { STATES, TrackColumns, analyzeInput, failureOf, type AnalyzeSettings } f
 import { paFromSplDb } from '../levels';
 import type { Report } from '../types';
 import { isFolder, runBatch } from './batch';
-import { groupByTone, renderSummary } from './format';
+import { finalStates } from '../final-states';
+import { renderSummary } from './format';
 import { CliError, EXIT, type CliIo } from './io';
 import { HELP_OPTION, hasFlag, numberOption, optionsHelp, parseCommandArgs, parseNumberValue, quote, textOption, type OptionTable } from './options';
 import { openInput } from './read-file';
@@ -138,25 +139,18 @@ class Progress {
 
 /**
  * The per-frame track as CSV text. The state column follows the report's final segments of the
- * main tone: the track's own states are the live ones, which the regime detector confirms only
- * after the envelope has bent (0.1 s into a growth, about 1 s into a steady limit cycle), while
- * finish() places each boundary where the fitted curves put it. For pressure input
+ * main tone (dsp/final-states.ts), not the live states that lag them. For pressure input
  * (`splOffsetDb` given) the level is also given in Pa RMS and dB SPL.
  */
 export function trackCsv(track: TrackColumns, report?: Report, splOffsetDb?: number): string {
-  const segments = report ? (groupByTone(report)[0]?.segments ?? []) : [];
+  const final = report ? finalStates(track.timeS.subarray(0, track.length), report) : null;
   const hasSpl = splOffsetDb !== undefined;
   const lines: string[] = [`time_s,frequency_hz,amplitude_dbfs,${hasSpl ? 'amplitude_pa_rms,amplitude_db_spl,' : ''}state`];
-  let seg = 0;
   for (let i = 0; i < track.length; i++) {
     const t = track.timeS[i];
     const f = track.freqHz[i];
     const a = track.ampDbfs[i];
-    let state = STATES[track.state[i]] ?? '';
-    if (segments.length > 0) {
-      while (seg + 1 < segments.length && segments[seg + 1].startS <= t) seg++;
-      state = t < segments[0].startS ? 'quiet' : segments[seg].kind;
-    }
+    const state = final ? final[i] : (STATES[track.state[i]] ?? '');
     const spl = hasSpl && Number.isFinite(a) ? `${paFromSplDb(a + splOffsetDb).toPrecision(4)},${(a + splOffsetDb).toFixed(2)},` : hasSpl ? ',,' : '';
     lines.push(`${t.toFixed(4)},${Number.isFinite(f) ? f.toFixed(2) : ''},${Number.isFinite(a) ? a.toFixed(2) : ''},${spl}${state}`);
   }

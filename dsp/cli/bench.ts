@@ -25,7 +25,8 @@ import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
 import { createConditionState, stepCondition } from '../condition';
 import { crlbDampedTone } from '../crlb';
-import { createEnvelopeState, setEnvelopeFrequency, stepEnvelope } from '../envelope';
+import { setEnvelopeFrequency, stepEnvelope } from '../envelope';
+import { createToneEnvelope, ENVELOPE_RATE_HZ } from '../tone-store';
 import { fitExponential, fitSaturation, landauAmplitude } from '../fit';
 import { renderScenario, type ScenarioSpec } from '../rig-sim';
 import { createAnalysis } from '../index';
@@ -659,8 +660,8 @@ function bestOf(fn: () => void): number {
 /**
  * Cost of each streaming stage per minute of 48 kHz audio, each run alone on the speed minute
  * with the layout the analysis uses (default band 20-4000 Hz; the frame length and hop the probe
- * measured; peaks listed from 6 dB prominence, subharmonics from 10 dB, an envelope sample
- * every ~300th of a second through ±5 and ±20 Hz bands, as dsp/pipeline.ts sets them), so a
+ * measured; peaks listed from 6 dB prominence, subharmonics from 10 dB, as dsp/tones.ts sets
+ * them; the tone demodulator of dsp/tone-store.ts at its envelope rate and bands), so a
  * regression shows by stage. The rest of push() (tracking, regimes, stores, live fits) is what
  * remains of the pipeline's own push() time.
  */
@@ -707,7 +708,7 @@ function stageCosts(x: Float32Array, fs: number, frameSize: number, hop: number,
   const peakS = Math.max(0, bestOf(() => frameLoop(true)) - specS);
   const outs = [new Float64Array(1024), new Float64Array(1024), new Float64Array(1024)];
   const envS = bestOf(() => {
-    const e = createEnvelopeState({ sampleRateHz: fsA, decimation: Math.max(1, Math.round(fsA / 300)), bandwidthHz: 5, wideBandwidthHz: 20 });
+    const e = createToneEnvelope(fsA, Math.max(1, Math.round(fsA / ENVELOPE_RATE_HZ)));
     setEnvelopeFrequency(e, 171);
     for (let i = 0; i < nc; i += 2048) stepEnvelope(e, y, i, Math.min(nc, i + 2048), outs[0], outs[1], outs[2], 0);
   });

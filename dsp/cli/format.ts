@@ -10,6 +10,9 @@ import { dampingRatio } from '../derived';
 import { paFromSplDb } from '../levels';
 import type { Interval, Report, Segment } from '../types';
 import { modeStatisticsLines } from './format-noise';
+import { groupByTone } from '../final-states';
+
+export { groupByTone };
 
 /** A table: header row and body rows of cells; `alignRight` per column. */
 export function renderTable(header: string[], rows: string[][], alignRight: boolean[] = []): string {
@@ -153,42 +156,6 @@ export function segmentRows(segments: Segment[]): string[][] {
   });
 }
 
-/** One tone of the report with the segments and onsets nearest to it in frequency. */
-interface ToneGroup {
-  frequencyHz: number;
-  isSteadyLine: boolean;
-  segments: Segment[];
-  onsets: number;
-}
-
-/**
- * Sorts segments and onsets to the report's tones by nearest frequency (ratio), main tone first
- * (the tone nearest summary.frequencyHz). Without a tone list, all segments form one group.
- */
-export function groupByTone(report: Report): ToneGroup[] {
-  const tones = report.tones ?? [];
-  const groups: ToneGroup[] =
-    tones.length > 0
-      ? tones.map((t) => ({ frequencyHz: t.frequencyHz, isSteadyLine: t.isSteadyLine, segments: [], onsets: 0 }))
-      : report.summary.frequencyHz !== null || report.segments.length > 0
-        ? [{ frequencyHz: report.summary.frequencyHz ?? report.segments[0].frequencyHz, isSteadyLine: false, segments: [], onsets: 0 }]
-        : [];
-  if (groups.length === 0) return groups;
-  const nearest = (f: number): ToneGroup => {
-    let best = groups[0];
-    for (const g of groups) if (Math.abs(Math.log(f / g.frequencyHz)) < Math.abs(Math.log(f / best.frequencyHz))) best = g;
-    return best;
-  };
-  for (const seg of report.segments) nearest(seg.frequencyHz).segments.push(seg);
-  for (const o of report.onsets) nearest(o.frequencyHz).onsets++;
-  const mainHz = report.summary.frequencyHz;
-  if (mainHz !== null) {
-    const main = nearest(mainHz);
-    groups.splice(groups.indexOf(main), 1);
-    groups.unshift(main);
-  }
-  return groups;
-}
 
 /** What the rate columns mean (one convention for every table of the text output). */
 export const RATE_NOTE = '* growth and decay rates both positive: amplitude ∝ e^(+rate·t) growing, e^(−rate·t) decaying;\n  steady: the drift left (+ grows, − decays)\n';

@@ -171,7 +171,8 @@ async function* streamChunks(stream: Readable): AsyncGenerator<Uint8Array> {
   }
 }
 
-function concat(parts: Uint8Array[]): Uint8Array {
+/** The bytes of `parts` one after another, in a new array. */
+export function concat(parts: readonly Uint8Array[]): Uint8Array {
   const out = new Uint8Array(parts.reduce((n, p) => n + p.length, 0));
   let o = 0;
   for (const p of parts) {

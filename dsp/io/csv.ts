@@ -17,6 +17,7 @@
  *   single rounded step is off by up to a few per cent (common practice).
  */
 
+import { REFERENCE_PRESSURE_PA } from '../levels';
 import { InputError, checkDuration } from './errors';
 
 export interface CsvDecodeOptions {
@@ -72,6 +73,25 @@ export function csvScaling(summary: Pick<CsvSummary, 'minValue' | 'maxValue' | '
   const log2Excursion = isHuge ? Math.log2(Math.max(hi / 2 - m / 2, m / 2 - lo / 2)) + 1 : Math.log2(Math.max(hi - m, m - lo));
   // excursion · 2^k then lies in [0.25, 0.5): a scale by a power of two is exact.
   return { offset: m, scaleLog2: -Math.floor(log2Excursion) - 2 };
+}
+
+/**
+ * Resolution of the scaled samples in bits over ±1 (AnalysisConfig.sampleBits; 0 when unknown):
+ * the printed decimals quantise the values, step q = valueQuantum · 2^scaleLog2 in full-scale
+ * units, i.e. log2(2/q) bits, whose quantisation error a tone must stand above (as for a WAV).
+ */
+export function csvSampleBits(summary: Pick<CsvSummary, 'valueQuantum'>, scaleLog2: number): number {
+  const bits = summary.valueQuantum > 0 ? 1 - Math.log2(summary.valueQuantum) - scaleLog2 : 0;
+  return bits > 0 && Number.isFinite(bits) ? bits : 0;
+}
+
+/**
+ * dBFS → dB SPL offset of values in pascals scaled by 2^scaleLog2: a sine of amplitude 2^−k Pa is
+ * 0 dBFS, its RMS 2^−k/√2 Pa against 20 µPa gives the level (REFERENCES.md §11). Computed in the
+ * log domain, so it stays finite for any scale csvScaling gives.
+ */
+export function csvSplOffsetDb(scaleLog2: number): number {
+  return -scaleLog2 * 20 * Math.log10(2) - 20 * Math.log10(Math.SQRT2 * REFERENCE_PRESSURE_PA);
 }
 
 /** (v − offset) · 2^k for finite v and offset, without overflow (k from csvScaling). */

@@ -30,6 +30,11 @@ export interface WavFormat {
   encodingName: string;
 }
 
+/** Resolution of the samples for the analysis (AnalysisConfig.sampleBits): PCM bits; 0 for float (no quantisation step to stand above). */
+export function wavSampleBits(format: Pick<WavFormat, 'isFloat' | 'bitsPerSample'>): number {
+  return format.isFloat ? 0 : format.bitsPerSample;
+}
+
 export interface WavDecodeOptions {
   /** 0-based channel to read; omitted or null mixes all channels to mono (their mean). */
   channel?: number | null;

@@ -7,25 +7,14 @@ import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'nod
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { main, VERSION } from '../../dsp/cli/humgauge';
-import { EXIT, type CliIo } from '../../dsp/cli/io';
+import { VERSION } from '../../dsp/cli/humgauge';
+import { EXIT } from '../../dsp/cli/io';
 import { encodeWav } from '../../dsp/io/wav-write';
 import { humCycleEnvelope, synthesize } from '../../dsp/synth';
 import type { Report } from '../../dsp/types';
+import { runCli } from './run-cli';
 
-interface Captured {
-  code: number;
-  out: string;
-  err: string;
-}
-
-async function run(args: string[], isErrTty = false): Promise<Captured> {
-  let out = '';
-  let err = '';
-  const io: CliIo = { out: (t) => void (out += t), err: (t) => void (err += t), isErrTty };
-  const code = await main(args, io);
-  return { code, out, err };
-}
+const run = runCli;
 
 let dir = '';
 const path = (name: string): string => join(dir, name);

@@ -8,21 +8,15 @@ import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { SUMMARY_COLUMNS, medianRate } from '../../dsp/cli/batch';
-import { main } from '../../dsp/cli/humgauge';
-import { EXIT, type CliIo } from '../../dsp/cli/io';
+import { EXIT } from '../../dsp/cli/io';
 import { encodeWav } from '../../dsp/io/wav-write';
 import { humCycleEnvelope, synthesize } from '../../dsp/synth';
 import type { Report, Segment } from '../../dsp/types';
+import { runCli } from './run-cli';
 
 const ROOT = resolve(__dirname, '../..');
 
-async function run(args: string[], isErrTty = false): Promise<{ code: number; out: string; err: string }> {
-  let out = '';
-  let err = '';
-  const io: CliIo = { out: (t) => void (out += t), err: (t) => void (err += t), isErrTty };
-  const code = await main(args, io);
-  return { code, out, err };
-}
+const run = runCli;
 
 let dir = '';
 const path = (n: string): string => join(dir, n);

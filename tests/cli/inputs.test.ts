@@ -8,24 +8,18 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { Readable } from 'node:stream';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { main } from '../../dsp/cli/humgauge';
 import { trackCsv } from '../../dsp/cli/analyze';
 import { analyzeInput } from '../../dsp/cli/analyze-file';
-import { EXIT, type CliIo } from '../../dsp/cli/io';
+import { EXIT } from '../../dsp/cli/io';
 import { openInput } from '../../dsp/cli/read-file';
 import { csvScaling, decodeCsv } from '../../dsp/io/csv';
 import { encodeWav } from '../../dsp/io/wav-write';
 import { quantisationFloorDbfs } from '../../dsp/levels';
 import { humCycleEnvelope, synthesize } from '../../dsp/synth';
 import type { Report } from '../../dsp/types';
+import { runCli } from './run-cli';
 
-async function run(args: string[]): Promise<{ code: number; out: string; err: string }> {
-  let out = '';
-  let err = '';
-  const io: CliIo = { out: (t) => void (out += t), err: (t) => void (err += t), isErrTty: false };
-  const code = await main(args, io);
-  return { code, out, err };
-}
+const run = runCli;
 
 let dir = '';
 const path = (n: string): string => join(dir, n);

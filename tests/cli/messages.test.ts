@@ -6,18 +6,12 @@ import { mkdtempSync, rmSync, writeFileSync, existsSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { main } from '../../dsp/cli/humgauge';
-import { EXIT, type CliIo } from '../../dsp/cli/io';
+import { EXIT } from '../../dsp/cli/io';
 import { MODEL_PARAMETER_OPTIONS, withOptionNames } from '../../dsp/cli/options';
 import { PROFILE_MAX_LINE_BYTES } from '../../dsp/cli/profile';
+import { runCli } from './run-cli';
 
-async function run(args: string[]): Promise<{ code: number; out: string; err: string }> {
-  let out = '';
-  let err = '';
-  const io: CliIo = { out: (t) => void (out += t), err: (t) => void (err += t), isErrTty: false };
-  const code = await main(args, io);
-  return { code, out, err };
-}
+const run = runCli;
 
 let dir = '';
 beforeAll(() => {

@@ -2,17 +2,11 @@
 // exit codes in analyze, modes and simulate. Exit codes are the ones `humgauge --help` documents
 // (2 = malformed value or unknown option, 11 = a value outside its range).
 import { describe, expect, it } from 'vitest';
-import { EXIT, type CliIo } from '../../dsp/cli/io';
-import { main } from '../../dsp/cli/humgauge';
+import { EXIT } from '../../dsp/cli/io';
 import { optionsHelp, parseCommandArgs, parseNumberValue, type OptionTable } from '../../dsp/cli/options';
+import { runCli } from './run-cli';
 
-async function run(args: string[]): Promise<{ code: number; out: string; err: string }> {
-  let out = '';
-  let err = '';
-  const io: CliIo = { out: (t) => void (out += t), err: (t) => void (err += t), isErrTty: false };
-  const code = await main(args, io);
-  return { code, out, err };
-}
+const run = runCli;
 
 const TABLE: OptionTable = {
   temp: { kind: 'number', value: 'C', unit: '°C', min: -273.15, isMinExclusive: true, help: 'temperature' },

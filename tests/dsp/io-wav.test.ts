@@ -8,6 +8,7 @@ import { describe, expect, it } from 'vitest';
 import { createWavDecoder, decodeWav } from '../../dsp/io/wav';
 import { InputError, type InputProblem } from '../../dsp/io/errors';
 import { encodeWav } from '../../dsp/io/wav-write';
+import { concat } from '../../dsp/cli/read-file';
 
 interface Chunk {
   id: string;
@@ -26,15 +27,7 @@ function le(n: number, bytes: number): Uint8Array {
   return out;
 }
 
-function cat(...parts: Uint8Array[]): Uint8Array {
-  const out = new Uint8Array(parts.reduce((n, p) => n + p.length, 0));
-  let o = 0;
-  for (const p of parts) {
-    out.set(p, o);
-    o += p.length;
-  }
-  return out;
-}
+const cat = (...parts: Uint8Array[]): Uint8Array => concat(parts);
 
 function riff(chunks: Chunk[], magic = 'RIFF', type = 'WAVE'): Uint8Array {
   const parts: Uint8Array[] = [];

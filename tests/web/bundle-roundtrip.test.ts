@@ -1,6 +1,7 @@
 // What the app exports, it imports: every session it can produce comes back identical (text of
 // any kind, any measured number), and the audio travels as 16-bit PCM unless float is asked for.
 import 'fake-indexeddb/auto';
+import { DIAMETER_RANGE_M, GAS_TEMPERATURE_RANGE_C, LENGTH_RANGE_M } from '../../dsp/duct';
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { strFromU8, unzipSync } from 'fflate';
@@ -197,11 +198,11 @@ function arbitrarySession(): fc.Arbitrary<FullSession> {
       geometry: maybe(
         fc
           .record({
-            lengthM: finiteNumber(1e-6, 1e6), diameterM: finiteNumber(1e-6, 1e4),
+            lengthM: finiteNumber(LENGTH_RANGE_M.min, LENGTH_RANGE_M.max), diameterM: finiteNumber(DIAMETER_RANGE_M.min, DIAMETER_RANGE_M.max),
             ends: fc.constantFrom('open-open', 'open-closed', 'closed-closed') as fc.Arbitrary<'open-open' | 'open-closed' | 'closed-closed'>,
             openEnd: fc.constantFrom('unflanged', 'flanged', 'none') as fc.Arbitrary<'unflanged' | 'flanged' | 'none'>,
             closedEnd: maybe(fc.constantFrom('upstream', 'downstream') as fc.Arbitrary<'upstream' | 'downstream'>),
-            gasTemperatureC: finiteNumber(-273.15, 1e5), heaterPositionM: maybe(finiteNumber(0, 1e6)), hotTemperatureC: maybe(finiteNumber(-273.15, 1e5)),
+            gasTemperatureC: finiteNumber(GAS_TEMPERATURE_RANGE_C.min, GAS_TEMPERATURE_RANGE_C.max), heaterPositionM: maybe(finiteNumber(0, LENGTH_RANGE_M.max)), hotTemperatureC: maybe(finiteNumber(GAS_TEMPERATURE_RANGE_C.min, GAS_TEMPERATURE_RANGE_C.max)),
           })
           .map(defined),
       ),

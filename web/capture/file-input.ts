@@ -3,8 +3,8 @@
  * (native sample rate, exact samples, named problems); CSV pressure-sensor exports by the CSV
  * reader; anything else goes to the browser's decodeAudioData (MP3, AAC/M4A, Ogg/Opus, FLAC ...).
  */
-import { decodeWav } from '../../dsp/io/wav';
-import { decodeCsv } from '../../dsp/io/csv';
+import { decodeWav, wavSampleBits } from '../../dsp/io/wav';
+import { createCsvDecoder, csvSampleBits, csvScaling, csvSplOffsetDb, decodeCsv } from '../../dsp/io/csv';
 import { InputError } from '../../dsp/io/errors';
 
 export interface DecodedFile {
@@ -19,8 +19,10 @@ export interface DecodedFile {
   notes: string[];
   /** True for pressure-sensor data (a CSV), not a microphone's sound. */
   isSensor?: boolean;
-  /** For sensor data in pascals: pascals per full scale of the samples handed on. */
-  pascalsPerFullScale?: number;
+  /** For sensor data in pascals: the dBFS → dB SPL offset of the samples handed on, dB. */
+  splOffsetDb?: number;
+  /** Resolution of the samples in bits over ±1 for the analysis (AnalysisConfig.sampleBits); 0 or absent when unknown. */
+  sampleBits?: number;
 }
 
 /** What the user may tell about a file before it is read. */
@@ -85,6 +87,7 @@ export async function decodeAudioFile(file: File, options: FileOptions = {}): Pr
         sampleRateHz: summary.format.sampleRateHz,
         channels: [samples],
         durationS: summary.durationS,
+        sampleBits: wavSampleBits(summary.format),
         decodedBy: `WAV ${summary.format.encodingName}, ${summary.format.channelCount} channel${summary.format.channelCount === 1 ? '' : 's'}`,
         notes: summary.warnings,
       };
@@ -98,19 +101,25 @@ export async function decodeAudioFile(file: File, options: FileOptions = {}): Pr
     }
   } else if (isCsvName(name)) {
     try {
-      const { samples, summary } = decodeCsv(bytes, options.csvRateHz ? { rateHz: options.csvRateHz } : {});
-      // Sensor values arrive in their own unit (e.g. Pa): scale so the peak sits at half full scale.
-      // Rates, frequencies and regimes are unchanged by a constant factor; levels read in dB re peak.
+      // As the command line reads a CSV (dsp/cli/analyze-file.ts): a first pass learns the range,
+      // the second removes the mean (static pressure) and scales by a power of two to half full
+      // scale, exactly and without overflow for any finite values. Rates, frequencies and regimes
+      // are unchanged by the scale; levels read in dB SPL (Pa) or dB re the largest excursion.
+      const rate = options.csvRateHz ? { rateHz: options.csvRateHz } : {};
+      const scan = createCsvDecoder({ ...rate, emitSamples: false });
+      scan.push(bytes);
+      const first = scan.end().summary;
+      const { offset, scaleLog2 } = csvScaling(first);
+      const { samples, summary } = decodeCsv(bytes, { ...rate, offset, scaleLog2, checkContent: false });
       const peak = Math.max(Math.abs(summary.minValue), Math.abs(summary.maxValue));
-      const gain = peak > 0 ? 0.5 / peak : 1;
-      for (let i = 0; i < samples.length; i++) samples[i] *= gain;
       const isPascal = options.csvUnit !== 'other';
       const rateNote = options.csvRateHz
         ? [`Sample rate ${options.csvRateHz} Hz as typed${summary.timeRateHz !== null ? ` (the time column says ${summary.timeRateHz.toPrecision(6)} Hz)` : ''}.`]
         : [];
       return {
         isSensor: true,
-        ...(isPascal && peak > 0 ? { pascalsPerFullScale: peak / 0.5 } : {}),
+        ...(isPascal ? { splOffsetDb: csvSplOffsetDb(scaleLog2) } : {}),
+        sampleBits: csvSampleBits(summary, scaleLog2),
         fileName: name,
         sampleRateHz: summary.sampleRateHz,
         channels: [samples],
@@ -120,7 +129,7 @@ export async function decodeAudioFile(file: File, options: FileOptions = {}): Pr
           ...rateNote,
           isPascal
             ? `Values read as pressure in Pa (largest ${peak.toPrecision(4)} Pa): amplitudes are shown in Pa and dB SPL.`
-            : `Values were scaled so the largest (${peak.toPrecision(4)}) reads −6 dBFS; levels in dBFS are relative to that. (Values were marked as another unit than Pa.)`,
+            : `Values were marked as another unit than Pa (largest ${peak.toPrecision(4)}): their mean was removed and the largest excursion from it reads about −6 dBFS; levels in dBFS are relative to that.`,
         ],
       };
     } catch (err) {

@@ -5,8 +5,8 @@
 import type { DuctGeometry } from '../../dsp/types';
 import { formatFixed } from '../format';
 
-/** localStorage key where the Duct screen keeps the geometry. */
-const GEOMETRY_KEY = 'humgauge.ductGeometry';
+/** localStorage key where the Duct screen keeps the geometry the user set. */
+export const GEOMETRY_KEY = 'humgauge.ductGeometry';
 
 /** The Duct screen's geometry when it is stored and sound, else undefined. */
 export function readDuctScreenGeometry(): DuctGeometry | undefined {

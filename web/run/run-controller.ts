@@ -307,7 +307,7 @@ export function createRunController(): RunController {
       setState('idle');
       return;
     }
-    const calibration = decoded.pascalsPerFullScale ? sensorCalibration(decoded.pascalsPerFullScale) : undefined;
+    const calibration = decoded.splOffsetDb !== undefined ? sensorCalibration(decoded.splOffsetDb) : undefined;
     const r = newRun(decoded.isSensor ? 'sensor' : 'sound-file', meta, calibration);
     run = r;
     r.fileName = decoded.fileName;
@@ -324,7 +324,7 @@ export function createRunController(): RunController {
     send({
       type: 'analyse-file',
       id: r.id,
-      config: { sampleRateHz: decoded.sampleRateHz, bandLowHz: settings.bandLowHz, bandHighHz: settings.bandHighHz },
+      config: { sampleRateHz: decoded.sampleRateHz, bandLowHz: settings.bandLowHz, bandHighHz: settings.bandHighHz, sampleBits: decoded.sampleBits ?? 0 },
       channels: decoded.channels,
       isKeepingAudio: settings.isKeepingAudio && meta.isSaved,
     });

@@ -5,17 +5,18 @@
  * full-scale sine = 0 dBFS) has p_rms = a·P/√2, so
  *   L_p = 20·lg(p_rms / 20 µPa) = dBFS + 20·lg(P / (√2 · 20 µPa))      (REFERENCES.md §11).
  */
-import { paFromSplDb, REFERENCE_PRESSURE_PA } from '../../dsp/levels';
+import { csvSplOffsetDb } from '../../dsp/io/csv';
+import { paFromSplDb } from '../../dsp/levels';
 import type { Calibration } from '../settings';
 
 /** The dBFS → dB SPL offset of sensor data scaled at `pascalsPerFullScale` Pa per full scale. */
 export function sensorOffsetDb(pascalsPerFullScale: number): number {
-  return 20 * Math.log10(pascalsPerFullScale / (Math.SQRT2 * REFERENCE_PRESSURE_PA));
+  return csvSplOffsetDb(-Math.log2(pascalsPerFullScale));
 }
 
-/** The calibration a Pa sensor file carries (not a microphone's: no roll-off, no device). */
-export function sensorCalibration(pascalsPerFullScale: number): Calibration {
-  return { offsetDb: sensorOffsetDb(pascalsPerFullScale), source: 'pressure data in Pa', dateIso: '' };
+/** The calibration a Pa sensor file carries (not a microphone's: no roll-off, no device), from its dBFS → dB SPL offset. */
+export function sensorCalibration(offsetDb: number): Calibration {
+  return { offsetDb, source: 'pressure data in Pa', dateIso: '' };
 }
 
 export { paFromSplDb };

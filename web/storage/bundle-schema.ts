@@ -7,6 +7,8 @@
  * be non-finite, so an export → import round trip gives back every number bit for bit.
  */
 import * as v from 'valibot';
+import { DIAMETER_RANGE_M, GAS_TEMPERATURE_RANGE_C, LENGTH_RANGE_M } from '../../dsp/duct';
+import type { PhysicalRange } from '../../dsp/gas';
 import type { Marker, RegimeKind, Report } from '../../dsp/types';
 import { DB_VERSION, type SessionRecord } from './db';
 
@@ -192,21 +194,18 @@ export const ReportSchema = v.strictObject({
   warnings: v.optional(v.pipe(v.array(text(TEXT_LIMITS.reportWarning, 'report warning')), v.maxLength(1000, 'too many warnings'))),
 });
 
-/**
- * Duct geometry as the app takes it (any positive length and diameter, any temperature above
- * absolute zero); the duct model checks its own ranges when it is used, naming the field.
- */
-const positive = (what: string) => v.pipe(anyFinite(what), v.gtValue(0, `${what} must be more than 0`));
-const kelvinAbove0 = (what: string) => v.pipe(anyFinite(what), v.gtValue(-273.15, `${what} must be above absolute zero (−273.15 °C)`));
+/** Duct geometry within the duct model's ranges (dsp/duct.ts, the Duct screen's too), naming the field. */
+const inRange = (what: string, r: PhysicalRange, unit: string) =>
+  v.pipe(anyFinite(what), v.minValue(r.min, `${what} must be ${r.min}–${r.max} ${unit}`), v.maxValue(r.max, `${what} must be ${r.min}–${r.max} ${unit}`));
 const GeometrySchema = v.strictObject({
-  lengthM: positive('duct length'),
-  diameterM: positive('duct diameter'),
+  lengthM: inRange('duct length', LENGTH_RANGE_M, 'm'),
+  diameterM: inRange('duct diameter', DIAMETER_RANGE_M, 'm'),
   ends: v.picklist(['open-open', 'open-closed', 'closed-closed'], 'duct ends must be open-open, open-closed or closed-closed'),
   openEnd: v.picklist(['unflanged', 'flanged', 'none'], 'open end must be unflanged, flanged or none'),
   closedEnd: v.optional(v.picklist(['upstream', 'downstream'], 'closed end must be upstream or downstream')),
-  gasTemperatureC: kelvinAbove0('gas temperature'),
-  heaterPositionM: v.optional(v.pipe(anyFinite('heater position'), v.minValue(0, 'heater position must be at least 0'))),
-  hotTemperatureC: v.optional(kelvinAbove0('hot gas temperature')),
+  gasTemperatureC: inRange('gas temperature', GAS_TEMPERATURE_RANGE_C, '°C'),
+  heaterPositionM: v.optional(inRange('heater position', { min: 0, max: LENGTH_RANGE_M.max }, 'm')),
+  hotTemperatureC: v.optional(inRange('hot gas temperature', GAS_TEMPERATURE_RANGE_C, '°C')),
 });
 
 const MetaSchema = v.strictObject({

@@ -4,7 +4,8 @@
  * where the device can share files, else downloaded.
  */
 import { strToU8, zipSync, type Zippable } from 'fflate';
-import type { TrackFrame } from '../../dsp/types';
+import { finalStates } from '../../dsp/final-states';
+import type { Report, TrackFrame } from '../../dsp/types';
 import { encodeWav } from '../../dsp/io/wav-write';
 import { BUNDLE_FORMAT, BUNDLE_SCHEMA_VERSION, SESSION_FORMAT, SESSION_JSON_MAX_BYTES, encodeNumber } from './bundle-schema';
 import { DEFAULT_ZIP_LIMITS, formatBytes } from './zip-read';
@@ -59,16 +60,19 @@ function csvNumber(x: number): string {
 
 /**
  * The track as CSV (RFC 4180: comma separated, CRLF line ends, one header line). Empty field =
- * no value (no tone). With a calibration, an amplitude column in dB SPL is added.
+ * no value (no tone). With a calibration, an amplitude column in dB SPL is added. With the
+ * session's report, each frame's state is its final one (dsp/final-states.ts, as the command
+ * line's --csv), not the live state that lags it by 0.1–1 s.
  */
-export function trackCsv(track: readonly TrackFrame[], calibrationOffsetDb?: number): string {
+export function trackCsv(track: readonly TrackFrame[], calibrationOffsetDb?: number, report?: Report | null): string {
   const hasSpl = typeof calibrationOffsetDb === 'number' && Number.isFinite(calibrationOffsetDb);
   const header = ['time_s', 'frequency_hz', 'amplitude_dbfs', ...(hasSpl ? ['amplitude_db_spl'] : []), 'level_dbfs', 'state', 'is_clipped', 'is_after_gap'];
   const lines = [header.join(',')];
-  for (const f of track) {
+  const final = report ? finalStates(track.map((f) => f.timeS), report) : null;
+  for (const [i, f] of track.entries()) {
     const cells = [csvNumber(f.timeS), csvNumber(f.frequencyHz), csvNumber(f.amplitudeDbfs)];
     if (hasSpl) cells.push(csvNumber(f.amplitudeDbfs + (calibrationOffsetDb as number)));
-    cells.push(csvNumber(f.levelDbfs), f.state, f.isClipped ? '1' : '0', f.isAfterGap ? '1' : '0');
+    cells.push(csvNumber(f.levelDbfs), final ? final[i] : f.state, f.isClipped ? '1' : '0', f.isAfterGap ? '1' : '0');
     lines.push(cells.join(','));
   }
   return lines.join('\r\n') + '\r\n';
@@ -127,7 +131,7 @@ export function buildBundle(sessions: readonly FullSession[], exportedAtMs = Dat
     // What we export we import: never write what the import would refuse.
     if (json.length > SESSION_JSON_MAX_BYTES) throw new RangeError(`The session of ${formatBytes(json.length)} of JSON is longer than an import accepts (${formatBytes(SESSION_JSON_MAX_BYTES)}); export its track as CSV and its audio as WAV instead.`);
     files[`${folder}/session.json`] = json;
-    files[`${folder}/track.csv`] = strToU8(trackCsv(s.track, s.record.meta.calibrationOffsetDb));
+    files[`${folder}/track.csv`] = strToU8(trackCsv(s.track, s.record.meta.calibrationOffsetDb, s.record.report));
     files[`${folder}/report.html`] = strToU8(buildReportHtml(s.record, s.track, exportedAtMs));
     // Deflate gains little on microphone noise and is slow on hundreds of megabytes, so the audio
     // is stored uncompressed.

@@ -24,11 +24,10 @@ import {
 import { matchMeasuredFrequency, MEASURED_FREQUENCY_RANGE_HZ, type MeasuredMatch } from '../../dsp/duct-match';
 import type { DuctGeometry } from '../../dsp/types';
 import { formatFixed, formatHz, formatQuantity } from '../format';
+import { GEOMETRY_KEY } from '../run/geometry';
 import { getSessionDb, listSessions } from '../storage/sessions';
 import { el, loadJson, saveJson } from './dom';
 
-/** localStorage key of the geometry (read by the listen screen to attach it to sessions). */
-export const GEOMETRY_KEY = 'humgauge.ductGeometry';
 /** localStorage key of this screen's other choices (closed end, flow, uncertainties, measured tone). */
 const EXTRAS_KEY = 'humgauge.ductScreen';
 
@@ -188,7 +187,8 @@ export const mountDuctScreen: MountScreen = (root, app) => {
       ? within(GAS_TEMPERATURE_RANGE_C.min, GAS_TEMPERATURE_RANGE_C.max, '°C', 'a gas: air condenses below, flames do not reach above')(v)
       : 'Must be above absolute zero (−273.15 °C).';
 
-  function update(): void {
+  /** Recomputes the modes; `byUser` (an edit of the form) also keeps the geometry for the next sessions. */
+  function update(byUser = false): void {
     closedEnd.wrap.hidden = ends.select.value !== 'open-closed';
     heaterGroup.hidden = !heaterBox.checked;
     const lengthM = read(length, 'length', lengthRange);
@@ -232,8 +232,10 @@ export const mountDuctScreen: MountScreen = (root, app) => {
       showUnavailable(`The modes cannot be computed: ${err instanceof Error ? err.message : String(err)}.`);
       return;
     }
-    saveJson(GEOMETRY_KEY, g);
-    saveJson(EXTRAS_KEY, {
+    // Only what the user typed is kept: the form's starting values are a suggestion, and a geometry
+    // never set stays "not given" for the sessions (the listen screen offers only a stored one).
+    if (byUser) saveJson(GEOMETRY_KEY, g);
+    if (byUser) saveJson(EXTRAS_KEY, {
       closedEnd: closedEnd.select.value as Extras['closedEnd'],
       flow: flow.select.value as MeanFlow,
       hasHeater: heaterBox.checked,
@@ -377,9 +379,10 @@ export const mountDuctScreen: MountScreen = (root, app) => {
     }
   }
 
-  for (const input of [length.input, diameter.input, temp.input, heaterPos.input, hotTemp.input]) input.addEventListener('input', update);
-  for (const s of [ends.select, closedEnd.select, openEnd.select, flow.select]) s.addEventListener('change', update);
-  heaterBox.addEventListener('change', update);
+  const onEdit = (): void => update(true);
+  for (const input of [length.input, diameter.input, temp.input, heaterPos.input, hotTemp.input]) input.addEventListener('input', onEdit);
+  for (const s of [ends.select, closedEnd.select, openEnd.select, flow.select]) s.addEventListener('change', onEdit);
+  heaterBox.addEventListener('change', onEdit);
   for (const input of [measured.input, fStd.input, lStd.input]) {
     input.addEventListener('input', () => {
       saveJson(EXTRAS_KEY, { ...loadJson<Extras>(EXTRAS_KEY, DEFAULT_EXTRAS), measuredHz: measured.input.value, frequencyStdHz: fStd.input.value, lengthStdMm: lStd.input.value });

@@ -147,7 +147,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
     'div',
     { className: 'controls session-actions' },
     button('Export bundle (.zip)', 'export-bundle', () => deliver(buildBundle([current()], Date.now(), bundleOptions()), `${base}.zip`, 'application/zip')),
-    button('Track (.csv)', 'export-csv', () => deliver(new TextEncoder().encode(trackCsv(track, offset)), `${base}-track.csv`, 'text/csv')),
+    button('Track (.csv)', 'export-csv', () => deliver(new TextEncoder().encode(trackCsv(track, offset, current().record.report)), `${base}-track.csv`, 'text/csv')),
     button('Audio (.wav)', 'export-wav', () => deliver(sessionWav(full.audio as Float32Array, m.sampleRateHz), `${base}.wav`, 'audio/wav'), !full.audio),
     button('Printable report (.html)', 'export-html', () => deliver(new TextEncoder().encode(buildReportHtml(current().record, track, Date.now())), `${base}-report.html`, 'text/html')),
     button('Delete', 'delete-session', () => ctx.deleteWithUndo(id, sessionTitle(current().record.meta.site, current().record.meta.equipment, current().record.meta.fileName))),

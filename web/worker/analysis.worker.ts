@@ -6,7 +6,7 @@
  */
 import { createAnalysis } from '../../dsp/index';
 import { createLiveMargin, estimateLiveMargin, feedLiveMargin, isLiveMarginDue, LIVE_MARGIN_EVERY_S, restartLiveMargin, type LiveMarginState } from '../../dsp/live-margin';
-import { createWavDecoder } from '../../dsp/io/wav';
+import { createWavDecoder, wavSampleBits } from '../../dsp/io/wav';
 import { InputError } from '../../dsp/io/errors';
 import type { Analysis, AnalysisConfig, Marker, Onset, Segment, TrackFrame } from '../../dsp/types';
 import { emptyLiveSummary, updateLiveSummary, type LiveSummary } from './live-summary';
@@ -258,7 +258,7 @@ async function analyseWavStream(message: Extract<ToWorker, { type: 'analyse-wav'
       const samples = decoder.push(value);
       const format = decoder.format;
       if (!r && format) {
-        r = createRun(id, { sampleRateHz: format.sampleRateHz, bandLowHz: message.bandLowHz, bandHighHz: message.bandHighHz }, message.isKeepingAudio, null);
+        r = createRun(id, { sampleRateHz: format.sampleRateHz, bandLowHz: message.bandLowHz, bandHighHz: message.bandHighHz, sampleBits: wavSampleBits(format) }, message.isKeepingAudio, null);
         run = r;
         const frames = decoder.declaredFrames;
         post({
