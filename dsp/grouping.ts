@@ -7,8 +7,8 @@
 import { STATE_GROWTH, STATE_QUIET, STATE_STEADY, type RegimeSegment } from './regime';
 import { isLockedHarmonic } from './locking';
 import { segmentFrequency } from './segment-fit';
-import { peakPower, topPowerIn, type ToneRuntime } from './tone-store';
-import { harmonicToleranceHz, matchToleranceHz, MAX_HARMONIC, medianFrequencyHz } from './track';
+import { ENVELOPE_WIDE_BANDWIDTH_HZ, peakPower, topPowerIn, type ToneRuntime } from './tone-store';
+import { harmonicToleranceHz, isSameToneHz, matchToleranceHz, MAX_HARMONIC, medianFrequencyHz } from './track';
 
 /** A weaker line within this fraction of a tone's frequency and this many dB below it is its sidelobe or intermodulation product. */
 const NEAR_LINE_FRACTION = 0.35;
@@ -93,7 +93,7 @@ function dropOverlaps(fam: Family, dropped: Set<RegimeSegment>): void {
   const stores: [number, number][] = [];
   for (const tr of tracks) {
     for (const s of tr.regime.segments) {
-      if (s.endIdx <= s.startIdx) continue;
+      if (s.endIdx <= s.startIdx || dropped.has(s)) continue;
       const a = tr.timeS[s.startIdx];
       const b = tr.timeS[s.endIdx - 1];
       if (s.state !== STATE_QUIET) {
@@ -111,7 +111,9 @@ function dropOverlaps(fam: Family, dropped: Set<RegimeSegment>): void {
  * hum, level clearly lower). Where active segments of tracks of different families overlap in
  * time and lie within the match tolerance of each other, the line is told by the track that sees
  * it more than DUPLICATE_SKIRT_DB stronger over the overlap; between two that see it alike, by the
- * one started first. The other's segment is dropped.
+ * one started first. Segments further apart but within the wide envelope band's half-width
+ * (ENVELOPE_WIDE_BANDWIDTH_HZ, the band through whose skirt a track can read a neighbour) are
+ * a skirt read only when one is more than DUPLICATE_SKIRT_DB weaker. The other's segment is dropped.
  */
 function dropSkirtDuplicates(families: Family[], binHz: number, dropped: Set<RegimeSegment>): void {
   const skirt = 10 ** (DUPLICATE_SKIRT_DB / 10);
@@ -128,12 +130,16 @@ function dropSkirtDuplicates(families: Family[], binHz: number, dropped: Set<Reg
   for (const x of segs) {
     for (const y of segs) {
       if (x.fam === y.fam || dropped.has(x.s) || dropped.has(y.s) || !(x.a < y.b && x.b > y.a)) continue;
-      if (Math.abs(x.f - y.f) > matchToleranceHz(binHz, Math.max(x.f, y.f))) continue;
+      const df = Math.abs(x.f - y.f);
+      if (df > ENVELOPE_WIDE_BANDWIDTH_HZ) continue;
+      const isSameLine = df <= matchToleranceHz(binHz, Math.max(x.f, y.f));
       // Levels of both over the overlap (each track's envelope index from its own time axis).
       const t0 = Math.max(x.a, y.a);
       const t1 = Math.min(x.b, y.b);
       const px = topPowerIn(x.tr, x.s.startIdx + indexOffset(x.tr, x.s.startIdx, t0), x.s.startIdx + indexOffset(x.tr, x.s.startIdx, t1) + 1);
       const py = topPowerIn(y.tr, y.s.startIdx + indexOffset(y.tr, y.s.startIdx, t0), y.s.startIdx + indexOffset(y.tr, y.s.startIdx, t1) + 1);
+      // Beyond the match tolerance but inside the band, only a clearly weaker reading is a skirt read.
+      if (!isSameLine && px <= skirt * py && py <= skirt * px) continue;
       const isXWeaker = py > skirt * px || (px <= skirt * py && y.tr.tone.id < x.tr.tone.id);
       dropped.add(isXWeaker ? x.s : y.s);
     }
@@ -202,6 +208,45 @@ function assignParents(families: Family[], binHz: number, dropped: Set<RegimeSeg
   }
 }
 
+/** Active (non-quiet) segments of a family's tracks: span [start, end] (s) and frequency, Hz. */
+function activeSpans(fam: Family, dropped: Set<RegimeSegment>): [number, number, number][] {
+  return fam.tracks.flatMap((t) => t.regime.segments.filter((g) => g.state !== STATE_QUIET && g.endIdx > g.startIdx && !dropped.has(g)).map((g): [number, number, number] => [t.timeS[g.startIdx], t.timeS[g.endIdx - 1], segmentFrequency(t, g)]));
+}
+
+/**
+ * A tone is a frequency neighbourhood that persists across quiet gaps: a track started during a
+ * gap beside a tone's still-alive quiet track takes an identity of its own (identity passes only
+ * from retired tracks, track.ts). Two families whose frequencies lie within the identity
+ * neighbourhood (isSameToneHz) and whose active segments (those not told already by another
+ * track, dropSkirtDuplicates) never overlap in time are one tone.
+ */
+function mergeDisjointFamilies(families: Family[], binHz: number, dropped: Set<RegimeSegment>): Family[] {
+  const out: Family[] = [];
+  const spans = new Map<Family, [number, number, number][]>();
+  for (const fam of families) spans.set(fam, activeSpans(fam, dropped));
+  const clash = (x: [number, number, number][], y: [number, number, number][]): boolean =>
+    x.some(([a, b]) => y.some(([p0, p1]) => a < p1 && b > p0));
+  for (const fam of families) {
+    const own = spans.get(fam) as [number, number, number][];
+    const into = own.length === 0 ? undefined : out.find((o) => {
+      const other = spans.get(o) as [number, number, number][];
+      return other.length > 0 && isSameToneHz(binHz, o.freqHz, fam.freqHz) && !clash(own, other);
+    });
+    if (into === undefined) {
+      out.push(fam);
+      continue;
+    }
+    into.tracks.push(...fam.tracks);
+    into.strength = Math.max(into.strength, fam.strength);
+    into.peakPower = Math.max(into.peakPower, fam.peakPower);
+    into.isSteadyLine = into.isSteadyLine && fam.isSteadyLine;
+    into.activeFromS = Math.min(into.activeFromS, fam.activeFromS);
+    into.activeToS = Math.max(into.activeToS, fam.activeToS);
+    (spans.get(into) as [number, number, number][]).push(...own);
+  }
+  return out;
+}
+
 /**
  * Groups the record's tracks into tones (spectral bin width binHz): tracks sharing a tone
  * identity (track.ts toneId) form one family, whatever the quiet gaps between them.
@@ -209,7 +254,7 @@ function assignParents(families: Family[], binHz: number, dropped: Set<RegimeSeg
 export function groupTones(all: ToneRuntime[], binHz: number, floorPower = 0): Grouping {
   const dropped = new Set<RegimeSegment>();
   const byId = new Map<number, Family>();
-  const families: Family[] = [];
+  let families: Family[] = [];
   for (const tr of all) {
     if (tr.regime.segments.every((s) => s.state === STATE_QUIET) && !tr.isSteadyLine && tr.maxExcessDb < QUIET_LINE_MIN_DB) continue;
     const ti = trackInfo(tr);
@@ -231,13 +276,15 @@ export function groupTones(all: ToneRuntime[], binHz: number, floorPower = 0): G
       families.push(f);
     }
   }
+  for (const fam of families) dropOverlaps(fam, dropped);
+  dropSkirtDuplicates(families, binHz, dropped);
+  families = mergeDisjointFamilies(families, binHz, dropped);
   for (const fam of families) {
     dropOverlaps(fam, dropped);
     // A tone sounding through the whole record (never quiet, no onset) is a steady line too.
     const segs = fam.tracks.flatMap((t) => t.regime.segments).filter((s) => !dropped.has(s));
     if (segs.length > 0 && segs.every((s) => s.state === STATE_STEADY)) fam.isSteadyLine = true;
   }
-  dropSkirtDuplicates(families, binHz, dropped);
   assignParents(families, binHz, dropped);
   // A line whose harmonic segments went to a stronger tone is known by the segments it keeps.
   for (const fam of families) {
