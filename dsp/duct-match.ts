@@ -87,6 +87,9 @@ function planeWaveModeCount(model: DuctModel, lEff: number): number {
   return n;
 }
 
+/** Default standard uncertainties of a match: a tone read to about ±0.5 Hz, a length to ±5 mm (common practice for a tape and a phone spectrum). */
+export const DEFAULT_MATCH_UNCERTAINTY: MatchUncertainty = { frequencyStdHz: 0.5, lengthStdM: 0.005 };
+
 /**
  * Candidate modes for a measured tone. For mode n, c = f L_eff / κ_n and T solves γ(T) R T = c²
  * (REFERENCES.md §1, §2, §70). Uncertainty, first order on ln T (GUM JCGM 100:2008 §5.1 — from
@@ -107,7 +110,7 @@ function planeWaveModeCount(model: DuctModel, lEff: number): number {
 export function matchMeasuredFrequency(
   model: DuctModel,
   measuredHz: number,
-  uncertainty: MatchUncertainty = { frequencyStdHz: 0.5, lengthStdM: 0.005 },
+  uncertainty: MatchUncertainty = DEFAULT_MATCH_UNCERTAINTY,
   count = 12,
 ): MeasuredMatch {
   checkRange('measuredHz', measuredHz, MEASURED_FREQUENCY_RANGE_HZ, 'Hz');

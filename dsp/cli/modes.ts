@@ -20,7 +20,7 @@ import {
   type GasProperties,
   type MeanFlow,
 } from '../duct';
-import { matchMeasuredFrequency, type MeasuredMatch } from '../duct-match';
+import { DEFAULT_MATCH_UNCERTAINTY, matchMeasuredFrequency, type MeasuredMatch } from '../duct-match';
 import type { DuctGeometry } from '../types';
 import { num } from './format';
 import { readProfile } from './profile';
@@ -180,8 +180,11 @@ export async function runModes(args: string[], io: CliIo): Promise<number> {
         : matchMeasuredFrequency(
             model,
             measuredHz,
-            // The defaults (0.5 Hz, 5 mm) shrink for a tone or duct smaller than them: an uncertainty is at most the quantity.
-            { frequencyStdHz: numberOption(o, 'measured-std') ?? Math.min(0.5, measuredHz), lengthStdM: numberOption(o, 'length-std') ?? Math.min(0.005, lengthM) },
+            // The defaults shrink for a tone or duct smaller than them: an uncertainty is at most the quantity.
+            {
+              frequencyStdHz: numberOption(o, 'measured-std') ?? Math.min(DEFAULT_MATCH_UNCERTAINTY.frequencyStdHz, measuredHz),
+              lengthStdM: numberOption(o, 'length-std') ?? Math.min(DEFAULT_MATCH_UNCERTAINTY.lengthStdM, lengthM),
+            },
             Math.max(count, 12),
           );
     const cEnds = model.zones.map((z) => speedOfSoundMPerS(z.temperatureC, gas));
