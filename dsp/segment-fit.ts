@@ -21,6 +21,17 @@ export const BG_SKIP_S = 0.1;
 const GROWTH_PREROLL_S = 1.5;
 /** Tail of quiet after a decay included in its fit, s. */
 const DECAY_TAIL_S = 1.0;
+/**
+ * Times a segment's fit may read, s: its background, pre-roll or tail on either side, and after a
+ * growth into a steady level as much again as the growth lasted (fitGrowthSegment).
+ */
+export function fitReachS(tr: ToneRuntime, s: RegimeSegment): [number, number] {
+  const reach = Math.max(BG_WINDOW_S, GROWTH_PREROLL_S, DECAY_TAIL_S);
+  const t0 = tr.timeS[s.startIdx];
+  const t1 = tr.timeS[Math.max(s.startIdx, s.endIdx - 1)];
+  return [t0 - reach, t1 + Math.max(reach, t1 - t0)];
+}
+
 /** Envelope samples used for the phase slope stand this far over the band background (power ratio, 6 dB) and within this ratio of the segment's peak (20 dB). */
 const PHASE_MIN_OVER_BG = 4;
 const PHASE_MIN_OF_PEAK = 0.01;
