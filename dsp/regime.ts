@@ -51,6 +51,8 @@ const MIN_QUIET_S = 0.5;
 const START_DB = 10;
 const WARMUP_S = 2;
 const WARMUP_HEAD_S = 0.3;
+/** Fewest quiet samples before a rise within the warm-up's head that set the quiet level: the median of 8 independent exponential samples, over ln 2, is within a factor of two of their mean in 83 % of cases (by simulation). */
+const WARMUP_LEAD_MIN = 8;
 export const NOISE_TEST_LAG_S = 0.2;
 /** Stretch at the start over which a sounding tone must look deterministic, s. */
 const WARMUP_HEAD_D2_S = 1.0;
@@ -264,15 +266,21 @@ function endWarmup(st: RegimeState): void {
   } else {
     // Quiet: the baseline is the band's own level while quiet (median / ln 2 of the exponential
     // A²), from the whole warm-up when it is noise, from its head when a tone rises later in it.
-    // A head START_DB over the background that is no steady tone holds a hum rising in it (a
-    // track started on history just as a hum began): the level before the rise, a low quantile
-    // of the head (noiseMeanOfSamples), so that the hum does not set the quiet level.
+    // A head START_DB over the background that is no steady tone, whose first samples are quiet,
+    // holds a hum rising in it (a track started on history just as a hum began): the baseline is
+    // then the level of those first samples, before the samples that stand ON_DB over the
+    // background, so that the hum does not set the quiet level.
+    const ratioAt = (i: number): number => (st.warmBg[i] > 0 ? st.warmP[i] / st.warmBg[i] : 1);
+    let m = isNoiseLike ? n : head;
+    if (headExcessDb >= START_DB) {
+      let lead = 0;
+      while (lead < head && ratioAt(lead) < 10 ** (ON_DB / 10)) lead++;
+      if (lead >= WARMUP_LEAD_MIN) m = lead;
+    }
     const ratios: number[] = [];
-    const isRisingHead = headExcessDb >= START_DB;
-    const m = isRisingHead || !isNoiseLike ? head : n;
-    for (let i = 0; i < m; i++) ratios.push(st.warmBg[i] > 0 ? st.warmP[i] / st.warmBg[i] : 1);
+    for (let i = 0; i < m; i++) ratios.push(ratioAt(i));
     ratios.sort((a, b) => a - b);
-    st.baseline = Math.max(0.25, isRisingHead ? noiseMeanOfSamples(ratios) : ratios[Math.floor(m / 2)] / Math.LN2);
+    st.baseline = Math.max(0.25, ratios[Math.floor(m / 2)] / Math.LN2);
     enterQuiet(st, first);
   }
   st.warmCount = 0;
