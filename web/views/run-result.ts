@@ -5,8 +5,8 @@
  */
 import type { Report, RegimeKind } from '../../dsp/types';
 import type { RunResult } from '../run/run-controller';
-import { cyclesOf } from '../run/cycles';
-import { formatClock, formatDb, formatHz, formatRate, formatSeconds } from '../format';
+import { cycleCells, cycleMedianLine, cyclesOf, CYCLE_COLUMNS, toneHeading } from '../run/cycles';
+import { formatClock, formatHz, formatRate, formatSeconds } from '../format';
 import { el } from './dom';
 
 export const REGIME_WORDS: Record<RegimeKind, string> = {
@@ -53,24 +53,42 @@ export function segmentsTable(report: Report): HTMLElement {
   );
 }
 
-/** One row per firing cycle, when the record holds more than one (null otherwise). */
+/**
+ * The cycles of each tone (harmonics listed under their tone), with the tone's median rates
+ * across its cycles and their spread; null when no tone has a cycle to show (a version-1 report
+ * shows its rebuilt cycles only when there are several: one is the summary already).
+ */
 export function cyclesTable(report: Report): HTMLElement | null {
-  const cycles = cyclesOf(report);
-  if (cycles.length < 2) return null;
-  return scrollTable(
-    'cycles-table',
-    `Firing cycles (${cycles.length})`,
-    ['#', 'From', 'To', 'Frequency', 'Growth rate', 'Decay rate', 'Limit amplitude'],
-    cycles.map((c, k) => [
-      String(k + 1),
-      formatClock(c.startS),
-      formatClock(c.endS),
-      formatHz(c.frequencyHz),
-      formatRate(c.growthRatePerS, c.growthRateCi95PerS, 'not fitted'),
-      formatRate(c.decayRatePerS, c.decayRateCi95PerS, 'not seen'),
-      formatDb(c.limitAmplitudeDbfs, 'dBFS', null, 'no limit cycle'),
-    ]),
-  );
+  const rc = cyclesOf(report);
+  const minCycles = rc.missing.length ? 2 : 1;
+  const tones = rc.tones.filter((t) => t.cycles.length > 0 || t.harmonics.length > 0);
+  if (tones.reduce((n, t) => n + t.cycles.length, 0) < minCycles) return null;
+  const box = el('div', { className: 'cycles', id: 'cycles' }, el('h3', { className: 'section-title', text: 'Firing cycles per tone' }));
+  box.dataset.reportVersion = String(rc.reportVersion);
+  if (rc.missing.length) {
+    box.append(el('p', { className: 'hint', id: 'cycles-old-report', text: `This report is of version ${rc.reportVersion} (an earlier version of the app): ${rc.missing.join('; ')}. Re-analysing the stored audio gives them.` }));
+  }
+  tones.forEach((t, i) => {
+    const section = el('section', { className: 'tone-cycles' }, el('h4', { text: toneHeading(t) }));
+    section.dataset.frequencyHz = String(t.frequencyHz);
+    if (t.harmonics.length) {
+      section.append(el('p', { className: 'harmonics', text: `Harmonics (locked to this tone, not tones of their own): ${t.harmonics.map((h) => `${h.k} × = ${formatHz(h.frequencyHz)}`).join(', ')}` }));
+    }
+    if (t.cycles.length) {
+      section.append(el('p', { className: 'cycle-medians', text: cycleMedianLine(t) }));
+      section.append(
+        scrollTable(
+          i === 0 ? 'cycles-table' : `cycles-table-${i + 1}`,
+          `Cycles of ${formatHz(t.frequencyHz)} (95 % intervals)`,
+          CYCLE_COLUMNS,
+          t.cycles.map(cycleCells),
+          t.cycles.map((c) => ({ kind: c.isImpulseResponse ? 'ring-down' : 'cycle' })),
+        ),
+      );
+    }
+    box.append(section);
+  });
+  return box;
 }
 
 /** The parts of a report's panel that do not depend on how it was run. */

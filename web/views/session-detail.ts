@@ -4,7 +4,7 @@
  * export (bundle, CSV, WAV, printable report) and delete with undo.
  */
 import type { Report } from '../../dsp/types';
-import { formatClock, formatDb, formatHz, formatQ, formatRate, formatRatio, formatSeconds } from '../format';
+import { formatClock, formatDb, formatHz, formatMissing, formatQ, formatRate, formatRatio, formatSeconds, isShowable } from '../format';
 import { TEXT_LIMITS } from '../storage/bundle-schema';
 import { bundleOptions } from '../settings';
 import { buildBundle, sessionBaseName, sessionWav, shareOrDownload, trackCsv } from '../storage/export';
@@ -33,6 +33,13 @@ export function summaryRows(report: Report | null, calibrationOffsetDb?: number)
     ['Limit-cycle amplitude', formatDb(s.limitAmplitudeDbfs, 'dBFS', null, 'no limit cycle')],
   ];
   if (typeof calibrationOffsetDb === 'number' && typeof s.limitAmplitudeDbfs === 'number') rows.push(['Limit-cycle level', formatDb(s.limitAmplitudeDbfs + calibrationOffsetDb, 'dB SPL')]);
+  // Report version 2: the main tone's rates across its cycles (the pooled rates above weigh each fit by its interval).
+  if (typeof s.cycleCount === 'number' && s.cycleCount >= 2) {
+    const median = (m: number | null | undefined, spread: number | null | undefined, what: string): string =>
+      isShowable(m) ? `median ${formatRate(m)}, spread ${formatRate(spread, null, 'not known')} over ${s.cycleCount} cycles` : formatMissing(`fewer than two cycles with a ${what}`);
+    rows.push(['Growth rate across cycles', median(s.growthRateCycleMedianPerS, s.growthRateCycleSpreadPerS, 'growth')]);
+    rows.push(['Decay rate across cycles', median(s.decayRateCycleMedianPerS, s.decayRateCycleSpreadPerS, 'decay')]);
+  }
   return rows;
 }
 
