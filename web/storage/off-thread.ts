@@ -7,6 +7,8 @@
 import { getSessionDb, recoverInterruptedSessions } from './sessions';
 import { ImportError, importBundle, type ImportResult } from './import';
 import { analyseStoredAudio } from './reanalyse';
+import { createAudioWriter, type AudioWriter } from './audio-writer';
+import type { SessionDb } from './db';
 
 export type StoreRequest = { id: number; type: 'import'; file: Blob } | { id: number; type: 'recover' };
 export type StoreReply =
@@ -54,4 +56,62 @@ export async function recoverInterruptedOffThread(): Promise<string[]> {
   const reply = await runInWorker({ id: nextId++, type: 'recover' });
   if (reply.type !== 'recover') throw new Error('The storage worker answered another job.');
   return reply.ids;
+}
+
+/** Messages of the audio worker (audio.worker.ts). */
+export type AudioRequest =
+  | { type: 'open'; sessionId: string; sampleRateHz: number }
+  | { type: 'append'; samples: Float32Array }
+  | { type: 'flush' | 'drop'; id: number };
+export type AudioReply = { id: number; ok: true } | { id: number; ok: false; name: string; message: string };
+
+/** An AudioWriter whose work runs in a worker, and which ends the worker once closed. */
+export interface AudioSink extends AudioWriter {
+  /** Ends the worker (after the last flush or drop). */
+  close(): void;
+}
+
+/**
+ * The raw-audio writer of a recording: in a worker of its own where workers exist (the page only
+ * hands the blocks over, transferred: no copy, no IndexedDB work on its thread), else on this
+ * thread with `connect` (unit tests in Node).
+ */
+export function createAudioSink(sessionId: string, sampleRateHz: number, connect: () => Promise<SessionDb>): AudioSink {
+  if (!hasWorkers()) return { ...createAudioWriter(sessionId, sampleRateHz, connect), close: () => undefined };
+  const worker = new Worker(new URL('./audio.worker.ts', import.meta.url), { type: 'module', name: 'audio' });
+  const waiting = new Map<number, { resolve: () => void; reject: (e: Error) => void }>();
+  let ids = 1;
+  let failure: Error | null = null;
+  worker.onmessage = (event: MessageEvent<AudioReply>) => {
+    const r = event.data;
+    const w = waiting.get(r.id);
+    waiting.delete(r.id);
+    if (!w) return;
+    if (r.ok) w.resolve();
+    else w.reject(Object.assign(new Error(r.message), { name: r.name }));
+  };
+  worker.onerror = (event) => {
+    failure = new Error(`The audio worker failed: ${event.message || 'it could not start'}`);
+    for (const w of waiting.values()) w.reject(failure);
+    waiting.clear();
+  };
+  const ask = (type: 'flush' | 'drop'): Promise<void> =>
+    failure
+      ? Promise.reject(failure)
+      : new Promise((resolve, reject) => {
+          const id = ids++;
+          waiting.set(id, { resolve, reject });
+          worker.postMessage({ type, id } satisfies AudioRequest);
+        });
+  worker.postMessage({ type: 'open', sessionId, sampleRateHz } satisfies AudioRequest);
+  return {
+    append(block) {
+      // The whole buffer is handed over when the block is all of it; a view is copied (a transfer would take the rest too).
+      const own = block.byteOffset === 0 && block.byteLength === block.buffer.byteLength && block.buffer instanceof ArrayBuffer ? block : block.slice();
+      worker.postMessage({ type: 'append', samples: own } satisfies AudioRequest, [own.buffer as ArrayBuffer]);
+    },
+    flush: () => ask('flush'),
+    drop: () => ask('drop').catch(() => undefined),
+    close: () => worker.terminate(),
+  };
 }
