@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { createTimeWeightedLevel, stepTimeWeightedLevel, TIME_CONSTANT_S, weightedLevelDb } from '../../web/run/time-weighting';
-import { classifyMargin, dampingRatioOf, formatQuietMargin, NEAR_THRESHOLD_DAMPING_RATIO, quietMargin, verdictOf } from '../../web/run/verdict';
+import { classifyMargin, dampingRatioOf, formatQuietMargin, NEAR_THRESHOLD_DAMPING_RATIO, quietMargin, STABILITY_WORDS, stabilityOf, verdictOf } from '../../web/run/verdict';
+import { regimeFromInterval } from '../../dsp/mode-statistics';
 import { paFromSplDb, sensorOffsetDb } from '../../web/run/sensor';
 import { cyclesOf, MAD_TO_SD, medianAndSpread, VERSION_1_MISSING } from '../../web/run/cycles';
 import { cycleCells } from '../../web/run/cycles';
@@ -92,6 +93,18 @@ describe('verdict at a glance (REFERENCES.md §5, §6, §92)', () => {
     expect(classifyMargin({ growthRatePerS: -2, ci95PerS: [-2.5, -1.5], frequencyHz: 174.4, basis: '' })).toBe('near-threshold');
     expect(classifyMargin({ growthRatePerS: -20, ci95PerS: [-40, 0.5], frequencyHz: 174.4, basis: '' })).toBe('near-threshold');
     expect(classifyMargin({ growthRatePerS: 1, ci95PerS: [0.5, 1.5], frequencyHz: 174.4, basis: '' })).toBe('humming');
+  });
+
+  it('makes one call for the live verdict, the live margin and the report: the sign the interval allows (§42), then ζ (§92)', () => {
+    // Where ζ is large the app's call is the noise statistics' regime of REFERENCES.md §42 exactly.
+    for (const ci of [[-9, -3], [-9, 2], [1, 4], [-4, 0]] as [number, number][]) {
+      const nu = (ci[0] + ci[1]) / 2;
+      expect(stabilityOf(nu, ci, 50)).toBe(regimeFromInterval(ci));
+    }
+    // A stretch the §42 rule calls stable is near threshold under ζ = 0.005: 3 1/s at 174.4 Hz is ζ = 0.0027.
+    expect(regimeFromInterval([-3.5, -2.5])).toBe('stable');
+    expect(stabilityOf(-3, [-3.5, -2.5], 174.4)).toBe('near-threshold');
+    expect(STABILITY_WORDS[stabilityOf(-3, [-3.5, -2.5], 174.4)]).toBe('near threshold');
   });
 
   it('takes the least-damped noise-excited resonance as the margin, not the loudest or the first', () => {

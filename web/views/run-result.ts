@@ -6,7 +6,8 @@
 import type { Report, RegimeKind } from '../../dsp/types';
 import type { RunResult } from '../run/run-controller';
 import { cycleCells, cycleMedianLine, cyclesOf, CYCLE_COLUMNS, toneHeading } from '../run/cycles';
-import { formatClock, formatHz, formatRate, formatSeconds } from '../format';
+import { formatClock, formatHz, formatMissing, formatRate, formatRatio, formatSeconds, isShowable, isShowableInterval } from '../format';
+import { dampingRatioOf, STABILITY_WORDS, stabilityOf } from '../run/verdict';
 import { el } from './dom';
 
 export const REGIME_WORDS: Record<RegimeKind, string> = {
@@ -91,6 +92,35 @@ export function cyclesTable(report: Report): HTMLElement | null {
   return box;
 }
 
+/**
+ * The margin to humming from the noise (report.modeStatistics): each tone's linear growth rate ν
+ * over each stretch of steady operation, its damping ratio when it decays, and the call of the
+ * app's one rule (run/verdict.ts stabilityOf); a stretch the analysis could not call says why.
+ */
+export function modeStatisticsTable(report: Report): HTMLElement | null {
+  const rows = report.modeStatistics ?? [];
+  if (!rows.length) return null;
+  return scrollTable(
+    'mode-statistics-table',
+    'Margin to humming from the noise (95 % intervals)',
+    ['Frequency', 'Time (m:s)', 'Linear growth rate ν', 'Damping ratio', 'Call'],
+    rows.map((m) => {
+      const nu = m.linearGrowthRatePerS;
+      const ci = m.linearGrowthRateCi95PerS;
+      const isCalled = m.regime !== 'undetermined' && isShowable(nu);
+      const zeta = isShowable(nu) && nu < 0 ? formatRatio(dampingRatioOf(-nu, m.frequencyHz), isShowableInterval(ci) ? [dampingRatioOf(-ci[1], m.frequencyHz), dampingRatioOf(-ci[0], m.frequencyHz)] : null) : formatMissing('not decaying');
+      return [
+        formatHz(m.frequencyHz),
+        `${formatClock(m.startS)}–${formatClock(m.endS)}`,
+        formatRate(nu, ci, 'not estimated'),
+        zeta,
+        isCalled ? STABILITY_WORDS[stabilityOf(nu, ci, m.frequencyHz)] : `not called${m.reason ? ` (${m.reason})` : ''}`,
+      ];
+    }),
+    rows.map((m) => ({ call: m.regime !== 'undetermined' && isShowable(m.linearGrowthRatePerS) ? stabilityOf(m.linearGrowthRatePerS, m.linearGrowthRateCi95PerS, m.frequencyHz) : 'undetermined' })),
+  );
+}
+
 /** The parts of a report's panel that do not depend on how it was run. */
 export function renderReportParts(report: Report, title: string): HTMLElement[] {
   const out: HTMLElement[] = [
@@ -101,6 +131,8 @@ export function renderReportParts(report: Report, title: string): HTMLElement[] 
   ];
   const cycles = cyclesTable(report);
   if (cycles) out.push(cycles);
+  const margins = modeStatisticsTable(report);
+  if (margins) out.push(margins);
   out.push(segmentsTable(report));
   if (report.clipped?.length) {
     const spans = report.clipped.slice(0, 5).map((c) => `${formatClock(c.startS)}–${formatClock(c.endS)}`).join(', ');

@@ -15,7 +15,7 @@ import { formatLocalStamp, sessionTitle, type SessionsContext, type SessionView 
 import { cssVar, formatBytes, h, table } from './session-dom';
 import { conditionsEditor, markerEditor } from './session-edit';
 import { reanalysisPanel } from './session-reanalyse';
-import { cyclesTable } from './run-result';
+import { cyclesTable, modeStatisticsTable } from './run-result';
 
 /** Rows of the result table: label and formatted value (with unit and interval). */
 export function summaryRows(report: Report | null, calibrationOffsetDb?: number): [string, string][] {
@@ -122,6 +122,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
     ? table('segments', 'Segments', ['kind', 'time (m:s)', 'frequency', 'rate (95 % CI)', 'model'], r.segments.map((g) => [g.kind, `${formatClock(g.startS)}–${formatClock(g.endS)}`, formatHz(g.frequencyHz), g.ratePerS === null ? '—' : formatRate(g.ratePerS, g.rateCi95PerS), g.model ?? '']))
     : null;
   const cycles = r ? cyclesTable(r) : null;
+  const margins = r ? modeStatisticsTable(r) : null;
   const noise = r?.noiseDriven.length
     ? table('segments', 'Damping of the quiet system (noise-driven)', ['time (m:s)', 'frequency', 'decay rate (95 % CI)'], r.noiseDriven.map((n) => [`${formatClock(n.startS)}–${formatClock(n.endS)}`, formatHz(n.frequencyHz), formatRate(n.decayRatePerS, n.decayRateCi95PerS)]))
     : null;
@@ -173,6 +174,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
       : null,
     plots,
     cycles,
+    margins,
     segs,
     noise,
     markers,
