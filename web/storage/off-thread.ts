@@ -6,26 +6,36 @@
  */
 import { getSessionDb, recoverInterruptedSessions } from './sessions';
 import { ImportError, importBundle, type ImportResult } from './import';
-import { analyseStoredAudio } from './reanalyse';
+import { analyseStoredAudio, reanalyseInThread, type StoredAnalysisOptions } from './reanalyse';
+import type { Report } from '../../dsp/types';
 import { createAudioWriter, type AudioWriter } from './audio-writer';
 import type { SessionDb } from './db';
 
-export type StoreRequest = { id: number; type: 'import'; file: Blob } | { id: number; type: 'recover' };
+export type StoreRequest =
+  | { id: number; type: 'import'; file: Blob }
+  | { id: number; type: 'recover' }
+  | { id: number; type: 'reanalyse'; sessionId: string; options: StoredAnalysisOptions };
 export type StoreReply =
   | { id: number; ok: true; type: 'import'; result: ImportResult }
   | { id: number; ok: true; type: 'recover'; ids: string[] }
+  | { id: number; ok: true; type: 'reanalyse'; report: Report }
+  | { id: number; ok: true; type: 'progress'; fraction: number }
   | { id: number; ok: false; message: string; isImportError: boolean };
 
 let nextId = 1;
 
-/** Runs one job in a fresh storage worker; rejects with ImportError for a refused bundle. */
-function runInWorker(request: StoreRequest): Promise<StoreReply & { ok: true }> {
+/** Runs one job in a fresh storage worker; rejects with ImportError for a refused bundle. Progress replies go to `onProgress`. */
+function runInWorker(request: StoreRequest, onProgress?: (fraction: number) => void): Promise<StoreReply & { ok: true }> {
   return new Promise((resolve, reject) => {
     const worker = new Worker(new URL('./store.worker.ts', import.meta.url), { type: 'module', name: 'storage' });
     const done = (): void => worker.terminate();
     worker.onmessage = (event: MessageEvent<StoreReply>) => {
-      done();
       const reply = event.data;
+      if (reply.ok && reply.type === 'progress') {
+        onProgress?.(reply.fraction);
+        return;
+      }
+      done();
       if (reply.ok) resolve(reply);
       else reject(reply.isImportError ? new ImportError(reply.message) : new Error(reply.message));
     };
@@ -56,6 +66,19 @@ export async function recoverInterruptedOffThread(): Promise<string[]> {
   const reply = await runInWorker({ id: nextId++, type: 'recover' });
   if (reply.type !== 'recover') throw new Error('The storage worker answered another job.');
   return reply.ids;
+}
+
+/**
+ * Runs the analysis again over a stored session's audio (reanalyse.ts, the routine recovery uses
+ * too) in the storage worker, which reads the audio itself: the page neither holds nor copies it.
+ * Rejects with a message for the user when the session has no audio kept or the rate is not one
+ * the analysis takes.
+ */
+export async function reanalyseStoredSession(sessionId: string, options: StoredAnalysisOptions, onProgress: (fraction: number) => void): Promise<Report> {
+  if (!hasWorkers()) return reanalyseInThread(await getSessionDb(), sessionId, options, onProgress);
+  const reply = await runInWorker({ id: nextId++, type: 'reanalyse', sessionId, options }, onProgress);
+  if (reply.type !== 'reanalyse') throw new Error('The storage worker answered another job.');
+  return reply.report;
 }
 
 /** Messages of the audio worker (audio.worker.ts). */
