@@ -7,9 +7,8 @@
  */
 import type { Marker, Report } from '../../dsp/types';
 import { checkBand } from '../settings';
-import { getSessionDb, replaceSessionReport } from '../storage/sessions';
 import { formatClock, formatHz } from '../format';
-import { reanalyseStoredSession } from '../storage/off-thread';
+import { callStore, reanalyseStoredSession } from '../storage/off-thread';
 
 export interface ReanalysisOptions {
   bandLowHz: number;
@@ -51,7 +50,6 @@ export async function reanalyseSession(sessionId: string, o: ReanalysisOptions, 
 
 /** Keeps a re-analysis as the session's report, with its markers, and notes how it was made. */
 export async function keepReanalysis(sessionId: string, report: Report, o: ReanalysisOptions): Promise<void> {
-  const db = await getSessionDb();
   const note = `Re-analysed on ${new Date().toISOString()} with the band ${formatHz(o.bandLowHz)}–${formatHz(o.bandHighHz)} and ${o.markers.length} marker${o.markers.length === 1 ? '' : 's'}${o.markers.length ? ` (${o.markers.map((m) => `${m.label} at ${formatClock(m.timeS)}`).join(', ')})` : ''}.`;
-  await replaceSessionReport(db, sessionId, report, [...o.markers].sort((a, b) => a.timeS - b.timeS), note);
+  await callStore('replaceReport', sessionId, report, [...o.markers].sort((a, b) => a.timeS - b.timeS), note);
 }

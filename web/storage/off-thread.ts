@@ -5,6 +5,7 @@
  * (unit tests in Node) the same code runs on this thread.
  */
 import { getSessionDb, recoverInterruptedSessions } from './sessions';
+import { STORE_METHODS, type Result, type StoreMethod, type Tail } from './store-methods';
 import { ImportError, importBundle, type ImportResult } from './import';
 import { analyseStoredAudio, reanalyseInThread, type StoredAnalysisOptions } from './reanalyse';
 import type { Report } from '../../dsp/types';
@@ -14,12 +15,14 @@ import type { SessionDb } from './db';
 export type StoreRequest =
   | { id: number; type: 'import'; file: Blob }
   | { id: number; type: 'recover' }
-  | { id: number; type: 'reanalyse'; sessionId: string; options: StoredAnalysisOptions };
+  | { id: number; type: 'reanalyse'; sessionId: string; options: StoredAnalysisOptions }
+  | { id: number; type: 'call'; method: StoreMethod; args: unknown[] };
 export type StoreReply =
   | { id: number; ok: true; type: 'import'; result: ImportResult }
   | { id: number; ok: true; type: 'recover'; ids: string[] }
   | { id: number; ok: true; type: 'reanalyse'; report: Report }
   | { id: number; ok: true; type: 'progress'; fraction: number }
+  | { id: number; ok: true; type: 'call'; value: unknown }
   | { id: number; ok: false; message: string; isImportError: boolean };
 
 let nextId = 1;
@@ -79,6 +82,56 @@ export async function reanalyseStoredSession(sessionId: string, options: StoredA
   const reply = await runInWorker({ id: nextId++, type: 'reanalyse', sessionId, options }, onProgress);
   if (reply.type !== 'reanalyse') throw new Error('The storage worker answered another job.');
   return reply.report;
+}
+
+/** The long-lived worker that answers store calls (started on first use, ended when idle). */
+let callWorker: Worker | null = null;
+let idleTimer: ReturnType<typeof setTimeout> | null = null;
+const pendingCalls = new Map<number, { resolve: (v: unknown) => void; reject: (e: Error) => void }>();
+/** A call worker idle this long ends (its memory is given back), ms. */
+const CALL_WORKER_IDLE_MS = 30_000;
+
+function callWorkerNow(): Worker {
+  if (idleTimer !== null) clearTimeout(idleTimer);
+  idleTimer = null;
+  if (callWorker) return callWorker;
+  const w = new Worker(new URL('./store.worker.ts', import.meta.url), { type: 'module', name: 'sessions' });
+  w.onmessage = (event: MessageEvent<StoreReply>) => {
+    const r = event.data;
+    const p = pendingCalls.get(r.id);
+    if (!p) return;
+    pendingCalls.delete(r.id);
+    if (r.ok && r.type === 'call') p.resolve(r.value);
+    else if (!r.ok) p.reject(new Error(r.message));
+    if (pendingCalls.size === 0) {
+      idleTimer = setTimeout(() => {
+        if (pendingCalls.size === 0 && callWorker === w) {
+          w.terminate();
+          callWorker = null;
+        }
+      }, CALL_WORKER_IDLE_MS);
+    }
+  };
+  w.onerror = (event) => {
+    const err = new Error(`The storage worker failed: ${event.message || 'it could not start'}`);
+    for (const p of pendingCalls.values()) p.reject(err);
+    pendingCalls.clear();
+    w.terminate();
+    if (callWorker === w) callWorker = null;
+  };
+  callWorker = w;
+  return w;
+}
+
+/** Runs a sessions.ts function on the stored sessions, in the storage worker where workers exist. */
+export async function callStore<M extends StoreMethod>(method: M, ...args: Tail<(typeof STORE_METHODS)[M]>): Promise<Result<(typeof STORE_METHODS)[M]>> {
+  type R = Result<(typeof STORE_METHODS)[M]>;
+  if (!hasWorkers()) return (STORE_METHODS[method] as (db: SessionDb, ...a: unknown[]) => Promise<R>)(await getSessionDb(), ...args);
+  const id = nextId++;
+  return new Promise<R>((resolve, reject) => {
+    pendingCalls.set(id, { resolve: resolve as (v: unknown) => void, reject });
+    callWorkerNow().postMessage({ id, type: 'call', method, args } satisfies StoreRequest);
+  });
 }
 
 /** Messages of the audio worker (audio.worker.ts). */

@@ -9,7 +9,8 @@ import { TEXT_LIMITS } from '../storage/bundle-schema';
 import { bundleOptions } from '../settings';
 import { buildBundle, sessionBaseName, sessionWav, shareOrDownload, trackCsv } from '../storage/export';
 import { buildReportHtml } from '../storage/report-html';
-import { loadFullSession, updateSessionMeta, type FullSession } from '../storage/sessions';
+import type { FullSession } from '../storage/sessions';
+import { callStore } from '../storage/off-thread';
 import { SERIES_COLORS, timeChart } from './session-charts';
 import { formatLocalStamp, sessionTitle, type SessionsContext, type SessionView } from './session-context';
 import { cssVar, formatBytes, h, table } from './session-dom';
@@ -44,8 +45,7 @@ export function summaryRows(report: Report | null, calibrationOffsetDb?: number)
 }
 
 export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: string): Promise<SessionView> {
-  const db = await ctx.db();
-  const full = await loadFullSession(db, id);
+  const full = await callStore('load', id);
   if (!full) {
     host.replaceChildren(h('p', { className: 'alert', text: 'This session is not stored on this device (deleted, or the link is from another device).' }), h('a', { className: 'big-link', text: 'All sessions', attrs: { href: '#sessions' } }));
     return { destroy: () => undefined };
@@ -79,7 +79,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   form.addEventListener('submit', async (e) => {
     e.preventDefault();
     try {
-      const next = await updateSessionMeta(db, id, { site: site.value.trim(), equipment: equipment.value.trim(), notes: notes.value });
+      const next = await callStore('updateMeta', id, { site: site.value.trim(), equipment: equipment.value.trim(), notes: notes.value });
       full.record = next;
       title.textContent = sessionTitle(next.meta.site, next.meta.equipment, next.meta.fileName);
       formMsg.className = 'hint';
@@ -126,10 +126,10 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   const noise = r?.noiseDriven.length
     ? table('segments', 'Damping of the quiet system (noise-driven)', ['time (m:s)', 'frequency', 'decay rate (95 % CI)'], r.noiseDriven.map((n) => [`${formatClock(n.startS)}–${formatClock(n.endS)}`, formatHz(n.frequencyHz), formatRate(n.decayRatePerS, n.decayRateCi95PerS)]))
     : null;
-  const markers = markerEditor(db, id, record.markers, (next) => {
+  const markers = markerEditor(id, record.markers, (next) => {
     full.record = { ...full.record, markers: next };
   });
-  const conditions = conditionsEditor(db, id, m.geometry, offset, (next) => {
+  const conditions = conditionsEditor(id, m.geometry, offset, (next) => {
     full.record = next;
   });
   const notesList = [...(r?.warnings ?? []), ...record.history];
