@@ -114,6 +114,13 @@ describe('the field app', () => {
     // After the hum the frequency stays beside its rates.
     expect(firstNumber(await page.locator('#readout-frequency .tile-value').textContent())).toBeGreaterThan(170);
     await screenshot(page, 'verdict-humming');
+    // Its cycle (report version 2): onset, growth and decay rates with their intervals, under its tone.
+    const cycles = page.locator('#run-result #cycles');
+    expect(await cycles.getAttribute('data-report-version')).toBe('2');
+    const cells = await cycles.locator('#cycles-table tbody tr').first().locator('td').allTextContents();
+    expect(cells[2]).toMatch(/^[\d.]+ s \(95 % CI [\d.]+–[\d.]+\)$/);
+    expect(cells[3]).toMatch(/^[\d.]+ 1\/s \(95 % CI [\d.]+–[\d.]+\)$/);
+    expect(cells[5]).toMatch(/^[\d.]+ 1\/s \(95 % CI [\d.]+–[\d.]+\)$/);
   });
 
   it('re-analyses a stored session with a moved "driving off" marker', async () => {
@@ -194,5 +201,25 @@ describe('the field app', () => {
     await page.setInputFiles('#file-input', join(FIXTURE_DIR, 'sensor-2khz.csv'));
     await expect.poll(async () => (await page.locator('#csv-rate-error').textContent()) ?? '').toMatch(/“Sample rate of a one-column CSV” must be a number of Hz from 500 to 192000/);
     await page.fill('#csv-rate', '');
+  });
+
+  it('on a 390 px phone the margin to humming takes a row of its own, and the sensor-CSV options read as options', async () => {
+    const { page } = b;
+    await page.setViewportSize({ width: 390, height: 844 });
+    try {
+      await openFile(page, stable.wav);
+      const margin = page.locator('#readouts .live-margin');
+      await expect.poll(() => margin.isVisible(), { timeout: 15_000 }).toBe(true);
+      const [box, grid, q] = await Promise.all([margin.boundingBox(), page.locator('#readouts').boundingBox(), page.locator('#readout-q').boundingBox()]);
+      // Not squeezed into the column beside the Q tile: as wide as the grid, below the Q tile.
+      expect(box?.width ?? 0).toBeGreaterThan(0.95 * (grid?.width ?? 1));
+      expect(box?.y ?? 0).toBeGreaterThanOrEqual((q?.y ?? 0) + (q?.height ?? 0));
+      // After a WAV the sensor-CSV choice is an option for the next file, not a heading over this result.
+      expect(await page.locator('#csv-options summary').textContent()).toBe('Opening a one-column sensor CSV? Its sample rate and unit');
+      await screenshot(page, 'phone-verdict-stable');
+      expect(await page.evaluate(() => document.documentElement.scrollWidth)).toBeLessThanOrEqual(390);
+    } finally {
+      await page.setViewportSize({ width: 412, height: 915 });
+    }
   });
 });

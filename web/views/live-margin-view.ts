@@ -54,7 +54,9 @@ export function createLiveMarginView(host: HTMLElement): LiveMarginView {
     const pad = 0.05 * (hi - lo || 1);
     const x = (v: number): number => 8 + ((v - lo + pad) / (hi - lo + 2 * pad)) * (WIDTH - 16);
     chart.append(svg('line', { x1: x(0), x2: x(0), y1: 0, y2: HEIGHT - 12, stroke: 'currentColor', 'stroke-dasharray': '3 3' }));
-    chart.append(svg('text', { x: x(0) + 3, y: HEIGHT - 2, 'font-size': 10, fill: 'currentColor' }, 'ν = 0 (threshold)'));
+    // The label sits on the side of the zero line with room for it, so it never runs past the strip.
+    const isLabelLeft = x(0) > WIDTH / 2;
+    chart.append(svg('text', { x: isLabelLeft ? x(0) - 3 : x(0) + 3, y: HEIGHT - 2, 'font-size': 10, fill: 'currentColor', 'text-anchor': isLabelLeft ? 'end' : 'start' }, 'ν = 0 (threshold)'));
     const rowH = (HEIGHT - 14) / HISTORY;
     history.forEach((m, i) => {
       const y = 2 + (HISTORY - history.length + i) * rowH + rowH / 2;
