@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { createTimeWeightedLevel, stepTimeWeightedLevel, TIME_CONSTANT_S, weightedLevelDb } from '../../web/run/time-weighting';
-import { classifyMargin, dampingRatioOf, formatQuietMargin, NEAR_THRESHOLD_DAMPING_RATIO, quietMargin, STABILITY_WORDS, stabilityOf, verdictOf } from '../../web/run/verdict';
+import { classifyMargin, dampingRatioOf, formatQuietMargin, NEAR_THRESHOLD_DAMPING_RATIO, quietMargin, ringDownMargin, STABILITY_WORDS, stabilityOf, verdictOf } from '../../web/run/verdict';
 import { regimeFromInterval } from '../../dsp/mode-statistics';
 import { paFromSplDb, sensorOffsetDb } from '../../web/run/sensor';
 import { cyclesOf, MAD_TO_SD, medianAndSpread, VERSION_1_MISSING } from '../../web/run/cycles';
@@ -93,6 +93,16 @@ describe('verdict at a glance (REFERENCES.md §5, §6, §92)', () => {
     expect(classifyMargin({ growthRatePerS: -2, ci95PerS: [-2.5, -1.5], frequencyHz: 174.4, basis: '' })).toBe('near-threshold');
     expect(classifyMargin({ growthRatePerS: -20, ci95PerS: [-40, 0.5], frequencyHz: 174.4, basis: '' })).toBe('near-threshold');
     expect(classifyMargin({ growthRatePerS: 1, ci95PerS: [0.5, 1.5], frequencyHz: 174.4, basis: '' })).toBe('humming');
+  });
+
+  it('takes the margin of a knocked duct from its least-damped ring-down (REFERENCES.md §6), with no onset', () => {
+    // 140 Hz at 6 1/s: ζ = 6/(2π·140) = 0.00682; 291 Hz at 15 1/s: ζ = 0.0082. The first sets the margin.
+    const ring = (f: number, rate: number): Segment => ({ kind: 'decay', startS: 3, endS: 4, frequencyHz: f, ratePerS: -rate, rateCi95PerS: [-rate - 0.1, -rate + 0.1], isImpulseResponse: true });
+    const m = ringDownMargin([ring(291, 15), ring(140, 6), { ...ring(500, 1), isImpulseResponse: false }]);
+    expect(m?.frequencyHz).toBe(140);
+    const v = verdictOf({ summary: emptyLiveSummary(), segments: [ring(291, 15), ring(140, 6)], isFinal: true });
+    expect(v.kind).toBe('stable');
+    expect(v.margin).toBe('decay rate 6.00 1/s (95 % CI 5.90–6.10) · damping ratio 0.00682 (95 % CI 0.00671–0.00693)');
   });
 
   it('makes one call for the live verdict, the live margin and the report: the sign the interval allows (§42), then ζ (§92)', () => {

@@ -8,7 +8,7 @@
  * Relations (REFERENCES.md §5): amplitude e-folding rate σ (positive grows); a stable mode's
  * decay rate α = −σ; damping ratio ζ = α / (2π f); a mode rings for 1/(2π ζ) cycles per e-fold.
  */
-import type { Interval, ModeStatistics, NoiseDriven, RegimeKind } from '../../dsp/types';
+import type { Interval, ModeStatistics, NoiseDriven, RegimeKind, Segment } from '../../dsp/types';
 import { regimeFromInterval } from '../../dsp/mode-statistics';
 import type { MarginEstimate } from '../worker/protocol';
 import type { LiveSummary } from '../worker/live-summary';
@@ -135,12 +135,31 @@ export interface VerdictInput {
   /** Noise-excited resonances and noise statistics of a finished record (report.noiseDriven, report.modeStatistics). */
   noiseDriven?: readonly NoiseDriven[];
   modeStatistics?: readonly ModeStatistics[];
+  /** Segments of a finished record: its ring-downs after a knock (isImpulseResponse) measure the damping directly. */
+  segments?: readonly Segment[];
   /** True once the record is finished (the words speak of its end). */
   isFinal?: boolean;
 }
 
 /** The verdict for what the analysis has seen so far. */
-export function verdictOf({ summary, margin, noiseDriven, modeStatistics, isFinal }: VerdictInput): Verdict {
+/**
+ * The margin from the ring-downs of a knock: each excited mode's decay rate, the least-damped mode
+ * (smallest damping ratio) setting it, as for noise-excited resonances (REFERENCES.md §6, §92).
+ */
+export function ringDownMargin(segments: readonly Segment[] = []): Margin | null {
+  let best: Margin | null = null;
+  let bestZeta = Infinity;
+  for (const s of segments) {
+    if (s.kind !== 'decay' || s.isImpulseResponse !== true || !isShowable(s.ratePerS) || !(s.ratePerS < 0)) continue;
+    const zeta = dampingRatioOf(-s.ratePerS, s.frequencyHz);
+    if (!(zeta < bestZeta)) continue;
+    bestZeta = zeta;
+    best = { growthRatePerS: s.ratePerS, ci95PerS: isShowableInterval(s.rateCi95PerS) ? s.rateCi95PerS : null, frequencyHz: s.frequencyHz, basis: 'the ring-down after a knock (the least-damped mode it excited)' };
+  }
+  return best;
+}
+
+export function verdictOf({ summary, margin, noiseDriven, modeStatistics, segments, isFinal }: VerdictInput): Verdict {
   const regime = summary.regime;
   const growth = summary.growthRatePerS;
   const growthText = isShowable(growth) ? `growth rate ${formatRate(growth, summary.growthRateCi95PerS)}` : 'growth rate not fitted yet';
@@ -178,7 +197,7 @@ export function verdictOf({ summary, margin, noiseDriven, modeStatistics, isFina
     };
   }
   const hasTone = isShowable(summary.latestFrequencyHz);
-  const m = quietMargin(margin, noiseDriven, modeStatistics);
+  const m = quietMargin(margin, noiseDriven, modeStatistics) ?? (isShowable(growth) ? null : ringDownMargin(segments));
   if (m) {
     const kind = classifyMargin(m);
     const headline = kind === 'stable' ? 'Stable' : kind === 'near-threshold' ? 'Near threshold' : 'Humming';

@@ -92,7 +92,7 @@ export function buildReportHtml(record: SessionRecord, track: readonly TrackFram
     .map((t) => {
       const harmonics = t.harmonics.length ? `<p>Harmonics (locked to this tone): ${esc(t.harmonics.map((h) => `${h.k} × = ${formatHz(h.frequencyHz)}`).join(', '))}</p>` : '';
       const rows = t.cycles.map((c, k) => `<tr>${cycleCells(c, k).map((x) => `<td>${esc(x)}</td>`).join('')}</tr>`).join('');
-      return `<h3>${esc(toneHeading(t))}</h3>${harmonics}${t.cycles.length ? `<p>${esc(cycleMedianLine(t))}</p><table>${head}<tbody>${rows}</tbody></table>` : ''}`;
+      return `<h3>${esc(toneHeading(t))}</h3>${harmonics}${t.cycles.length ? `${t.cycles.length >= 2 ? `<p>${esc(cycleMedianLine(t))}</p>` : ''}<table>${head}<tbody>${rows}</tbody></table>` : ''}`;
     })
     .join('');
   const cycleNote = rc?.missing.length ? `<p>Report version ${rc.reportVersion}: ${esc(rc.missing.join('; '))}.</p>` : '';

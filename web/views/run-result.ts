@@ -76,7 +76,8 @@ export function cyclesTable(report: Report): HTMLElement | null {
       section.append(el('p', { className: 'harmonics', text: `Harmonics (locked to this tone, not tones of their own): ${t.harmonics.map((h) => `${h.k} × = ${formatHz(h.frequencyHz)}`).join(', ')}` }));
     }
     if (t.cycles.length) {
-      section.append(el('p', { className: 'cycle-medians', text: cycleMedianLine(t) }));
+      // Medians across cycles need two: one cycle's own intervals say more.
+      if (t.cycles.length >= 2) section.append(el('p', { className: 'cycle-medians', text: cycleMedianLine(t) }));
       section.append(
         scrollTable(
           i === 0 ? 'cycles-table' : `cycles-table-${i + 1}`,
