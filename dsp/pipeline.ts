@@ -10,7 +10,7 @@
  * envelope only up to the centre of the latest spectral frame, so the band background (from that
  * frame) and the envelope describe the same moment.
  */
-import { CONDITION_MAX_BLOCK, createConditionState, gapCondition, stepCondition, type ConditionState } from './condition';
+import { CONDITION_MAX_BLOCK, createConditionState, gapCondition, stepCondition, type ConditionState, type SpanList } from './condition';
 import { stepEarlyOnset } from './early-onset';
 import { groupTones, wideBandIsClear } from './grouping';
 import { breakHistory, createHistory, stepHistory, storeFrame, type History } from './history';
@@ -22,7 +22,7 @@ import { beginRegimeStep, finishRegime, STATE_DECAY, STATE_GROWTH, STATE_QUIET, 
 import { modeStatisticsEntry } from './mode-statistics';
 import { closeSteadyStretch, createSteadyStore, openSteadyStretch, STEADY_SETTLE_S, stepSteadyStore, type SteadyStore } from './steady-store';
 import { assembleReport } from './report';
-import { fitSegment, type FittedSegment } from './segment-fit';
+import { fitReachS, fitSegment, type FittedSegment } from './segment-fit';
 import { computeSpectrumFrame, createSpectrumState, feedSpectrum, resetSpectrumFraming, type SpectrumState } from './spectrum';
 import { createTimeBase, jAtTime, rebaseAfterGap, timeOfJ, type TimeBase } from './time-base';
 import { createToneEnvelope, ENVELOPE_RATE_HZ } from './tone-store';
@@ -190,7 +190,7 @@ function processConditioned(ps: PipelineState): void {
     const j0 = tb.j;
     stepQuietStore(ps.quiet, x, i, i + k, j0);
     stepSteadyStore(ps.steady, x, i, i + k, j0);
-    const j = stepHistory(hist, x, cond.outClipped, i, i + k, j0, tb.envM);
+    const j = stepHistory(hist, x, cond.outUnusable, i, i + k, j0, tb.envM);
     stepToneEnvelopes(tones, x, i, i + k, j0, tb, hist);
     stepLiveOnset(ps.liveOnset, x, i, i + k);
     for (let q = 0; q < ps.liveOnset.onsetCount; q++) ps.detected.push({ timeS: timeOfJ(tb, ps.liveOnset.onsetJ[q]), frequencyHz: ps.liveOnset.onsetFreqHz[q] });
@@ -296,20 +296,21 @@ function finish(ps: PipelineState): Report {
     if (!segs.some((s) => s.state !== STATE_QUIET && s.endIdx > s.startIdx && !grouping.dropped.has(s))) continue;
     for (let i = 0; i < segs.length; i++) {
       if (segs[i].endIdx <= segs[i].startIdx || grouping.dropped.has(segs[i])) continue;
-      const isWide = segs[i].state !== STATE_QUIET && wideBandIsClear(tr, others, grouping.artefacts, spec.binHz);
+      const isWide = segs[i].state !== STATE_QUIET && wideBandIsClear(tr, ...fitReachS(tr, segs[i]), others, grouping.artefacts, spec.binHz);
       fitted.push(fitSegment(tr, segs, i, { isWide, markers: ps.markers, warnings: ps.warnings }));
     }
   }
-  const clipped: ClippedSpan[] = [];
-  for (let i = 0; i < ps.cond.clipCount; i++) clipped.push({ startS: ps.cond.clipStartS[i], endS: ps.cond.clipEndS[i] });
+  const spansOf = (l: SpanList): ClippedSpan[] => Array.from({ length: l.count }, (_, i) => ({ startS: l.startS[i], endS: l.endS[i] }));
   const report = assembleReport({
     sampleRateHz: ps.cfg.sampleRateHz,
     durationS: ps.tb.durationInputSamples / ps.cfg.sampleRateHz,
     grouping,
     fitted,
     noiseDriven: ps.quiet.results,
-    clipped,
-    clipDropped: ps.cond.clipDropped,
+    clipped: spansOf(ps.cond.clips),
+    clipDropped: ps.cond.clips.dropped,
+    silences: spansOf(ps.cond.silences),
+    silenceDropped: ps.cond.silences.dropped,
     bandLimitedToHz: ps.cfg.bandHighHz > ps.cond.bandHighHz ? ps.cond.bandHighHz : null,
     mainsHz: ps.cfg.mainsHz,
     warnings: ps.warnings,
