@@ -149,10 +149,14 @@ export const VERSION_1_MISSING = [
   'harmonics not grouped under their tone',
 ];
 
-/** The cycles of a stored or fresh report of any version the app has written. */
+/**
+ * The cycles of a stored or fresh report of any version the app has written: its own per-tone
+ * cycles when it has them, else rebuilt from its segments (a version-1 report, or one completed
+ * from the stored track of an interrupted recording), with what such a report cannot tell.
+ */
 export function cyclesOf(report: Report): RecordCycles {
   const isPerTone = Array.isArray(report.tones) && report.tones.some((t) => Array.isArray(t.cycles));
-  if (report.reportVersion >= 2 || isPerTone) return { reportVersion: report.reportVersion, tones: reportTones(report), missing: [] };
+  if (isPerTone) return { reportVersion: report.reportVersion, tones: reportTones(report), missing: [] };
   return { reportVersion: report.reportVersion, tones: rebuiltTones(report), missing: VERSION_1_MISSING };
 }
 

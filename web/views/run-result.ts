@@ -67,7 +67,8 @@ export function cyclesTable(report: Report): HTMLElement | null {
   const box = el('div', { className: 'cycles', id: 'cycles' }, el('h3', { className: 'section-title', text: 'Firing cycles per tone' }));
   box.dataset.reportVersion = String(rc.reportVersion);
   if (rc.missing.length) {
-    box.append(el('p', { className: 'hint', id: 'cycles-old-report', text: `This report is of version ${rc.reportVersion} (an earlier version of the app): ${rc.missing.join('; ')}. Re-analysing the stored audio gives them.` }));
+    const whose = rc.reportVersion < 2 ? `This report is of version ${rc.reportVersion} (an earlier version of the app)` : 'This report holds no per-tone cycles (completed from the stored track)';
+    box.append(el('p', { className: 'hint', id: 'cycles-old-report', text: `${whose}: ${rc.missing.join('; ')}. Re-analysing the stored audio gives them, where it was kept.` }));
   }
   tones.forEach((t, i) => {
     const section = el('section', { className: 'tone-cycles' }, el('h4', { text: toneHeading(t) }));
