@@ -303,6 +303,7 @@ describe('recording and crash recovery', () => {
       expect(await page.locator('#cycles-old-report').textContent()).toMatch(/^This report is of version 1 \(an earlier version of the app\): cycles rebuilt from the segments .*no onset times/);
       const rows = await page.locator('#cycles-table tbody tr').count();
       expect(rows).toBe(2);
+      // Median of 4 and 4.4 is 4.2; MAD 0.2 × 1.4826 = 0.297 (REFERENCES.md §95).
       expect(await page.locator('#cycles .cycle-medians').textContent()).toMatch(/growth rate: median 4\.20 1\/s, spread 0\.297 1\/s over 2 cycles/);
       await screenshot(page, 'session-old-report');
     } finally {
