@@ -3,7 +3,7 @@ import { createTimeWeightedLevel, stepTimeWeightedLevel, TIME_CONSTANT_S, weight
 import { classifyMargin, dampingRatioOf, formatQuietMargin, NEAR_THRESHOLD_DAMPING_RATIO, quietMargin, ringDownMargin, STABILITY_WORDS, stabilityOf, verdictOf } from '../../web/run/verdict';
 import { regimeFromInterval } from '../../dsp/mode-statistics';
 import { paFromSplDb, sensorOffsetDb } from '../../web/run/sensor';
-import { cyclesOf, MAD_TO_SD, medianAndSpread, VERSION_1_MISSING } from '../../web/run/cycles';
+import { cycledTones, cyclesOf, MAD_TO_SD, medianAndSpread, steadyLinesLine, VERSION_1_MISSING } from '../../web/run/cycles';
 import { cycleCells } from '../../web/run/cycles';
 import { emptyLiveSummary } from '../../web/worker/live-summary';
 import { formatPa, formatQ, formatRatio } from '../../web/format';
@@ -235,6 +235,9 @@ describe('per-cycle table', () => {
     expect(rc.tones[0]!.cycles.map((c) => c.growthRatePerS)).toEqual([7, 6.5]);
     expect(rc.tones[0]!.harmonics.map((h) => h.k)).toEqual([2, 3]);
     expect(rc.tones[1]).toMatchObject({ isSteadyLine: true, isMainsFrequency: true, cycles: [] });
+    // The table shows the tone's cycles; the steady mains line is named in a sentence, not as a tone with cycles.
+    expect(cycledTones(rc).map((t) => t.frequencyHz)).toEqual([171]);
+    expect(steadyLinesLine(rc)).toBe('Steady lines (never grew or decayed: no firing cycles): 50.0 Hz (mains multiple).');
   });
 
   it('gives the median across cycles with the spread 1.4826 × MAD (Rousseeuw & Croux 1993, REFERENCES.md §95)', () => {

@@ -140,6 +140,18 @@ function reportTones(report: Report): ToneCycles[] {
   );
 }
 
+/** Tones whose cycles a table shows: those that grew or rang down (a steady line has no firing cycles). */
+export function cycledTones(rc: RecordCycles): ToneCycles[] {
+  return rc.tones.filter((t) => !t.isSteadyLine && (t.cycles.length > 0 || t.harmonics.length > 0));
+}
+
+/** The steady lines of a record in a sentence ("" when none): lines that never grew or decayed, mains hum among them. */
+export function steadyLinesLine(rc: RecordCycles): string {
+  const lines = rc.tones.filter((t) => t.isSteadyLine);
+  if (!lines.length) return '';
+  return `Steady lines (never grew or decayed: no firing cycles): ${lines.map((t) => `${formatHz(t.frequencyHz)}${t.isMainsFrequency ? ' (mains multiple)' : ''}`).join(', ')}.`;
+}
+
 /** What a version-1 report lacks, in the words of the cycle table. */
 export const VERSION_1_MISSING = [
   'cycles rebuilt from the segments (tones told apart by frequency alone)',
@@ -179,11 +191,10 @@ export function cycleCells(c: CycleRow, k: number): string[] {
   ];
 }
 
-/** What a tone is, in words: its frequency, a steady line or mains label, its harmonics. */
+/** A tone's heading: its frequency, the mains label, its count of cycles. */
 export function toneHeading(t: ToneCycles): string {
-  const kind = t.isSteadyLine ? ' (steady line: no growth or decay)' : '';
   const mains = t.isMainsFrequency ? ', on a multiple of the mains frequency' : '';
-  return `Tone ${formatHz(t.frequencyHz)}${kind}${mains}: ${t.cycles.length} cycle${t.cycles.length === 1 ? '' : 's'}`;
+  return `Tone ${formatHz(t.frequencyHz)}${mains}: ${t.cycles.length} cycle${t.cycles.length === 1 ? '' : 's'}`;
 }
 
 /** The growth and decay medians of a tone on one line. */

@@ -5,7 +5,7 @@
  */
 import type { Report, RegimeKind } from '../../dsp/types';
 import type { RunResult } from '../run/run-controller';
-import { cycleCells, cycleMedianLine, cyclesOf, CYCLE_COLUMNS, toneHeading } from '../run/cycles';
+import { cycleCells, cycledTones, cycleMedianLine, cyclesOf, CYCLE_COLUMNS, steadyLinesLine, toneHeading } from '../run/cycles';
 import { formatClock, formatHz, formatMissing, formatRate, formatRatio, formatSeconds, isShowable, isShowableInterval } from '../format';
 import { dampingRatioOf, STABILITY_WORDS, stabilityOf } from '../run/verdict';
 import { el } from './dom';
@@ -62,7 +62,7 @@ export function segmentsTable(report: Report): HTMLElement {
 export function cyclesTable(report: Report): HTMLElement | null {
   const rc = cyclesOf(report);
   const minCycles = rc.missing.length ? 2 : 1;
-  const tones = rc.tones.filter((t) => t.cycles.length > 0 || t.harmonics.length > 0);
+  const tones = cycledTones(rc);
   if (tones.reduce((n, t) => n + t.cycles.length, 0) < minCycles) return null;
   const box = el('div', { className: 'cycles', id: 'cycles' }, el('h3', { className: 'section-title', text: 'Firing cycles per tone' }));
   box.dataset.reportVersion = String(rc.reportVersion);
@@ -91,6 +91,8 @@ export function cyclesTable(report: Report): HTMLElement | null {
     }
     box.append(section);
   });
+  const steady = steadyLinesLine(rc);
+  if (steady) box.append(el('p', { className: 'hint steady-lines', text: steady }));
   return box;
 }
 
