@@ -221,6 +221,20 @@ export function logSecondDifferenceMs(p: ArrayLike<number>, from: number, to: nu
  * over the band noise, steady or growing or decaying exponentially, has ln A² nearly straight
  * over such lags, so its mean square second difference stays under 1 (a kink adds little).
  */
+/** Quantile of the envelope power that estimates the band's own noise level (noiseMeanOfSamples). */
+const NOISE_QUANTILE = 0.2;
+
+/**
+ * Mean of the noise power behind samples of envelope power, robust to a tone that holds up to
+ * 1 − NOISE_QUANTILE of them: the NOISE_QUANTILE-quantile divided by −ln(1 − NOISE_QUANTILE), the
+ * power of narrow-band Gaussian noise being exponentially distributed (common practice). Sorts
+ * `values` in place.
+ */
+export function noiseMeanOfSamples(values: number[]): number {
+  values.sort((a, b) => a - b);
+  return values[Math.floor(NOISE_QUANTILE * values.length)] / -Math.log(1 - NOISE_QUANTILE);
+}
+
 function endWarmup(st: RegimeState): void {
   const n = st.warmCount;
   if (n === 0) return;
@@ -250,11 +264,15 @@ function endWarmup(st: RegimeState): void {
   } else {
     // Quiet: the baseline is the band's own level while quiet (median / ln 2 of the exponential
     // A²), from the whole warm-up when it is noise, from its head when a tone rises later in it.
-    const m = isNoiseLike ? n : head;
+    // A head START_DB over the background that is no steady tone holds a hum rising in it (a
+    // track started on history just as a hum began): the level before the rise, a low quantile
+    // of the head (noiseMeanOfSamples), so that the hum does not set the quiet level.
     const ratios: number[] = [];
+    const isRisingHead = headExcessDb >= START_DB;
+    const m = isRisingHead || !isNoiseLike ? head : n;
     for (let i = 0; i < m; i++) ratios.push(st.warmBg[i] > 0 ? st.warmP[i] / st.warmBg[i] : 1);
     ratios.sort((a, b) => a - b);
-    st.baseline = Math.max(0.25, ratios[Math.floor(m / 2)] / Math.LN2);
+    st.baseline = Math.max(0.25, isRisingHead ? noiseMeanOfSamples(ratios) : ratios[Math.floor(m / 2)] / Math.LN2);
     enterQuiet(st, first);
   }
   st.warmCount = 0;
