@@ -312,6 +312,7 @@ function finish(ps: PipelineState): Report {
     silences: spansOf(ps.cond.silences),
     silenceDropped: ps.cond.silences.dropped,
     bandLimitedToHz: ps.cfg.bandHighHz > ps.cond.bandHighHz ? ps.cond.bandHighHz : null,
+    binHz: spec.binHz,
     mainsHz: ps.cfg.mainsHz,
     warnings: ps.warnings,
   });

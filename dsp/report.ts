@@ -8,9 +8,11 @@ import type { Family, Grouping } from './grouping';
 import { ON_DB, STATE_DECAY, STATE_GROWTH, STATE_QUIET, STATE_STEADY } from './regime';
 import type { FittedSegment } from './segment-fit';
 import { meanBg, meanPower } from './tone-store';
-import { isMainsMultiple, MAINS_HZ } from './track';
-import { REPORT_VERSION, type ClippedSpan, type Cycle, type Interval, type NoiseDriven, type RateFit, type Report } from './types';
+import { harmonicToleranceHz, isMainsMultiple, MAINS_HZ } from './track';
+import { REPORT_VERSION, type ClippedSpan, type Cycle, type HarmonicEntry, type Interval, type NoiseDriven, type RateFit, type Report } from './types';
 
+/** Share of a tone's sounding frames in which a peak at k·f must be seen for k to be listed as its harmonic. */
+const HARMONIC_MIN_SHARE = 0.5;
 /** Clipped stretches listed one by one in the warnings. */
 const CLIP_WARNINGS_LISTED = 10;
 
@@ -166,32 +168,66 @@ function cyclesOfTone(fam: Family, fitted: FittedSegment[]): Cycle[] {
   return cycles;
 }
 
-function median(v: number[]): number {
-  const s = [...v].sort((a, b) => a - b);
-  const m = s.length;
-  return m % 2 === 1 ? s[(m - 1) / 2] : 0.5 * (s[m / 2 - 1] + s[m / 2]);
+function median(sorted: readonly number[]): number {
+  const m = sorted.length;
+  return m % 2 === 1 ? sorted[(m - 1) / 2] : 0.5 * (sorted[m / 2 - 1] + sorted[m / 2]);
 }
 
-/** Robust spread: 1.4826 × the median absolute deviation, the sd of normal data (common practice). */
-const MAD_TO_SD = 1.4826;
+/** Scale of the median absolute deviation to the standard deviation of normal data, 1/Φ⁻¹(3/4) (docs/REFERENCES.md §95). */
+export const MAD_TO_SD = 1.4826;
+
+/** Median of rates across cycles and their robust spread, 1/s. */
+export interface CycleMedian {
+  medianPerS: number;
+  /** MAD_TO_SD × the median absolute deviation: the standard deviation for normal data (robust). */
+  spreadPerS: number;
+  /** Cycles that gave a rate. */
+  count: number;
+}
+
+/** Median and robust spread of rates (null with fewer than two: one cycle has its own interval). */
+export function medianAndSpread(rates: readonly number[]): CycleMedian | null {
+  const v = rates.filter((r) => Number.isFinite(r)).sort((a, b) => a - b);
+  if (v.length < 2) return null;
+  const m = median(v);
+  const dev = v.map((x) => Math.abs(x - m)).sort((a, b) => a - b);
+  return { medianPerS: m, spreadPerS: MAD_TO_SD * median(dev), count: v.length };
+}
 
 /** Median growth and decay rates across cycles and their spread (null with fewer than two cycles of a kind). */
 function cycleSummary(cycles: Cycle[]): Partial<Report['summary']> {
-  const g = cycles.map((c) => c.growthRatePerS).filter((r): r is number => r !== null);
-  const d = cycles.map((c) => c.decayRatePerS).filter((r): r is number => r !== null);
-  const med = (v: number[]): number | null => (v.length >= 2 ? median(v) : null);
-  const spread = (v: number[]): number | null => {
-    if (v.length < 2) return null;
-    const m = median(v);
-    return MAD_TO_SD * median(v.map((x) => Math.abs(x - m)));
-  };
+  const g = medianAndSpread(cycles.map((c) => c.growthRatePerS).filter((r): r is number => r !== null));
+  const d = medianAndSpread(cycles.map((c) => c.decayRatePerS).filter((r): r is number => r !== null));
   return {
-    growthRateCycleMedianPerS: med(g),
-    growthRateCycleSpreadPerS: spread(g),
-    decayRateCycleMedianPerS: med(d),
-    decayRateCycleSpreadPerS: spread(d),
+    growthRateCycleMedianPerS: g?.medianPerS ?? null,
+    growthRateCycleSpreadPerS: g?.spreadPerS ?? null,
+    decayRateCycleMedianPerS: d?.medianPerS ?? null,
+    decayRateCycleSpreadPerS: d?.spreadPerS ?? null,
     cycleCount: cycles.length,
   };
+}
+
+/**
+ * The harmonics of tone f, by order: lines grouped under it that sit on k·f (k ≥ 2, within the
+ * tracker's harmonic tolerance; grouped lines elsewhere, sidelobes or intermodulation, are not
+ * harmonics), and the peaks at k·f its tracks saw in at least HARMONIC_MIN_SHARE of the frames
+ * it sounded (tones.ts noteHarmonics: such peaks never become tracks of their own). A peak of the
+ * band noise lands within the tolerance of a given k·f in well under half the frames, a harmonic
+ * in nearly all.
+ */
+function harmonicsOf(f: Family, families: Family[], binHz: number): HarmonicEntry[] {
+  const byK = new Map<number, number>();
+  for (const h of families) {
+    if (h.parent !== f) continue;
+    const k = Math.round(h.freqHz / f.freqHz);
+    if (k >= 2 && Math.abs(h.freqHz - k * f.freqHz) <= harmonicToleranceHz(binHz, f.freqHz, k)) byK.set(k, h.freqHz);
+  }
+  for (const tr of f.tracks) {
+    for (let k = 2; k < tr.harmonicHz.length; k++) {
+      if (!byK.has(k) && tr.soundingFrames > 0 && tr.harmonicHits[k] >= HARMONIC_MIN_SHARE * tr.soundingFrames) byK.set(k, tr.harmonicHz[k]);
+    }
+  }
+  return [...byK].sort((a, b) => a[0] - b[0]).map(([k, frequencyHz]) => ({ k, frequencyHz }));
 }
 
 /** The mains frequency whose multiple carries the strongest steady line, or 0 when none does. */
@@ -217,6 +253,8 @@ export interface ReportInput {
   silenceDropped: number;
   /** Top of the analysed band when the sample rate lowered it below the requested one, Hz (else null). */
   bandLimitedToHz: number | null;
+  /** Bin width of the spectral frames, Hz (the harmonic tolerance scales with it). */
+  binHz: number;
   /** Mains frequency for the labels, Hz (0: take it from the steady lines). */
   mainsHz: number;
   warnings: string[];
@@ -261,6 +299,7 @@ export function assembleReport(inp: ReportInput): Report {
       isSteadyLine: f.isSteadyLine,
       isMainsFrequency: mainsHz > 0 && isMainsMultiple(f.freqHz, mainsHz),
       cycles: cyclesOf.get(f) ?? [],
+      harmonics: harmonicsOf(f, grouping.families, inp.binHz),
     })),
     clipped,
     warnings: [...clipWarn, ...warnings],

@@ -7,7 +7,7 @@
 import { createEnvelopeState, type EnvelopeState } from './envelope';
 import { createRegimeState, STATE_QUIET, type RegimeState } from './regime';
 import { timeOfG, type TimeBase } from './time-base';
-import type { ToneTrack } from './track';
+import { MAX_HARMONIC, type ToneTrack } from './track';
 import type { EnvelopeSeries } from './types';
 
 /** Envelope samples per second (about). */
@@ -60,6 +60,10 @@ export interface ToneRuntime {
   earlyOnsetIdx: number;
   /** Peak envelope power once the record is finished (−1 until computed). */
   topPower: number;
+  /** Peaks at the tone's k-th harmonic while it sounded: frames seen (by k), the last frequency (Hz, by k), and frames it sounded. */
+  harmonicHits: Int32Array;
+  harmonicHz: Float64Array;
+  soundingFrames: number;
 }
 
 /** Caller-owned buffers that stepEnvelope writes (narrow power, wide power, phase). */
@@ -105,6 +109,9 @@ export function createToneRuntime(tone: ToneTrack, env: EnvelopeState, isSteadyL
     clipCountdown: 0,
     earlyOnsetIdx: -1,
     topPower: -1,
+    harmonicHits: new Int32Array(MAX_HARMONIC + 1),
+    harmonicHz: new Float64Array(MAX_HARMONIC + 1),
+    soundingFrames: 0,
   };
 }
 

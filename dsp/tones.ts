@@ -226,6 +226,27 @@ function mergeDuplicateTones(ts: ToneSet, binHz: number): void {
 }
 
 /**
+ * Counts, for each tone sounding in this frame, the peaks on its harmonics k·f (k ≥ 2, within the
+ * tracker's harmonic tolerance), before the peak grouping folds them into the fundamental: the
+ * report lists the orders seen in most of the frames the tone sounded (report.ts harmonicsOf).
+ */
+function noteHarmonics(ts: ToneSet, binHz: number): void {
+  const peaks = ts.peaks;
+  for (const tr of ts.alive) {
+    if (tr.regime.state <= STATE_QUIET) continue;
+    tr.soundingFrames++;
+    const f0 = tr.tone.freqHz;
+    for (let i = 0; i < peaks.count; i++) {
+      if (peaks.harmonicOf[i] !== 0) continue;
+      const k = Math.round(peaks.freqHz[i] / f0);
+      if (k < 2 || k > MAX_HARMONIC || Math.abs(peaks.freqHz[i] - k * f0) > harmonicToleranceHz(binHz, f0, k)) continue;
+      tr.harmonicHits[k]++;
+      tr.harmonicHz[k] = peaks.freqHz[i];
+    }
+  }
+}
+
+/**
  * Tone identity at one spectral frame (frame frameIdx, centred at tF s): peaks, tracking, merging,
  * retuning and band background of the alive tones, and new tones from confirmed peaks (none from
  * a frame whose samples clipped).
@@ -233,6 +254,7 @@ function mergeDuplicateTones(ts: ToneSet, binHz: number): void {
 export function stepTonesAtFrame(ts: ToneSet, spec: SpectrumState, hist: History, tb: TimeBase, frameIdx: number, tF: number, isFrameClipped: boolean): void {
   findPeaks(spec, hist.loBin, hist.hiBin, PEAK_MIN_DB, ts.peaks);
   suppressLeakage(spec, ts.peaks);
+  noteHarmonics(ts, spec.binHz);
   groupHarmonics(spec, ts.peaks, hist.loBin, hist.hiBin, SUBHARMONIC_MIN_DB);
   stepTracker(ts.tracker, ts.aliveTones, ts.peaks, frameIdx, tF, NEW_TRACK_MIN_DB);
   mergeDuplicateTones(ts, spec.binHz);

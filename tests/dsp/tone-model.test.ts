@@ -151,6 +151,11 @@ describe('harmonic or mode, by envelope locking', () => {
     const r = analyse(synthesize({ sampleRateHz: fs, durationS: 10, tones: [{ frequencyHz: 160, envelope: env, harmonics: [[2, 0.3], [3, 0.15], [4, 0.08]] }], noiseRms: 0.001, seed: 10 }), fs);
     expect(r.onsets).toHaveLength(1);
     expect(r.segments.filter((s) => s.kind !== 'quiet' && Math.abs(s.frequencyHz - 160) > 2)).toHaveLength(0);
+    // ... and listed under it by order: the waveform's 2nd-4th harmonics at k·160 Hz (within 1 %).
+    const tone = (r.tones ?? []).find((t) => Math.abs(t.frequencyHz - 160) < 2);
+    const listed = tone?.harmonics ?? [];
+    expect(listed.map((h) => h.k), JSON.stringify(listed)).toEqual([2, 3, 4]);
+    for (const h of listed) expect(Math.abs(h.frequencyHz - h.k * 160)).toBeLessThan(0.01 * h.k * 160);
   });
 });
 

@@ -8,21 +8,15 @@
  * isImpulseResponse. A stored report of version 1 has none of these: its cycles are rebuilt from
  * its segments, grouped by frequency, and `missing` says what the old report cannot tell.
  */
+import { medianAndSpread, type CycleMedian } from '../../dsp/report';
 import type { Cycle, Interval, Report, Segment } from '../../dsp/types';
+
+export { MAD_TO_SD, medianAndSpread, type CycleMedian } from '../../dsp/report';
 import { isSameTone } from '../worker/live-summary';
 import { formatClock, formatDb, formatHz, formatMissing, formatRate, formatSeconds, MISSING } from '../format';
 
 /** One cycle of a tone (the report's Cycle; a rebuilt one has no onset time or limit interval). */
 export type CycleRow = Cycle;
-
-/** Median of a set of per-cycle rates and its spread, 1/s. */
-export interface CycleMedian {
-  medianPerS: number;
-  /** 1.4826 × the median absolute deviation: the standard deviation for normal data (robust). */
-  spreadPerS: number;
-  /** Cycles that gave a rate. */
-  count: number;
-}
 
 export interface HarmonicRow {
   /** Order k of the harmonic (its frequency is near k times the tone's). */
@@ -46,23 +40,6 @@ export interface RecordCycles {
   tones: ToneCycles[];
   /** What an older report does not hold (empty for a current one). */
   missing: string[];
-}
-
-/** Scale of the median absolute deviation to the standard deviation of normal data, 1/Φ⁻¹(3/4) (REFERENCES.md §95). */
-export const MAD_TO_SD = 1.4826;
-
-function median(sorted: readonly number[]): number {
-  const m = sorted.length;
-  return m % 2 === 1 ? (sorted[(m - 1) / 2] as number) : 0.5 * ((sorted[m / 2 - 1] as number) + (sorted[m / 2] as number));
-}
-
-/** Median and robust spread of rates (null with fewer than two: one cycle has its own interval). */
-export function medianAndSpread(rates: readonly number[]): CycleMedian | null {
-  const v = rates.filter((r) => Number.isFinite(r)).sort((a, b) => a - b);
-  if (v.length < 2) return null;
-  const m = median(v);
-  const dev = v.map((x) => Math.abs(x - m)).sort((a, b) => a - b);
-  return { medianPerS: m, spreadPerS: MAD_TO_SD * median(dev), count: v.length };
 }
 
 function withMedians(t: Omit<ToneCycles, 'growth' | 'decay'>): ToneCycles {
