@@ -26,17 +26,12 @@ const FRAME_S = 0.016;
 const HOPS_PER_FRAME = 4;
 /** Background time constant, s: long against a growth's rise, short against a session. */
 const BACKGROUND_S = 3;
-/** Warm-up before any alarm, s: the background mean and variance need a few hundred frames. */
+/** Warm-up before any alarm, s: the background means need a few hundred frames. */
 const WARM_UP_S = 2;
-/** CUSUM reference value k, in background sd: half the shift it is tuned to (Page 1954), 2 sd (about 11 dB of log-power): a growing tone soon stands several sd up. */
-const CUSUM_K = 1;
-/** All bins together give one false CUSUM alarm in this many hours of toneless noise. */
+/** All bins together give at most one false CUSUM alarm in this many hours of toneless noise. */
 const FALSE_ALARM_HOURS = 1;
-/**
- * Least background sd of log-power, Np: a strong steady line barely fluctuates, and level drifts
- * under about 1 dB (0.23 Np) must not count as shifts of many sd.
- */
-const SIGMA_MIN_NP = 0.25;
+/** Fastest growth announced within its first e-folds, 1/s: the CUSUM's design shift is set by it (see designSnr). */
+const RATE_MAX_PER_S = 50;
 /** Least rise between two consecutive windows of a run for an onset, Np (about 1 dB of power). */
 const RISE_MIN_NP = 0.25;
 /** The rise must also exceed this many sd of the difference of the window means. */
@@ -51,9 +46,8 @@ const RUN_MAX_S = 1.2;
 const HOLD_BINS = 3;
 const HOLD_S = 3;
 const MAX_HARMONIC = 10;
-/** Most onsets announced by one step, and most announcements remembered for de-duplication. */
+/** Most onsets announced by one step. */
 const MAX_ONSETS_PER_STEP = 8;
-const RECENT_CAPACITY = 16;
 
 export interface LiveOnsetConfig {
   /** Rate of the conditioned samples, Hz. */
@@ -67,23 +61,27 @@ export interface LiveOnsetState {
   readonly loBin: number;
   readonly hiBin: number;
   readonly hopS: number;
-  /** CUSUM threshold h, in background sd (from the false-alarm rate). */
+  /** CUSUM threshold h, nats of log-likelihood ratio (thresholdFor). */
   readonly threshold: number;
+  /** Design SNR s1 of the CUSUM (designSnr): increment x·s1/(1+s1) − ln(1+s1). */
+  readonly slope: number;
+  readonly offset: number;
   readonly alpha: number;
   readonly warmFrames: number;
   readonly runMax: number;
+  /** Background mean power of each bin (in control), spectrum units. */
   mean: Float64Array;
-  variance: Float64Array;
   cusum: Float64Array;
   /** Frame at which each bin's CUSUM last left zero. */
   runStart: Float64Array;
   /** Frame until which each bin stays silent after an onset near it. */
   holdUntil: Float64Array;
-  /** Deviation history per bin (ring of runMax frames, bin-major). */
+  /** Log-power over the background per bin, Np (ring of runMax frames, bin-major). */
   devRing: Float64Array;
   scratch: Float64Array;
   winMean: Float64Array;
-  winVar: Float64Array;
+  /** Variance inflation of the overlapping frames (overlapInflation). */
+  readonly inflation: number;
   frame: number;
   /** Analysis index of the next sample. */
   j: number;
@@ -91,27 +89,50 @@ export interface LiveOnsetState {
   onsetJ: Float64Array;
   onsetFreqHz: Float64Array;
   onsetCount: number;
-  /** Announcements of any source in the last HOLD_S (ring): time, s, and frequency, Hz. */
-  recentTimeS: Float64Array;
-  recentFreqHz: Float64Array;
-  recentPos: number;
 }
 
 /**
- * Threshold h of a one-sided CUSUM with reference k for a given in-control average run length
- * (steps), by Siegmund's approximation ARL0 ≈ (e^{2k b} − 2k b − 1)/(2k²), b = h + 1.166
- * (REFERENCES.md §30), solved by bisection.
+ * Variance inflation φ = 1 + 2 Σ_k ρ_k of a sum of frame powers of white noise taken every `hop`
+ * samples through `window`: ρ_k = (Σ w_i w_{i+k·hop})² / (Σ w_i²)² is the correlation of the
+ * powers of two frames k hops apart (the squared correlation of their complex bins for Gaussian
+ * noise; Harris 1978 tabulates the amplitude overlap correlation, 0.167 for Hann at 50 %).
  */
-export function cusumThreshold(k: number, arl0: number): number {
-  const arl = (h: number): number => {
-    const b = 2 * k * (h + 1.166);
-    return (Math.exp(b) - b - 1) / (2 * k * k);
-  };
+export function overlapInflation(window: Float64Array, hop: number): number {
+  let s0 = 0;
+  for (let i = 0; i < window.length; i++) s0 += window[i] * window[i];
+  let phi = 1;
+  for (let k = 1; k * hop < window.length; k++) {
+    let c = 0;
+    for (let i = 0; i + k * hop < window.length; i++) c += window[i] * window[i + k * hop];
+    phi += 2 * (c / s0) ** 2;
+  }
+  return phi;
+}
+
+/**
+ * Threshold h (nats) of Page's CUSUM on log-likelihood-ratio increments for an in-control average
+ * run length of arl0 steps (REFERENCES.md §45): ARL0 ≥ e^h for independent increments (Lorden
+ * 1971), and increments correlated with variance inflation φ behave as independent ones scaled
+ * by φ (diffusion approximation, Siegmund 1985), so h = φ·ln ARL0.
+ */
+export function thresholdFor(arl0: number, inflation: number): number {
+  return inflation * Math.log(arl0);
+}
+
+/**
+ * Design SNR s1 (tone power over the bin's noise) of the CUSUM (REFERENCES.md §45): the increment
+ * x·s1/(1+s1) − ln(1+s1) is the log-likelihood ratio of an exponential power of mean 1+s1 against
+ * mean 1, whose expectation at the design SNR is KL = s1 − ln(1+s1). s1 is chosen so that a tone
+ * at it reaches h within the hops of one e-folding time of the fastest growth: KL = h·hopS·rateMax
+ * (a growing tone's evidence comes mostly from its latest e-fold). Solved by bisection.
+ */
+export function designSnr(threshold: number, hopS: number, rateMaxPerS: number): number {
+  const kl = threshold * hopS * rateMaxPerS;
   let lo = 0;
-  let hi = 200;
-  for (let i = 0; i < 100; i++) {
+  let hi = 1e6;
+  for (let i = 0; i < 200; i++) {
     const mid = 0.5 * (lo + hi);
-    if (arl(mid) < arl0) lo = mid;
+    if (mid - Math.log1p(mid) < kl) lo = mid;
     else hi = mid;
   }
   return 0.5 * (lo + hi);
@@ -131,33 +152,34 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
   const hopS = hop / fs;
   // One false alarm per FALSE_ALARM_HOURS over all bins: per-bin ARL0 = bins × hops per period.
   const arl0 = (bins * FALSE_ALARM_HOURS * 3600) / hopS;
+  const inflation = overlapInflation(spec.window, hop);
+  const threshold = thresholdFor(arl0, inflation);
+  const s1 = designSnr(threshold, hopS, RATE_MAX_PER_S);
   const runMax = Math.max(2 * HOPS_PER_FRAME, Math.round(RUN_MAX_S / hopS));
   return {
     spec,
     loBin,
     hiBin,
     hopS,
-    threshold: cusumThreshold(CUSUM_K, arl0),
+    threshold,
+    slope: s1 / (1 + s1),
+    offset: Math.log1p(s1),
     alpha: hopS / BACKGROUND_S,
     warmFrames: Math.round(WARM_UP_S / hopS),
     runMax,
     mean: new Float64Array(bins),
-    variance: new Float64Array(bins),
     cusum: new Float64Array(bins),
     runStart: new Float64Array(bins),
     holdUntil: new Float64Array(bins).fill(-1),
     devRing: new Float64Array(bins * runMax),
     scratch: new Float64Array(bins),
     winMean: new Float64Array(3),
-    winVar: new Float64Array(3),
+    inflation,
     frame: 0,
     j: 0,
     onsetJ: new Float64Array(MAX_ONSETS_PER_STEP),
     onsetFreqHz: new Float64Array(MAX_ONSETS_PER_STEP),
     onsetCount: 0,
-    recentTimeS: new Float64Array(RECENT_CAPACITY).fill(-Infinity),
-    recentFreqHz: new Float64Array(RECENT_CAPACITY),
-    recentPos: 0,
   };
 }
 
@@ -188,35 +210,51 @@ function select(a: Float64Array, n: number, k: number): number {
 }
 
 /**
- * True when bin b's deviation rose steadily over the run: three consecutive windows of W hops
- * (W ≥ half a kernel, a third of the run) whose means m3 < m2 < m1 step up by d2 = m2 − m3 and
- * d1 = m1 − m2, each more than RISE_Z sd of the difference and RISE_MIN_NP, and within a factor
- * RISE_RATIO of each other (a growth rises by the same amount in equal times; the rise of a step
- * seen through the Hann frame lasts one kernel and is front-loaded in log-power, so it falls
- * mostly in one window; a knock falls after it).
+ * True when bin b's log-power rose steadily over the last 3W hops: three consecutive windows of W
+ * hops whose means m3 < m2 < m1 step up by d2 = m2 − m3 and d1 = m1 − m2, each more than RISE_Z
+ * standard errors of the difference and RISE_MIN_NP, and within a factor RISE_RATIO of each other.
+ * The noise is the scatter about the straight line fitted through the 3W points (a growth is a
+ * straight line in log-power; the scatter of a step's or a knock's bend about it counts as
+ * noise), its standard error inflated by the overlap of the frames (inflation). The smallest W
+ * (from half a kernel up to a third of the run) that shows the rise decides: a fast growth shows
+ * it in short windows, a slow one in long ones. A step seen through the Hann frame rises within one
+ * kernel, front-loaded in log-power, so its rise falls mostly in one window; a knock falls after it.
  */
 function isRising(st: LiveOnsetState, b: number, len: number): boolean {
-  const w = Math.max(HOPS_PER_FRAME >> 1, Math.floor(len / 3));
-  if (3 * w > len || 3 * w > st.runMax) return false;
   const base = b * st.runMax;
   const mean = st.winMean;
-  const vari = st.winVar;
-  for (let q = 0; q < 3; q++) {
-    let s1 = 0;
-    let s2 = 0;
-    for (let i = 0; i < w; i++) {
-      const v = st.devRing[base + ((st.frame - q * w - i) % st.runMax)];
-      s1 += v;
-      s2 += v * v;
+  const wMax = Math.floor(Math.min(len, st.runMax) / 3);
+  for (let w = HOPS_PER_FRAME >> 1; w <= wMax; w++) {
+    // Least-squares line through the 3w points (t = 0 the newest, going back).
+    const n = 3 * w;
+    let sy = 0;
+    let sty = 0;
+    let syy = 0;
+    for (let q = 0; q < 3; q++) {
+      let s1 = 0;
+      for (let i = 0; i < w; i++) {
+        const t = q * w + i;
+        const v = st.devRing[base + ((st.frame - t) % st.runMax)];
+        s1 += v;
+        sty += t * v;
+        syy += v * v;
+      }
+      mean[q] = s1 / w;
+      sy += s1;
     }
-    mean[q] = s1 / w;
-    vari[q] = Math.max(0, s2 / w - mean[q] * mean[q]) / Math.max(1, w - 1);
+    const st0 = (n * (n - 1)) / 2;
+    const stt = ((n - 1) * n * (2 * n - 1)) / 6;
+    const slope = (n * sty - st0 * sy) / (n * stt - st0 * st0);
+    const icpt = (sy - slope * st0) / n;
+    // Residual sum of squares: Σy² − a·Σy − b·Σty for the least-squares line.
+    const rss = Math.max(0, syy - icpt * sy - slope * sty);
+    const seDiff = Math.sqrt((2 * st.inflation * rss) / (n - 2) / w);
+    const need = Math.max(RISE_MIN_NP, RISE_Z * seDiff);
+    const d1 = mean[0] - mean[1];
+    const d2 = mean[1] - mean[2];
+    if (d1 > need && d2 > need && d1 * RISE_RATIO >= d2 && d2 * RISE_RATIO >= d1) return true;
   }
-  const d1 = mean[0] - mean[1];
-  const d2 = mean[1] - mean[2];
-  const need1 = Math.max(RISE_MIN_NP, RISE_Z * Math.sqrt(vari[0] + vari[1]));
-  const need2 = Math.max(RISE_MIN_NP, RISE_Z * Math.sqrt(vari[1] + vari[2]));
-  return d1 > need1 && d2 > need2 && d1 * RISE_RATIO >= d2 && d2 * RISE_RATIO >= d1;
+  return false;
 }
 
 /** True when bin b is the largest of the bins within PEAK_BINS of it (the skirt of a louder tone is not). */
@@ -247,34 +285,32 @@ function processFrame(st: LiveOnsetState): void {
   const p = spec.power;
   const frame = st.frame;
   const isWarm = frame >= st.warmFrames;
-  // Deviations from each bin's background and their median over the band.
+  // Each bin's power over its background, and the median of that ratio over the band: a broadband
+  // loudness step scales every bin alike (the median of an exponential power is ln 2 of its mean).
   for (let b = 0; b < bins; b++) {
-    const y = Math.log(p[st.loBin + b] + 1e-30);
-    if (frame === 0) {
-      st.mean[b] = y;
-      st.variance[b] = 1.6449; // π²/6, the variance of ln of an exponential (REFERENCES.md §30)
-    }
-    st.scratch[b] = y - st.mean[b];
+    const pw = p[st.loBin + b] + 1e-30;
+    if (frame === 0) st.mean[b] = pw;
+    st.scratch[b] = pw / st.mean[b];
   }
-  const common = select(st.scratch, bins, bins >> 1);
+  const common = select(st.scratch, bins, bins >> 1) / Math.LN2;
   for (let b = 0; b < bins; b++) {
-    const y = Math.log(p[st.loBin + b] + 1e-30);
-    const d = y - st.mean[b] - common;
-    st.devRing[b * st.runMax + (frame % st.runMax)] = d;
-    const sd = Math.max(SIGMA_MIN_NP, Math.sqrt(st.variance[b]));
+    const pw = (p[st.loBin + b] + 1e-30) / common;
+    const x = pw / st.mean[b];
+    st.devRing[b * st.runMax + (frame % st.runMax)] = Math.log(x);
     // No run starts before the background has settled.
-    const s = isWarm ? Math.max(0, st.cusum[b] + d / sd - CUSUM_K) : 0;
+    // Evidence past the threshold is not banked (the sum is held at h): an alarm that is not
+    // confirmed as a growth ends within hops of the increments turning negative (a knock's tail,
+    // a skirt that fades), instead of testing noise for as long as a huge sum takes to drain.
+    const s = isWarm ? Math.min(st.threshold, Math.max(0, st.cusum[b] + st.slope * x - st.offset)) : 0;
     st.cusum[b] = s;
     if (s === 0) {
-      // In control: the background follows (the common shift included, so it tracks loudness).
+      // In control: the background follows (loudness-corrected).
       st.runStart[b] = frame;
       // A plain running mean until the exponential one has as many frames behind it.
-      const a = Math.max(st.alpha, 1 / (frame + 1));
-      st.mean[b] += a * (y - st.mean[b]);
-      st.variance[b] += a * (d * d - st.variance[b]);
+      st.mean[b] += Math.max(st.alpha, 1 / (frame + 1)) * (pw - st.mean[b]);
       continue;
     }
-    if (s <= st.threshold) continue;
+    if (s < st.threshold) continue;
     const len = Math.min(frame - st.runStart[b], st.runMax);
     if (frame >= st.holdUntil[b] && isPeak(st, b) && isRising(st, b, len)) {
       if (st.onsetCount < MAX_ONSETS_PER_STEP) {
@@ -287,7 +323,7 @@ function processFrame(st: LiveOnsetState): void {
       silenceAround(st, b, frame + Math.round(HOLD_S / st.hopS));
     } else if (len >= st.runMax) {
       // A rise that never showed itself as a growth is a new level: the bin takes it as background.
-      st.mean[b] = y - common;
+      st.mean[b] = pw;
       st.cusum[b] = 0;
       st.runStart[b] = frame;
     }
@@ -317,20 +353,4 @@ export function gapLiveOnset(st: LiveOnsetState, jNext: number): void {
   st.j = jNext;
   st.cusum.fill(0);
   st.runStart.fill(st.frame);
-}
-
-/**
- * One announcement per rise, whichever detector saw it first: true (and remembered) when no
- * announcement within HOLD_BINS short bins (or 3 %) of freqHz was made in the HOLD_S before
- * timeS; false for a repeat.
- */
-export function claimAnnouncement(st: LiveOnsetState, timeS: number, freqHz: number): boolean {
-  const tol = Math.max(HOLD_BINS * st.spec.binHz, 0.03 * freqHz);
-  for (let i = 0; i < RECENT_CAPACITY; i++) {
-    if (Math.abs(st.recentTimeS[i] - timeS) <= HOLD_S && Math.abs(st.recentFreqHz[i] - freqHz) <= tol) return false;
-  }
-  st.recentTimeS[st.recentPos] = timeS;
-  st.recentFreqHz[st.recentPos] = freqHz;
-  st.recentPos = (st.recentPos + 1) % RECENT_CAPACITY;
-  return true;
 }

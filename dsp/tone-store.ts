@@ -56,8 +56,6 @@ export interface ToneRuntime {
   maxExcessDb: number;
   /** Envelope outputs still holding a clipped input in their kernel. */
   clipCountdown: number;
-  /** Store index of an onset announced early by the look-ahead (−1: none pending). */
-  earlyOnsetIdx: number;
   /** Peak envelope power once the record is finished (−1 until computed). */
   topPower: number;
 }
@@ -103,7 +101,6 @@ export function createToneRuntime(tone: ToneTrack, env: EnvelopeState, isSteadyL
     isAlive: true,
     maxExcessDb: -Infinity,
     clipCountdown: 0,
-    earlyOnsetIdx: -1,
     topPower: -1,
   };
 }
