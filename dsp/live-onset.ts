@@ -1,20 +1,22 @@
 /**
- * Live onset detector (docs/REFERENCES.md §30): a second, short-frame sequential test that
- * announces a hum while it grows, without waiting for the long analysis frame to confirm a tone.
+ * Live onset detector (docs/REFERENCES.md §30, §45), the one source of live onsets: a short-frame
+ * sequential test that announces a hum while it grows, without waiting for the long analysis frame.
  *
- * Every hop of a short Hann frame gives the log-power y of each bin of the band. Each bin keeps a
- * running background (mean and variance of y while the bin is in control); the deviation
- * d = y − mean, less the median deviation over the band (a broadband loudness step moves every bin
- * alike and so cancels), is standardised and fed to Page's one-sided CUSUM
- * S = max(0, S + d/σ − k) (Page 1954). Its threshold h comes from the background statistics: the
- * average run length to a false alarm (Siegmund's approximation) is set so that all bins together
- * give one false alarm in FALSE_ALARM_HOURS of toneless noise.
+ * Every hop of a short Hann frame gives the power of each bin of the band. Each bin keeps a running
+ * background mean while it is in control; its power over that mean, divided by the band's median of
+ * the same ratio (a broadband loudness step scales every bin alike and so cancels), is x, an
+ * exponential variable of mean 1 for noise and 1 + s for a tone at SNR s. Page's one-sided CUSUM
+ * runs on the log-likelihood ratio of mean 1 + s1 against mean 1,
+ * S = max(0, S + x·s1/(1+s1) − ln(1+s1)) (Page 1954; Lorden 1971). Its threshold h is set so that
+ * all bins together give at most one false alarm in FALSE_ALARM_HOURS of toneless noise (Lorden's
+ * bound ARL0 ≥ e^h, scaled by the overlapping frames' variance inflation); the design SNR s1 makes
+ * a tone at it reach h within one e-folding time of the fastest growth (RATE_MAX_PER_S).
  *
- * A CUSUM alarm is an onset only when the rise goes on for longer than the short kernel: over the
- * run since S last left zero (at least one frame length), the later half stands clearly above the
- * earlier half. A step (a line or mains switched on, a loudness change) rises within one kernel
- * and then holds; a knock rises within one kernel and then decays: neither passes, and the bin
- * takes the new level as its background. A growth rises steadily and passes.
+ * A CUSUM alarm is an onset only when the rise goes on for longer than the short kernel: three
+ * consecutive windows of the run step up by similar, significant amounts (isRising). A step (a line
+ * or mains switched on, a loudness change) rises within one kernel and then holds; a knock rises
+ * within one kernel and then decays: neither passes, and the bin takes the new level as its
+ * background. A growth rises steadily and passes.
  *
  * State is allocated once by createLiveOnsetState; stepLiveOnset allocates nothing.
  */
@@ -34,8 +36,13 @@ const FALSE_ALARM_HOURS = 1;
 const RATE_MAX_PER_S = 50;
 /** Least rise between two consecutive windows of a run for an onset, Np (about 1 dB of power). */
 const RISE_MIN_NP = 0.25;
-/** The rise must also exceed this many sd of the difference of the window means. */
-const RISE_Z = 3;
+/**
+ * The rise must also exceed this many standard errors of the difference of the window means. The
+ * CUSUM alarm already holds toneless noise to FALSE_ALARM_HOURS; this test only tells a steady
+ * rise from a step's or a knock's bend: two rises each beyond 2 standard errors (one-sided 2.3 %
+ * each, about 5·10⁻⁴ together for noise) add at most that fraction to the alarms announced.
+ */
+const RISE_Z = 2;
 /** The rises of two consecutive windows agree within this factor (a steady exponential rise). */
 const RISE_RATIO = 2;
 /** An onset bin is the largest within this many bins (a louder tone's skirt rises with it but is no peak). */
