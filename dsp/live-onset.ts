@@ -34,6 +34,16 @@ const WARM_UP_S = 2;
 const FALSE_ALARM_HOURS = 1;
 /** Fastest growth announced within its first e-folds, 1/s: the CUSUM's design shift is set by it (see designSnr). */
 const RATE_MAX_PER_S = 50;
+/**
+ * A rise over one frame length of more than 2·STEP_RATE_FACTOR·RATE_MAX_PER_S·frame nepers of power
+ * (4.8 Np, 21 dB, for a 16 ms frame) marks a step or a knock: a growth at RATE_MAX_PER_S rises
+ * 2·RATE_MAX_PER_S·frame (1.6 Np). The earlier frame is read as no lower than the background, so
+ * noise alone cannot mark it (an exponential power exceeds e^4.8 = 121 times its mean with
+ * probability e^−121); a fast growth's earlier frame reads below its mean by the remaining factor
+ * e^3.2 = 25 only at an SNR under about 1 (probability of a power under 1/25 of its mean ≈ 4 %),
+ * where the later frame cannot yet stand 4.8 Np over the background.
+ */
+const STEP_RATE_FACTOR = 3;
 /** Least rise between two consecutive windows of a run for an onset, Np (about 1 dB of power). */
 const RISE_MIN_NP = 0.25;
 /**
@@ -81,6 +91,10 @@ export interface LiveOnsetState {
   cusum: Float64Array;
   /** Frame at which each bin's CUSUM last left zero. */
   runStart: Float64Array;
+  /** 1 while a bin's run holds a rise over one frame length steeper than any growth (stepNp). */
+  isStepRun: Uint8Array;
+  /** Least rise over one frame length that marks a step, Np (STEP_RATE_FACTOR). */
+  readonly stepNp: number;
   /** Frame until which each bin stays silent after an onset near it. */
   holdUntil: Float64Array;
   /** Log-power over the background per bin, Np (ring of runMax frames, bin-major). */
@@ -177,6 +191,8 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
     mean: new Float64Array(bins),
     cusum: new Float64Array(bins),
     runStart: new Float64Array(bins),
+    isStepRun: new Uint8Array(bins),
+    stepNp: 2 * STEP_RATE_FACTOR * RATE_MAX_PER_S * (n / fs),
     holdUntil: new Float64Array(bins).fill(-1),
     devRing: new Float64Array(bins * runMax),
     scratch: new Float64Array(bins),
@@ -313,13 +329,17 @@ function processFrame(st: LiveOnsetState): void {
     if (s === 0) {
       // In control: the background follows (loudness-corrected).
       st.runStart[b] = frame;
+      st.isStepRun[b] = 0;
       // A plain running mean until the exponential one has as many frames behind it.
       st.mean[b] += Math.max(st.alpha, 1 / (frame + 1)) * (pw - st.mean[b]);
       continue;
     }
+    // A run that rose faster than any growth (a step or a knock entering the frame) is never an onset.
+    const yBefore = st.devRing[b * st.runMax + ((frame - HOPS_PER_FRAME) % st.runMax)];
+    if (frame >= HOPS_PER_FRAME && Math.log(x) - Math.max(0, yBefore) > st.stepNp) st.isStepRun[b] = 1;
     if (s < st.threshold) continue;
     const len = Math.min(frame - st.runStart[b], st.runMax);
-    if (frame >= st.holdUntil[b] && isPeak(st, b) && isRising(st, b, len)) {
+    if (frame >= st.holdUntil[b] && st.isStepRun[b] === 0 && isPeak(st, b) && isRising(st, b, len)) {
       if (st.onsetCount < MAX_ONSETS_PER_STEP) {
         // The change point of the CUSUM: the last frame it stood at zero; its centre is where the rise began.
         const framesBack = frame - st.runStart[b];

@@ -440,6 +440,31 @@ function falseOnsets(): void {
     });
     falseOnsetRow(`steady ${mainsHz} Hz mains hum + 6 harmonics, 5 min, noise steps`, run);
   }
+  // 5 minutes of knocks on a stable duct: every 5–15 s one or two modes (80–900 Hz, the second near
+  // 2.3× the first) struck 25–50 dB over the noise ring down at 8–40 1/s (an impulse response).
+  {
+    const rng = createRng(616);
+    const knocks: { t0: number; f: number[]; a: number[]; d: number[] }[] = [];
+    for (let t = 5; t < 295; t += 5 + 10 * rng.uniform()) {
+      const f1 = 80 + 300 * rng.uniform();
+      const two = rng.uniform() < 0.5;
+      const a1 = 0.001 * 10 ** ((25 + 25 * rng.uniform()) / 20);
+      knocks.push({ t0: t, f: two ? [f1, 2.3 * f1] : [f1], a: two ? [a1, a1 / 3] : [a1], d: two ? [8 + 20 * rng.uniform(), 40] : [8 + 32 * rng.uniform()] });
+    }
+    const run = streamGenerated(fs, 300, (b, start) => {
+      for (let i = 0; i < b.length; i++) {
+        const t = (start + i) / fs;
+        let v = 0.001 * rng.normal();
+        for (const k of knocks) {
+          const u = t - k.t0;
+          if (u < 0 || u > 2) continue;
+          for (let m = 0; m < k.f.length; m++) v += k.a[m] * Math.exp(-k.d[m] * u) * Math.sin(2 * Math.PI * k.f[m] * u);
+        }
+        b[i] = v;
+      }
+    });
+    falseOnsetRow(`knocks on a stable duct, 5 min, ${knocks.length} knocks of one or two modes`, run);
+  }
 }
 
 // ---------------------------------------------------------------------------------------------
