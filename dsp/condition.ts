@@ -1,6 +1,8 @@
 /**
  * Stage 1, input conditioning: anti-aliased decimation by a power of two to an analysis rate that
- * covers the band of interest, DC removal, and clipping detection on the raw input.
+ * covers the band of interest, DC removal, and detection of unusable input on the raw samples:
+ * clipping, and digital silence (runs of exact zeros: a recorder stopped or muted, a dropout, a
+ * file padded with zeros), neither of which is a measurement of the sound.
  *
  * Decimation is a cascade of half-band FIR stages (each halves the rate). Each stage is a
  * Kaiser-windowed sinc whose transition band runs from the top of the band of interest to the
@@ -19,8 +21,16 @@ export const CLIP_LEVEL = 0.999;
 export const CLIP_RUN_SAMPLES = 3;
 /** Clipped stretches closer than this are merged into one span, s. */
 const CLIP_MERGE_S = 0.05;
-/** Most clipped spans kept (a warning says when more occurred). */
+/** Most clipped spans kept (a warning says when more occurred); the same for spans of digital silence. */
 export const CLIP_MAX_SPANS = 2048;
+/**
+ * Exact zeros lasting this long are digital silence, s. A converter with any analogue noise at
+ * or above half a least significant bit gives a zero with probability under 0.7 per sample
+ * (P(|n| < LSB/2) for Gaussian n of 0.5 LSB rms), so 10 ms of zeros (80 samples at 8 kHz) happens
+ * by chance with probability below 0.7^80 ≈ 4e−13; below that noise there is nothing to measure.
+ * Derivation; common practice for dropout detection.
+ */
+const DIGITAL_SILENCE_S = 0.01;
 
 /** Stop-band attenuation of each half-band stage, dB. */
 const STOPBAND_DB = 80;
@@ -62,8 +72,8 @@ export interface ConditionState {
   dcY1: number;
   /** Outputs of the last step (valid up to outCount). */
   out: Float32Array;
-  /** 1 where the input samples that fed this output held clipping. */
-  outClipped: Uint8Array;
+  /** 1 where the input samples that fed this output held clipping or digital silence. */
+  outUnusable: Uint8Array;
   outCount: number;
   /** Peak |x| of the last step's input. */
   peakAbs: number;
@@ -72,15 +82,30 @@ export interface ConditionState {
   inputCount: number;
   /** Current run of full-scale samples. */
   clipRun: number;
-  /** Clipping seen in the output window still being filled. */
+  /** Current run of exact zeros, and the run length that makes digital silence. */
+  zeroRun: number;
+  readonly silenceRunSamples: number;
+  /** Unusable input seen in the output window still being filled. */
   clipCarry: number;
   /** Clipped spans, in input sample time (s), with the time offset of gaps applied. */
-  clipStartS: Float64Array;
-  clipEndS: Float64Array;
-  clipCount: number;
-  clipDropped: number;
+  clips: SpanList;
+  /** Spans of digital silence, likewise. */
+  silences: SpanList;
   /** Offset added to input time by gaps, s. */
   timeOffsetS: number;
+}
+
+/** Stretches of input time, s, merged when closer than CLIP_MERGE_S; at most CLIP_MAX_SPANS kept. */
+export interface SpanList {
+  startS: Float64Array;
+  endS: Float64Array;
+  count: number;
+  /** Stretches that did not fit the list. */
+  dropped: number;
+}
+
+function createSpanList(): SpanList {
+  return { startS: new Float64Array(CLIP_MAX_SPANS), endS: new Float64Array(CLIP_MAX_SPANS), count: 0, dropped: 0 };
 }
 
 /** Zeroth-order modified Bessel function of the first kind, power series (for the Kaiser window). */
@@ -184,34 +209,35 @@ export function createConditionState(cfg: ConditionConfig): ConditionState {
     dcX1: 0,
     dcY1: 0,
     out: new Float32Array(outCap),
-    outClipped: new Uint8Array(outCap),
+    outUnusable: new Uint8Array(outCap),
     outCount: 0,
     peakAbs: 0,
     isClipped: false,
     inputCount: 0,
     clipRun: 0,
+    zeroRun: 0,
+    silenceRunSamples: Math.ceil(DIGITAL_SILENCE_S * fs),
     clipCarry: 0,
-    clipStartS: new Float64Array(CLIP_MAX_SPANS),
-    clipEndS: new Float64Array(CLIP_MAX_SPANS),
-    clipCount: 0,
-    clipDropped: 0,
+    clips: createSpanList(),
+    silences: createSpanList(),
     timeOffsetS: 0,
   };
 }
 
-function recordClippedSample(st: ConditionState, timeS: number, runStartS: number): void {
-  const n = st.clipCount;
-  if (n > 0 && runStartS - st.clipEndS[n - 1] <= CLIP_MERGE_S) {
-    st.clipEndS[n - 1] = timeS;
+/** Extends the list's last span to timeS, or opens a span at runStartS. */
+function recordSpanSample(list: SpanList, timeS: number, runStartS: number): void {
+  const n = list.count;
+  if (n > 0 && runStartS - list.endS[n - 1] <= CLIP_MERGE_S) {
+    list.endS[n - 1] = timeS;
     return;
   }
   if (n >= CLIP_MAX_SPANS) {
-    st.clipDropped++;
+    list.dropped++;
     return;
   }
-  st.clipStartS[n] = runStartS;
-  st.clipEndS[n] = timeS;
-  st.clipCount = n + 1;
+  list.startS[n] = runStartS;
+  list.endS[n] = timeS;
+  list.count = n + 1;
 }
 
 /**
@@ -286,8 +312,11 @@ function runHalfBand(stg: HalfBandStage, n: number, dst: Float64Array, dstAt: nu
   return m - dstAt;
 }
 
-/** Marks the clipped samples of a block (slow path, only for blocks that reach full scale). */
-function scanClipping(st: ConditionState, block: Float32Array): void {
+/**
+ * Marks the unusable samples of a block (slow path, only for blocks that reach full scale or hold
+ * digital silence); zeroRun is the run of zeros before the block.
+ */
+function scanUnusable(st: ConditionState, block: Float32Array, zeroRun: number): void {
   const fs = st.inputRateHz;
   const n = block.length;
   const d = st.decimation;
@@ -302,11 +331,17 @@ function scanClipping(st: ConditionState, block: Float32Array): void {
       st.clipRun++;
       if (st.clipRun >= CLIP_RUN_SAMPLES) {
         const tS = (st.inputCount + i) / fs + st.timeOffsetS;
-        recordClippedSample(st, tS, tS - (st.clipRun - 1) / fs);
+        recordSpanSample(st.clips, tS, tS - (st.clipRun - 1) / fs);
         st.isClipped = true;
         flag = 1;
       }
     } else st.clipRun = 0;
+    zeroRun = x === 0 ? zeroRun + 1 : 0;
+    if (zeroRun >= st.silenceRunSamples) {
+      const tS = (st.inputCount + i) / fs + st.timeOffsetS;
+      recordSpanSample(st.silences, tS, tS - (zeroRun - 1) / fs);
+      flag = 1;
+    }
     if (++phase === d) {
       clip[m++] = flag | st.clipCarry;
       st.clipCarry = 0;
@@ -319,7 +354,7 @@ function scanClipping(st: ConditionState, block: Float32Array): void {
 
 /**
  * Conditions one block (length ≤ CONDITION_MAX_BLOCK): writes the analysis-rate samples into
- * st.out[0 .. st.outCount) and their clipping flags into st.outClipped. Allocates nothing.
+ * st.out[0 .. st.outCount) and their unusable flags into st.outUnusable. Allocates nothing.
  */
 export function stepCondition(st: ConditionState, block: Float32Array): void {
   const n = block.length;
@@ -329,20 +364,26 @@ export function stepCondition(st: ConditionState, block: Float32Array): void {
   const off = first !== null ? first.length - 1 : 0;
   let peak = 0;
   let nonFinite = 0;
+  const zeroRunBefore = st.zeroRun;
+  let zeroRun = zeroRunBefore;
+  let longestZeroRun = zeroRun;
   for (let i = 0; i < n; i++) {
     const x = block[i];
     const ax = x < 0 ? -x : x;
     if (ax > peak) peak = ax;
     nonFinite += x * 0;
+    zeroRun = x === 0 ? zeroRun + 1 : 0;
+    if (zeroRun > longestZeroRun) longestZeroRun = zeroRun;
     a[off + i] = x;
   }
+  st.zeroRun = zeroRun;
   st.peakAbs = peak;
   st.isClipped = false;
-  const mayClip = peak >= CLIP_LEVEL || nonFinite !== 0;
+  const mayClip = peak >= CLIP_LEVEL || nonFinite !== 0 || longestZeroRun >= st.silenceRunSamples;
   if (mayClip) {
     // Non-finite samples are replaced by 0 so the filters stay finite (they count as clipped).
     for (let i = off; i < off + n; i++) if (!(Math.abs(a[i]) <= 1e30)) a[i] = 0;
-    scanClipping(st, block);
+    scanUnusable(st, block, zeroRunBefore);
   } else st.clipRun = 0;
   const carryBefore = st.clipCarry;
 
@@ -360,7 +401,7 @@ export function stepCondition(st: ConditionState, block: Float32Array): void {
     srcAt = dstAt;
   }
   const out = st.out;
-  const outClipped = st.outClipped;
+  const outUnusable = st.outUnusable;
   const r = st.dcR;
   // Gain (1 + r)/2 makes the blocker's response exactly 1 at Nyquist and flat within 0.001 dB
   // across the band (without it the pass band rises by up to (1 − r)/2).
@@ -374,12 +415,12 @@ export function stepCondition(st: ConditionState, block: Float32Array): void {
     y1 = y;
     out[i] = y;
   }
-  if (mayClip) for (let i = 0; i < len; i++) outClipped[i] = st.clipScratch[i];
+  if (mayClip) for (let i = 0; i < len; i++) outUnusable[i] = st.clipScratch[i];
   else {
-    outClipped.fill(0, 0, len);
-    // A clipped input still pending in an unfinished output window marks that output.
+    outUnusable.fill(0, 0, len);
+    // An unusable input still pending in an unfinished output window marks that output.
     if (carryBefore && len > 0) {
-      outClipped[0] = 1;
+      outUnusable[0] = 1;
       st.clipCarry = 0;
     }
   }
@@ -402,4 +443,5 @@ export function gapCondition(st: ConditionState, missingSamples: number): void {
   st.dcX1 = 0;
   st.dcY1 = 0;
   st.clipRun = 0;
+  st.zeroRun = 0;
 }

@@ -10,7 +10,7 @@
  * envelope only up to the centre of the latest spectral frame, so the band background (from that
  * frame) and the envelope describe the same moment.
  */
-import { CONDITION_MAX_BLOCK, createConditionState, gapCondition, stepCondition, type ConditionState } from './condition';
+import { CONDITION_MAX_BLOCK, createConditionState, gapCondition, stepCondition, type ConditionState, type SpanList } from './condition';
 import { groupTones, wideBandIsClear } from './grouping';
 import { breakHistory, createHistory, stepHistory, storeFrame, type History } from './history';
 import { beginLive, collectLive, createLiveState, emitRows, type LiveState } from './live';
@@ -190,7 +190,7 @@ function processConditioned(ps: PipelineState): void {
     const j0 = tb.j;
     stepQuietStore(ps.quiet, x, i, i + k, j0);
     stepSteadyStore(ps.steady, x, i, i + k, j0);
-    const j = stepHistory(hist, x, cond.outClipped, i, i + k, j0, tb.envM);
+    const j = stepHistory(hist, x, cond.outUnusable, i, i + k, j0, tb.envM);
     stepToneEnvelopes(tones, x, i, i + k, j0, tb, hist);
     stepLiveOnset(ps.liveOnset, x, i, i + k);
     for (let q = 0; q < ps.liveOnset.onsetCount; q++) ps.live.onsets.push({ timeS: timeOfJ(tb, ps.liveOnset.onsetJ[q]), frequencyHz: ps.liveOnset.onsetFreqHz[q] });
@@ -289,16 +289,17 @@ function finish(ps: PipelineState): Report {
       fitted.push(fitSegment(tr, segs, i, { isWide, markers: ps.markers, warnings: ps.warnings }));
     }
   }
-  const clipped: ClippedSpan[] = [];
-  for (let i = 0; i < ps.cond.clipCount; i++) clipped.push({ startS: ps.cond.clipStartS[i], endS: ps.cond.clipEndS[i] });
+  const spansOf = (l: SpanList): ClippedSpan[] => Array.from({ length: l.count }, (_, i) => ({ startS: l.startS[i], endS: l.endS[i] }));
   const report = assembleReport({
     sampleRateHz: ps.cfg.sampleRateHz,
     durationS: ps.tb.durationInputSamples / ps.cfg.sampleRateHz,
     grouping,
     fitted,
     noiseDriven: ps.quiet.results,
-    clipped,
-    clipDropped: ps.cond.clipDropped,
+    clipped: spansOf(ps.cond.clips),
+    clipDropped: ps.cond.clips.dropped,
+    silences: spansOf(ps.cond.silences),
+    silenceDropped: ps.cond.silences.dropped,
     bandLimitedToHz: ps.cfg.bandHighHz > ps.cond.bandHighHz ? ps.cond.bandHighHz : null,
     mainsHz: ps.cfg.mainsHz,
     warnings: ps.warnings,

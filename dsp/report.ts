@@ -14,6 +14,14 @@ import { REPORT_VERSION, type ClippedSpan, type Cycle, type Interval, type Noise
 /** Clipped stretches listed one by one in the warnings. */
 const CLIP_WARNINGS_LISTED = 10;
 
+/** Warnings for stretches of unusable input: the first CLIP_WARNINGS_LISTED listed, then counts. */
+function spanWarnings(spans: ClippedSpan[], dropped: number, what: string): string[] {
+  const out = spans.slice(0, CLIP_WARNINGS_LISTED).map((c) => `${what} in ${c.startS.toFixed(2)}–${c.endS.toFixed(2)} s`);
+  if (spans.length > CLIP_WARNINGS_LISTED) out.push(`${what} in ${spans.length - CLIP_WARNINGS_LISTED} more stretches`);
+  if (dropped > 0) out.push(`${dropped} further stretches of ${what} not listed`);
+  return out;
+}
+
 /** Inverse-variance pooled rate of several fits (sd from the half-width of each 95 % interval). */
 function pooledRate(fits: { rate: number; ci: Interval }[]): { rate: number; ci: Interval } | null {
   if (fits.length === 0) return null;
@@ -204,6 +212,9 @@ export interface ReportInput {
   clipped: ClippedSpan[];
   /** Clipped stretches that did not fit the conditioner's list. */
   clipDropped: number;
+  /** Stretches of digital silence (dsp/condition.ts), and those that did not fit the list. */
+  silences: ClippedSpan[];
+  silenceDropped: number;
   /** Top of the analysed band when the sample rate lowered it below the requested one, Hz (else null). */
   bandLimitedToHz: number | null;
   /** Mains frequency for the labels, Hz (0: take it from the steady lines). */
@@ -233,9 +244,10 @@ export function assembleReport(inp: ReportInput): Report {
   const mainsHz = inp.mainsHz > 0 ? inp.mainsHz : detectMainsHz(tones);
   if (inp.bandLimitedToHz !== null) warnings.push(`band limited to ${inp.bandLimitedToHz.toFixed(0)} Hz by the sample rate`);
   const clipped = inp.clipped;
-  const clipWarn = clipped.slice(0, CLIP_WARNINGS_LISTED).map((c) => `clipping in ${c.startS.toFixed(2)}–${c.endS.toFixed(2)} s`);
-  if (clipped.length > CLIP_WARNINGS_LISTED) clipWarn.push(`clipping in ${clipped.length - CLIP_WARNINGS_LISTED} more stretches`);
-  if (inp.clipDropped > 0) clipWarn.push(`${inp.clipDropped} further clipped stretches not listed`);
+  const clipWarn = [
+    ...spanWarnings(clipped, inp.clipDropped, 'clipping'),
+    ...spanWarnings(inp.silences, inp.silenceDropped, 'no signal (digital silence: exact zeros)'),
+  ];
   return {
     reportVersion: REPORT_VERSION,
     sampleRateHz: inp.sampleRateHz,

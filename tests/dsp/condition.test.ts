@@ -12,7 +12,7 @@ function runAll(st: ConditionState, x: Float32Array, block: number): { y: Float3
     stepCondition(st, x.subarray(i, Math.min(x.length, i + block)));
     for (let k = 0; k < st.outCount; k++) {
       y.push(st.out[k]);
-      clip.push(st.outClipped[k]);
+      clip.push(st.outUnusable[k]);
     }
   }
   return { y: Float32Array.from(y), clip: Uint8Array.from(clip) };
@@ -122,10 +122,10 @@ describe('clipping', () => {
     for (let i = Math.round(1.2 * fs); i < Math.round(1.5 * fs); i++) x[i] = Math.max(-1, Math.min(1, 4 * x[i]));
     const st = createConditionState({ sampleRateHz: fs, ...band });
     const { clip } = runAll(st, x, 1000);
-    expect(st.clipCount).toBe(1);
+    expect(st.clips.count).toBe(1);
     // Runs start at full-scale crossings of the first/last overdriven cycle: within one period.
-    expect(Math.abs(st.clipStartS[0] - 1.2)).toBeLessThan(1 / 171);
-    expect(Math.abs(st.clipEndS[0] - 1.5)).toBeLessThan(1 / 171);
+    expect(Math.abs(st.clips.startS[0] - 1.2)).toBeLessThan(1 / 171);
+    expect(Math.abs(st.clips.endS[0] - 1.5)).toBeLessThan(1 / 171);
     const flagged = clip.reduce((a, b) => a + b, 0);
     expect(flagged).toBeGreaterThan(0);
     expect(clip[Math.round(0.5 * 12000)]).toBe(0);
@@ -134,7 +134,7 @@ describe('clipping', () => {
   it('does not flag a loud but unclipped signal', () => {
     const st = createConditionState({ sampleRateHz: fs, ...band });
     runAll(st, sine(fs, 171, 0.95, fs), 1000);
-    expect(st.clipCount).toBe(0);
+    expect(st.clips.count).toBe(0);
   });
 
   it('treats non-finite samples as clipped and keeps the output finite', () => {
@@ -143,7 +143,7 @@ describe('clipping', () => {
     const st = createConditionState({ sampleRateHz: fs, ...band });
     const { y } = runAll(st, x, 4096);
     expect(y.every((v) => Number.isFinite(v))).toBe(true);
-    expect(st.clipCount).toBe(1);
+    expect(st.clips.count).toBe(1);
   });
 
   it('continues clip times across a gap', () => {
@@ -154,7 +154,7 @@ describe('clipping', () => {
     for (let i = 24000; i < 24100; i++) x[i] = 1;
     runAll(st, x, 4096);
     // 1 s of input, 1 s missing, then 0.5 s into the next piece.
-    expect(Math.abs(st.clipStartS[0] - 2.5)).toBeLessThan(1e-3);
+    expect(Math.abs(st.clips.startS[0] - 2.5)).toBeLessThan(1e-3);
   });
 });
 
@@ -171,3 +171,46 @@ describe('block size', () => {
     }
   });
 });
+
+describe('digital silence', () => {
+  const fs = 48000;
+
+  it('flags a run of exact zeros as unusable, whatever the block size, and lists it apart from clipping', () => {
+    // A recorder muted for 0.3 s within a faint tone (−60 dBFS): the zeros carry no measurement
+    // (common practice: dropouts are excluded, not read as a sudden fall of the sound).
+    const x = sine(fs, 171, 1e-3, 2 * fs);
+    for (let i = Math.round(0.8 * fs); i < Math.round(1.1 * fs); i++) x[i] = 0;
+    for (const block of [1000, 4096, 37]) {
+      const st = createConditionState({ sampleRateHz: fs, ...band });
+      const { clip } = runAll(st, x, block);
+      expect(st.clips.count).toBe(0);
+      expect(st.silences.count).toBe(1);
+      // The span opens where the zeros began and closes at the last zero (within a sample).
+      expect(Math.abs(st.silences.startS[0] - 0.8)).toBeLessThan(2 / fs);
+      expect(Math.abs(st.silences.endS[0] - 1.1)).toBeLessThan(2 / fs);
+      const rate = st.outputRateHz;
+      expect(clip[Math.round(1.0 * rate)]).toBe(1);
+      expect(clip[Math.round(0.5 * rate)]).toBe(0);
+      expect(clip[Math.round(1.5 * rate)]).toBe(0);
+    }
+  });
+
+  it('does not flag the zero crossings of a sine or a quiet 16-bit noise floor', () => {
+    // Gaussian noise of 1 LSB rms quantised to 16 bits: a zero about 38 % of the time, runs short.
+    let seed = 5;
+    const rnd = (): number => {
+      seed = (seed * 1103515245 + 12345) % 2147483648;
+      return (seed + 0.5) / 2147483648;
+    };
+    const x = new Float32Array(fs);
+    for (let i = 0; i < x.length; i++) {
+      const g = Math.sqrt(-2 * Math.log(rnd())) * Math.cos(2 * Math.PI * rnd());
+      x[i] = Math.round(g) / 32768;
+    }
+    const st = createConditionState({ sampleRateHz: fs, ...band });
+    runAll(st, x, 4096);
+    runAll(st, sine(fs, 171, 0.5, fs), 4096);
+    expect(st.silences.count).toBe(0);
+  });
+});
+
