@@ -101,8 +101,8 @@ export interface LiveOnsetState {
   devRing: Float64Array;
   scratch: Float64Array;
   winMean: Float64Array;
-  /** Variance inflation of the overlapping frames (overlapInflation). */
-  readonly inflation: number;
+  /** var(m1 − m2) / E[RSS] of the rise test for each window length (riseErrorFactors). */
+  readonly riseFactor: Float64Array;
   frame: number;
   /** Analysis index of the next sample. */
   j: number;
@@ -128,6 +128,64 @@ export function overlapInflation(window: Float64Array, hop: number): number {
     phi += 2 * (c / s0) ** 2;
   }
   return phi;
+}
+
+/** Overlap correlation c_k = Σ w_i w_{i+k·hop} / Σ w_i² of frames k hops apart (Harris 1978), k = 0, 1, …. */
+function overlapCorrelations(window: Float64Array, hop: number): Float64Array {
+  const out = new Float64Array(Math.ceil(window.length / hop));
+  let s0 = 0;
+  for (let i = 0; i < window.length; i++) s0 += window[i] * window[i];
+  for (let k = 0; k < out.length; k++) {
+    let c = 0;
+    for (let i = 0; i + k * hop < window.length; i++) c += window[i] * window[i + k * hop];
+    out[k] = c / s0;
+  }
+  return out;
+}
+
+/**
+ * For each window length W (hops), the factor F with var(m1 − m2) = F·E[RSS]: m1, m2 the means of
+ * two adjacent windows of W hops and RSS the residual sum of squares about the least-squares line
+ * through three such windows, for stationary noise whose correlation between hops k apart is r_k.
+ * E[RSS] = σ²·(n − tr((XᵀX)⁻¹XᵀRX)) for the design X = [1, t] of n = 3W points (any regression
+ * text, e.g. Seber & Lee 2003, "Linear Regression Analysis", §3.3), var(m1 − m2) = σ²·aᵀRa. Two
+ * noise models bracket the log-power of a bin: r_k = c_k² (noise alone: the powers correlate as the
+ * square of the bins) and r_k = c_k (a tone well over the noise: ln|A + n|² ≈ ln A² + 2 Re(n/A) is
+ * linear in the noise); the larger factor is kept. Index 0 and 1 are unused.
+ */
+export function riseErrorFactors(window: Float64Array, hop: number, wMax: number): Float64Array {
+  const c = overlapCorrelations(window, hop);
+  const out = new Float64Array(wMax + 1);
+  for (const power of [1, 2]) {
+    const r = (k: number): number => (k < c.length ? c[k] ** power : 0);
+    for (let w = 2; w <= wMax; w++) {
+      const n = 3 * w;
+      // XᵀRX (entries a = Σ R, b = Σ R·t_j, d = Σ R·t_i·t_j) and aᵀRa, with R banded.
+      let xa = 0;
+      let xb = 0;
+      let xd = 0;
+      let v = 0;
+      for (let i = 0; i < n; i++) {
+        for (let j = Math.max(0, i - c.length + 1); j < Math.min(n, i + c.length); j++) {
+          const rij = r(Math.abs(i - j));
+          xa += rij;
+          xb += rij * j;
+          xd += rij * i * j;
+          const ai = i < w ? 1 / w : i < 2 * w ? -1 / w : 0;
+          const aj = j < w ? 1 / w : j < 2 * w ? -1 / w : 0;
+          v += ai * aj * rij;
+        }
+      }
+      const s1 = n;
+      const st = (n * (n - 1)) / 2;
+      const stt = ((n - 1) * n * (2 * n - 1)) / 6;
+      const det = s1 * stt - st * st;
+      // tr((XᵀX)⁻¹ XᵀRX) with (XᵀX)⁻¹ = [stt, −st; −st, s1]/det.
+      const trHr = (stt * xa - 2 * st * xb + s1 * xd) / det;
+      out[w] = Math.max(out[w], v / (n - trHr));
+    }
+  }
+  return out;
 }
 
 /**
@@ -197,7 +255,7 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
     devRing: new Float64Array(bins * runMax),
     scratch: new Float64Array(bins),
     winMean: new Float64Array(3),
-    inflation,
+    riseFactor: riseErrorFactors(spec.window, hop, Math.floor(runMax / 3)),
     frame: 0,
     j: 0,
     onsetJ: new Float64Array(MAX_ONSETS_PER_STEP),
@@ -238,7 +296,7 @@ function select(a: Float64Array, n: number, k: number): number {
  * standard errors of the difference and RISE_MIN_NP, and within a factor RISE_RATIO of each other.
  * The noise is the scatter about the straight line fitted through the 3W points (a growth is a
  * straight line in log-power; the scatter of a step's or a knock's bend about it counts as
- * noise), its standard error inflated by the overlap of the frames (inflation). The smallest W
+ * noise), its standard error from the overlap correlation of the frames (riseErrorFactors). The smallest W
  * (from half a kernel up to a third of the run) that shows the rise decides: a fast growth shows
  * it in short windows, a slow one in long ones. A step seen through the Hann frame rises within one
  * kernel, front-loaded in log-power, so its rise falls mostly in one window; a knock falls after it.
@@ -271,7 +329,7 @@ function isRising(st: LiveOnsetState, b: number, len: number): boolean {
     const icpt = (sy - slope * st0) / n;
     // Residual sum of squares: Σy² − a·Σy − b·Σty for the least-squares line.
     const rss = Math.max(0, syy - icpt * sy - slope * sty);
-    const seDiff = Math.sqrt((2 * st.inflation * rss) / (n - 2) / w);
+    const seDiff = Math.sqrt(st.riseFactor[w] * rss);
     const need = Math.max(RISE_MIN_NP, RISE_Z * seDiff);
     const d1 = mean[0] - mean[1];
     const d2 = mean[1] - mean[2];

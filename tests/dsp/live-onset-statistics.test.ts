@@ -2,7 +2,7 @@
 // the variance inflation of overlapping Hann frames, the CUSUM threshold from the in-control
 // average run length (Lorden's bound ARL0 ≥ e^h), and the design SNR from the fastest growth.
 import { describe, expect, it } from 'vitest';
-import { designSnr, overlapInflation, thresholdFor } from '../../dsp/live-onset';
+import { designSnr, overlapInflation, riseErrorFactors, thresholdFor } from '../../dsp/live-onset';
 import { createRng } from '../../dsp/synth';
 
 function hann(n: number): Float64Array {
@@ -107,5 +107,75 @@ describe('designSnr', () => {
     expect(s1 - Math.log1p(s1)).toBeCloseTo(h * hopS * 50, 6);
     // Slower design rate, smaller shift.
     expect(designSnr(h, hopS, 10)).toBeLessThan(s1);
+  });
+});
+
+describe('riseErrorFactors', () => {
+  it('gives var(m1 − m2) / E[RSS about the line] of overlapping frames, measured on simulated noise', () => {
+    // Direct simulation (common practice): a bin of Hann frames of white Gaussian noise every hop;
+    // the series is the bin's part in phase with a tone at the bin centre (the log-power
+    // fluctuation of a strong tone is linear in it, correlation c_k) or its power (noise alone, correlation c_k²). For windows of w hops the
+    // variance of the difference of two adjacent window means over the mean residual sum of
+    // squares about the least-squares line through 3w points is the factor.
+    const n = 64;
+    const hop = 16;
+    const w = hann(n);
+    const f = riseErrorFactors(w, hop, 6);
+    const rng = createRng(5);
+    const k = 7;
+    for (const wl of [2, 4]) {
+      const m = 3 * wl;
+      const ratio = [0, 0];
+      const trials = 6000;
+      const x = new Float64Array(n + (m - 1) * hop);
+      const dd = [0, 0];
+      const rs = [0, 0];
+      const y = [new Float64Array(m), new Float64Array(m)];
+      for (let t = 0; t < trials; t++) {
+        for (let i = 0; i < x.length; i++) x[i] = rng.normal();
+        for (let fr = 0; fr < m; fr++) {
+          let re = 0;
+          let im = 0;
+          for (let i = 0; i < n; i++) {
+            re += w[i] * x[fr * hop + i] * Math.cos((2 * Math.PI * k * i) / n);
+            im -= w[i] * x[fr * hop + i] * Math.sin((2 * Math.PI * k * i) / n);
+          }
+          // Referred to the phase of a tone at the bin centre, which advances 2πk·hop/n a hop.
+          const th = (2 * Math.PI * k * fr * hop) / n;
+          y[0][fr] = re * Math.cos(th) + im * Math.sin(th);
+          y[1][fr] = re * re + im * im;
+        }
+        for (let model = 0; model < 2; model++) {
+          const v = y[model];
+          let m1 = 0;
+          let m2 = 0;
+          for (let i = 0; i < wl; i++) {
+            m1 += v[i] / wl;
+            m2 += v[wl + i] / wl;
+          }
+          dd[model] += (m1 - m2) ** 2;
+          // Least-squares line through the m points.
+          let st = 0;
+          let sy = 0;
+          let stt = 0;
+          let sty = 0;
+          for (let i = 0; i < m; i++) {
+            st += i;
+            sy += v[i];
+            stt += i * i;
+            sty += i * v[i];
+          }
+          const b = (m * sty - st * sy) / (m * stt - st * st);
+          const a = (sy - b * st) / m;
+          let rss = 0;
+          for (let i = 0; i < m; i++) rss += (v[i] - a - b * i) ** 2;
+          rs[model] += rss;
+        }
+      }
+      // The power's mean drops out of both (the line absorbs it); its variance scales both alike.
+      for (let model = 0; model < 2; model++) ratio[model] = dd[model] / rs[model];
+      expect(Math.max(ratio[0], ratio[1]), `w ${wl}`).toBeGreaterThan(0.9 * f[wl]);
+      expect(Math.max(ratio[0], ratio[1]), `w ${wl}`).toBeLessThan(1.1 * f[wl]);
+    }
   });
 });
