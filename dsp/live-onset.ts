@@ -57,6 +57,15 @@ const RISE_Z = 2;
 const RISE_RATIO = 2;
 /** An onset bin is the largest within this many bins (a louder tone's skirt rises with it but is no peak). */
 const PEAK_BINS = 2;
+/**
+ * Hops the CUSUM must stand at zero in a row before a new run starts (four frame lengths, 64 ms):
+ * a growth still near the noise has increments of mean 0.9·(1 + s) − 2.3 (s1 ≈ 9), below zero
+ * until its SNR s passes about 1.6, so its sum keeps dropping back to zero for a few hops at a
+ * time; its rise is judged from where it began, not from the latest dip. Before a step there is
+ * only background, where noise lifts the sum off zero in 8 % of hops (e^−2.56), so a run still
+ * starts within a hop or two of the step.
+ */
+const RESTART_HOPS = 4 * HOPS_PER_FRAME;
 /** Longest run examined, s: a rise that has not shown itself as a growth by then is a new level. */
 const RUN_MAX_S = 1.2;
 /** After an onset, bins within this many bins of it (and of its harmonics) stay silent this long, s. */
@@ -89,8 +98,11 @@ export interface LiveOnsetState {
   /** Background mean power of each bin (in control), spectrum units. */
   mean: Float64Array;
   cusum: Float64Array;
-  /** Frame at which each bin's CUSUM last left zero. */
+  /** Frame at which each bin's run began: the CUSUM's last zero after a whole frame length at zero. */
   runStart: Float64Array;
+  /** Hops each bin's CUSUM has stood at zero in a row, and the last frame it stood at zero. */
+  zeroHops: Int32Array;
+  lastZero: Float64Array;
   /** 1 while a bin's run holds a rise over one frame length steeper than any growth (stepNp). */
   isStepRun: Uint8Array;
   /** Least rise over one frame length that marks a step, Np (STEP_RATE_FACTOR). */
@@ -249,6 +261,8 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
     mean: new Float64Array(bins),
     cusum: new Float64Array(bins),
     runStart: new Float64Array(bins),
+    zeroHops: new Int32Array(bins),
+    lastZero: new Float64Array(bins),
     isStepRun: new Uint8Array(bins),
     stepNp: 2 * STEP_RATE_FACTOR * RATE_MAX_PER_S * (n / fs),
     holdUntil: new Float64Array(bins).fill(-1),
@@ -384,10 +398,15 @@ function processFrame(st: LiveOnsetState): void {
     // a skirt that fades), instead of testing noise for as long as a huge sum takes to drain.
     const s = isWarm ? Math.min(st.threshold, Math.max(0, st.cusum[b] + st.slope * x - st.offset)) : 0;
     st.cusum[b] = s;
+    if (s > 0) st.zeroHops[b] = 0;
     if (s === 0) {
-      // In control: the background follows (loudness-corrected).
-      st.runStart[b] = frame;
-      st.isStepRun[b] = 0;
+      // In control: the background follows (loudness-corrected). A run starts afresh only after
+      // RESTART_HOPS at zero (see there).
+      st.lastZero[b] = frame;
+      if (++st.zeroHops[b] >= RESTART_HOPS) {
+        st.runStart[b] = frame;
+        st.isStepRun[b] = 0;
+      }
       // A plain running mean until the exponential one has as many frames behind it.
       st.mean[b] += Math.max(st.alpha, 1 / (frame + 1)) * (pw - st.mean[b]);
       continue;
@@ -400,7 +419,7 @@ function processFrame(st: LiveOnsetState): void {
     if (frame >= st.holdUntil[b] && st.isStepRun[b] === 0 && isPeak(st, b) && isRising(st, b, len)) {
       if (st.onsetCount < MAX_ONSETS_PER_STEP) {
         // The change point of the CUSUM: the last frame it stood at zero; its centre is where the rise began.
-        const framesBack = frame - st.runStart[b];
+        const framesBack = frame - st.lastZero[b];
         st.onsetJ[st.onsetCount] = st.j - spec.frameSize / 2 - framesBack * spec.hopSize;
         st.onsetFreqHz[st.onsetCount] = (st.loBin + b) * spec.binHz;
         st.onsetCount++;
@@ -438,4 +457,6 @@ export function gapLiveOnset(st: LiveOnsetState, jNext: number): void {
   st.j = jNext;
   st.cusum.fill(0);
   st.runStart.fill(st.frame);
+  st.zeroHops.fill(0);
+  st.lastZero.fill(st.frame);
 }
