@@ -9,8 +9,10 @@
  * 1b. Simulated rigs (dsp/rig-sim.ts): the analyser's growth rate on the two demo scenarios over
  *    seeds, against the linear rate from the characteristic equation, and its interval coverage.
  * 2. Onset: how long after the tone rises 6 dB above the noise floor in a 10 Hz band around it the
- *    streaming analysis announces the onset, in e-folding times; false onsets on toneless noise
- *    with ±10 dB loudness steps and on steady 50/60 Hz mains hum with harmonics.
+ *    streaming analysis announces the onset, in e-folding times; false onsets (in the report and
+ *    announced live) on toneless noise with ±10 dB loudness steps, on steady 50/60 Hz mains hum
+ *    with harmonics and on knocks (one or two modes ringing down); live announcement over the band
+ *    (short-frame detector, dsp/live-onset.ts) at 3–50 1/s.
  * 2d. Hour-long records of hum cycles with varied gaps and a drifting frequency: cycles found, and
  *    each cycle's rate errors against its own Cramér–Rao bound (dsp/cli/bench-cycles.ts).
  * 3. Speed on one thread (48 kHz mono): audio seconds per wall second, the ratio to a bare fft.js
