@@ -107,8 +107,20 @@ export interface LiveOnsetState {
   isStepRun: Uint8Array;
   /** Least rise over one frame length that marks a step, Np (STEP_RATE_FACTOR). */
   readonly stepNp: number;
-  /** Frame until which each bin stays silent after an onset near it. */
+  /**
+   * Background mean power of each bin before a rise took its mean over (an onset, or a new level
+   * taken as background); 0 when none. The bin returns to it when its recent power falls below it.
+   */
+  floor: Float64Array;
+  /**
+   * Power of each bin averaged over about RESTART_HOPS hops (exponentially): a tone still a few dB
+   * over the noise keeps it above the floor, noise alone brings it below within a few such spans.
+   */
+  recent: Float64Array;
+  /** Frame until which each bin stays silent after an onset at a fundamental of it. */
   holdUntil: Float64Array;
+  /** Bin of an onset whose return to its floor ends this bin's silence (−1: none). */
+  heldBy: Int32Array;
   /** Log-power over the background per bin, Np (ring of runMax frames, bin-major). */
   devRing: Float64Array;
   scratch: Float64Array;
@@ -265,7 +277,10 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
     lastZero: new Float64Array(bins),
     isStepRun: new Uint8Array(bins),
     stepNp: 2 * STEP_RATE_FACTOR * RATE_MAX_PER_S * (n / fs),
+    floor: new Float64Array(bins),
+    recent: new Float64Array(bins),
     holdUntil: new Float64Array(bins).fill(-1),
+    heldBy: new Int32Array(bins).fill(-1),
     devRing: new Float64Array(bins * runMax),
     scratch: new Float64Array(bins),
     winMean: new Float64Array(3),
@@ -360,6 +375,12 @@ function isPeak(st: LiveOnsetState, b: number): boolean {
   return true;
 }
 
+/**
+ * After an onset in bin b: the bins of the tone itself (within HOLD_BINS: its skirt and sidelobes)
+ * stay silent until b's power falls back to the background it had before the onset (the hum has
+ * gone: a new cycle may follow at once); its harmonics' bins stay silent for HOLD_S (a harmonic
+ * grows with the tone).
+ */
 function silenceAround(st: LiveOnsetState, b: number, until: number): void {
   const bins = st.hiBin - st.loBin + 1;
   const f = st.loBin + b;
@@ -367,10 +388,17 @@ function silenceAround(st: LiveOnsetState, b: number, until: number): void {
     const c = h * f - st.loBin;
     if (c - HOLD_BINS >= bins) break;
     for (let q = Math.max(0, c - HOLD_BINS); q <= Math.min(bins - 1, c + HOLD_BINS); q++) {
-      st.holdUntil[q] = until;
+      if (h === 1) st.heldBy[q] = b;
+      else st.holdUntil[q] = Math.max(st.holdUntil[q], until);
       st.cusum[q] = 0;
     }
   }
+  keepFloor(st, b);
+}
+
+/** Remembers bin q's background before a rise takes over its mean (once per rise). */
+function keepFloor(st: LiveOnsetState, q: number): void {
+  if (st.floor[q] === 0) st.floor[q] = st.mean[q];
 }
 
 function processFrame(st: LiveOnsetState): void {
@@ -390,6 +418,14 @@ function processFrame(st: LiveOnsetState): void {
   const common = select(st.scratch, bins, bins >> 1) / Math.LN2;
   for (let b = 0; b < bins; b++) {
     const pw = (p[st.loBin + b] + 1e-30) / common;
+    st.recent[b] += (pw - st.recent[b]) / RESTART_HOPS;
+    if (st.floor[b] > 0 && st.recent[b] < st.floor[b]) {
+      // Back at the background it had before a rise (a hum or a line has gone): it is the
+      // background again, and a tone held silent since its onset may be announced anew.
+      st.mean[b] = Math.min(st.mean[b], st.floor[b]);
+      st.floor[b] = 0;
+      for (let q = Math.max(0, b - HOLD_BINS); q <= Math.min(bins - 1, b + HOLD_BINS); q++) if (st.heldBy[q] === b) st.heldBy[q] = -1;
+    }
     const x = pw / st.mean[b];
     st.devRing[b * st.runMax + (frame % st.runMax)] = Math.log(x);
     // No run starts before the background has settled.
@@ -416,7 +452,7 @@ function processFrame(st: LiveOnsetState): void {
     if (frame >= HOPS_PER_FRAME && Math.log(x) - Math.max(0, yBefore) > st.stepNp) st.isStepRun[b] = 1;
     if (s < st.threshold) continue;
     const len = Math.min(frame - st.runStart[b], st.runMax);
-    if (frame >= st.holdUntil[b] && st.isStepRun[b] === 0 && isPeak(st, b) && isRising(st, b, len)) {
+    if (frame >= st.holdUntil[b] && st.heldBy[b] < 0 && st.isStepRun[b] === 0 && isPeak(st, b) && isRising(st, b, len)) {
       if (st.onsetCount < MAX_ONSETS_PER_STEP) {
         // The change point of the CUSUM: the last frame it stood at zero; its centre is where the rise began.
         const framesBack = frame - st.lastZero[b];
@@ -426,7 +462,9 @@ function processFrame(st: LiveOnsetState): void {
       }
       silenceAround(st, b, frame + Math.round(HOLD_S / st.hopS));
     } else if (len >= st.runMax) {
-      // A rise that never showed itself as a growth is a new level: the bin takes it as background.
+      // A rise that never showed itself as a growth is a new level: the bin takes it as background
+      // until its power falls back to the one before.
+      keepFloor(st, b);
       st.mean[b] = pw;
       st.cusum[b] = 0;
       st.runStart[b] = frame;

@@ -48,6 +48,33 @@ describe('live onsets over the band', () => {
     }
   });
 
+  it('announce every cycle of a hum that returns after quiet gaps of 0.5–5 s, its frequency drifting ±3 %', () => {
+    // A train of cycles (growth 10 1/s from 1e-4 to 0.2, 1 s steady, decay 15 1/s for 0.6 s): each
+    // cycle is an onset of its own, announced once, after it starts and before it reaches its limit.
+    const rng = createRng(8);
+    const tones: ToneSpec[] = [];
+    const onsets: number[] = [];
+    let t = 3;
+    for (const gap of [0.5, 5, 1, 3, 0.7, 2]) {
+      const on = t;
+      const riseS = Math.log(0.2 / 1e-4) / 10;
+      const off = on + riseS + 1;
+      const end = off + 0.6;
+      const env = humCycleEnvelope({ onsetS: on, startAmplitude: 1e-4, growthPerS: 10, limitAmplitude: 0.2, offS: off, decayPerS: 15 });
+      tones.push({ frequencyHz: 173 * (1 + 0.06 * (rng.uniform() - 0.5)), envelope: (s) => (s < end ? env(s) : 0) });
+      onsets.push(on);
+      t = end + gap;
+    }
+    const x = synthesize({ sampleRateHz: FS, durationS: t + 1, tones, noiseRms: 0.002, seed: 12 });
+    const { live } = run(x);
+    expect(live).toHaveLength(onsets.length);
+    const riseS = Math.log(0.2 / 1e-4) / 10;
+    for (let c = 0; c < onsets.length; c++) {
+      expect(live[c].timeS, `cycle ${c}`).toBeGreaterThan(onsets[c]);
+      expect(live[c].atS, `cycle ${c}`).toBeLessThan(onsets[c] + riseS);
+    }
+  });
+
   it('announce no knock of one or two modes, live or in the report (an impulse response is no onset)', () => {
     const rng = createRng(31);
     for (let c = 0; c < 6; c++) {
