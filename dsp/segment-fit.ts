@@ -209,8 +209,11 @@ function fitGrowthSegment(out: FittedSegment, segs: RegimeSegment[], i: number, 
   }
   w1 = contiguousEnd(tr, seg.startIdx, w1 - seg.startIdx, w1);
   const opts = Number.isFinite(bg) && bg > 0 ? { backgroundPower: bg } : {};
+  // A rise that turned over into a decay (the driving went off) may have bent into its limit
+  // first: its fit chooses between saturation and exponential as a rise into a steady level does.
+  const intoDecay = next !== null && next.state === STATE_DECAY && next.startIdx === seg.endIdx;
   let fit: RateFit;
-  if (intoSteady) fit = fitGrowthIntoSteady(out, w0, w1, opts, isWide);
+  if (intoSteady || intoDecay) fit = fitGrowthIntoSteady(out, w0, w1, opts, isWide);
   else {
     const series = buildSeries(tr, w0, w1, isWide);
     fit = fitExponential(series, { ...opts, refTimeS: series.timeS.length > 0 ? series.timeS[0] : report.startS });
