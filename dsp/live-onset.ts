@@ -1,20 +1,22 @@
 /**
- * Live onset detector (docs/REFERENCES.md §30): a second, short-frame sequential test that
- * announces a hum while it grows, without waiting for the long analysis frame to confirm a tone.
+ * Live onset detector (docs/REFERENCES.md §30, §45), the one source of live onsets: a short-frame
+ * sequential test that announces a hum while it grows, without waiting for the long analysis frame.
  *
- * Every hop of a short Hann frame gives the log-power y of each bin of the band. Each bin keeps a
- * running background (mean and variance of y while the bin is in control); the deviation
- * d = y − mean, less the median deviation over the band (a broadband loudness step moves every bin
- * alike and so cancels), is standardised and fed to Page's one-sided CUSUM
- * S = max(0, S + d/σ − k) (Page 1954). Its threshold h comes from the background statistics: the
- * average run length to a false alarm (Siegmund's approximation) is set so that all bins together
- * give one false alarm in FALSE_ALARM_HOURS of toneless noise.
+ * Every hop of a short Hann frame gives the power of each bin of the band. Each bin keeps a running
+ * background mean while it is in control; its power over that mean, divided by the band's median of
+ * the same ratio (a broadband loudness step scales every bin alike and so cancels), is x, an
+ * exponential variable of mean 1 for noise and 1 + s for a tone at SNR s. Page's one-sided CUSUM
+ * runs on the log-likelihood ratio of mean 1 + s1 against mean 1,
+ * S = max(0, S + x·s1/(1+s1) − ln(1+s1)) (Page 1954; Lorden 1971). Its threshold h is set so that
+ * all bins together give at most one false alarm in FALSE_ALARM_HOURS of toneless noise (Lorden's
+ * bound ARL0 ≥ e^h, scaled by the overlapping frames' variance inflation); the design SNR s1 makes
+ * a tone at it reach h within one e-folding time of the fastest growth (RATE_MAX_PER_S).
  *
- * A CUSUM alarm is an onset only when the rise goes on for longer than the short kernel: over the
- * run since S last left zero (at least one frame length), the later half stands clearly above the
- * earlier half. A step (a line or mains switched on, a loudness change) rises within one kernel
- * and then holds; a knock rises within one kernel and then decays: neither passes, and the bin
- * takes the new level as its background. A growth rises steadily and passes.
+ * A CUSUM alarm is an onset only when the rise goes on for longer than the short kernel: three
+ * consecutive windows of the run step up by similar, significant amounts (isRising). A step (a line
+ * or mains switched on, a loudness change) rises within one kernel and then holds; a knock rises
+ * within one kernel and then decays: neither passes, and the bin takes the new level as its
+ * background. A growth rises steadily and passes.
  *
  * State is allocated once by createLiveOnsetState; stepLiveOnset allocates nothing.
  */
@@ -26,34 +28,52 @@ const FRAME_S = 0.016;
 const HOPS_PER_FRAME = 4;
 /** Background time constant, s: long against a growth's rise, short against a session. */
 const BACKGROUND_S = 3;
-/** Warm-up before any alarm, s: the background mean and variance need a few hundred frames. */
+/** Warm-up before any alarm, s: the background means need a few hundred frames. */
 const WARM_UP_S = 2;
-/** CUSUM reference value k, in background sd: half the shift it is tuned to (Page 1954), 2 sd (about 11 dB of log-power): a growing tone soon stands several sd up. */
-const CUSUM_K = 1;
-/** All bins together give one false CUSUM alarm in this many hours of toneless noise. */
+/** All bins together give at most one false CUSUM alarm in this many hours of toneless noise. */
 const FALSE_ALARM_HOURS = 1;
+/** Fastest growth announced within its first e-folds, 1/s: the CUSUM's design shift is set by it (see designSnr). */
+const RATE_MAX_PER_S = 50;
 /**
- * Least background sd of log-power, Np: a strong steady line barely fluctuates, and level drifts
- * under about 1 dB (0.23 Np) must not count as shifts of many sd.
+ * A rise over one frame length of more than 2·STEP_RATE_FACTOR·RATE_MAX_PER_S·frame nepers of power
+ * (4.8 Np, 21 dB, for a 16 ms frame) marks a step or a knock: a growth at RATE_MAX_PER_S rises
+ * 2·RATE_MAX_PER_S·frame (1.6 Np). The earlier frame is read as no lower than the background, so
+ * noise alone cannot mark it (an exponential power exceeds e^4.8 = 121 times its mean with
+ * probability e^−121); a fast growth's earlier frame reads below its mean by the remaining factor
+ * e^3.2 = 25 only at an SNR under about 1 (probability of a power under 1/25 of its mean ≈ 4 %),
+ * where the later frame cannot yet stand 4.8 Np over the background.
  */
-const SIGMA_MIN_NP = 0.25;
+const STEP_RATE_FACTOR = 3;
 /** Least rise between two consecutive windows of a run for an onset, Np (about 1 dB of power). */
 const RISE_MIN_NP = 0.25;
-/** The rise must also exceed this many sd of the difference of the window means. */
-const RISE_Z = 3;
+/**
+ * The rise must also exceed this many standard errors of the difference of the window means. The
+ * CUSUM alarm already holds toneless noise to FALSE_ALARM_HOURS; this test only tells a steady
+ * rise from a step's or a knock's bend: two rises each beyond 2 standard errors (one-sided 2.3 %
+ * each, about 5·10⁻⁴ together for noise) add at most that fraction to the alarms announced.
+ */
+const RISE_Z = 2;
 /** The rises of two consecutive windows agree within this factor (a steady exponential rise). */
 const RISE_RATIO = 2;
 /** An onset bin is the largest within this many bins (a louder tone's skirt rises with it but is no peak). */
 const PEAK_BINS = 2;
+/**
+ * Hops the CUSUM must stand at zero in a row before a new run starts (four frame lengths, 64 ms):
+ * a growth still near the noise has increments of mean 0.9·(1 + s) − 2.3 (s1 ≈ 9), below zero
+ * until its SNR s passes about 1.6, so its sum keeps dropping back to zero for a few hops at a
+ * time; its rise is judged from where it began, not from the latest dip. Before a step there is
+ * only background, where noise lifts the sum off zero in 8 % of hops (e^−2.56), so a run still
+ * starts within a hop or two of the step.
+ */
+const RESTART_HOPS = 4 * HOPS_PER_FRAME;
 /** Longest run examined, s: a rise that has not shown itself as a growth by then is a new level. */
 const RUN_MAX_S = 1.2;
 /** After an onset, bins within this many bins of it (and of its harmonics) stay silent this long, s. */
 const HOLD_BINS = 3;
 const HOLD_S = 3;
 const MAX_HARMONIC = 10;
-/** Most onsets announced by one step, and most announcements remembered for de-duplication. */
+/** Most onsets announced by one step. */
 const MAX_ONSETS_PER_STEP = 8;
-const RECENT_CAPACITY = 16;
 
 export interface LiveOnsetConfig {
   /** Rate of the conditioned samples, Hz. */
@@ -67,23 +87,46 @@ export interface LiveOnsetState {
   readonly loBin: number;
   readonly hiBin: number;
   readonly hopS: number;
-  /** CUSUM threshold h, in background sd (from the false-alarm rate). */
+  /** CUSUM threshold h, nats of log-likelihood ratio (thresholdFor). */
   readonly threshold: number;
+  /** Design SNR s1 of the CUSUM (designSnr): increment x·s1/(1+s1) − ln(1+s1). */
+  readonly slope: number;
+  readonly offset: number;
   readonly alpha: number;
   readonly warmFrames: number;
   readonly runMax: number;
+  /** Background mean power of each bin (in control), spectrum units. */
   mean: Float64Array;
-  variance: Float64Array;
   cusum: Float64Array;
-  /** Frame at which each bin's CUSUM last left zero. */
+  /** Frame at which each bin's run began: the CUSUM's last zero after a whole frame length at zero. */
   runStart: Float64Array;
-  /** Frame until which each bin stays silent after an onset near it. */
+  /** Hops each bin's CUSUM has stood at zero in a row, and the last frame it stood at zero. */
+  zeroHops: Int32Array;
+  lastZero: Float64Array;
+  /** 1 while a bin's run holds a rise over one frame length steeper than any growth (stepNp). */
+  isStepRun: Uint8Array;
+  /** Least rise over one frame length that marks a step, Np (STEP_RATE_FACTOR). */
+  readonly stepNp: number;
+  /**
+   * Background mean power of each bin before a rise took its mean over (an onset, or a new level
+   * taken as background); 0 when none. The bin returns to it when its recent power falls below it.
+   */
+  floor: Float64Array;
+  /**
+   * Power of each bin averaged over about RESTART_HOPS hops (exponentially): a tone still a few dB
+   * over the noise keeps it above the floor, noise alone brings it below within a few such spans.
+   */
+  recent: Float64Array;
+  /** Frame until which each bin stays silent after an onset at a fundamental of it. */
   holdUntil: Float64Array;
-  /** Deviation history per bin (ring of runMax frames, bin-major). */
+  /** Bin of an onset whose return to its floor ends this bin's silence (−1: none). */
+  heldBy: Int32Array;
+  /** Log-power over the background per bin, Np (ring of runMax frames, bin-major). */
   devRing: Float64Array;
   scratch: Float64Array;
   winMean: Float64Array;
-  winVar: Float64Array;
+  /** var(m1 − m2) / E[RSS] of the rise test for each window length (riseErrorFactors). */
+  readonly riseFactor: Float64Array;
   frame: number;
   /** Analysis index of the next sample. */
   j: number;
@@ -91,27 +134,108 @@ export interface LiveOnsetState {
   onsetJ: Float64Array;
   onsetFreqHz: Float64Array;
   onsetCount: number;
-  /** Announcements of any source in the last HOLD_S (ring): time, s, and frequency, Hz. */
-  recentTimeS: Float64Array;
-  recentFreqHz: Float64Array;
-  recentPos: number;
 }
 
 /**
- * Threshold h of a one-sided CUSUM with reference k for a given in-control average run length
- * (steps), by Siegmund's approximation ARL0 ≈ (e^{2k b} − 2k b − 1)/(2k²), b = h + 1.166
- * (REFERENCES.md §30), solved by bisection.
+ * Variance inflation φ = 1 + 2 Σ_k ρ_k of a sum of frame powers of white noise taken every `hop`
+ * samples through `window`: ρ_k = (Σ w_i w_{i+k·hop})² / (Σ w_i²)² is the correlation of the
+ * powers of two frames k hops apart (the squared correlation of their complex bins for Gaussian
+ * noise; Harris 1978 tabulates the amplitude overlap correlation, 0.167 for Hann at 50 %).
  */
-export function cusumThreshold(k: number, arl0: number): number {
-  const arl = (h: number): number => {
-    const b = 2 * k * (h + 1.166);
-    return (Math.exp(b) - b - 1) / (2 * k * k);
-  };
+export function overlapInflation(window: Float64Array, hop: number): number {
+  let s0 = 0;
+  for (let i = 0; i < window.length; i++) s0 += window[i] * window[i];
+  let phi = 1;
+  for (let k = 1; k * hop < window.length; k++) {
+    let c = 0;
+    for (let i = 0; i + k * hop < window.length; i++) c += window[i] * window[i + k * hop];
+    phi += 2 * (c / s0) ** 2;
+  }
+  return phi;
+}
+
+/** Overlap correlation c_k = Σ w_i w_{i+k·hop} / Σ w_i² of frames k hops apart (Harris 1978), k = 0, 1, …. */
+function overlapCorrelations(window: Float64Array, hop: number): Float64Array {
+  const out = new Float64Array(Math.ceil(window.length / hop));
+  let s0 = 0;
+  for (let i = 0; i < window.length; i++) s0 += window[i] * window[i];
+  for (let k = 0; k < out.length; k++) {
+    let c = 0;
+    for (let i = 0; i + k * hop < window.length; i++) c += window[i] * window[i + k * hop];
+    out[k] = c / s0;
+  }
+  return out;
+}
+
+/**
+ * For each window length W (hops), the factor F with var(m1 − m2) = F·E[RSS]: m1, m2 the means of
+ * two adjacent windows of W hops and RSS the residual sum of squares about the least-squares line
+ * through three such windows, for stationary noise whose correlation between hops k apart is r_k.
+ * E[RSS] = σ²·(n − tr((XᵀX)⁻¹XᵀRX)) for the design X = [1, t] of n = 3W points (any regression
+ * text, e.g. Seber & Lee 2003, "Linear Regression Analysis", §3.3), var(m1 − m2) = σ²·aᵀRa. Two
+ * noise models bracket the log-power of a bin: r_k = c_k² (noise alone: the powers correlate as the
+ * square of the bins) and r_k = c_k (a tone well over the noise: ln|A + n|² ≈ ln A² + 2 Re(n/A) is
+ * linear in the noise); the larger factor is kept. Index 0 and 1 are unused.
+ */
+export function riseErrorFactors(window: Float64Array, hop: number, wMax: number): Float64Array {
+  const c = overlapCorrelations(window, hop);
+  const out = new Float64Array(wMax + 1);
+  for (const power of [1, 2]) {
+    const r = (k: number): number => (k < c.length ? c[k] ** power : 0);
+    for (let w = 2; w <= wMax; w++) {
+      const n = 3 * w;
+      // XᵀRX (entries a = Σ R, b = Σ R·t_j, d = Σ R·t_i·t_j) and aᵀRa, with R banded.
+      let xa = 0;
+      let xb = 0;
+      let xd = 0;
+      let v = 0;
+      for (let i = 0; i < n; i++) {
+        for (let j = Math.max(0, i - c.length + 1); j < Math.min(n, i + c.length); j++) {
+          const rij = r(Math.abs(i - j));
+          xa += rij;
+          xb += rij * j;
+          xd += rij * i * j;
+          const ai = i < w ? 1 / w : i < 2 * w ? -1 / w : 0;
+          const aj = j < w ? 1 / w : j < 2 * w ? -1 / w : 0;
+          v += ai * aj * rij;
+        }
+      }
+      const s1 = n;
+      const st = (n * (n - 1)) / 2;
+      const stt = ((n - 1) * n * (2 * n - 1)) / 6;
+      const det = s1 * stt - st * st;
+      // tr((XᵀX)⁻¹ XᵀRX) with (XᵀX)⁻¹ = [stt, −st; −st, s1]/det.
+      const trHr = (stt * xa - 2 * st * xb + s1 * xd) / det;
+      out[w] = Math.max(out[w], v / (n - trHr));
+    }
+  }
+  return out;
+}
+
+/**
+ * Threshold h (nats) of Page's CUSUM on log-likelihood-ratio increments for an in-control average
+ * run length of arl0 steps (REFERENCES.md §45): ARL0 ≥ e^h for independent increments (Lorden
+ * 1971), and increments correlated with variance inflation φ behave as independent ones scaled
+ * by φ (diffusion approximation, Siegmund 1985), so h = φ·ln ARL0.
+ */
+export function thresholdFor(arl0: number, inflation: number): number {
+  return inflation * Math.log(arl0);
+}
+
+/**
+ * Design SNR s1 (tone power over the bin's noise) of the CUSUM (REFERENCES.md §45): the increment
+ * x·s1/(1+s1) − ln(1+s1) is the log-likelihood ratio of an exponential power of mean 1+s1 against
+ * mean 1, whose expectation at the design SNR is KL = s1 − ln(1+s1). s1 is chosen so that a tone
+ * at it reaches h within the hops of one e-folding time of the fastest growth: KL = h·hopS·rateMax
+ * (a growing tone's evidence comes mostly from its latest e-fold). Solved by bisection.
+ */
+export function designSnr(threshold: number, hopS: number, rateMaxPerS: number): number {
+  const kl = threshold * hopS * rateMaxPerS;
   let lo = 0;
-  let hi = 200;
-  for (let i = 0; i < 100; i++) {
+  let hi = 1e6;
+  for (let i = 0; i < 200; i++) {
     const mid = 0.5 * (lo + hi);
-    if (arl(mid) < arl0) lo = mid;
+    if (mid - Math.log1p(mid) < kl) lo = mid;
     else hi = mid;
   }
   return 0.5 * (lo + hi);
@@ -131,33 +255,41 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
   const hopS = hop / fs;
   // One false alarm per FALSE_ALARM_HOURS over all bins: per-bin ARL0 = bins × hops per period.
   const arl0 = (bins * FALSE_ALARM_HOURS * 3600) / hopS;
+  const inflation = overlapInflation(spec.window, hop);
+  const threshold = thresholdFor(arl0, inflation);
+  const s1 = designSnr(threshold, hopS, RATE_MAX_PER_S);
   const runMax = Math.max(2 * HOPS_PER_FRAME, Math.round(RUN_MAX_S / hopS));
   return {
     spec,
     loBin,
     hiBin,
     hopS,
-    threshold: cusumThreshold(CUSUM_K, arl0),
+    threshold,
+    slope: s1 / (1 + s1),
+    offset: Math.log1p(s1),
     alpha: hopS / BACKGROUND_S,
     warmFrames: Math.round(WARM_UP_S / hopS),
     runMax,
     mean: new Float64Array(bins),
-    variance: new Float64Array(bins),
     cusum: new Float64Array(bins),
     runStart: new Float64Array(bins),
+    zeroHops: new Int32Array(bins),
+    lastZero: new Float64Array(bins),
+    isStepRun: new Uint8Array(bins),
+    stepNp: 2 * STEP_RATE_FACTOR * RATE_MAX_PER_S * (n / fs),
+    floor: new Float64Array(bins),
+    recent: new Float64Array(bins),
     holdUntil: new Float64Array(bins).fill(-1),
+    heldBy: new Int32Array(bins).fill(-1),
     devRing: new Float64Array(bins * runMax),
     scratch: new Float64Array(bins),
     winMean: new Float64Array(3),
-    winVar: new Float64Array(3),
+    riseFactor: riseErrorFactors(spec.window, hop, Math.floor(runMax / 3)),
     frame: 0,
     j: 0,
     onsetJ: new Float64Array(MAX_ONSETS_PER_STEP),
     onsetFreqHz: new Float64Array(MAX_ONSETS_PER_STEP),
     onsetCount: 0,
-    recentTimeS: new Float64Array(RECENT_CAPACITY).fill(-Infinity),
-    recentFreqHz: new Float64Array(RECENT_CAPACITY),
-    recentPos: 0,
   };
 }
 
@@ -188,35 +320,51 @@ function select(a: Float64Array, n: number, k: number): number {
 }
 
 /**
- * True when bin b's deviation rose steadily over the run: three consecutive windows of W hops
- * (W ≥ half a kernel, a third of the run) whose means m3 < m2 < m1 step up by d2 = m2 − m3 and
- * d1 = m1 − m2, each more than RISE_Z sd of the difference and RISE_MIN_NP, and within a factor
- * RISE_RATIO of each other (a growth rises by the same amount in equal times; the rise of a step
- * seen through the Hann frame lasts one kernel and is front-loaded in log-power, so it falls
- * mostly in one window; a knock falls after it).
+ * True when bin b's log-power rose steadily over the last 3W hops: three consecutive windows of W
+ * hops whose means m3 < m2 < m1 step up by d2 = m2 − m3 and d1 = m1 − m2, each more than RISE_Z
+ * standard errors of the difference and RISE_MIN_NP, and within a factor RISE_RATIO of each other.
+ * The noise is the scatter about the straight line fitted through the 3W points (a growth is a
+ * straight line in log-power; the scatter of a step's or a knock's bend about it counts as
+ * noise), its standard error from the overlap correlation of the frames (riseErrorFactors). The smallest W
+ * (from half a kernel up to a third of the run) that shows the rise decides: a fast growth shows
+ * it in short windows, a slow one in long ones. A step seen through the Hann frame rises within one
+ * kernel, front-loaded in log-power, so its rise falls mostly in one window; a knock falls after it.
  */
 function isRising(st: LiveOnsetState, b: number, len: number): boolean {
-  const w = Math.max(HOPS_PER_FRAME >> 1, Math.floor(len / 3));
-  if (3 * w > len || 3 * w > st.runMax) return false;
   const base = b * st.runMax;
   const mean = st.winMean;
-  const vari = st.winVar;
-  for (let q = 0; q < 3; q++) {
-    let s1 = 0;
-    let s2 = 0;
-    for (let i = 0; i < w; i++) {
-      const v = st.devRing[base + ((st.frame - q * w - i) % st.runMax)];
-      s1 += v;
-      s2 += v * v;
+  const wMax = Math.floor(Math.min(len, st.runMax) / 3);
+  for (let w = HOPS_PER_FRAME >> 1; w <= wMax; w++) {
+    // Least-squares line through the 3w points (t = 0 the newest, going back).
+    const n = 3 * w;
+    let sy = 0;
+    let sty = 0;
+    let syy = 0;
+    for (let q = 0; q < 3; q++) {
+      let s1 = 0;
+      for (let i = 0; i < w; i++) {
+        const t = q * w + i;
+        const v = st.devRing[base + ((st.frame - t) % st.runMax)];
+        s1 += v;
+        sty += t * v;
+        syy += v * v;
+      }
+      mean[q] = s1 / w;
+      sy += s1;
     }
-    mean[q] = s1 / w;
-    vari[q] = Math.max(0, s2 / w - mean[q] * mean[q]) / Math.max(1, w - 1);
+    const st0 = (n * (n - 1)) / 2;
+    const stt = ((n - 1) * n * (2 * n - 1)) / 6;
+    const slope = (n * sty - st0 * sy) / (n * stt - st0 * st0);
+    const icpt = (sy - slope * st0) / n;
+    // Residual sum of squares: Σy² − a·Σy − b·Σty for the least-squares line.
+    const rss = Math.max(0, syy - icpt * sy - slope * sty);
+    const seDiff = Math.sqrt(st.riseFactor[w] * rss);
+    const need = Math.max(RISE_MIN_NP, RISE_Z * seDiff);
+    const d1 = mean[0] - mean[1];
+    const d2 = mean[1] - mean[2];
+    if (d1 > need && d2 > need && d1 * RISE_RATIO >= d2 && d2 * RISE_RATIO >= d1) return true;
   }
-  const d1 = mean[0] - mean[1];
-  const d2 = mean[1] - mean[2];
-  const need1 = Math.max(RISE_MIN_NP, RISE_Z * Math.sqrt(vari[0] + vari[1]));
-  const need2 = Math.max(RISE_MIN_NP, RISE_Z * Math.sqrt(vari[1] + vari[2]));
-  return d1 > need1 && d2 > need2 && d1 * RISE_RATIO >= d2 && d2 * RISE_RATIO >= d1;
+  return false;
 }
 
 /** True when bin b is the largest of the bins within PEAK_BINS of it (the skirt of a louder tone is not). */
@@ -227,6 +375,12 @@ function isPeak(st: LiveOnsetState, b: number): boolean {
   return true;
 }
 
+/**
+ * After an onset in bin b: the bins of the tone itself (within HOLD_BINS: its skirt and sidelobes)
+ * stay silent until b's power falls back to the background it had before the onset (the hum has
+ * gone: a new cycle may follow at once); its harmonics' bins stay silent for HOLD_S (a harmonic
+ * grows with the tone).
+ */
 function silenceAround(st: LiveOnsetState, b: number, until: number): void {
   const bins = st.hiBin - st.loBin + 1;
   const f = st.loBin + b;
@@ -234,10 +388,17 @@ function silenceAround(st: LiveOnsetState, b: number, until: number): void {
     const c = h * f - st.loBin;
     if (c - HOLD_BINS >= bins) break;
     for (let q = Math.max(0, c - HOLD_BINS); q <= Math.min(bins - 1, c + HOLD_BINS); q++) {
-      st.holdUntil[q] = until;
+      if (h === 1) st.heldBy[q] = b;
+      else st.holdUntil[q] = Math.max(st.holdUntil[q], until);
       st.cusum[q] = 0;
     }
   }
+  keepFloor(st, b);
+}
+
+/** Remembers bin q's background before a rise takes over its mean (once per rise). */
+function keepFloor(st: LiveOnsetState, q: number): void {
+  if (st.floor[q] === 0) st.floor[q] = st.mean[q];
 }
 
 function processFrame(st: LiveOnsetState): void {
@@ -247,47 +408,64 @@ function processFrame(st: LiveOnsetState): void {
   const p = spec.power;
   const frame = st.frame;
   const isWarm = frame >= st.warmFrames;
-  // Deviations from each bin's background and their median over the band.
+  // Each bin's power over its background, and the median of that ratio over the band: a broadband
+  // loudness step scales every bin alike (the median of an exponential power is ln 2 of its mean).
   for (let b = 0; b < bins; b++) {
-    const y = Math.log(p[st.loBin + b] + 1e-30);
-    if (frame === 0) {
-      st.mean[b] = y;
-      st.variance[b] = 1.6449; // π²/6, the variance of ln of an exponential (REFERENCES.md §30)
-    }
-    st.scratch[b] = y - st.mean[b];
+    const pw = p[st.loBin + b] + 1e-30;
+    if (frame === 0) st.mean[b] = pw;
+    st.scratch[b] = pw / st.mean[b];
   }
-  const common = select(st.scratch, bins, bins >> 1);
+  const common = select(st.scratch, bins, bins >> 1) / Math.LN2;
   for (let b = 0; b < bins; b++) {
-    const y = Math.log(p[st.loBin + b] + 1e-30);
-    const d = y - st.mean[b] - common;
-    st.devRing[b * st.runMax + (frame % st.runMax)] = d;
-    const sd = Math.max(SIGMA_MIN_NP, Math.sqrt(st.variance[b]));
+    const pw = (p[st.loBin + b] + 1e-30) / common;
+    st.recent[b] += (pw - st.recent[b]) / RESTART_HOPS;
+    if (st.floor[b] > 0 && st.recent[b] < st.floor[b]) {
+      // Back at the background it had before a rise (a hum or a line has gone): it is the
+      // background again, and a tone held silent since its onset may be announced anew.
+      st.mean[b] = Math.min(st.mean[b], st.floor[b]);
+      st.floor[b] = 0;
+      for (let q = Math.max(0, b - HOLD_BINS); q <= Math.min(bins - 1, b + HOLD_BINS); q++) if (st.heldBy[q] === b) st.heldBy[q] = -1;
+    }
+    const x = pw / st.mean[b];
+    st.devRing[b * st.runMax + (frame % st.runMax)] = Math.log(x);
     // No run starts before the background has settled.
-    const s = isWarm ? Math.max(0, st.cusum[b] + d / sd - CUSUM_K) : 0;
+    // Evidence past the threshold is not banked (the sum is held at h): an alarm that is not
+    // confirmed as a growth ends within hops of the increments turning negative (a knock's tail,
+    // a skirt that fades), instead of testing noise for as long as a huge sum takes to drain.
+    const s = isWarm ? Math.min(st.threshold, Math.max(0, st.cusum[b] + st.slope * x - st.offset)) : 0;
     st.cusum[b] = s;
+    if (s > 0) st.zeroHops[b] = 0;
     if (s === 0) {
-      // In control: the background follows (the common shift included, so it tracks loudness).
-      st.runStart[b] = frame;
+      // In control: the background follows (loudness-corrected). A run starts afresh only after
+      // RESTART_HOPS at zero (see there).
+      st.lastZero[b] = frame;
+      if (++st.zeroHops[b] >= RESTART_HOPS) {
+        st.runStart[b] = frame;
+        st.isStepRun[b] = 0;
+      }
       // A plain running mean until the exponential one has as many frames behind it.
-      const a = Math.max(st.alpha, 1 / (frame + 1));
-      st.mean[b] += a * (y - st.mean[b]);
-      st.variance[b] += a * (d * d - st.variance[b]);
+      st.mean[b] += Math.max(st.alpha, 1 / (frame + 1)) * (pw - st.mean[b]);
       continue;
     }
-    if (s <= st.threshold) continue;
+    // A run that rose faster than any growth (a step or a knock entering the frame) is never an onset.
+    const yBefore = st.devRing[b * st.runMax + ((frame - HOPS_PER_FRAME) % st.runMax)];
+    if (frame >= HOPS_PER_FRAME && Math.log(x) - Math.max(0, yBefore) > st.stepNp) st.isStepRun[b] = 1;
+    if (s < st.threshold) continue;
     const len = Math.min(frame - st.runStart[b], st.runMax);
-    if (frame >= st.holdUntil[b] && isPeak(st, b) && isRising(st, b, len)) {
+    if (frame >= st.holdUntil[b] && st.heldBy[b] < 0 && st.isStepRun[b] === 0 && isPeak(st, b) && isRising(st, b, len)) {
       if (st.onsetCount < MAX_ONSETS_PER_STEP) {
         // The change point of the CUSUM: the last frame it stood at zero; its centre is where the rise began.
-        const framesBack = frame - st.runStart[b];
+        const framesBack = frame - st.lastZero[b];
         st.onsetJ[st.onsetCount] = st.j - spec.frameSize / 2 - framesBack * spec.hopSize;
         st.onsetFreqHz[st.onsetCount] = (st.loBin + b) * spec.binHz;
         st.onsetCount++;
       }
       silenceAround(st, b, frame + Math.round(HOLD_S / st.hopS));
     } else if (len >= st.runMax) {
-      // A rise that never showed itself as a growth is a new level: the bin takes it as background.
-      st.mean[b] = y - common;
+      // A rise that never showed itself as a growth is a new level: the bin takes it as background
+      // until its power falls back to the one before.
+      keepFloor(st, b);
+      st.mean[b] = pw;
       st.cusum[b] = 0;
       st.runStart[b] = frame;
     }
@@ -317,20 +495,6 @@ export function gapLiveOnset(st: LiveOnsetState, jNext: number): void {
   st.j = jNext;
   st.cusum.fill(0);
   st.runStart.fill(st.frame);
-}
-
-/**
- * One announcement per rise, whichever detector saw it first: true (and remembered) when no
- * announcement within HOLD_BINS short bins (or 3 %) of freqHz was made in the HOLD_S before
- * timeS; false for a repeat.
- */
-export function claimAnnouncement(st: LiveOnsetState, timeS: number, freqHz: number): boolean {
-  const tol = Math.max(HOLD_BINS * st.spec.binHz, 0.03 * freqHz);
-  for (let i = 0; i < RECENT_CAPACITY; i++) {
-    if (Math.abs(st.recentTimeS[i] - timeS) <= HOLD_S && Math.abs(st.recentFreqHz[i] - freqHz) <= tol) return false;
-  }
-  st.recentTimeS[st.recentPos] = timeS;
-  st.recentFreqHz[st.recentPos] = freqHz;
-  st.recentPos = (st.recentPos + 1) % RECENT_CAPACITY;
-  return true;
+  st.zeroHops.fill(0);
+  st.lastZero.fill(st.frame);
 }

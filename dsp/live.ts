@@ -1,6 +1,6 @@
 /**
  * Live outputs of push() (docs/DESIGN.md "Live outputs"): track rows (about ROW_RATE_HZ a second,
- * the main tone of the moment), onsets as the regime finds them, and each closed segment with a
+ * * the main tone of the moment), onsets of the short-frame detector (live-onset.ts), and each closed segment with a
  * provisional rate. finish() fits every segment again (segment-fit.ts); these are for the view.
  */
 import { fitExponential, studentTQuantile } from './fit';
@@ -125,15 +125,10 @@ function liveSegment(tr: ToneRuntime, s: RegimeSegment, prev: RegimeSegment | nu
   return seg;
 }
 
-/** Collects what a tone's regime steps of one frame closed: its onset and its closed segments. */
+/** Collects the segments a tone's regime steps of one frame closed (live onsets come from live-onset.ts). */
 export function collectLive(lv: LiveState, tr: ToneRuntime): void {
   const rg = tr.regime;
   if (tr.isSteadyLine) return;
-  if (rg.onsetInStep) {
-    // Announced already by the early onset test: not twice.
-    if (tr.earlyOnsetIdx < 0) lv.onsets.push({ timeS: tr.timeS[rg.onsetIdx], frequencyHz: tr.tone.freqHz });
-    tr.earlyOnsetIdx = -1;
-  }
   for (let i = rg.segments.length - rg.closedInStep; i < rg.segments.length; i++) {
     const s = rg.segments[i];
     if (s.endIdx <= s.startIdx) continue;

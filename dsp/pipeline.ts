@@ -2,8 +2,8 @@
  * The streaming analysis (docs/DESIGN.md): one object for the live microphone and for files.
  * push(block) conditions the samples (condition.ts), keeps their recent history (history.ts),
  * frames the spectrum (spectrum.ts), follows each tone's identity, envelope and regime
- * (tones.ts, tone-store.ts, regime.ts), announces onsets early (early-onset.ts) and emits the live
- * outputs (live.ts); finish() relabels noise (noise-label.ts), groups the tracks into tones
+ * (tones.ts, tone-store.ts, regime.ts), announces onsets live with the short-frame detector
+ * (live-onset.ts) and emits the live outputs (live.ts); finish() relabels noise (noise-label.ts), groups the tracks into tones
  * (grouping.ts), fits every segment (segment-fit.ts) and assembles the report (report.ts). Every
  * stage runs sample by sample on its own state and frame work happens at fixed sample counts, so
  * results do not depend on how the input is cut into blocks. The regime of a tone reads its
@@ -11,7 +11,6 @@
  * frame) and the envelope describe the same moment.
  */
 import { CONDITION_MAX_BLOCK, createConditionState, gapCondition, stepCondition, type ConditionState, type SpanList } from './condition';
-import { stepEarlyOnset } from './early-onset';
 import { groupTones, wideBandIsClear } from './grouping';
 import { breakHistory, createHistory, stepHistory, storeFrame, type History } from './history';
 import { beginLive, collectLive, createLiveState, emitRows, type LiveState } from './live';
@@ -26,10 +25,10 @@ import { fitReachS, fitSegment, type FittedSegment } from './segment-fit';
 import { computeSpectrumFrame, createSpectrumState, feedSpectrum, resetSpectrumFraming, type SpectrumState } from './spectrum';
 import { createTimeBase, jAtTime, rebaseAfterGap, timeOfJ, type TimeBase } from './time-base';
 import { createToneEnvelope, ENVELOPE_RATE_HZ } from './tone-store';
-import { claimAnnouncement, createLiveOnsetState, gapLiveOnset, stepLiveOnset, type LiveOnsetState } from './live-onset';
+import { createLiveOnsetState, gapLiveOnset, stepLiveOnset, type LiveOnsetState } from './live-onset';
 import { advanceRegime, breakTones, createToneSet, maxEnvelopeChunk, resumeTonesAfterGap, retireIdleTones, stepToneEnvelopes, stepTonesAtFrame, type ToneSet } from './tones';
 import { quantisationFloorDbfs } from './levels';
-import type { Analysis, AnalysisConfig, AnalysisUpdate, ClippedSpan, Marker, ModeStatistics, Onset, Report } from './types';
+import type { Analysis, AnalysisConfig, AnalysisUpdate, ClippedSpan, Marker, ModeStatistics, Report } from './types';
 
 /** Analysis frame length, s (rounded to a power of two of samples): ~3 Hz bins. */
 const FRAME_S = 0.32;
@@ -49,9 +48,12 @@ interface PipelineState {
   steady: SteadyStore;
   quietModeStatistics: ModeStatistics[];
   live: LiveState;
-  /** Short-frame sequential onset detector (live-onset.ts) and the onsets it found in this push. */
+  /**
+   * Short-frame sequential onset detector (live-onset.ts): the one source of live onsets. The
+   * regime's confirmation on the long frame comes half a frame late and cannot yet tell a step or a
+   * knock from a growth (finish() does), so it announces nothing.
+   */
   liveOnset: LiveOnsetState;
-  detected: Onset[];
   markers: Marker[];
   warnings: string[];
   spectrumDbfs: Float32Array;
@@ -91,7 +93,6 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
     quietModeStatistics: [],
     live: createLiveState(probe.outputRateHz),
     liveOnset: createLiveOnsetState({ sampleRateHz: fsA, bandLowHz: cond.bandLowHz, bandHighHz: cond.bandHighHz }),
-    detected: [],
     markers: [],
     warnings: [],
     spectrumDbfs: new Float32Array(spec.binCount).fill(-200),
@@ -167,7 +168,6 @@ function processFrame(ps: PipelineState): void {
       if (jAt < earliestGrowthJ) earliestGrowthJ = jAt;
     }
   }
-  for (const tr of tones.alive) stepEarlyOnset(tr, hist, spec.frameCount, ps.live.onsets);
   emitRows(ps.live, tb, hist, tones.alive, tF);
   updateSteady(ps);
   // Quiet store for noise-driven damping.
@@ -193,12 +193,8 @@ function processConditioned(ps: PipelineState): void {
     const j = stepHistory(hist, x, cond.outUnusable, i, i + k, j0, tb.envM);
     stepToneEnvelopes(tones, x, i, i + k, j0, tb, hist);
     stepLiveOnset(ps.liveOnset, x, i, i + k);
-    for (let q = 0; q < ps.liveOnset.onsetCount; q++) ps.detected.push({ timeS: timeOfJ(tb, ps.liveOnset.onsetJ[q]), frequencyHz: ps.liveOnset.onsetFreqHz[q] });
+    for (let q = 0; q < ps.liveOnset.onsetCount; q++) ps.live.onsets.push({ timeS: timeOfJ(tb, ps.liveOnset.onsetJ[q]), frequencyHz: ps.liveOnset.onsetFreqHz[q] });
     tb.j = j;
-    // The early onset test runs on every new envelope sample, not only at frames (a frame hop is
-    // 0.16 s, several e-folds of a fast growth). It uses the latest frame's background either way,
-    // so the samples it sees and the answer do not depend on how the input is cut into blocks.
-    if (spec.frameCount > 0) for (const tr of tones.alive) stepEarlyOnset(tr, hist, spec.frameCount, ps.live.onsets);
     if (feedSpectrum(spec, x, i, i + k)) processFrame(ps);
     i += k;
   }
@@ -218,13 +214,6 @@ function push(ps: PipelineState, block: Float32Array): AnalysisUpdate {
     processConditioned(ps);
   }
   ps.tb.durationInputSamples += block.length;
-  // One announcement per rise, whichever detector saw it first (the tone's own test, or the short-frame one).
-  const onsets = ps.live.onsets;
-  let w = 0;
-  for (const o of onsets) if (claimAnnouncement(ps.liveOnset, o.timeS, o.frequencyHz)) onsets[w++] = o;
-  onsets.length = w;
-  for (const o of ps.detected) if (claimAnnouncement(ps.liveOnset, o.timeS, o.frequencyHz)) onsets.push(o);
-  ps.detected.length = 0;
   if (ps.sawFrame) {
     // Only the analysed band is converted (the rest stays at the floor value). 10·log10 p is
     // taken as (10/ln 10)·ln p: Math.log costs about 60 % of Math.log10 and the float32 dB agree.

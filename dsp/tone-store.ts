@@ -56,8 +56,6 @@ export interface ToneRuntime {
   maxExcessDb: number;
   /** Envelope outputs still holding a clipped input in their kernel. */
   clipCountdown: number;
-  /** Store index of an onset announced early by the look-ahead (−1: none pending). */
-  earlyOnsetIdx: number;
   /** Peak envelope power once the record is finished (−1 until computed). */
   topPower: number;
   /** Peaks at the tone's k-th harmonic while it sounded: frames seen (by k), the last frequency (Hz, by k), and frames it sounded. */
@@ -107,7 +105,6 @@ export function createToneRuntime(tone: ToneTrack, env: EnvelopeState, isSteadyL
     isAlive: true,
     maxExcessDb: -Infinity,
     clipCountdown: 0,
-    earlyOnsetIdx: -1,
     topPower: -1,
     harmonicHits: new Int32Array(MAX_HARMONIC + 1),
     harmonicHz: new Float64Array(MAX_HARMONIC + 1),

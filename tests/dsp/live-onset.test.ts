@@ -1,11 +1,12 @@
-// Short-frame sequential onset detector (dsp/live-onset.ts): Page's CUSUM on the log-power of each
-// bin against its running background, with the threshold from the false-alarm rate (Siegmund's
-// approximation of the average run length, REFERENCES.md §30), and a growth confirmed only when
-// the rise goes on for longer than the short kernel. Truth: synthetic signals of known onset and
+// Short-frame sequential onset detector (dsp/live-onset.ts): Page's CUSUM on the likelihood ratio
+// of each bin's power against its running background, with the threshold from the false-alarm
+// rate (Lorden's bound, REFERENCES.md §30, §45; its statistics are checked in
+// live-onset-statistics.test.ts), and a growth confirmed only when the rise goes on for longer
+// than the short kernel. Truth: synthetic signals of known onset and
 // rate (dsp/synth.ts); the no-onset cases are the ones named in DESIGN.md (toneless noise with
 // ±10 dB steps, mains hum with harmonics switched on, knocks ringing down).
 import { describe, expect, it } from 'vitest';
-import { createLiveOnsetState, cusumThreshold, stepLiveOnset } from '../../dsp/live-onset';
+import { createLiveOnsetState, stepLiveOnset } from '../../dsp/live-onset';
 import { createRng, humCycleEnvelope, synthesize } from '../../dsp/synth';
 
 const FS = 8000;
@@ -20,19 +21,6 @@ function detect(x: Float32Array, block = 256): { timeS: number; freqHz: number; 
   }
   return out;
 }
-
-describe('cusumThreshold', () => {
-  it("inverts Siegmund's average run length at the sheet's check values (k 0.5: h 4 ↔ 336 steps, h 5 ↔ 938)", () => {
-    const arl = (k: number, h: number): number => {
-      const b = 2 * k * (h + 1.166);
-      return (Math.exp(b) - b - 1) / (2 * k * k);
-    };
-    expect(arl(0.5, 4)).toBeCloseTo(336, -1);
-    expect(arl(0.5, 5)).toBeCloseTo(938, -1);
-    expect(cusumThreshold(0.5, arl(0.5, 4))).toBeCloseTo(4, 6);
-    expect(cusumThreshold(0.5, arl(0.5, 5))).toBeCloseTo(5, 6);
-  });
-});
 
 describe('live onset detector', () => {
   it('names the bad parameter', () => {
