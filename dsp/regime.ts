@@ -403,8 +403,10 @@ function stepCore(st: RegimeState, idx: number, p: number, bg: number): void {
       if (levelDb > st.minLevelDb + REGROW_DB && excessDb >= ON_DB) st.regrowHold++;
       else st.regrowHold = 0;
       if (st.regrowHold >= st.onHoldMin) {
+        // The hum sets in again before it died away (the driving came back): an onset, at the
+        // turn from decay to growth.
         closeSegment(st, st.minIdx, false, false);
-        enterGrowth(st, st.minIdx, false);
+        enterGrowth(st, st.minIdx, st.allowOnsets);
       }
       break;
     }

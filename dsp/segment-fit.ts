@@ -220,7 +220,13 @@ function fitGrowthSegment(out: FittedSegment, segs: RegimeSegment[], i: number, 
     if (fit.isValid) report.model = 'exponential';
   }
   setRate(out, fit);
-  if (seg.isOnset && !tr.isSteadyLine) {
+  if (seg.isOnset && !tr.isSteadyLine && prev !== null && prev.state === STATE_DECAY) {
+    // Set in again before it died away: the onset is the turn from decay to growth, known to the
+    // narrow envelope's blur (half its kernel either side).
+    out.onsetTimeS = report.startS;
+    const half = 0.5 * tr.env.kernelS;
+    out.onsetCi95S = [report.startS - half, report.startS + half];
+  } else if (seg.isOnset && !tr.isSteadyLine) {
     out.onsetTimeS = onsetTime(tr, fit, bgNarrow, report.startS, report.endS);
     if (fit.isValid && fit.ratePerS > 0) {
       // The crossing moves with the rate: its values at the ends of the rate's interval (the

@@ -167,3 +167,21 @@ it('a growth from a faint tone already sounding is a growth with its rate, not s
   expectRate(g?.ratePerS, g?.rateCi95PerS, 8, 'growth from a faint tone');
   expect(Math.abs((g?.startS ?? 0) - 4)).toBeLessThan(0.3);
 });
+
+it('a hum that sets in again before it died away has an onset at the turn from decay to growth', () => {
+  // Landau growth at 10 1/s into 0.2, held, free decay at 5 1/s from 6 s; at 7.2 s (52 dB down,
+  // still over 20 dB above the noise in the tone's band) the driving returns: growth at 10 1/s
+  // from there. Onset: where the hum sets in (common practice); the turn is known to the
+  // envelope's blur.
+  const fs = 16000;
+  const first = humCycleEnvelope({ onsetS: 2, startAmplitude: 1e-4, growthPerS: 10, limitAmplitude: 0.2, offS: 6, decayPerS: 5 });
+  const turnS = 7.2;
+  const atTurn = first(turnS);
+  const again = humCycleEnvelope({ onsetS: turnS, startAmplitude: atTurn, growthPerS: 10, limitAmplitude: 0.2, offS: 11, decayPerS: 5 });
+  const env = (t: number): number => (t < turnS ? first(t) : again(t));
+  const r = analyse(synthesize({ sampleRateHz: fs, durationS: 13, tones: [{ frequencyHz: 210, envelope: env }], noiseRms: 0.001, seed: 12 }), fs);
+  expect(r.onsets, JSON.stringify(r.onsets)).toHaveLength(2);
+  expect(Math.abs(r.onsets[1].timeS - turnS), JSON.stringify(r.onsets)).toBeLessThan(0.15);
+  const cycles = (r.tones ?? []).flatMap((t) => t.cycles ?? []);
+  expect(cycles.filter((c) => c.onsetS !== null)).toHaveLength(2);
+});
