@@ -54,6 +54,8 @@ const MAX_HARMONIC = 10;
 /** Most onsets announced by one step, and most announcements remembered for de-duplication. */
 const MAX_ONSETS_PER_STEP = 8;
 const RECENT_CAPACITY = 16;
+/** Deviations the median's bracket aims to hold (a handful: selecting among them is cheap). */
+const MEDIAN_BRACKET_COUNT = 8;
 
 export interface LiveOnsetConfig {
   /** Rate of the conditioned samples, Hz. */
@@ -79,9 +81,17 @@ export interface LiveOnsetState {
   runStart: Float64Array;
   /** Frame until which each bin stays silent after an onset near it. */
   holdUntil: Float64Array;
-  /** Deviation history per bin (ring of runMax frames, bin-major). */
+  /** Background sd of each bin, Np: max(SIGMA_MIN_NP, √variance), kept with the variance. */
+  sd: Float64Array;
+  /** Deviation history (ring of runMax frames, frame-major: one row of bins per frame). */
   devRing: Float64Array;
+  /** Log-power of the latest frame per bin, Np, and a work copy of the deviations for the median. */
+  logPower: Float64Array;
   scratch: Float64Array;
+  /** The median's bracket: last median, half-width, Np, and the values it caught. */
+  medianGuess: number;
+  medianHalfWidth: number;
+  bracket: Float64Array;
   winMean: Float64Array;
   winVar: Float64Array;
   frame: number;
@@ -146,8 +156,13 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
     cusum: new Float64Array(bins),
     runStart: new Float64Array(bins),
     holdUntil: new Float64Array(bins).fill(-1),
+    sd: new Float64Array(bins),
     devRing: new Float64Array(bins * runMax),
+    logPower: new Float64Array(bins),
     scratch: new Float64Array(bins),
+    medianGuess: 0,
+    medianHalfWidth: 0.1,
+    bracket: new Float64Array(bins),
     winMean: new Float64Array(3),
     winVar: new Float64Array(3),
     frame: 0,
@@ -188,6 +203,38 @@ function select(a: Float64Array, n: number, k: number): number {
 }
 
 /**
+ * Median of the band's deviations a[0..n) (the k = n >> 1 smallest), found from a bracket
+ * [guess − halfWidth, guess + halfWidth] around the last frame's median: one pass counts the
+ * values below the bracket and copies those inside it to st.bracket; when the k-th value falls
+ * inside, it is selected among those few, else among all (select, which reorders a). The value is
+ * the same either way; the bracket's width follows how many values it caught.
+ */
+function bandMedian(st: LiveOnsetState, a: Float64Array, n: number): number {
+  const k = n >> 1;
+  const lo = st.medianGuess - st.medianHalfWidth;
+  const hi = st.medianGuess + st.medianHalfWidth;
+  const inside = st.bracket;
+  let below = 0;
+  let m = 0;
+  for (let i = 0; i < n; i++) {
+    const v = a[i];
+    if (v < lo) below++;
+    else if (v <= hi) inside[m++] = v;
+  }
+  let median: number;
+  if (below <= k && k < below + m) {
+    median = select(inside, m, k - below);
+    if (m > 4 * MEDIAN_BRACKET_COUNT) st.medianHalfWidth *= 0.5;
+  } else {
+    median = select(a, n, k);
+    st.medianHalfWidth *= 2;
+  }
+  if (m < MEDIAN_BRACKET_COUNT) st.medianHalfWidth *= 1.25;
+  st.medianGuess = median;
+  return median;
+}
+
+/**
  * True when bin b's deviation rose steadily over the run: three consecutive windows of W hops
  * (W ≥ half a kernel, a third of the run) whose means m3 < m2 < m1 step up by d2 = m2 − m3 and
  * d1 = m1 − m2, each more than RISE_Z sd of the difference and RISE_MIN_NP, and within a factor
@@ -198,14 +245,14 @@ function select(a: Float64Array, n: number, k: number): number {
 function isRising(st: LiveOnsetState, b: number, len: number): boolean {
   const w = Math.max(HOPS_PER_FRAME >> 1, Math.floor(len / 3));
   if (3 * w > len || 3 * w > st.runMax) return false;
-  const base = b * st.runMax;
+  const bins = st.hiBin - st.loBin + 1;
   const mean = st.winMean;
   const vari = st.winVar;
   for (let q = 0; q < 3; q++) {
     let s1 = 0;
     let s2 = 0;
     for (let i = 0; i < w; i++) {
-      const v = st.devRing[base + ((st.frame - q * w - i) % st.runMax)];
+      const v = st.devRing[((st.frame - q * w - i) % st.runMax) * bins + b];
       s1 += v;
       s2 += v * v;
     }
@@ -245,51 +292,68 @@ function processFrame(st: LiveOnsetState): void {
   computeSpectrumFrame(spec);
   const bins = st.hiBin - st.loBin + 1;
   const p = spec.power;
+  const lo = st.loBin;
   const frame = st.frame;
   const isWarm = frame >= st.warmFrames;
+  const mean = st.mean;
+  const variance = st.variance;
+  const sdOf = st.sd;
+  const cusum = st.cusum;
+  const runStart = st.runStart;
+  const logPower = st.logPower;
+  const scratch = st.scratch;
   // Deviations from each bin's background and their median over the band.
-  for (let b = 0; b < bins; b++) {
-    const y = Math.log(p[st.loBin + b] + 1e-30);
-    if (frame === 0) {
-      st.mean[b] = y;
-      st.variance[b] = 1.6449; // π²/6, the variance of ln of an exponential (REFERENCES.md §30)
+  if (frame === 0) {
+    for (let b = 0; b < bins; b++) {
+      mean[b] = Math.log(p[lo + b] + 1e-30);
+      variance[b] = 1.6449; // π²/6, the variance of ln of an exponential (REFERENCES.md §30)
+      sdOf[b] = Math.max(SIGMA_MIN_NP, Math.sqrt(variance[b]));
     }
-    st.scratch[b] = y - st.mean[b];
   }
-  const common = select(st.scratch, bins, bins >> 1);
   for (let b = 0; b < bins; b++) {
-    const y = Math.log(p[st.loBin + b] + 1e-30);
-    const d = y - st.mean[b] - common;
-    st.devRing[b * st.runMax + (frame % st.runMax)] = d;
-    const sd = Math.max(SIGMA_MIN_NP, Math.sqrt(st.variance[b]));
+    const y = Math.log(p[lo + b] + 1e-30);
+    logPower[b] = y;
+    scratch[b] = y - mean[b];
+  }
+  const common = bandMedian(st, scratch, bins);
+  // Deviations are stored frame-major: one contiguous row of bins per frame of the ring.
+  const row = (frame % st.runMax) * bins;
+  const devRing = st.devRing;
+  // A plain running mean until the exponential one has as many frames behind it.
+  const a = Math.max(st.alpha, 1 / (frame + 1));
+  const threshold = st.threshold;
+  for (let b = 0; b < bins; b++) {
+    const y = logPower[b];
+    const d = y - mean[b] - common;
+    devRing[row + b] = d;
     // No run starts before the background has settled.
-    const s = isWarm ? Math.max(0, st.cusum[b] + d / sd - CUSUM_K) : 0;
-    st.cusum[b] = s;
+    const s = isWarm ? Math.max(0, cusum[b] + d / sdOf[b] - CUSUM_K) : 0;
+    cusum[b] = s;
     if (s === 0) {
       // In control: the background follows (the common shift included, so it tracks loudness).
-      st.runStart[b] = frame;
-      // A plain running mean until the exponential one has as many frames behind it.
-      const a = Math.max(st.alpha, 1 / (frame + 1));
-      st.mean[b] += a * (y - st.mean[b]);
-      st.variance[b] += a * (d * d - st.variance[b]);
+      runStart[b] = frame;
+      mean[b] += a * (y - mean[b]);
+      const v = variance[b] + a * (d * d - variance[b]);
+      variance[b] = v;
+      sdOf[b] = Math.max(SIGMA_MIN_NP, Math.sqrt(v));
       continue;
     }
-    if (s <= st.threshold) continue;
-    const len = Math.min(frame - st.runStart[b], st.runMax);
+    if (s <= threshold) continue;
+    const len = Math.min(frame - runStart[b], st.runMax);
     if (frame >= st.holdUntil[b] && isPeak(st, b) && isRising(st, b, len)) {
       if (st.onsetCount < MAX_ONSETS_PER_STEP) {
         // The change point of the CUSUM: the last frame it stood at zero; its centre is where the rise began.
-        const framesBack = frame - st.runStart[b];
+        const framesBack = frame - runStart[b];
         st.onsetJ[st.onsetCount] = st.j - spec.frameSize / 2 - framesBack * spec.hopSize;
-        st.onsetFreqHz[st.onsetCount] = (st.loBin + b) * spec.binHz;
+        st.onsetFreqHz[st.onsetCount] = (lo + b) * spec.binHz;
         st.onsetCount++;
       }
       silenceAround(st, b, frame + Math.round(HOLD_S / st.hopS));
     } else if (len >= st.runMax) {
       // A rise that never showed itself as a growth is a new level: the bin takes it as background.
-      st.mean[b] = y - common;
-      st.cusum[b] = 0;
-      st.runStart[b] = frame;
+      mean[b] = y - common;
+      cusum[b] = 0;
+      runStart[b] = frame;
     }
   }
   st.frame++;
