@@ -207,7 +207,8 @@ function select(a: Float64Array, n: number, k: number): number {
  * [guess − halfWidth, guess + halfWidth] around the last frame's median: one pass counts the
  * values below the bracket and copies those inside it to st.bracket; when the k-th value falls
  * inside, it is selected among those few, else among all (select, which reorders a). The value is
- * the same either way; the bracket's width follows how many values it caught.
+ * the same either way (Floyd and Rivest's bracket, REFERENCES.md §50); the bracket's width follows
+ * how many values it caught.
  */
 function bandMedian(st: LiveOnsetState, a: Float64Array, n: number): number {
   const k = n >> 1;
