@@ -30,6 +30,7 @@
  *    understate it. `combined` is therefore the Lorentzian estimate, or the autocorrelation one
  *    when the Lorentzian fit fails.
  */
+import FFT from 'fft.js';
 import { invertSmallMatrix, studentTQuantile, Z_975 } from './fit';
 import type { DecayEstimate } from './types';
 
@@ -116,50 +117,37 @@ export function mixDownDecimate(x: Float32Array, sampleRateHz: number, centreHz:
   return { re, im, rateHz, startS: half / sampleRateHz };
 }
 
-/** In-place iterative radix-2 complex FFT (Cooley & Tukey 1965); inverse when sign = +1 (unscaled). */
+/** fft.js plans by size, with their interleaved work arrays (sizes are powers of two: a few at most). */
+const fftPlans = new Map<number, { fft: FFT; input: number[]; output: number[] }>();
+
+/**
+ * In-place complex FFT of a power-of-two length through fft.js (the one FFT of the tree);
+ * inverse when sign = +1, unscaled (the caller divides by the length).
+ */
 export function fftInPlace(re: Float64Array, im: Float64Array, sign: -1 | 1): void {
   const n = re.length;
-  for (let i = 1, j = 0; i < n; i++) {
-    let bit = n >> 1;
-    for (; j & bit; bit >>= 1) j ^= bit;
-    j ^= bit;
-    if (i < j) {
-      let t = re[i];
-      re[i] = re[j];
-      re[j] = t;
-      t = im[i];
-      im[i] = im[j];
-      im[j] = t;
-    }
+  if (n < 2) return;
+  let plan = fftPlans.get(n);
+  if (plan === undefined) {
+    const fft = new FFT(n);
+    plan = { fft, input: fft.createComplexArray() as number[], output: fft.createComplexArray() as number[] };
+    fftPlans.set(n, plan);
   }
-  for (let len = 2; len <= n; len <<= 1) {
-    const ang = (sign * 2 * Math.PI) / len;
-    const wr = Math.cos(ang);
-    const wi = Math.sin(ang);
-    const halfLen = len >> 1;
-    for (let i = 0; i < n; i += len) {
-      let cr = 1;
-      let ci = 0;
-      for (let k = 0; k < halfLen; k++) {
-        const a = i + k;
-        const b = a + halfLen;
-        const tr = re[b] * cr - im[b] * ci;
-        const ti = re[b] * ci + im[b] * cr;
-        re[b] = re[a] - tr;
-        im[b] = im[a] - ti;
-        re[a] += tr;
-        im[a] += ti;
-        // Recompute the twiddle directly every 64 steps to stop the recurrence drifting.
-        if ((k & 63) === 63) {
-          cr = Math.cos(ang * (k + 1));
-          ci = Math.sin(ang * (k + 1));
-        } else {
-          const nr = cr * wr - ci * wi;
-          ci = cr * wi + ci * wr;
-          cr = nr;
-        }
-      }
-    }
+  const { input, output } = plan;
+  for (let k = 0; k < n; k++) {
+    input[2 * k] = re[k];
+    input[2 * k + 1] = im[k];
+  }
+  // fft.js scales its inverse by 1/n; undo that to keep the unscaled contract.
+  let scale = 1;
+  if (sign < 0) plan.fft.transform(output, input);
+  else {
+    plan.fft.inverseTransform(output, input);
+    scale = n;
+  }
+  for (let k = 0; k < n; k++) {
+    re[k] = output[2 * k] * scale;
+    im[k] = output[2 * k + 1] * scale;
   }
 }
 

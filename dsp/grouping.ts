@@ -7,7 +7,7 @@
 import { STATE_GROWTH, STATE_QUIET, STATE_STEADY, type RegimeSegment } from './regime';
 import { isLockedHarmonic } from './locking';
 import { segmentFrequency } from './segment-fit';
-import { ENVELOPE_WIDE_BANDWIDTH_HZ, peakPower, topPowerIn, type ToneRuntime } from './tone-store';
+import { ENVELOPE_WIDE_BANDWIDTH_HZ, indexAtTime, peakPower, topPowerIn, type ToneRuntime } from './tone-store';
 import { harmonicToleranceHz, isSameToneHz, matchToleranceHz, MAX_HARMONIC, medianFrequencyHz } from './track';
 
 /** A weaker line within this fraction of a tone's frequency and this many dB below it is its sidelobe or intermodulation product. */
@@ -307,13 +307,19 @@ export function groupTones(all: ToneRuntime[], binHz: number, floorPower = 0): G
   return { families, tones: families.filter((f) => f.parent === null), artefacts, dropped };
 }
 
-/** True when no other tone lies within the wide envelope band's reach of this tone (lines of a stronger tone and lines NEAR_LINE_DB weaker do not count). */
-export function wideBandIsClear(tr: ToneRuntime, others: ToneRuntime[], artefacts: Set<ToneRuntime>, binHz: number): boolean {
+/**
+ * True when no other tone sounds within the wide envelope band's reach of this tone over times
+ * [t0S, t1S] (what one fit reads): lines of other tones (or of this tone's other cycles) heard only
+ * at other times do not count, nor lines of a stronger tone, nor lines NEAR_LINE_DB weaker than
+ * this tone there.
+ */
+export function wideBandIsClear(tr: ToneRuntime, t0S: number, t1S: number, others: ToneRuntime[], artefacts: Set<ToneRuntime>, binHz: number): boolean {
   const f = tr.tone.freqHz;
   const same = matchToleranceHz(binHz, f);
-  const floor = peakPower(tr) * 10 ** (-NEAR_LINE_DB / 10);
+  const floor = topPowerIn(tr, indexAtTime(tr, t0S), indexAtTime(tr, t1S)) * 10 ** (-NEAR_LINE_DB / 10);
   for (const o of others) {
-    if (o !== tr && !artefacts.has(o) && Math.abs(o.tone.freqHz - f) > same && Math.abs(o.tone.freqHz - f) < WIDE_CLEARANCE_HZ && peakPower(o) > floor) return false;
+    if (o === tr || artefacts.has(o) || !(Math.abs(o.tone.freqHz - f) > same && Math.abs(o.tone.freqHz - f) < WIDE_CLEARANCE_HZ)) continue;
+    if (topPowerIn(o, indexAtTime(o, t0S), indexAtTime(o, t1S)) > floor) return false;
   }
   return true;
 }

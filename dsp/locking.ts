@@ -9,7 +9,7 @@
 import { studentTQuantile, Z_975 } from './fit';
 import { addLinePoint, createLineSums, lineRss, lineSxx, lineSxy } from './line-fit';
 import { phaseFrequency } from './segment-fit';
-import { topPowerIn, type ToneRuntime } from './tone-store';
+import { indexAtTime, topPowerIn, type ToneRuntime } from './tone-store';
 
 /** Samples used for a rate stand this far (power ratio, 10 dB) over the band background. */
 export const RATE_MIN_OVER_BG = 10;
@@ -65,18 +65,6 @@ export function logAmplitudeSlope(tr: ToneRuntime, i0: number, i1: number, t0: n
   return { ratePerS: slope, sdPerS: (sd * studentTQuantile(0.975, nEff - 2)) / Z_975, n, firstS: tFirst, lastS: tLast };
 }
 
-/** Store index of the first entry at or after time t, s. */
-function indexAt(tr: ToneRuntime, t: number): number {
-  let lo = 0;
-  let hi = tr.n;
-  while (lo < hi) {
-    const mid = (lo + hi) >> 1;
-    if (tr.timeS[mid] < t) lo = mid + 1;
-    else hi = mid;
-  }
-  return lo;
-}
-
 /**
  * Whether store entries [i0, i1) of line `child` are locked as the k-th harmonic of the tone held
  * by one of `parents` over the same times. Unknown rates (too few samples clear of the background)
@@ -96,8 +84,8 @@ export function isLockedHarmonic(child: ToneRuntime, i0: number, i1: number, par
   let iPh = i0;
   while (iPh < i1 - 1 && !(child.power[iPh] * RATE_MIN_OVER_BG >= top)) iPh++;
   const tPh = child.timeS[iPh];
-  const j0 = indexAt(par, tPh);
-  const j1 = indexAt(par, t1) + 1;
+  const j0 = indexAtTime(par, tPh);
+  const j1 = indexAtTime(par, t1) + 1;
   // A tone not heard over its background there cannot hold a harmonic there.
   let isParentHeard = false;
   for (let j = j0; j < Math.min(j1, par.n) && !isParentHeard; j++) isParentHeard = !par.clipped[j] && par.power[j] - par.bg[j] > RATE_MIN_OVER_BG * par.bg[j];
@@ -114,7 +102,7 @@ export function isLockedHarmonic(child: ToneRuntime, i0: number, i1: number, par
   if (!Number.isFinite(rc.ratePerS)) return true;
   // The tone's rate over the very times the harmonic's rate was measured (the weaker harmonic
   // clears the background later: a knee inside the window would bend the two slopes differently).
-  const rp = logAmplitudeSlope(par, indexAt(par, t0 + rc.firstS), indexAt(par, t0 + rc.lastS) + 1, t0);
+  const rp = logAmplitudeSlope(par, indexAtTime(par, t0 + rc.firstS), indexAtTime(par, t0 + rc.lastS) + 1, t0);
   if (!Number.isFinite(rp.ratePerS)) return true;
   return Math.abs(rc.ratePerS - k * rp.ratePerS) <= LOCK_SD * Math.hypot(rc.sdPerS, k * rp.sdPerS);
 }

@@ -22,7 +22,7 @@ import { beginRegimeStep, finishRegime, STATE_DECAY, STATE_GROWTH, STATE_QUIET, 
 import { modeStatisticsEntry } from './mode-statistics';
 import { closeSteadyStretch, createSteadyStore, openSteadyStretch, STEADY_SETTLE_S, stepSteadyStore, type SteadyStore } from './steady-store';
 import { assembleReport } from './report';
-import { fitSegment, type FittedSegment } from './segment-fit';
+import { fitReachS, fitSegment, type FittedSegment } from './segment-fit';
 import { computeSpectrumFrame, createSpectrumState, feedSpectrum, resetSpectrumFraming, type SpectrumState } from './spectrum';
 import { createTimeBase, jAtTime, rebaseAfterGap, timeOfJ, type TimeBase } from './time-base';
 import { createToneEnvelope, ENVELOPE_RATE_HZ } from './tone-store';
@@ -296,7 +296,7 @@ function finish(ps: PipelineState): Report {
     if (!segs.some((s) => s.state !== STATE_QUIET && s.endIdx > s.startIdx && !grouping.dropped.has(s))) continue;
     for (let i = 0; i < segs.length; i++) {
       if (segs[i].endIdx <= segs[i].startIdx || grouping.dropped.has(segs[i])) continue;
-      const isWide = segs[i].state !== STATE_QUIET && wideBandIsClear(tr, others, grouping.artefacts, spec.binHz);
+      const isWide = segs[i].state !== STATE_QUIET && wideBandIsClear(tr, ...fitReachS(tr, segs[i]), others, grouping.artefacts, spec.binHz);
       fitted.push(fitSegment(tr, segs, i, { isWide, markers: ps.markers, warnings: ps.warnings }));
     }
   }

@@ -4,7 +4,7 @@
  * steady segment from the fits of dsp/fit.ts on the envelope store, with the onset time of a
  * growth that starts from quiet.
  */
-import { backgroundCrossingTimeS, fitExponential, fitGrowthIntoLimit, Z_975 } from './fit';
+import { backgroundCrossingTimeS, effectiveSampleCount, fitExponential, fitGrowthIntoLimit, Z_975 } from './fit';
 import { decayStartNearMarker, MARKER_SEARCH_S } from './kink';
 import { addLinePoint, createLineSums, lineSxx, lineSxy, resetLineSums } from './line-fit';
 import { ON_DB, regimeKind, STATE_DECAY, STATE_GROWTH, STATE_QUIET, STATE_STEADY, type RegimeSegment } from './regime';
@@ -21,6 +21,17 @@ export const BG_SKIP_S = 0.1;
 const GROWTH_PREROLL_S = 1.5;
 /** Tail of quiet after a decay included in its fit, s. */
 const DECAY_TAIL_S = 1.0;
+/**
+ * Times a segment's fit may read, s: its background, pre-roll or tail on either side, and after a
+ * growth into a steady level as much again as the growth lasted (fitGrowthSegment).
+ */
+export function fitReachS(tr: ToneRuntime, s: RegimeSegment): [number, number] {
+  const reach = Math.max(BG_WINDOW_S, GROWTH_PREROLL_S, DECAY_TAIL_S);
+  const t0 = tr.timeS[s.startIdx];
+  const t1 = tr.timeS[Math.max(s.startIdx, s.endIdx - 1)];
+  return [t0 - reach, t1 + Math.max(reach, t1 - t0)];
+}
+
 /** Envelope samples used for the phase slope stand this far over the band background (power ratio, 6 dB) and within this ratio of the segment's peak (20 dB). */
 const PHASE_MIN_OVER_BG = 4;
 const PHASE_MIN_OF_PEAK = 0.01;
@@ -180,7 +191,13 @@ function fitGrowthSegment(out: FittedSegment, segs: RegimeSegment[], i: number, 
   const q1 = seg.startIdx - Math.round(BG_SKIP_S * rate);
   const bgMin = Math.round(BG_MIN_S * rate);
   let bgNarrow = meanPower(tr, q0, q1, bgMin);
-  if (!Number.isFinite(bgNarrow)) bgNarrow = meanBg(tr, w0, seg.startIdx + 1);
+  // Independent samples behind that background level (N_eff, header of dsp/fit.ts): its relative
+  // sd is 1/√N_eff, the power of narrow-band noise being exponentially distributed (common practice).
+  let bgSamples = effectiveSampleCount(q1 - q0, 1 / rate, tr.env.bandwidthHz);
+  if (!Number.isFinite(bgNarrow)) {
+    bgNarrow = meanBg(tr, w0, seg.startIdx + 1);
+    bgSamples = effectiveSampleCount(seg.startIdx + 1 - w0, 1 / rate, tr.env.bandwidthHz);
+  }
   let bg = meanPower(tr, q0, q1, bgMin, isWide);
   if (!Number.isFinite(bg)) bg = bgNarrow * bgScale;
   // The steady stretch after the growth may be the record's last (next === null).
@@ -192,8 +209,11 @@ function fitGrowthSegment(out: FittedSegment, segs: RegimeSegment[], i: number, 
   }
   w1 = contiguousEnd(tr, seg.startIdx, w1 - seg.startIdx, w1);
   const opts = Number.isFinite(bg) && bg > 0 ? { backgroundPower: bg } : {};
+  // A rise that turned over into a decay (the driving went off) may have bent into its limit
+  // first: its fit chooses between saturation and exponential as a rise into a steady level does.
+  const intoDecay = next !== null && next.state === STATE_DECAY && next.startIdx === seg.endIdx;
   let fit: RateFit;
-  if (intoSteady) fit = fitGrowthIntoSteady(out, w0, w1, opts, isWide);
+  if (intoSteady || intoDecay) fit = fitGrowthIntoSteady(out, w0, w1, opts, isWide);
   else {
     const series = buildSeries(tr, w0, w1, isWide);
     fit = fitExponential(series, { ...opts, refTimeS: series.timeS.length > 0 ? series.timeS[0] : report.startS });
@@ -202,12 +222,18 @@ function fitGrowthSegment(out: FittedSegment, segs: RegimeSegment[], i: number, 
   setRate(out, fit);
   if (seg.isOnset && !tr.isSteadyLine) {
     out.onsetTimeS = onsetTime(tr, fit, bgNarrow, report.startS, report.endS);
-    if (fit.isValid) {
+    if (fit.isValid && fit.ratePerS > 0) {
       // The crossing moves with the rate: its values at the ends of the rate's interval (the
-      // amplitude at the reference time held) bound it.
+      // amplitude at the reference time held) bound it. It moves with the background level too:
+      // the power grows as e^{2st}, so an error δ in ln(background) moves the crossing by δ/(2s);
+      // the two parts add in quadrature.
       const a = onsetTime(tr, { ...fit, ratePerS: fit.ci95PerS[0] }, bgNarrow, report.startS, report.endS);
       const b = onsetTime(tr, { ...fit, ratePerS: fit.ci95PerS[1] }, bgNarrow, report.startS, report.endS);
-      out.onsetCi95S = [Math.min(a, b, out.onsetTimeS), Math.max(a, b, out.onsetTimeS)];
+      const t = out.onsetTimeS;
+      const bgHalf = Z_975 / (Math.sqrt(Math.max(1, bgSamples)) * 2 * fit.ratePerS);
+      const lo = Math.hypot(t - Math.min(a, b, t), bgHalf);
+      const hi = Math.hypot(Math.max(a, b, t) - t, bgHalf);
+      out.onsetCi95S = [t - lo, t + hi];
     }
   }
 }

@@ -250,6 +250,18 @@ export function meanBg(tr: ToneRuntime, i0: number, i1: number): number {
   return c > 0 ? s / c : Number.NaN;
 }
 
+/** Store index of the first entry at or after time t, s (tr.n when none). */
+export function indexAtTime(tr: ToneRuntime, t: number): number {
+  let lo = 0;
+  let hi = tr.n;
+  while (lo < hi) {
+    const mid = (lo + hi) >> 1;
+    if (tr.timeS[mid] < t) lo = mid + 1;
+    else hi = mid;
+  }
+  return lo;
+}
+
 /** Largest valid, unclipped envelope power over store entries [i0, i1). */
 export function topPowerIn(tr: ToneRuntime, i0: number, i1: number): number {
   let top = 0;

@@ -11,6 +11,8 @@
  * 2. Onset: how long after the tone rises 6 dB above the noise floor in a 10 Hz band around it the
  *    streaming analysis announces the onset, in e-folding times; false onsets on toneless noise
  *    with ±10 dB loudness steps and on steady 50/60 Hz mains hum with harmonics.
+ * 2d. Hour-long records of hum cycles with varied gaps and a drifting frequency: cycles found, and
+ *    each cycle's rate errors against its own Cramér–Rao bound (dsp/cli/bench-cycles.ts).
  * 3. Speed on one thread (48 kHz mono): audio seconds per wall second, the ratio to a bare fft.js
  *    pass at the same frame rate, the cost of each streaming stage per minute of audio, and peak
  *    memory streaming a 1-hour WAV through reader + pipeline; whole records of many hum cycles
@@ -38,6 +40,7 @@ import { encodeWav } from '../io/wav-write';
 import { createRng, humCycleEnvelope, synthesize, type EnvelopeFn, type Rng } from '../synth';
 import type { Analysis, EnvelopeSeries, Report, Segment } from '../types';
 import { analyzeMany } from './batch';
+import { cyclesBench } from './bench-cycles';
 import { noiseStatisticsBench } from './bench-noise';
 import { num, renderTable } from './format';
 
@@ -912,13 +915,14 @@ const SECTIONS: [name: string, title: string, fn: () => void | Promise<void>][] 
   ['onset', '2a. Onset announcement delay (10 Hz band, noise −50 dBFS, tone from 40 dB under the 6 dB point)', onsetDelay],
   ['false', '2b. False onsets', falseOnsets],
   ['live', '2c. Live onset over the band (short-frame detector): announcement delay and false live onsets', liveOnsetRows],
+  ['cycles', '2d. Records of many hum cycles: varied gaps, drifting frequency (dsp/cli/bench-cycles.ts)', () => cyclesBench(row)],
   ['speed', `3a. Speed (best of ${SPEED_REPEATS} runs)`, speed],
   ['records', '3c. Whole records of many hum cycles (one thread)', records],
   ['archives', '3d. Archives on every core (humgauge analyze FOLDER, worker threads)', archives],
   ['noise', '4. Linear growth rate from noise (dsp/cli/bench-noise.ts)', () => noiseStatisticsBench(row)],
 ];
 
-/** `node dist-cli/bench.js [accuracy|rigs|onset|false|live|speed|memory|records|archives|noise ...]`: all sections by default. */
+/** `node dist-cli/bench.js [accuracy|rigs|onset|false|live|cycles|speed|memory|records|archives|noise ...]`: all sections by default. */
 async function main(): Promise<void> {
   const t0 = performance.now();
   const wanted = process.argv.slice(2);

@@ -20,6 +20,7 @@ import {
   type GasProperties,
   type MeanFlow,
 } from '../duct';
+import { GAMMA_RANGE, MOLAR_MASS_RANGE_KG_PER_MOL } from '../gas';
 import { DEFAULT_MATCH_UNCERTAINTY, matchMeasuredFrequency, type MeasuredMatch } from '../duct-match';
 import type { DuctGeometry } from '../types';
 import { num } from './format';
@@ -57,10 +58,16 @@ export const MODES_OPTIONS: OptionTable = {
   'hot-temp': { kind: 'number', value: 'C', unit: '°C', help: 'gas temperature above the heater, °C (with --heater)' },
   flow: { kind: 'choice', value: 'DIR', choices: ['upward', 'downward', 'none'], help: 'mean flow through the heater: upward (default), downward, none' },
   profile: { kind: 'text', value: 'FILE', help: 'temperature profile, CSV "x_m,temp_c" (linear between points)' },
-  // γ of gases lies between 1 (many atoms) and 5/3 (monatomic): kinetic theory, any physics text.
-  gamma: { kind: 'number', value: 'G', unit: '', min: 1, isMinExclusive: true, max: 1.67, help: 'ratio of specific heats, above 1 and at most 1.67 (5/3, a\nmonatomic gas), held constant; default air\'s γ(T) (NBS table,\n1.401 at -23 °C to 1.309 at 1227 °C)' },
-  // From hydrogen (2.016 g/mol) to heavy refrigerant vapours (SF6 146 g/mol) with margin.
-  'molar-mass': { kind: 'number', value: 'G_MOL', unit: 'g/mol', min: 2, max: 400, help: 'molar mass, g/mol, 2 to 400 (default: air, R = 287.05 J/(kg K))' },
+  // The model's own ranges (dsp/gas.ts GAMMA_RANGE, MOLAR_MASS_RANGE_KG_PER_MOL).
+  gamma: { kind: 'number', value: 'G', unit: '', min: GAMMA_RANGE.min, isMinExclusive: true, max: GAMMA_RANGE.max, help: 'ratio of specific heats, above 1 and at most 5/3 (a monatomic\ngas), held constant; default air\'s γ(T) (NBS table,\n1.401 at -23 °C to 1.309 at 1227 °C)' },
+  'molar-mass': {
+    kind: 'number',
+    value: 'G_MOL',
+    unit: 'g/mol',
+    min: MOLAR_MASS_RANGE_KG_PER_MOL.min * 1000,
+    max: MOLAR_MASS_RANGE_KG_PER_MOL.max * 1000,
+    help: 'molar mass, g/mol, 2 to 400 (default: air, R = 287.05 J/(kg K))',
+  },
   count: { kind: 'number', value: 'N', unit: '', min: 1, max: 200, isInteger: true, help: 'number of modes (default 5, at most 200)' },
   measured: { kind: 'number', value: 'HZ', unit: 'Hz', help: 'a measured tone: every mode it can be, with the gas temperature\neach implies; the best plausible one (-90 to 2130 °C) first' },
   'measured-std': { kind: 'number', value: 'HZ', unit: 'Hz', help: 'standard uncertainty of the measured frequency (default 0.5 Hz)' },

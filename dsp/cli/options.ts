@@ -162,11 +162,14 @@ export function parseNumberValue(label: string, raw: string, spec: Pick<OptionSp
 
 function rangeText(spec: Pick<OptionSpec, 'unit' | 'min' | 'max' | 'isMinExclusive'>): string {
   const u = spec.unit ? ` ${spec.unit}` : '';
-  if (spec.min !== undefined && spec.max !== undefined) {
-    return spec.isMinExclusive ? `above ${spec.min} and at most ${spec.max}${u}` : `${spec.min} to ${spec.max}${u}`;
+  // Six significant digits: a bound such as 5/3 reads 1.66667.
+  const min = spec.min !== undefined ? +spec.min.toPrecision(6) : undefined;
+  const max = spec.max !== undefined ? +spec.max.toPrecision(6) : undefined;
+  if (min !== undefined && max !== undefined) {
+    return spec.isMinExclusive ? `above ${min} and at most ${max}${u}` : `${min} to ${max}${u}`;
   }
-  if (spec.min !== undefined) return `${spec.isMinExclusive ? 'above' : 'at least'} ${spec.min}${u}`;
-  if (spec.max !== undefined) return `at most ${spec.max}${u}`;
+  if (min !== undefined) return `${spec.isMinExclusive ? 'above' : 'at least'} ${min}${u}`;
+  if (max !== undefined) return `at most ${max}${u}`;
   return '';
 }
 

@@ -32,6 +32,8 @@ describe('option names in messages', () => {
   it.each([
     [['modes', '--length', '1', '--diameter', '0.05', '--molar-mass', '0'], EXIT.BAD_PARAMETER, /--molar-mass 0 g\/mol is outside its range \(2 to 400 g\/mol\)/],
     [['modes', '--length', '1', '--diameter', '0.05', '--gamma', '1'], EXIT.BAD_PARAMETER, /--gamma 1 is outside its range/],
+    // γ ≤ 5/3, the monatomic value (kinetic theory, common practice): 1.6667 lies just above it.
+    [['modes', '--length', '1', '--diameter', '0.05', '--gamma', '1.6667'], EXIT.BAD_PARAMETER, /--gamma 1\.6667 is outside its range \(above 1 and at most 1\.66667\)/],
     [['modes', '--length', '1', '--diameter', '0.05', '--temp', '-300'], EXIT.BAD_PARAMETER, /--temp .*absolute zero/],
     [['modes', '--length', '1', '--diameter', '0.05', '--count', '1e308'], EXIT.BAD_PARAMETER, /--count must be a whole number|--count 1e308 is outside/],
     [['simulate', '--out', 'x.wav', '--excitation', '1e308'], EXIT.BAD_PARAMETER, /--excitation 1e308 is outside its range \(0 to 0\.1\)/],

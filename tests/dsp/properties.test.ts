@@ -1,6 +1,7 @@
 // Invariances of the streaming analysis (createAnalysis), checked with fast-check on seeded
 // signals of known truth (dsp/synth.ts). Each property follows from the model the analysis fits,
 // A(t) e^{i2πft} in white noise (DESIGN.md, REFERENCES.md §5–6), not from the code:
+// Tones anywhere in the 40–1000 Hz band, exact mains multiples included.
 // - a gain k multiplies tone and noise alike: frequency, rates and onset times do not change;
 // - a delay d moves every event by d;
 // - the sample rate is not part of the model: 16, 44.1 and 48 kHz give the same figures (for the
@@ -77,7 +78,7 @@ const cycleArb = fc.record({
   onsetS: fc.double({ min: 1, max: 2, noNaN: true }),
   growthPerS: fc.double({ min: 5, max: 20, noNaN: true }),
   decayPerS: fc.double({ min: 4, max: 15, noNaN: true }),
-  frequencyHz: toneHzArb(90, 600),
+  frequencyHz: toneHzArb(40, 1000),
   seed: fc.integer({ min: 1, max: 1_000_000 }),
 });
 
@@ -100,6 +101,15 @@ function expectRatesAgree(a: number | null, aCi: Interval | null | undefined, b:
  */
 function timeTolerance(frameStepS: number, ratePerS: number, levelDb = 1): number {
   return 2 * frameStepS + levelDb / (20 * Math.LOG10E * ratePerS);
+}
+
+/** Half-width of the 95 % interval of onset i, from the cycle that holds it (0 when none gives one). */
+function onsetHalfWidthS(r: Report, i: number): number {
+  const t = r.onsets[i].timeS;
+  for (const tone of r.tones ?? []) {
+    for (const c of tone.cycles ?? []) if (c.onsetS === t && c.onsetCi95S) return (c.onsetCi95S[1] - c.onsetCi95S[0]) / 2;
+  }
+  return 0;
 }
 
 /** Seeded; no shrinking after a failure (each case is whole analyses, and the first counterexample says enough). */
@@ -160,8 +170,13 @@ describe('invariances of the analysis (fast-check, seeded)', () => {
           expectRatesAgree(ref.report.summary.growthRatePerS, ref.report.summary.growthRateCi95PerS, o.report.summary.growthRatePerS, o.report.summary.growthRateCi95PerS, 'growth');
           expectRatesAgree(ref.report.summary.decayRatePerS, ref.report.summary.decayRateCi95PerS, o.report.summary.decayRatePerS, o.report.summary.decayRateCi95PerS, 'decay');
           expect(o.report.onsets.length).toBe(ref.report.onsets.length);
-          const tol = timeTolerance(Math.max(ref.frameStepS, o.frameStepS), c.growthPerS, 3);
-          for (let i = 0; i < o.report.onsets.length; i++) expect(Math.abs(o.report.onsets[i].timeS - ref.report.onsets[i].timeS)).toBeLessThanOrEqual(tol);
+          // The noise differs between the rates, and with it the background the onset is measured
+          // from: onsets agree within 1.5 × the sum of their own 95 % half-widths, as rates do.
+          const frames = timeTolerance(Math.max(ref.frameStepS, o.frameStepS), c.growthPerS);
+          for (let i = 0; i < o.report.onsets.length; i++) {
+            const tol = Math.max(frames, 1.5 * (onsetHalfWidthS(ref.report, i) + onsetHalfWidthS(o.report, i)));
+            expect(Math.abs(o.report.onsets[i].timeS - ref.report.onsets[i].timeS)).toBeLessThanOrEqual(tol);
+          }
         }
       }),
       { ...RUNS, numRuns: 12 },
@@ -172,7 +187,7 @@ describe('invariances of the analysis (fast-check, seeded)', () => {
     fc.assert(
       fc.property(
         fc.double({ min: 4, max: 15, noNaN: true }),
-        toneHzArb(100, 500),
+        toneHzArb(40, 1000),
         fc.integer({ min: 1, max: 1_000_000 }),
         (rate, freq, seed) => {
           const fs = 16000;

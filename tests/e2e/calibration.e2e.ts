@@ -49,7 +49,11 @@ describe('calibration of the microphone', () => {
     // about 94 dB(A) (the slow time weighting may still be settling when read). NIOSH allows
     // T = 8 h / 2^((L − 85)/3) a day (NIOSH 1998, Publ. 98-126; REFERENCES.md §13): the hours shown
     // must follow the level shown, within the rounding of both (0.1 dB → 2.3 %, and 0.05 h).
-    const detail = (await page.locator('#readout-level .tile-detail').textContent()) ?? '';
+    // The tone's own level shows once the analysis follows the tone (a fraction of a second after
+    // the capture opens; the capture starts with a few milliseconds of digital silence).
+    const detailTile = page.locator('#readout-level .tile-detail');
+    await expect.poll(async () => (await detailTile.textContent()) ?? '', { timeout: 10_000, interval: 250 }).toMatch(/tone 9[34]\.\d dB\(A\)/);
+    const detail = (await detailTile.textContent()) ?? '';
     const levelA = /tone (9[34]\.\d) dB\(A\)/.exec(detail);
     expect(levelA).not.toBeNull();
     const hours = /wear hearing protection; NIOSH allows (\d+\.\d) h a day/.exec(detail);
