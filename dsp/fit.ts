@@ -364,22 +364,6 @@ function smoothedShape(inner: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
       const v = buffers(count);
       const idx = plan.index;
       const stride = plan.stride;
-      if (plan.isGrid) {
-        // Shared grid: tap k of sample i reads time top − k, top = index[i·stride] (same sums, no index per tap).
-        for (let i = 0; i < count; i++) {
-          const top = idx[i * stride];
-          let amp = 0;
-          for (let k = 0; k < taps; k++) amp += h[k] * root[top - k];
-          v.g[i] = amp * amp;
-          if (!withGrad) continue;
-          for (let j = 0; j < nn; j++) {
-            let a = 0;
-            for (let k = 0; k < taps; k++) a += h[k] * rootGrad[(top - k) * nn + j];
-            v.grad[i * nn + j] = 2 * amp * a;
-          }
-        }
-        return v;
-      }
       for (let i = 0; i < count; i++) {
         const base = i * stride;
         let amp = 0;
@@ -402,8 +386,6 @@ interface TapPlan {
   times: Float64Array;
   index: Int32Array;
   stride: number;
-  /** True when the taps share one grid: index[i·stride + k] = index[i·stride] − k. */
-  isGrid: boolean;
 }
 
 /**
@@ -418,7 +400,7 @@ function tapPlanner(offsets: Float64Array, spacingS: number): (t: Float64Array, 
   const taps = offsets.length;
   let lastT: Float64Array | null = null;
   let lastN = -1;
-  let last: TapPlan = { times: new Float64Array(0), index: new Int32Array(0), stride: taps, isGrid: false };
+  let last: TapPlan = { times: new Float64Array(0), index: new Int32Array(0), stride: taps };
   const tolerance = 1e-6;
   let isUniform = spacingS > 0;
   for (let k = 1; k < taps && isUniform; k++) if (Math.abs((offsets[k] - offsets[0]) / spacingS - k) > tolerance) isUniform = false;
@@ -437,7 +419,7 @@ function tapPlanner(offsets: Float64Array, spacingS: number): (t: Float64Array, 
     }
     const times = new Float64Array(len);
     for (let m = 0; m < len; m++) times[m] = start + m * spacingS;
-    return { times, index, stride: taps, isGrid: true };
+    return { times, index, stride: taps };
   };
   return (t, n) => {
     if (t === lastT && n === lastN) return last;
@@ -456,7 +438,7 @@ function tapPlanner(offsets: Float64Array, spacingS: number): (t: Float64Array, 
         index[i * taps + k] = i * taps + k;
       }
     }
-    last = { times, index, stride: taps, isGrid: false };
+    last = { times, index, stride: taps };
     return last;
   };
 }
