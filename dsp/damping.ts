@@ -2,11 +2,8 @@
  * Damping of a stable mode excited by its own noise (DESIGN.md stage 7, REFERENCES.md §7): the
  * decay rate α of x'' + 2αx' + ω0²x = ξ from a quiet record, by two estimators with 95 % intervals.
  *
- * 1. Narrow band first. x (possibly 120 s at 8–48 kHz) is mixed down by centreHz and low-passed
- *    and decimated in one pass by a Blackman-windowed-sinc FIR evaluated only at the output
- *    instants (complex taps h[k]·e^{−iωk}), to a complex baseband z at about 8 × the search
- *    half-width. The FIR is flat (ripple ~1e-4) over the search band and rejects everything that
- *    would alias into it by about 74 dB (Blackman window; Harris 1978, Proc. IEEE 66(1)).
+ * 1. Narrow band first. x (possibly 120 s at 8–48 kHz) is mixed down by centreHz to a complex
+ *    baseband z at about 8 × the search half-width (baseband.ts mixDownDecimate).
  * 2. Lorentzian + floor by Whittle likelihood. Near the peak the spectrum of z is
  *    S(f) = C/((f − f0)² + γ²) + B with γ = α/2π (half-power full width α/π). The periodogram
  *    ordinates I_k at the Fourier frequencies of the whole record are nearly independent, each
@@ -30,7 +27,7 @@
  *    understate it. `combined` is therefore the Lorentzian estimate, or the autocorrelation one
  *    when the Lorentzian fit fails.
  */
-import FFT from 'fft.js';
+import { dftAnyLength, fftInPlace, mixDownDecimate, nextPow2, type Baseband } from './baseband';
 import { invertSmallMatrix, studentTQuantile, Z_975 } from './fit';
 import type { DecayEstimate } from './types';
 
@@ -41,173 +38,6 @@ export interface NoiseDrivenDamping {
   lorentzian: DecayEstimate;
   autocorrelation: DecayEstimate;
   combined: DecayEstimate;
-}
-
-/** Complex baseband after mixing and decimation. */
-export interface Baseband {
-  re: Float64Array;
-  im: Float64Array;
-  rateHz: number;
-  /** Time of the first output sample, s, relative to the start of x. */
-  startS: number;
-}
-
-/**
- * The low-pass of mixDownDecimate: Blackman-windowed sinc (Harris 1978) with unit DC gain (taps h
- * sum to 1), decimation factor and output rate ≈ rateMultiple × halfWidthHz (default 8), flat over
- * ±halfWidthHz.
- */
-export function basebandFilter(sampleRateHz: number, halfWidthHz: number, rateMultiple = 8): { h: Float64Array; factor: number; rateHz: number } {
-  const factor = Math.max(1, Math.floor(sampleRateHz / (rateMultiple * halfWidthHz)));
-  const rateHz = sampleRateHz / factor;
-  const transitionHz = rateHz - 2 * halfWidthHz;
-  let taps = Math.ceil((6.6 * sampleRateHz) / transitionHz);
-  if (taps % 2 === 0) taps++;
-  const half = (taps - 1) / 2;
-  const fc = rateHz / 2 / sampleRateHz;
-  const h = new Float64Array(taps);
-  let sum = 0;
-  for (let k = 0; k < taps; k++) {
-    const m = k - half;
-    const sinc = m === 0 ? 2 * fc : Math.sin(2 * Math.PI * fc * m) / (Math.PI * m);
-    const win = 0.42 - 0.5 * Math.cos((2 * Math.PI * k) / (taps - 1)) + 0.08 * Math.cos((4 * Math.PI * k) / (taps - 1));
-    h[k] = sinc * win;
-    sum += h[k];
-  }
-  for (let k = 0; k < taps; k++) h[k] /= sum;
-  return { h, factor, rateHz };
-}
-
-/**
- * Mixes x down by centreHz, low-passes and decimates to a complex baseband whose flat band covers
- * ±halfWidthHz; output rate ≈ rateMultiple × halfWidthHz (default 8). Blackman-windowed sinc FIR
- * (Harris 1978), length chosen for a transition from halfWidthHz to (rate − halfWidthHz), unit gain
- * at centreHz.
- */
-export function mixDownDecimate(x: Float32Array, sampleRateHz: number, centreHz: number, halfWidthHz: number, rateMultiple = 8): Baseband {
-  const { h, factor, rateHz } = basebandFilter(sampleRateHz, halfWidthHz, rateMultiple);
-  const taps = h.length;
-  const half = (taps - 1) / 2;
-  const hr = new Float64Array(taps);
-  const hi = new Float64Array(taps);
-  const w = (2 * Math.PI * centreHz) / sampleRateHz;
-  for (let k = 0; k < taps; k++) {
-    hr[k] = h[k] * Math.cos(w * k);
-    hi[k] = -h[k] * Math.sin(w * k);
-  }
-  const count = x.length >= taps ? Math.floor((x.length - taps) / factor) + 1 : 0;
-  const re = new Float64Array(count);
-  const im = new Float64Array(count);
-  for (let j = 0; j < count; j++) {
-    const n0 = j * factor;
-    let ar = 0;
-    let ai = 0;
-    for (let k = 0; k < taps; k++) {
-      const v = x[n0 + k];
-      ar += hr[k] * v;
-      ai += hi[k] * v;
-    }
-    // Mixer phase at the first tap (float64: error ~ n0·w·1e-16 rad, negligible).
-    const ph = -w * n0;
-    const c = Math.cos(ph);
-    const s = Math.sin(ph);
-    re[j] = ar * c - ai * s;
-    im[j] = ar * s + ai * c;
-  }
-  return { re, im, rateHz, startS: half / sampleRateHz };
-}
-
-/** fft.js plans by size, with their interleaved work arrays (sizes are powers of two: a few at most). */
-const fftPlans = new Map<number, { fft: FFT; input: number[]; output: number[] }>();
-
-/**
- * In-place complex FFT of a power-of-two length through fft.js (the one FFT of the tree);
- * inverse when sign = +1, unscaled (the caller divides by the length).
- */
-export function fftInPlace(re: Float64Array, im: Float64Array, sign: -1 | 1): void {
-  const n = re.length;
-  if (n < 2) return;
-  let plan = fftPlans.get(n);
-  if (plan === undefined) {
-    const fft = new FFT(n);
-    plan = { fft, input: fft.createComplexArray() as number[], output: fft.createComplexArray() as number[] };
-    fftPlans.set(n, plan);
-  }
-  const { input, output } = plan;
-  for (let k = 0; k < n; k++) {
-    input[2 * k] = re[k];
-    input[2 * k + 1] = im[k];
-  }
-  // fft.js scales its inverse by 1/n; undo that to keep the unscaled contract.
-  let scale = 1;
-  if (sign < 0) plan.fft.transform(output, input);
-  else {
-    plan.fft.inverseTransform(output, input);
-    scale = n;
-  }
-  for (let k = 0; k < n; k++) {
-    re[k] = output[2 * k] * scale;
-    im[k] = output[2 * k + 1] * scale;
-  }
-}
-
-function nextPow2(n: number): number {
-  let m = 1;
-  while (m < n) m <<= 1;
-  return m;
-}
-
-/**
- * DFT of any length N by Bluestein's chirp-z identity nk = (n² + k² − (k − n)²)/2 (Bluestein
- * 1970, "A linear filtering approach to the computation of the discrete Fourier transform",
- * IEEE Trans. Audio Electroacoust. 18(4)), through radix-2 FFTs; returns new arrays.
- */
-export function dftAnyLength(re: Float64Array, im: Float64Array): { re: Float64Array; im: Float64Array } {
-  const n = re.length;
-  const m = nextPow2(2 * n - 1);
-  const cr = new Float64Array(n);
-  const ci = new Float64Array(n);
-  const twoN = 2 * n;
-  for (let k = 0; k < n; k++) {
-    // n² mod 2N in exact integer arithmetic keeps the chirp phase accurate for long records.
-    const r = (k * k) % twoN;
-    const ang = (Math.PI * r) / n;
-    cr[k] = Math.cos(ang);
-    ci[k] = -Math.sin(ang);
-  }
-  const ar = new Float64Array(m);
-  const ai = new Float64Array(m);
-  for (let k = 0; k < n; k++) {
-    ar[k] = re[k] * cr[k] - im[k] * ci[k];
-    ai[k] = re[k] * ci[k] + im[k] * cr[k];
-  }
-  const br = new Float64Array(m);
-  const bi = new Float64Array(m);
-  br[0] = cr[0];
-  bi[0] = -ci[0];
-  for (let k = 1; k < n; k++) {
-    br[k] = cr[k];
-    bi[k] = -ci[k];
-    br[m - k] = cr[k];
-    bi[m - k] = -ci[k];
-  }
-  fftInPlace(ar, ai, -1);
-  fftInPlace(br, bi, -1);
-  for (let k = 0; k < m; k++) {
-    const tr = ar[k] * br[k] - ai[k] * bi[k];
-    ai[k] = ar[k] * bi[k] + ai[k] * br[k];
-    ar[k] = tr;
-  }
-  fftInPlace(ar, ai, 1);
-  const outR = new Float64Array(n);
-  const outI = new Float64Array(n);
-  for (let k = 0; k < n; k++) {
-    const vr = ar[k] / m;
-    const vi = ai[k] / m;
-    outR[k] = vr * cr[k] - vi * ci[k];
-    outI[k] = vr * ci[k] + vi * cr[k];
-  }
-  return { re: outR, im: outI };
 }
 
 /**

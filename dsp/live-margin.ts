@@ -7,7 +7,7 @@
  * fold is a floor the estimator removes). pushLiveMargin allocates nothing; estimateLiveMargin
  * works on the whole window and allocates.
  */
-import { fftInPlace, mixDownDecimate } from './damping';
+import { fftInPlace, mixDownDecimate } from './baseband';
 import { earlyWarningIndicators } from './early-warning';
 import { estimateModeStatistics } from './mode-statistics';
 import { isMainsMultiple, MAINS_HZ } from './track';

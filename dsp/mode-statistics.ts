@@ -11,7 +11,8 @@
  * ±halfWidthHz), scaled so |u| is the tone's peak amplitude, and turned at the mean phase rate so
  * the mode sits at 0 Hz. Whole-stretch function: it allocates; it never throws.
  */
-import { basebandFilter, dftAnyLength, fitLorentzianWhittle, mixDownDecimate } from './damping';
+import { basebandFilter, dftAnyLength, mixDownDecimate } from './baseband';
+import { fitLorentzianWhittle } from './damping';
 import { estimateEnvelopeStatistics, type BandFilterEffect, type ComplexEnvelope, type RouteEstimate } from './envelope-statistics';
 import { incompleteBeta, Z_975 } from './fit';
 import type { Interval, ModeStatistics, NoiseRegime } from './types';

@@ -2,14 +2,12 @@
  * Line classification by envelope statistics (docs/DESIGN.md "Noise segments"): a growth or
  * decay that the band's own noise explains is quiet, not a hum.
  */
-import { logSecondDifferenceMs, NOISE_D2, NOISE_TEST_LAG_S, ON_DB, STATE_DECAY, STATE_GROWTH, STATE_QUIET, type RegimeSegment } from './regime';
+import { logSecondDifferenceMs, NOISE_D2, noiseMeanOfSamples, NOISE_TEST_LAG_S, ON_DB, STATE_DECAY, STATE_GROWTH, STATE_QUIET, type RegimeSegment } from './regime';
 import { topPowerIn, type ToneRuntime } from './tone-store';
 
 /** Window either side of a growth or decay in which its noise level is judged, s, and how far above the spectral background that level may lie, dB. */
 const NOISE_PAD_S = 1;
 const NOISE_SPAN_DB = 20;
-/** Quantile of the envelope power that estimates the band's own noise, (the mean of an exponential variable is its q-quantile / −ln(1 − q)). */
-const NOISE_QUANTILE = 0.2;
 
 /**
  * Whether a growth or decay segment is noise, reading the store up to entry `limit` (exclusive).
@@ -37,8 +35,7 @@ export function isNoiseSegment(tr: ToneRuntime, s: RegimeSegment, limit: number)
     }
   }
   if (vals.length < 8 || bgCount === 0) return false;
-  vals.sort((a, b) => a - b);
-  const noiseMean = vals[Math.floor(NOISE_QUANTILE * vals.length)] / -Math.log(0.8);
+  const noiseMean = noiseMeanOfSamples(vals);
   if (!(noiseMean < 10 ** (NOISE_SPAN_DB / 10) * (bgSum / bgCount))) {
     // Far above the spectral background: noise only if the envelope jumps about as noise does
     // (a noise-driven resonance), not if it is smooth (a dip in a loud tone).

@@ -120,6 +120,17 @@ export interface ToneEntry {
   isMainsFrequency?: boolean;
   /** Its cycles in time order. */
   cycles?: Cycle[];
+  /**
+   * Lines grouped under this tone as its harmonics (near k·f with an envelope locked to the
+   * tone's, dsp/locking.ts), so they are not tones of their own. Absent when not listed.
+   */
+  harmonics?: HarmonicEntry[];
+}
+
+/** A harmonic of a tone: its order k (2, 3, ...) and its frequency, Hz. */
+export interface HarmonicEntry {
+  k: number;
+  frequencyHz: number;
 }
 
 export interface NoiseDriven {

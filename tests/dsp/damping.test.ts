@@ -1,13 +1,7 @@
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
-import {
-  dftAnyLength,
-  estimateNoiseDrivenDamping,
-  fftInPlace,
-  fitLorentzianWhittle,
-  mixDownDecimate,
-  noiseDrivenMeanSquare,
-} from '../../dsp/damping';
+import { dftAnyLength, fftInPlace, mixDownDecimate } from '../../dsp/baseband';
+import { estimateNoiseDrivenDamping, fitLorentzianWhittle, noiseDrivenMeanSquare } from '../../dsp/damping';
 import { createRng, noiseDrivenMode, synthesize } from '../../dsp/synth';
 import { expectedScalar, ref } from '../reference/values';
 

@@ -5,6 +5,7 @@ import { join } from 'node:path';
 import { APP_URL, launch, screenshot, type Launched } from './browser';
 import { FIXTURE_DIR, firstNumber, writeFixture } from './fixtures';
 import { synthesize } from '../../dsp/synth';
+import { encodeWav } from '../../dsp/io/wav-write';
 
 // The field app end to end: the verdict at a glance on recordings of known truth, a session with
 // no duct given, re-analysis with a moved marker, Compare's before/after sentence, and a
@@ -114,6 +115,13 @@ describe('the field app', () => {
     // After the hum the frequency stays beside its rates.
     expect(firstNumber(await page.locator('#readout-frequency .tile-value').textContent())).toBeGreaterThan(170);
     await screenshot(page, 'verdict-humming');
+    // Its cycle (report version 2): onset, growth and decay rates with their intervals, under its tone.
+    const cycles = page.locator('#run-result #cycles');
+    expect(await cycles.getAttribute('data-report-version')).toBe('2');
+    const cells = await cycles.locator('#cycles-table tbody tr').first().locator('td').allTextContents();
+    expect(cells[2]).toMatch(/^[\d.]+ s \(95 % CI [\d.]+–[\d.]+\)$/);
+    expect(cells[3]).toMatch(/^[\d.]+ 1\/s \(95 % CI [\d.]+–[\d.]+\)$/);
+    expect(cells[5]).toMatch(/^[\d.]+ 1\/s \(95 % CI [\d.]+–[\d.]+\)$/);
   });
 
   it('re-analyses a stored session with a moved "driving off" marker', async () => {
@@ -194,5 +202,49 @@ describe('the field app', () => {
     await page.setInputFiles('#file-input', join(FIXTURE_DIR, 'sensor-2khz.csv'));
     await expect.poll(async () => (await page.locator('#csv-rate-error').textContent()) ?? '').toMatch(/“Sample rate of a one-column CSV” must be a number of Hz from 500 to 192000/);
     await page.fill('#csv-rate', '');
+  });
+
+  it('on a 390 px phone the margin to humming takes a row of its own, and the sensor-CSV options read as options', async () => {
+    const { page } = b;
+    await page.setViewportSize({ width: 390, height: 844 });
+    try {
+      await openFile(page, stable.wav);
+      const margin = page.locator('#readouts .live-margin');
+      await expect.poll(() => margin.isVisible(), { timeout: 15_000 }).toBe(true);
+      const [box, grid, q] = await Promise.all([margin.boundingBox(), page.locator('#readouts').boundingBox(), page.locator('#readout-q').boundingBox()]);
+      // Not squeezed into the column beside the Q tile: as wide as the grid, below the Q tile.
+      expect(box?.width ?? 0).toBeGreaterThan(0.95 * (grid?.width ?? 1));
+      expect(box?.y ?? 0).toBeGreaterThanOrEqual((q?.y ?? 0) + (q?.height ?? 0));
+      // After a WAV the sensor-CSV choice is an option for the next file, not a heading over this result.
+      expect(await page.locator('#csv-options summary').textContent()).toBe('Opening a one-column sensor CSV? Its sample rate and unit');
+      await screenshot(page, 'phone-verdict-stable');
+      expect(await page.evaluate(() => document.documentElement.scrollWidth)).toBeLessThanOrEqual(390);
+    } finally {
+      await page.setViewportSize({ width: 412, height: 915 });
+    }
+  });
+
+  it('shows a knock on a stable duct as two ring-downs (knock) with their decay rates and no onset', async () => {
+    // Two modes knocked at 3 s: 140 Hz ringing down at 6 1/s, 291 Hz at 15 1/s (the case of tests/dsp/tone-model.test.ts).
+    const fs = 16000;
+    const knock = (a: number, rate: number) => (t: number) => (t >= 3 ? a * Math.exp(-rate * (t - 3)) : 0);
+    const x = synthesize({ sampleRateHz: fs, durationS: 7, tones: [{ frequencyHz: 140, envelope: knock(0.3, 6) }, { frequencyHz: 291, envelope: knock(0.1, 15) }], noiseRms: 0.001, seed: 5 });
+    const { page } = b;
+    await openFile(page, writeFixture('knock-two-modes.wav', encodeWav(x, fs, 'pcm16')));
+    const rows = page.locator('#run-result #cycles tbody tr[data-kind="ring-down"]');
+    expect(await rows.count()).toBe(2);
+    for (const [k, truth] of [[0, 6], [1, 15]] as const) {
+      const cells = await page.locator('#run-result #cycles section.tone-cycles').nth(k).locator('tbody tr td').allTextContents();
+      expect(cells[2]).toBe('none (ring-down after a knock)');
+      expect(cells[5]).toMatch(/^ring-down \(knock\) [\d.]+ 1\/s \(95 % CI [\d.]+–[\d.]+\)$/);
+      // Within the larger of the interval and 5 % of the truth (the tolerance of the analysis tests).
+      const [rate, lo, hi] = numbers(cells[5] ?? '');
+      expect(Math.abs((rate ?? 0) - truth)).toBeLessThanOrEqual(Math.max(((hi ?? 0) - (lo ?? 0)) / 2, 0.05 * truth));
+    }
+    expect(await page.locator('#run-result').textContent()).toMatch(/· 0 onsets ·/);
+    // The verdict takes the damping from the ring-down of the least-damped mode (140 Hz, ζ = 6/(2π·140) = 0.0068).
+    expect(await page.locator('#readout-verdict').getAttribute('data-verdict')).toBe('stable');
+    expect((await page.locator('#readout-verdict .tile-detail').textContent()) ?? '').toMatch(/^decay rate [\d.]+ 1\/s .* damping ratio 0\.00[67]\d* /);
+    await screenshot(page, 'knock-ring-downs');
   });
 });

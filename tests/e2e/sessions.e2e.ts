@@ -277,4 +277,38 @@ describe('recording and crash recovery', () => {
       await second.close();
     }
   });
+
+  it('opens a stored session whose report is of version 1 (before per-tone cycles), and says what it lacks', async () => {
+    const fresh = await launch();
+    const { page } = fresh;
+    try {
+      const old = sampleSession({ id: 'old-report-0001', site: 'Archive rig', createdAtMs: Date.UTC(2025, 5, 1, 9, 0) });
+      // Two firing cycles as version 1 told them: segments only, no tones, no cycles.
+      const seg = (kind: 'quiet' | 'growth' | 'steady' | 'decay', startS: number, endS: number, ratePerS: number | null) => ({ kind, startS, endS, frequencyHz: 171.2, ratePerS, rateCi95PerS: ratePerS === null ? null : ([ratePerS - 0.3, ratePerS + 0.3] as [number, number]) });
+      old.record.report = {
+        ...old.record.report!,
+        reportVersion: 1,
+        segments: [seg('quiet', 0, 1, null), seg('growth', 1, 2, 4), seg('steady', 2, 3, null), seg('decay', 3, 4, -5), seg('quiet', 4, 5, null), seg('growth', 5, 6, 4.4), seg('decay', 6, 7, -5.2)],
+      };
+      const path = join(TMP, 'old-report.zip');
+      writeFileSync(path, buildBundle([old]));
+      await page.goto(`${APP_URL}#sessions`);
+      await dismissFirstRun(page);
+      await page.waitForSelector('#import-file', { state: 'attached' });
+      await page.setInputFiles('#import-file', path);
+      await expect.poll(() => page.locator('#status').textContent()).toMatch(/imported 1 session/);
+      await page.click('.session-item[data-id="old-report-0001"] .session-link');
+      await page.waitForSelector('#cycles');
+      expect(await page.locator('#cycles').getAttribute('data-report-version')).toBe('1');
+      expect(await page.locator('#cycles-old-report').textContent()).toMatch(/^This report is of version 1 \(an earlier version of the app\): cycles rebuilt from the segments .*no onset times/);
+      const rows = await page.locator('#cycles-table tbody tr').count();
+      expect(rows).toBe(2);
+      // Median of 4 and 4.4 is 4.2; MAD 0.2 × 1.4826 = 0.297 (REFERENCES.md §95).
+      expect(await page.locator('#cycles .cycle-medians').textContent()).toMatch(/growth rate: median 4\.20 1\/s, spread 0\.297 1\/s over 2 cycles/);
+      await screenshot(page, 'session-old-report');
+    } finally {
+      await fresh.close();
+    }
+  });
 });
+

@@ -5,7 +5,7 @@ import { DIAMETER_RANGE_M, GAS_TEMPERATURE_RANGE_C, LENGTH_RANGE_M } from '../..
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { strFromU8, unzipSync } from 'fflate';
-import type { Interval, Marker, Report, Segment, TrackFrame } from '../../dsp/types';
+import type { Cycle, Interval, Marker, Report, Segment, TrackFrame } from '../../dsp/types';
 import { openSessionDb } from '../../web/storage/db';
 import { buildBundle, toJsonText, toSessionFile } from '../../web/storage/export';
 import { importBundle, readBundle } from '../../web/storage/import';
@@ -142,8 +142,23 @@ function defined<T extends object>(o: T): T {
 }
 
 const segment: fc.Arbitrary<Segment> = fc
-  .record({ kind: regime, startS: anyNumber, endS: anyNumber, frequencyHz: anyNumber, ratePerS: orNull(anyNumber), rateCi95PerS: orNull(interval), model: maybe(orNull(fc.constantFrom('exponential', 'stuart-landau', 'generalised-saturation', 'log-linear'))), limitAmplitudeDbfs: maybe(orNull(anyNumber)) })
+  .record({ kind: regime, startS: anyNumber, endS: anyNumber, frequencyHz: anyNumber, ratePerS: orNull(anyNumber), rateCi95PerS: orNull(interval), model: maybe(orNull(fc.constantFrom('exponential', 'stuart-landau', 'generalised-saturation', 'log-linear'))), limitAmplitudeDbfs: maybe(orNull(anyNumber)), isImpulseResponse: maybe(fc.boolean()) })
   .map(defined);
+
+/** A cycle of a tone (report version 2): times are finite and not before the start. */
+const cycle: fc.Arbitrary<Cycle> = fc.record({
+  startS: finiteNumber(0, 1e6),
+  endS: finiteNumber(0, 1e6),
+  onsetS: orNull(finiteNumber(0, 1e6)),
+  onsetCi95S: orNull(interval),
+  growthRatePerS: orNull(anyNumber),
+  growthRateCi95PerS: orNull(interval),
+  limitAmplitudeDbfs: orNull(anyNumber),
+  limitAmplitudeCi95Dbfs: orNull(interval),
+  decayRatePerS: orNull(anyNumber),
+  decayRateCi95PerS: orNull(interval),
+  isImpulseResponse: fc.boolean(),
+});
 
 const report: fc.Arbitrary<Report> = fc
   .record({
@@ -169,9 +184,17 @@ const report: fc.Arbitrary<Report> = fc
         frequencyHz: orNull(anyNumber), growthRatePerS: orNull(anyNumber), decayRatePerS: orNull(anyNumber), effectiveGainPerS: orNull(anyNumber), dampingRatio: orNull(anyNumber), qFactor: orNull(anyNumber),
         growthRateCi95PerS: maybe(orNull(interval)), decayRateCi95PerS: maybe(orNull(interval)), effectiveGainCi95PerS: maybe(orNull(interval)), dampingRatioCi95: maybe(orNull(interval)), qFactorCi95: maybe(orNull(interval)),
         eFoldingTimeS: maybe(orNull(anyNumber)), doublingTimeS: maybe(orNull(anyNumber)), t60S: maybe(orNull(anyNumber)), limitAmplitudeDbfs: maybe(orNull(anyNumber)),
+        growthRateCycleMedianPerS: maybe(orNull(anyNumber)), growthRateCycleSpreadPerS: maybe(orNull(anyNumber)), decayRateCycleMedianPerS: maybe(orNull(anyNumber)), decayRateCycleSpreadPerS: maybe(orNull(anyNumber)), cycleCount: maybe(fc.integer({ min: 0, max: 1000 })),
       })
       .map(defined),
-    tones: maybe(fc.array(fc.record({ frequencyHz: anyNumber, isSteadyLine: fc.boolean() }), { maxLength: 3 })),
+    tones: maybe(
+      fc.array(
+        fc
+          .record({ frequencyHz: anyNumber, isSteadyLine: fc.boolean(), isMainsFrequency: maybe(fc.boolean()), cycles: maybe(fc.array(cycle, { maxLength: 2 })), harmonics: maybe(fc.array(fc.record({ k: fc.integer({ min: 2, max: 1000 }), frequencyHz: anyNumber }), { maxLength: 2 })) })
+          .map(defined),
+        { maxLength: 3 },
+      ),
+    ),
     clipped: maybe(fc.array(fc.record({ startS: anyNumber, endS: anyNumber }), { maxLength: 2 })),
     warnings: maybe(fc.array(anyText(300), { maxLength: 2 })),
   })

@@ -6,6 +6,8 @@ import { buildBundle } from '../../web/storage/export';
 import { importBundle, parseJsonSafely } from '../../web/storage/import';
 import { bytesSource, DEFAULT_ZIP_LIMITS, listZip } from '../../web/storage/zip-read';
 import { sampleSession } from './export-sample';
+import { loadFullSession } from '../../web/storage/sessions';
+import { cyclesOf, VERSION_1_MISSING } from '../../web/run/cycles';
 
 let dbCount = 0;
 const uniqueName = (): string => `humgauge-import-${process.pid}-${Date.now()}-${dbCount++}`;
@@ -57,6 +59,28 @@ describe('a valid bundle imports', () => {
     const db = await openSessionDb({ name: uniqueName() });
     const r = await importBundle(db, zipSync(unpacked().files));
     expect(r.imported).toHaveLength(2);
+    db.close();
+  });
+});
+
+describe('a bundle exported with a report of version 1 (before per-tone cycles) still imports', () => {
+  it('imports it unchanged, and the cycle table rebuilds its cycles and says what it lacks', async () => {
+    // A version-1 report: no cycles, no harmonics, no per-cycle medians, tones without cycles.
+    const bytes = withSecondSession((json) => {
+      const r = json.session.report;
+      r.reportVersion = 1;
+      r.tones = [{ frequencyHz: 171.2, isSteadyLine: false }];
+      for (const k of Object.keys(r.summary)) if (/Cycle/.test(k)) delete r.summary[k];
+      for (const s of r.segments) delete s.isImpulseResponse;
+    });
+    const db = await openSessionDb({ name: uniqueName() });
+    const result = await importBundle(db, bytes);
+    expect(result.imported).toHaveLength(2);
+    const full = await loadFullSession(db, 'second-0001');
+    expect(full?.record.report?.reportVersion).toBe(1);
+    const rc = cyclesOf(full!.record.report!);
+    expect(rc.missing).toEqual(VERSION_1_MISSING);
+    expect(rc.tones.flatMap((t) => t.cycles).length).toBeGreaterThan(0);
     db.close();
   });
 });

@@ -1,12 +1,14 @@
 import { describe, expect, it } from 'vitest';
 import { createTimeWeightedLevel, stepTimeWeightedLevel, TIME_CONSTANT_S, weightedLevelDb } from '../../web/run/time-weighting';
-import { classifyMargin, dampingRatioOf, formatQuietMargin, NEAR_THRESHOLD_DAMPING_RATIO, quietMargin, verdictOf } from '../../web/run/verdict';
+import { classifyMargin, dampingRatioOf, formatQuietMargin, NEAR_THRESHOLD_DAMPING_RATIO, quietMargin, ringDownMargin, STABILITY_WORDS, stabilityOf, verdictOf } from '../../web/run/verdict';
+import { regimeFromInterval } from '../../dsp/mode-statistics';
 import { paFromSplDb, sensorOffsetDb } from '../../web/run/sensor';
-import { cyclesOf } from '../../web/run/cycles';
+import { cycledTones, cyclesOf, MAD_TO_SD, medianAndSpread, steadyLinesLine, VERSION_1_MISSING } from '../../web/run/cycles';
+import { cycleCells } from '../../web/run/cycles';
 import { emptyLiveSummary } from '../../web/worker/live-summary';
 import { formatPa, formatQ, formatRatio } from '../../web/format';
 import { splitInterval } from '../../web/views/live-readouts';
-import type { ModeStatistics, NoiseDriven, Report, Segment, Summary } from '../../dsp/types';
+import type { Cycle, ModeStatistics, NoiseDriven, Report, Segment, Summary } from '../../dsp/types';
 import { beforeAfterSentences, formatChange, rateChange } from '../../web/run/compare';
 import { checkReanalysis, octaveAround } from '../../web/run/reanalyse';
 
@@ -93,6 +95,28 @@ describe('verdict at a glance (REFERENCES.md §5, §6, §92)', () => {
     expect(classifyMargin({ growthRatePerS: 1, ci95PerS: [0.5, 1.5], frequencyHz: 174.4, basis: '' })).toBe('humming');
   });
 
+  it('takes the margin of a knocked duct from its least-damped ring-down (REFERENCES.md §6), with no onset', () => {
+    // 140 Hz at 6 1/s: ζ = 6/(2π·140) = 0.00682; 291 Hz at 15 1/s: ζ = 0.0082. The first sets the margin.
+    const ring = (f: number, rate: number): Segment => ({ kind: 'decay', startS: 3, endS: 4, frequencyHz: f, ratePerS: -rate, rateCi95PerS: [-rate - 0.1, -rate + 0.1], isImpulseResponse: true });
+    const m = ringDownMargin([ring(291, 15), ring(140, 6), { ...ring(500, 1), isImpulseResponse: false }]);
+    expect(m?.frequencyHz).toBe(140);
+    const v = verdictOf({ summary: emptyLiveSummary(), segments: [ring(291, 15), ring(140, 6)], isFinal: true });
+    expect(v.kind).toBe('stable');
+    expect(v.margin).toBe('decay rate 6.00 1/s (95 % CI 5.90–6.10) · damping ratio 0.00682 (95 % CI 0.00671–0.00693)');
+  });
+
+  it('makes one call for the live verdict, the live margin and the report: the sign the interval allows (§42), then ζ (§92)', () => {
+    // Where ζ is large the app's call is the noise statistics' regime of REFERENCES.md §42 exactly.
+    for (const ci of [[-9, -3], [-9, 2], [1, 4], [-4, 0]] as [number, number][]) {
+      const nu = (ci[0] + ci[1]) / 2;
+      expect(stabilityOf(nu, ci, 50)).toBe(regimeFromInterval(ci));
+    }
+    // A stretch the §42 rule calls stable is near threshold under ζ = 0.005: 3 1/s at 174.4 Hz is ζ = 0.0027.
+    expect(regimeFromInterval([-3.5, -2.5])).toBe('stable');
+    expect(stabilityOf(-3, [-3.5, -2.5], 174.4)).toBe('near-threshold');
+    expect(STABILITY_WORDS[stabilityOf(-3, [-3.5, -2.5], 174.4)]).toBe('near threshold');
+  });
+
   it('takes the least-damped noise-excited resonance as the margin, not the loudest or the first', () => {
     // The margin of a system is that of its least stable mode (REFERENCES.md §6): 176 Hz at 5 1/s
     // (ζ 0.0045) beats 343 Hz at 61 1/s (ζ 0.028), the case the field test met at 44.1 kHz.
@@ -172,37 +196,70 @@ describe('per-cycle table', () => {
   });
   const report = (segments: Segment[]): Report => ({ reportVersion: 1, sampleRateHz: 48000, durationS: 60, onsets: [], segments, noiseDriven: [], summary: { frequencyHz: 171, growthRatePerS: null, decayRatePerS: null, effectiveGainPerS: null, dampingRatio: null, qFactor: null } });
 
-  it('makes one row per rise, with the decay that ends it (decay shown as a positive rate)', () => {
-    const rows = cyclesOf(report([seg('quiet', 0, 2, null), seg('growth', 2, 3, 7), seg('steady', 3, 8, null), seg('decay', 8, 9, -4.5), seg('quiet', 9, 20, null), seg('growth', 20, 21, 6), seg('decay', 25, 26, -5)]));
+  it('rebuilds a version-1 report: one cycle per rise, with the decay that ends it (decay shown as a positive rate)', () => {
+    const rc = cyclesOf(report([seg('quiet', 0, 2, null), seg('growth', 2, 3, 7), seg('steady', 3, 8, null), seg('decay', 8, 9, -4.5), seg('quiet', 9, 20, null), seg('growth', 20, 21, 6), seg('decay', 25, 26, -5)]));
+    expect(rc.tones.length).toBe(1);
+    const rows = rc.tones[0]!.cycles;
     expect(rows.length).toBe(2);
-    expect(rows[0]).toMatchObject({ startS: 2, endS: 9, growthRatePerS: 7, decayRatePerS: 4.5, decayRateCi95PerS: [4, 5] });
+    expect(rows[0]).toMatchObject({ startS: 2, endS: 9, growthRatePerS: 7, decayRatePerS: 4.5, decayRateCi95PerS: [4, 5], onsetS: null });
     expect(rows[1]).toMatchObject({ startS: 20, endS: 26, growthRatePerS: 6, decayRatePerS: 5 });
+    // What version 1 cannot tell is said, not left blank.
+    expect(rc.missing).toEqual(VERSION_1_MISSING);
   });
 
-  it('keeps the cycles of two tones apart', () => {
-    const rows = cyclesOf(report([seg('growth', 1, 2, 7, 171), seg('growth', 1.5, 2.5, 9, 343), seg('decay', 5, 6, -4, 171), seg('decay', 5.5, 6.5, -30, 343)]));
-    expect(rows.map((r) => [r.frequencyHz, r.decayRatePerS])).toEqual([[171, 4], [343, 30]]);
+  it('keeps the cycles of two tones of a version-1 report apart', () => {
+    const rc = cyclesOf(report([seg('growth', 1, 2, 7, 171), seg('growth', 1.5, 2.5, 9, 343), seg('decay', 5, 6, -4, 171), seg('decay', 5.5, 6.5, -30, 343)]));
+    expect(rc.tones.map((t) => [t.frequencyHz, t.cycles.map((c) => c.decayRatePerS)])).toEqual([[171, [4]], [343, [30]]]);
   });
 
-  // A report cycle (dsp/types.ts Cycle) with only its times and growth rate known.
-  const cycle = (startS: number, endS: number, growthRatePerS: number) => ({
+  // A report cycle (dsp/types.ts Cycle) with its times and rates.
+  const cycle = (startS: number, endS: number, growthRatePerS: number | null, decayRatePerS: number | null = null, isImpulseResponse = false): Cycle => ({
     startS,
     endS,
-    onsetS: null,
-    onsetCi95S: null,
+    onsetS: growthRatePerS === null ? null : startS,
+    onsetCi95S: growthRatePerS === null ? null : [startS - 0.05, startS + 0.05],
     growthRatePerS,
-    growthRateCi95PerS: null,
+    growthRateCi95PerS: growthRatePerS === null ? null : [growthRatePerS - 0.2, growthRatePerS + 0.2],
     limitAmplitudeDbfs: null,
     limitAmplitudeCi95Dbfs: null,
-    decayRatePerS: null,
-    decayRateCi95PerS: null,
-    isImpulseResponse: false,
+    decayRatePerS,
+    decayRateCi95PerS: decayRatePerS === null ? null : [decayRatePerS - 0.3, decayRatePerS + 0.3],
+    isImpulseResponse,
+  });
+  const v2 = (tones: NonNullable<Report['tones']>): Report => ({ ...report([]), reportVersion: 2, tones });
+
+  it('uses a version-2 report’s own cycles per tone, harmonics under their tone', () => {
+    const rc = cyclesOf(v2([{ frequencyHz: 171, isSteadyLine: false, cycles: [cycle(10, 14, 6.5), cycle(1, 5, 7)], harmonics: [{ k: 3, frequencyHz: 513 }, { k: 2, frequencyHz: 342 }] }, { frequencyHz: 50, isSteadyLine: true, isMainsFrequency: true, cycles: [] }]));
+    expect(rc.missing).toEqual([]);
+    expect(rc.tones.length).toBe(2);
+    expect(rc.tones[0]!.cycles.map((c) => c.growthRatePerS)).toEqual([7, 6.5]);
+    expect(rc.tones[0]!.harmonics.map((h) => h.k)).toEqual([2, 3]);
+    expect(rc.tones[1]).toMatchObject({ isSteadyLine: true, isMainsFrequency: true, cycles: [] });
+    // The table shows the tone's cycles; the steady mains line is named in a sentence, not as a tone with cycles.
+    expect(cycledTones(rc).map((t) => t.frequencyHz)).toEqual([171]);
+    expect(steadyLinesLine(rc)).toBe('Steady lines (never grew or decayed: no firing cycles): 50.0 Hz (mains multiple).');
   });
 
-  it('uses the report’s own cycles when it has them', () => {
-    const r = report([]) as Report & { tones: unknown[] };
-    r.tones = [{ frequencyHz: 171, isSteadyLine: false, cycles: [cycle(1, 5, 7), cycle(10, 14, 6.5)] }];
-    expect(cyclesOf(r).map((c) => c.growthRatePerS)).toEqual([7, 6.5]);
+  it('gives the median across cycles with the spread 1.4826 × MAD (Rousseeuw & Croux 1993, REFERENCES.md §95)', () => {
+    // Worked by hand: rates 6, 7, 8, 7.5, 30 -> median 7.5; |deviations| 1.5, 0.5, 0.5, 0, 22.5 -> MAD 0.5 -> spread 0.7413.
+    const rc = cyclesOf(v2([{ frequencyHz: 171, isSteadyLine: false, cycles: [cycle(0, 5, 6, 4), cycle(10, 15, 7, 5), cycle(20, 25, 8), cycle(30, 35, 7.5), cycle(40, 45, 30)] }]));
+    const g = rc.tones[0]!.growth!;
+    expect(g.medianPerS).toBe(7.5);
+    expect(g.spreadPerS).toBeCloseTo(0.7413, 4);
+    expect(g.count).toBe(5);
+    // Two decays: median is their mean; one cycle alone gives no median (its own interval says more).
+    expect(rc.tones[0]!.decay).toMatchObject({ medianPerS: 4.5, count: 2 });
+    expect(medianAndSpread([3])).toBeNull();
+    // The normal-consistency constant is 1/Φ⁻¹(3/4), Φ⁻¹(0.75) = 0.6744898 (normal tables).
+    expect(MAD_TO_SD).toBeCloseTo(1 / 0.6744898, 4);
+  });
+
+  it('shows a ring-down after a knock as a decay with no onset and no growth', () => {
+    const rc = cyclesOf(v2([{ frequencyHz: 240, isSteadyLine: false, cycles: [cycle(2, 3, null, 15, true)] }]));
+    const cells = cycleCells(rc.tones[0]!.cycles[0]!, 0);
+    expect(cells[2]).toBe('none (ring-down after a knock)');
+    expect(cells[3]).toBe('— (knock)');
+    expect(cells[5]).toBe('ring-down (knock) 15.0 1/s (95 % CI 14.7–15.3)');
   });
 });
 

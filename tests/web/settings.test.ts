@@ -10,7 +10,7 @@ import {
   toDbSpl,
   type KeyValueStore,
 } from '../../web/settings';
-import { createLiveBuffer, appendFrames, fitLineOf, rowCount, rowIndex } from '../../web/run/live-buffer';
+import { createLiveBuffer, appendFrames, fitLineOf, rowCount, rowIndex, trackOverview } from '../../web/run/live-buffer';
 import { parseControlValue } from '../../web/views/live-markers';
 import type { TrackFrame } from '../../dsp/types';
 
@@ -134,5 +134,24 @@ describe('live buffer', () => {
     // The track is exactly on the line, so the intercept is the track's start level.
     expect(line?.interceptDb).toBeCloseTo(-10, 9);
     expect(fitLineOf(b, { kind: 'steady', startS: 2, endS: 3, frequencyHz: 170, ratePerS: null, rateCi95PerS: null })).toBeNull();
+  });
+
+  it('reduces a long track to min and max per pixel column, keeping spikes and gaps (uPlot habit, common practice)', () => {
+    // 60 s at 100 rows/s, a sine of ±10 dB around −40 dBFS with one spike to −5 dBFS and one gap.
+    const b = createLiveBuffer(60_000);
+    const frames: TrackFrame[] = [];
+    for (let i = 0; i < 6000; i++) frames.push(frame(i * 0.01, i === 3333 ? -5 : -40 + 10 * Math.sin(i / 37), i === 4000));
+    appendFrames(b, frames);
+    const o = trackOverview(b, 0, 300, -160);
+    // At most 4 rows per column plus the gap row, and far fewer than the rows held.
+    expect(o.timeS.length).toBeLessThanOrEqual(4 * 301 + 1);
+    expect(o.timeS.length).toBeLessThan(1500);
+    for (let k = 1; k < o.timeS.length; k++) expect(o.timeS[k]).toBeGreaterThan(o.timeS[k - 1] ?? 0);
+    const amps = o.amplitudeDbfs.filter((a): a is number => a !== null);
+    expect(Math.max(...amps)).toBe(-5);
+    expect(Math.min(...amps)).toBeCloseTo(-50, 2);
+    expect(o.amplitudeDbfs.includes(null)).toBe(true);
+    // From a later time: only rows from there on.
+    expect(trackOverview(b, 50, 300, -160).timeS[0]).toBeGreaterThanOrEqual(50);
   });
 });

@@ -4,7 +4,7 @@ import { createAnalysis } from '../../dsp/index';
 import { humCycleEnvelope, synthesize } from '../../dsp/synth';
 import { openSessionDb } from '../../web/storage/db';
 import { createSessionRecorder } from '../../web/storage/recorder';
-import { analyseStoredAudio } from '../../web/storage/reanalyse';
+import { analyseStoredAudio, reanalyseInThread } from '../../web/storage/reanalyse';
 import { recoverInterruptedSessions } from '../../web/storage/sessions';
 
 describe('recovery by analysing the stored audio again', () => {
@@ -38,6 +38,31 @@ describe('recovery by analysing the stored audio again', () => {
     const expected = direct.finish();
     expect(stored.report).toEqual(expected);
     expect(stored.report?.onsets.length).toBeGreaterThan(0);
+    db.close();
+  });
+
+  it('re-analyses a stored session with a band and markers by the same routine (the report the analysis gives on the signal)', async () => {
+    const fs = 8000;
+    const signal = synthesize({
+      sampleRateHz: fs,
+      durationS: 7,
+      tones: [{ frequencyHz: 171, envelope: humCycleEnvelope({ onsetS: 1, startAmplitude: 1e-3, growthPerS: 6, limitAmplitude: 0.2, offS: 5, decayPerS: 4 }) }],
+      noiseRms: 1e-3,
+      seed: 4,
+    });
+    const db = await openSessionDb({ name: `humgauge-reanalyse-${process.pid}-${Date.now()}` });
+    const rec = await createSessionRecorder({ source: 'file', sampleRateHz: fs, keepAudio: true }, { db, useTimer: false });
+    for (let i = 0; i < signal.length; i += 2048) rec.appendAudio(signal.subarray(i, Math.min(signal.length, i + 2048)));
+    await rec.finish(createAnalysis({ sampleRateHz: fs }).finish());
+    const markers = [{ timeS: 5, kind: 'driving-off', label: 'off' }];
+    const fractions: number[] = [];
+    const report = await reanalyseInThread(db, rec.id, { bandLowHz: 100, bandHighHz: 400, markers }, (f) => fractions.push(f));
+    const direct = createAnalysis({ sampleRateHz: fs, bandLowHz: 100, bandHighHz: 400 });
+    direct.mark(markers[0]!);
+    for (let i = 0; i < signal.length; i += 1000) direct.push(signal.subarray(i, Math.min(signal.length, i + 1000)));
+    expect(report).toEqual(direct.finish());
+    for (let k = 1; k < fractions.length; k++) expect(fractions[k]).toBeGreaterThan(fractions[k - 1]!);
+    await expect(reanalyseInThread(db, 'no-such-session', { markers: [] }, () => undefined)).rejects.toThrow(/no longer stored/);
     db.close();
   });
 });

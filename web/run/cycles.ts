@@ -1,56 +1,89 @@
 /**
- * Firing cycles of a record, for the per-cycle table: each rise of a tone out of the background
- * (a growth segment), the steady stretch that may follow, and the decay that ends it. Taken from
- * the report's own per-tone cycles when it has them, else built from its segments of the same
- * tone in time order.
+ * The firing cycles of a record, per tone, for the cycle tables: each cycle's onset, growth rate,
+ * limit amplitude and decay rate with their 95 % intervals, a ring-down after a knock (a decay with
+ * no onset), and the tone's median rates across its cycles with their spread.
+ *
+ * Report version 2 (dsp/types.ts REPORT_VERSION) gives the cycles per tone (report.tones[].cycles),
+ * harmonics under their tone (tones[].harmonics, when the analysis lists them) and ring-downs marked
+ * isImpulseResponse. A stored report of version 1 has none of these: its cycles are rebuilt from
+ * its segments, grouped by frequency, and `missing` says what the old report cannot tell.
  */
-import type { Interval, Report, Segment } from '../../dsp/types';
+import type { Cycle, Interval, Report, Segment } from '../../dsp/types';
 import { isSameTone } from '../worker/live-summary';
+import { formatClock, formatDb, formatHz, formatMissing, formatRate, formatSeconds, MISSING } from '../format';
 
-export interface CycleRow {
-  /** Frequency of the tone, Hz. */
+/** One cycle of a tone (the report's Cycle; a rebuilt one has no onset time or limit interval). */
+export type CycleRow = Cycle;
+
+/** Median of a set of per-cycle rates and its spread, 1/s. */
+export interface CycleMedian {
+  medianPerS: number;
+  /** 1.4826 × the median absolute deviation: the standard deviation for normal data (robust). */
+  spreadPerS: number;
+  /** Cycles that gave a rate. */
+  count: number;
+}
+
+export interface HarmonicRow {
+  /** Order k of the harmonic (its frequency is near k times the tone's). */
+  k: number;
   frequencyHz: number;
-  startS: number;
-  endS: number;
-  growthRatePerS: number | null;
-  growthRateCi95PerS: Interval | null;
-  /** Positive decay rate, 1/s. */
-  decayRatePerS: number | null;
-  decayRateCi95PerS: Interval | null;
-  limitAmplitudeDbfs: number | null;
 }
 
-/** Cycles as the report gives them per tone (when it does): field names follow the report contract. */
-interface ReportCycle {
-  startS: number;
-  endS: number;
-  frequencyHz?: number;
-  growthRatePerS?: number | null;
-  growthRateCi95PerS?: Interval | null;
-  decayRatePerS?: number | null;
-  decayRateCi95PerS?: Interval | null;
-  limitAmplitudeDbfs?: number | null;
+export interface ToneCycles {
+  frequencyHz: number;
+  isSteadyLine: boolean;
+  isMainsFrequency: boolean;
+  harmonics: HarmonicRow[];
+  cycles: CycleRow[];
+  /** Null with fewer than two cycles giving a rate. */
+  growth: CycleMedian | null;
+  decay: CycleMedian | null;
 }
 
-function reportCycles(report: Report): CycleRow[] | null {
-  const tones = (report as { tones?: { frequencyHz: number; cycles?: ReportCycle[] }[] }).tones;
-  if (!Array.isArray(tones) || !tones.some((t) => Array.isArray(t.cycles))) return null;
-  const rows: CycleRow[] = [];
-  for (const t of tones) {
-    for (const c of t.cycles ?? []) {
-      rows.push({
-        frequencyHz: c.frequencyHz ?? t.frequencyHz,
-        startS: c.startS,
-        endS: c.endS,
-        growthRatePerS: c.growthRatePerS ?? null,
-        growthRateCi95PerS: c.growthRateCi95PerS ?? null,
-        decayRatePerS: c.decayRatePerS ?? null,
-        decayRateCi95PerS: c.decayRateCi95PerS ?? null,
-        limitAmplitudeDbfs: c.limitAmplitudeDbfs ?? null,
-      });
-    }
-  }
-  return rows.sort((a, b) => a.startS - b.startS);
+export interface RecordCycles {
+  reportVersion: number;
+  tones: ToneCycles[];
+  /** What an older report does not hold (empty for a current one). */
+  missing: string[];
+}
+
+/** Scale of the median absolute deviation to the standard deviation of normal data, 1/Φ⁻¹(3/4) (REFERENCES.md §95). */
+export const MAD_TO_SD = 1.4826;
+
+function median(sorted: readonly number[]): number {
+  const m = sorted.length;
+  return m % 2 === 1 ? (sorted[(m - 1) / 2] as number) : 0.5 * ((sorted[m / 2 - 1] as number) + (sorted[m / 2] as number));
+}
+
+/** Median and robust spread of rates (null with fewer than two: one cycle has its own interval). */
+export function medianAndSpread(rates: readonly number[]): CycleMedian | null {
+  const v = rates.filter((r) => Number.isFinite(r)).sort((a, b) => a - b);
+  if (v.length < 2) return null;
+  const m = median(v);
+  const dev = v.map((x) => Math.abs(x - m)).sort((a, b) => a - b);
+  return { medianPerS: m, spreadPerS: MAD_TO_SD * median(dev), count: v.length };
+}
+
+function withMedians(t: Omit<ToneCycles, 'growth' | 'decay'>): ToneCycles {
+  const rates = (pick: (c: CycleRow) => number | null): number[] => t.cycles.map(pick).filter((r): r is number => r !== null);
+  return { ...t, growth: medianAndSpread(rates((c) => c.growthRatePerS)), decay: medianAndSpread(rates((c) => c.decayRatePerS)) };
+}
+
+function emptyCycle(s: Segment): CycleRow {
+  return {
+    startS: s.startS,
+    endS: s.endS,
+    onsetS: null,
+    onsetCi95S: null,
+    growthRatePerS: null,
+    growthRateCi95PerS: null,
+    limitAmplitudeDbfs: null,
+    limitAmplitudeCi95Dbfs: null,
+    decayRatePerS: null,
+    decayRateCi95PerS: null,
+    isImpulseResponse: s.isImpulseResponse === true,
+  };
 }
 
 function positiveDecay(s: Segment): { rate: number | null; ci: Interval | null } {
@@ -59,44 +92,115 @@ function positiveDecay(s: Segment): { rate: number | null; ci: Interval | null }
   return { rate: -s.ratePerS, ci };
 }
 
-/** The cycles of a record, in time order (empty when no tone rose). */
-export function cyclesOf(report: Report): CycleRow[] {
-  const given = reportCycles(report);
-  if (given) return given;
-  const rows: CycleRow[] = [];
-  const open = new Map<number, CycleRow>();
+/**
+ * Cycles rebuilt from a version-1 report's segments: a growth opens a cycle of its tone (tones
+ * told apart by frequency, as version 1 did), the steady level and the decay that follow close it.
+ */
+function rebuiltTones(report: Report): ToneCycles[] {
+  const tones: { frequencyHz: number; cycles: CycleRow[]; open: CycleRow | null }[] = [];
   const segments = [...report.segments].sort((a, b) => a.startS - b.startS);
   for (const s of segments) {
     if (s.kind === 'quiet') continue;
-    let key = -1;
-    for (const [k, row] of open) if (isSameTone(s.frequencyHz, row.frequencyHz)) key = k;
-    let row = key >= 0 ? open.get(key) : undefined;
+    let tone = tones.find((t) => isSameTone(s.frequencyHz, t.frequencyHz));
     if (s.kind === 'growth') {
-      // A new rise starts a new cycle of that tone.
-      row = {
-        frequencyHz: s.frequencyHz,
-        startS: s.startS,
-        endS: s.endS,
-        growthRatePerS: s.ratePerS !== null && s.ratePerS > 0 ? s.ratePerS : null,
-        growthRateCi95PerS: s.ratePerS !== null && s.ratePerS > 0 ? s.rateCi95PerS : null,
-        decayRatePerS: null,
-        decayRateCi95PerS: null,
-        limitAmplitudeDbfs: s.limitAmplitudeDbfs ?? null,
-      };
-      rows.push(row);
-      if (key >= 0) open.delete(key);
-      open.set(rows.length - 1, row);
+      if (!tone) tones.push((tone = { frequencyHz: s.frequencyHz, cycles: [], open: null }));
+      const c = emptyCycle(s);
+      if (s.ratePerS !== null && s.ratePerS > 0) {
+        c.growthRatePerS = s.ratePerS;
+        c.growthRateCi95PerS = s.rateCi95PerS;
+      }
+      tone.cycles.push(c);
+      tone.open = c;
       continue;
     }
-    if (!row) continue;
-    row.endS = Math.max(row.endS, s.endS);
-    if (s.kind === 'steady' && typeof s.limitAmplitudeDbfs === 'number') row.limitAmplitudeDbfs = s.limitAmplitudeDbfs;
+    const c = tone?.open;
+    if (!tone || !c) continue;
+    c.endS = Math.max(c.endS, s.endS);
+    if (s.kind === 'steady' && typeof s.limitAmplitudeDbfs === 'number') c.limitAmplitudeDbfs = s.limitAmplitudeDbfs;
     if (s.kind === 'decay') {
       const d = positiveDecay(s);
-      row.decayRatePerS = d.rate;
-      row.decayRateCi95PerS = d.ci;
-      open.delete(key);
+      c.decayRatePerS = d.rate;
+      c.decayRateCi95PerS = d.ci;
+      tone.open = null;
     }
   }
-  return rows;
+  return tones.map((t) => withMedians({ frequencyHz: t.frequencyHz, isSteadyLine: false, isMainsFrequency: false, harmonics: [], cycles: t.cycles }));
 }
+
+/** Cycles of a version-2 report: its own, per tone, with harmonics under their tone. */
+function reportTones(report: Report): ToneCycles[] {
+  return (report.tones ?? []).map((t) =>
+    withMedians({
+      frequencyHz: t.frequencyHz,
+      isSteadyLine: t.isSteadyLine,
+      isMainsFrequency: t.isMainsFrequency === true,
+      harmonics: (t.harmonics ?? []).map((h) => ({ k: h.k, frequencyHz: h.frequencyHz })).sort((a, b) => a.k - b.k),
+      cycles: [...(t.cycles ?? [])].sort((a, b) => a.startS - b.startS),
+    }),
+  );
+}
+
+/** Tones whose cycles a table shows: those that grew or rang down (a steady line has no firing cycles). */
+export function cycledTones(rc: RecordCycles): ToneCycles[] {
+  return rc.tones.filter((t) => !t.isSteadyLine && (t.cycles.length > 0 || t.harmonics.length > 0));
+}
+
+/** The steady lines of a record in a sentence ("" when none): lines that never grew or decayed, mains hum among them. */
+export function steadyLinesLine(rc: RecordCycles): string {
+  const lines = rc.tones.filter((t) => t.isSteadyLine);
+  if (!lines.length) return '';
+  return `Steady lines (never grew or decayed: no firing cycles): ${lines.map((t) => `${formatHz(t.frequencyHz)}${t.isMainsFrequency ? ' (mains multiple)' : ''}`).join(', ')}.`;
+}
+
+/** What a version-1 report lacks, in the words of the cycle table. */
+export const VERSION_1_MISSING = [
+  'cycles rebuilt from the segments (tones told apart by frequency alone)',
+  'no onset times with their intervals',
+  'no interval of the limit amplitude',
+  'ring-downs after a knock not marked (a knock may show as a growth)',
+  'harmonics not grouped under their tone',
+];
+
+/**
+ * The cycles of a stored or fresh report of any version the app has written: its own per-tone
+ * cycles when it has them, else rebuilt from its segments (a version-1 report, or one completed
+ * from the stored track of an interrupted recording), with what such a report cannot tell.
+ */
+export function cyclesOf(report: Report): RecordCycles {
+  const isPerTone = Array.isArray(report.tones) && report.tones.some((t) => Array.isArray(t.cycles));
+  if (isPerTone) return { reportVersion: report.reportVersion, tones: reportTones(report), missing: [] };
+  return { reportVersion: report.reportVersion, tones: rebuiltTones(report), missing: VERSION_1_MISSING };
+}
+
+/** "median 7.02 1/s, spread 0.31 1/s over 12 cycles" (spread: 1.4826 × median absolute deviation). */
+function formatCycleMedian(m: CycleMedian | null, what: string): string {
+  if (!m) return `${what}: ${MISSING} (fewer than two cycles with a ${what})`;
+  return `${what}: median ${formatRate(m.medianPerS)}, spread ${formatRate(m.spreadPerS)} over ${m.count} cycles`;
+}
+
+/** The cells of one cycle: a ring-down is a decay after a knock, with no onset and no growth. */
+export function cycleCells(c: CycleRow, k: number): string[] {
+  const isKnock = c.isImpulseResponse;
+  return [
+    String(k + 1),
+    `${formatClock(c.startS)}–${formatClock(c.endS)}`,
+    isKnock ? 'none (ring-down after a knock)' : c.onsetS === null ? formatMissing('no rise from quiet') : formatSeconds(c.onsetS, c.onsetCi95S),
+    isKnock ? formatMissing('knock') : formatRate(c.growthRatePerS, c.growthRateCi95PerS, 'not fitted'),
+    formatDb(c.limitAmplitudeDbfs, 'dBFS', c.limitAmplitudeCi95Dbfs, 'no limit cycle'),
+    isKnock ? `ring-down (knock) ${formatRate(c.decayRatePerS, c.decayRateCi95PerS, 'not fitted')}` : formatRate(c.decayRatePerS, c.decayRateCi95PerS, 'not seen'),
+  ];
+}
+
+/** A tone's heading: its frequency, the mains label, its count of cycles. */
+export function toneHeading(t: ToneCycles): string {
+  const mains = t.isMainsFrequency ? ', on a multiple of the mains frequency' : '';
+  return `Tone ${formatHz(t.frequencyHz)}${mains}: ${t.cycles.length} cycle${t.cycles.length === 1 ? '' : 's'}`;
+}
+
+/** The growth and decay medians of a tone on one line. */
+export function cycleMedianLine(t: ToneCycles): string {
+  return `${formatCycleMedian(t.growth, 'growth rate')} · ${formatCycleMedian(t.decay, 'decay rate')}`;
+}
+
+/** Column heads of a cycle table (the cells of cycleCells). */
+export const CYCLE_COLUMNS = ['#', 'Time (m:s)', 'Onset', 'Growth rate', 'Limit amplitude', 'Decay rate'];

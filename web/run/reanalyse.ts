@@ -1,14 +1,14 @@
 /**
- * Re-analysis of a stored session: its kept audio runs again through the analysis worker (the
- * same pipeline as a live run or an opened file), with a band, markers moved or added after the
- * fact, or a band centred on another mode of interest. The session changes only when the user
+ * Re-analysis of a stored session: its kept audio runs again through the analysis (the same
+ * pipeline as a live run or an opened file, in the storage worker, which reads the audio from the
+ * store), with a band, markers moved or added after the fact, or a band centred on another mode
+ * of interest. The session changes only when the user
  * keeps the new result.
  */
 import type { Marker, Report } from '../../dsp/types';
 import { checkBand } from '../settings';
-import { getSessionDb, replaceSessionReport } from '../storage/sessions';
 import { formatClock, formatHz } from '../format';
-import { createWorkerClient } from './worker-client';
+import { callStore, reanalyseStoredSession } from '../storage/off-thread';
 
 export interface ReanalysisOptions {
   bandLowHz: number;
@@ -35,39 +35,21 @@ export function checkReanalysis(o: ReanalysisOptions, durationS: number): string
   return null;
 }
 
-/** Runs the analysis over `audio`; resolves with the report or rejects with a message for the user. */
-export function reanalyseAudio(audio: Float32Array, sampleRateHz: number, o: ReanalysisOptions, onProgress: (fraction: number) => void): Promise<Report> {
-  return new Promise((resolve, reject) => {
-    const id = 1;
-    const client = createWorkerClient(
-      (m) => {
-        if (m.id !== id) return;
-        if (m.type === 'progress') onProgress(m.fraction);
-        else if (m.type === 'report') {
-          client.terminate();
-          resolve(m.report);
-        } else if (m.type === 'error') {
-          client.terminate();
-          reject(new Error(m.message));
-        }
-      },
-      (message) => reject(new Error(`The analysis stopped with an error: ${message}.`)),
-    );
-    const markers = [...o.markers].sort((a, b) => a.timeS - b.timeS);
-    client.send({
-      type: 'analyse-file',
-      id,
-      config: { sampleRateHz, bandLowHz: o.bandLowHz, bandHighHz: o.bandHighHz },
-      channels: [audio.slice()],
-      isKeepingAudio: false,
-      markers,
-    });
-  });
+/**
+ * Runs the analysis again over the session's stored audio with these options, in the storage
+ * worker (the routine recovery uses too: storage/reanalyse.ts); resolves with the report or
+ * rejects with a message for the user.
+ */
+export async function reanalyseSession(sessionId: string, o: ReanalysisOptions, onProgress: (fraction: number) => void): Promise<Report> {
+  try {
+    return await reanalyseStoredSession(sessionId, { bandLowHz: o.bandLowHz, bandHighHz: o.bandHighHz, markers: o.markers }, onProgress);
+  } catch (err) {
+    throw new Error(`The analysis stopped with an error: ${err instanceof Error ? err.message : String(err)}`);
+  }
 }
 
 /** Keeps a re-analysis as the session's report, with its markers, and notes how it was made. */
 export async function keepReanalysis(sessionId: string, report: Report, o: ReanalysisOptions): Promise<void> {
-  const db = await getSessionDb();
   const note = `Re-analysed on ${new Date().toISOString()} with the band ${formatHz(o.bandLowHz)}–${formatHz(o.bandHighHz)} and ${o.markers.length} marker${o.markers.length === 1 ? '' : 's'}${o.markers.length ? ` (${o.markers.map((m) => `${m.label} at ${formatClock(m.timeS)}`).join(', ')})` : ''}.`;
-  await replaceSessionReport(db, sessionId, report, [...o.markers].sort((a, b) => a.timeS - b.timeS), note);
+  await callStore('replaceReport', sessionId, report, [...o.markers].sort((a, b) => a.timeS - b.timeS), note);
 }

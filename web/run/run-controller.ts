@@ -136,7 +136,8 @@ export function createRunController(): RunController {
       }
       case 'audio': {
         const samples = m.samples;
-        withRecorder((rec) => rec.appendAudio(samples));
+        // The samples came in this message and nothing else reads them: handed over, not copied.
+        withRecorder((rec) => rec.appendAudio(samples, true));
         return;
       }
       case 'progress':

@@ -8,7 +8,8 @@
  * Relations (REFERENCES.md §5): amplitude e-folding rate σ (positive grows); a stable mode's
  * decay rate α = −σ; damping ratio ζ = α / (2π f); a mode rings for 1/(2π ζ) cycles per e-fold.
  */
-import type { Interval, ModeStatistics, NoiseDriven, RegimeKind } from '../../dsp/types';
+import type { Interval, ModeStatistics, NoiseDriven, RegimeKind, Segment } from '../../dsp/types';
+import { regimeFromInterval } from '../../dsp/mode-statistics';
 import type { MarginEstimate } from '../worker/protocol';
 import type { LiveSummary } from '../worker/live-summary';
 import { formatRate, formatRatio, isShowable, isShowableInterval } from '../format';
@@ -17,10 +18,33 @@ import { formatRate, formatRatio, isShowable, isShowableInterval } from '../form
  * A quiet mode whose damping ratio is under 0.5 % rings for more than 1/(2π·0.005) ≈ 32 cycles
  * per e-fold of its amplitude: its damping is small enough that a modest rise in driving
  * (firing rate, heater power) can make it hum. The figure is a judgement for the field
- * (REFERENCES.md §92), not a standard; a mode whose 95 % interval of σ reaches zero is near
- * threshold whatever its ratio, since the data cannot tell it from a growing one.
+ * (REFERENCES.md §92), not a standard. Used only by stabilityOf below.
  */
 export const NEAR_THRESHOLD_DAMPING_RATIO = 0.005;
+
+export type Stability = 'stable' | 'near-threshold' | 'humming';
+
+/**
+ * The app's one rule for "stable / near threshold / humming" of a mode, from its linear growth
+ * rate σ or ν (1/s, positive grows), the 95 % interval and its frequency: the sign the interval
+ * allows (dsp/mode-statistics.ts regimeFromInterval, REFERENCES.md §42: near threshold when the
+ * interval holds zero), and a mode the data call stable is still near threshold when its damping
+ * ratio is under NEAR_THRESHOLD_DAMPING_RATIO (§92). The live verdict, the live margin and the
+ * report's noise statistics all say what this says. Without an interval the estimate stands for it.
+ */
+export function stabilityOf(ratePerS: number, ci95PerS: Interval | null | undefined, frequencyHz: number): Stability {
+  const ci: Interval = isShowableInterval(ci95PerS) ? [Math.min(ci95PerS[0], ci95PerS[1]), Math.max(ci95PerS[0], ci95PerS[1])] : [ratePerS, ratePerS];
+  const bySign = regimeFromInterval(ci);
+  if (bySign !== 'stable') return bySign === 'humming' ? 'humming' : 'near-threshold';
+  return dampingRatioOf(-ratePerS, frequencyHz) < NEAR_THRESHOLD_DAMPING_RATIO ? 'near-threshold' : 'stable';
+}
+
+/** The words of each call, for every screen that shows one. */
+export const STABILITY_WORDS: Record<Stability, string> = {
+  stable: 'stable',
+  'near-threshold': 'near threshold',
+  humming: 'humming',
+};
 
 export type VerdictKind = 'humming' | 'dying-away' | 'near-threshold' | 'stable' | 'tone' | 'quiet';
 
@@ -93,13 +117,9 @@ export function formatQuietMargin(m: Margin): string {
   return `decay rate ${formatRate(decay, ci)} · damping ratio ${formatRatio(zeta, zetaCi)}`;
 }
 
-/** Stable or near threshold, from a quiet system's margin. */
-export function classifyMargin(m: Margin): 'stable' | 'near-threshold' | 'humming' {
-  const upper = m.ci95PerS ? Math.max(m.ci95PerS[0], m.ci95PerS[1]) : m.growthRatePerS;
-  const lower = m.ci95PerS ? Math.min(m.ci95PerS[0], m.ci95PerS[1]) : m.growthRatePerS;
-  if (lower > 0) return 'humming';
-  if (upper >= 0) return 'near-threshold';
-  return dampingRatioOf(-m.growthRatePerS, m.frequencyHz) < NEAR_THRESHOLD_DAMPING_RATIO ? 'near-threshold' : 'stable';
+/** Stable, near threshold or humming, from a quiet system's margin (stabilityOf). */
+export function classifyMargin(m: Margin): Stability {
+  return stabilityOf(m.growthRatePerS, m.ci95PerS, m.frequencyHz);
 }
 
 const REGIME_WORDS: Record<RegimeKind, string> = {
@@ -115,12 +135,31 @@ export interface VerdictInput {
   /** Noise-excited resonances and noise statistics of a finished record (report.noiseDriven, report.modeStatistics). */
   noiseDriven?: readonly NoiseDriven[];
   modeStatistics?: readonly ModeStatistics[];
+  /** Segments of a finished record: its ring-downs after a knock (isImpulseResponse) measure the damping directly. */
+  segments?: readonly Segment[];
   /** True once the record is finished (the words speak of its end). */
   isFinal?: boolean;
 }
 
 /** The verdict for what the analysis has seen so far. */
-export function verdictOf({ summary, margin, noiseDriven, modeStatistics, isFinal }: VerdictInput): Verdict {
+/**
+ * The margin from the ring-downs of a knock: each excited mode's decay rate, the least-damped mode
+ * (smallest damping ratio) setting it, as for noise-excited resonances (REFERENCES.md §6, §92).
+ */
+export function ringDownMargin(segments: readonly Segment[] = []): Margin | null {
+  let best: Margin | null = null;
+  let bestZeta = Infinity;
+  for (const s of segments) {
+    if (s.kind !== 'decay' || s.isImpulseResponse !== true || !isShowable(s.ratePerS) || !(s.ratePerS < 0)) continue;
+    const zeta = dampingRatioOf(-s.ratePerS, s.frequencyHz);
+    if (!(zeta < bestZeta)) continue;
+    bestZeta = zeta;
+    best = { growthRatePerS: s.ratePerS, ci95PerS: isShowableInterval(s.rateCi95PerS) ? s.rateCi95PerS : null, frequencyHz: s.frequencyHz, basis: 'the ring-down after a knock (the least-damped mode it excited)' };
+  }
+  return best;
+}
+
+export function verdictOf({ summary, margin, noiseDriven, modeStatistics, segments, isFinal }: VerdictInput): Verdict {
   const regime = summary.regime;
   const growth = summary.growthRatePerS;
   const growthText = isShowable(growth) ? `growth rate ${formatRate(growth, summary.growthRateCi95PerS)}` : 'growth rate not fitted yet';
@@ -158,7 +197,7 @@ export function verdictOf({ summary, margin, noiseDriven, modeStatistics, isFina
     };
   }
   const hasTone = isShowable(summary.latestFrequencyHz);
-  const m = quietMargin(margin, noiseDriven, modeStatistics);
+  const m = quietMargin(margin, noiseDriven, modeStatistics) ?? (isShowable(growth) ? null : ringDownMargin(segments));
   if (m) {
     const kind = classifyMargin(m);
     const headline = kind === 'stable' ? 'Stable' : kind === 'near-threshold' ? 'Near threshold' : 'Humming';

@@ -186,7 +186,15 @@ export const ReportSchema = v.strictObject({
   summary: SummarySchema,
   tones: v.optional(
     v.pipe(
-      v.array(v.strictObject({ frequencyHz: FREQ('tone frequency'), isSteadyLine: v.boolean(), isMainsFrequency: v.optional(v.boolean()), cycles: v.optional(v.pipe(v.array(CycleSchema), v.maxLength(100_000))) })),
+      v.array(
+        v.strictObject({
+          frequencyHz: FREQ('tone frequency'),
+          isSteadyLine: v.boolean(),
+          isMainsFrequency: v.optional(v.boolean()),
+          cycles: v.optional(v.pipe(v.array(CycleSchema), v.maxLength(100_000))),
+          harmonics: v.optional(v.pipe(v.array(v.strictObject({ k: v.pipe(finite(2, 1000, 'harmonic order'), v.integer('harmonic order must be a whole number')), frequencyHz: FREQ('harmonic frequency') })), v.maxLength(1000))),
+        }),
+      ),
       v.maxLength(1000),
     ),
   ),

@@ -8,6 +8,8 @@ import type { Marker, Report, TrackFrame } from '../../dsp/types';
 import { packFrames, type SessionDb, type SessionRecord } from './db';
 import type { NewSessionMeta, SessionRecorder } from './recording-api';
 import { getSessionDb, newSessionId, recordingLockName, requestPersistentStorage } from './sessions';
+import { abandon } from './audio-writer';
+import { createAudioSink, type AudioSink } from './off-thread';
 
 /** Interval between writes, ms ("about once a second"). */
 export const FLUSH_INTERVAL_MS = 1000;
@@ -61,42 +63,6 @@ function cleanSettings(settings: Record<string, unknown> | undefined): Record<st
     if (typeof v === 'string' || typeof v === 'boolean' || (typeof v === 'number' && Number.isFinite(v))) out[k] = v;
   }
   return out;
-}
-
-/** Joins blocks into consecutive chunks of at most `maxSamples` (the last may be shorter). */
-function secondChunks(blocks: readonly Float32Array[], maxSamples: number): Float32Array[] {
-  let total = 0;
-  for (const b of blocks) total += b.length;
-  const out: Float32Array[] = [];
-  let current = new Float32Array(Math.min(maxSamples, total));
-  let filled = 0;
-  for (const b of blocks) {
-    let at = 0;
-    while (at < b.length) {
-      const n = Math.min(b.length - at, current.length - filled);
-      current.set(b.subarray(at, at + n), filled);
-      filled += n;
-      at += n;
-      total -= n;
-      if (filled === current.length) {
-        out.push(current);
-        current = new Float32Array(Math.min(maxSamples, total));
-        filled = 0;
-      }
-    }
-  }
-  return out;
-}
-
-/** Aborts a failed transaction and silences the rejections of what it held. */
-function abandon(tx: { abort(): void; done: Promise<void> }, writes: Promise<unknown>[]): void {
-  try {
-    tx.abort();
-  } catch {
-    /* already aborted by the browser */
-  }
-  tx.done.catch(() => undefined);
-  for (const w of writes) w.catch(() => undefined);
 }
 
 /**
@@ -162,8 +128,9 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
   await (await connect()).put('sessions', record);
 
   let pendingFrames: TrackFrame[] = [];
-  let pendingAudio: Float32Array[] = [];
-  let pendingAudioSamples = 0;
+  // Raw audio goes to its own writer (a worker in the app): the page only hands the blocks over.
+  const audioSink: AudioSink | null = meta.keepAudio ? createAudioSink(id, meta.sampleRateHz, connect) : null;
+  let hasPendingAudio = false;
   let pendingMarkers: Marker[] = [];
   let pendingGaps: { timeS: number; missingS: number }[] = [];
   let isKeepingAudio = meta.keepAudio;
@@ -184,8 +151,8 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
 
   /** Stops keeping audio after a failed write: what is pending is let go, the user told once. */
   const dropAudio = (err: unknown): void => {
-    pendingAudio = [];
-    pendingAudioSamples = 0;
+    hasPendingAudio = false;
+    void audioSink?.drop();
     if (!isKeepingAudio) return;
     isKeepingAudio = false;
     record = { ...record, audio: { ...record.audio, isKept: false, stoppedReason: 'storage full or failing' } };
@@ -205,7 +172,7 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
     pendingMarkers = [];
     pendingGaps = [];
     const t = now();
-    const next: SessionRecord = {
+    let next: SessionRecord = {
       ...record,
       heartbeatAtMs: t,
       updatedAtMs: t,
@@ -221,6 +188,9 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
     try {
       const trackTx = db.transaction(['sessions', 'frames'], 'readwrite');
       tx = trackTx;
+      // The audio writer keeps the sample and chunk counts of the stored record: take them as stored.
+      const stored = await trackTx.objectStore('sessions').get(id);
+      if (stored) next = { ...next, audio: { ...next.audio, sampleCount: stored.audio.sampleCount, chunkCount: stored.audio.chunkCount }, durationS: Math.max(next.durationS, stored.durationS) };
       if (frames.length) writes.push(trackTx.objectStore('frames').put(packFrames(id, record.frameChunkCount, frames)));
       writes.push(trackTx.objectStore('sessions').put(next));
       await Promise.all([...writes, trackTx.done]);
@@ -232,44 +202,6 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
       throw err;
     }
     record = next;
-  };
-
-  /**
-   * Writes the pending audio in chunks of at most a second, each put awaited before the next, so
-   * the copy each put makes runs in a task of its own (a file analysed faster than real time
-   * delivers many seconds per write: one put of them all stalled the page for over a second).
-   * One transaction with the session record: all of it lands or none; on failure it is let go.
-   */
-  const writeAudio = async (db: SessionDb): Promise<void> => {
-    const audio = pendingAudio;
-    pendingAudio = [];
-    pendingAudioSamples = 0;
-    const chunks = secondChunks(audio, Math.max(1, Math.round(record.meta.sampleRateHz)));
-    let sampleCount = record.audio.sampleCount;
-    let chunkCount = record.audio.chunkCount;
-    const writes: Promise<unknown>[] = [];
-    let tx: ReturnType<SessionDb['transaction']> | null = null;
-    try {
-      const audioTx = db.transaction(['sessions', 'audio'], 'readwrite');
-      tx = audioTx;
-      for (const samples of chunks) {
-        const put = audioTx.objectStore('audio').put({ sessionId: id, seq: chunkCount++, startSample: sampleCount, samples });
-        writes.push(put);
-        sampleCount += samples.length;
-        await put;
-      }
-      const next: SessionRecord = {
-        ...record,
-        audio: { ...record.audio, sampleCount, chunkCount },
-        durationS: Math.max(record.durationS, sampleCount / record.meta.sampleRateHz),
-      };
-      writes.push(audioTx.objectStore('sessions').put(next));
-      await Promise.all([...writes, audioTx.done]);
-      record = next;
-    } catch (err) {
-      if (tx) abandon(tx, writes);
-      throw err;
-    }
   };
 
   /** Track first, audio second; any failure gives up the audio and keeps the track pending. */
@@ -285,9 +217,10 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
       if (pendingFrames.length > MAX_PENDING_FRAMES) pendingFrames = pendingFrames.slice(pendingFrames.length - MAX_PENDING_FRAMES);
       return err;
     }
-    if (isKeepingAudio && pendingAudioSamples > 0) {
+    if (isKeepingAudio && audioSink && hasPendingAudio) {
+      hasPendingAudio = false;
       try {
-        await writeAudio(db);
+        await audioSink.flush();
       } catch (err) {
         dropAudio(err);
         // Record at once that the audio stops here; if even this fails, the next write says it.
@@ -337,6 +270,8 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
 
   /** Deletes the session's stored audio and records that it did, in one transaction. */
   const removeStoredAudio = async (db: SessionDb): Promise<void> => {
+    // The writer stops first, so no chunk lands after the delete.
+    await audioSink?.drop();
     const next: SessionRecord = { ...record, audio: { isKept: false, sampleCount: 0, chunkCount: 0, stoppedReason: 'removed to make room for the report (storage full)' } };
     const tx = db.transaction(['sessions', 'audio'], 'readwrite');
     const writes = [tx.objectStore('audio').delete(IDBKeyRange.bound([id, -Infinity], [id, Infinity])), tx.objectStore('sessions').put(next)];
@@ -355,10 +290,10 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
     get isKeepingAudio() {
       return isKeepingAudio;
     },
-    appendAudio(block) {
-      if (!isKeepingAudio || isFinished || block.length === 0) return;
-      pendingAudio.push(block.slice());
-      pendingAudioSamples += block.length;
+    appendAudio(block, isHandedOver = false) {
+      if (!isKeepingAudio || !audioSink || isFinished || block.length === 0) return;
+      audioSink.append(isHandedOver ? block : block.slice());
+      hasPendingAudio = true;
     },
     appendFrames(frames) {
       if (isFinished) return;
@@ -387,6 +322,7 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
       try {
         await run;
       } finally {
+        audioSink?.close();
         releaseLock();
       }
     },

@@ -24,7 +24,11 @@ export interface NewSessionMeta {
  */
 export interface SessionRecorder {
   readonly id: string;
-  appendAudio(block: Float32Array): void;
+  /**
+   * Keeps a block of raw audio. The recorder copies it, unless `isHandedOver`: then the caller gives
+   * the block up (it may be transferred to the writer's worker and read as empty afterwards).
+   */
+  appendAudio(block: Float32Array, isHandedOver?: boolean): void;
   appendFrames(frames: readonly TrackFrame[]): void;
   addMarker(marker: Marker): void;
   /** Mark a gap in the input (suspended capture), at time `timeS`. */

@@ -6,6 +6,7 @@ import type { TrackFrame } from '../../dsp/types';
 import { formatClock, formatDb, formatHz, formatQ, formatQuantity, formatRate, formatRatio, formatSeconds } from '../format';
 import type { SessionRecord } from './db';
 import { escapeXml, svgLinePlot } from './svg-plot';
+import { cycleCells, cycledTones, cycleMedianLine, cyclesOf, CYCLE_COLUMNS, steadyLinesLine, toneHeading } from '../run/cycles';
 
 const esc = escapeXml;
 
@@ -84,6 +85,18 @@ export function buildReportHtml(record: SessionRecord, track: readonly TrackFram
   const segRows = (r?.segments ?? [])
     .map((g) => `<tr><td>${esc(g.kind)}</td><td>${esc(formatClock(g.startS))}–${esc(formatClock(g.endS))}</td><td>${esc(formatHz(g.frequencyHz))}</td><td>${esc(g.ratePerS === null ? '—' : formatRate(g.ratePerS, g.rateCi95PerS))}</td><td>${esc(g.model ?? '')}</td></tr>`)
     .join('');
+  const rc = r ? cyclesOf(r) : null;
+  const cycleTones = rc ? cycledTones(rc) : [];
+  const head = `<thead><tr>${CYCLE_COLUMNS.map((c) => `<th>${esc(c)}</th>`).join('')}</tr></thead>`;
+  const cycleSections = cycleTones
+    .map((t) => {
+      const harmonics = t.harmonics.length ? `<p>Harmonics (locked to this tone): ${esc(t.harmonics.map((h) => `${h.k} × = ${formatHz(h.frequencyHz)}`).join(', '))}</p>` : '';
+      const rows = t.cycles.map((c, k) => `<tr>${cycleCells(c, k).map((x) => `<td>${esc(x)}</td>`).join('')}</tr>`).join('');
+      return `<h3>${esc(toneHeading(t))}</h3>${harmonics}${t.cycles.length ? `${t.cycles.length >= 2 ? `<p>${esc(cycleMedianLine(t))}</p>` : ''}<table>${head}<tbody>${rows}</tbody></table>` : ''}`;
+    })
+    .join('');
+  const steadyLines = rc ? steadyLinesLine(rc) : '';
+  const cycleNote = rc?.missing.length ? `<p>Report version ${rc.reportVersion}: ${esc(rc.missing.join('; '))}.</p>` : '';
   const markerRows = record.markers
     .map((k) => `<tr><td>${esc(formatClock(k.timeS))}</td><td>${esc(k.kind)}</td><td>${esc(k.label)}</td><td>${esc(typeof k.value === 'number' ? `${k.value}${k.unit ? ` ${k.unit}` : ''}` : '')}</td></tr>`)
     .join('');
@@ -107,6 +120,7 @@ svg{max-width:100%;height:auto;display:block;margin:.5rem 0}
 <h2>Notes</h2><div class="notes">${esc(m.notes || '—')}</div>
 <h2>Result</h2><table>${summaryRows}</table>
 <h2>Plots</h2>${trackPlotsSvg(record, track)}
+${cycleSections ? `<h2>Firing cycles per tone</h2>${cycleNote}${cycleSections}${steadyLines ? `<p>${esc(steadyLines)}</p>` : ''}` : ''}
 <h2>Segments</h2><table><thead><tr><th>kind</th><th>time (m:s)</th><th>frequency</th><th>rate</th><th>model</th></tr></thead><tbody>${segRows || '<tr><td colspan="5">none</td></tr>'}</tbody></table>
 <h2>Markers</h2><table><thead><tr><th>time (m:s)</th><th>kind</th><th>label</th><th>control value</th></tr></thead><tbody>${markerRows || '<tr><td colspan="4">none</td></tr>'}</tbody></table>
 ${warnings ? `<h2>Warnings and history</h2><ul>${warnings}</ul>` : ''}

@@ -3,6 +3,7 @@
  * runs in one IndexedDB transaction, so it lands whole or not at all.
  */
 import type { Marker, Report, TrackFrame } from '../../dsp/types';
+import type { StoredAnalysisOptions } from './reanalyse';
 import {
   BYTES_PER_AUDIO_SAMPLE,
   BYTES_PER_FRAME,
@@ -283,7 +284,7 @@ export async function findInterruptedSessions(db: SessionDb, nowMs = Date.now(),
 const AUDIO_TRACK_SLACK_S = 2;
 
 /** Re-analyses stored audio into a report (the streaming analysis of dsp/). Null when not possible. */
-export type AudioAnalyser = (audio: Float32Array, sampleRateHz: number, markers: readonly Marker[]) => Promise<Report | null>;
+export type AudioAnalyser = (audio: Float32Array, sampleRateHz: number, options: StoredAnalysisOptions) => Promise<Report | null>;
 
 /**
  * Completes interrupted sessions from what was stored: the analysis runs again over the stored
@@ -330,7 +331,7 @@ async function completeOne(db: SessionDb, id: string, analyse: AudioAnalyser | n
   let how = '';
   if (audio && audio.length > 0 && analyse && audioCoversTrack) {
     try {
-      report = await analyse(audio, fresh.meta.sampleRateHz, fresh.markers);
+      report = await analyse(audio, fresh.meta.sampleRateHz, { markers: fresh.markers });
       if (report) how = `analysed again from ${audioS.toFixed(1)} s of stored audio`;
     } catch {
       report = null;

@@ -25,7 +25,7 @@ import { matchMeasuredFrequency, MEASURED_FREQUENCY_RANGE_HZ, type MeasuredMatch
 import type { DuctGeometry } from '../../dsp/types';
 import { formatFixed, formatHz, formatQuantity } from '../format';
 import { GEOMETRY_KEY } from '../run/geometry';
-import { getSessionDb, listSessions } from '../storage/sessions';
+import { callStore } from '../storage/off-thread';
 import { el, loadJson, saveJson } from './dom';
 
 /** localStorage key of this screen's other choices (closed end, flow, uncertainties, measured tone). */
@@ -401,8 +401,7 @@ export const mountDuctScreen: MountScreen = (root, app) => {
   /** Fills the session picker with the main tone of the most recent sessions that have one. */
   async function loadSessionTones(): Promise<void> {
     try {
-      const db = await getSessionDb();
-      const sessions = await listSessions(db);
+      const sessions = await callStore('list');
       const withTone = sessions.filter((r) => typeof r.report?.summary.frequencyHz === 'number' && Number.isFinite(r.report.summary.frequencyHz)).slice(0, 12);
       const options = withTone.map((r) => {
         const f = r.report?.summary.frequencyHz ?? 0;

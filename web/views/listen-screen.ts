@@ -98,7 +98,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
   const csvBox = el(
     'details',
     { className: 'csv-options', id: 'csv-options' },
-    el('summary', { text: 'Pressure-sensor CSV' }),
+    el('summary', { text: 'Opening a one-column sensor CSV? Its sample rate and unit' }),
     el('label', { htmlFor: 'csv-rate', text: 'Sample rate of a one-column CSV, Hz' }),
     csvRate,
     csvError,
@@ -206,6 +206,8 @@ export const mountListenScreen: MountScreen = (root, app) => {
     listenButton.setAttribute('aria-pressed', String(s === 'listening'));
     fileInput.disabled = s !== 'idle';
     fileLabel.classList.toggle('disabled', s !== 'idle');
+    // Options for a file still to be opened: not shown while a run (of any input) is under way.
+    csvBox.hidden = s !== 'idle';
     markers.setEnabled(s === 'listening');
     if (s === 'listening' || s === 'file') startDrawing();
     if (s === 'idle') stopDrawing();

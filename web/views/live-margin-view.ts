@@ -8,6 +8,7 @@
 import { formatQuantity, formatRate } from '../format';
 import type { MarginEstimate } from '../worker/protocol';
 import { el } from './dom';
+import { STABILITY_WORDS, stabilityOf } from '../run/verdict';
 import { svg } from './session-dom';
 
 /** Estimates kept in the strip. */
@@ -53,11 +54,14 @@ export function createLiveMarginView(host: HTMLElement): LiveMarginView {
     const pad = 0.05 * (hi - lo || 1);
     const x = (v: number): number => 8 + ((v - lo + pad) / (hi - lo + 2 * pad)) * (WIDTH - 16);
     chart.append(svg('line', { x1: x(0), x2: x(0), y1: 0, y2: HEIGHT - 12, stroke: 'currentColor', 'stroke-dasharray': '3 3' }));
-    chart.append(svg('text', { x: x(0) + 3, y: HEIGHT - 2, 'font-size': 10, fill: 'currentColor' }, 'ν = 0 (threshold)'));
+    // The label sits on the side of the zero line with room for it, so it never runs past the strip.
+    const isLabelLeft = x(0) > WIDTH / 2;
+    chart.append(svg('text', { x: isLabelLeft ? x(0) - 3 : x(0) + 3, y: HEIGHT - 2, 'font-size': 10, fill: 'currentColor', 'text-anchor': isLabelLeft ? 'end' : 'start' }, 'ν = 0 (threshold)'));
     const rowH = (HEIGHT - 14) / HISTORY;
     history.forEach((m, i) => {
       const y = 2 + (HISTORY - history.length + i) * rowH + rowH / 2;
-      const colour = m.growthRateCi95PerS[0] > 0 ? 'var(--plot-growth, #c2410c)' : m.growthRateCi95PerS[1] < 0 ? 'var(--plot-decay, #047857)' : 'var(--muted, #555)';
+      const call = stabilityOf(m.growthRatePerS, m.growthRateCi95PerS, m.frequencyHz);
+      const colour = call === 'humming' ? 'var(--plot-growth, #c2410c)' : call === 'stable' ? 'var(--plot-decay, #047857)' : 'var(--muted, #555)';
       chart.append(svg('line', { x1: x(m.growthRateCi95PerS[0]), x2: x(m.growthRateCi95PerS[1]), y1: y, y2: y, stroke: colour, 'stroke-width': Math.max(1, rowH - 1) }));
     });
   }
@@ -69,7 +73,7 @@ export function createLiveMarginView(host: HTMLElement): LiveMarginView {
       if (!Number.isFinite(margin.growthRateCi95PerS[0]) || !Number.isFinite(margin.growthRateCi95PerS[1])) return;
       history.push(margin);
       if (history.length > HISTORY) history.shift();
-      const word = margin.growthRateCi95PerS[1] < 0 ? 'stable' : margin.growthRateCi95PerS[0] > 0 ? 'humming' : 'near threshold (the interval reaches zero)';
+      const word = STABILITY_WORDS[stabilityOf(margin.growthRatePerS, margin.growthRateCi95PerS, margin.frequencyHz)];
       const span = formatQuantity(margin.endS - margin.startS, 's', null, { decimals: 0 });
       text.textContent = `linear growth rate (from noise) ${formatRate(margin.growthRatePerS, margin.growthRateCi95PerS)} at ${formatQuantity(margin.frequencyHz, 'Hz', null, { decimals: 1 })}: ${word}; ${span} of steady operation`;
       trend.textContent = trendText(margin);

@@ -9,7 +9,7 @@
  */
 import uPlot from 'uplot';
 import 'uplot/dist/uPlot.min.css';
-import { columnAt, fitLineOf, rowCount, rowIndex, type LiveBuffer } from '../run/live-buffer';
+import { columnAt, fitLineOf, latestTimeS, rowCount, rowIndex, trackOverview, type LiveBuffer } from '../run/live-buffer';
 import { formatClock, formatDb, formatHz, MISSING } from '../format';
 import { finiteExtent, layoutLabels, safeRange } from '../plot-safety';
 import { el } from './dom';
@@ -42,6 +42,18 @@ function cssColor(name: string, fallback: string): string {
 
 function chartWidth(host: HTMLElement): number {
   return Math.max(260, Math.floor(host.clientWidth || 360) - 14);
+}
+
+/** First index of the increasing `xs` at or after `x`. */
+function lowerBound(xs: readonly number[], x: number): number {
+  let lo = 0;
+  let hi = xs.length;
+  while (lo < hi) {
+    const mid = (lo + hi) >> 1;
+    if ((xs[mid] ?? 0) < x) lo = mid + 1;
+    else hi = mid;
+  }
+  return lo;
 }
 
 /** Vertical lines at the user's markers and at gaps; labels in rows so they never overprint. */
@@ -228,45 +240,34 @@ export function createLivePlots(host: HTMLElement, buffer: LiveBuffer, bandHighH
   let drawnVersion = -1;
   let lastDrawMs = 0;
 
+  // Fitted lines of closed segments do not change: each is computed once.
+  const fitLines = new WeakMap<object, ReturnType<typeof fitLineOf>>();
+  const fitLine = (seg: (typeof buffer.segments)[number]): ReturnType<typeof fitLineOf> => {
+    if (!fitLines.has(seg)) fitLines.set(seg, fitLineOf(buffer, seg));
+    return fitLines.get(seg) ?? null;
+  };
+
   function drawTrack(): void {
-    const n = rowCount(buffer);
-    const newest = n ? buffer.timeS[rowIndex(buffer, n - 1)] ?? 0 : 0;
-    const fromS = newest - WINDOW_S;
-    const x: number[] = [];
-    const a: (number | null)[] = [];
-    const lev: (number | null)[] = [];
-    const fr: (number | null)[] = [];
-    for (let k = 0; k < n; k++) {
-      const i = rowIndex(buffer, k);
-      const t = buffer.timeS[i] ?? 0;
-      if (t < fromS || !Number.isFinite(t)) continue;
-      // uPlot needs increasing x; a gap row shares the time of the frame after it, so nudge it back.
-      x.push(x.length && t <= (x[x.length - 1] ?? 0) ? (x[x.length - 1] ?? 0) + 1e-6 : t);
-      const av = buffer.amplitudeDbfs[i] ?? Number.NaN;
-      const lv = buffer.levelDbfs[i] ?? Number.NaN;
-      const fv = buffer.frequencyHz[i] ?? Number.NaN;
-      a.push(Number.isFinite(av) && av > FLOOR_DBFS ? av : null);
-      lev.push(Number.isFinite(lv) && lv > FLOOR_DBFS ? lv : null);
-      fr.push(Number.isFinite(fv) ? fv : null);
-    }
+    // The last WINDOW_S of track, reduced to min/max per pixel column (live-buffer.ts trackOverview):
+    // the cost of a redraw is the width of the plot, not the length of the record.
+    const fromS = latestTimeS(buffer) - WINDOW_S;
+    const o = trackOverview(buffer, fromS, Math.max(64, ampPlot.bbox.width / devicePixelRatio || chartWidth(host)), FLOOR_DBFS);
+    const x = o.timeS;
     const growthLine: (number | null)[] = new Array<number | null>(x.length).fill(null);
     const decayLine: (number | null)[] = new Array<number | null>(x.length).fill(null);
     for (const seg of buffer.segments) {
-      if (seg.kind !== 'growth' && seg.kind !== 'decay') continue;
-      const line = fitLineOf(buffer, seg);
+      if ((seg.kind !== 'growth' && seg.kind !== 'decay') || seg.endS < fromS) continue;
+      const line = fitLine(seg);
       if (!line) continue;
       const target = seg.kind === 'growth' ? growthLine : decayLine;
-      for (let j = 0; j < x.length; j++) {
-        const t = x[j] ?? 0;
-        if (t >= line.startS && t <= line.endS) target[j] = line.interceptDb + line.slopeDbPerS * (t - line.startS);
-      }
+      for (let j = lowerBound(x, line.startS); j < x.length && (x[j] ?? 0) <= line.endS; j++) target[j] = line.interceptDb + line.slopeDbPerS * ((x[j] ?? 0) - line.startS);
     }
     xs = x;
-    ampY = a;
-    levY = lev;
-    freqY = fr;
-    ampPlot.setData([x, a, lev, growthLine, decayLine]);
-    freqPlot.setData([x, fr]);
+    ampY = o.amplitudeDbfs;
+    levY = o.levelDbfs;
+    freqY = o.frequencyHz;
+    ampPlot.setData([x, o.amplitudeDbfs, o.levelDbfs, growthLine, decayLine]);
+    freqPlot.setData([x, o.frequencyHz]);
     amp.fig.dataset.markerCount = String(buffer.markers.length);
     amp.fig.dataset.fitCount = String(buffer.segments.filter((s) => (s.kind === 'growth' || s.kind === 'decay') && s.ratePerS !== null).length);
   }

@@ -150,7 +150,7 @@ export function createReadouts(host: HTMLElement): Readouts {
     const { summary, isFinal } = input;
     // The frequency stays beside its rates after the tone stops: the latest tracked one, else the rates' own.
     const latest = summary.latestFrequencyHz;
-    const v = verdictOf({ summary, margin: input.margin, noiseDriven: report?.noiseDriven, modeStatistics: report?.modeStatistics, isFinal });
+    const v = verdictOf({ summary, margin: input.margin, noiseDriven: report?.noiseDriven, modeStatistics: report?.modeStatistics, segments: report?.segments, isFinal });
     // Without a tone, the frequency of the resonance whose damping the verdict reports.
     const marginHz = v.marginFrequencyHz;
     let f = isFinal && summary.frequencyHz !== null ? summary.frequencyHz : isShowable(latest) ? latest : summary.frequencyHz;

@@ -5,8 +5,9 @@
  */
 import type { Report, RegimeKind } from '../../dsp/types';
 import type { RunResult } from '../run/run-controller';
-import { cyclesOf } from '../run/cycles';
-import { formatClock, formatDb, formatHz, formatRate, formatSeconds } from '../format';
+import { cycleCells, cycledTones, cycleMedianLine, cyclesOf, CYCLE_COLUMNS, steadyLinesLine, toneHeading } from '../run/cycles';
+import { formatClock, formatHz, formatMissing, formatRate, formatRatio, formatSeconds, isShowable, isShowableInterval } from '../format';
+import { dampingRatioOf, STABILITY_WORDS, stabilityOf } from '../run/verdict';
 import { el } from './dom';
 
 export const REGIME_WORDS: Record<RegimeKind, string> = {
@@ -53,23 +54,74 @@ export function segmentsTable(report: Report): HTMLElement {
   );
 }
 
-/** One row per firing cycle, when the record holds more than one (null otherwise). */
+/**
+ * The cycles of each tone (harmonics listed under their tone), with the tone's median rates
+ * across its cycles and their spread; null when no tone has a cycle to show (a version-1 report
+ * shows its rebuilt cycles only when there are several: one is the summary already).
+ */
 export function cyclesTable(report: Report): HTMLElement | null {
-  const cycles = cyclesOf(report);
-  if (cycles.length < 2) return null;
+  const rc = cyclesOf(report);
+  const minCycles = rc.missing.length ? 2 : 1;
+  const tones = cycledTones(rc);
+  if (tones.reduce((n, t) => n + t.cycles.length, 0) < minCycles) return null;
+  const box = el('div', { className: 'cycles', id: 'cycles' }, el('h3', { className: 'section-title', text: 'Firing cycles per tone' }));
+  box.dataset.reportVersion = String(rc.reportVersion);
+  if (rc.missing.length) {
+    const whose = rc.reportVersion < 2 ? `This report is of version ${rc.reportVersion} (an earlier version of the app)` : 'This report holds no per-tone cycles (completed from the stored track)';
+    box.append(el('p', { className: 'hint', id: 'cycles-old-report', text: `${whose}: ${rc.missing.join('; ')}. Re-analysing the stored audio gives them, where it was kept.` }));
+  }
+  tones.forEach((t, i) => {
+    const section = el('section', { className: 'tone-cycles' }, el('h4', { text: toneHeading(t) }));
+    section.dataset.frequencyHz = String(t.frequencyHz);
+    if (t.harmonics.length) {
+      section.append(el('p', { className: 'harmonics', text: `Harmonics (locked to this tone, not tones of their own): ${t.harmonics.map((h) => `${h.k} × = ${formatHz(h.frequencyHz)}`).join(', ')}` }));
+    }
+    if (t.cycles.length) {
+      // Medians across cycles need two: one cycle's own intervals say more.
+      if (t.cycles.length >= 2) section.append(el('p', { className: 'cycle-medians', text: cycleMedianLine(t) }));
+      section.append(
+        scrollTable(
+          i === 0 ? 'cycles-table' : `cycles-table-${i + 1}`,
+          `Cycles of ${formatHz(t.frequencyHz)} (95 % intervals)`,
+          CYCLE_COLUMNS,
+          t.cycles.map(cycleCells),
+          t.cycles.map((c) => ({ kind: c.isImpulseResponse ? 'ring-down' : 'cycle' })),
+        ),
+      );
+    }
+    box.append(section);
+  });
+  const steady = steadyLinesLine(rc);
+  if (steady) box.append(el('p', { className: 'hint steady-lines', text: steady }));
+  return box;
+}
+
+/**
+ * The margin to humming from the noise (report.modeStatistics): each tone's linear growth rate ν
+ * over each stretch of steady operation, its damping ratio when it decays, and the call of the
+ * app's one rule (run/verdict.ts stabilityOf); a stretch the analysis could not call says why.
+ */
+export function modeStatisticsTable(report: Report): HTMLElement | null {
+  const rows = report.modeStatistics ?? [];
+  if (!rows.length) return null;
   return scrollTable(
-    'cycles-table',
-    `Firing cycles (${cycles.length})`,
-    ['#', 'From', 'To', 'Frequency', 'Growth rate', 'Decay rate', 'Limit amplitude'],
-    cycles.map((c, k) => [
-      String(k + 1),
-      formatClock(c.startS),
-      formatClock(c.endS),
-      formatHz(c.frequencyHz),
-      formatRate(c.growthRatePerS, c.growthRateCi95PerS, 'not fitted'),
-      formatRate(c.decayRatePerS, c.decayRateCi95PerS, 'not seen'),
-      formatDb(c.limitAmplitudeDbfs, 'dBFS', null, 'no limit cycle'),
-    ]),
+    'mode-statistics-table',
+    'Margin to humming from the noise (95 % intervals)',
+    ['Frequency', 'Time (m:s)', 'Linear growth rate ν', 'Damping ratio', 'Call'],
+    rows.map((m) => {
+      const nu = m.linearGrowthRatePerS;
+      const ci = m.linearGrowthRateCi95PerS;
+      const isCalled = m.regime !== 'undetermined' && isShowable(nu);
+      const zeta = isShowable(nu) && nu < 0 ? formatRatio(dampingRatioOf(-nu, m.frequencyHz), isShowableInterval(ci) ? [dampingRatioOf(-ci[1], m.frequencyHz), dampingRatioOf(-ci[0], m.frequencyHz)] : null) : formatMissing('not decaying');
+      return [
+        formatHz(m.frequencyHz),
+        `${formatClock(m.startS)}–${formatClock(m.endS)}`,
+        formatRate(nu, ci, 'not estimated'),
+        zeta,
+        isCalled ? STABILITY_WORDS[stabilityOf(nu, ci, m.frequencyHz)] : `not called${m.reason ? ` (${m.reason})` : ''}`,
+      ];
+    }),
+    rows.map((m) => ({ call: m.regime !== 'undetermined' && isShowable(m.linearGrowthRatePerS) ? stabilityOf(m.linearGrowthRatePerS, m.linearGrowthRateCi95PerS, m.frequencyHz) : 'undetermined' })),
   );
 }
 
@@ -83,6 +135,8 @@ export function renderReportParts(report: Report, title: string): HTMLElement[] 
   ];
   const cycles = cyclesTable(report);
   if (cycles) out.push(cycles);
+  const margins = modeStatisticsTable(report);
+  if (margins) out.push(margins);
   out.push(segmentsTable(report));
   if (report.clipped?.length) {
     const spans = report.clipped.slice(0, 5).map((c) => `${formatClock(c.startS)}–${formatClock(c.endS)}`).join(', ');

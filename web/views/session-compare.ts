@@ -4,9 +4,10 @@
  */
 import type { Report, TrackFrame } from '../../dsp/types';
 import { formatDb, formatHz, formatQ, formatRate, formatRatio } from '../format';
-import { loadFullSession, type FullSession } from '../storage/sessions';
+import type { FullSession } from '../storage/sessions';
+import { callStore } from '../storage/off-thread';
 import { intervalChart, SERIES_COLORS, timeChart } from './session-charts';
-import { formatLocalStamp, sessionTitle, type SessionsContext, type SessionView } from './session-context';
+import { formatLocalStamp, sessionTitle, type SessionView } from './session-context';
 import { h, table } from './session-dom';
 import { beforeAfterSentences } from '../run/compare';
 
@@ -24,11 +25,10 @@ export function onsetTimeS(report: Report | null, track: readonly TrackFrame[]):
   return { timeS: 0, how: 'start of recording (no onset)' };
 }
 
-export async function renderCompare(host: HTMLElement, ctx: SessionsContext, ids: string[]): Promise<SessionView> {
-  const db = await ctx.db();
+export async function renderCompare(host: HTMLElement, ids: string[]): Promise<SessionView> {
   const sessions: FullSession[] = [];
   for (const id of ids.slice(0, SERIES_COLORS.length)) {
-    const s = await loadFullSession(db, id);
+    const s = await callStore('load', id);
     if (s) sessions.push(s);
   }
   const back = h('p', {}, h('a', { text: '← All sessions', attrs: { href: '#sessions' } }));

@@ -1,10 +1,8 @@
-/** What the session views share: the app, the database, navigation within the screen, and deletion with undo. */
+/** What the session views share: the app, navigation within the screen, and deletion with undo (stored sessions are read through storage/off-thread.ts callStore). */
 import type { AppContext } from '../app-context';
-import type { SessionDb } from '../storage/db';
 
 export interface SessionsContext {
   app: AppContext;
-  db(): Promise<SessionDb>;
   /** Shows a view of the sessions screen: undefined = list, an id, 'compare:<ids>' or 'map[:<ids>]'. */
   go(param?: string): void;
   /** Deletes a session and offers undo for a while. */

@@ -4,18 +4,19 @@
  * export (bundle, CSV, WAV, printable report) and delete with undo.
  */
 import type { Report } from '../../dsp/types';
-import { formatClock, formatDb, formatHz, formatQ, formatRate, formatRatio, formatSeconds } from '../format';
+import { formatClock, formatDb, formatHz, formatMissing, formatQ, formatRate, formatRatio, formatSeconds, isShowable } from '../format';
 import { TEXT_LIMITS } from '../storage/bundle-schema';
 import { bundleOptions } from '../settings';
 import { buildBundle, sessionBaseName, sessionWav, shareOrDownload, trackCsv } from '../storage/export';
 import { buildReportHtml } from '../storage/report-html';
-import { loadFullSession, updateSessionMeta, type FullSession } from '../storage/sessions';
+import type { FullSession } from '../storage/sessions';
+import { callStore } from '../storage/off-thread';
 import { SERIES_COLORS, timeChart } from './session-charts';
 import { formatLocalStamp, sessionTitle, type SessionsContext, type SessionView } from './session-context';
 import { cssVar, formatBytes, h, table } from './session-dom';
 import { conditionsEditor, markerEditor } from './session-edit';
 import { reanalysisPanel } from './session-reanalyse';
-import { cyclesTable } from './run-result';
+import { cyclesTable, modeStatisticsTable } from './run-result';
 
 /** Rows of the result table: label and formatted value (with unit and interval). */
 export function summaryRows(report: Report | null, calibrationOffsetDb?: number): [string, string][] {
@@ -33,12 +34,18 @@ export function summaryRows(report: Report | null, calibrationOffsetDb?: number)
     ['Limit-cycle amplitude', formatDb(s.limitAmplitudeDbfs, 'dBFS', null, 'no limit cycle')],
   ];
   if (typeof calibrationOffsetDb === 'number' && typeof s.limitAmplitudeDbfs === 'number') rows.push(['Limit-cycle level', formatDb(s.limitAmplitudeDbfs + calibrationOffsetDb, 'dB SPL')]);
+  // Report version 2: the main tone's rates across its cycles (the pooled rates above weigh each fit by its interval).
+  if (typeof s.cycleCount === 'number' && s.cycleCount >= 2) {
+    const median = (m: number | null | undefined, spread: number | null | undefined, what: string): string =>
+      isShowable(m) ? `median ${formatRate(m)}, spread ${formatRate(spread, null, 'not known')} over ${s.cycleCount} cycles` : formatMissing(`fewer than two cycles with a ${what}`);
+    rows.push(['Growth rate across cycles', median(s.growthRateCycleMedianPerS, s.growthRateCycleSpreadPerS, 'growth')]);
+    rows.push(['Decay rate across cycles', median(s.decayRateCycleMedianPerS, s.decayRateCycleSpreadPerS, 'decay')]);
+  }
   return rows;
 }
 
 export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: string): Promise<SessionView> {
-  const db = await ctx.db();
-  const full = await loadFullSession(db, id);
+  const full = await callStore('load', id);
   if (!full) {
     host.replaceChildren(h('p', { className: 'alert', text: 'This session is not stored on this device (deleted, or the link is from another device).' }), h('a', { className: 'big-link', text: 'All sessions', attrs: { href: '#sessions' } }));
     return { destroy: () => undefined };
@@ -72,7 +79,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   form.addEventListener('submit', async (e) => {
     e.preventDefault();
     try {
-      const next = await updateSessionMeta(db, id, { site: site.value.trim(), equipment: equipment.value.trim(), notes: notes.value });
+      const next = await callStore('updateMeta', id, { site: site.value.trim(), equipment: equipment.value.trim(), notes: notes.value });
       full.record = next;
       title.textContent = sessionTitle(next.meta.site, next.meta.equipment, next.meta.fileName);
       formMsg.className = 'hint';
@@ -115,13 +122,14 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
     ? table('segments', 'Segments', ['kind', 'time (m:s)', 'frequency', 'rate (95 % CI)', 'model'], r.segments.map((g) => [g.kind, `${formatClock(g.startS)}–${formatClock(g.endS)}`, formatHz(g.frequencyHz), g.ratePerS === null ? '—' : formatRate(g.ratePerS, g.rateCi95PerS), g.model ?? '']))
     : null;
   const cycles = r ? cyclesTable(r) : null;
+  const margins = r ? modeStatisticsTable(r) : null;
   const noise = r?.noiseDriven.length
     ? table('segments', 'Damping of the quiet system (noise-driven)', ['time (m:s)', 'frequency', 'decay rate (95 % CI)'], r.noiseDriven.map((n) => [`${formatClock(n.startS)}–${formatClock(n.endS)}`, formatHz(n.frequencyHz), formatRate(n.decayRatePerS, n.decayRateCi95PerS)]))
     : null;
-  const markers = markerEditor(db, id, record.markers, (next) => {
+  const markers = markerEditor(id, record.markers, (next) => {
     full.record = { ...full.record, markers: next };
   });
-  const conditions = conditionsEditor(db, id, m.geometry, offset, (next) => {
+  const conditions = conditionsEditor(id, m.geometry, offset, (next) => {
     full.record = next;
   });
   const notesList = [...(r?.warnings ?? []), ...record.history];
@@ -166,6 +174,7 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
       : null,
     plots,
     cycles,
+    margins,
     segs,
     noise,
     markers,

@@ -7,8 +7,8 @@
 import type { DuctGeometry, Marker } from '../../dsp/types';
 import { formatClock, formatFixed } from '../format';
 import { TEXT_LIMITS } from '../storage/bundle-schema';
-import type { SessionDb, SessionRecord } from '../storage/db';
-import { updateSessionMarkers, updateSessionMeta } from '../storage/sessions';
+import type { SessionRecord } from '../storage/db';
+import { callStore } from '../storage/off-thread';
 import { h } from './session-dom';
 
 /** Reads a number field: undefined when empty, NaN when not a number or outside [min, max]. */
@@ -27,7 +27,7 @@ function numberInput(id: string, value: number | undefined, step = 'any'): HTMLI
 }
 
 /** A form editing the control value and unit of each marker. */
-export function markerEditor(db: SessionDb, id: string, markers: Marker[], onSaved: (m: Marker[]) => void): HTMLElement {
+export function markerEditor(id: string, markers: Marker[], onSaved: (m: Marker[]) => void): HTMLElement {
   if (markers.length === 0) return h('p', { className: 'hint', text: 'No markers were set while recording.' });
   const msg = h('p', { className: 'hint', attrs: { 'aria-live': 'polite' } });
   const rows = markers.map((m, k) => ({ m, value: numberInput(`marker-value-${k}`, m.value), unit: h('input', { attrs: { type: 'text', id: `marker-unit-${k}`, maxlength: String(TEXT_LIMITS.markerUnit), autocomplete: 'off' } }) }));
@@ -75,7 +75,7 @@ export function markerEditor(db: SessionDb, id: string, markers: Marker[], onSav
       next.push({ ...rest, ...(value !== undefined ? { value } : {}), ...(unit ? { unit } : {}) });
     }
     try {
-      await updateSessionMarkers(db, id, next);
+      await callStore('updateMarkers', id, next);
       onSaved(next);
       msg.className = 'hint';
       msg.textContent = 'Control values saved.';
@@ -98,7 +98,7 @@ export function geometryWords(geometry: DuctGeometry | undefined): string {
  * session. A session without geometry says so ("not given") and takes one only when all three
  * figures are entered; no default is ever filled in.
  */
-export function conditionsEditor(db: SessionDb, id: string, geometry: DuctGeometry | undefined, calibrationOffsetDb: number | undefined, onSaved: (record: SessionRecord) => void): HTMLElement {
+export function conditionsEditor(id: string, geometry: DuctGeometry | undefined, calibrationOffsetDb: number | undefined, onSaved: (record: SessionRecord) => void): HTMLElement {
   const msg = h('p', { className: 'hint', attrs: { 'aria-live': 'polite' } });
   const length = numberInput('edit-length', geometry?.lengthM);
   const diameter = numberInput('edit-diameter', geometry ? geometry.diameterM * 1000 : undefined);
@@ -146,7 +146,7 @@ export function conditionsEditor(db: SessionDb, id: string, geometry: DuctGeomet
       nextGeometry = { openEnd: 'unflanged', ...geometry, lengthM: l, diameterM: d / 1000, gasTemperatureC: t, ends: endsValue };
     }
     try {
-      onSaved(await updateSessionMeta(db, id, { ...(nextGeometry ? { geometry: nextGeometry } : {}), calibrationOffsetDb: offset }));
+      onSaved(await callStore('updateMeta', id, { ...(nextGeometry ? { geometry: nextGeometry } : {}), calibrationOffsetDb: offset }));
       status.textContent = geometryWords(nextGeometry);
       msg.className = 'hint';
       msg.textContent = 'Saved. Reopen the session to see levels with the new calibration.';

@@ -6,7 +6,7 @@
  */
 import { formatClock, formatDb, formatQuantity, formatRate } from '../format';
 import type { SessionRecord } from '../storage/db';
-import { listSessions } from '../storage/sessions';
+import { callStore } from '../storage/off-thread';
 import { buildStabilityMap, type MapStep } from '../storage/stability';
 import { scatterChart } from './session-charts';
 import { formatLocalStamp, sessionTitle, type SessionsContext, type SessionView } from './session-context';
@@ -47,8 +47,7 @@ function picker(id: string, label: string, options: { value: string; text: strin
 }
 
 export async function renderMap(host: HTMLElement, ctx: SessionsContext, ids: string[] | null, unitWanted?: string, equipmentWanted?: string): Promise<SessionView> {
-  const db = await ctx.db();
-  const all = await listSessions(db);
+  const all = await callStore('list');
   const selected: SessionRecord[] = ids ? all.filter((s) => ids.includes(s.id)) : all;
   // "All sessions" maps one piece of equipment at a time: settings of different appliances do not share a threshold.
   const groups = ids ? [] : equipmentGroups(selected);

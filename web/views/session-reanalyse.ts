@@ -1,11 +1,11 @@
 /**
  * Re-analysis panel of a stored session: band (or a mode of interest), markers moved, added or
- * removed after the fact, then the kept audio runs again through the analysis worker. The new
+ * removed after the fact, then the kept audio runs again through the analysis (in the storage worker). The new
  * figures show beside the stored ones; "Keep" makes them the session's report.
  */
 import type { Marker, Report } from '../../dsp/types';
 import type { FullSession } from '../storage/sessions';
-import { checkReanalysis, keepReanalysis, octaveAround, reanalyseAudio, type ReanalysisOptions } from '../run/reanalyse';
+import { checkReanalysis, keepReanalysis, octaveAround, reanalyseSession, type ReanalysisOptions } from '../run/reanalyse';
 import { loadSettings } from '../settings';
 import { formatFixed, formatHz, formatRate } from '../format';
 import { renderReportParts } from './run-result';
@@ -109,7 +109,7 @@ export function reanalysisPanel(full: FullSession, onKept: (report: Report, mark
     message.textContent = 'Analysing the kept audio…';
     result.replaceChildren();
     try {
-      const report = await reanalyseAudio(audio, sampleRateHz, o, (f) => (progress.value = f));
+      const report = await reanalyseSession(full.record.id, o, (f) => (progress.value = f));
       message.textContent = '';
       const keep = el('button', { type: 'button', className: 'small-button', id: 'reanalyse-keep', text: 'Keep this as the session’s result' });
       keep.addEventListener('click', async () => {

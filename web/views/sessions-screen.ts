@@ -9,20 +9,8 @@ import type { SessionRecord } from '../storage/db';
 import { bundleOptions } from '../settings';
 import { buildBundle, shareOrDownload } from '../storage/export';
 import { ImportError } from '../storage/import';
-import { importBundleFile, recoverInterruptedOffThread } from '../storage/off-thread';
-import {
-  deleteSession,
-  getSessionDb,
-  listSessions,
-  loadFullSession,
-  onDatabaseBlocked,
-  onDatabaseVersionChange,
-  requestPersistentStorage,
-  restoreSession,
-  storageFigures,
-  type DeletedSession,
-  type FullSession,
-} from '../storage/sessions';
+import { callStore, importBundleFile, recoverInterruptedOffThread } from '../storage/off-thread';
+import { getSessionDb, onDatabaseBlocked, onDatabaseVersionChange, requestPersistentStorage, storageFigures, type DeletedSession, type FullSession } from '../storage/sessions';
 import { renderCompare } from './session-compare';
 import type { SessionsContext, SessionView } from './session-context';
 import { formatLocalStamp, sessionTitle } from './session-context';
@@ -59,13 +47,11 @@ export const mountSessionsScreen: MountScreen = (root, app) => {
 
   const ctx: SessionsContext = {
     app,
-    db: getSessionDb,
     go: (param) => app.navigate('sessions', param),
     async deleteWithUndo(id, title) {
-      const db = await getSessionDb();
       let deleted: DeletedSession | undefined;
       try {
-        deleted = await deleteSession(db, id);
+        deleted = await callStore('delete', id);
       } catch (err) {
         app.notify(`The session could not be deleted: ${err instanceof Error ? err.message : String(err)}`, 'error');
         return;
@@ -80,7 +66,7 @@ export const mountSessionsScreen: MountScreen = (root, app) => {
           click: async () => {
             undoBar.hidden = true;
             try {
-              await restoreSession(await getSessionDb(), kept);
+              await callStore('restore', kept);
               app.notify(`Restored “${title}”.`, 'info');
               ctx.go(id);
             } catch (err) {
@@ -106,7 +92,7 @@ export const mountSessionsScreen: MountScreen = (root, app) => {
     viewHost.replaceChildren(h('p', { className: 'hint', text: 'Loading sessions…' }));
     let view: SessionView;
     try {
-      if (param && param.startsWith('compare:')) view = await renderCompare(viewHost, ctx, param.slice(8).split(',').filter(Boolean));
+      if (param && param.startsWith('compare:')) view = await renderCompare(viewHost, param.slice(8).split(',').filter(Boolean));
       else if (param === 'map' || (param && param.startsWith('map:'))) view = await renderMap(viewHost, ctx, param.length > 4 ? param.slice(4).split(',').filter(Boolean) : null);
       else if (param) view = await renderDetail(viewHost, ctx, param);
       else view = await renderList(viewHost, ctx);
@@ -137,7 +123,6 @@ export const mountSessionsScreen: MountScreen = (root, app) => {
 };
 
 async function renderList(host: HTMLElement, ctx: SessionsContext): Promise<SessionView> {
-  const db = await ctx.db();
   const search = h('input', { attrs: { type: 'search', id: 'session-search', placeholder: 'site, equipment or notes', autocomplete: 'off' } });
   const from = h('input', { attrs: { type: 'date', id: 'session-from' } });
   const to = h('input', { attrs: { type: 'date', id: 'session-to' } });
@@ -161,7 +146,7 @@ async function renderList(host: HTMLElement, ctx: SessionsContext): Promise<Sess
 
   let sessions: SessionRecord[] = [];
   const refresh = async (): Promise<void> => {
-    sessions = await listSessions(db, { text: search.value, fromMs: dateInputToMs(from.value, false), toMs: dateInputToMs(to.value, true) });
+    sessions = await callStore('list', { text: search.value, fromMs: dateInputToMs(from.value, false), toMs: dateInputToMs(to.value, true) });
     list.replaceChildren(...sessions.map((s) => listItem(s)));
     for (const id of [...selected]) if (!sessions.some((s) => s.id === id)) selected.delete(id);
     count.textContent = sessions.length ? `${sessions.length} session${sessions.length === 1 ? '' : 's'}, newest first.` : search.value || from.value || to.value ? 'No session matches.' : 'No sessions yet. Recordings made on the Listen screen appear here.';
@@ -235,7 +220,7 @@ async function renderList(host: HTMLElement, ctx: SessionsContext): Promise<Sess
   exportBtn.addEventListener('click', async () => {
     const full: FullSession[] = [];
     for (const id of selected) {
-      const s = await loadFullSession(db, id);
+      const s = await callStore('load', id);
       if (s) full.push(s);
     }
     if (!full.length) return;

@@ -303,7 +303,6 @@ function handle(message: ToWorker): void {
     }
     case 'analyse-file': {
       run = createRun(message.id, message.config, message.isKeepingAudio, null);
-      for (const m of message.markers ?? []) run.analysis.mark({ ...m });
       post({ type: 'ready', id: message.id });
       analyseFile(run, message.channels);
       return;

@@ -52,8 +52,6 @@ export interface AnalyseFileRequest {
   config: AnalysisConfig;
   channels: Float32Array[];
   isKeepingAudio: boolean;
-  /** Markers of the record (re-analysis of a stored session), placed before the samples are analysed. */
-  markers?: Marker[];
 }
 
 /**
