@@ -352,6 +352,17 @@ function scanUnusable(st: ConditionState, block: Float32Array, zeroRun: number):
   st.clipCarry |= flag;
 }
 
+/** Longest run of exact zeros in a[off .. off + n), the first run continuing zeroRunBefore zeros before it. */
+function longestZeroRun(a: Float64Array, off: number, n: number, zeroRunBefore: number): number {
+  let run = zeroRunBefore;
+  let longest = run;
+  for (let i = off; i < off + n; i++) {
+    run = a[i] === 0 ? run + 1 : 0;
+    if (run > longest) longest = run;
+  }
+  return longest;
+}
+
 /**
  * Conditions one block (length ≤ CONDITION_MAX_BLOCK): writes the analysis-rate samples into
  * st.out[0 .. st.outCount) and their unusable flags into st.outUnusable. Allocates nothing.
@@ -362,24 +373,34 @@ export function stepCondition(st: ConditionState, block: Float32Array): void {
   const first = st.stages.length > 0 ? st.stages[0] : null;
   const a = first !== null ? first.work : st.scratchA;
   const off = first !== null ? first.length - 1 : 0;
-  let peak = 0;
-  let nonFinite = 0;
-  const zeroRunBefore = st.zeroRun;
-  let zeroRun = zeroRunBefore;
-  let longestZeroRun = zeroRun;
-  for (let i = 0; i < n; i++) {
-    const x = block[i];
-    const ax = x < 0 ? -x : x;
-    if (ax > peak) peak = ax;
-    nonFinite += x * 0;
-    zeroRun = x === 0 ? zeroRun + 1 : 0;
-    if (zeroRun > longestZeroRun) longestZeroRun = zeroRun;
-    a[off + i] = x;
+  a.set(block, off);
+  // Extremes in one branch-free pass (Math.max/min carry a NaN through: non-finite input).
+  let hi = 0;
+  let lo = 0;
+  for (let i = off; i < off + n; i++) {
+    const x = a[i];
+    hi = Math.max(hi, x);
+    lo = Math.min(lo, x);
   }
-  st.zeroRun = zeroRun;
+  const nonFinite = hi !== hi || lo !== lo;
+  let peak = Math.max(hi, -lo);
+  if (nonFinite) {
+    peak = 0;
+    for (let i = 0; i < n; i++) if (Math.abs(block[i]) > peak) peak = Math.abs(block[i]);
+  }
+  const zeroRunBefore = st.zeroRun;
+  const silenceRun = st.silenceRunSamples;
+  let leading = 0;
+  while (leading < n && a[off + leading] === 0) leading++;
+  // A run of silenceRun zeros inside the block holds one of the samples silenceRun − 1, 2·silenceRun − 1, …
+  let maySilence = zeroRunBefore + leading >= silenceRun;
+  for (let i = off + silenceRun - 1; i < off + n && !maySilence; i += silenceRun) if (a[i] === 0) maySilence = true;
+  let trailing = 0;
+  while (trailing < n && a[off + n - 1 - trailing] === 0) trailing++;
+  st.zeroRun = leading === n ? zeroRunBefore + n : trailing;
   st.peakAbs = peak;
   st.isClipped = false;
-  const mayClip = peak >= CLIP_LEVEL || nonFinite !== 0 || longestZeroRun >= st.silenceRunSamples;
+  const mayClip = peak >= CLIP_LEVEL || nonFinite || (maySilence && longestZeroRun(a, off, n, zeroRunBefore) >= silenceRun);
   if (mayClip) {
     // Non-finite samples are replaced by 0 so the filters stay finite (they count as clipped).
     for (let i = off; i < off + n; i++) if (!(Math.abs(a[i]) <= 1e30)) a[i] = 0;

@@ -248,7 +248,8 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
   if (!(cfg.bandLowHz > 0) || !(cfg.bandHighHz > cfg.bandLowHz)) throw new RangeError(`band must satisfy 0 < bandLowHz < bandHighHz, got ${cfg.bandLowHz}-${cfg.bandHighHz} Hz`);
   const n = Math.max(64, 2 ** Math.round(Math.log2(FRAME_S * fs)));
   const hop = n / HOPS_PER_FRAME;
-  const spec = createSpectrumState({ sampleRateHz: fs, frameSize: n, hopSize: hop, smoothing: 1 });
+  // Only each frame's power is read: no averaged spectrum.
+  const spec = createSpectrumState({ sampleRateHz: fs, frameSize: n, hopSize: hop, averaged: false });
   const loBin = Math.max(1, Math.floor(cfg.bandLowHz / spec.binHz));
   const hiBin = Math.max(loBin, Math.min(spec.binCount - 2, Math.ceil(cfg.bandHighHz / spec.binHz)));
   const bins = hiBin - loBin + 1;

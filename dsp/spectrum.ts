@@ -21,6 +21,11 @@ export interface SpectrumConfig {
   hopSize: number;
   /** Weight of the newest frame in the averaged spectrum (0-1]. */
   smoothing?: number;
+  /**
+   * Whether frames also fill the averaged spectrum, its prefix sums and the frame's mean square
+   * (default true); false for a reader of the frame's power alone.
+   */
+  averaged?: boolean;
 }
 
 export interface SpectrumState {
@@ -30,6 +35,7 @@ export interface SpectrumState {
   readonly binHz: number;
   readonly binCount: number;
   readonly smoothing: number;
+  readonly isAveraged: boolean;
   window: Float64Array;
   /** Double-written history of the last frameSize samples: ring[pos .. pos + N − 1], oldest first. */
   ring: Float64Array;
@@ -75,6 +81,7 @@ export function createSpectrumState(cfg: SpectrumConfig): SpectrumState {
     binHz: cfg.sampleRateHz / n,
     binCount,
     smoothing,
+    isAveraged: cfg.averaged ?? true,
     window,
     ring: new Float64Array(2 * n),
     pos: 0,
@@ -111,13 +118,28 @@ export function feedSpectrum(st: SpectrumState, x: Float32Array, start: number, 
   return st.toFrame === 0;
 }
 
-/** Transforms the current frame: fills power, smooth and prefix. Allocates nothing. */
+/** Transforms the current frame: fills power, and (when averaged) smooth, prefix and frameMeanSquare. Allocates nothing. */
 export function computeSpectrumFrame(st: SpectrumState): void {
   const n = st.frameSize;
   const ring = st.ring;
   const w = st.window;
   const inp = st.fftIn;
   const base = st.pos;
+  if (!st.isAveraged) {
+    for (let i = 0; i < n; i++) inp[i] = ring[base + i] * w[i];
+    st.fft.realTransform(st.fftOut, inp);
+    const out = st.fftOut;
+    const p = st.power;
+    const scale = st.powerScale;
+    for (let k = 0; k < st.binCount; k++) {
+      const re = out[2 * k];
+      const im = out[2 * k + 1];
+      p[k] = (re * re + im * im) * scale;
+    }
+    st.frameCount++;
+    st.toFrame = st.hopSize;
+    return;
+  }
   let ms = 0;
   for (let i = 0; i < n; i++) {
     const v = ring[base + i];

@@ -1,5 +1,5 @@
 // Browser bench of the field app (printed, never asserted):
-//   1. analysis cost in the browser worker per second of 48 kHz audio (target ≤ 20 ms),
+//   1. analysis cost in the browser worker per second of 48 kHz audio (target ≤ 5 ms),
 //   2. initial JavaScript of the app, gzipped (target ≤ 200 KB),
 //   3. first paint of the installed app reloaded offline in headless Chromium (target ≤ 1 s),
 //   4. storage: opening a 10-minute recording and importing its bundle, each in a fresh profile:
@@ -10,7 +10,7 @@
 import { spawn, execSync } from 'node:child_process';
 import { mkdtempSync, readFileSync, writeFileSync, existsSync, mkdirSync, readdirSync, copyFileSync } from 'node:fs';
 import { gzipSync } from 'node:zlib';
-import { tmpdir } from 'node:os';
+import { cpus, loadavg, tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { chromium } from 'playwright-core';
 
@@ -264,7 +264,8 @@ async function main() {
     const analysisMs = Number(await cost.getAttribute('data-analysis-ms'));
     const audioS = Number(await cost.getAttribute('data-audio-s'));
     costMsPerS = analysisMs / audioS;
-    detail = `${audioS.toFixed(0)} s of 48 kHz audio analysed in ${analysisMs.toFixed(0)} ms (${(audioS / (analysisMs / 1000)).toFixed(0)}× real time)`;
+    // Wall time inside the worker: other load on the machine inflates it (the load average says how much).
+    detail = `${audioS.toFixed(0)} s of 48 kHz audio analysed in ${analysisMs.toFixed(0)} ms (${(audioS / (analysisMs / 1000)).toFixed(0)}× real time; load average ${loadavg()[0].toFixed(1)} on ${cpus().length} CPUs)`;
 
     // 3. First paint offline: wait until the service worker controls the page, go offline, reload.
     await page.waitForFunction(() => navigator.serviceWorker.controller?.state === 'activated', null, { timeout: 30_000 });
@@ -299,7 +300,7 @@ async function main() {
     stopServer();
   }
 
-  line('analysis cost in the browser worker, per s of 48 kHz', costMsPerS, 'ms', '≤ 20 ms', costMsPerS <= 20);
+  line('analysis cost in the browser worker, per s of 48 kHz', costMsPerS, 'ms', '≤ 5 ms', costMsPerS <= 5);
   line('initial JavaScript, gzipped', js.kb, 'KB', '≤ 200 KB', js.kb <= 200);
   line('first paint of the installed app, offline (median)', firstPaintMs, 'ms', '≤ 1000 ms', firstPaintMs <= 1000);
   console.log(`  ${detail}`);
