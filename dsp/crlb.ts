@@ -7,7 +7,7 @@
  * Estimation Theory, ch. 3; closed forms for this model: Yao & Pandit 1995, IEEE Trans. Signal
  * Process. 43 [from memory]). Port of the numerical reference script crlb.py (REFERENCES.md §8).
  */
-import { invertSmallMatrix } from './fit';
+import { invertSmallMatrix } from './stats';
 
 /** Bounds on the standard deviations of the tone parameters (units: as the parameter; rate 1/s, frequency Hz, phase rad). */
 export interface ToneBound {

@@ -28,7 +28,7 @@
  *    when the Lorentzian fit fails.
  */
 import { dftAnyLength, fftInPlace, mixDownDecimate, nextPow2, type Baseband } from './baseband';
-import { invertSmallMatrix, studentTQuantile, Z_975 } from './fit';
+import { invertSmallMatrix, studentTQuantile, Z_975 } from './stats';
 import type { DecayEstimate } from './types';
 
 /** Result of estimateNoiseDrivenDamping: peak frequency and the decay rate by each estimator. */

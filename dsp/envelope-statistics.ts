@@ -31,7 +31,7 @@
  * 9(3)), as in dsp/damping.ts: every statistic is a smooth function of sums over the record, so
  * the replicates carry the samples' autocorrelation; Student-t with K − 1 degrees of freedom.
  */
-import { invertSmallMatrix, studentTQuantile } from './fit';
+import { invertSmallMatrix, studentTQuantile } from './stats';
 import type { Interval } from './types';
 
 /** A complex envelope u (unit: peak amplitude of the tone) sampled at rateHz. */

@@ -12,6 +12,8 @@ export { createTrackerState, isMainsMultiple, stepTracker, type ToneTrack, type 
 export { bandPowerFromBinPower, createEnvelopeState, resetEnvelope, setEnvelopeFrequency, stepEnvelope, type EnvelopeConfig, type EnvelopeState } from './envelope';
 export { createRegimeState, regimeKind, stepRegime, type RegimeSegment, type RegimeState } from './regime';
 export * from './fit';
+export * from './fit-saturation';
+export * from './stats';
 export * from './baseband';
 export * from './damping';
 export * from './derived';

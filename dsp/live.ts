@@ -3,7 +3,8 @@
  * * the main tone of the moment), onsets of the short-frame detector (live-onset.ts), and each closed segment with a
  * provisional rate. finish() fits every segment again (segment-fit.ts); these are for the view.
  */
-import { fitExponential, studentTQuantile } from './fit';
+import { fitExponential } from './fit';
+import { studentTQuantile } from './stats';
 import type { History } from './history';
 import { addLinePoint, createLineSums, lineRss, lineSxx, lineSxy } from './line-fit';
 import { isNoiseSegment } from './noise-label';

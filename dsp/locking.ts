@@ -6,7 +6,7 @@
  * is k·f to within half a cycle over the stretch). A second duct mode near 2f has its own rate and
  * frequency, and stays a tone.
  */
-import { studentTQuantile, Z_975 } from './fit';
+import { studentTQuantile, Z_975 } from './stats';
 import { addLinePoint, createLineSums, lineRss, lineSxx, lineSxy } from './line-fit';
 import { phaseFrequency } from './segment-fit';
 import { indexAtTime, topPowerIn, type ToneRuntime } from './tone-store';

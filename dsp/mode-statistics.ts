@@ -14,7 +14,7 @@
 import { basebandFilter, dftAnyLength, mixDownDecimate } from './baseband';
 import { fitLorentzianWhittle } from './damping';
 import { estimateEnvelopeStatistics, type BandFilterEffect, type ComplexEnvelope, type RouteEstimate } from './envelope-statistics';
-import { incompleteBeta, Z_975 } from './fit';
+import { incompleteBeta, Z_975 } from './stats';
 import type { Interval, ModeStatistics, NoiseRegime } from './types';
 
 /** Least stretch of steady operation for a verdict, s (issue requirement; at 20 s and |ν| = 5 1/s the interval is about ±1 1/s, REFERENCES.md §7). */

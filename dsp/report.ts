@@ -3,7 +3,7 @@
  * lines or grouped lines), the main tone's summary with pooled rates, clipping and warnings.
  */
 import { deriveSummary } from './derived';
-import { Z_975 } from './fit';
+import { Z_975 } from './stats';
 import type { Family, Grouping } from './grouping';
 import { ON_DB, STATE_DECAY, STATE_GROWTH, STATE_QUIET, STATE_STEADY } from './regime';
 import type { FittedSegment } from './segment-fit';

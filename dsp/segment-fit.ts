@@ -4,7 +4,9 @@
  * steady segment from the fits of dsp/fit.ts on the envelope store, with the onset time of a
  * growth that starts from quiet.
  */
-import { backgroundCrossingTimeS, effectiveSampleCount, fitExponential, fitGrowthIntoLimit, Z_975 } from './fit';
+import { backgroundCrossingTimeS, effectiveSampleCount, fitExponential } from './fit';
+import { fitGrowthIntoLimit } from './fit-saturation';
+import { Z_975 } from './stats';
 import { decayStartNearMarker, MARKER_SEARCH_S } from './kink';
 import { addLinePoint, createLineSums, lineSxx, lineSxy, resetLineSums } from './line-fit';
 import { ON_DB, regimeKind, STATE_DECAY, STATE_GROWTH, STATE_QUIET, STATE_STEADY, type RegimeSegment } from './regime';

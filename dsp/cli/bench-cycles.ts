@@ -14,7 +14,7 @@
  * which leaves the Fisher information of a tone far below the Nyquist frequency unchanged.
  */
 import { crlbDampedTone } from '../crlb';
-import { invertSmallMatrix } from '../fit';
+import { invertSmallMatrix } from '../stats';
 import { createAnalysis } from '../index';
 import { createRng, type Rng } from '../synth';
 import type { Cycle, Report } from '../types';

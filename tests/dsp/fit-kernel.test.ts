@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { fitSaturation, landauAmplitude } from '../../dsp/fit';
+import { fitSaturation, landauAmplitude } from '../../dsp/fit-saturation';
 import type { EnvelopeSeries } from '../../dsp/types';
 import { envelopePowerSeries } from './fit-fixtures';
 

@@ -1,21 +1,8 @@
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
-import {
-  backgroundCrossingTimeS,
-  CHI2_1DOF_99,
-  EARLY_LIMIT_FRACTION,
-  effectiveSampleCount,
-  fitExponential,
-  fitGrowthIntoLimit,
-  fitLogLine,
-  fitSaturation,
-  incompleteBeta,
-  landauAmplitude,
-  landauHalfLimitTimeS,
-  logGamma,
-  studentTQuantile,
-  Z_975,
-} from '../../dsp/fit';
+import { backgroundCrossingTimeS, effectiveSampleCount, fitExponential, fitLogLine } from '../../dsp/fit';
+import { EARLY_LIMIT_FRACTION, fitGrowthIntoLimit, fitSaturation, landauAmplitude, landauHalfLimitTimeS } from '../../dsp/fit-saturation';
+import { CHI2_1DOF_99, incompleteBeta, logGamma, studentTQuantile, Z_975 } from '../../dsp/stats';
 import { createRng, exponentialEnvelope, humCycleEnvelope, synthesize } from '../../dsp/synth';
 import type { EnvelopeSeries, RateFit } from '../../dsp/types';
 import { expectedList, expectedScalar, ref } from '../reference/values';

@@ -6,7 +6,7 @@
  * (Gopalakrishnan et al. 2016, Sci. Rep. 6, 35310, on a thermoacoustic subcritical Hopf
  * transition; REFERENCES.md §12).
  */
-import { studentTQuantile, Z_975 } from '../../dsp/fit';
+import { studentTQuantile, Z_975 } from '../../dsp/stats';
 import type { Interval, Marker, Report } from '../../dsp/types';
 
 export type MapState = 'quiet' | 'humming';
