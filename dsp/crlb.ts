@@ -55,14 +55,24 @@ export function crlbDampedTone(p: {
     j[3] = -a * env * s;
     for (let r = 0; r < 4; r++) for (let q = 0; q < 4; q++) fim[r * 4 + q] += j[r] * j[q];
   }
-  // Scale to unit diagonal before inverting: the entries span many decades.
-  const d = new Float64Array(4);
-  for (let r = 0; r < 4; r++) d[r] = Math.sqrt(fim[r * 5]);
-  const scaled = new Float64Array(16);
-  for (let r = 0; r < 4; r++) for (let q = 0; q < 4; q++) scaled[r * 4 + q] = fim[r * 4 + q] / (d[r] * d[q]);
-  const inv = invertSmallMatrix(scaled, 4);
-  const sd = (r: number): number => (inv === null ? Number.NaN : Math.sqrt((inv[r * 5] * noiseVariance) / (d[r] * d[r])));
-  return { n, sdAmplitude: sd(0), sdRatePerS: sd(1), sdFrequencyHz: sd(2), sdPhaseRad: sd(3), noiseVariance };
+  const sd = boundsFromFisher(fim, 4, noiseVariance);
+  return { n, sdAmplitude: sd[0], sdRatePerS: sd[1], sdFrequencyHz: sd[2], sdPhaseRad: sd[3], noiseVariance };
+}
+
+/**
+ * Cramér–Rao standard deviations √((I⁻¹)_ii) of k parameters from the k×k sum Σ ∂s/∂θ_i ∂s/∂θ_j
+ * (row-major) in white noise of variance noiseVariance (I = that sum / variance). Scaled to a unit
+ * diagonal before inverting: the entries span many decades. NaN when I is singular.
+ */
+export function boundsFromFisher(jtj: Float64Array, k: number, noiseVariance: number): Float64Array {
+  const d = new Float64Array(k);
+  for (let r = 0; r < k; r++) d[r] = Math.sqrt(jtj[r * (k + 1)]);
+  const scaled = new Float64Array(k * k);
+  for (let r = 0; r < k; r++) for (let q = 0; q < k; q++) scaled[r * k + q] = jtj[r * k + q] / (d[r] * d[q]);
+  const inv = invertSmallMatrix(scaled, k);
+  const sd = new Float64Array(k);
+  for (let r = 0; r < k; r++) sd[r] = inv === null ? Number.NaN : Math.sqrt((inv[r * (k + 1)] * noiseVariance) / (d[r] * d[r]));
+  return sd;
 }
 
 /**

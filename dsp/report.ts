@@ -9,7 +9,7 @@ import { ON_DB, STATE_DECAY, STATE_GROWTH, STATE_QUIET, STATE_STEADY } from './r
 import type { FittedSegment } from './segment-fit';
 import { meanBg, meanPower } from './tone-store';
 import { harmonicToleranceHz, isMainsMultiple, MAINS_HZ } from './track';
-import { REPORT_VERSION, type ClippedSpan, type Cycle, type HarmonicEntry, type Interval, type NoiseDriven, type RateFit, type Report } from './types';
+import { REPORT_VERSION, type ClippedSpan, type Cycle, type HarmonicEntry, type Interval, type NoiseDriven, type RateFit, type Report, type Segment } from './types';
 
 /** Share of a tone's sounding frames in which a peak at k·f must be seen for k to be listed as its harmonic. */
 const HARMONIC_MIN_SHARE = 0.5;
@@ -120,6 +120,23 @@ function summarise(main: Family, fitted: FittedSegment[]): Report['summary'] {
   });
 }
 
+/** A cycle spanning segment s, with no figures yet. */
+export function emptyCycle(s: Segment): Cycle {
+  return {
+    startS: s.startS,
+    endS: s.endS,
+    onsetS: null,
+    onsetCi95S: null,
+    growthRatePerS: null,
+    growthRateCi95PerS: null,
+    limitAmplitudeDbfs: null,
+    limitAmplitudeCi95Dbfs: null,
+    decayRatePerS: null,
+    decayRateCi95PerS: null,
+    isImpulseResponse: s.isImpulseResponse === true,
+  };
+}
+
 /**
  * The cycles of a tone in time order: a cycle opens at a growth (its onset, when it rose from
  * quiet) or, without one, at the tone's first steady or decay segment after quiet; it takes the
@@ -130,19 +147,7 @@ function cyclesOfTone(fam: Family, fitted: FittedSegment[]): Cycle[] {
   const cycles: Cycle[] = [];
   let cur: Cycle | null = null;
   const open = (f: FittedSegment): Cycle => {
-    const c: Cycle = {
-      startS: f.report.startS,
-      endS: f.report.endS,
-      onsetS: null,
-      onsetCi95S: null,
-      growthRatePerS: null,
-      growthRateCi95PerS: null,
-      limitAmplitudeDbfs: null,
-      limitAmplitudeCi95Dbfs: null,
-      decayRatePerS: null,
-      decayRateCi95PerS: null,
-      isImpulseResponse: f.report.isImpulseResponse === true,
-    };
+    const c = emptyCycle(f.report);
     cycles.push(c);
     return c;
   };

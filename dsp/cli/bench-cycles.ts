@@ -13,8 +13,7 @@
  * computed at a reduced rate with the noise variance scaled to the same power spectral density,
  * which leaves the Fisher information of a tone far below the Nyquist frequency unchanged.
  */
-import { crlbDampedTone } from '../crlb';
-import { invertSmallMatrix } from '../stats';
+import { boundsFromFisher, crlbDampedTone } from '../crlb';
 import { createAnalysis } from '../index';
 import { createRng, type Rng } from '../synth';
 import type { Cycle, Report } from '../types';
@@ -132,12 +131,7 @@ function growthBound(c: TrueCycle, noiseVariance: number): number {
     j[4] = -amp * si;
     for (let p = 0; p < 5; p++) for (let q = 0; q < 5; q++) fim[p * 5 + q] += j[p] * j[q];
   }
-  const sc = new Float64Array(5);
-  for (let p = 0; p < 5; p++) sc[p] = Math.sqrt(fim[p * 6]);
-  const scaled = new Float64Array(25);
-  for (let p = 0; p < 5; p++) for (let q = 0; q < 5; q++) scaled[p * 5 + q] = fim[p * 5 + q] / (sc[p] * sc[q]);
-  const inv = invertSmallMatrix(scaled, 5);
-  return inv === null ? Number.NaN : Math.sqrt((inv[6] * noiseVariance) / (sc[1] * sc[1]));
+  return boundsFromFisher(fim, 5, noiseVariance)[1];
 }
 
 /** The report cycle that belongs to a true cycle: its onset (or start) within the true cycle's span. */

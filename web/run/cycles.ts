@@ -8,7 +8,7 @@
  * isImpulseResponse. A stored report of version 1 has none of these: its cycles are rebuilt from
  * its segments, grouped by frequency, and `missing` says what the old report cannot tell.
  */
-import { medianAndSpread, type CycleMedian } from '../../dsp/report';
+import { emptyCycle, medianAndSpread, type CycleMedian } from '../../dsp/report';
 import type { Cycle, Interval, Report, Segment } from '../../dsp/types';
 
 export { MAD_TO_SD, medianAndSpread, type CycleMedian } from '../../dsp/report';
@@ -47,21 +47,6 @@ function withMedians(t: Omit<ToneCycles, 'growth' | 'decay'>): ToneCycles {
   return { ...t, growth: medianAndSpread(rates((c) => c.growthRatePerS)), decay: medianAndSpread(rates((c) => c.decayRatePerS)) };
 }
 
-function emptyCycle(s: Segment): CycleRow {
-  return {
-    startS: s.startS,
-    endS: s.endS,
-    onsetS: null,
-    onsetCi95S: null,
-    growthRatePerS: null,
-    growthRateCi95PerS: null,
-    limitAmplitudeDbfs: null,
-    limitAmplitudeCi95Dbfs: null,
-    decayRatePerS: null,
-    decayRateCi95PerS: null,
-    isImpulseResponse: s.isImpulseResponse === true,
-  };
-}
 
 function positiveDecay(s: Segment): { rate: number | null; ci: Interval | null } {
   if (s.ratePerS === null || !(s.ratePerS < 0)) return { rate: null, ci: null };
