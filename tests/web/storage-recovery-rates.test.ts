@@ -2,7 +2,7 @@ import 'fake-indexeddb/auto';
 import { describe, expect, it } from 'vitest';
 import { MIN_SAMPLE_RATE_HZ } from '../../dsp/condition';
 import { createAnalysis } from '../../dsp/index';
-import { humCycleEnvelope, synthesize } from '../../dsp/synth';
+import { recoveryCycle } from './recovery-signal';
 import { openSessionDb } from '../../web/storage/db';
 import { createSessionRecorder } from '../../web/storage/recorder';
 import { analyseStoredAudio } from '../../web/storage/reanalyse';
@@ -15,13 +15,7 @@ describe('recovery at the lowest sample rate the analysis accepts', () => {
     const fs = MIN_SAMPLE_RATE_HZ;
     expect(fs).toBe(500);
     // A 40 Hz hum cycle (dsp/synth.ts): onset 1 s, growth 6 1/s, off at 5 s, decay 4 1/s.
-    const signal = synthesize({
-      sampleRateHz: fs,
-      durationS: 7,
-      tones: [{ frequencyHz: 40, envelope: humCycleEnvelope({ onsetS: 1, startAmplitude: 1e-3, growthPerS: 6, limitAmplitude: 0.2, offS: 5, decayPerS: 4 }) }],
-      noiseRms: 1e-3,
-      seed: 5,
-    });
+    const signal = recoveryCycle(fs, 40, 5);
     const db = await openSessionDb({ name: `humgauge-recovery-rate-${process.pid}-${Date.now()}` });
     let clock = 1_000_000;
     const rec = await createSessionRecorder({ source: 'file', sampleRateHz: fs, keepAudio: true }, { db, useTimer: false, nowMs: () => clock });

@@ -1,7 +1,7 @@
 import 'fake-indexeddb/auto';
 import { describe, expect, it } from 'vitest';
 import { createAnalysis } from '../../dsp/index';
-import { humCycleEnvelope, synthesize } from '../../dsp/synth';
+import { recoveryCycle } from './recovery-signal';
 import { openSessionDb } from '../../web/storage/db';
 import { createSessionRecorder } from '../../web/storage/recorder';
 import { analyseStoredAudio, reanalyseInThread } from '../../web/storage/reanalyse';
@@ -11,13 +11,7 @@ describe('recovery by analysing the stored audio again', () => {
   it('gives the report the analysis gives on the whole signal (the stored audio is the signal, sample for sample)', async () => {
     // A hum cycle of known truth: onset 1 s, growth 6 1/s into a 0.2 limit, off at 5 s, decay 4 1/s (dsp/synth.ts).
     const fs = 8000;
-    const signal = synthesize({
-      sampleRateHz: fs,
-      durationS: 7,
-      tones: [{ frequencyHz: 171, envelope: humCycleEnvelope({ onsetS: 1, startAmplitude: 1e-3, growthPerS: 6, limitAmplitude: 0.2, offS: 5, decayPerS: 4 }) }],
-      noiseRms: 1e-3,
-      seed: 3,
-    });
+    const signal = recoveryCycle(fs, 171, 3);
     const db = await openSessionDb({ name: `humgauge-recovery-${process.pid}-${Date.now()}` });
     let clock = 1_000_000;
     const rec = await createSessionRecorder({ source: 'microphone', sampleRateHz: fs, keepAudio: true }, { db, useTimer: false, nowMs: () => clock });
@@ -43,13 +37,7 @@ describe('recovery by analysing the stored audio again', () => {
 
   it('re-analyses a stored session with a band and markers by the same routine (the report the analysis gives on the signal)', async () => {
     const fs = 8000;
-    const signal = synthesize({
-      sampleRateHz: fs,
-      durationS: 7,
-      tones: [{ frequencyHz: 171, envelope: humCycleEnvelope({ onsetS: 1, startAmplitude: 1e-3, growthPerS: 6, limitAmplitude: 0.2, offS: 5, decayPerS: 4 }) }],
-      noiseRms: 1e-3,
-      seed: 4,
-    });
+    const signal = recoveryCycle(fs, 171, 4);
     const db = await openSessionDb({ name: `humgauge-reanalyse-${process.pid}-${Date.now()}` });
     const rec = await createSessionRecorder({ source: 'file', sampleRateHz: fs, keepAudio: true }, { db, useTimer: false });
     for (let i = 0; i < signal.length; i += 2048) rec.appendAudio(signal.subarray(i, Math.min(signal.length, i + 2048)));
