@@ -92,6 +92,8 @@ export interface RegimeState {
   minLevelDb: number;
   minIdx: number;
   steadyLevelDb: number;
+  /** The steady stretch is the limit cycle a growth of this tone reached (not a line that sounded faintly from the start). */
+  isSteadyLimit: boolean;
   lastHighIdx: number;
   /** Latest index at which a steady level was not above its average by more than FLAT_DB. */
   lastFlatIdx: number;
@@ -140,6 +142,7 @@ export function createRegimeState(rateHz: number, allowOnsets: boolean): RegimeS
     minLevelDb: Infinity,
     minIdx: 0,
     steadyLevelDb: 0,
+    isSteadyLimit: false,
     lastHighIdx: 0,
     lastFlatIdx: 0,
     dropHold: 0,
@@ -258,6 +261,7 @@ function endWarmup(st: RegimeState): void {
   st.segStart = first;
   if (headIsTone) {
     st.state = STATE_STEADY;
+    st.isSteadyLimit = false;
     st.steadyLevelDb = 10 * Math.log10(Math.max(st.warmP[0], 1e-30));
     st.lastHighIdx = first;
     st.lastFlatIdx = first;
@@ -352,6 +356,7 @@ function stepCore(st: RegimeState, idx: number, p: number, bg: number): void {
         }
         closeSegment(st, start, st.growthIsOnset, true);
         st.state = STATE_STEADY;
+        st.isSteadyLimit = true;
         st.steadyLevelDb = levelDb;
         st.lastHighIdx = idx;
         st.lastFlatIdx = idx;
@@ -366,15 +371,16 @@ function stepCore(st: RegimeState, idx: number, p: number, bg: number): void {
       if (levelDb >= st.steadyLevelDb - FLAT_DB) st.lastHighIdx = idx;
       if (levelDb <= st.steadyLevelDb + FLAT_DB) st.lastFlatIdx = idx;
       // A faint tone that starts to grow: the same rise as a re-growth after a decay (REGROW_DB
-      // over its level, clear of the background), from where it last held its level. A growth,
-      // not an onset: the tone was sounding already.
+      // over its level, clear of the background), from where it last held its level. From a line
+      // that sounded faintly (not a limit cycle this tone grew into) the hum sets in there: an
+      // onset; from a limit cycle it is a growth to a higher one, not an onset.
       if (levelDb > st.steadyLevelDb + REGROW_DB && excessDb >= ON_DB) st.regrowHold++;
       else st.regrowHold = 0;
       if (st.regrowHold >= st.onHoldMin) {
         const start = Math.max(st.lastFlatIdx + 1, st.segStart);
         closeSegment(st, start, false, false);
         st.regrowHold = 0;
-        enterGrowth(st, start, false);
+        enterGrowth(st, start, st.allowOnsets && !st.isSteadyLimit);
         break;
       }
       if (levelDb < st.steadyLevelDb - DROP_DB) st.dropHold++;

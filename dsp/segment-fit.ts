@@ -222,9 +222,9 @@ function fitGrowthSegment(out: FittedSegment, segs: RegimeSegment[], i: number, 
     if (fit.isValid) report.model = 'exponential';
   }
   setRate(out, fit);
-  if (seg.isOnset && !tr.isSteadyLine && prev !== null && prev.state === STATE_DECAY) {
-    // Set in again before it died away: the onset is the turn from decay to growth, known to the
-    // narrow envelope's blur (half its kernel either side).
+  if (seg.isOnset && !tr.isSteadyLine && prev !== null && (prev.state === STATE_DECAY || prev.state === STATE_STEADY)) {
+    // Set in from a tone still sounding (a decay not yet died away, a faint steady line): the
+    // onset is the turn into growth, known to the narrow envelope's blur (half its kernel either side).
     out.onsetTimeS = report.startS;
     const half = 0.5 * tr.env.kernelS;
     out.onsetCi95S = [report.startS - half, report.startS + half];

@@ -166,6 +166,9 @@ it('a growth from a faint tone already sounding is a growth with its rate, not s
   const g = r.segments.find((s) => s.kind === 'growth');
   expectRate(g?.ratePerS, g?.rateCi95PerS, 8, 'growth from a faint tone');
   expect(Math.abs((g?.startS ?? 0) - 4)).toBeLessThan(0.3);
+  // The hum sets in where the faint line starts to grow (common practice): one onset, there.
+  expect(r.onsets, JSON.stringify(r.onsets)).toHaveLength(1);
+  expect(Math.abs(r.onsets[0].timeS - 4)).toBeLessThan(0.3);
 });
 
 it('a hum that sets in again before it died away has an onset at the turn from decay to growth', () => {
