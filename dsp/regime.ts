@@ -94,6 +94,8 @@ export interface RegimeState {
   steadyLevelDb: number;
   /** The steady stretch is the limit cycle a growth of this tone reached (not a line that sounded faintly from the start). */
   isSteadyLimit: boolean;
+  /** The quiet stretch began where a decay of this tone ended. */
+  isQuietAfterDecay: boolean;
   lastHighIdx: number;
   /** Latest index at which a steady level was not above its average by more than FLAT_DB. */
   lastFlatIdx: number;
@@ -143,6 +145,7 @@ export function createRegimeState(rateHz: number, allowOnsets: boolean): RegimeS
     minIdx: 0,
     steadyLevelDb: 0,
     isSteadyLimit: false,
+    isQuietAfterDecay: false,
     lastHighIdx: 0,
     lastFlatIdx: 0,
     dropHold: 0,
@@ -176,6 +179,7 @@ function closeSegment(st: RegimeState, endIdx: number, isOnset: boolean, reached
 }
 
 function enterQuiet(st: RegimeState, idx: number): void {
+  st.isQuietAfterDecay = st.state === STATE_DECAY;
   st.state = STATE_QUIET;
   st.quietStartIdx = idx;
   st.lastLowIdx = idx;
@@ -327,7 +331,9 @@ function stepCore(st: RegimeState, idx: number, p: number, bg: number): void {
       else st.onHold = 0;
       if (st.onHold >= st.onHoldMin) {
         const start = Math.max(st.lastLowIdx, st.segStart);
-        const isOnset = st.allowOnsets && start - st.quietStartIdx >= st.minQuiet;
+        // An onset after enough quiet to tell it from the band's flicker, or after any quiet that a
+        // decay of this tone led into (the hum returned soon after it died away).
+        const isOnset = st.allowOnsets && (start - st.quietStartIdx >= st.minQuiet || st.isQuietAfterDecay);
         closeSegment(st, start, false, false);
         enterGrowth(st, start, isOnset);
       }
