@@ -2,12 +2,26 @@
  * Line classification by envelope statistics (docs/DESIGN.md "Noise segments"): a growth or
  * decay that the band's own noise explains is quiet, not a hum.
  */
-import { logSecondDifferenceMs, NOISE_D2, noiseMeanOfSamples, NOISE_TEST_LAG_S, ON_DB, STATE_DECAY, STATE_GROWTH, STATE_QUIET, type RegimeSegment } from './regime';
+import { logSecondDifferenceMs, NOISE_D2, NOISE_TEST_LAG_S, ON_DB, STATE_DECAY, STATE_GROWTH, STATE_QUIET, type RegimeSegment } from './regime';
 import { topPowerIn, type ToneRuntime } from './tone-store';
 
 /** Window either side of a growth or decay in which its noise level is judged, s, and how far above the spectral background that level may lie, dB. */
 const NOISE_PAD_S = 1;
 const NOISE_SPAN_DB = 20;
+
+/** Quantile of the envelope power that estimates the band's own noise level (noiseMeanOfSamples). */
+const NOISE_QUANTILE = 0.2;
+
+/**
+ * Mean of the noise power behind samples of envelope power, robust to a tone that holds up to
+ * 1 − NOISE_QUANTILE of them: the NOISE_QUANTILE-quantile divided by −ln(1 − NOISE_QUANTILE), the
+ * power of narrow-band Gaussian noise being exponentially distributed (common practice). Sorts
+ * `values` in place.
+ */
+function noiseMeanOfSamples(values: number[]): number {
+  values.sort((a, b) => a - b);
+  return values[Math.floor(NOISE_QUANTILE * values.length)] / -Math.log(1 - NOISE_QUANTILE);
+}
 
 /**
  * Whether a growth or decay segment is noise, reading the store up to entry `limit` (exclusive).

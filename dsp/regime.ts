@@ -230,20 +230,6 @@ export function logSecondDifferenceMs(p: ArrayLike<number>, from: number, to: nu
  * over the band noise, steady or growing or decaying exponentially, has ln A² nearly straight
  * over such lags, so its mean square second difference stays under 1 (a kink adds little).
  */
-/** Quantile of the envelope power that estimates the band's own noise level (noiseMeanOfSamples). */
-const NOISE_QUANTILE = 0.2;
-
-/**
- * Mean of the noise power behind samples of envelope power, robust to a tone that holds up to
- * 1 − NOISE_QUANTILE of them: the NOISE_QUANTILE-quantile divided by −ln(1 − NOISE_QUANTILE), the
- * power of narrow-band Gaussian noise being exponentially distributed (common practice). Sorts
- * `values` in place.
- */
-export function noiseMeanOfSamples(values: number[]): number {
-  values.sort((a, b) => a - b);
-  return values[Math.floor(NOISE_QUANTILE * values.length)] / -Math.log(1 - NOISE_QUANTILE);
-}
-
 function endWarmup(st: RegimeState): void {
   const n = st.warmCount;
   if (n === 0) return;
