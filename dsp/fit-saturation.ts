@@ -11,6 +11,7 @@ import {
   fitExponential,
   fitIrls,
   invalidRateFit,
+  memoised,
   polish,
   prepare,
   rssOf,
@@ -35,7 +36,7 @@ import type { EnvelopeSeries, RateFit, SaturationFit } from './types';
 function saturationShape(fixedP: number | null): ShapeModel {
   const nn = fixedP === null ? 3 : 2;
   const buffers = shapeBuffers(nn);
-  return {
+  return memoised({
     nNonlinear: nn,
     evaluate(t, n, theta, withGrad) {
       const v = buffers(n);
@@ -69,7 +70,7 @@ function saturationShape(fixedP: number | null): ShapeModel {
       }
       return v;
     },
-  };
+  });
 }
 
 /**
@@ -118,7 +119,7 @@ function smoothedShape(inner: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
   const planOf = tapPlanner(offsets, group === 1 ? kernel.spacingS : 0);
   let root = new Float64Array(0);
   let rootGrad = new Float64Array(0);
-  return {
+  return memoised({
     nNonlinear: nn,
     evaluate(t, count, theta, withGrad) {
       const plan = planOf(t, count);
@@ -152,7 +153,7 @@ function smoothedShape(inner: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
       }
       return v;
     },
-  };
+  });
 }
 
 /** The times at which the taps of a series' samples read the inner model: tap k of sample i reads times[index[i·stride + k]]. */

@@ -100,10 +100,41 @@ export function shapeBuffers(nNonlinear: number): (n: number) => ShapeValues {
   };
 }
 
+/**
+ * A shape model that returns the values it already holds when asked again at the same times and
+ * parameters (and, for a gradient, holds one): the weights of an IRLS pass are updated at the
+ * parameters the polish ended on, the next polish starts there, and the covariance reads the same
+ * point twice. The buffers are valid until the next evaluation anyway, so nothing else changes.
+ */
+export function memoised(model: ShapeModel): ShapeModel {
+  const k = model.nNonlinear;
+  const lastTheta = new Float64Array(k);
+  let lastT: Float64Array | null = null;
+  let lastN = -1;
+  let hasGrad = false;
+  let last: ShapeValues | null = null;
+  return {
+    nNonlinear: k,
+    evaluate(t, n, theta, withGrad) {
+      if (last !== null && t === lastT && n === lastN && (hasGrad || !withGrad)) {
+        let isSame = true;
+        for (let j = 0; j < k && isSame; j++) isSame = theta[j] === lastTheta[j];
+        if (isSame) return last;
+      }
+      last = model.evaluate(t, n, theta, withGrad);
+      lastT = t;
+      lastN = n;
+      hasGrad = withGrad;
+      for (let j = 0; j < k; j++) lastTheta[j] = theta[j];
+      return last;
+    },
+  };
+}
+
 /** g = exp(2 s (t − tm)); θ = [s]. */
 function exponentialShape(tm: number): ShapeModel {
   const buffers = shapeBuffers(1);
-  return {
+  return memoised({
     nNonlinear: 1,
     evaluate(t, n, theta, withGrad) {
       const v = buffers(n);
@@ -115,7 +146,7 @@ function exponentialShape(tm: number): ShapeModel {
       }
       return v;
     },
-  };
+  });
 }
 
 // ---------------------------------------------------------------------------------------------
