@@ -131,19 +131,65 @@ export function memoised(model: ShapeModel): ShapeModel {
   };
 }
 
-/** g = exp(2 s (t − tm)); θ = [s]. */
+/**
+ * How many leading times of `t` lie on one uniform grid t_0 + i·Δ, Δ = (t_{m−1} − t_0)/(m − 1)
+ * for the returned m (to 1e-9 of Δ; the envelope's sample clock, or block means of it, whose last
+ * block may be shorter). A function of the latest series it was asked about: the same arrays come
+ * back for every evaluation of a fit.
+ */
+export function uniformPrefix(): (t: Float64Array, n: number) => number {
+  let lastT: Float64Array | null = null;
+  let lastN = -1;
+  let last = 0;
+  return (t, n) => {
+    if (t === lastT && n === lastN) return last;
+    lastT = t;
+    lastN = n;
+    last = Math.min(n, 2);
+    for (let m = n; m > 2; m--) {
+      const step = (t[m - 1] - t[0]) / (m - 1);
+      let isUniform = step > 0;
+      for (let i = 1; i < m - 1 && isUniform; i++) isUniform = Math.abs(t[i] - t[0] - i * step) <= 1e-9 * step;
+      if (isUniform) {
+        last = m;
+        break;
+      }
+      // Only a shorter last block can break the grid: try without the last time, then give up.
+      if (m < n) break;
+    }
+    return last;
+  };
+}
+
+/** Largest |exponent| for which exp() and its running product stay far from overflow and underflow. */
+const MAX_STEPPED_EXPONENT = 600;
+
+/**
+ * g = exp(2 s (t − tm)); θ = [s]. On a uniform grid of times g_i = g_0·r^i with r = exp(2 s Δ):
+ * one exponential per evaluation instead of one per sample (the product's rounding error grows as
+ * i·2⁻⁵³, under 1e-13 for the few hundred samples of a fit).
+ */
 function exponentialShape(tm: number): ShapeModel {
   const buffers = shapeBuffers(1);
+  const prefixOf = uniformPrefix();
   return memoised({
     nNonlinear: 1,
     evaluate(t, n, theta, withGrad) {
       const v = buffers(n);
       const s2 = 2 * theta[0];
-      for (let i = 0; i < n; i++) {
-        const g = Math.exp(s2 * (t[i] - tm));
-        v.g[i] = g;
-        if (withGrad) v.grad[i] = 2 * (t[i] - tm) * g;
+      let from = 0;
+      const m = prefixOf(t, n);
+      if (m > 2 && Math.max(Math.abs(s2 * (t[0] - tm)), Math.abs(s2 * (t[m - 1] - tm))) < MAX_STEPPED_EXPONENT) {
+        const ratio = Math.exp((s2 * (t[m - 1] - t[0])) / (m - 1));
+        let g = Math.exp(s2 * (t[0] - tm));
+        for (let i = 0; i < m; i++) {
+          v.g[i] = g;
+          g *= ratio;
+        }
+        from = m;
       }
+      for (let i = from; i < n; i++) v.g[i] = Math.exp(s2 * (t[i] - tm));
+      if (withGrad) for (let i = 0; i < n; i++) v.grad[i] = 2 * (t[i] - tm) * v.g[i];
       return v;
     },
   });
@@ -191,13 +237,17 @@ function varianceOf(m: number, bg: number, bgFloor: number): number {
 
 /**
  * For fixed nonlinear parameters: weighted linear fit of y ≈ L·g + N² with L > 0, N² ≥ 0 (or N²
- * fixed). Writes ln L and N² into `out`; returns the weighted RSS (Infinity if L ≤ 0).
+ * fixed). Writes ln L and N² into `out`; returns the weighted RSS (Infinity if L ≤ 0), expanded
+ * from the same sums (Σwy² − 2LΣwgy − 2N²Σwy + L²Σwg² + 2LN²Σwg + N⁴Σw, one pass over the data;
+ * `swyy` = Σwy² is the caller's). The expansion loses the digits the RSS has below Σwy²·1e-16,
+ * which does not matter to the grid it ranks (the polish that follows works on the residuals).
  */
 function solveLinear(
   d: Prepared,
   w: Float64Array,
   g: Float64Array,
   fixedBg: number | null,
+  swyy: number,
   out: { lnL: number; bg: number },
 ): number {
   let sw = 0;
@@ -205,13 +255,15 @@ function solveLinear(
   let sy = 0;
   let sgg = 0;
   let sgy = 0;
+  const y = d.y;
   for (let i = 0; i < d.n; i++) {
     const wi = w[i];
+    const wg = wi * g[i];
     sw += wi;
-    sg += wi * g[i];
-    sy += wi * d.y[i];
-    sgg += wi * g[i] * g[i];
-    sgy += wi * g[i] * d.y[i];
+    sg += wg;
+    sy += wi * y[i];
+    sgg += wg * g[i];
+    sgy += wg * y[i];
   }
   let amp: number;
   let bg: number;
@@ -228,14 +280,10 @@ function solveLinear(
     }
   }
   if (!(amp > 0) || !Number.isFinite(amp)) return Number.POSITIVE_INFINITY;
-  let rss = 0;
-  for (let i = 0; i < d.n; i++) {
-    const r = d.y[i] - amp * g[i] - bg;
-    rss += w[i] * r * r;
-  }
+  const rss = swyy - 2 * amp * sgy - 2 * bg * sy + amp * amp * sgg + 2 * amp * bg * sg + bg * bg * sw;
   out.lnL = Math.log(amp);
   out.bg = bg;
-  return rss;
+  return Math.max(0, rss);
 }
 
 /** Weighted RSS of a full parameter vector. */
@@ -375,13 +423,16 @@ function gridSearch(
   let best: FitState | null = null;
   const counts = grid.values.map((v) => v.length);
   const total = counts.reduce((a, b) => a * b, 1);
+  let swyy = 0;
+  for (let i = 0; i < d.n; i++) swyy += w[i] * d.y[i] * d.y[i];
   for (let idx = 0; idx < total; idx++) {
+    // The last parameter varies fastest (a shape may reuse what depends on the others only).
     let rem = idx;
-    for (let j = 0; j < k; j++) {
+    for (let j = k - 1; j >= 0; j--) {
       theta[j] = grid.values[j][rem % counts[j]];
       rem = Math.floor(rem / counts[j]);
     }
-    const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, lin);
+    const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, swyy, lin);
     if (rss < (best?.rss ?? Number.POSITIVE_INFINITY)) {
       const params = new Float64Array(k + 2);
       params[0] = lin.lnL;
