@@ -426,9 +426,8 @@ function gridSearch(
   let swyy = 0;
   for (let i = 0; i < d.n; i++) swyy += w[i] * d.y[i] * d.y[i];
   for (let idx = 0; idx < total; idx++) {
-    // The last parameter varies fastest (a shape may reuse what depends on the others only).
     let rem = idx;
-    for (let j = k - 1; j >= 0; j--) {
+    for (let j = 0; j < k; j++) {
       theta[j] = grid.values[j][rem % counts[j]];
       rem = Math.floor(rem / counts[j]);
     }
