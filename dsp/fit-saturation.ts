@@ -17,6 +17,7 @@ import {
   rssOf,
   shapeBuffers,
   START_MAX_SAMPLES,
+  RESTART_STEPS,
   uniformPrefix,
   type FitState,
   type GridSpec,
@@ -34,7 +35,8 @@ import type { EnvelopeSeries, RateFit, SaturationFit } from './types';
  * e^z), which stays exact as p grows without bound (a knee sharper than any sample resolves:
  * the limit is an exponential up to t_c and the level A∞² after it). On a uniform grid of times
  * e^(−|z|) falls by the same factor e^(−|p s|·Δ) per sample on either side of t_c, so it is one
- * exponential per side and a running product (values below 1e-300 taken as 0).
+ * exponential per side and a running product (values below 1e-300 taken as 0), restarted from
+ * an exact exponential every RESTART_STEPS samples.
  */
 function saturationShape(fixedP: number | null): ShapeModel {
   const nn = fixedP === null ? 3 : 2;
@@ -96,15 +98,14 @@ function steppedDecay(t: Float64Array, n: number, m: number, rate: number, tc: n
   if (!Number.isFinite(first) || !Number.isFinite(rate)) return 0;
   const ic = Math.min(m, Math.max(0, first));
   const ratio = Math.exp(-rate * step);
-  let e = ic < m ? Math.exp(-rate * Math.abs(t[ic] - tc)) : 0;
+  let e = 0;
   for (let i = ic; i < m; i++) {
+    e = (i - ic) % RESTART_STEPS === 0 ? Math.exp(-rate * Math.abs(t[i] - tc)) : e * ratio < TINY ? 0 : e * ratio;
     out[i] = e;
-    e = e * ratio < TINY ? 0 : e * ratio;
   }
-  e = ic > 0 ? Math.exp(-rate * Math.abs(tc - t[ic - 1])) : 0;
   for (let i = ic - 1; i >= 0; i--) {
+    e = (ic - 1 - i) % RESTART_STEPS === 0 ? Math.exp(-rate * Math.abs(tc - t[i])) : e * ratio < TINY ? 0 : e * ratio;
     out[i] = e;
-    e = e * ratio < TINY ? 0 : e * ratio;
   }
   return Math.min(m, n);
 }
@@ -271,6 +272,23 @@ function tapPlanner(offsets: Float64Array, spacingS: number): (t: Float64Array, 
   };
 }
 
+/**
+ * Relative rounding error of a model's values: the running products of fit.ts stay within
+ * RESTART_STEPS units in the last place, and the arithmetic after them adds a few more (×4).
+ */
+const MODEL_ROUNDING = 4 * RESTART_STEPS * Number.EPSILON;
+
+/**
+ * The weighted RSS that rounding alone leaves, Σ w·(MODEL_ROUNDING·y)²: a drop in RSS below it
+ * between two models is not evidence for either (on a noise-free record both fits sit there, and
+ * the likelihood-ratio test would otherwise compare two rounding errors).
+ */
+function roundingRss(d: Prepared, w: Float64Array): number {
+  let sum = 0;
+  for (let i = 0; i < d.n; i++) sum += w[i] * d.y[i] * d.y[i];
+  return MODEL_ROUNDING * MODEL_ROUNDING * sum;
+}
+
 /** Quantities of a saturation fit shared by both saturation models. */
 interface SaturationCandidate {
   fit: IrlsResult;
@@ -378,7 +396,7 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
     const nFreeGeneral = fixedBg === null ? 5 : 4;
     const dispersion = bestGeneral.state.rss / (d.n - nFreeGeneral * inflation);
     const statistic = (landau.state.rss - bestGeneral.state.rss) / (dispersion * inflation);
-    if (statistic > CHI2_1DOF_99) {
+    if (statistic > CHI2_1DOF_99 && landau.state.rss - bestGeneral.state.rss > roundingRss(d, landau.weights)) {
       const refit = fitIrls(d, general, { values: [] }, fixedBg, bestGeneral.state);
       if (refit !== null) {
         chosen = { fit: refit, p: Math.exp(refit.state.params[3]) };

@@ -161,13 +161,19 @@ export function uniformPrefix(): (t: Float64Array, n: number) => number {
   };
 }
 
+/**
+ * A running product of exponentials is restarted from an exact exponential every this many
+ * samples: its rounding error then stays within 16 units in the last place (a fit to noise-free
+ * data still tells its models apart), at one exponential per 16 samples.
+ */
+export const RESTART_STEPS = 16;
+
 /** Largest |exponent| for which exp() and its running product stay far from overflow and underflow. */
 const MAX_STEPPED_EXPONENT = 600;
 
 /**
  * g = exp(2 s (t − tm)); θ = [s]. On a uniform grid of times g_i = g_0·r^i with r = exp(2 s Δ):
- * one exponential per evaluation instead of one per sample (the product's rounding error grows as
- * i·2⁻⁵³, under 1e-13 for the few hundred samples of a fit).
+ * one exponential per RESTART_STEPS samples instead of one per sample.
  */
 function exponentialShape(tm: number): ShapeModel {
   const buffers = shapeBuffers(1);
@@ -181,10 +187,10 @@ function exponentialShape(tm: number): ShapeModel {
       const m = prefixOf(t, n);
       if (m > 2 && Math.max(Math.abs(s2 * (t[0] - tm)), Math.abs(s2 * (t[m - 1] - tm))) < MAX_STEPPED_EXPONENT) {
         const ratio = Math.exp((s2 * (t[m - 1] - t[0])) / (m - 1));
-        let g = Math.exp(s2 * (t[0] - tm));
+        let g = 0;
         for (let i = 0; i < m; i++) {
+          g = i % RESTART_STEPS === 0 ? Math.exp(s2 * (t[i] - tm)) : g * ratio;
           v.g[i] = g;
-          g *= ratio;
         }
         from = m;
       }
