@@ -361,11 +361,15 @@ function levenbergStep(jtj: Float64Array, jtr: Float64Array, size: number, m: nu
   return true;
 }
 
+/** A polish stops once a step lowers the RSS by no more than this fraction. */
+const POLISH_TOLERANCE = 1e-9;
+
 /**
  * Levenberg–Marquardt polish of all parameters (Marquardt 1963), N² kept ≥ 0. Each trial point is
  * evaluated with its normal equations, so an accepted step needs no second pass over the data.
+ * Returns the fraction by which it lowered the RSS.
  */
-export function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState, maxIter = 100): void {
+export function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState, maxIter = 100): number {
   const k = model.nNonlinear;
   const nFree = state.isBackgroundFixed ? k + 1 : k + 2;
   let jtj = new Float64Array(nFree * nFree);
@@ -375,6 +379,7 @@ export function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: F
   const trial = new Float64Array(state.params.length);
   let lambda = 1e-3;
   let rss = normalEquations(d, w, model, state.params, nFree, jtj, jtr);
+  const startRss = rss;
   for (let iter = 0; iter < maxIter; iter++) {
     let isImproved = false;
     for (let attempt = 0; attempt < 12; attempt++) {
@@ -400,7 +405,7 @@ export function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: F
         [jtj, trialJtj] = [trialJtj, jtj];
         [jtr, trialJtr] = [trialJtr, jtr];
         lambda = Math.max(lambda / 3, 1e-12);
-        isImproved = drop > 1e-9;
+        isImproved = drop > POLISH_TOLERANCE;
         break;
       }
       lambda *= 4;
@@ -408,6 +413,7 @@ export function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: F
     if (!isImproved) break;
   }
   state.rss = rss;
+  return startRss > 0 && Number.isFinite(startRss) ? (startRss - rss) / startRss : 0;
 }
 
 export interface GridSpec {
@@ -565,10 +571,13 @@ export function fitIrls(
         if (regrid.rss < state.rss) state = regrid;
       }
     }
-    polish(d, w, model, state);
+    const drop = polish(d, w, model, state);
     let change = 0;
     for (let j = 1; j <= model.nNonlinear; j++) change = Math.max(change, Math.abs(state.params[j] - before[j]) / (Math.abs(before[j]) + 1e-9));
-    if (change < 1e-7) break;
+    // Converged when the parameters stand still, or when the new weights moved the optimum by less
+    // than the polish resolves (a rate near zero keeps a relative change above any fixed bound);
+    // the first pass's regrid may already have polished under the new weights.
+    if (change < 1e-7 || (pass > 0 && drop <= POLISH_TOLERANCE)) break;
   }
   return { state, weights: w, ...covarianceAt(d, model, state, w, fixedBg) };
 }
