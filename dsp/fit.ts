@@ -421,7 +421,15 @@ export interface GridSpec {
   values: Float64Array[];
 }
 
-/** Exhaustive grid over the nonlinear parameters with the linear ones in closed form. */
+/**
+ * The grid search looks first at every GRID_COARSE-th value of each parameter, then at every
+ * value within GRID_COARSE − 1 steps of the best of those: the RSS over a grid whose steps are
+ * small against the width of its basin (the grids below) varies smoothly, so its least value lies
+ * next to the best coarse point, and only a dip narrower than GRID_COARSE steps can be missed.
+ */
+const GRID_COARSE = 3;
+
+/** Grid over the nonlinear parameters (coarse, then refined: GRID_COARSE) with the linear ones in closed form. */
 function gridSearch(
   d: Prepared,
   w: Float64Array,
@@ -434,24 +442,35 @@ function gridSearch(
   const lin = { lnL: 0, bg: 0 };
   let best: FitState | null = null;
   const counts = grid.values.map((v) => v.length);
-  const total = counts.reduce((a, b) => a * b, 1);
+  const bestAt = new Int32Array(k);
   let swyy = 0;
   for (let i = 0; i < d.n; i++) swyy += w[i] * d.y[i] * d.y[i];
-  for (let idx = 0; idx < total; idx++) {
-    let rem = idx;
-    for (let j = 0; j < k; j++) {
-      theta[j] = grid.values[j][rem % counts[j]];
-      rem = Math.floor(rem / counts[j]);
+  // Every point of the box lo..hi (inclusive) taking every step-th value of each parameter.
+  const searchBox = (lo: Int32Array, hi: Int32Array, step: number): void => {
+    const at = Int32Array.from(lo);
+    for (;;) {
+      for (let j = 0; j < k; j++) theta[j] = grid.values[j][at[j]];
+      const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, swyy, lin);
+      if (rss < (best?.rss ?? Number.POSITIVE_INFINITY)) {
+        const params = new Float64Array(k + 2);
+        params[0] = lin.lnL;
+        params.set(theta, 1);
+        params[k + 1] = lin.bg;
+        best = { params, isBackgroundFixed: fixedBg !== null, rss };
+        bestAt.set(at);
+      }
+      let j = 0;
+      while (j < k && at[j] + step > hi[j]) at[j] = lo[j++];
+      if (j === k) return;
+      at[j] += step;
     }
-    const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, swyy, lin);
-    if (rss < (best?.rss ?? Number.POSITIVE_INFINITY)) {
-      const params = new Float64Array(k + 2);
-      params[0] = lin.lnL;
-      params.set(theta, 1);
-      params[k + 1] = lin.bg;
-      best = { params, isBackgroundFixed: fixedBg !== null, rss };
-    }
-  }
+  };
+  if (counts.some((c) => c === 0)) return null;
+  searchBox(new Int32Array(k), Int32Array.from(counts, (c) => c - 1), GRID_COARSE);
+  if (best === null) return null;
+  const lo = Int32Array.from(bestAt, (b) => Math.max(0, b - GRID_COARSE + 1));
+  const hi = Int32Array.from(bestAt, (b, j) => Math.min(counts[j] - 1, b + GRID_COARSE - 1));
+  searchBox(lo, hi, 1);
   return best;
 }
 
