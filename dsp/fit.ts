@@ -309,6 +309,9 @@ export function rssOf(d: Prepared, w: Float64Array, model: ShapeModel, params: F
 /**
  * Jacobian products JᵀWJ and JᵀWr for the full parameter vector (free parameters only); returns
  * the weighted RSS at the same parameters (Infinity when not finite), from the same residuals.
+ * The Jacobian's columns are amp·g (for ln L), amp·∂g/∂θ_j (at most three: the models here have
+ * one to three nonlinear parameters) and 1 for a free background; their weighted products are
+ * summed in scalars (a column a model lacks is 0) and unpacked into the free block.
  */
 function normalEquations(
   d: Prepared,
@@ -323,23 +326,61 @@ function normalEquations(
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
   const v = model.evaluate(d.t, d.n, params.subarray(1, k + 1), true);
-  const row = new Float64Array(nFree);
-  jtj.fill(0);
-  jtr.fill(0);
+  const grad = v.grad;
+  const y = d.y;
+  const bgColumn = nFree === k + 2 ? 1 : 0;
+  let s00 = 0, s10 = 0, s11 = 0, s20 = 0, s21 = 0, s22 = 0, s30 = 0, s31 = 0, s32 = 0, s33 = 0;
+  let s40 = 0, s41 = 0, s42 = 0, s43 = 0, s44 = 0, r0 = 0, r1 = 0, r2 = 0, r3 = 0, r4 = 0;
   let rss = 0;
   for (let i = 0; i < d.n; i++) {
-    const g = v.g[i];
-    row[0] = amp * g;
-    for (let j = 0; j < k; j++) row[j + 1] = amp * v.grad[i * k + j];
-    if (nFree === k + 2) row[k + 1] = 1;
-    const r = d.y[i] - amp * g - bg;
-    rss += w[i] * r * r;
-    for (let a = 0; a < nFree; a++) {
-      jtr[a] += w[i] * row[a] * r;
-      for (let b = 0; b <= a; b++) jtj[a * nFree + b] += w[i] * row[a] * row[b];
+    const wi = w[i];
+    const x0 = amp * v.g[i];
+    const x1 = amp * grad[i * k];
+    const x2 = k > 1 ? amp * grad[i * k + 1] : 0;
+    const x3 = k > 2 ? amp * grad[i * k + 2] : 0;
+    const x4 = bgColumn;
+    const r = y[i] - x0 - bg;
+    rss += wi * r * r;
+    const w0 = wi * x0;
+    const w1 = wi * x1;
+    const w2 = wi * x2;
+    const w3 = wi * x3;
+    const w4 = wi * x4;
+    r0 += w0 * r;
+    r1 += w1 * r;
+    r2 += w2 * r;
+    r3 += w3 * r;
+    r4 += w4 * r;
+    s00 += w0 * x0;
+    s10 += w1 * x0;
+    s11 += w1 * x1;
+    s20 += w2 * x0;
+    s21 += w2 * x1;
+    s22 += w2 * x2;
+    s30 += w3 * x0;
+    s31 += w3 * x1;
+    s32 += w3 * x2;
+    s33 += w3 * x3;
+    s40 += w4 * x0;
+    s41 += w4 * x1;
+    s42 += w4 * x2;
+    s43 += w4 * x3;
+    s44 += w4 * x4;
+  }
+  // Lower triangle of the 5 × 5 products, row by row; free parameter a is column a (the background, when free, column 4).
+  const lower = [s00, s10, s11, s20, s21, s22, s30, s31, s32, s33, s40, s41, s42, s43, s44];
+  const right = [r0, r1, r2, r3, r4];
+  const columnOf = (a: number): number => (a <= k ? a : 4);
+  for (let a = 0; a < nFree; a++) {
+    const ca = columnOf(a);
+    jtr[a] = right[ca];
+    for (let b = 0; b <= a; b++) {
+      const cb = columnOf(b);
+      const value = lower[(ca * (ca + 1)) / 2 + cb];
+      jtj[a * nFree + b] = value;
+      jtj[b * nFree + a] = value;
     }
   }
-  for (let a = 0; a < nFree; a++) for (let b = a + 1; b < nFree; b++) jtj[a * nFree + b] = jtj[b * nFree + a];
   return Number.isFinite(rss) ? rss : Number.POSITIVE_INFINITY;
 }
 
