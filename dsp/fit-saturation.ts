@@ -11,11 +11,14 @@ import {
   fitExponential,
   fitIrls,
   invalidRateFit,
+  memoised,
   polish,
   prepare,
   rssOf,
   shapeBuffers,
   START_MAX_SAMPLES,
+  RESTART_STEPS,
+  uniformPrefix,
   type FitState,
   type GridSpec,
   type IrlsResult,
@@ -30,25 +33,33 @@ import type { EnvelopeSeries, RateFit, SaturationFit } from './types';
  * Stuart–Landau, g = q), or [s, tc, ln p]. q, 1 − q and ln q come from the one exponential
  * e^(−|z|), so nothing overflows; below the knee (2/p)·ln q is written 2 s (t − tc) − (2/p)·ln(1 +
  * e^z), which stays exact as p grows without bound (a knee sharper than any sample resolves:
- * the limit is an exponential up to t_c and the level A∞² after it).
+ * the limit is an exponential up to t_c and the level A∞² after it). On a uniform grid of times
+ * e^(−|z|) falls by the same factor e^(−|p s|·Δ) per sample on either side of t_c, so it is one
+ * exponential per side and a running product (values below 1e-300 taken as 0), restarted from
+ * an exact exponential every RESTART_STEPS samples.
  */
 function saturationShape(fixedP: number | null): ShapeModel {
   const nn = fixedP === null ? 3 : 2;
   const buffers = shapeBuffers(nn);
-  return {
+  const prefixOf = uniformPrefix();
+  let decay = new Float64Array(0);
+  return memoised({
     nNonlinear: nn,
     evaluate(t, n, theta, withGrad) {
       const v = buffers(n);
+      if (decay.length < n) decay = new Float64Array(v.g.length);
       const s = theta[0];
       const tc = theta[1];
       const p = fixedP === null ? Math.exp(theta[2]) : fixedP;
       const isLandau = p === 2 && fixedP !== null;
       const ps = p * s;
       const twoOverP = 2 / p;
+      const from = steppedDecay(t, n, prefixOf(t, n), Math.abs(ps), tc, decay);
+      for (let i = from; i < n; i++) decay[i] = Math.exp(-Math.abs(ps * (t[i] - tc)));
       for (let i = 0; i < n; i++) {
         const dt = t[i] - tc;
         const z = ps * dt;
-        const e = Math.exp(-Math.abs(z));
+        const e = decay[i];
         const inv = 1 / (1 + e);
         const isUpper = z >= 0;
         const oneMinusQ = isUpper ? e * inv : inv;
@@ -69,7 +80,34 @@ function saturationShape(fixedP: number | null): ShapeModel {
       }
       return v;
     },
-  };
+  });
+}
+
+/** Below this a running product of exponentials is taken as 0 (no subnormal arithmetic). */
+const TINY = 1e-300;
+
+/**
+ * e^(−rate·|t_i − tc|) for the first m times of `t` (a uniform grid, uniformPrefix) into `out`,
+ * by running products outward from tc; returns how many it wrote (0 when m < 3 or the inputs are
+ * not finite: the caller computes the rest directly).
+ */
+function steppedDecay(t: Float64Array, n: number, m: number, rate: number, tc: number, out: Float64Array): number {
+  if (m < 3) return 0;
+  const step = (t[m - 1] - t[0]) / (m - 1);
+  const first = Math.ceil((tc - t[0]) / step);
+  if (!Number.isFinite(first) || !Number.isFinite(rate)) return 0;
+  const ic = Math.min(m, Math.max(0, first));
+  const ratio = Math.exp(-rate * step);
+  let e = 0;
+  for (let i = ic; i < m; i++) {
+    e = (i - ic) % RESTART_STEPS === 0 ? Math.exp(-rate * Math.abs(t[i] - tc)) : e * ratio < TINY ? 0 : e * ratio;
+    out[i] = e;
+  }
+  for (let i = ic - 1; i >= 0; i--) {
+    e = (ic - 1 - i) % RESTART_STEPS === 0 ? Math.exp(-rate * Math.abs(tc - t[i])) : e * ratio < TINY ? 0 : e * ratio;
+    out[i] = e;
+  }
+  return Math.min(m, n);
 }
 
 /**
@@ -113,12 +151,13 @@ function smoothedShape(inner: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
     h[j] = w / sum;
     offsets[j] = w !== 0 ? wt / w : (j * group + (group - 1) / 2 - (n - 1) / 2) * kernel.spacingS;
   }
+  // The saturation shapes have two or three nonlinear parameters; the tap loop below sums at most three.
   const nn = inner.nNonlinear;
   const buffers = shapeBuffers(nn);
   const planOf = tapPlanner(offsets, group === 1 ? kernel.spacingS : 0);
   let root = new Float64Array(0);
   let rootGrad = new Float64Array(0);
-  return {
+  return memoised({
     nNonlinear: nn,
     evaluate(t, count, theta, withGrad) {
       const plan = planOf(t, count);
@@ -133,7 +172,9 @@ function smoothedShape(inner: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
         const g = at.g[m];
         const r = g > 0 ? Math.sqrt(g) : 0;
         root[m] = r;
-        if (withGrad) for (let j = 0; j < nn; j++) rootGrad[m * nn + j] = r > 0 ? at.grad[m * nn + j] / (2 * r) : 0;
+        if (!withGrad) continue;
+        const half = r > 0 ? 0.5 / r : 0;
+        for (let j = 0; j < nn; j++) rootGrad[m * nn + j] = at.grad[m * nn + j] * half;
       }
       const v = buffers(count);
       const idx = plan.index;
@@ -141,18 +182,32 @@ function smoothedShape(inner: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
       for (let i = 0; i < count; i++) {
         const base = i * stride;
         let amp = 0;
-        for (let k = 0; k < taps; k++) amp += h[k] * root[idx[base + k]];
-        v.g[i] = amp * amp;
-        if (!withGrad) continue;
-        for (let j = 0; j < nn; j++) {
-          let a = 0;
-          for (let k = 0; k < taps; k++) a += h[k] * rootGrad[idx[base + k] * nn + j];
-          v.grad[i * nn + j] = 2 * amp * a;
+        if (!withGrad) {
+          for (let k = 0; k < taps; k++) amp += h[k] * root[idx[base + k]];
+          v.g[i] = amp * amp;
+          continue;
         }
+        // One pass over the taps for the amplitude and its (at most three) derivatives.
+        let a0 = 0;
+        let a1 = 0;
+        let a2 = 0;
+        for (let k = 0; k < taps; k++) {
+          const m = idx[base + k];
+          const hk = h[k];
+          const b = m * nn;
+          amp += hk * root[m];
+          a0 += hk * rootGrad[b];
+          if (nn > 1) a1 += hk * rootGrad[b + 1];
+          if (nn > 2) a2 += hk * rootGrad[b + 2];
+        }
+        v.g[i] = amp * amp;
+        v.grad[i * nn] = 2 * amp * a0;
+        if (nn > 1) v.grad[i * nn + 1] = 2 * amp * a1;
+        if (nn > 2) v.grad[i * nn + 2] = 2 * amp * a2;
       }
       return v;
     },
-  };
+  });
 }
 
 /** The times at which the taps of a series' samples read the inner model: tap k of sample i reads times[index[i·stride + k]]. */
@@ -215,6 +270,23 @@ function tapPlanner(offsets: Float64Array, spacingS: number): (t: Float64Array, 
     last = { times, index, stride: taps };
     return last;
   };
+}
+
+/**
+ * Relative rounding error of a model's values: the running products of fit.ts stay within
+ * RESTART_STEPS units in the last place, and the arithmetic after them adds a few more (×4).
+ */
+const MODEL_ROUNDING = 4 * RESTART_STEPS * Number.EPSILON;
+
+/**
+ * The weighted RSS that rounding alone leaves, Σ w·(MODEL_ROUNDING·y)²: a drop in RSS below it
+ * between two models is not evidence for either (on a noise-free record both fits sit there, and
+ * the likelihood-ratio test would otherwise compare two rounding errors).
+ */
+function roundingRss(d: Prepared, w: Float64Array): number {
+  let sum = 0;
+  for (let i = 0; i < d.n; i++) sum += w[i] * d.y[i] * d.y[i];
+  return MODEL_ROUNDING * MODEL_ROUNDING * sum;
 }
 
 /** Quantities of a saturation fit shared by both saturation models. */
@@ -324,7 +396,7 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
     const nFreeGeneral = fixedBg === null ? 5 : 4;
     const dispersion = bestGeneral.state.rss / (d.n - nFreeGeneral * inflation);
     const statistic = (landau.state.rss - bestGeneral.state.rss) / (dispersion * inflation);
-    if (statistic > CHI2_1DOF_99) {
+    if (statistic > CHI2_1DOF_99 && landau.state.rss - bestGeneral.state.rss > roundingRss(d, landau.weights)) {
       const refit = fitIrls(d, general, { values: [] }, fixedBg, bestGeneral.state);
       if (refit !== null) {
         chosen = { fit: refit, p: Math.exp(refit.state.params[3]) };

@@ -100,22 +100,105 @@ export function shapeBuffers(nNonlinear: number): (n: number) => ShapeValues {
   };
 }
 
-/** g = exp(2 s (t − tm)); θ = [s]. */
+/**
+ * A shape model that returns the values it already holds when asked again at the same times and
+ * parameters (and, for a gradient, holds one): the weights of an IRLS pass are updated at the
+ * parameters the polish ended on, the next polish starts there, and the covariance reads the same
+ * point twice. The buffers are valid until the next evaluation anyway, so nothing else changes.
+ */
+export function memoised(model: ShapeModel): ShapeModel {
+  const k = model.nNonlinear;
+  const lastTheta = new Float64Array(k);
+  let lastT: Float64Array | null = null;
+  let lastN = -1;
+  let hasGrad = false;
+  let last: ShapeValues | null = null;
+  return {
+    nNonlinear: k,
+    evaluate(t, n, theta, withGrad) {
+      if (last !== null && t === lastT && n === lastN && (hasGrad || !withGrad)) {
+        let isSame = true;
+        for (let j = 0; j < k && isSame; j++) isSame = theta[j] === lastTheta[j];
+        if (isSame) return last;
+      }
+      last = model.evaluate(t, n, theta, withGrad);
+      lastT = t;
+      lastN = n;
+      hasGrad = withGrad;
+      for (let j = 0; j < k; j++) lastTheta[j] = theta[j];
+      return last;
+    },
+  };
+}
+
+/**
+ * How many leading times of `t` lie on one uniform grid t_0 + i·Δ, Δ = (t_{m−1} − t_0)/(m − 1)
+ * for the returned m (to 1e-9 of Δ; the envelope's sample clock, or block means of it, whose last
+ * block may be shorter). A function of the latest series it was asked about: the same arrays come
+ * back for every evaluation of a fit.
+ */
+export function uniformPrefix(): (t: Float64Array, n: number) => number {
+  let lastT: Float64Array | null = null;
+  let lastN = -1;
+  let last = 0;
+  return (t, n) => {
+    if (t === lastT && n === lastN) return last;
+    lastT = t;
+    lastN = n;
+    last = Math.min(n, 2);
+    for (let m = n; m > 2; m--) {
+      const step = (t[m - 1] - t[0]) / (m - 1);
+      let isUniform = step > 0;
+      for (let i = 1; i < m - 1 && isUniform; i++) isUniform = Math.abs(t[i] - t[0] - i * step) <= 1e-9 * step;
+      if (isUniform) {
+        last = m;
+        break;
+      }
+      // Only a shorter last block can break the grid: try without the last time, then give up.
+      if (m < n) break;
+    }
+    return last;
+  };
+}
+
+/**
+ * A running product of exponentials is restarted from an exact exponential every this many
+ * samples: its rounding error then stays within 16 units in the last place (a fit to noise-free
+ * data still tells its models apart), at one exponential per 16 samples.
+ */
+export const RESTART_STEPS = 16;
+
+/** Largest |exponent| for which exp() and its running product stay far from overflow and underflow. */
+const MAX_STEPPED_EXPONENT = 600;
+
+/**
+ * g = exp(2 s (t − tm)); θ = [s]. On a uniform grid of times g_i = g_0·r^i with r = exp(2 s Δ):
+ * one exponential per RESTART_STEPS samples instead of one per sample.
+ */
 function exponentialShape(tm: number): ShapeModel {
   const buffers = shapeBuffers(1);
-  return {
+  const prefixOf = uniformPrefix();
+  return memoised({
     nNonlinear: 1,
     evaluate(t, n, theta, withGrad) {
       const v = buffers(n);
       const s2 = 2 * theta[0];
-      for (let i = 0; i < n; i++) {
-        const g = Math.exp(s2 * (t[i] - tm));
-        v.g[i] = g;
-        if (withGrad) v.grad[i] = 2 * (t[i] - tm) * g;
+      let from = 0;
+      const m = prefixOf(t, n);
+      if (m > 2 && Math.max(Math.abs(s2 * (t[0] - tm)), Math.abs(s2 * (t[m - 1] - tm))) < MAX_STEPPED_EXPONENT) {
+        const ratio = Math.exp((s2 * (t[m - 1] - t[0])) / (m - 1));
+        let g = 0;
+        for (let i = 0; i < m; i++) {
+          g = i % RESTART_STEPS === 0 ? Math.exp(s2 * (t[i] - tm)) : g * ratio;
+          v.g[i] = g;
+        }
+        from = m;
       }
+      for (let i = from; i < n; i++) v.g[i] = Math.exp(s2 * (t[i] - tm));
+      if (withGrad) for (let i = 0; i < n; i++) v.grad[i] = 2 * (t[i] - tm) * v.g[i];
       return v;
     },
-  };
+  });
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -160,13 +243,17 @@ function varianceOf(m: number, bg: number, bgFloor: number): number {
 
 /**
  * For fixed nonlinear parameters: weighted linear fit of y ≈ L·g + N² with L > 0, N² ≥ 0 (or N²
- * fixed). Writes ln L and N² into `out`; returns the weighted RSS (Infinity if L ≤ 0).
+ * fixed). Writes ln L and N² into `out`; returns the weighted RSS (Infinity if L ≤ 0), expanded
+ * from the same sums (Σwy² − 2LΣwgy − 2N²Σwy + L²Σwg² + 2LN²Σwg + N⁴Σw, one pass over the data;
+ * `swyy` = Σwy² is the caller's). The expansion loses the digits the RSS has below Σwy²·1e-16,
+ * which does not matter to the grid it ranks (the polish that follows works on the residuals).
  */
 function solveLinear(
   d: Prepared,
   w: Float64Array,
   g: Float64Array,
   fixedBg: number | null,
+  swyy: number,
   out: { lnL: number; bg: number },
 ): number {
   let sw = 0;
@@ -174,13 +261,15 @@ function solveLinear(
   let sy = 0;
   let sgg = 0;
   let sgy = 0;
+  const y = d.y;
   for (let i = 0; i < d.n; i++) {
     const wi = w[i];
+    const wg = wi * g[i];
     sw += wi;
-    sg += wi * g[i];
-    sy += wi * d.y[i];
-    sgg += wi * g[i] * g[i];
-    sgy += wi * g[i] * d.y[i];
+    sg += wg;
+    sy += wi * y[i];
+    sgg += wg * g[i];
+    sgy += wg * y[i];
   }
   let amp: number;
   let bg: number;
@@ -197,14 +286,10 @@ function solveLinear(
     }
   }
   if (!(amp > 0) || !Number.isFinite(amp)) return Number.POSITIVE_INFINITY;
-  let rss = 0;
-  for (let i = 0; i < d.n; i++) {
-    const r = d.y[i] - amp * g[i] - bg;
-    rss += w[i] * r * r;
-  }
+  const rss = swyy - 2 * amp * sgy - 2 * bg * sy + amp * amp * sgg + 2 * amp * bg * sg + bg * bg * sw;
   out.lnL = Math.log(amp);
   out.bg = bg;
-  return rss;
+  return Math.max(0, rss);
 }
 
 /** Weighted RSS of a full parameter vector. */
@@ -224,6 +309,9 @@ export function rssOf(d: Prepared, w: Float64Array, model: ShapeModel, params: F
 /**
  * Jacobian products JᵀWJ and JᵀWr for the full parameter vector (free parameters only); returns
  * the weighted RSS at the same parameters (Infinity when not finite), from the same residuals.
+ * The Jacobian's columns are amp·g (for ln L), amp·∂g/∂θ_j (at most three: the models here have
+ * one to three nonlinear parameters) and 1 for a free background; their weighted products are
+ * summed in scalars (a column a model lacks is 0) and unpacked into the free block.
  */
 function normalEquations(
   d: Prepared,
@@ -238,23 +326,61 @@ function normalEquations(
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
   const v = model.evaluate(d.t, d.n, params.subarray(1, k + 1), true);
-  const row = new Float64Array(nFree);
-  jtj.fill(0);
-  jtr.fill(0);
+  const grad = v.grad;
+  const y = d.y;
+  const bgColumn = nFree === k + 2 ? 1 : 0;
+  let s00 = 0, s10 = 0, s11 = 0, s20 = 0, s21 = 0, s22 = 0, s30 = 0, s31 = 0, s32 = 0, s33 = 0;
+  let s40 = 0, s41 = 0, s42 = 0, s43 = 0, s44 = 0, r0 = 0, r1 = 0, r2 = 0, r3 = 0, r4 = 0;
   let rss = 0;
   for (let i = 0; i < d.n; i++) {
-    const g = v.g[i];
-    row[0] = amp * g;
-    for (let j = 0; j < k; j++) row[j + 1] = amp * v.grad[i * k + j];
-    if (nFree === k + 2) row[k + 1] = 1;
-    const r = d.y[i] - amp * g - bg;
-    rss += w[i] * r * r;
-    for (let a = 0; a < nFree; a++) {
-      jtr[a] += w[i] * row[a] * r;
-      for (let b = 0; b <= a; b++) jtj[a * nFree + b] += w[i] * row[a] * row[b];
+    const wi = w[i];
+    const x0 = amp * v.g[i];
+    const x1 = amp * grad[i * k];
+    const x2 = k > 1 ? amp * grad[i * k + 1] : 0;
+    const x3 = k > 2 ? amp * grad[i * k + 2] : 0;
+    const x4 = bgColumn;
+    const r = y[i] - x0 - bg;
+    rss += wi * r * r;
+    const w0 = wi * x0;
+    const w1 = wi * x1;
+    const w2 = wi * x2;
+    const w3 = wi * x3;
+    const w4 = wi * x4;
+    r0 += w0 * r;
+    r1 += w1 * r;
+    r2 += w2 * r;
+    r3 += w3 * r;
+    r4 += w4 * r;
+    s00 += w0 * x0;
+    s10 += w1 * x0;
+    s11 += w1 * x1;
+    s20 += w2 * x0;
+    s21 += w2 * x1;
+    s22 += w2 * x2;
+    s30 += w3 * x0;
+    s31 += w3 * x1;
+    s32 += w3 * x2;
+    s33 += w3 * x3;
+    s40 += w4 * x0;
+    s41 += w4 * x1;
+    s42 += w4 * x2;
+    s43 += w4 * x3;
+    s44 += w4 * x4;
+  }
+  // Lower triangle of the 5 × 5 products, row by row; free parameter a is column a (the background, when free, column 4).
+  const lower = [s00, s10, s11, s20, s21, s22, s30, s31, s32, s33, s40, s41, s42, s43, s44];
+  const right = [r0, r1, r2, r3, r4];
+  const columnOf = (a: number): number => (a <= k ? a : 4);
+  for (let a = 0; a < nFree; a++) {
+    const ca = columnOf(a);
+    jtr[a] = right[ca];
+    for (let b = 0; b <= a; b++) {
+      const cb = columnOf(b);
+      const value = lower[(ca * (ca + 1)) / 2 + cb];
+      jtj[a * nFree + b] = value;
+      jtj[b * nFree + a] = value;
     }
   }
-  for (let a = 0; a < nFree; a++) for (let b = a + 1; b < nFree; b++) jtj[a * nFree + b] = jtj[b * nFree + a];
   return Number.isFinite(rss) ? rss : Number.POSITIVE_INFINITY;
 }
 
@@ -276,11 +402,15 @@ function levenbergStep(jtj: Float64Array, jtr: Float64Array, size: number, m: nu
   return true;
 }
 
+/** A polish stops once a step lowers the RSS by no more than this fraction. */
+const POLISH_TOLERANCE = 1e-9;
+
 /**
  * Levenberg–Marquardt polish of all parameters (Marquardt 1963), N² kept ≥ 0. Each trial point is
  * evaluated with its normal equations, so an accepted step needs no second pass over the data.
+ * Returns the fraction by which it lowered the RSS.
  */
-export function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState, maxIter = 100): void {
+export function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState, maxIter = 100): number {
   const k = model.nNonlinear;
   const nFree = state.isBackgroundFixed ? k + 1 : k + 2;
   let jtj = new Float64Array(nFree * nFree);
@@ -290,6 +420,7 @@ export function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: F
   const trial = new Float64Array(state.params.length);
   let lambda = 1e-3;
   let rss = normalEquations(d, w, model, state.params, nFree, jtj, jtr);
+  const startRss = rss;
   for (let iter = 0; iter < maxIter; iter++) {
     let isImproved = false;
     for (let attempt = 0; attempt < 12; attempt++) {
@@ -315,7 +446,7 @@ export function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: F
         [jtj, trialJtj] = [trialJtj, jtj];
         [jtr, trialJtr] = [trialJtr, jtr];
         lambda = Math.max(lambda / 3, 1e-12);
-        isImproved = drop > 1e-9;
+        isImproved = drop > POLISH_TOLERANCE;
         break;
       }
       lambda *= 4;
@@ -323,6 +454,7 @@ export function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: F
     if (!isImproved) break;
   }
   state.rss = rss;
+  return startRss > 0 && Number.isFinite(startRss) ? (startRss - rss) / startRss : 0;
 }
 
 export interface GridSpec {
@@ -330,7 +462,15 @@ export interface GridSpec {
   values: Float64Array[];
 }
 
-/** Exhaustive grid over the nonlinear parameters with the linear ones in closed form. */
+/**
+ * The grid search looks first at every GRID_COARSE-th value of each parameter, then at every
+ * value within GRID_COARSE − 1 steps of the best of those: the RSS over a grid whose steps are
+ * small against the width of its basin (the grids below) varies smoothly, so its least value lies
+ * next to the best coarse point, and only a dip narrower than GRID_COARSE steps can be missed.
+ */
+const GRID_COARSE = 3;
+
+/** Grid over the nonlinear parameters (coarse, then refined: GRID_COARSE) with the linear ones in closed form. */
 function gridSearch(
   d: Prepared,
   w: Float64Array,
@@ -343,22 +483,35 @@ function gridSearch(
   const lin = { lnL: 0, bg: 0 };
   let best: FitState | null = null;
   const counts = grid.values.map((v) => v.length);
-  const total = counts.reduce((a, b) => a * b, 1);
-  for (let idx = 0; idx < total; idx++) {
-    let rem = idx;
-    for (let j = 0; j < k; j++) {
-      theta[j] = grid.values[j][rem % counts[j]];
-      rem = Math.floor(rem / counts[j]);
+  const bestAt = new Int32Array(k);
+  let swyy = 0;
+  for (let i = 0; i < d.n; i++) swyy += w[i] * d.y[i] * d.y[i];
+  // Every point of the box lo..hi (inclusive) taking every step-th value of each parameter.
+  const searchBox = (lo: Int32Array, hi: Int32Array, step: number): void => {
+    const at = Int32Array.from(lo);
+    for (;;) {
+      for (let j = 0; j < k; j++) theta[j] = grid.values[j][at[j]];
+      const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, swyy, lin);
+      if (rss < (best?.rss ?? Number.POSITIVE_INFINITY)) {
+        const params = new Float64Array(k + 2);
+        params[0] = lin.lnL;
+        params.set(theta, 1);
+        params[k + 1] = lin.bg;
+        best = { params, isBackgroundFixed: fixedBg !== null, rss };
+        bestAt.set(at);
+      }
+      let j = 0;
+      while (j < k && at[j] + step > hi[j]) at[j] = lo[j++];
+      if (j === k) return;
+      at[j] += step;
     }
-    const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, lin);
-    if (rss < (best?.rss ?? Number.POSITIVE_INFINITY)) {
-      const params = new Float64Array(k + 2);
-      params[0] = lin.lnL;
-      params.set(theta, 1);
-      params[k + 1] = lin.bg;
-      best = { params, isBackgroundFixed: fixedBg !== null, rss };
-    }
-  }
+  };
+  if (counts.some((c) => c === 0)) return null;
+  searchBox(new Int32Array(k), Int32Array.from(counts, (c) => c - 1), GRID_COARSE);
+  if (best === null) return null;
+  const lo = Int32Array.from(bestAt, (b) => Math.max(0, b - GRID_COARSE + 1));
+  const hi = Int32Array.from(bestAt, (b, j) => Math.min(counts[j] - 1, b + GRID_COARSE - 1));
+  searchBox(lo, hi, 1);
   return best;
 }
 
@@ -478,10 +631,13 @@ export function fitIrls(
         if (regrid.rss < state.rss) state = regrid;
       }
     }
-    polish(d, w, model, state);
+    const drop = polish(d, w, model, state);
     let change = 0;
     for (let j = 1; j <= model.nNonlinear; j++) change = Math.max(change, Math.abs(state.params[j] - before[j]) / (Math.abs(before[j]) + 1e-9));
-    if (change < 1e-7) break;
+    // Converged when the parameters stand still, or when the new weights moved the optimum by less
+    // than the polish resolves (a rate near zero keeps a relative change above any fixed bound);
+    // the first pass's regrid may already have polished under the new weights.
+    if (change < 1e-7 || (pass > 0 && drop <= POLISH_TOLERANCE)) break;
   }
   return { state, weights: w, ...covarianceAt(d, model, state, w, fixedBg) };
 }
