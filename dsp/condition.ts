@@ -374,16 +374,10 @@ export function stepCondition(st: ConditionState, block: Float32Array): void {
   const a = first !== null ? first.work : st.scratchA;
   const off = first !== null ? first.length - 1 : 0;
   a.set(block, off);
-  // Extremes in one branch-free pass (Math.max/min carry a NaN through: non-finite input).
-  let hi = 0;
-  let lo = 0;
-  for (let i = off; i < off + n; i++) {
-    const x = a[i];
-    hi = Math.max(hi, x);
-    lo = Math.min(lo, x);
-  }
-  const nonFinite = hi !== hi || lo !== lo;
-  let peak = Math.max(hi, -lo);
+  // Peak in one branch-free pass (Math.max carries a NaN through: non-finite input).
+  let peak = 0;
+  for (let i = 0; i < n; i++) peak = Math.max(peak, Math.abs(block[i]));
+  const nonFinite = peak !== peak;
   if (nonFinite) {
     peak = 0;
     for (let i = 0; i < n; i++) if (Math.abs(block[i]) > peak) peak = Math.abs(block[i]);

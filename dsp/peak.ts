@@ -92,11 +92,22 @@ export function findPeaks(st: SpectrumState, loBin: number, hiBin: number, minPr
   // Power ratio a little under the threshold: maxima clearly below it skip the logarithm (most of
   // a noisy spectrum's maxima); the rest are decided on the exact value in dB, as before.
   const clearlyBelow = 10 ** (minProminenceDb / 10) * (1 - 1e-9);
+  // The floor test comes first: it rejects almost every bin of a noisy spectrum, and so is
+  // predicted well, where the test for a local maximum fails at random. Away from the band edges
+  // the floor is localFloorMean's, taken from the prefix sums in place (the same operations).
+  const pre = st.prefix;
+  const span = FLOOR_OUTER_BINS - FLOOR_INNER_BINS + 1;
+  const kInner0 = lo + FLOOR_OUTER_BINS;
+  const kInner1 = hi - FLOOR_OUTER_BINS - 1;
   for (let k = lo; k < hi; k++) {
     const v = sm[k];
-    if (!(v > sm[k - 1] && v >= sm[k + 1])) continue;
-    const floor = localFloorMean(st, k, FLOOR_INNER_BINS, FLOOR_OUTER_BINS, lo, hi);
+    let floor: number;
+    if (k >= kInner0 && k <= kInner1) {
+      floor = Math.min((pre[k - FLOOR_INNER_BINS + 1] - pre[k - FLOOR_OUTER_BINS]) / span, (pre[k + FLOOR_OUTER_BINS + 1] - pre[k + FLOOR_INNER_BINS]) / span);
+      if (!(floor < Infinity)) floor = 0;
+    } else floor = localFloorMean(st, k, FLOOR_INNER_BINS, FLOOR_OUTER_BINS, lo, hi);
     if (floor > 0 && v < clearlyBelow * floor) continue;
+    if (!(v > sm[k - 1] && v >= sm[k + 1])) continue;
     const prom = prominenceDb(st, k, lo, hi);
     if (prom < minProminenceDb) continue;
     let slot = out.count;
