@@ -168,6 +168,31 @@ export interface ProgressMessage {
   fraction: number;
 }
 
+/**
+ * Where the worker spent its time during a run, ms of wall time inside each of its jobs (the
+ * figures of the browser bench, scripts/bench-browser.mjs).
+ */
+export interface WorkerStageMs {
+  /** Reading the input: WAV decoding, the mono mix and block copies of a file. */
+  input: number;
+  /** dsp/ push() and finish(). */
+  analysis: number;
+  /** Copying each update's rows, onsets, segments and spectrum out of dsp/'s reused objects. */
+  collect: number;
+  /** Spectrogram columns (reduceToLogRows). */
+  spectrogram: number;
+  /** Feeding the live margin's ring (dsp/live-margin.ts). */
+  marginFeed: number;
+  /** Margin estimates (estimateLiveMargin), and how many were made. */
+  marginEstimate: number;
+  marginEstimates: number;
+  /** Keeping the audio for the session store and posting it. */
+  audio: number;
+  /** Building and posting update batches (the summary and the structured clone), and how many were posted. */
+  update: number;
+  updates: number;
+}
+
 /** Worker → app: the run finished; the report of the whole run. */
 export interface ReportMessage {
   type: 'report';
@@ -176,6 +201,8 @@ export interface ReportMessage {
   /** Time spent inside the analysis (push and finish), ms, and the samples it analysed. */
   analysisMs: number;
   samplesAnalysed: number;
+  /** Time the worker spent on each of its jobs during the run, ms. */
+  stageMs: WorkerStageMs;
 }
 
 /** Worker → app: the format of a WAV read in the worker, known once its header is read. */
