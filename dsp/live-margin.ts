@@ -10,6 +10,7 @@
 import { fftInPlace, mixDownDecimate } from './baseband';
 import { earlyWarningIndicators } from './early-warning';
 import { estimateModeStatistics } from './mode-statistics';
+import { kthSmallest } from './stats';
 import { isMainsMultiple, MAINS_HZ } from './track';
 import type { Interval, NoiseRegime } from './types';
 
@@ -101,9 +102,11 @@ function findResonanceHz(x: Float32Array, rateHz: number, bandHighHz: number): n
   const re = new Float64Array(n);
   const im = new Float64Array(n);
   const acc = new Float64Array(n / 2);
+  const hann = new Float64Array(n);
+  for (let i = 0; i < n; i++) hann[i] = 0.5 - 0.5 * Math.cos((2 * Math.PI * i) / n);
   for (let s = 0; s + n <= x.length; s += n / 2) {
     for (let i = 0; i < n; i++) {
-      re[i] = x[s + i] * (0.5 - 0.5 * Math.cos((2 * Math.PI * i) / n));
+      re[i] = x[s + i] * hann[i];
       im[i] = 0;
     }
     fftInPlace(re, im, -1);
@@ -120,10 +123,15 @@ function findResonanceHz(x: Float32Array, rateHz: number, bandHighHz: number): n
     if (!(acc[k] > acc[k - 1] && acc[k] >= acc[k + 1])) continue;
     const f = k * binHz;
     if (MAINS_HZ.some((m) => isMainsMultiple(f, m))) continue;
-    // Local median of ±20 Hz, the peak's own ±2 bins left out.
+    // Local median of ±20 Hz, the peak's own ±2 bins left out (sorting only when a value does not compare).
     let m = 0;
-    for (let j = k - half; j <= k + half; j++) if (Math.abs(j - k) > 2) around[m++] = acc[j];
-    const med = around.subarray(0, m).sort()[m >> 1];
+    let isComparable = true;
+    for (let j = k - half; j <= k + half; j++) {
+      if (Math.abs(j - k) <= 2) continue;
+      around[m++] = acc[j];
+      if (Number.isNaN(acc[j])) isComparable = false;
+    }
+    const med = isComparable ? kthSmallest(around, m, m >> 1) : around.subarray(0, m).sort()[m >> 1];
     const prom = 10 * Math.log10(acc[k] / med);
     if (prom > bestProm) {
       bestProm = prom;

@@ -20,6 +20,7 @@
  *
  * State is allocated once by createLiveOnsetState; stepLiveOnset allocates nothing.
  */
+import { kthSmallest } from './stats';
 import { computeSpectrumFrame, createSpectrumState, feedSpectrum, resetSpectrumFraming, type SpectrumState } from './spectrum';
 
 /** Short frame, s (rounded to a power of two of samples): 16 ms, under one e-folding time of a 50 1/s growth. */
@@ -312,36 +313,10 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
   };
 }
 
-/** k-th smallest of a[0..n) (in place, Hoare's selection). */
-function select(a: Float64Array, n: number, k: number): number {
-  let lo = 0;
-  let hi = n - 1;
-  while (lo < hi) {
-    const pivot = a[(lo + hi) >> 1];
-    let i = lo;
-    let j = hi;
-    while (i <= j) {
-      while (a[i] < pivot) i++;
-      while (a[j] > pivot) j--;
-      if (i <= j) {
-        const t = a[i];
-        a[i] = a[j];
-        a[j] = t;
-        i++;
-        j--;
-      }
-    }
-    if (k <= j) hi = j;
-    else if (k >= i) lo = i;
-    else return a[k];
-  }
-  return a[k];
-}
-
 /**
- * The k-th smallest of a[0..n), the value select() returns, found faster when it lies in
+ * The k-th smallest of a[0..n), the value kthSmallest returns, found faster when it lies in
  * [lo, hi): one pass counts the values under lo and gathers those in [lo, hi) into `near`, where
- * the k-th is the (k − below)-th. Otherwise (or when a value does not compare) select() on a as it stands.
+ * the k-th is the (k − below)-th. Otherwise (or when a value does not compare) kthSmallest on a as it stands.
  */
 function selectNear(a: Float64Array, n: number, k: number, lo: number, hi: number, near: Float64Array): number {
   let below = 0;
@@ -357,8 +332,8 @@ function selectNear(a: Float64Array, n: number, k: number, lo: number, hi: numbe
     below += isBelow;
     above += isAbove;
   }
-  if (below + m + above === n && k >= below && k < below + m) return select(near, m, k - below);
-  return select(a, n, k);
+  if (below + m + above === n && k >= below && k < below + m) return kthSmallest(near, m, k - below);
+  return kthSmallest(a, n, k);
 }
 
 /** Ln of bin b's power over its background at frame f (one of the last runMax frames), taken once. */
