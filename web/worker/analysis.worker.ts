@@ -10,7 +10,7 @@ import { createWavDecoder, wavSampleBits } from '../../dsp/io/wav';
 import { InputError } from '../../dsp/io/errors';
 import type { Analysis, AnalysisConfig, Marker, Onset, Segment, TrackFrame } from '../../dsp/types';
 import { emptyLiveSummary, updateLiveSummary, type LiveSummary } from './live-summary';
-import { parseToWorker, reduceToLogRows, SPECTROGRAM_ROWS, SPECTROGRAM_STEP_S, transferablesOf, type FromWorker, type SpectrogramColumn, type ToWorker, type UpdateMessage, type WorkerStageMs } from './protocol';
+import { logRowBins, parseToWorker, reduceWithRowBins, SPECTROGRAM_ROWS, SPECTROGRAM_STEP_S, transferablesOf, type FromWorker, type SpectrogramColumn, type ToWorker, type UpdateMessage, type WorkerStageMs } from './protocol';
 
 declare const self: DedicatedWorkerGlobalScope;
 
@@ -34,6 +34,10 @@ interface Run {
   pendingMarkers: Marker[];
   spectrum: Float32Array | null;
   spectrumBinHz: number;
+  /** Whether the spectrum changed since the last update posted it (an unchanged one is not sent again: the app keeps the last). */
+  isSpectrumNew: boolean;
+  /** Bins of each spectrogram row for the spectrum's layout (logRowBins), computed once. */
+  rowBins: Int32Array;
   peakAbs: number;
   isClipped: boolean;
   lastPostMs: number;
@@ -83,6 +87,8 @@ function createRun(id: number, config: AnalysisConfig, isKeepingAudio: boolean, 
     pendingMarkers: [],
     spectrum: null,
     spectrumBinHz: 0,
+    isSpectrumNew: false,
+    rowBins: new Int32Array(0),
     peakAbs: 0,
     isClipped: false,
     lastPostMs: 0,
@@ -98,6 +104,34 @@ function createRun(id: number, config: AnalysisConfig, isKeepingAudio: boolean, 
   };
 }
 
+/** Keeps the latest spectrum (marked new when it changed) and adds a spectrogram column when one is due. */
+function collectSpectrum(r: Run, spectrumDbfs: Float32Array, binHz: number): void {
+  if (!r.spectrum || r.spectrum.length !== spectrumDbfs.length || r.spectrumBinHz !== binHz) {
+    r.spectrum = new Float32Array(spectrumDbfs.length);
+    r.spectrumBinHz = binHz;
+    r.rowBins = logRowBins(r.spectrum.length, r.spectrumBinHz, r.columnBandHz[0], r.columnBandHz[1], SPECTROGRAM_ROWS);
+    r.isSpectrumNew = true;
+  }
+  // dsp/ hands back its latest spectrum on every push; most pushes bring no new frame.
+  if (r.isSpectrumNew || !sameValues(r.spectrum, spectrumDbfs)) {
+    r.spectrum.set(spectrumDbfs);
+    r.isSpectrumNew = true;
+  }
+  // A spectrogram column every SPECTROGRAM_STEP_S of the record, however fast a file is read.
+  const timeS = r.samplesSeen / r.sampleRateHz;
+  if (timeS - r.lastColumnS >= SPECTROGRAM_STEP_S && binHz > 0) {
+    const tc = performance.now();
+    const dbfs = new Float32Array(SPECTROGRAM_ROWS);
+    reduceWithRowBins(r.spectrum, r.rowBins, dbfs);
+    r.pendingColumns.push({ timeS, dbfs });
+    r.lastColumnS = timeS;
+    // Counted apart from the copies around it.
+    const dt = performance.now() - tc;
+    r.stageMs.spectrogram += dt;
+    r.stageMs.collect -= dt;
+  }
+}
+
 /** Analyses one block and collects what changed; the update object from dsp/ is copied, it is reused. */
 function pushBlock(r: Run, samples: Float32Array): void {
   const t0 = performance.now();
@@ -111,24 +145,7 @@ function pushBlock(r: Run, samples: Float32Array): void {
   }
   for (const o of u.onsets) r.pendingOnsets.push({ ...o });
   for (const s of u.segments) r.pendingSegments.push({ ...s, rateCi95PerS: s.rateCi95PerS ? [s.rateCi95PerS[0], s.rateCi95PerS[1]] : null });
-  if (u.spectrumDbfs) {
-    if (!r.spectrum || r.spectrum.length !== u.spectrumDbfs.length) r.spectrum = new Float32Array(u.spectrumDbfs.length);
-    r.spectrum.set(u.spectrumDbfs);
-    r.spectrumBinHz = u.spectrumBinHz;
-    // A spectrogram column every SPECTROGRAM_STEP_S of the record, however fast a file is read.
-    const timeS = r.samplesSeen / r.sampleRateHz;
-    if (timeS - r.lastColumnS >= SPECTROGRAM_STEP_S && u.spectrumBinHz > 0) {
-      const tc = performance.now();
-      const dbfs = new Float32Array(SPECTROGRAM_ROWS);
-      reduceToLogRows(u.spectrumDbfs, u.spectrumBinHz, r.columnBandHz[0], r.columnBandHz[1], dbfs);
-      r.pendingColumns.push({ timeS, dbfs });
-      r.lastColumnS = timeS;
-      // Counted apart from the copies around it.
-      const dt = performance.now() - tc;
-      r.stageMs.spectrogram += dt;
-      r.stageMs.collect -= dt;
-    }
-  }
+  if (u.spectrumDbfs) collectSpectrum(r, u.spectrumDbfs, u.spectrumBinHz);
   if (u.peakAbs > r.peakAbs) r.peakAbs = u.peakAbs;
   if (u.isClipped) r.isClipped = true;
   const t2 = performance.now();
@@ -140,6 +157,11 @@ function pushBlock(r: Run, samples: Float32Array): void {
   st.collect += t2 - t1;
   st.marginFeed += t3 - t2;
   st.audio += performance.now() - t3;
+}
+
+function sameValues(a: Float32Array, b: Float32Array): boolean {
+  for (let i = 0; i < a.length; i++) if (a[i] !== b[i]) return false;
+  return true;
 }
 
 function keepAudio(r: Run, samples: Float32Array): void {
@@ -177,7 +199,7 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
     frames: r.pendingFrames,
     onsets: r.pendingOnsets,
     segments: r.pendingSegments,
-    spectrumDbfs: r.spectrum ? r.spectrum.slice() : null,
+    spectrumDbfs: r.spectrum && r.isSpectrumNew ? r.spectrum.slice() : null,
     spectrumBinHz: r.spectrumBinHz,
     peakAbs: r.peakAbs,
     isClipped: r.isClipped,
@@ -203,6 +225,7 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
   r.pendingColumns = [];
   r.peakAbs = 0;
   r.isClipped = false;
+  r.isSpectrumNew = false;
   post(message);
   r.stageMs.update += performance.now() - now - marginMs;
   r.stageMs.updates++;
