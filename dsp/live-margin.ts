@@ -30,6 +30,10 @@ export interface LiveMarginState {
   factor: number;
   rateHz: number;
   ring: Float32Array;
+  /** Where the next ring sample goes (count modulo the ring's length). */
+  writeAt: number;
+  /** The window in time order for an estimate (allocated once; an estimate reads its first min(count, ring length) samples). */
+  window: Float32Array;
   /** Samples written since the last restart (may exceed the ring), and the boxcar accumulator. */
   count: number;
   acc: number;
@@ -63,21 +67,33 @@ export function createLiveMargin(cfg: { sampleRateHz: number; windowS?: number }
   if (!(windowS >= LIVE_MARGIN_MIN_S && windowS <= 600)) throw new RangeError(`windowS must lie in ${LIVE_MARGIN_MIN_S}–600 s, got ${windowS}`);
   const factor = Math.max(1, Math.floor(fs / TARGET_RATE_HZ));
   const rateHz = fs / factor;
-  return { inputRateHz: fs, factor, rateHz, ring: new Float32Array(Math.ceil(windowS * rateHz)), count: 0, acc: 0, accN: 0, startS: 0, inputSamples: 0, lastEstimateCount: 0 };
+  const cap = Math.ceil(windowS * rateHz);
+  return { inputRateHz: fs, factor, rateHz, ring: new Float32Array(cap), writeAt: 0, window: new Float32Array(cap), count: 0, acc: 0, accN: 0, startS: 0, inputSamples: 0, lastEstimateCount: 0 };
 }
 
 /** Feeds input samples (never throws, allocates nothing). */
 export function pushLiveMargin(st: LiveMarginState, block: Float32Array): void {
   const cap = st.ring.length;
+  const ring = st.ring;
+  const factor = st.factor;
+  let acc = st.acc;
+  let accN = st.accN;
+  let at = st.writeAt;
+  let count = st.count;
   for (let i = 0; i < block.length; i++) {
-    st.acc += block[i];
-    if (++st.accN === st.factor) {
-      st.ring[st.count % cap] = st.acc / st.factor;
-      st.count++;
-      st.acc = 0;
-      st.accN = 0;
+    acc += block[i];
+    if (++accN === factor) {
+      ring[at] = acc / factor;
+      at = at + 1 === cap ? 0 : at + 1;
+      count++;
+      acc = 0;
+      accN = 0;
     }
   }
+  st.acc = acc;
+  st.accN = accN;
+  st.writeAt = at;
+  st.count = count;
   st.inputSamples += block.length;
 }
 
@@ -85,6 +101,7 @@ export function pushLiveMargin(st: LiveMarginState, block: Float32Array): void {
 export function restartLiveMargin(st: LiveMarginState, missingSamples = 0): void {
   st.inputSamples += missingSamples;
   st.count = 0;
+  st.writeAt = 0;
   st.acc = 0;
   st.accN = 0;
   st.lastEstimateCount = 0;
@@ -151,9 +168,11 @@ export function estimateLiveMargin(st: LiveMarginState, centreHz: number, bandHi
   const cap = st.ring.length;
   const len = Math.min(st.count, cap);
   if (len < LIVE_MARGIN_MIN_S * st.rateHz) return null;
-  const x = new Float32Array(len);
-  const first = st.count - len;
-  for (let i = 0; i < len; i++) x[i] = st.ring[(first + i) % cap];
+  // The window in time order: the oldest sample sits where the next one goes once the ring is full.
+  const x = st.window.subarray(0, len);
+  const first = (st.count - len) % cap;
+  x.set(st.ring.subarray(first, Math.min(cap, first + len)));
+  if (first + len > cap) x.set(st.ring.subarray(0, first + len - cap), cap - first);
   const f = Number.isFinite(centreHz) && centreHz > 0 ? centreHz : findResonanceHz(x, st.rateHz, bandHighHz);
   if (!Number.isFinite(f)) return null;
   const r = estimateModeStatistics(x, st.rateHz, { centreHz: f });
