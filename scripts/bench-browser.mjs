@@ -68,7 +68,10 @@ function workerStageRows(st, audioS, label) {
   for (const [key, name] of WORKER_STAGES) {
     total += st[key];
     let extra = '';
-    if (key === 'marginEstimate') extra = ` (${st.marginEstimates} estimates, ${(st.marginEstimates ? st.marginEstimate / st.marginEstimates : 0).toFixed(1)} ms each)`;
+    if (key === 'marginEstimate' && st.marginEstimates > 0) {
+      // Its cost grows with the stretch it looks at (up to 60 s, dsp/live-margin.ts LIVE_MARGIN_WINDOW_S), one every 2 s live.
+      extra = ` (${st.marginEstimates} estimates, ${(st.marginEstimate / st.marginEstimates).toFixed(1)} ms each; the latest ${st.marginLatestMs.toFixed(1)} ms over ${st.marginLatestWindowS.toFixed(0)} s of audio)`;
+    }
     if (key === 'update') extra = ` (${st.updates} batches, ${(st.updates ? st.update / st.updates : 0).toFixed(2)} ms each)`;
     rows.push(`${label}: ${name.padEnd(48)} ${(st[key] / audioS).toFixed(2).padStart(6)} ms/s${extra}`);
   }

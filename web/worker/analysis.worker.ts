@@ -94,7 +94,7 @@ function createRun(id: number, config: AnalysisConfig, isKeepingAudio: boolean, 
     lastPostMs: 0,
     summary: emptyLiveSummary(),
     analysisMs: 0,
-    stageMs: { input: 0, analysis: 0, collect: 0, spectrogram: 0, marginFeed: 0, marginEstimate: 0, marginEstimates: 0, audio: 0, update: 0, updates: 0 },
+    stageMs: { input: 0, analysis: 0, collect: 0, spectrogram: 0, marginFeed: 0, marginEstimate: 0, marginEstimates: 0, marginLatestMs: 0, marginLatestWindowS: 0, audio: 0, update: 0, updates: 0 },
     mainFrequencyHz: Number.NaN,
     pendingColumns: [],
     columnBandHz: [config.bandLowHz ?? DEFAULT_BAND_HZ[0], Math.min(config.bandHighHz ?? DEFAULT_BAND_HZ[1], config.sampleRateHz / 2)],
@@ -217,6 +217,8 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
     marginMs = performance.now() - tm;
     r.stageMs.marginEstimate += marginMs;
     r.stageMs.marginEstimates++;
+    r.stageMs.marginLatestMs = marginMs;
+    r.stageMs.marginLatestWindowS = Math.min(r.liveMargin.count, r.liveMargin.ring.length) / r.liveMargin.rateHz;
   }
   r.pendingFrames = [];
   r.pendingOnsets = [];

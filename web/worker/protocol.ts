@@ -204,6 +204,9 @@ export interface WorkerStageMs {
   /** Margin estimates (estimateLiveMargin), and how many were made. */
   marginEstimate: number;
   marginEstimates: number;
+  /** The latest estimate's time, ms, and the span of audio it looked at, s (its cost grows with the span, up to LIVE_MARGIN_WINDOW_S). */
+  marginLatestMs: number;
+  marginLatestWindowS: number;
   /** Keeping the audio for the session store and posting it. */
   audio: number;
   /** Building and posting update batches (the summary and the structured clone), and how many were posted. */
