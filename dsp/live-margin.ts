@@ -10,6 +10,7 @@
 import { fftInPlace, mixDownDecimate } from './baseband';
 import { earlyWarningIndicators } from './early-warning';
 import { estimateModeStatistics } from './mode-statistics';
+import { kthSmallest } from './stats';
 import { isMainsMultiple, MAINS_HZ } from './track';
 import type { Interval, NoiseRegime } from './types';
 
@@ -29,6 +30,10 @@ export interface LiveMarginState {
   factor: number;
   rateHz: number;
   ring: Float32Array;
+  /** Where the next ring sample goes (count modulo the ring's length). */
+  writeAt: number;
+  /** The window in time order for an estimate (allocated once; an estimate reads its first min(count, ring length) samples). */
+  window: Float32Array;
   /** Samples written since the last restart (may exceed the ring), and the boxcar accumulator. */
   count: number;
   acc: number;
@@ -62,21 +67,33 @@ export function createLiveMargin(cfg: { sampleRateHz: number; windowS?: number }
   if (!(windowS >= LIVE_MARGIN_MIN_S && windowS <= 600)) throw new RangeError(`windowS must lie in ${LIVE_MARGIN_MIN_S}–600 s, got ${windowS}`);
   const factor = Math.max(1, Math.floor(fs / TARGET_RATE_HZ));
   const rateHz = fs / factor;
-  return { inputRateHz: fs, factor, rateHz, ring: new Float32Array(Math.ceil(windowS * rateHz)), count: 0, acc: 0, accN: 0, startS: 0, inputSamples: 0, lastEstimateCount: 0 };
+  const cap = Math.ceil(windowS * rateHz);
+  return { inputRateHz: fs, factor, rateHz, ring: new Float32Array(cap), writeAt: 0, window: new Float32Array(cap), count: 0, acc: 0, accN: 0, startS: 0, inputSamples: 0, lastEstimateCount: 0 };
 }
 
 /** Feeds input samples (never throws, allocates nothing). */
 export function pushLiveMargin(st: LiveMarginState, block: Float32Array): void {
   const cap = st.ring.length;
+  const ring = st.ring;
+  const factor = st.factor;
+  let acc = st.acc;
+  let accN = st.accN;
+  let at = st.writeAt;
+  let count = st.count;
   for (let i = 0; i < block.length; i++) {
-    st.acc += block[i];
-    if (++st.accN === st.factor) {
-      st.ring[st.count % cap] = st.acc / st.factor;
-      st.count++;
-      st.acc = 0;
-      st.accN = 0;
+    acc += block[i];
+    if (++accN === factor) {
+      ring[at] = acc / factor;
+      at = at + 1 === cap ? 0 : at + 1;
+      count++;
+      acc = 0;
+      accN = 0;
     }
   }
+  st.acc = acc;
+  st.accN = accN;
+  st.writeAt = at;
+  st.count = count;
   st.inputSamples += block.length;
 }
 
@@ -84,6 +101,7 @@ export function pushLiveMargin(st: LiveMarginState, block: Float32Array): void {
 export function restartLiveMargin(st: LiveMarginState, missingSamples = 0): void {
   st.inputSamples += missingSamples;
   st.count = 0;
+  st.writeAt = 0;
   st.acc = 0;
   st.accN = 0;
   st.lastEstimateCount = 0;
@@ -101,9 +119,11 @@ function findResonanceHz(x: Float32Array, rateHz: number, bandHighHz: number): n
   const re = new Float64Array(n);
   const im = new Float64Array(n);
   const acc = new Float64Array(n / 2);
+  const hann = new Float64Array(n);
+  for (let i = 0; i < n; i++) hann[i] = 0.5 - 0.5 * Math.cos((2 * Math.PI * i) / n);
   for (let s = 0; s + n <= x.length; s += n / 2) {
     for (let i = 0; i < n; i++) {
-      re[i] = x[s + i] * (0.5 - 0.5 * Math.cos((2 * Math.PI * i) / n));
+      re[i] = x[s + i] * hann[i];
       im[i] = 0;
     }
     fftInPlace(re, im, -1);
@@ -120,10 +140,15 @@ function findResonanceHz(x: Float32Array, rateHz: number, bandHighHz: number): n
     if (!(acc[k] > acc[k - 1] && acc[k] >= acc[k + 1])) continue;
     const f = k * binHz;
     if (MAINS_HZ.some((m) => isMainsMultiple(f, m))) continue;
-    // Local median of ±20 Hz, the peak's own ±2 bins left out.
+    // Local median of ±20 Hz, the peak's own ±2 bins left out (sorting only when a value does not compare).
     let m = 0;
-    for (let j = k - half; j <= k + half; j++) if (Math.abs(j - k) > 2) around[m++] = acc[j];
-    const med = around.subarray(0, m).sort()[m >> 1];
+    let isComparable = true;
+    for (let j = k - half; j <= k + half; j++) {
+      if (Math.abs(j - k) <= 2) continue;
+      around[m++] = acc[j];
+      if (Number.isNaN(acc[j])) isComparable = false;
+    }
+    const med = isComparable ? kthSmallest(around, m, m >> 1) : around.subarray(0, m).sort()[m >> 1];
     const prom = 10 * Math.log10(acc[k] / med);
     if (prom > bestProm) {
       bestProm = prom;
@@ -143,9 +168,11 @@ export function estimateLiveMargin(st: LiveMarginState, centreHz: number, bandHi
   const cap = st.ring.length;
   const len = Math.min(st.count, cap);
   if (len < LIVE_MARGIN_MIN_S * st.rateHz) return null;
-  const x = new Float32Array(len);
-  const first = st.count - len;
-  for (let i = 0; i < len; i++) x[i] = st.ring[(first + i) % cap];
+  // The window in time order: the oldest sample sits where the next one goes once the ring is full.
+  const x = st.window.subarray(0, len);
+  const first = (st.count - len) % cap;
+  x.set(st.ring.subarray(first, Math.min(cap, first + len)));
+  if (first + len > cap) x.set(st.ring.subarray(0, first + len - cap), cap - first);
   const f = Number.isFinite(centreHz) && centreHz > 0 ? centreHz : findResonanceHz(x, st.rateHz, bandHighHz);
   if (!Number.isFinite(f)) return null;
   const r = estimateModeStatistics(x, st.rateHz, { centreHz: f });

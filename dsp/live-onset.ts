@@ -20,6 +20,7 @@
  *
  * State is allocated once by createLiveOnsetState; stepLiveOnset allocates nothing.
  */
+import { kthSmallest } from './stats';
 import { computeSpectrumFrame, createSpectrumState, feedSpectrum, resetSpectrumFraming, type SpectrumState } from './spectrum';
 
 /** Short frame, s (rounded to a power of two of samples): 16 ms, under one e-folding time of a 50 1/s growth. */
@@ -72,6 +73,8 @@ const RUN_MAX_S = 1.2;
 const HOLD_BINS = 3;
 const HOLD_S = 3;
 const MAX_HARMONIC = 10;
+/** The band's median ratio is first looked for within this factor of the previous frame's (a speed choice only: the result is exact either way). */
+const MEDIAN_NEAR = 1.5;
 /** Most onsets announced by one step. */
 const MAX_ONSETS_PER_STEP = 8;
 
@@ -121,9 +124,20 @@ export interface LiveOnsetState {
   holdUntil: Float64Array;
   /** Bin of an onset whose return to its floor ends this bin's silence (−1: none). */
   heldBy: Int32Array;
-  /** Log-power over the background per bin, Np (ring of runMax frames, bin-major). */
-  devRing: Float64Array;
+  /** Power over the background per bin (ring of runMax frames, frame-major: one frame's bins are adjacent). */
+  ratioRing: Float64Array;
+  /**
+   * Its natural log (Np), taken only where read (logRatioAt): in control a bin never needs it. An
+   * entry is valid when logFrame holds the frame it was taken for.
+   */
+  logRing: Float64Array;
+  logFrame: Float64Array;
+  /** The latest frame's power of each bin (+1e-30), and its ratio to the background (reordered by select). */
+  band: Float64Array;
   scratch: Float64Array;
+  /** Values of scratch near the previous frame's median (selectNear), and that median (NaN: none yet). */
+  nearMedian: Float64Array;
+  lastMedian: number;
   winMean: Float64Array;
   /** var(m1 − m2) / E[RSS] of the rise test for each window length (riseErrorFactors). */
   readonly riseFactor: Float64Array;
@@ -282,8 +296,13 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
     recent: new Float64Array(bins),
     holdUntil: new Float64Array(bins).fill(-1),
     heldBy: new Int32Array(bins).fill(-1),
-    devRing: new Float64Array(bins * runMax),
+    ratioRing: new Float64Array(bins * runMax),
+    logRing: new Float64Array(bins * runMax),
+    logFrame: new Float64Array(bins * runMax).fill(-1),
+    band: new Float64Array(bins),
     scratch: new Float64Array(bins),
+    nearMedian: new Float64Array(bins),
+    lastMedian: Number.NaN,
     winMean: new Float64Array(3),
     riseFactor: riseErrorFactors(spec.window, hop, Math.floor(runMax / 3)),
     frame: 0,
@@ -294,30 +313,37 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
   };
 }
 
-/** k-th smallest of a[0..n) (in place, Hoare's selection). */
-function select(a: Float64Array, n: number, k: number): number {
-  let lo = 0;
-  let hi = n - 1;
-  while (lo < hi) {
-    const pivot = a[(lo + hi) >> 1];
-    let i = lo;
-    let j = hi;
-    while (i <= j) {
-      while (a[i] < pivot) i++;
-      while (a[j] > pivot) j--;
-      if (i <= j) {
-        const t = a[i];
-        a[i] = a[j];
-        a[j] = t;
-        i++;
-        j--;
-      }
-    }
-    if (k <= j) hi = j;
-    else if (k >= i) lo = i;
-    else return a[k];
+/**
+ * The k-th smallest of a[0..n), the value kthSmallest returns, found faster when it lies in
+ * [lo, hi): one pass counts the values under lo and gathers those in [lo, hi) into `near`, where
+ * the k-th is the (k − below)-th. Otherwise (or when a value does not compare) kthSmallest on a as it stands.
+ */
+function selectNear(a: Float64Array, n: number, k: number, lo: number, hi: number, near: Float64Array): number {
+  let below = 0;
+  let m = 0;
+  let above = 0;
+  // Counts by arithmetic on the comparisons rather than branches (the values fall either side at random).
+  for (let i = 0; i < n; i++) {
+    const v = a[i];
+    const isBelow = +(v < lo);
+    const isAbove = +(v >= hi);
+    near[m] = v;
+    m += +(v >= lo) & +(v < hi);
+    below += isBelow;
+    above += isAbove;
   }
-  return a[k];
+  if (below + m + above === n && k >= below && k < below + m) return kthSmallest(near, m, k - below);
+  return kthSmallest(a, n, k);
+}
+
+/** Ln of bin b's power over its background at frame f (one of the last runMax frames), taken once. */
+function logRatioAt(st: LiveOnsetState, b: number, f: number): number {
+  const i = (f % st.runMax) * (st.hiBin - st.loBin + 1) + b;
+  if (st.logFrame[i] !== f) {
+    st.logRing[i] = Math.log(st.ratioRing[i]);
+    st.logFrame[i] = f;
+  }
+  return st.logRing[i];
 }
 
 /**
@@ -332,7 +358,6 @@ function select(a: Float64Array, n: number, k: number): number {
  * kernel, front-loaded in log-power, so its rise falls mostly in one window; a knock falls after it.
  */
 function isRising(st: LiveOnsetState, b: number, len: number): boolean {
-  const base = b * st.runMax;
   const mean = st.winMean;
   const wMax = Math.floor(Math.min(len, st.runMax) / 3);
   for (let w = HOPS_PER_FRAME >> 1; w <= wMax; w++) {
@@ -345,7 +370,7 @@ function isRising(st: LiveOnsetState, b: number, len: number): boolean {
       let s1 = 0;
       for (let i = 0; i < w; i++) {
         const t = q * w + i;
-        const v = st.devRing[base + ((st.frame - t) % st.runMax)];
+        const v = logRatioAt(st, b, st.frame - t);
         s1 += v;
         sty += t * v;
         syy += v * v;
@@ -402,73 +427,100 @@ function keepFloor(st: LiveOnsetState, q: number): void {
   if (st.floor[q] === 0) st.floor[q] = st.mean[q];
 }
 
-function processFrame(st: LiveOnsetState): void {
-  const spec = st.spec;
-  computeSpectrumFrame(spec);
+/**
+ * The band's common level of the latest frame: the median over the band of each bin's power over
+ * its background, over ln 2 (the median of an exponential power is ln 2 of its mean). A broadband
+ * loudness step scales every bin alike, so dividing by it cancels the step. Fills st.band.
+ */
+function commonLevel(st: LiveOnsetState): number {
   const bins = st.hiBin - st.loBin + 1;
-  const p = spec.power;
+  const p = st.spec.power;
+  const loBin = st.loBin;
+  const mean = st.mean;
+  const band = st.band;
+  const ratio = st.scratch;
+  if (st.frame === 0) for (let b = 0; b < bins; b++) mean[b] = p[loBin + b] + 1e-30;
+  for (let b = 0; b < bins; b++) {
+    const pw = p[loBin + b] + 1e-30;
+    band[b] = pw;
+    ratio[b] = pw / mean[b];
+  }
+  // The median moves little from frame to frame: look for it near the previous one first.
+  const median = selectNear(ratio, bins, bins >> 1, st.lastMedian / MEDIAN_NEAR, st.lastMedian * MEDIAN_NEAR, st.nearMedian);
+  st.lastMedian = median;
+  return median / Math.LN2;
+}
+
+/**
+ * Bin b's CUSUM s stands above zero at power pw (loudness-corrected): a rise faster than any growth
+ * marks the run as a step; at the threshold a steady rise is an onset, and a run that never
+ * showed itself as a growth makes its level the bin's background.
+ */
+function onAlarm(st: LiveOnsetState, b: number, pw: number, s: number): void {
+  const frame = st.frame;
+  st.zeroHops[b] = 0;
+  // A run that rose faster than any growth (a step or a knock entering the frame) is never an onset.
+  if (frame >= HOPS_PER_FRAME && logRatioAt(st, b, frame) - Math.max(0, logRatioAt(st, b, frame - HOPS_PER_FRAME)) > st.stepNp) st.isStepRun[b] = 1;
+  if (s < st.threshold) return;
+  const len = Math.min(frame - st.runStart[b], st.runMax);
+  if (frame >= st.holdUntil[b] && st.heldBy[b] < 0 && st.isStepRun[b] === 0 && isPeak(st, b) && isRising(st, b, len)) {
+    if (st.onsetCount < MAX_ONSETS_PER_STEP) {
+      // The change point of the CUSUM: the last frame it stood at zero; its centre is where the rise began.
+      const framesBack = frame - st.lastZero[b];
+      st.onsetJ[st.onsetCount] = st.j - st.spec.frameSize / 2 - framesBack * st.spec.hopSize;
+      st.onsetFreqHz[st.onsetCount] = (st.loBin + b) * st.spec.binHz;
+      st.onsetCount++;
+    }
+    silenceAround(st, b, frame + Math.round(HOLD_S / st.hopS));
+  } else if (len >= st.runMax) {
+    // A rise that never showed itself as a growth is a new level: the bin takes it as background
+    // until its power falls back to the one before.
+    keepFloor(st, b);
+    st.mean[b] = pw;
+    st.cusum[b] = 0;
+    st.runStart[b] = frame;
+  }
+}
+
+function processFrame(st: LiveOnsetState): void {
+  computeSpectrumFrame(st.spec);
+  const common = commonLevel(st);
+  const bins = st.hiBin - st.loBin + 1;
   const frame = st.frame;
   const isWarm = frame >= st.warmFrames;
-  // Each bin's power over its background, and the median of that ratio over the band: a broadband
-  // loudness step scales every bin alike (the median of an exponential power is ln 2 of its mean).
+  const { mean, band, recent, floor, cusum, ratioRing, zeroHops, lastZero, runMax, threshold, slope, offset } = st;
+  const slot = (frame % runMax) * bins;
+  // A plain running mean until the exponential one has as many frames behind it.
+  const follow = Math.max(st.alpha, 1 / (frame + 1));
   for (let b = 0; b < bins; b++) {
-    const pw = p[st.loBin + b] + 1e-30;
-    if (frame === 0) st.mean[b] = pw;
-    st.scratch[b] = pw / st.mean[b];
-  }
-  const common = select(st.scratch, bins, bins >> 1) / Math.LN2;
-  for (let b = 0; b < bins; b++) {
-    const pw = (p[st.loBin + b] + 1e-30) / common;
-    st.recent[b] += (pw - st.recent[b]) / RESTART_HOPS;
-    if (st.floor[b] > 0 && st.recent[b] < st.floor[b]) {
+    const pw = band[b] / common;
+    const r = recent[b] + (pw - recent[b]) / RESTART_HOPS;
+    recent[b] = r;
+    if (floor[b] > 0 && r < floor[b]) {
       // Back at the background it had before a rise (a hum or a line has gone): it is the
       // background again, and a tone held silent since its onset may be announced anew.
-      st.mean[b] = Math.min(st.mean[b], st.floor[b]);
-      st.floor[b] = 0;
+      mean[b] = Math.min(mean[b], floor[b]);
+      floor[b] = 0;
       for (let q = Math.max(0, b - HOLD_BINS); q <= Math.min(bins - 1, b + HOLD_BINS); q++) if (st.heldBy[q] === b) st.heldBy[q] = -1;
     }
-    const x = pw / st.mean[b];
-    st.devRing[b * st.runMax + (frame % st.runMax)] = Math.log(x);
+    const x = pw / mean[b];
+    ratioRing[slot + b] = x;
     // No run starts before the background has settled.
     // Evidence past the threshold is not banked (the sum is held at h): an alarm that is not
     // confirmed as a growth ends within hops of the increments turning negative (a knock's tail,
     // a skirt that fades), instead of testing noise for as long as a huge sum takes to drain.
-    const s = isWarm ? Math.min(st.threshold, Math.max(0, st.cusum[b] + st.slope * x - st.offset)) : 0;
-    st.cusum[b] = s;
-    if (s > 0) st.zeroHops[b] = 0;
-    if (s === 0) {
+    const s = isWarm ? Math.min(threshold, Math.max(0, cusum[b] + slope * x - offset)) : 0;
+    cusum[b] = s;
+    if (s > 0) onAlarm(st, b, pw, s);
+    else if (s === 0) {
       // In control: the background follows (loudness-corrected). A run starts afresh only after
       // RESTART_HOPS at zero (see there).
-      st.lastZero[b] = frame;
-      if (++st.zeroHops[b] >= RESTART_HOPS) {
+      lastZero[b] = frame;
+      if (++zeroHops[b] >= RESTART_HOPS) {
         st.runStart[b] = frame;
         st.isStepRun[b] = 0;
       }
-      // A plain running mean until the exponential one has as many frames behind it.
-      st.mean[b] += Math.max(st.alpha, 1 / (frame + 1)) * (pw - st.mean[b]);
-      continue;
-    }
-    // A run that rose faster than any growth (a step or a knock entering the frame) is never an onset.
-    const yBefore = st.devRing[b * st.runMax + ((frame - HOPS_PER_FRAME) % st.runMax)];
-    if (frame >= HOPS_PER_FRAME && Math.log(x) - Math.max(0, yBefore) > st.stepNp) st.isStepRun[b] = 1;
-    if (s < st.threshold) continue;
-    const len = Math.min(frame - st.runStart[b], st.runMax);
-    if (frame >= st.holdUntil[b] && st.heldBy[b] < 0 && st.isStepRun[b] === 0 && isPeak(st, b) && isRising(st, b, len)) {
-      if (st.onsetCount < MAX_ONSETS_PER_STEP) {
-        // The change point of the CUSUM: the last frame it stood at zero; its centre is where the rise began.
-        const framesBack = frame - st.lastZero[b];
-        st.onsetJ[st.onsetCount] = st.j - spec.frameSize / 2 - framesBack * spec.hopSize;
-        st.onsetFreqHz[st.onsetCount] = (st.loBin + b) * spec.binHz;
-        st.onsetCount++;
-      }
-      silenceAround(st, b, frame + Math.round(HOLD_S / st.hopS));
-    } else if (len >= st.runMax) {
-      // A rise that never showed itself as a growth is a new level: the bin takes it as background
-      // until its power falls back to the one before.
-      keepFloor(st, b);
-      st.mean[b] = pw;
-      st.cusum[b] = 0;
-      st.runStart[b] = frame;
+      mean[b] += follow * (pw - mean[b]);
     }
   }
   st.frame++;

@@ -2,7 +2,7 @@
  * Small statistics and linear-algebra helpers shared by the fits (fit.ts, fit-saturation.ts), the
  * noise-statistics estimators, the Cramér–Rao bounds and the app's stability map: normal and
  * chi-square quantiles, the log-gamma function, the regularised incomplete beta function, Student's
- * t distribution and the inverse of a small matrix.
+ * t distribution, the inverse of a small matrix and order statistics (kthSmallest).
  */
 
 /** Standard normal 0.975 quantile (Abramowitz & Stegun 1964, Table 26.5). */
@@ -134,4 +134,30 @@ export function invertSmallMatrix(m: Float64Array, k: number): Float64Array | nu
     }
   }
   return inv;
+}
+
+/** k-th smallest (from 0) of a[0..n), reordering a in place (Hoare's selection, Hoare 1961, "Algorithm 65: Find"); allocates nothing. */
+export function kthSmallest(a: Float64Array, n: number, k: number): number {
+  let lo = 0;
+  let hi = n - 1;
+  while (lo < hi) {
+    const pivot = a[(lo + hi) >> 1];
+    let i = lo;
+    let j = hi;
+    while (i <= j) {
+      while (a[i] < pivot) i++;
+      while (a[j] > pivot) j--;
+      if (i <= j) {
+        const t = a[i];
+        a[i] = a[j];
+        a[j] = t;
+        i++;
+        j--;
+      }
+    }
+    if (k <= j) hi = j;
+    else if (k >= i) lo = i;
+    else return a[k];
+  }
+  return a[k];
 }

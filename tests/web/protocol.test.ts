@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { isFromWorker, parseToWorker, transferablesOf, type ToWorker } from '../../web/worker/protocol';
+import { isFromWorker, logRowBins, parseToWorker, reduceToLogRows, transferablesOf, type ToWorker } from '../../web/worker/protocol';
 import { emptyLiveSummary, isSameTone, updateLiveSummary } from '../../web/worker/live-summary';
 import type { Segment } from '../../dsp/types';
 import { MIN_GAP_S, missingSeconds } from '../../web/capture/gap';
@@ -80,6 +80,36 @@ describe('worker protocol: messages to the worker', () => {
 function seg(kind: Segment['kind'], frequencyHz: number, ratePerS: number | null, ci: [number, number] | null): Segment {
   return { kind, startS: 1, endS: 2, frequencyHz, ratePerS, rateCi95PerS: ci };
 }
+
+describe('spectrogram rows', () => {
+  // Log-spaced rows (common practice for a spectrogram's frequency axis): row r spans
+  // lo·(hi/lo)^(r/R) … lo·(hi/lo)^((r+1)/R), so a frequency f sits in row ⌊R·ln(f/lo)/ln(hi/lo)⌋.
+  const binHz = 12_000 / 4096;
+  const [lo, hi, rows] = [20, 4000, 192];
+  it('a tone lands in the row whose log-spaced edges hold its frequency, and no row loses it', () => {
+    for (const f of [31.3, 171, 997, 2503]) {
+      const k = Math.round(f / binHz);
+      const spectrum = new Float32Array(2049).fill(-120);
+      spectrum[k] = -20;
+      const out = new Float32Array(rows);
+      reduceToLogRows(spectrum, binHz, lo, hi, out);
+      const expected = Math.floor((rows * Math.log((k * binHz) / lo)) / Math.log(hi / lo));
+      const loudRows = [...out.keys()].filter((r) => out[r] === -20);
+      expect(loudRows.length).toBeGreaterThan(0);
+      // Rows narrower than a bin take their nearest bin, so a low tone may fill neighbouring rows too.
+      expect(Math.min(...loudRows)).toBeLessThanOrEqual(expected + 1);
+      expect(Math.max(...loudRows)).toBeGreaterThanOrEqual(expected - 1);
+    }
+  });
+  it('the rows cover the band without a gap: each row starts at or after the previous row’s first bin', () => {
+    const map = logRowBins(2049, binHz, lo, hi, rows);
+    for (let r = 1; r < rows; r++) {
+      expect(map[2 * r]).toBeGreaterThanOrEqual(map[2 * r - 2]);
+      expect(map[2 * r]).toBeLessThanOrEqual(map[2 * r - 1] + 1);
+    }
+    expect(map[2 * rows - 1]).toBe(Math.round(hi / binHz) - 1);
+  });
+});
 
 describe('live summary from closed segments', () => {
   it('derives damping ratio and Q of the REFERENCES.md §5 worked example from a decay segment', () => {

@@ -10,7 +10,7 @@ import { createWavDecoder, wavSampleBits } from '../../dsp/io/wav';
 import { InputError } from '../../dsp/io/errors';
 import type { Analysis, AnalysisConfig, Marker, Onset, Segment, TrackFrame } from '../../dsp/types';
 import { emptyLiveSummary, updateLiveSummary, type LiveSummary } from './live-summary';
-import { parseToWorker, reduceToLogRows, SPECTROGRAM_ROWS, SPECTROGRAM_STEP_S, transferablesOf, type FromWorker, type SpectrogramColumn, type ToWorker, type UpdateMessage } from './protocol';
+import { logRowBins, parseToWorker, reduceWithRowBins, SPECTROGRAM_ROWS, SPECTROGRAM_STEP_S, transferablesOf, type FromWorker, type SpectrogramColumn, type ToWorker, type UpdateMessage, type WorkerStageMs } from './protocol';
 
 declare const self: DedicatedWorkerGlobalScope;
 
@@ -34,12 +34,18 @@ interface Run {
   pendingMarkers: Marker[];
   spectrum: Float32Array | null;
   spectrumBinHz: number;
+  /** Whether the spectrum changed since the last update posted it (an unchanged one is not sent again: the app keeps the last). */
+  isSpectrumNew: boolean;
+  /** Bins of each spectrogram row for the spectrum's layout (logRowBins), computed once. */
+  rowBins: Int32Array;
   peakAbs: number;
   isClipped: boolean;
   lastPostMs: number;
   summary: LiveSummary;
   /** Time spent inside dsp/ push(), ms (for the figures shown after a file). */
   analysisMs: number;
+  /** Time spent on each job of the worker, ms (the browser bench's figures). */
+  stageMs: WorkerStageMs;
   /** Last frequency of the main tone the track followed, Hz (NaN before any). */
   mainFrequencyHz: number;
   /** Spectrogram columns not yet posted, the band they span, and the time of the last one, s. */
@@ -81,11 +87,14 @@ function createRun(id: number, config: AnalysisConfig, isKeepingAudio: boolean, 
     pendingMarkers: [],
     spectrum: null,
     spectrumBinHz: 0,
+    isSpectrumNew: false,
+    rowBins: new Int32Array(0),
     peakAbs: 0,
     isClipped: false,
     lastPostMs: 0,
     summary: emptyLiveSummary(),
     analysisMs: 0,
+    stageMs: { input: 0, analysis: 0, collect: 0, spectrogram: 0, marginFeed: 0, marginEstimate: 0, marginEstimates: 0, marginLatestMs: 0, marginLatestWindowS: 0, audio: 0, update: 0, updates: 0 },
     mainFrequencyHz: Number.NaN,
     pendingColumns: [],
     columnBandHz: [config.bandLowHz ?? DEFAULT_BAND_HZ[0], Math.min(config.bandHighHz ?? DEFAULT_BAND_HZ[1], config.sampleRateHz / 2)],
@@ -95,11 +104,40 @@ function createRun(id: number, config: AnalysisConfig, isKeepingAudio: boolean, 
   };
 }
 
+/** Keeps the latest spectrum (marked new when it changed) and adds a spectrogram column when one is due. */
+function collectSpectrum(r: Run, spectrumDbfs: Float32Array, binHz: number): void {
+  if (!r.spectrum || r.spectrum.length !== spectrumDbfs.length || r.spectrumBinHz !== binHz) {
+    r.spectrum = new Float32Array(spectrumDbfs.length);
+    r.spectrumBinHz = binHz;
+    r.rowBins = logRowBins(r.spectrum.length, r.spectrumBinHz, r.columnBandHz[0], r.columnBandHz[1], SPECTROGRAM_ROWS);
+    r.isSpectrumNew = true;
+  }
+  // dsp/ hands back its latest spectrum on every push; most pushes bring no new frame.
+  if (r.isSpectrumNew || !sameValues(r.spectrum, spectrumDbfs)) {
+    r.spectrum.set(spectrumDbfs);
+    r.isSpectrumNew = true;
+  }
+  // A spectrogram column every SPECTROGRAM_STEP_S of the record, however fast a file is read.
+  const timeS = r.samplesSeen / r.sampleRateHz;
+  if (timeS - r.lastColumnS >= SPECTROGRAM_STEP_S && binHz > 0) {
+    const tc = performance.now();
+    const dbfs = new Float32Array(SPECTROGRAM_ROWS);
+    reduceWithRowBins(r.spectrum, r.rowBins, dbfs);
+    r.pendingColumns.push({ timeS, dbfs });
+    r.lastColumnS = timeS;
+    // Counted apart from the copies around it.
+    const dt = performance.now() - tc;
+    r.stageMs.spectrogram += dt;
+    r.stageMs.collect -= dt;
+  }
+}
+
 /** Analyses one block and collects what changed; the update object from dsp/ is copied, it is reused. */
 function pushBlock(r: Run, samples: Float32Array): void {
   const t0 = performance.now();
   const u = r.analysis.push(samples);
-  r.analysisMs += performance.now() - t0;
+  const t1 = performance.now();
+  r.analysisMs += t1 - t0;
   r.samplesSeen += samples.length;
   for (const f of u.frames) {
     r.pendingFrames.push({ ...f });
@@ -107,23 +145,23 @@ function pushBlock(r: Run, samples: Float32Array): void {
   }
   for (const o of u.onsets) r.pendingOnsets.push({ ...o });
   for (const s of u.segments) r.pendingSegments.push({ ...s, rateCi95PerS: s.rateCi95PerS ? [s.rateCi95PerS[0], s.rateCi95PerS[1]] : null });
-  if (u.spectrumDbfs) {
-    if (!r.spectrum || r.spectrum.length !== u.spectrumDbfs.length) r.spectrum = new Float32Array(u.spectrumDbfs.length);
-    r.spectrum.set(u.spectrumDbfs);
-    r.spectrumBinHz = u.spectrumBinHz;
-    // A spectrogram column every SPECTROGRAM_STEP_S of the record, however fast a file is read.
-    const timeS = r.samplesSeen / r.sampleRateHz;
-    if (timeS - r.lastColumnS >= SPECTROGRAM_STEP_S && u.spectrumBinHz > 0) {
-      const dbfs = new Float32Array(SPECTROGRAM_ROWS);
-      reduceToLogRows(u.spectrumDbfs, u.spectrumBinHz, r.columnBandHz[0], r.columnBandHz[1], dbfs);
-      r.pendingColumns.push({ timeS, dbfs });
-      r.lastColumnS = timeS;
-    }
-  }
+  if (u.spectrumDbfs) collectSpectrum(r, u.spectrumDbfs, u.spectrumBinHz);
   if (u.peakAbs > r.peakAbs) r.peakAbs = u.peakAbs;
   if (u.isClipped) r.isClipped = true;
+  const t2 = performance.now();
   feedLiveMargin(r.liveMargin, samples, u);
+  const t3 = performance.now();
   if (r.isKeepingAudio) keepAudio(r, samples);
+  const st = r.stageMs;
+  st.analysis += t1 - t0;
+  st.collect += t2 - t1;
+  st.marginFeed += t3 - t2;
+  st.audio += performance.now() - t3;
+}
+
+function sameValues(a: Float32Array, b: Float32Array): boolean {
+  for (let i = 0; i < a.length; i++) if (a[i] !== b[i]) return false;
+  return true;
 }
 
 function keepAudio(r: Run, samples: Float32Array): void {
@@ -149,6 +187,7 @@ function flushAudio(r: Run): void {
 function maybePostUpdate(r: Run, isForced: boolean): void {
   const now = performance.now();
   if (!isForced && now - r.lastPostMs < UPDATE_INTERVAL_MS) return;
+  let marginMs = 0;
   r.lastPostMs = now;
   const last = r.pendingFrames.length ? r.pendingFrames[r.pendingFrames.length - 1] : null;
   updateLiveSummary(r.summary, r.pendingSegments, last ? { frequencyHz: last.frequencyHz, regime: last.state } : null, r.mainFrequencyHz);
@@ -160,7 +199,7 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
     frames: r.pendingFrames,
     onsets: r.pendingOnsets,
     segments: r.pendingSegments,
-    spectrumDbfs: r.spectrum ? r.spectrum.slice() : null,
+    spectrumDbfs: r.spectrum && r.isSpectrumNew ? r.spectrum.slice() : null,
     spectrumBinHz: r.spectrumBinHz,
     peakAbs: r.peakAbs,
     isClipped: r.isClipped,
@@ -173,7 +212,13 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
   // At most every LIVE_MARGIN_EVERY_S of wall time, so a file read fast is not held up.
   if (isLiveMarginDue(r.liveMargin) && now - r.lastMarginMs >= LIVE_MARGIN_EVERY_S * 1000) {
     r.lastMarginMs = now;
+    const tm = performance.now();
     message.margin = estimateLiveMargin(r.liveMargin, last?.state === 'steady' ? r.mainFrequencyHz : Number.NaN, r.columnBandHz[1]);
+    marginMs = performance.now() - tm;
+    r.stageMs.marginEstimate += marginMs;
+    r.stageMs.marginEstimates++;
+    r.stageMs.marginLatestMs = marginMs;
+    r.stageMs.marginLatestWindowS = Math.min(r.liveMargin.count, r.liveMargin.ring.length) / r.liveMargin.rateHz;
   }
   r.pendingFrames = [];
   r.pendingOnsets = [];
@@ -182,7 +227,10 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
   r.pendingColumns = [];
   r.peakAbs = 0;
   r.isClipped = false;
+  r.isSpectrumNew = false;
   post(message);
+  r.stageMs.update += performance.now() - now - marginMs;
+  r.stageMs.updates++;
 }
 
 function finishRun(r: Run): void {
@@ -191,11 +239,15 @@ function finishRun(r: Run): void {
     r.port.close();
   }
   maybePostUpdate(r, true);
+  const ta = performance.now();
   flushAudio(r);
   const t0 = performance.now();
+  r.stageMs.audio += t0 - ta;
   const report = r.analysis.finish();
-  r.analysisMs += performance.now() - t0;
-  post({ type: 'report', id: r.id, report, analysisMs: r.analysisMs, samplesAnalysed: r.samplesSeen });
+  const dt = performance.now() - t0;
+  r.analysisMs += dt;
+  r.stageMs.analysis += dt;
+  post({ type: 'report', id: r.id, report, analysisMs: r.analysisMs, samplesAnalysed: r.samplesSeen, stageMs: r.stageMs });
 }
 
 function onPortMessage(r: Run, ev: MessageEvent): void {
@@ -216,8 +268,10 @@ function analyseFile(r: Run, channels: Float32Array[]): void {
   for (let start = 0; start < length; start += FILE_BLOCK_SAMPLES) {
     const n = Math.min(FILE_BLOCK_SAMPLES, length - start);
     // Mono mix of all channels (a fresh block each time: the session store may keep it).
+    const t0 = performance.now();
     const block = new Float32Array(n);
     for (const ch of channels) for (let i = 0; i < n; i++) block[i] += ch[start + i] * scale;
+    r.stageMs.input += performance.now() - t0;
     pushBlock(r, block);
     maybePostUpdate(r, false);
     const fraction = (start + n) / length;
@@ -233,7 +287,10 @@ function analyseFile(r: Run, channels: Float32Array[]): void {
 /** Feeds decoded samples to the run in blocks of FILE_BLOCK_SAMPLES (copied: the decoder reuses its buffer). */
 function feedSamples(r: Run, samples: Float32Array): void {
   for (let start = 0; start < samples.length; start += FILE_BLOCK_SAMPLES) {
-    pushBlock(r, samples.slice(start, Math.min(samples.length, start + FILE_BLOCK_SAMPLES)));
+    const t0 = performance.now();
+    const block = samples.slice(start, Math.min(samples.length, start + FILE_BLOCK_SAMPLES));
+    r.stageMs.input += performance.now() - t0;
+    pushBlock(r, block);
     maybePostUpdate(r, false);
   }
 }
@@ -255,7 +312,9 @@ async function analyseWavStream(message: Extract<ToWorker, { type: 'analyse-wav'
       if (done) break;
       if (run !== r && r !== null) return; // a newer run replaced this one
       bytesRead += value.byteLength;
+      const t0 = performance.now();
       const samples = decoder.push(value);
+      const decodeMs = performance.now() - t0;
       const format = decoder.format;
       if (!r && format) {
         r = createRun(id, { sampleRateHz: format.sampleRateHz, bandLowHz: message.bandLowHz, bandHighHz: message.bandHighHz, sampleBits: wavSampleBits(format) }, message.isKeepingAudio, null);
@@ -269,6 +328,7 @@ async function analyseWavStream(message: Extract<ToWorker, { type: 'analyse-wav'
           durationS: frames !== null ? frames / format.sampleRateHz : null,
         });
       }
+      if (r) r.stageMs.input += decodeMs;
       if (r && samples.length) feedSamples(r, samples);
       const fraction = file.size > 0 ? bytesRead / file.size : 1;
       if (fraction >= nextProgress) {

@@ -111,12 +111,12 @@ export interface SpectrogramColumn {
 }
 
 /**
- * Reduces a spectrum (dBFS per bin of `binHz`) to `out.length` rows log-spaced over [lowHz, highHz]:
- * each row holds the loudest bin between its edges (the nearest bin when a row is narrower than a
- * bin), so a tone between rows is never lost.
+ * The bins of each of `rows` rows log-spaced over [lowHz, highHz] for a spectrum of `binCount`
+ * bins of `binHz`: row r spans bins map[2r] … map[2r + 1] (the nearest bin when a row is narrower
+ * than a bin). Depends only on the layout, so a run computes it once.
  */
-export function reduceToLogRows(spectrumDbfs: Float32Array, binHz: number, lowHz: number, highHz: number, out: Float32Array): void {
-  const rows = out.length;
+export function logRowBins(binCount: number, binHz: number, lowHz: number, highHz: number, rows: number): Int32Array {
+  const map = new Int32Array(2 * rows);
   const lo = Math.max(lowHz, binHz);
   const ratio = highHz / lo;
   for (let r = 0; r < rows; r++) {
@@ -124,15 +124,33 @@ export function reduceToLogRows(spectrumDbfs: Float32Array, binHz: number, lowHz
     const f1 = lo * ratio ** ((r + 1) / rows);
     let k0 = Math.round(f0 / binHz);
     let k1 = Math.max(k0, Math.round(f1 / binHz) - 1);
-    k0 = Math.min(spectrumDbfs.length - 1, Math.max(0, k0));
-    k1 = Math.min(spectrumDbfs.length - 1, Math.max(k0, k1));
+    k0 = Math.min(binCount - 1, Math.max(0, k0));
+    k1 = Math.min(binCount - 1, Math.max(k0, k1));
+    map[2 * r] = k0;
+    map[2 * r + 1] = k1;
+  }
+  return map;
+}
+
+/** Each row of `out` gets the loudest bin of spectrumDbfs within its span of `map` (logRowBins); −200 dBFS when none. */
+export function reduceWithRowBins(spectrumDbfs: Float32Array, map: Int32Array, out: Float32Array): void {
+  for (let r = 0; r < out.length; r++) {
     let best = -Infinity;
-    for (let k = k0; k <= k1; k++) {
+    for (let k = map[2 * r]; k <= map[2 * r + 1]; k++) {
       const v = spectrumDbfs[k] ?? -Infinity;
       if (v > best) best = v;
     }
     out[r] = Number.isFinite(best) ? best : -200;
   }
+}
+
+/**
+ * Reduces a spectrum (dBFS per bin of `binHz`) to `out.length` rows log-spaced over [lowHz, highHz]:
+ * each row holds the loudest bin between its edges (the nearest bin when a row is narrower than a
+ * bin), so a tone between rows is never lost.
+ */
+export function reduceToLogRows(spectrumDbfs: Float32Array, binHz: number, lowHz: number, highHz: number, out: Float32Array): void {
+  reduceWithRowBins(spectrumDbfs, logRowBins(spectrumDbfs.length, binHz, lowHz, highHz, out.length), out);
 }
 
 /** Worker → app: what changed since the previous update. */
@@ -168,6 +186,34 @@ export interface ProgressMessage {
   fraction: number;
 }
 
+/**
+ * Where the worker spent its time during a run, ms of wall time inside each of its jobs (the
+ * figures of the browser bench, scripts/bench-browser.mjs).
+ */
+export interface WorkerStageMs {
+  /** Reading the input: WAV decoding, the mono mix and block copies of a file. */
+  input: number;
+  /** dsp/ push() and finish(). */
+  analysis: number;
+  /** Copying each update's rows, onsets, segments and spectrum out of dsp/'s reused objects. */
+  collect: number;
+  /** Spectrogram columns (reduceToLogRows). */
+  spectrogram: number;
+  /** Feeding the live margin's ring (dsp/live-margin.ts). */
+  marginFeed: number;
+  /** Margin estimates (estimateLiveMargin), and how many were made. */
+  marginEstimate: number;
+  marginEstimates: number;
+  /** The latest estimate's time, ms, and the span of audio it looked at, s (its cost grows with the span, up to LIVE_MARGIN_WINDOW_S). */
+  marginLatestMs: number;
+  marginLatestWindowS: number;
+  /** Keeping the audio for the session store and posting it. */
+  audio: number;
+  /** Building and posting update batches (the summary and the structured clone), and how many were posted. */
+  update: number;
+  updates: number;
+}
+
 /** Worker → app: the run finished; the report of the whole run. */
 export interface ReportMessage {
   type: 'report';
@@ -176,6 +222,8 @@ export interface ReportMessage {
   /** Time spent inside the analysis (push and finish), ms, and the samples it analysed. */
   analysisMs: number;
   samplesAnalysed: number;
+  /** Time the worker spent on each of its jobs during the run, ms. */
+  stageMs: WorkerStageMs;
 }
 
 /** Worker → app: the format of a WAV read in the worker, known once its header is read. */
