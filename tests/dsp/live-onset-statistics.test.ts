@@ -2,7 +2,7 @@
 // the variance inflation of overlapping Hann frames, the CUSUM threshold from the in-control
 // average run length (Lorden's bound ARL0 ≥ e^h), and the design SNR from the fastest growth.
 import { describe, expect, it } from 'vitest';
-import { designSnr, overlapInflation, riseErrorFactors, thresholdFor } from '../../dsp/live-onset';
+import { designSnr, overlapInflation, riseErrorFactors, thresholdFor } from '../../dsp/live-onset-statistics';
 import { createRng } from '../../dsp/synth';
 
 function hann(n: number): Float64Array {
