@@ -1,7 +1,8 @@
 /**
  * The margin to humming while listening: the linear growth rate ν from the noise
  * (dsp/mode-statistics.ts) over the latest stretch of steady operation, re-estimated every few
- * seconds so its interval narrows as data comes in. The input is kept in a ring after a boxcar
+ * seconds (LIVE_MARGIN_EVERY_S, or once a sixth of the stretch is new) so its interval narrows as
+ * data comes in. The input is kept in a ring after a boxcar
  * decimation to about 8 kHz (a mode above 4 kHz is outside the default band; the boxcar's nulls
  * sit on the frequencies that would fold onto the band's low end, and the broadband noise it lets
  * fold is a floor the estimator removes). pushLiveMargin allocates nothing; estimateLiveMargin
@@ -19,6 +20,14 @@ const TARGET_RATE_HZ = 8000;
 export const LIVE_MARGIN_WINDOW_S = 60;
 export const LIVE_MARGIN_EVERY_S = 2;
 export const LIVE_MARGIN_MIN_S = 10;
+/**
+ * An estimate is also due only once this share of the samples it reads is new. The estimate
+ * averages over its stretch (up to the window), so it answers a change of operation no faster
+ * than about that stretch: refreshing after a sixth of it is new adds at most a sixth to that lag,
+ * and keeps the cost per second of audio bounded (an estimate's cost grows with its stretch:
+ * every 2 s on a full 60 s window it cost about as much as the whole analysis of the audio).
+ */
+export const LIVE_MARGIN_NEW_SHARE = 1 / 6;
 /** Welch frame for the resonance search (~1 Hz bins at 8 kHz) and the least prominence over the local median, dB. */
 const SEARCH_FRAME = 8192;
 const RESONANCE_MIN_DB = 6;
@@ -110,7 +119,8 @@ export function restartLiveMargin(st: LiveMarginState, missingSamples = 0): void
 
 /** True when enough new data has come in for a fresh estimate. */
 export function isLiveMarginDue(st: LiveMarginState): boolean {
-  return st.count >= LIVE_MARGIN_MIN_S * st.rateHz && st.count - st.lastEstimateCount >= LIVE_MARGIN_EVERY_S * st.rateHz;
+  const held = Math.min(st.count, st.ring.length);
+  return st.count >= LIVE_MARGIN_MIN_S * st.rateHz && st.count - st.lastEstimateCount >= Math.max(LIVE_MARGIN_EVERY_S * st.rateHz, LIVE_MARGIN_NEW_SHARE * held);
 }
 
 /** The most prominent peak of the window's Welch spectrum (Hann, 50 % overlap) away from mains lines; NaN when none stands out. */

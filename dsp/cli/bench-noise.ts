@@ -10,9 +10,12 @@
  * - Heated tube (dsp/rig-sim.ts) with flow noise just below and just above its critical heater
  *   power: ν from the statistics against the characteristic equation's rate, and, on the same run,
  *   against the growth rate the analyser fits when the power is switched up.
+ * - The live margin's cost per second of audio while listening.
  */
+import { performance } from 'node:perf_hooks';
 import { fitNormalFormExact } from '../envelope-statistics';
 import { createAnalysis } from '../index';
+import { createLiveMargin, estimateLiveMargin, isLiveMarginDue, LIVE_MARGIN_WINDOW_S, pushLiveMargin } from '../live-margin';
 import { estimateModeStatistics } from '../mode-statistics';
 import { createRig, firstInstability, linearModes, renderScenario } from '../rig-sim';
 import { normalFormMode } from '../synth';
@@ -140,8 +143,35 @@ function heatedTubeRows(row: RowFn): void {
   );
 }
 
+/**
+ * What the app's live margin (dsp/live-margin.ts) costs while listening: 3 minutes of a stable
+ * mode at 48 kHz pushed in 2048-sample blocks, estimated whenever one is due; the estimates' time
+ * per second of audio (their part of the worker's budget) and the cost of one on a full window.
+ */
+function liveMarginCostRows(row: RowFn): void {
+  const fs = 48000;
+  const seconds = 180;
+  const x = normalFormMode({ sampleRateHz: fs, durationS: seconds, frequencyHz: MODE_HZ, growthRatePerS: -5, saturation: KAPPA, noiseIntensity: 0.02, measurementNoiseRms: MEASUREMENT_RMS, envelopeEvery: 64, seed: 5 }).samples;
+  const st = createLiveMargin({ sampleRateHz: fs });
+  let totalMs = 0;
+  let count = 0;
+  let lastMs = Number.NaN;
+  for (let i = 0; i < x.length; i += 2048) {
+    pushLiveMargin(st, x.subarray(i, Math.min(x.length, i + 2048)));
+    if (!isLiveMarginDue(st)) continue;
+    const t0 = performance.now();
+    estimateLiveMargin(st, Number.NaN);
+    lastMs = performance.now() - t0;
+    totalMs += lastMs;
+    count++;
+  }
+  row('live margin: estimates per second of 48 kHz audio (3 min of steady operation)', `${num(totalMs / seconds, 3)} ms per s (${count} estimates)`, '—', 'info');
+  row(`live margin: one estimate on a full ${LIVE_MARGIN_WINDOW_S} s window`, `${num(lastMs, 3)} ms`, '—', 'info');
+}
+
 /** Section `noise` of the bench. */
 export function noiseStatisticsBench(row: RowFn): void {
   normalFormRows(row);
   heatedTubeRows(row);
+  liveMarginCostRows(row);
 }

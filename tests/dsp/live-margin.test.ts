@@ -42,4 +42,16 @@ describe('live margin to humming (ν from the noise while listening)', () => {
     expect(st.startS).toBeCloseTo(12, 9);
     expect(() => createLiveMargin({ sampleRateHz: 100 })).toThrow(/sampleRateHz/);
   });
+
+  it('on a full 60 s window, estimates again once a sixth of it (10 s) is new, not every 2 s', () => {
+    const fs = 16000;
+    const st = createLiveMargin({ sampleRateHz: fs });
+    pushLiveMargin(st, new Float32Array(fs * 60));
+    expect(isLiveMarginDue(st)).toBe(true);
+    estimateLiveMargin(st, Number.NaN);
+    pushLiveMargin(st, new Float32Array(fs * 9));
+    expect(isLiveMarginDue(st)).toBe(false);
+    pushLiveMargin(st, new Float32Array(fs * 1));
+    expect(isLiveMarginDue(st)).toBe(true);
+  });
 });
