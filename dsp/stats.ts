@@ -2,7 +2,7 @@
  * Small statistics and linear-algebra helpers shared by the fits (fit.ts, fit-saturation.ts), the
  * noise-statistics estimators, the Cramér–Rao bounds and the app's stability map: normal and
  * chi-square quantiles, the log-gamma function, the regularised incomplete beta function, Student's
- * t distribution and the inverse of a small matrix.
+ * t distribution, the inverse of a small matrix and the k-th smallest of a set of values.
  */
 
 /** Standard normal 0.975 quantile (Abramowitz & Stegun 1964, Table 26.5). */
@@ -134,4 +134,33 @@ export function invertSmallMatrix(m: Float64Array, k: number): Float64Array | nu
     }
   }
   return inv;
+}
+
+/**
+ * The k-th smallest (0-based) of the first n values of `a`, which it reorders: Hoare's selection
+ * (FIND) in Wirth's form (Wirth 1976, Algorithms + Data Structures = Programs, §2.3.4), linear
+ * time on average. The same value a full sort would put at index k.
+ */
+export function selectKth(a: Float64Array, n: number, k: number): number {
+  let lo = 0;
+  let hi = n - 1;
+  while (lo < hi) {
+    const pivot = a[k];
+    let i = lo;
+    let j = hi;
+    do {
+      while (a[i] < pivot) i++;
+      while (pivot < a[j]) j--;
+      if (i <= j) {
+        const tmp = a[i];
+        a[i] = a[j];
+        a[j] = tmp;
+        i++;
+        j--;
+      }
+    } while (i <= j);
+    if (j < k) lo = i;
+    if (k < i) hi = j;
+  }
+  return a[k];
 }

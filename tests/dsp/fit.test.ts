@@ -2,7 +2,7 @@ import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import { backgroundCrossingTimeS, effectiveSampleCount, fitExponential, fitLogLine } from '../../dsp/fit';
 import { EARLY_LIMIT_FRACTION, fitGrowthIntoLimit, fitSaturation, landauAmplitude, landauHalfLimitTimeS } from '../../dsp/fit-saturation';
-import { CHI2_1DOF_99, incompleteBeta, logGamma, studentTQuantile, Z_975 } from '../../dsp/stats';
+import { CHI2_1DOF_99, incompleteBeta, logGamma, selectKth, studentTQuantile, Z_975 } from '../../dsp/stats';
 import { createRng, exponentialEnvelope, humCycleEnvelope, synthesize } from '../../dsp/synth';
 import type { EnvelopeSeries, RateFit } from '../../dsp/types';
 import { expectedList, expectedScalar, ref } from '../reference/values';
@@ -32,6 +32,21 @@ describe('statistics helpers against scipy 1.17.1 (tests/reference/compute_value
     const xs = ref('scipy_gammaln').inputs.x as number[];
     const lg = expectedList('scipy_gammaln');
     xs.forEach((x, i) => expect(Math.abs(logGamma(x) - lg[i])).toBeLessThan(1e-12));
+  });
+});
+
+describe('selectKth (Hoare selection, Wirth 1976 §2.3.4)', () => {
+  it('gives the value a full sort puts at index k: random, repeated, sorted and reversed values', () => {
+    // Oracle: the JavaScript engine's own numeric sort.
+    const rng = createRng(11);
+    for (let trial = 0; trial < 100; trial++) {
+      const n = 1 + Math.floor(rng.uniform() * 300);
+      const kind = trial % 4;
+      const values = Float64Array.from({ length: n }, (_, i) => (kind === 0 ? rng.uniform() : kind === 1 ? Math.floor(rng.uniform() * 5) : kind === 2 ? i : n - i));
+      const sorted = Float64Array.from(values).sort();
+      const k = Math.floor(rng.uniform() * n);
+      expect(selectKth(Float64Array.from(values), n, k)).toBe(sorted[k]);
+    }
   });
 });
 
