@@ -617,6 +617,12 @@ export function fitIrls(
   let state = start ?? gridSearchThinned(d, w, gridModel, grid, fixedBg);
   if (state === null) return null;
   if (fixedBg !== null) state.params[model.nNonlinear + 1] = fixedBg;
+  if (start === null && gridModel !== model) {
+    // The grid's cheaper model (the curve without the kernel) takes the first polish and the first
+    // reweighting, which start far from the optimum; the model itself then starts close to it.
+    polish(d, w, gridModel, state);
+    updateWeights(d, gridModel, state, w, bgFloor);
+  }
   polish(d, w, model, state);
   for (let pass = 0; pass < 8; pass++) {
     const before = Float64Array.from(state.params);
