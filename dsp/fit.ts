@@ -53,7 +53,7 @@
  * reads as a softer knee (p < 2), so at high SNR the model choice below may switch for that
  * reason; the remedy is an envelope bandwidth of at least the growth rate in hertz.
  */
-import { invertSmallMatrix, studentTQuantile } from './stats';
+import { invertSmallMatrix, solveSmallSystem, studentTQuantile } from './stats';
 import type { EnvelopeSeries, Interval, RateFit, SaturationFit } from './types';
 
 /**
@@ -387,18 +387,14 @@ function normalEquations(
 /**
  * One damped Gauss–Newton step on the leading `m` of `size` parameters: solves
  * (A + λ·diag A)·δ = g on that block and adds δ to params. False when the block is singular.
+ * `a` and `b` are scratch of at least m² and m values.
  */
-function levenbergStep(jtj: Float64Array, jtr: Float64Array, size: number, m: number, lambda: number, params: Float64Array): boolean {
-  const a = new Float64Array(m * m);
+function levenbergStep(jtj: Float64Array, jtr: Float64Array, size: number, m: number, lambda: number, params: Float64Array, a: Float64Array, b: Float64Array): boolean {
   for (let r = 0; r < m; r++) for (let c = 0; c < m; c++) a[r * m + c] = jtj[r * size + c];
   for (let j = 0; j < m; j++) a[j * m + j] *= 1 + lambda;
-  const inv = invertSmallMatrix(a, m);
-  if (inv === null) return false;
-  for (let r = 0; r < m; r++) {
-    let step = 0;
-    for (let c = 0; c < m; c++) step += inv[r * m + c] * jtr[c];
-    params[r] += step;
-  }
+  for (let r = 0; r < m; r++) b[r] = jtr[r];
+  if (!solveSmallSystem(a, b, m)) return false;
+  for (let r = 0; r < m; r++) params[r] += b[r];
   return true;
 }
 
@@ -418,6 +414,8 @@ export function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: F
   let trialJtj = new Float64Array(nFree * nFree);
   let trialJtr = new Float64Array(nFree);
   const trial = new Float64Array(state.params.length);
+  const stepA = new Float64Array(nFree * nFree);
+  const stepB = new Float64Array(nFree);
   let lambda = 1e-3;
   let rss = normalEquations(d, w, model, state.params, nFree, jtj, jtr);
   const startRss = rss;
@@ -425,7 +423,7 @@ export function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: F
     let isImproved = false;
     for (let attempt = 0; attempt < 12; attempt++) {
       trial.set(state.params);
-      if (!levenbergStep(jtj, jtr, nFree, nFree, lambda, trial)) {
+      if (!levenbergStep(jtj, jtr, nFree, nFree, lambda, trial, stepA, stepB)) {
         lambda *= 10;
         continue;
       }
@@ -433,7 +431,7 @@ export function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: F
         // Active set: the background would go negative, so hold it at 0 and step in the others.
         trial.set(state.params);
         trial[k + 1] = 0;
-        if (!levenbergStep(jtj, jtr, nFree, nFree - 1, lambda, trial)) {
+        if (!levenbergStep(jtj, jtr, nFree, nFree - 1, lambda, trial, stepA, stepB)) {
           lambda *= 10;
           continue;
         }
