@@ -1,30 +1,25 @@
 /**
  * Growth into a limit cycle (docs/DESIGN.md "Segment fitting"): the Stuart–Landau and generalised
  * saturation models of the envelope power, seen through the envelope's own kernel when one is
- * given, fitted by the weighted least-squares machinery of fit.ts (whose header derives the
- * weights, the effective sample count and the interval), and the choice between the saturation
- * fit and the early exponential for a rise into a limit.
+ * given, fitted by the weighted least-squares machinery of fit-irls.ts (the header of fit.ts
+ * derives the weights, the effective sample count and the interval), and the choice between the
+ * saturation fit and the early exponential for a rise into a limit.
  */
+import { fitExponential, invalidRateFit } from './fit';
 import {
   blockMeans,
   covarianceAt,
-  fitExponential,
   fitIrls,
-  invalidRateFit,
-  memoised,
   polish,
   prepare,
   rssOf,
-  shapeBuffers,
   START_MAX_SAMPLES,
-  RESTART_STEPS,
-  uniformPrefix,
   type FitState,
   type GridSpec,
   type IrlsResult,
   type Prepared,
-  type ShapeModel,
-} from './fit';
+} from './fit-irls';
+import { memoised, RESTART_STEPS, shapeBuffers, uniformPrefix, type ShapeModel } from './fit-shape';
 import { CHI2_1DOF_99, studentTQuantile } from './stats';
 import type { EnvelopeSeries, RateFit, SaturationFit } from './types';
 

@@ -3,6 +3,7 @@
  * decay that the band's own noise explains is quiet, not a hum.
  */
 import { logSecondDifferenceMs, NOISE_D2, NOISE_TEST_LAG_S, ON_DB, STATE_DECAY, STATE_GROWTH, STATE_QUIET, type RegimeSegment } from './regime';
+import { kthSmallest } from './stats';
 import { topPowerIn, type ToneRuntime } from './tone-store';
 
 /** Window either side of a growth or decay in which its noise level is judged, s, and how far above the spectral background that level may lie, dB. */
@@ -13,14 +14,13 @@ const NOISE_SPAN_DB = 20;
 const NOISE_QUANTILE = 0.2;
 
 /**
- * Mean of the noise power behind samples of envelope power, robust to a tone that holds up to
- * 1 − NOISE_QUANTILE of them: the NOISE_QUANTILE-quantile divided by −ln(1 − NOISE_QUANTILE), the
- * power of narrow-band Gaussian noise being exponentially distributed (common practice). Sorts
- * `values` in place.
+ * Mean of the noise power behind the first n samples of envelope power in `values`, robust to a
+ * tone that holds up to 1 − NOISE_QUANTILE of them: the NOISE_QUANTILE-quantile (the value at
+ * index ⌊NOISE_QUANTILE·n⌋ in sorted order) divided by −ln(1 − NOISE_QUANTILE), the power of
+ * narrow-band Gaussian noise being exponentially distributed (common practice). Reorders `values`.
  */
-function noiseMeanOfSamples(values: number[]): number {
-  values.sort((a, b) => a - b);
-  return values[Math.floor(NOISE_QUANTILE * values.length)] / -Math.log(1 - NOISE_QUANTILE);
+function noiseMeanOfSamples(values: Float64Array, n: number): number {
+  return kthSmallest(values, n, Math.floor(NOISE_QUANTILE * n)) / -Math.log(1 - NOISE_QUANTILE);
 }
 
 /**
@@ -37,19 +37,20 @@ export function isNoiseSegment(tr: ToneRuntime, s: RegimeSegment, limit: number)
   const pad = Math.round(NOISE_PAD_S * tr.env.outputRateHz);
   const i0 = Math.max(tr.validFrom, s.startIdx - pad);
   const i1 = Math.min(tr.n, limit, s.endIdx + pad);
-  const vals: number[] = [];
+  const vals = new Float64Array(Math.max(0, i1 - i0));
+  let count = 0;
   let bgSum = 0;
   let bgCount = 0;
   for (let k = i0; k < i1; k++) {
     if (tr.clipped[k]) continue;
-    vals.push(tr.power[k]);
+    vals[count++] = tr.power[k];
     if (tr.bg[k] > 0) {
       bgSum += tr.bg[k];
       bgCount++;
     }
   }
-  if (vals.length < 8 || bgCount === 0) return false;
-  const noiseMean = noiseMeanOfSamples(vals);
+  if (count < 8 || bgCount === 0) return false;
+  const noiseMean = noiseMeanOfSamples(vals, count);
   if (!(noiseMean < 10 ** (NOISE_SPAN_DB / 10) * (bgSum / bgCount))) {
     // Far above the spectral background: noise only if the envelope jumps about as noise does
     // (a noise-driven resonance), not if it is smooth (a dip in a loud tone).

@@ -2,7 +2,8 @@
  * Small statistics and linear-algebra helpers shared by the fits (fit.ts, fit-saturation.ts), the
  * noise-statistics estimators, the Cramér–Rao bounds and the app's stability map: normal and
  * chi-square quantiles, the log-gamma function, the regularised incomplete beta function, Student's
- * t distribution, the inverse of a small matrix and order statistics (kthSmallest).
+ * t distribution, the inverse of a small matrix, the solution of a small linear system and
+ * order statistics (kthSmallest).
  */
 
 /** Standard normal 0.975 quantile (Abramowitz & Stegun 1964, Table 26.5). */
@@ -160,4 +161,40 @@ export function kthSmallest(a: Float64Array, n: number, k: number): number {
     else return a[k];
   }
   return a[k];
+}
+
+/**
+ * Solves the small system A·x = b (row-major A of size k) in place by Gaussian elimination with
+ * partial pivoting (Press et al. 2007, Numerical Recipes, §2.1–2.3): `a` and `b` are overwritten
+ * and x is left in `b`. False when A is singular (a zero or non-finite pivot, as invertSmallMatrix).
+ */
+export function solveSmallSystem(a: Float64Array, b: Float64Array, k: number): boolean {
+  for (let col = 0; col < k; col++) {
+    let piv = col;
+    for (let r = col + 1; r < k; r++) if (Math.abs(a[r * k + col]) > Math.abs(a[piv * k + col])) piv = r;
+    const pv = a[piv * k + col];
+    if (!(Math.abs(pv) > 0) || !Number.isFinite(pv)) return false;
+    if (piv !== col) {
+      for (let j = col; j < k; j++) {
+        const tmp = a[col * k + j];
+        a[col * k + j] = a[piv * k + j];
+        a[piv * k + j] = tmp;
+      }
+      const tmp = b[col];
+      b[col] = b[piv];
+      b[piv] = tmp;
+    }
+    for (let r = col + 1; r < k; r++) {
+      const f = a[r * k + col] / pv;
+      if (f === 0) continue;
+      for (let j = col; j < k; j++) a[r * k + j] -= f * a[col * k + j];
+      b[r] -= f * b[col];
+    }
+  }
+  for (let r = k - 1; r >= 0; r--) {
+    let sum = b[r];
+    for (let j = r + 1; j < k; j++) sum -= a[r * k + j] * b[j];
+    b[r] = sum / a[r * k + r];
+  }
+  return true;
 }

@@ -2,7 +2,7 @@ import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import { backgroundCrossingTimeS, effectiveSampleCount, fitExponential, fitLogLine } from '../../dsp/fit';
 import { EARLY_LIMIT_FRACTION, fitGrowthIntoLimit, fitSaturation, landauAmplitude, landauHalfLimitTimeS } from '../../dsp/fit-saturation';
-import { CHI2_1DOF_99, incompleteBeta, logGamma, studentTQuantile, Z_975 } from '../../dsp/stats';
+import { CHI2_1DOF_99, incompleteBeta, logGamma, kthSmallest, solveSmallSystem, studentTQuantile, Z_975 } from '../../dsp/stats';
 import { createRng, exponentialEnvelope, humCycleEnvelope, synthesize } from '../../dsp/synth';
 import type { EnvelopeSeries, RateFit } from '../../dsp/types';
 import { expectedList, expectedScalar, ref } from '../reference/values';
@@ -32,6 +32,43 @@ describe('statistics helpers against scipy 1.17.1 (tests/reference/compute_value
     const xs = ref('scipy_gammaln').inputs.x as number[];
     const lg = expectedList('scipy_gammaln');
     xs.forEach((x, i) => expect(Math.abs(logGamma(x) - lg[i])).toBeLessThan(1e-12));
+  });
+});
+
+describe('solveSmallSystem (Gaussian elimination, Numerical Recipes §2.1–2.3)', () => {
+  it('solves A·x = b for normal-equation matrices of size 1–5 (the residual A·x − b vanishes), refuses a singular one', () => {
+    // Check by substitution into the system itself (common practice).
+    const rng = createRng(12);
+    for (let trial = 0; trial < 100; trial++) {
+      const k = 1 + (trial % 5);
+      const j = Float64Array.from({ length: 2 * k * k }, () => rng.normal());
+      const a = new Float64Array(k * k);
+      for (let r = 0; r < k; r++) for (let c = 0; c < k; c++) for (let i = 0; i < 2 * k; i++) a[r * k + c] += j[i * k + r] * j[i * k + c];
+      const b = Float64Array.from({ length: k }, () => rng.normal());
+      const x = Float64Array.from(b);
+      expect(solveSmallSystem(Float64Array.from(a), x, k)).toBe(true);
+      for (let r = 0; r < k; r++) {
+        let ax = 0;
+        for (let c = 0; c < k; c++) ax += a[r * k + c] * x[c];
+        expect(Math.abs(ax - b[r])).toBeLessThan(1e-9 * (1 + Math.abs(b[r])));
+      }
+    }
+    expect(solveSmallSystem(Float64Array.of(1, 2, 2, 4), Float64Array.of(1, 1), 2)).toBe(false);
+  });
+});
+
+describe('kthSmallest (Hoare selection, Hoare 1961 "Algorithm 65: Find")', () => {
+  it('gives the value a full sort puts at index k: random, repeated, sorted and reversed values', () => {
+    // Oracle: the JavaScript engine's own numeric sort.
+    const rng = createRng(11);
+    for (let trial = 0; trial < 100; trial++) {
+      const n = 1 + Math.floor(rng.uniform() * 300);
+      const kind = trial % 4;
+      const values = Float64Array.from({ length: n }, (_, i) => (kind === 0 ? rng.uniform() : kind === 1 ? Math.floor(rng.uniform() * 5) : kind === 2 ? i : n - i));
+      const sorted = Float64Array.from(values).sort();
+      const k = Math.floor(rng.uniform() * n);
+      expect(kthSmallest(Float64Array.from(values), n, k)).toBe(sorted[k]);
+    }
   });
 });
 

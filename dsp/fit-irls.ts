@@ -1,0 +1,529 @@
+/**
+ * The weighted least-squares machinery of the envelope fits (dsp/fit.ts, dsp/fit-saturation.ts):
+ * shape models of the mean envelope power, the quasi-likelihood fit by iteratively reweighted
+ * least squares (a grid over the nonlinear parameters with the linear ones in closed form, then
+ * Levenberg–Marquardt polish), and the covariance corrected for correlated samples (N_eff). The
+ * derivation (model, variance function, weights, N_eff, the interval) is in the header of
+ * dsp/fit.ts.
+ */
+import { invertSmallMatrix, solveSmallSystem } from './stats';
+import type { ShapeModel } from './fit-shape';
+import type { EnvelopeSeries } from './types';
+
+/**
+ * Effective number of independent envelope samples: N_eff = min(n, 2·B·D), B the one-sided
+ * noise-equivalent bandwidth of the envelope low-pass (Hz), D = n·Δt the span the n samples
+ * cover (s). Derivation in the header of dsp/fit.ts.
+ */
+export function effectiveSampleCount(n: number, sampleSpacingS: number, bandwidthHz: number): number {
+  return Math.min(n, 2 * bandwidthHz * n * sampleSpacingS);
+}
+
+export interface FitState {
+  /** Full parameter vector: [ln L, nonlinear..., N²]. */
+  params: Float64Array;
+  isBackgroundFixed: boolean;
+  rss: number;
+}
+
+export interface Prepared {
+  t: Float64Array;
+  y: Float64Array;
+  n: number;
+  spacingS: number;
+  nEff: number;
+  /** One-sided noise-equivalent bandwidth of the envelope low-pass, Hz. */
+  bandwidthHz: number;
+}
+
+export function prepare(series: EnvelopeSeries): Prepared | string {
+  const n = series.timeS.length;
+  if (series.power.length !== n) return 'timeS and power differ in length';
+  if (n < 6) return 'too few envelope samples (need at least 6)';
+  if (!(series.bandwidthHz > 0) || !Number.isFinite(series.bandwidthHz)) return 'bandwidthHz must be a positive number';
+  for (let i = 0; i < n; i++) {
+    if (!Number.isFinite(series.timeS[i]) || !Number.isFinite(series.power[i])) return 'non-finite envelope sample';
+    if (series.power[i] < 0) return 'negative envelope power';
+    if (i > 0 && !(series.timeS[i] > series.timeS[i - 1])) return 'times must increase';
+  }
+  const spacingS = (series.timeS[n - 1] - series.timeS[0]) / (n - 1);
+  return { t: series.timeS, y: series.power, n, spacingS, nEff: effectiveSampleCount(n, spacingS, series.bandwidthHz), bandwidthHz: series.bandwidthHz };
+}
+
+/** Variance function of the envelope power: V(m) = N²(2m − N²), floored for a noise-free record. */
+function varianceOf(m: number, bg: number, bgFloor: number): number {
+  const b = Math.max(bg, bgFloor);
+  return Math.max(b * (2 * m - b), b * b);
+}
+
+/**
+ * For fixed nonlinear parameters: weighted linear fit of y ≈ L·g + N² with L > 0, N² ≥ 0 (or N²
+ * fixed). Writes ln L and N² into `out`; returns the weighted RSS (Infinity if L ≤ 0), expanded
+ * from the same sums (Σwy² − 2LΣwgy − 2N²Σwy + L²Σwg² + 2LN²Σwg + N⁴Σw, one pass over the data;
+ * `swyy` = Σwy² is the caller's). The expansion loses the digits the RSS has below Σwy²·1e-16,
+ * which does not matter to the grid it ranks (the polish that follows works on the residuals).
+ */
+function solveLinear(
+  d: Prepared,
+  w: Float64Array,
+  g: Float64Array,
+  fixedBg: number | null,
+  swyy: number,
+  out: { lnL: number; bg: number },
+): number {
+  let sw = 0;
+  let sg = 0;
+  let sy = 0;
+  let sgg = 0;
+  let sgy = 0;
+  const y = d.y;
+  for (let i = 0; i < d.n; i++) {
+    const wi = w[i];
+    const wg = wi * g[i];
+    sw += wi;
+    sg += wg;
+    sy += wi * y[i];
+    sgg += wg * g[i];
+    sgy += wg * y[i];
+  }
+  let amp: number;
+  let bg: number;
+  if (fixedBg !== null) {
+    bg = fixedBg;
+    amp = (sgy - bg * sg) / sgg;
+  } else {
+    const det = sw * sgg - sg * sg;
+    amp = det > 0 ? (sw * sgy - sg * sy) / det : Number.NaN;
+    bg = det > 0 ? (sgg * sy - sg * sgy) / det : Number.NaN;
+    if (!(bg >= 0)) {
+      bg = 0;
+      amp = sgy / sgg;
+    }
+  }
+  if (!(amp > 0) || !Number.isFinite(amp)) return Number.POSITIVE_INFINITY;
+  const rss = swyy - 2 * amp * sgy - 2 * bg * sy + amp * amp * sgg + 2 * amp * bg * sg + bg * bg * sw;
+  out.lnL = Math.log(amp);
+  out.bg = bg;
+  return Math.max(0, rss);
+}
+
+/** Weighted RSS of a full parameter vector. */
+export function rssOf(d: Prepared, w: Float64Array, model: ShapeModel, params: Float64Array): number {
+  const k = model.nNonlinear;
+  const amp = Math.exp(params[0]);
+  const bg = params[k + 1];
+  const g = model.evaluate(d.t, d.n, params.subarray(1, k + 1), false).g;
+  let rss = 0;
+  for (let i = 0; i < d.n; i++) {
+    const r = d.y[i] - amp * g[i] - bg;
+    rss += w[i] * r * r;
+  }
+  return Number.isFinite(rss) ? rss : Number.POSITIVE_INFINITY;
+}
+
+/**
+ * Jacobian products JᵀWJ and JᵀWr for the full parameter vector (free parameters only); returns
+ * the weighted RSS at the same parameters (Infinity when not finite), from the same residuals.
+ * The Jacobian's columns are amp·g (for ln L), amp·∂g/∂θ_j (at most three: the models here have
+ * one to three nonlinear parameters) and 1 for a free background; their weighted products are
+ * summed in scalars (a column a model lacks is 0) and unpacked into the free block.
+ */
+function normalEquations(
+  d: Prepared,
+  w: Float64Array,
+  model: ShapeModel,
+  params: Float64Array,
+  nFree: number,
+  jtj: Float64Array,
+  jtr: Float64Array,
+): number {
+  const k = model.nNonlinear;
+  const amp = Math.exp(params[0]);
+  const bg = params[k + 1];
+  const v = model.evaluate(d.t, d.n, params.subarray(1, k + 1), true);
+  const grad = v.grad;
+  const y = d.y;
+  const bgColumn = nFree === k + 2 ? 1 : 0;
+  let s00 = 0, s10 = 0, s11 = 0, s20 = 0, s21 = 0, s22 = 0, s30 = 0, s31 = 0, s32 = 0, s33 = 0;
+  let s40 = 0, s41 = 0, s42 = 0, s43 = 0, s44 = 0, r0 = 0, r1 = 0, r2 = 0, r3 = 0, r4 = 0;
+  let rss = 0;
+  for (let i = 0; i < d.n; i++) {
+    const wi = w[i];
+    const x0 = amp * v.g[i];
+    const x1 = amp * grad[i * k];
+    const x2 = k > 1 ? amp * grad[i * k + 1] : 0;
+    const x3 = k > 2 ? amp * grad[i * k + 2] : 0;
+    const x4 = bgColumn;
+    const r = y[i] - x0 - bg;
+    rss += wi * r * r;
+    const w0 = wi * x0;
+    const w1 = wi * x1;
+    const w2 = wi * x2;
+    const w3 = wi * x3;
+    const w4 = wi * x4;
+    r0 += w0 * r;
+    r1 += w1 * r;
+    r2 += w2 * r;
+    r3 += w3 * r;
+    r4 += w4 * r;
+    s00 += w0 * x0;
+    s10 += w1 * x0;
+    s11 += w1 * x1;
+    s20 += w2 * x0;
+    s21 += w2 * x1;
+    s22 += w2 * x2;
+    s30 += w3 * x0;
+    s31 += w3 * x1;
+    s32 += w3 * x2;
+    s33 += w3 * x3;
+    s40 += w4 * x0;
+    s41 += w4 * x1;
+    s42 += w4 * x2;
+    s43 += w4 * x3;
+    s44 += w4 * x4;
+  }
+  // Lower triangle of the 5 × 5 products, row by row; free parameter a is column a (the background, when free, column 4).
+  const lower = [s00, s10, s11, s20, s21, s22, s30, s31, s32, s33, s40, s41, s42, s43, s44];
+  const right = [r0, r1, r2, r3, r4];
+  const columnOf = (a: number): number => (a <= k ? a : 4);
+  for (let a = 0; a < nFree; a++) {
+    const ca = columnOf(a);
+    jtr[a] = right[ca];
+    for (let b = 0; b <= a; b++) {
+      const cb = columnOf(b);
+      const value = lower[(ca * (ca + 1)) / 2 + cb];
+      jtj[a * nFree + b] = value;
+      jtj[b * nFree + a] = value;
+    }
+  }
+  return Number.isFinite(rss) ? rss : Number.POSITIVE_INFINITY;
+}
+
+/**
+ * One damped Gauss–Newton step on the leading `m` of `size` parameters: solves
+ * (A + λ·diag A)·δ = g on that block and adds δ to params. False when the block is singular.
+ * `a` and `b` are scratch of at least m² and m values.
+ */
+function levenbergStep(jtj: Float64Array, jtr: Float64Array, size: number, m: number, lambda: number, params: Float64Array, a: Float64Array, b: Float64Array): boolean {
+  for (let r = 0; r < m; r++) for (let c = 0; c < m; c++) a[r * m + c] = jtj[r * size + c];
+  for (let j = 0; j < m; j++) a[j * m + j] *= 1 + lambda;
+  for (let r = 0; r < m; r++) b[r] = jtr[r];
+  if (!solveSmallSystem(a, b, m)) return false;
+  for (let r = 0; r < m; r++) params[r] += b[r];
+  return true;
+}
+
+/** A polish stops once a step lowers the RSS by no more than this fraction. */
+const POLISH_TOLERANCE = 1e-9;
+
+/**
+ * Levenberg–Marquardt polish of all parameters (Marquardt 1963), N² kept ≥ 0. Each trial point is
+ * evaluated with its normal equations, so an accepted step needs no second pass over the data.
+ * Returns the fraction by which it lowered the RSS.
+ */
+export function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState, maxIter = 100): number {
+  const k = model.nNonlinear;
+  const nFree = state.isBackgroundFixed ? k + 1 : k + 2;
+  let jtj = new Float64Array(nFree * nFree);
+  let jtr = new Float64Array(nFree);
+  let trialJtj = new Float64Array(nFree * nFree);
+  let trialJtr = new Float64Array(nFree);
+  const trial = new Float64Array(state.params.length);
+  const stepA = new Float64Array(nFree * nFree);
+  const stepB = new Float64Array(nFree);
+  let lambda = 1e-3;
+  let rss = normalEquations(d, w, model, state.params, nFree, jtj, jtr);
+  const startRss = rss;
+  for (let iter = 0; iter < maxIter; iter++) {
+    let isImproved = false;
+    for (let attempt = 0; attempt < 12; attempt++) {
+      trial.set(state.params);
+      if (!levenbergStep(jtj, jtr, nFree, nFree, lambda, trial, stepA, stepB)) {
+        lambda *= 10;
+        continue;
+      }
+      if (!state.isBackgroundFixed && trial[k + 1] < 0) {
+        // Active set: the background would go negative, so hold it at 0 and step in the others.
+        trial.set(state.params);
+        trial[k + 1] = 0;
+        if (!levenbergStep(jtj, jtr, nFree, nFree - 1, lambda, trial, stepA, stepB)) {
+          lambda *= 10;
+          continue;
+        }
+      }
+      const rssTrial = normalEquations(d, w, model, trial, nFree, trialJtj, trialJtr);
+      if (rssTrial < rss) {
+        const drop = (rss - rssTrial) / rss;
+        state.params.set(trial);
+        rss = rssTrial;
+        [jtj, trialJtj] = [trialJtj, jtj];
+        [jtr, trialJtr] = [trialJtr, jtr];
+        lambda = Math.max(lambda / 3, 1e-12);
+        isImproved = drop > POLISH_TOLERANCE;
+        break;
+      }
+      lambda *= 4;
+    }
+    if (!isImproved) break;
+  }
+  state.rss = rss;
+  return startRss > 0 && Number.isFinite(startRss) ? (startRss - rss) / startRss : 0;
+}
+
+export interface GridSpec {
+  /** Candidate values of each nonlinear parameter. */
+  values: Float64Array[];
+}
+
+/**
+ * The grid search looks first at every GRID_COARSE-th value of each parameter, then at every
+ * value within GRID_COARSE − 1 steps of the best of those: the RSS over a grid whose steps are
+ * small against the width of its basin (the grids below) varies smoothly, so its least value lies
+ * next to the best coarse point, and only a dip narrower than GRID_COARSE steps can be missed.
+ */
+const GRID_COARSE = 3;
+
+/** Grid over the nonlinear parameters (coarse, then refined: GRID_COARSE) with the linear ones in closed form. */
+function gridSearch(
+  d: Prepared,
+  w: Float64Array,
+  model: ShapeModel,
+  grid: GridSpec,
+  fixedBg: number | null,
+): FitState | null {
+  const k = model.nNonlinear;
+  const theta = new Float64Array(k);
+  const lin = { lnL: 0, bg: 0 };
+  let best: FitState | null = null;
+  const counts = grid.values.map((v) => v.length);
+  const bestAt = new Int32Array(k);
+  let swyy = 0;
+  for (let i = 0; i < d.n; i++) swyy += w[i] * d.y[i] * d.y[i];
+  // Every point of the box lo..hi (inclusive) taking every step-th value of each parameter.
+  const searchBox = (lo: Int32Array, hi: Int32Array, step: number): void => {
+    const at = Int32Array.from(lo);
+    for (;;) {
+      for (let j = 0; j < k; j++) theta[j] = grid.values[j][at[j]];
+      const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, swyy, lin);
+      if (rss < (best?.rss ?? Number.POSITIVE_INFINITY)) {
+        const params = new Float64Array(k + 2);
+        params[0] = lin.lnL;
+        params.set(theta, 1);
+        params[k + 1] = lin.bg;
+        best = { params, isBackgroundFixed: fixedBg !== null, rss };
+        bestAt.set(at);
+      }
+      let j = 0;
+      while (j < k && at[j] + step > hi[j]) at[j] = lo[j++];
+      if (j === k) return;
+      at[j] += step;
+    }
+  };
+  if (counts.some((c) => c === 0)) return null;
+  searchBox(new Int32Array(k), Int32Array.from(counts, (c) => c - 1), GRID_COARSE);
+  if (best === null) return null;
+  const lo = Int32Array.from(bestAt, (b) => Math.max(0, b - GRID_COARSE + 1));
+  const hi = Int32Array.from(bestAt, (b, j) => Math.min(counts[j] - 1, b + GRID_COARSE - 1));
+  searchBox(lo, hi, 1);
+  return best;
+}
+
+/** Most samples the grid search looks at; longer series are block-averaged for it. */
+const GRID_MAX_SAMPLES = 48;
+
+/**
+ * The grid search on a block-averaged copy of the series (at most GRID_MAX_SAMPLES blocks: mean
+ * time, mean power, summed weight). The grid only has to land in the right basin, which the
+ * averaged curve shows as well; the Levenberg–Marquardt polish that follows uses every sample.
+ * Cost falls from (grid points × n) to (grid points × GRID_MAX_SAMPLES) shape evaluations.
+ */
+function gridSearchThinned(d: Prepared, w: Float64Array, model: ShapeModel, grid: GridSpec, fixedBg: number | null): FitState | null {
+  if (d.n <= GRID_MAX_SAMPLES) return gridSearch(d, w, model, grid, fixedBg);
+  const thin = blockMeans(d, w, GRID_MAX_SAMPLES);
+  const state = gridSearch(thin.d, thin.w, model, grid, fixedBg);
+  if (state !== null) state.rss = rssOf(d, w, model, state.params);
+  return state;
+}
+
+/**
+ * Most samples the starts of the flexible saturation fit look at (block means, the curve without
+ * the kernel); the one start polished fully uses every sample through the kernel.
+ */
+export const START_MAX_SAMPLES = 80;
+
+/** A block-averaged copy of a series (at most maxSamples blocks: mean time, mean power, summed weight). */
+export function blockMeans(d: Prepared, w: Float64Array, maxSamples: number): { d: Prepared; w: Float64Array } {
+  const block = Math.ceil(d.n / maxSamples);
+  const m = Math.ceil(d.n / block);
+  const t = new Float64Array(m);
+  const y = new Float64Array(m);
+  const wm = new Float64Array(m);
+  for (let j = 0; j < m; j++) {
+    const i0 = j * block;
+    const i1 = Math.min(d.n, i0 + block);
+    let st = 0;
+    let sy = 0;
+    let sw = 0;
+    for (let i = i0; i < i1; i++) {
+      st += d.t[i];
+      sy += d.y[i];
+      sw += w[i];
+    }
+    t[j] = st / (i1 - i0);
+    y[j] = sy / (i1 - i0);
+    wm[j] = sw;
+  }
+  return { d: { t, y, n: m, spacingS: d.spacingS * block, nEff: d.nEff, bandwidthHz: d.bandwidthHz }, w: wm };
+}
+
+/** Updates the IRLS weights 1/V(m̂) from the current parameters. */
+function updateWeights(d: Prepared, model: ShapeModel, state: FitState, w: Float64Array, bgFloor: number): void {
+  const k = model.nNonlinear;
+  const amp = Math.exp(state.params[0]);
+  const bg = state.params[k + 1];
+  const g = model.evaluate(d.t, d.n, state.params.subarray(1, k + 1), false).g;
+  for (let i = 0; i < d.n; i++) w[i] = 1 / varianceOf(amp * g[i] + bg, bg, bgFloor);
+  // Normalise so that RSS values stay of order n (the scale of w is irrelevant to the estimates).
+  let mean = 0;
+  for (let i = 0; i < d.n; i++) mean += w[i];
+  mean /= d.n;
+  for (let i = 0; i < d.n; i++) w[i] /= mean;
+}
+
+export interface IrlsResult {
+  state: FitState;
+  weights: Float64Array;
+  /** Covariance of the free parameters, corrected for correlation (φ̂·(JᵀWJ)⁻¹·n/N_eff). */
+  cov: Float64Array | null;
+  nFree: number;
+  dispersion: number;
+  /** Effective number of independent samples behind cov (N_eff, or fewer when the residuals are correlated for longer). */
+  nEff: number;
+}
+
+/** Iteratively reweighted fit: grid initialisation, LM polish, reweighting, covariance. */
+export function fitIrls(
+  d: Prepared,
+  model: ShapeModel,
+  grid: GridSpec,
+  fixedBg: number | null,
+  start: FitState | null,
+  gridModel: ShapeModel = model,
+): IrlsResult | null {
+  let maxY = 0;
+  for (let i = 0; i < d.n; i++) maxY = Math.max(maxY, d.y[i]);
+  // Numerical guard only: keeps V(m) > 0 for a record with no noise at all.
+  const bgFloor = 1e-12 * maxY;
+  const w = new Float64Array(d.n);
+  // First pass: weights of a constant relative error, 1/y² smoothed (the log-fit weighting), then IRLS.
+  for (let i = 0; i < d.n; i++) {
+    const lo = Math.max(0, i - 2);
+    const hi = Math.min(d.n - 1, i + 2);
+    let s = 0;
+    for (let j = lo; j <= hi; j++) s += d.y[j];
+    const ym = Math.max(s / (hi - lo + 1), 1e-9 * maxY, 1e-300);
+    w[i] = 1 / (ym * ym);
+  }
+  let mean = 0;
+  for (let i = 0; i < d.n; i++) mean += w[i];
+  for (let i = 0; i < d.n; i++) w[i] /= mean / d.n;
+  let state = start ?? gridSearchThinned(d, w, gridModel, grid, fixedBg);
+  if (state === null) return null;
+  if (fixedBg !== null) state.params[model.nNonlinear + 1] = fixedBg;
+  if (start === null && gridModel !== model) {
+    // The grid's cheaper model (the curve without the kernel) takes the first polish and the first
+    // reweighting, which start far from the optimum; the model itself then starts close to it.
+    polish(d, w, gridModel, state);
+    updateWeights(d, gridModel, state, w, bgFloor);
+  }
+  polish(d, w, model, state);
+  for (let pass = 0; pass < 8; pass++) {
+    const before = Float64Array.from(state.params);
+    updateWeights(d, model, state, w, bgFloor);
+    // The exponential grid is cheap: search it again under the IRLS weights in case they move
+    // the optimum to another basin. (The saturation grid is 20× larger; its LM polish suffices.)
+    if (pass === 0 && start === null && model.nNonlinear === 1) {
+      const regrid = gridSearchThinned(d, w, model, grid, fixedBg);
+      if (regrid !== null) {
+        polish(d, w, model, regrid);
+        state.rss = rssOf(d, w, model, state.params);
+        if (regrid.rss < state.rss) state = regrid;
+      }
+    }
+    const drop = polish(d, w, model, state);
+    let change = 0;
+    for (let j = 1; j <= model.nNonlinear; j++) change = Math.max(change, Math.abs(state.params[j] - before[j]) / (Math.abs(before[j]) + 1e-9));
+    // Converged when the parameters stand still, or when the new weights moved the optimum by less
+    // than the polish resolves (a rate near zero keeps a relative change above any fixed bound);
+    // the first pass's regrid may already have polished under the new weights.
+    if (change < 1e-7 || (pass > 0 && drop <= POLISH_TOLERANCE)) break;
+  }
+  return { state, weights: w, ...covarianceAt(d, model, state, w, fixedBg) };
+}
+
+/**
+ * Covariance of the free parameters at a fitted state, corrected for correlation
+ * (φ̂·(JᵀWJ)⁻¹·n/N_eff, or the residuals' correlation time when longer; header of dsp/fit.ts).
+ */
+export function covarianceAt(
+  d: Prepared,
+  model: ShapeModel,
+  state: FitState,
+  w: Float64Array,
+  fixedBg: number | null,
+): { cov: Float64Array | null; nFree: number; dispersion: number; nEff: number } {
+  const k = model.nNonlinear;
+  const nFree = fixedBg === null && state.params[k + 1] > 0 ? k + 2 : k + 1;
+  const jtj = new Float64Array(nFree * nFree);
+  const jtr = new Float64Array(nFree);
+  normalEquations(d, w, model, state.params, nFree, jtj, jtr);
+  const inv = invertSmallMatrix(jtj, nFree);
+  // Correlation: the band's own (n/N_eff), or the residuals' when they are correlated for longer
+  // (noise-driven resonance narrower than the band, drift the model does not follow).
+  // Capped so that at least nFree + 2 independent samples remain (Student-t with ≥ 2 degrees of freedom).
+  const inflation = Math.min(Math.max(d.n / d.nEff, residualCorrelationTime(d, model, state.params, w)), Math.max(d.n / d.nEff, d.n / (nFree + 2)));
+  const nEff = d.n / inflation;
+  const dofResidual = d.n - nFree * inflation;
+  const dispersion = dofResidual > 0 ? state.rss / dofResidual : Number.NaN;
+  let cov: Float64Array | null = null;
+  if (inv !== null && dispersion > 0) {
+    cov = new Float64Array(nFree * nFree);
+    for (let i = 0; i < cov.length; i++) cov[i] = inv[i] * dispersion * inflation;
+  }
+  return { cov, nFree, dispersion, nEff };
+}
+
+/**
+ * Integrated autocorrelation time (samples) of the standardised residuals (y − m)·√w: Geyer's
+ * initial positive sequence estimator, τ = −1 + 2·Σ_{m=0}^{M} (ρ_{2m} + ρ_{2m+1}) summed while
+ * the pair sums stay positive (Geyer 1992, Practical Markov chain Monte Carlo, Statistical
+ * Science 7, 473). For n samples of a series correlated over τ, the variance of a mean (and of a
+ * least-squares estimate whose regressors vary slowly over τ) is τ times that of independent
+ * samples; lags are searched up to n/4.
+ */
+function residualCorrelationTime(d: Prepared, model: ShapeModel, params: Float64Array, w: Float64Array): number {
+  const k = model.nNonlinear;
+  const amp = Math.exp(params[0]);
+  const bg = params[k + 1];
+  const g = model.evaluate(d.t, d.n, params.subarray(1, k + 1), false).g;
+  const e = new Float64Array(d.n);
+  let c0 = 0;
+  for (let i = 0; i < d.n; i++) {
+    e[i] = (d.y[i] - amp * g[i] - bg) * Math.sqrt(w[i]);
+    c0 += e[i] * e[i];
+  }
+  if (!(c0 > 0)) return 1;
+  const lagOf = (lag: number): number => {
+    let c = 0;
+    for (let i = 0; i + lag < d.n; i++) c += e[i] * e[i + lag];
+    return c / c0;
+  };
+  let tau = -1;
+  const maxLag = Math.floor(d.n / 4);
+  for (let m = 0; 2 * m + 1 <= maxLag; m++) {
+    const pair = (m === 0 ? 1 : lagOf(2 * m)) + lagOf(2 * m + 1);
+    if (!(pair > 0)) break;
+    tau += 2 * pair;
+  }
+  return Math.max(1, tau);
+}
