@@ -51,6 +51,25 @@ export interface Grouping {
   dropped: Set<RegimeSegment>;
 }
 
+/**
+ * A segment's phase-slope frequency (segment-fit.ts segmentFrequency), Hz, worked out once per
+ * segment: grouping asks for it up to five times per segment, and each answer is a pass over the
+ * segment's store entries. Segments do not change while they are grouped.
+ */
+type FrequencyOf = (tr: ToneRuntime, s: RegimeSegment) => number;
+
+function memoisedSegmentFrequency(): FrequencyOf {
+  const known = new Map<RegimeSegment, number>();
+  return (tr, s) => {
+    let f = known.get(s);
+    if (f === undefined) {
+      f = segmentFrequency(tr, s);
+      known.set(s, f);
+    }
+    return f;
+  };
+}
+
 interface TrackInfo {
   freqHz: number;
   fromS: number;
@@ -59,7 +78,7 @@ interface TrackInfo {
 }
 
 /** Frequency (phase-slope weighted over its active segments), active span and peak power of a track. */
-function trackInfo(tr: ToneRuntime): TrackInfo {
+function trackInfo(tr: ToneRuntime, frequencyOf: FrequencyOf): TrackInfo {
   let from = Number.NaN;
   let to = Number.NaN;
   let sw = 0;
@@ -70,7 +89,7 @@ function trackInfo(tr: ToneRuntime): TrackInfo {
     const b = tr.timeS[s.endIdx - 1];
     from = Number.isNaN(from) ? a : Math.min(from, a);
     to = Number.isNaN(to) ? b : Math.max(to, b);
-    const f = segmentFrequency(tr, s);
+    const f = frequencyOf(tr, s);
     if (Number.isFinite(f)) {
       sw += s.endIdx - s.startIdx;
       swf += (s.endIdx - s.startIdx) * f;
@@ -115,14 +134,14 @@ function dropOverlaps(fam: Family, dropped: Set<RegimeSegment>): void {
  * (ENVELOPE_WIDE_BANDWIDTH_HZ, the band through whose skirt a track can read a neighbour) are
  * a skirt read only when one is more than DUPLICATE_SKIRT_DB weaker. The other's segment is dropped.
  */
-function dropSkirtDuplicates(families: Family[], binHz: number, dropped: Set<RegimeSegment>): void {
+function dropSkirtDuplicates(families: Family[], binHz: number, dropped: Set<RegimeSegment>, frequencyOf: FrequencyOf): void {
   const skirt = 10 ** (DUPLICATE_SKIRT_DB / 10);
   const segs: { fam: Family; tr: ToneRuntime; s: RegimeSegment; a: number; b: number; f: number }[] = [];
   for (const fam of families) {
     for (const tr of fam.tracks) {
       for (const s of tr.regime.segments) {
         if (s.state === STATE_QUIET || s.endIdx <= s.startIdx || dropped.has(s)) continue;
-        const f = segmentFrequency(tr, s);
+        const f = frequencyOf(tr, s);
         if (Number.isFinite(f)) segs.push({ fam, tr, s, a: tr.timeS[s.startIdx], b: tr.timeS[s.endIdx - 1], f });
       }
     }
@@ -165,7 +184,7 @@ function growthSpans(q: Family): [number, number][] {
  * all its activity lies within the tone's own and each of its growths falls in a growth of the
  * tone (a line that starts on its own while the tone holds steady is a tone of its own).
  */
-function assignParents(families: Family[], binHz: number, dropped: Set<RegimeSegment>): void {
+function assignParents(families: Family[], binHz: number, dropped: Set<RegimeSegment>, frequencyOf: FrequencyOf): void {
   const byPower = [...families].sort((a, b) => b.peakPower - a.peakPower);
   for (let i = 1; i < byPower.length; i++) {
     const fam = byPower[i];
@@ -183,7 +202,7 @@ function assignParents(families: Family[], binHz: number, dropped: Set<RegimeSeg
           for (const s of tr.regime.segments) {
             if (s.state === STATE_QUIET || s.endIdx <= s.startIdx || dropped.has(s)) continue;
             const a = tr.timeS[s.startIdx];
-            const f = segmentFrequency(tr, s);
+            const f = frequencyOf(tr, s);
             const k = Number.isFinite(f) ? Math.round(f / par.freqHz) : kFam;
             const isOnHarmonic = k >= 2 && k <= MAX_HARMONIC && (!Number.isFinite(f) || Math.abs(f - k * par.freqHz) <= harmonicToleranceHz(binHz, par.freqHz, k));
             const risesWith = s.state === STATE_GROWTH && parGrowths.some(([p0, p1]) => a >= p0 - WITHIN_MARGIN_S && a <= p1 + WITHIN_MARGIN_S);
@@ -209,8 +228,8 @@ function assignParents(families: Family[], binHz: number, dropped: Set<RegimeSeg
 }
 
 /** Active (non-quiet) segments of a family's tracks: span [start, end] (s) and frequency, Hz. */
-function activeSpans(fam: Family, dropped: Set<RegimeSegment>): [number, number, number][] {
-  return fam.tracks.flatMap((t) => t.regime.segments.filter((g) => g.state !== STATE_QUIET && g.endIdx > g.startIdx && !dropped.has(g)).map((g): [number, number, number] => [t.timeS[g.startIdx], t.timeS[g.endIdx - 1], segmentFrequency(t, g)]));
+function activeSpans(fam: Family, dropped: Set<RegimeSegment>, frequencyOf: FrequencyOf): [number, number, number][] {
+  return fam.tracks.flatMap((t) => t.regime.segments.filter((g) => g.state !== STATE_QUIET && g.endIdx > g.startIdx && !dropped.has(g)).map((g): [number, number, number] => [t.timeS[g.startIdx], t.timeS[g.endIdx - 1], frequencyOf(t, g)]));
 }
 
 /**
@@ -220,10 +239,10 @@ function activeSpans(fam: Family, dropped: Set<RegimeSegment>): [number, number,
  * neighbourhood (isSameToneHz) and whose active segments (those not told already by another
  * track, dropSkirtDuplicates) never overlap in time are one tone.
  */
-function mergeDisjointFamilies(families: Family[], binHz: number, dropped: Set<RegimeSegment>): Family[] {
+function mergeDisjointFamilies(families: Family[], binHz: number, dropped: Set<RegimeSegment>, frequencyOf: FrequencyOf): Family[] {
   const out: Family[] = [];
   const spans = new Map<Family, [number, number, number][]>();
-  for (const fam of families) spans.set(fam, activeSpans(fam, dropped));
+  for (const fam of families) spans.set(fam, activeSpans(fam, dropped, frequencyOf));
   const clash = (x: [number, number, number][], y: [number, number, number][]): boolean =>
     x.some(([a, b]) => y.some(([p0, p1]) => a < p1 && b > p0));
   for (const fam of families) {
@@ -253,11 +272,12 @@ function mergeDisjointFamilies(families: Family[], binHz: number, dropped: Set<R
  */
 export function groupTones(all: ToneRuntime[], binHz: number, floorPower = 0): Grouping {
   const dropped = new Set<RegimeSegment>();
+  const frequencyOf = memoisedSegmentFrequency();
   const byId = new Map<number, Family>();
   let families: Family[] = [];
   for (const tr of all) {
     if (tr.regime.segments.every((s) => s.state === STATE_QUIET) && !tr.isSteadyLine && tr.maxExcessDb < QUIET_LINE_MIN_DB) continue;
-    const ti = trackInfo(tr);
+    const ti = trackInfo(tr, frequencyOf);
     // A track never above the format's quantisation error may be a product of quantising a strong tone (dsp/levels.ts).
     if (ti.top <= floorPower) continue;
     const fam = byId.get(tr.tone.toneId);
@@ -277,15 +297,15 @@ export function groupTones(all: ToneRuntime[], binHz: number, floorPower = 0): G
     }
   }
   for (const fam of families) dropOverlaps(fam, dropped);
-  dropSkirtDuplicates(families, binHz, dropped);
-  families = mergeDisjointFamilies(families, binHz, dropped);
+  dropSkirtDuplicates(families, binHz, dropped, frequencyOf);
+  families = mergeDisjointFamilies(families, binHz, dropped, frequencyOf);
   for (const fam of families) {
     dropOverlaps(fam, dropped);
     // A tone sounding through the whole record (never quiet, no onset) is a steady line too.
     const segs = fam.tracks.flatMap((t) => t.regime.segments).filter((s) => !dropped.has(s));
     if (segs.length > 0 && segs.every((s) => s.state === STATE_STEADY)) fam.isSteadyLine = true;
   }
-  assignParents(families, binHz, dropped);
+  assignParents(families, binHz, dropped, frequencyOf);
   // A line whose harmonic segments went to a stronger tone is known by the segments it keeps.
   for (const fam of families) {
     if (fam.parent !== null) continue;
@@ -294,7 +314,7 @@ export function groupTones(all: ToneRuntime[], binHz: number, floorPower = 0): G
     for (const tr of fam.tracks) {
       for (const s of tr.regime.segments) {
         if (s.state === STATE_QUIET || s.endIdx <= s.startIdx || dropped.has(s)) continue;
-        const f = segmentFrequency(tr, s);
+        const f = frequencyOf(tr, s);
         if (!Number.isFinite(f)) continue;
         sw += s.endIdx - s.startIdx;
         swf += (s.endIdx - s.startIdx) * f;
