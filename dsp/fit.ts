@@ -79,10 +79,15 @@ function exponentialShape(tm: number): ShapeModel {
       const m = prefixOf(t, n);
       if (m > 2 && Math.max(Math.abs(s2 * (t[0] - tm)), Math.abs(s2 * (t[m - 1] - tm))) < MAX_STEPPED_EXPONENT) {
         const ratio = Math.exp((s2 * (t[m - 1] - t[0])) / (m - 1));
-        let g = 0;
-        for (let i = 0; i < m; i++) {
-          g = i % RESTART_STEPS === 0 ? Math.exp(s2 * (t[i] - tm)) : g * ratio;
-          v.g[i] = g;
+        // Blocks of RESTART_STEPS samples, each opened by an exact exponential.
+        for (let i0 = 0; i0 < m; i0 += RESTART_STEPS) {
+          let g = Math.exp(s2 * (t[i0] - tm));
+          v.g[i0] = g;
+          const i1 = Math.min(m, i0 + RESTART_STEPS);
+          for (let i = i0 + 1; i < i1; i++) {
+            g *= ratio;
+            v.g[i] = g;
+          }
         }
         from = m;
       }
