@@ -31,9 +31,11 @@ import type { EnvelopeSeries, RateFit, SaturationFit } from './types';
  * the limit is an exponential up to t_c and the level A∞² after it). On a uniform grid of times
  * e^(−|z|) falls by the same factor e^(−|p s|·Δ) per sample on either side of t_c, so it is one
  * exponential per side and a running product (values below 1e-300 taken as 0), restarted from
- * an exact exponential every RESTART_STEPS samples.
+ * an exact exponential every RESTART_STEPS samples. With `isAmplitude` the model gives the
+ * amplitude √g = e^(u/2) (u = (2/p)·ln q; √q for Stuart–Landau) and ∂√g/∂θ = √g·(∂g/∂θ)/(2g)
+ * instead: what a kernel sums (smoothedShape), without a square root and a division per time.
  */
-function saturationShape(fixedP: number | null): ShapeModel {
+function saturationShape(fixedP: number | null, isAmplitude = false): ShapeModel {
   const nn = fixedP === null ? 3 : 2;
   const buffers = shapeBuffers(nn);
   const prefixOf = uniformPrefix();
@@ -65,13 +67,16 @@ function saturationShape(fixedP: number | null): ShapeModel {
         else {
           const tail = twoOverP * Math.log1p(e);
           u = isUpper ? -tail : 2 * s * dt - tail;
-          g = Math.exp(u);
+          g = Math.exp(isAmplitude ? 0.5 * u : u);
         }
+        if (isAmplitude && isLandau) g = Math.sqrt(g);
         v.g[i] = g;
         if (!withGrad) continue;
-        v.grad[i * nn] = 2 * g * oneMinusQ * dt;
-        v.grad[i * nn + 1] = -2 * g * oneMinusQ * s;
-        if (fixedP === null) v.grad[i * nn + 2] = g * (2 * oneMinusQ * s * dt - u);
+        // ∂g/∂s = 2g·(1 − q)·(t − tc), ∂g/∂tc = −2g·(1 − q)·s; those of √g are √g·(1 − q)·(t − tc), −√g·(1 − q)·s.
+        const scale = isAmplitude ? g : 2 * g;
+        v.grad[i * nn] = scale * oneMinusQ * dt;
+        v.grad[i * nn + 1] = -(scale * oneMinusQ * s);
+        if (fixedP === null) v.grad[i * nn + 2] = (isAmplitude ? 0.5 * g : g) * (2 * oneMinusQ * s * dt - u);
       }
       return v;
     },
@@ -93,14 +98,26 @@ function steppedDecay(t: Float64Array, n: number, m: number, rate: number, tc: n
   if (!Number.isFinite(first) || !Number.isFinite(rate)) return 0;
   const ic = Math.min(m, Math.max(0, first));
   const ratio = Math.exp(-rate * step);
-  let e = 0;
-  for (let i = ic; i < m; i++) {
-    e = (i - ic) % RESTART_STEPS === 0 ? Math.exp(-rate * Math.abs(t[i] - tc)) : e * ratio < TINY ? 0 : e * ratio;
-    out[i] = e;
+  // Blocks of RESTART_STEPS samples outward from tc, each opened by an exact exponential.
+  for (let i0 = ic; i0 < m; i0 += RESTART_STEPS) {
+    let e = Math.exp(-rate * Math.abs(t[i0] - tc));
+    out[i0] = e;
+    const i1 = Math.min(m, i0 + RESTART_STEPS);
+    for (let i = i0 + 1; i < i1; i++) {
+      e *= ratio;
+      if (e < TINY) e = 0;
+      out[i] = e;
+    }
   }
-  for (let i = ic - 1; i >= 0; i--) {
-    e = (ic - 1 - i) % RESTART_STEPS === 0 ? Math.exp(-rate * Math.abs(tc - t[i])) : e * ratio < TINY ? 0 : e * ratio;
-    out[i] = e;
+  for (let i0 = ic - 1; i0 >= 0; i0 -= RESTART_STEPS) {
+    let e = Math.exp(-rate * Math.abs(tc - t[i0]));
+    out[i0] = e;
+    const i1 = Math.max(-1, i0 - RESTART_STEPS);
+    for (let i = i0 - 1; i > i1; i--) {
+      e *= ratio;
+      if (e < TINY) e = 0;
+      out[i] = e;
+    }
   }
   return Math.min(m, n);
 }
@@ -122,11 +139,11 @@ const MAX_KERNEL_TAPS = 24;
 
 /**
  * The model seen through an amplitude kernel: G(t) = (Σ h_k √g(t − τ_k))², with
- * ∂G/∂θ = 2·(Σ h_k √g_k)·Σ h_k (∂g_k/∂θ)/(2√g_k). L·G is then the mean power of the smoothed
- * amplitude √L·√g. The inner model is evaluated at the times the taps need (TapPlan), √g and
- * ∂√g/∂θ once per such time, and each sample sums its taps from there.
+ * ∂G/∂θ = 2·(Σ h_k √g_k)·Σ h_k ∂√g_k/∂θ. L·G is then the mean power of the smoothed amplitude
+ * √L·√g. The amplitude model `root` (√g and ∂√g/∂θ: saturationShape with isAmplitude) is
+ * evaluated once at each time the taps need (TapPlan), and each sample sums its taps from there.
  */
-function smoothedShape(inner: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
+function smoothedShape(root: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
   const n = kernel.weights.length;
   // Long kernels are merged into at most MAX_KERNEL_TAPS groups, each at its weighted centre (a
   // midpoint rule: the amplitude is smooth over one group, whose error is second order in its width).
@@ -147,38 +164,24 @@ function smoothedShape(inner: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
     offsets[j] = w !== 0 ? wt / w : (j * group + (group - 1) / 2 - (n - 1) / 2) * kernel.spacingS;
   }
   // The saturation shapes have two or three nonlinear parameters; the tap loop below sums at most three.
-  const nn = inner.nNonlinear;
+  const nn = root.nNonlinear;
   const buffers = shapeBuffers(nn);
   const planOf = tapPlanner(offsets, group === 1 ? kernel.spacingS : 0);
-  let root = new Float64Array(0);
-  let rootGrad = new Float64Array(0);
   return memoised({
     nNonlinear: nn,
     evaluate(t, count, theta, withGrad) {
       const plan = planOf(t, count);
-      const len = plan.times.length;
-      const at = inner.evaluate(plan.times, len, theta, withGrad);
-      if (root.length < len) {
-        root = new Float64Array(len);
-        rootGrad = new Float64Array(len * nn);
-      }
-      // √g and ∂√g/∂θ = (∂g/∂θ)/(2√g) per tap time; a tap where g ≤ 0 adds nothing.
-      for (let m = 0; m < len; m++) {
-        const g = at.g[m];
-        const r = g > 0 ? Math.sqrt(g) : 0;
-        root[m] = r;
-        if (!withGrad) continue;
-        const half = r > 0 ? 0.5 / r : 0;
-        for (let j = 0; j < nn; j++) rootGrad[m * nn + j] = at.grad[m * nn + j] * half;
-      }
+      const at = root.evaluate(plan.times, plan.times.length, theta, withGrad);
+      const r = at.g;
+      const rGrad = at.grad;
       const v = buffers(count);
-      const idx = plan.index;
-      const stride = plan.stride;
+      const origin = plan.origin;
+      const dir = plan.dir;
       for (let i = 0; i < count; i++) {
-        const base = i * stride;
+        const o = origin[i];
         let amp = 0;
         if (!withGrad) {
-          for (let k = 0; k < taps; k++) amp += h[k] * root[idx[base + k]];
+          for (let k = 0; k < taps; k++) amp += h[k] * r[o + dir * k];
           v.g[i] = amp * amp;
           continue;
         }
@@ -187,13 +190,13 @@ function smoothedShape(inner: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
         let a1 = 0;
         let a2 = 0;
         for (let k = 0; k < taps; k++) {
-          const m = idx[base + k];
+          const m = o + dir * k;
           const hk = h[k];
           const b = m * nn;
-          amp += hk * root[m];
-          a0 += hk * rootGrad[b];
-          if (nn > 1) a1 += hk * rootGrad[b + 1];
-          if (nn > 2) a2 += hk * rootGrad[b + 2];
+          amp += hk * r[m];
+          a0 += hk * rGrad[b];
+          if (nn > 1) a1 += hk * rGrad[b + 1];
+          if (nn > 2) a2 += hk * rGrad[b + 2];
         }
         v.g[i] = amp * amp;
         v.grad[i * nn] = 2 * amp * a0;
@@ -205,11 +208,11 @@ function smoothedShape(inner: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
   });
 }
 
-/** The times at which the taps of a series' samples read the inner model: tap k of sample i reads times[index[i·stride + k]]. */
+/** The times at which the taps of a series' samples read the amplitude model: tap k of sample i reads times[origin[i] + dir·k]. */
 interface TapPlan {
   times: Float64Array;
-  index: Int32Array;
-  stride: number;
+  origin: Int32Array;
+  dir: 1 | -1;
 }
 
 /**
@@ -224,7 +227,7 @@ function tapPlanner(offsets: Float64Array, spacingS: number): (t: Float64Array, 
   const taps = offsets.length;
   let lastT: Float64Array | null = null;
   let lastN = -1;
-  let last: TapPlan = { times: new Float64Array(0), index: new Int32Array(0), stride: taps };
+  let last: TapPlan = { times: new Float64Array(0), origin: new Int32Array(0), dir: 1 };
   const tolerance = 1e-6;
   let isUniform = spacingS > 0;
   for (let k = 1; k < taps && isUniform; k++) if (Math.abs((offsets[k] - offsets[0]) / spacingS - k) > tolerance) isUniform = false;
@@ -234,16 +237,16 @@ function tapPlanner(offsets: Float64Array, spacingS: number): (t: Float64Array, 
     const start = t[0] - offsets[taps - 1];
     const len = Math.round((t[n - 1] - offsets[0] - start) / spacingS) + 1;
     if (!(len > 0) || len > n * taps) return null;
-    const index = new Int32Array(n * taps);
+    const origin = new Int32Array(n);
     for (let i = 0; i < n; i++) {
       const pos = (t[i] - offsets[taps - 1] - start) / spacingS;
       const m = Math.round(pos);
       if (Math.abs(pos - m) > tolerance || m < 0 || m + taps > len) return null;
-      for (let k = 0; k < taps; k++) index[i * taps + k] = m + taps - 1 - k;
+      origin[i] = m + taps - 1;
     }
     const times = new Float64Array(len);
     for (let m = 0; m < len; m++) times[m] = start + m * spacingS;
-    return { times, index, stride: taps };
+    return { times, origin, dir: -1 };
   };
   return (t, n) => {
     if (t === lastT && n === lastN) return last;
@@ -255,14 +258,12 @@ function tapPlanner(offsets: Float64Array, spacingS: number): (t: Float64Array, 
       return last;
     }
     const times = new Float64Array(n * taps);
-    const index = new Int32Array(n * taps);
+    const origin = new Int32Array(n);
     for (let i = 0; i < n; i++) {
-      for (let k = 0; k < taps; k++) {
-        times[i * taps + k] = t[i] - offsets[k];
-        index[i * taps + k] = i * taps + k;
-      }
+      origin[i] = i * taps;
+      for (let k = 0; k < taps; k++) times[i * taps + k] = t[i] - offsets[k];
     }
-    last = { times, index, stride: taps };
+    last = { times, origin, dir: 1 };
     return last;
   };
 }
@@ -348,9 +349,9 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
     }
   }
   // Seen through the kernel when one is given; the grid only seeks the basin, without it (K× cheaper).
-  const through = (m: ShapeModel): ShapeModel => (kernel === undefined ? m : smoothedShape(m, kernel));
+  const through = (p: number | null): ShapeModel => (kernel === undefined ? saturationShape(p) : smoothedShape(saturationShape(p, true), kernel));
   const grid = saturationGrid(d);
-  const landau = fitIrls(d, through(saturationShape(2)), grid, fixedBg, null, saturationShape(2));
+  const landau = fitIrls(d, through(2), grid, fixedBg, null, saturationShape(2));
   if (landau === null) return fail('no tone above the background', d.nEff);
   let chosen: SaturationCandidate = { fit: landau, p: 2 };
   let model: SaturationFit['model'] = 'stuart-landau';
@@ -358,7 +359,7 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
   // Flexible model, started from the Stuart–Landau solution at several knee sharpness values,
   // compared with the same weights (nested models: p = 2 is the Stuart–Landau case). The starts
   // only pick the basin, as the grid does: they run on block means without the kernel.
-  const general = through(saturationShape(null));
+  const general = through(null);
   const thin = d.n > START_MAX_SAMPLES ? blockMeans(d, landau.weights, START_MAX_SAMPLES) : { d, w: landau.weights };
   const startModel = saturationShape(null);
   const fromLandau = (p: number): Float64Array => {
@@ -481,7 +482,7 @@ function unidentifiedRate(d: Prepared, c: SaturationCandidate, k: number): strin
 function conditionOnUnresolvedKnee(
   d: Prepared,
   chosen: SaturationCandidate,
-  through: (m: ShapeModel) => ShapeModel,
+  through: (p: number | null) => ShapeModel,
   fixedBg: number | null,
 ): SaturationCandidate {
   const params = chosen.fit.state.params;
@@ -489,7 +490,7 @@ function conditionOnUnresolvedKnee(
   const p = Math.exp(params[3]);
   if (!(p > 0) || !(s > 0) || p * s * d.spacingS < 1) return chosen;
   const corner: FitState = { params: Float64Array.of(params[0], s, params[2], params[4]), isBackgroundFixed: fixedBg !== null, rss: chosen.fit.state.rss };
-  const conditional = covarianceAt(d, through(saturationShape(p)), corner, chosen.fit.weights, fixedBg);
+  const conditional = covarianceAt(d, through(p), corner, chosen.fit.weights, fixedBg);
   return { fit: { ...chosen.fit, ...conditional }, p: chosen.p };
 }
 
