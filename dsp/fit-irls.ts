@@ -147,7 +147,7 @@ function normalEquations(
   let s00 = 0, s10 = 0, s11 = 0, s20 = 0, s21 = 0, s22 = 0, s30 = 0, s31 = 0, s32 = 0, s33 = 0;
   let s40 = 0, s41 = 0, s42 = 0, s43 = 0, s44 = 0, r0 = 0, r1 = 0, r2 = 0, r3 = 0, r4 = 0;
   let rss = 0;
-  // The common cases (background fixed; one or two nonlinear parameters) sum only the products
+  // The common cases (background fixed; one to three nonlinear parameters) sum only the products
   // they have: the same sums in the same order as the general loop, without its zero columns.
   if (bgColumn === 0 && k === 1) {
     for (let i = 0; i < d.n; i++) {
@@ -184,6 +184,34 @@ function normalEquations(
       s20 += w2 * x0;
       s21 += w2 * x1;
       s22 += w2 * x2;
+    }
+  } else if (bgColumn === 0 && k === 3) {
+    for (let i = 0; i < d.n; i++) {
+      const wi = w[i];
+      const x0 = amp * v.g[i];
+      const x1 = amp * grad[3 * i];
+      const x2 = amp * grad[3 * i + 1];
+      const x3 = amp * grad[3 * i + 2];
+      const r = y[i] - x0 - bg;
+      rss += wi * r * r;
+      const w0 = wi * x0;
+      const w1 = wi * x1;
+      const w2 = wi * x2;
+      const w3 = wi * x3;
+      r0 += w0 * r;
+      r1 += w1 * r;
+      r2 += w2 * r;
+      r3 += w3 * r;
+      s00 += w0 * x0;
+      s10 += w1 * x0;
+      s11 += w1 * x1;
+      s20 += w2 * x0;
+      s21 += w2 * x1;
+      s22 += w2 * x2;
+      s30 += w3 * x0;
+      s31 += w3 * x1;
+      s32 += w3 * x2;
+      s33 += w3 * x3;
     }
   } else for (let i = 0; i < d.n; i++) {
     const wi = w[i];

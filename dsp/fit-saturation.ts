@@ -163,7 +163,7 @@ function smoothedShape(root: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
     h[j] = w / sum;
     offsets[j] = w !== 0 ? wt / w : (j * group + (group - 1) / 2 - (n - 1) / 2) * kernel.spacingS;
   }
-  // The saturation shapes have two or three nonlinear parameters; the tap loop below sums at most three.
+  // The saturation shapes have two or three nonlinear parameters; the tap loops below sum at most three.
   const nn = root.nNonlinear;
   const buffers = shapeBuffers(nn);
   const planOf = tapPlanner(offsets, group === 1 ? kernel.spacingS : 0);
@@ -185,18 +185,34 @@ function smoothedShape(root: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
           v.g[i] = amp * amp;
           continue;
         }
-        // One pass over the taps for the amplitude and its (at most three) derivatives.
+        // One pass over the taps for the amplitude and its (at most three) derivatives; the loops
+        // for three and for two parameters are written out (no test per tap).
         let a0 = 0;
         let a1 = 0;
         let a2 = 0;
-        for (let k = 0; k < taps; k++) {
-          const m = o + dir * k;
-          const hk = h[k];
-          const b = m * nn;
-          amp += hk * r[m];
-          a0 += hk * rGrad[b];
-          if (nn > 1) a1 += hk * rGrad[b + 1];
-          if (nn > 2) a2 += hk * rGrad[b + 2];
+        if (nn === 3) {
+          for (let k = 0; k < taps; k++) {
+            const m = o + dir * k;
+            const hk = h[k];
+            amp += hk * r[m];
+            a0 += hk * rGrad[3 * m];
+            a1 += hk * rGrad[3 * m + 1];
+            a2 += hk * rGrad[3 * m + 2];
+          }
+        } else if (nn === 2) {
+          for (let k = 0; k < taps; k++) {
+            const m = o + dir * k;
+            const hk = h[k];
+            amp += hk * r[m];
+            a0 += hk * rGrad[2 * m];
+            a1 += hk * rGrad[2 * m + 1];
+          }
+        } else {
+          for (let k = 0; k < taps; k++) {
+            const m = o + dir * k;
+            amp += h[k] * r[m];
+            a0 += h[k] * rGrad[m];
+          }
         }
         v.g[i] = amp * amp;
         v.grad[i * nn] = 2 * amp * a0;
