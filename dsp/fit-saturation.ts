@@ -397,9 +397,9 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
   let bestGeneral: IrlsResult | null = null;
   if (bestStart !== null) {
     // The cheap start may sit in a basin that the full data, through the kernel, rate worse than
-    // the Stuart–Landau solution itself (the flexible model at p = 2): then start from that solution.
-    const landauStart = fromLandau(2);
-    if (!(rssOf(d, landau.weights, general, bestStart.params) <= rssOf(d, landau.weights, general, landauStart))) bestStart.params = landauStart;
+    // the Stuart–Landau solution itself (the flexible model at p = 2, whose weighted RSS under
+    // these weights the Stuart–Landau fit ended on): then start from that solution.
+    if (!(rssOf(d, landau.weights, general, bestStart.params) <= landau.state.rss)) bestStart.params = fromLandau(2);
     bestGeneral = { state: bestStart, weights: landau.weights, cov: null, nFree: 0, dispersion: Number.NaN, nEff: d.nEff };
     polish(d, landau.weights, general, bestGeneral.state);
   }
