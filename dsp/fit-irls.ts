@@ -492,6 +492,13 @@ export interface IrlsResult {
   nEff: number;
 }
 
+/** Whether grid value `g` (one of `values`, ascending) is a value of `values` next to `x` (either side of it, or at it). */
+function isNextOnGrid(values: Float64Array, g: number, x: number): boolean {
+  let below = 0;
+  while (below + 1 < values.length && values[below + 1] <= x) below++;
+  return g === values[below] || (below + 1 < values.length && g === values[below + 1]);
+}
+
 /** Iteratively reweighted fit: grid initialisation, LM polish, reweighting, covariance. */
 export function fitIrls(
   d: Prepared,
@@ -535,7 +542,9 @@ export function fitIrls(
     // the optimum to another basin. (The saturation grid is 20× larger; its LM polish suffices.)
     if (pass === 0 && start === null && model.nNonlinear === 1) {
       const regrid = gridSearchThinned(d, w, model, grid, fixedBg);
-      if (regrid !== null) {
+      // A regrid landing on the grid value next to the current parameter is in its basin: the
+      // polish below reaches the same optimum from either, so only one is polished.
+      if (regrid !== null && !isNextOnGrid(grid.values[0], regrid.params[1], state.params[1])) {
         polish(d, w, model, regrid);
         state.rss = rssOf(d, w, model, state.params);
         if (regrid.rss < state.rss) state = regrid;
