@@ -67,16 +67,13 @@ export function createHistory(p: { analysisRateHz: number; spec: SpectrumState; 
 export function stepHistory(h: History, x: Float32Array, clip: Uint8Array, from: number, to: number, j0: number, m: number): number {
   const ringCap = h.ring.length;
   const envLen = h.envMs.length;
-  const ring = h.ring;
+  writeRing(h.ring, x, from, to, j0);
   let j = j0;
-  let rp = j % ringCap;
   let ph = j % m;
   let accMs = h.accMs;
   let accClip = h.accClip;
   for (let q = from; q < to; q++) {
     const v = x[q];
-    ring[rp] = v;
-    if (++rp === ringCap) rp = 0;
     accMs += v * v;
     if (clip[q]) {
       accClip = 1;
@@ -96,6 +93,33 @@ export function stepHistory(h: History, x: Float32Array, clip: Uint8Array, from:
   h.accClip = accClip;
   if (h.ringStartJ < j - ringCap) h.ringStartJ = j - ringCap;
   return j;
+}
+
+/**
+ * Writes x[from, to) into a ring of samples indexed by global analysis index (index j at j mod
+ * length), the first at j0: at most two block copies (only the newest ring.length samples stay).
+ */
+export function writeRing(ring: Float32Array, x: Float32Array, from: number, to: number, j0: number): void {
+  const cap = ring.length;
+  if (to - from > cap) {
+    j0 += to - from - cap;
+    from = to - cap;
+  }
+  const p = j0 % cap;
+  const first = Math.min(to - from, cap - p);
+  ring.set(x.subarray(from, from + first), p);
+  if (from + first < to) ring.set(x.subarray(from + first, to), 0);
+}
+
+/** The samples of global analysis indices j0 .. j0 + len − 1 (len ≤ ring.length) from a ring written by writeRing, as a new array. */
+export function readRing(ring: Float32Array, j0: number, len: number): Float32Array {
+  const cap = ring.length;
+  const p = j0 % cap;
+  const first = Math.min(len, cap - p);
+  const x = new Float32Array(len);
+  x.set(ring.subarray(p, p + first));
+  if (first < len) x.set(ring.subarray(0, len - first), first);
+  return x;
 }
 
 /** Keeps frame `frameIdx`'s power spectrum and centre time. */

@@ -5,6 +5,7 @@
  * spectrum is handed to dsp/damping.ts.
  */
 import { estimateNoiseDrivenDamping } from './damping';
+import { readRing, writeRing } from './history';
 import { localFloorMean, type SpectrumState } from './spectrum';
 import type { NoiseDriven } from './types';
 
@@ -37,12 +38,7 @@ export function createQuietStore(analysisRateHz: number): QuietStore {
 export function stepQuietStore(qs: QuietStore, x: Float32Array, from: number, to: number, j0: number): void {
   if (!qs.isOpen) return;
   const cap = qs.ring.length;
-  const ring = qs.ring;
-  let qp = j0 % cap;
-  for (let q = from; q < to; q++) {
-    ring[qp] = x[q];
-    if (++qp === cap) qp = 0;
-  }
+  writeRing(qs.ring, x, from, to, j0);
   const j = j0 + (to - from);
   if (qs.startJ < j - cap) qs.startJ = j - cap;
 }
@@ -82,8 +78,7 @@ export function closeQuietStretch(
   const j0 = Math.max(qs.startJ, jEnd - cap);
   const len = jEnd - j0;
   if (len < QUIET_MIN_S * qs.analysisRateHz) return;
-  const x = new Float32Array(len);
-  for (let q = 0; q < len; q++) x[q] = qs.ring[(j0 + q) % cap];
+  const x = readRing(qs.ring, j0, len);
   const centre = findResonance(ctx, x);
   if (centre === null) return;
   onStretch?.(x, centre, j0);

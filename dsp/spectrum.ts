@@ -107,11 +107,16 @@ export function feedSpectrum(st: SpectrumState, x: Float32Array, start: number, 
   const n = st.frameSize;
   const ring = st.ring;
   let pos = st.pos;
-  for (let i = start; i < end; i++) {
-    const v = x[i];
-    ring[pos] = v;
-    ring[pos + n] = v;
-    pos = pos + 1 === n ? 0 : pos + 1;
+  // Block copies up to the end of the ring, each written twice.
+  let i = start;
+  while (i < end) {
+    const k = Math.min(end - i, n - pos);
+    const src = x.subarray(i, i + k);
+    ring.set(src, pos);
+    ring.set(src, pos + n);
+    pos += k;
+    if (pos === n) pos = 0;
+    i += k;
   }
   st.pos = pos;
   st.toFrame -= end - start;
