@@ -68,27 +68,39 @@ export function stepHistory(h: History, x: Float32Array, clip: Uint8Array, from:
   const ringCap = h.ring.length;
   const envLen = h.envMs.length;
   writeRing(h.ring, x, from, to, j0);
-  let j = j0;
-  let ph = j % m;
+  let ph = j0 % m;
   let accMs = h.accMs;
   let accClip = h.accClip;
-  for (let q = from; q < to; q++) {
-    const v = x[q];
-    accMs += v * v;
-    if (clip[q]) {
-      accClip = 1;
-      h.lastClipJ = j;
+  let sawClip = 0;
+  // Envelope-clock sample by sample: the inner loop runs to the end of the sample or of the input.
+  let q = from;
+  while (q < to) {
+    const stop = Math.min(to, q + (m - ph));
+    ph += stop - q;
+    for (; q < stop; q++) {
+      const v = x[q];
+      accMs += v * v;
+      accClip |= clip[q];
     }
-    j++;
-    if (++ph === m) {
-      ph = 0;
-      const g = j / m - 1;
-      h.envMs[g % envLen] = accMs / m;
-      h.envClip[g % envLen] = accClip;
-      accMs = 0;
-      accClip = 0;
+    if (ph < m) break;
+    ph = 0;
+    const g = (j0 + (q - from)) / m - 1;
+    h.envMs[g % envLen] = accMs / m;
+    h.envClip[g % envLen] = accClip;
+    sawClip |= accClip;
+    accMs = 0;
+    accClip = 0;
+  }
+  // The latest clipped sample, looked for only when the input clipped.
+  if (sawClip | accClip) {
+    for (let k = to - 1; k >= from; k--) {
+      if (clip[k]) {
+        h.lastClipJ = j0 + (k - from);
+        break;
+      }
     }
   }
+  const j = j0 + (to - from);
   h.accMs = accMs;
   h.accClip = accClip;
   if (h.ringStartJ < j - ringCap) h.ringStartJ = j - ringCap;
@@ -127,7 +139,7 @@ export function storeFrame(h: History, frameIdx: number, power: Float32Array | F
   const fr = h.frameTimeS.length;
   h.frameTimeS[frameIdx % fr] = timeS;
   const slot = h.frameRing[frameIdx % fr];
-  for (let k = 0; k < slot.length; k++) slot[k] = power[k];
+  slot.set(power.length === slot.length ? power : power.subarray(0, slot.length));
 }
 
 /** Forgets samples and frames before a gap that starts the new time base at analysis index jNext. */
