@@ -6,6 +6,7 @@
  */
 import { estimateNoiseDrivenDamping } from './damping';
 import { readRing, writeRing } from './history';
+import { realFftWindowed } from './real-fft';
 import { localFloorMean, type SpectrumState } from './spectrum';
 import type { NoiseDriven } from './types';
 
@@ -116,10 +117,10 @@ function findResonance(ctx: ResonanceContext, x: Float32Array): number | null {
   const acc = new Float64Array(spec.binCount);
   let frames = 0;
   const out = spec.fftOut;
-  const inp = spec.fftIn;
+  const frame = new Float64Array(n);
   for (let s = 0; s + n <= x.length; s += hop) {
-    for (let i = 0; i < n; i++) inp[i] = x[s + i] * spec.window[i];
-    spec.fft.realTransform(out, inp);
+    frame.set(x.subarray(s, s + n));
+    realFftWindowed(spec.fft, out, frame, 0, spec.window);
     for (let k = 0; k < spec.binCount; k++) acc[k] += out[2 * k] * out[2 * k] + out[2 * k + 1] * out[2 * k + 1];
     frames++;
   }
