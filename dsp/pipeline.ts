@@ -71,6 +71,7 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
     bandHighHz: config.bandHighHz ?? 4000,
     mainsHz: config.mainsHz ?? 0,
     sampleBits: config.sampleBits ?? 0,
+    announceOnsets: config.announceOnsets ?? true,
   };
   if (!(cfg.mainsHz === 0 || cfg.mainsHz === 50 || cfg.mainsHz === 60)) throw new RangeError(`mainsHz must be 50 or 60 Hz (or 0: detect), got ${cfg.mainsHz}`);
   const cond = createConditionState(cfg);
@@ -195,8 +196,10 @@ function processConditioned(ps: PipelineState): void {
     stepSteadyStore(ps.steady, x, i, i + k, j0);
     const j = stepHistory(hist, x, cond.outUnusable, i, i + k, j0, tb.envM);
     stepToneEnvelopes(tones, x, i, i + k, j0, tb, hist);
-    stepLiveOnset(ps.liveOnset, x, i, i + k);
-    for (let q = 0; q < ps.liveOnset.onsetCount; q++) ps.live.onsets.push({ timeS: timeOfJ(tb, ps.liveOnset.onsetJ[q]), frequencyHz: ps.liveOnset.onsetFreqHz[q] });
+    if (ps.cfg.announceOnsets) {
+      stepLiveOnset(ps.liveOnset, x, i, i + k);
+      for (let q = 0; q < ps.liveOnset.onsetCount; q++) ps.live.onsets.push({ timeS: timeOfJ(tb, ps.liveOnset.onsetJ[q]), frequencyHz: ps.liveOnset.onsetFreqHz[q] });
+    }
     tb.j = j;
     if (feedSpectrum(spec, x, i, i + k)) processFrame(ps);
     i += k;

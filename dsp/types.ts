@@ -36,6 +36,13 @@ export interface AnalysisConfig {
    * quantising a strong tone. Omitted (or 0) for float samples and live audio.
    */
   sampleBits?: number;
+  /**
+   * Announce onsets as they happen (push()'s `onsets`, from the short-frame detector in
+   * dsp/live-onset.ts). Default true. A driver that wants the report only (the command line on
+   * files) sets false: the detector, the largest stage of push(), is skipped, push() returns no
+   * onsets, and the report is the same (its onsets come from finish()'s fits).
+   */
+  announceOnsets?: boolean;
 }
 
 /** A user marker typed while recording ("driving off", "firing rate 60 %"). */

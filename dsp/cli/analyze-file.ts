@@ -80,7 +80,7 @@ function makeAnalysis(s: AnalyzeSettings, sampleRateHz: number, sampleBits = 0):
     throw new CliError(`--band up to ${s.bandHighHz} Hz is above half the sample rate (${nyquist} Hz)`, EXIT.BAD_PARAMETER);
   }
   try {
-    return createAnalysis({ sampleRateHz, bandLowHz: s.bandLowHz, bandHighHz: s.bandHighHz, sampleBits });
+    return createAnalysis({ sampleRateHz, bandLowHz: s.bandLowHz, bandHighHz: s.bandHighHz, sampleBits, announceOnsets: false });
   } catch (e) {
     if (e instanceof RangeError) throw new CliError(withOptionNames(e.message), EXIT.BAD_PARAMETER);
     throw e;

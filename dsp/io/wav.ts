@@ -93,6 +93,8 @@ const UNKNOWN_SIZE = 0xffffffff;
 const Phase = { Riff: 0, ChunkHeader: 1, FmtBody: 2, Skip: 3, Data: 4 } as const;
 /** Sample kinds. */
 const Kind = { U8: 0, S16: 1, S24: 2, S32: 3, F32: 4, F64: 5 } as const;
+/** Typed arrays use the platform's byte order; WAV samples are little-endian. */
+const IS_LITTLE_ENDIAN = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1;
 
 /** Creates a streaming WAV decoder. */
 export function createWavDecoder(options: WavDecodeOptions = {}): WavDecoder {
@@ -433,6 +435,11 @@ function decodeSums(kind: number, view: DataView, base: number, stride: number, 
       }
       return 128;
     case Kind.S16:
+      if (nc === 1 && stride === 2 && IS_LITTLE_ENDIAN && (view.byteOffset + base) % 2 === 0) {
+        // 16-bit mono, aligned: a typed-array view reads about twice as fast as DataView calls.
+        out.set(new Int16Array(view.buffer, view.byteOffset + base, frames), outOff);
+        return 32768;
+      }
       if (nc === 1) {
         for (let f = 0, p = base; f < frames; f++, p += stride) out[outOff + f] = view.getInt16(p, true);
         return 32768;

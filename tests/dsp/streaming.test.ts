@@ -16,8 +16,8 @@ interface Run {
   segments: Segment[];
 }
 
-function run(x: Float32Array, fs: number, block: number): Run {
-  const a = createAnalysis({ sampleRateHz: fs });
+function run(x: Float32Array, fs: number, block: number, announceOnsets = true): Run {
+  const a = createAnalysis({ sampleRateHz: fs, announceOnsets });
   a.mark({ timeS: 5, kind: 'driving-off', label: 'heater off' });
   const frames: TrackFrame[] = [];
   const onsets: Onset[] = [];
@@ -46,6 +46,14 @@ describe('block-size invariance', () => {
     expect(reference.report.clipped?.length).toBe(1);
     expect(reference.frames.length).toBeGreaterThan(600);
     expect(reference.onsets).toHaveLength(1);
+  });
+
+  it('a report-only run (no live onset announcements) gives the same report and track rows, and announces nothing', () => {
+    const r = run(x, fs, 4096, false);
+    expect(r.report).toEqual(reference.report);
+    expect(r.frames).toEqual(reference.frames);
+    expect(r.segments).toEqual(reference.segments);
+    expect(r.onsets).toEqual([]);
   });
 
   for (const block of [1, 127, 1000]) {
