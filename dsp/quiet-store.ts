@@ -107,7 +107,7 @@ export function closeQuietStretch(
 }
 
 /**
- * The most prominent peak of the long-averaged (Welch, Hann, 75 % overlap) spectrum of a quiet
+ * The most prominent peak of the long-averaged (Welch, Hann, the frames' hop: 50 % overlap) spectrum of a quiet
  * stretch, away from steady lines; null when none stands out.
  */
 function findResonance(ctx: ResonanceContext, x: Float32Array): number | null {
