@@ -247,7 +247,7 @@ function stageCosts(row: RowFn, x: Float32Array, fs: number, frameSize: number, 
     for (let i = 0; i < nc; i += 1024) stepLiveOnset(lo, y, i, Math.min(nc, i + 1024));
   });
   row('stage: conditioning (decimation to the analysis rate)', `${perMin(condS)} (${num(fs / 1000, 3)} → ${num(fsA / 1000, 3)} kHz)`, '—', 'info');
-  row('stage: spectral frames (window, fft.js, averages)', `${perMin(specS)} (${num(frames / seconds, 3)} frames of ${frameSize} per s)`, '—', 'info');
+  row('stage: spectral frames (windowed real FFT of dsp/real-fft.ts, averages)', `${perMin(specS)} (${num(frames / seconds, 3)} frames of ${frameSize} per s)`, '—', 'info');
   row('stage: peak picking and harmonic grouping', perMin(peakS), '—', 'info');
   row('stage: one envelope demodulator (narrow and wide band)', perMin(envS), '—', 'info');
   row('stage: live onset detector (short frames, CUSUM per bin)', perMin(liveS), '—', 'info');
