@@ -374,9 +374,21 @@ export function stepCondition(st: ConditionState, block: Float32Array): void {
   const a = first !== null ? first.work : st.scratchA;
   const off = first !== null ? first.length - 1 : 0;
   a.set(block, off);
-  // Peak in one branch-free pass (Math.max carries a NaN through: non-finite input).
-  let peak = 0;
-  for (let i = 0; i < n; i++) peak = Math.max(peak, Math.abs(block[i]));
+  // Peak in one branch-free pass (Math.max carries a NaN through: non-finite input), four running
+  // maxima so that each waits on its own previous value only.
+  let p0 = 0;
+  let p1 = 0;
+  let p2 = 0;
+  let p3 = 0;
+  let i = 0;
+  for (; i + 3 < n; i += 4) {
+    p0 = Math.max(p0, Math.abs(block[i]));
+    p1 = Math.max(p1, Math.abs(block[i + 1]));
+    p2 = Math.max(p2, Math.abs(block[i + 2]));
+    p3 = Math.max(p3, Math.abs(block[i + 3]));
+  }
+  for (; i < n; i++) p0 = Math.max(p0, Math.abs(block[i]));
+  let peak = Math.max(Math.max(p0, p1), Math.max(p2, p3));
   const nonFinite = peak !== peak;
   if (nonFinite) {
     peak = 0;

@@ -67,35 +67,71 @@ export function createHistory(p: { analysisRateHz: number; spec: SpectrumState; 
 export function stepHistory(h: History, x: Float32Array, clip: Uint8Array, from: number, to: number, j0: number, m: number): number {
   const ringCap = h.ring.length;
   const envLen = h.envMs.length;
-  const ring = h.ring;
-  let j = j0;
-  let rp = j % ringCap;
-  let ph = j % m;
+  writeRing(h.ring, x, from, to, j0);
+  let ph = j0 % m;
   let accMs = h.accMs;
   let accClip = h.accClip;
-  for (let q = from; q < to; q++) {
-    const v = x[q];
-    ring[rp] = v;
-    if (++rp === ringCap) rp = 0;
-    accMs += v * v;
-    if (clip[q]) {
-      accClip = 1;
-      h.lastClipJ = j;
+  let sawClip = 0;
+  // Envelope-clock sample by sample: the inner loop runs to the end of the sample or of the input.
+  let q = from;
+  while (q < to) {
+    const stop = Math.min(to, q + (m - ph));
+    ph += stop - q;
+    for (; q < stop; q++) {
+      const v = x[q];
+      accMs += v * v;
+      accClip |= clip[q];
     }
-    j++;
-    if (++ph === m) {
-      ph = 0;
-      const g = j / m - 1;
-      h.envMs[g % envLen] = accMs / m;
-      h.envClip[g % envLen] = accClip;
-      accMs = 0;
-      accClip = 0;
+    if (ph < m) break;
+    ph = 0;
+    const g = (j0 + (q - from)) / m - 1;
+    h.envMs[g % envLen] = accMs / m;
+    h.envClip[g % envLen] = accClip;
+    sawClip |= accClip;
+    accMs = 0;
+    accClip = 0;
+  }
+  // The latest clipped sample, looked for only when the input clipped.
+  if (sawClip | accClip) {
+    for (let k = to - 1; k >= from; k--) {
+      if (clip[k]) {
+        h.lastClipJ = j0 + (k - from);
+        break;
+      }
     }
   }
+  const j = j0 + (to - from);
   h.accMs = accMs;
   h.accClip = accClip;
   if (h.ringStartJ < j - ringCap) h.ringStartJ = j - ringCap;
   return j;
+}
+
+/**
+ * Writes x[from, to) into a ring of samples indexed by global analysis index (index j at j mod
+ * length), the first at j0: at most two block copies (only the newest ring.length samples stay).
+ */
+export function writeRing(ring: Float32Array, x: Float32Array, from: number, to: number, j0: number): void {
+  const cap = ring.length;
+  if (to - from > cap) {
+    j0 += to - from - cap;
+    from = to - cap;
+  }
+  const p = j0 % cap;
+  const first = Math.min(to - from, cap - p);
+  ring.set(x.subarray(from, from + first), p);
+  if (from + first < to) ring.set(x.subarray(from + first, to), 0);
+}
+
+/** The samples of global analysis indices j0 .. j0 + len − 1 (len ≤ ring.length) from a ring written by writeRing, as a new array. */
+export function readRing(ring: Float32Array, j0: number, len: number): Float32Array {
+  const cap = ring.length;
+  const p = j0 % cap;
+  const first = Math.min(len, cap - p);
+  const x = new Float32Array(len);
+  x.set(ring.subarray(p, p + first));
+  if (first < len) x.set(ring.subarray(0, len - first), first);
+  return x;
 }
 
 /** Keeps frame `frameIdx`'s power spectrum and centre time. */
@@ -103,7 +139,7 @@ export function storeFrame(h: History, frameIdx: number, power: Float32Array | F
   const fr = h.frameTimeS.length;
   h.frameTimeS[frameIdx % fr] = timeS;
   const slot = h.frameRing[frameIdx % fr];
-  for (let k = 0; k < slot.length; k++) slot[k] = power[k];
+  slot.set(power.length === slot.length ? power : power.subarray(0, slot.length));
 }
 
 /** Forgets samples and frames before a gap that starts the new time base at analysis index jNext. */

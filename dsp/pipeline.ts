@@ -58,6 +58,8 @@ interface PipelineState {
   warnings: string[];
   spectrumDbfs: Float32Array;
   hasSpectrum: boolean;
+  /** spectrumDbfs lags the latest frame (converted when read). */
+  isSpectrumDbStale: boolean;
   sawFrame: boolean;
   isFinished: boolean;
 }
@@ -98,6 +100,7 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
     warnings: [],
     spectrumDbfs: new Float32Array(spec.binCount).fill(-200),
     hasSpectrum: false,
+    isSpectrumDbStale: false,
     sawFrame: false,
     isFinished: false,
   };
@@ -203,6 +206,25 @@ function processConditioned(ps: PipelineState): void {
   }
 }
 
+/**
+ * The latest frame's spectrum in dBFS, null before the first frame. Only the analysed band is
+ * converted (the rest stays at the floor value). 10·log10 p is taken as (10/ln 10)·ln p: Math.log
+ * costs about 60 % of Math.log10 and the float32 dB agree. The frame's power stays in the spectrum
+ * state until the next frame, so a late conversion gives the numbers an immediate one would.
+ */
+function latestSpectrumDbfs(ps: PipelineState): Float32Array | null {
+  if (!ps.hasSpectrum) return null;
+  if (ps.isSpectrumDbStale) {
+    const p = ps.spec.power;
+    const out = ps.spectrumDbfs;
+    const hi = Math.min(out.length, ps.hist.hiBin + 1);
+    const dbPerNeper = 10 / Math.LN10;
+    for (let k = 0; k < hi; k++) out[k] = dbPerNeper * Math.log(p[k] > 1e-20 ? p[k] : 1e-20);
+    ps.isSpectrumDbStale = false;
+  }
+  return ps.spectrumDbfs;
+}
+
 function push(ps: PipelineState, block: Float32Array): AnalysisUpdate {
   if (ps.isFinished) throw new Error('push() after finish(): start a new analysis');
   beginLive(ps.live);
@@ -218,20 +240,17 @@ function push(ps: PipelineState, block: Float32Array): AnalysisUpdate {
   }
   ps.tb.durationInputSamples += block.length;
   if (ps.sawFrame) {
-    // Only the analysed band is converted (the rest stays at the floor value). 10·log10 p is
-    // taken as (10/ln 10)·ln p: Math.log costs about 60 % of Math.log10 and the float32 dB agree.
-    const p = ps.spec.power;
-    const out = ps.spectrumDbfs;
-    const hi = Math.min(out.length, ps.hist.hiBin + 1);
-    const dbPerNeper = 10 / Math.LN10;
-    for (let k = 0; k < hi; k++) out[k] = dbPerNeper * Math.log(p[k] > 1e-20 ? p[k] : 1e-20);
     ps.hasSpectrum = true;
+    ps.isSpectrumDbStale = true;
   }
   return {
     frames: ps.live.frames,
     onsets: ps.live.onsets,
     segments: ps.live.segments,
-    spectrumDbfs: ps.hasSpectrum ? ps.spectrumDbfs : null,
+    // Converted when first read (a reader of the report alone never pays for the logarithms).
+    get spectrumDbfs() {
+      return latestSpectrumDbfs(ps);
+    },
     spectrumBinHz: ps.spec.binHz,
     peakAbs: peak,
     isClipped,

@@ -5,6 +5,8 @@
  * spectrum is handed to dsp/damping.ts.
  */
 import { estimateNoiseDrivenDamping } from './damping';
+import { readRing, writeRing } from './history';
+import { realFftWindowed } from './real-fft';
 import { localFloorMean, type SpectrumState } from './spectrum';
 import type { NoiseDriven } from './types';
 
@@ -37,12 +39,7 @@ export function createQuietStore(analysisRateHz: number): QuietStore {
 export function stepQuietStore(qs: QuietStore, x: Float32Array, from: number, to: number, j0: number): void {
   if (!qs.isOpen) return;
   const cap = qs.ring.length;
-  const ring = qs.ring;
-  let qp = j0 % cap;
-  for (let q = from; q < to; q++) {
-    ring[qp] = x[q];
-    if (++qp === cap) qp = 0;
-  }
+  writeRing(qs.ring, x, from, to, j0);
   const j = j0 + (to - from);
   if (qs.startJ < j - cap) qs.startJ = j - cap;
 }
@@ -82,8 +79,7 @@ export function closeQuietStretch(
   const j0 = Math.max(qs.startJ, jEnd - cap);
   const len = jEnd - j0;
   if (len < QUIET_MIN_S * qs.analysisRateHz) return;
-  const x = new Float32Array(len);
-  for (let q = 0; q < len; q++) x[q] = qs.ring[(j0 + q) % cap];
+  const x = readRing(qs.ring, j0, len);
   const centre = findResonance(ctx, x);
   if (centre === null) return;
   onStretch?.(x, centre, j0);
@@ -111,7 +107,7 @@ export function closeQuietStretch(
 }
 
 /**
- * The most prominent peak of the long-averaged (Welch, Hann, 75 % overlap) spectrum of a quiet
+ * The most prominent peak of the long-averaged (Welch, Hann, the frames' hop: 50 % overlap) spectrum of a quiet
  * stretch, away from steady lines; null when none stands out.
  */
 function findResonance(ctx: ResonanceContext, x: Float32Array): number | null {
@@ -121,10 +117,10 @@ function findResonance(ctx: ResonanceContext, x: Float32Array): number | null {
   const acc = new Float64Array(spec.binCount);
   let frames = 0;
   const out = spec.fftOut;
-  const inp = spec.fftIn;
+  const frame = new Float64Array(n);
   for (let s = 0; s + n <= x.length; s += hop) {
-    for (let i = 0; i < n; i++) inp[i] = x[s + i] * spec.window[i];
-    spec.fft.realTransform(out, inp);
+    frame.set(x.subarray(s, s + n));
+    realFftWindowed(spec.fft, out, frame, 0, spec.window);
     for (let k = 0; k < spec.binCount; k++) acc[k] += out[2 * k] * out[2 * k] + out[2 * k + 1] * out[2 * k + 1];
     frames++;
   }

@@ -1,6 +1,7 @@
 /**
  * Stage 2, spectral frames: periodic-Hann windowed frames of the conditioned signal, transformed
- * once each with fft.js (realTransform into arrays owned here). Keeps the frame's power spectrum
+ * once each (dsp/real-fft.ts: fft.js's realTransform with the window applied as it reads the
+ * frame, into arrays owned here). Keeps the frame's power spectrum
  * and a short time average of it (for peak picking) and a local noise floor per bin.
  *
  * Power normalisation: a sine of amplitude a centred on a bin gives power a² in that bin
@@ -8,7 +9,7 @@
  * window (Harris 1978, "On the use of windows for harmonic analysis with the discrete Fourier
  * transform", Proc. IEEE 66(1): coherent gain 0.5, noise bandwidth 1.5 bins).
  */
-import FFT from 'fft.js';
+import { createRealFft, realFftWindowed, type RealFft } from './real-fft';
 
 /** Noise-equivalent bandwidth of the Hann window, bins (Harris 1978). */
 export const HANN_ENBW_BINS = 1.5;
@@ -22,8 +23,8 @@ export interface SpectrumConfig {
   /** Weight of the newest frame in the averaged spectrum (0-1]. */
   smoothing?: number;
   /**
-   * Whether frames also fill the averaged spectrum, its prefix sums and the frame's mean square
-   * (default true); false for a reader of the frame's power alone.
+   * Whether frames also fill the averaged spectrum and its prefix sums (default true); false for
+   * a reader of the frame's power alone.
    */
   averaged?: boolean;
 }
@@ -44,8 +45,8 @@ export interface SpectrumState {
   sinceFrame: number;
   /** Samples needed before the next frame is due. */
   toFrame: number;
-  fft: FFT;
-  fftIn: Float64Array;
+  fft: RealFft;
+  /** Transform output (interleaved re, im of bins 0 .. N/2, then scratch). */
   fftOut: Float64Array;
   powerScale: number;
   /** Power of the latest frame per bin (0 .. N/2), full-scale sine amplitude² units. */
@@ -54,8 +55,6 @@ export interface SpectrumState {
   smooth: Float64Array;
   /** Prefix sums of smooth (length binCount + 1), for local floor means. */
   prefix: Float64Array;
-  /** Mean square of the samples in the latest frame. */
-  frameMeanSquare: number;
   frameCount: number;
 }
 
@@ -87,14 +86,12 @@ export function createSpectrumState(cfg: SpectrumConfig): SpectrumState {
     pos: 0,
     sinceFrame: 0,
     toFrame: n,
-    fft: new FFT(n),
-    fftIn: new Float64Array(n),
+    fft: createRealFft(n),
     fftOut: new Float64Array(2 * n),
     powerScale: 4 / (sumW * sumW),
     power: new Float64Array(binCount),
     smooth: new Float64Array(binCount),
     prefix: new Float64Array(binCount + 1),
-    frameMeanSquare: 0,
     frameCount: 0,
   };
 }
@@ -107,27 +104,26 @@ export function feedSpectrum(st: SpectrumState, x: Float32Array, start: number, 
   const n = st.frameSize;
   const ring = st.ring;
   let pos = st.pos;
-  for (let i = start; i < end; i++) {
-    const v = x[i];
-    ring[pos] = v;
-    ring[pos + n] = v;
-    pos = pos + 1 === n ? 0 : pos + 1;
+  // Block copies up to the end of the ring, each written twice.
+  let i = start;
+  while (i < end) {
+    const k = Math.min(end - i, n - pos);
+    const src = x.subarray(i, i + k);
+    ring.set(src, pos);
+    ring.set(src, pos + n);
+    pos += k;
+    if (pos === n) pos = 0;
+    i += k;
   }
   st.pos = pos;
   st.toFrame -= end - start;
   return st.toFrame === 0;
 }
 
-/** Transforms the current frame: fills power, and (when averaged) smooth, prefix and frameMeanSquare. Allocates nothing. */
+/** Transforms the current frame: fills power, and (when averaged) smooth and prefix. Allocates nothing. */
 export function computeSpectrumFrame(st: SpectrumState): void {
-  const n = st.frameSize;
-  const ring = st.ring;
-  const w = st.window;
-  const inp = st.fftIn;
-  const base = st.pos;
+  realFftWindowed(st.fft, st.fftOut, st.ring, st.pos, st.window);
   if (!st.isAveraged) {
-    for (let i = 0; i < n; i++) inp[i] = ring[base + i] * w[i];
-    st.fft.realTransform(st.fftOut, inp);
     const out = st.fftOut;
     const p = st.power;
     const scale = st.powerScale;
@@ -140,14 +136,6 @@ export function computeSpectrumFrame(st: SpectrumState): void {
     st.toFrame = st.hopSize;
     return;
   }
-  let ms = 0;
-  for (let i = 0; i < n; i++) {
-    const v = ring[base + i];
-    ms += v * v;
-    inp[i] = v * w[i];
-  }
-  st.frameMeanSquare = ms / n;
-  st.fft.realTransform(st.fftOut, inp);
   const out = st.fftOut;
   const p = st.power;
   const sm = st.smooth;

@@ -5,6 +5,7 @@
  * statistics are estimated. Quiet stretches are handled by dsp/quiet-store.ts; the two are never
  * open at once, so this store writes into the quiet store's ring (no second buffer).
  */
+import { readRing, writeRing } from './history';
 import { modeStatisticsEntry } from './mode-statistics';
 import type { ModeStatistics } from './types';
 
@@ -32,11 +33,7 @@ export function createSteadyStore(ring: Float32Array, analysisRateHz: number): S
 export function stepSteadyStore(ss: SteadyStore, x: Float32Array, from: number, to: number, j0: number): void {
   if (!ss.isOpen) return;
   const cap = ss.ring.length;
-  let p = j0 % cap;
-  for (let q = from; q < to; q++) {
-    ss.ring[p] = x[q];
-    if (++p === cap) p = 0;
-  }
+  writeRing(ss.ring, x, from, to, j0);
   const j = j0 + (to - from);
   if (ss.startJ < j - cap) ss.startJ = j - cap;
 }
@@ -56,8 +53,7 @@ export function closeSteadyStretch(ss: SteadyStore, jEnd: number, timeOf: (j: nu
   const j0 = Math.max(ss.startJ, jEnd - cap);
   const len = jEnd - j0;
   if (len < STEADY_MIN_S * ss.analysisRateHz) return;
-  const x = new Float32Array(len);
-  for (let q = 0; q < len; q++) x[q] = ss.ring[(j0 + q) % cap];
+  const x = readRing(ss.ring, j0, len);
   for (const f of ss.tonesHz) {
     ss.results.push(modeStatisticsEntry(x, ss.analysisRateHz, { centreHz: f, startS: Math.max(0, timeOf(j0)), endS: timeOf(jEnd - 1), isClipped: isClippedSince(j0) }));
   }

@@ -274,3 +274,30 @@ describe('several tones, harmonics, gaps, clipping, input checks', () => {
     expect(() => createAnalysis({ sampleRateHz: 48000, bandLowHz: 500, bandHighHz: 100 })).toThrow(/band/);
   });
 });
+
+describe('live spectrum', () => {
+  // A sine centred on bin k of the 4096-point frame at 12 kHz (no decimation) has power a² in that
+  // bin (Hann coherent gain, Harris 1978; dsp/spectrum.ts), i.e. 20·log10 a dBFS.
+  const fs = 12000;
+  const binHz = fs / 4096;
+  const a = 0.1;
+  const x = synthesize({ sampleRateHz: fs, durationS: 3, tones: [{ frequencyHz: 100 * binHz, envelope: steadyEnvelope(a) }], noiseRms: 0, seed: 1 });
+
+  it('reads 20·log10 a at the tone’s bin, the same whether read at once or after a later push without a frame', () => {
+    const now = createAnalysis({ sampleRateHz: fs });
+    const atOnce = Float32Array.from(now.push(x).spectrumDbfs ?? []);
+    const late = createAnalysis({ sampleRateHz: fs });
+    const u = late.push(x);
+    // 10 samples: far fewer than a hop, so no new frame.
+    expect(late.push(new Float32Array(10)).spectrumDbfs).not.toBeNull();
+    const read = u.spectrumDbfs ?? new Float32Array(0);
+    expect(read.length).toBe(atOnce.length);
+    expect(read.every((v, i) => v === atOnce[i])).toBe(true);
+    // DC blocker flat within 0.001 dB in the band (dsp/condition.ts); float32 rounding.
+    expect(read[100]).toBeCloseTo(20 * Math.log10(a), 2);
+  });
+
+  it('is null before the first frame', () => {
+    expect(createAnalysis({ sampleRateHz: fs }).push(new Float32Array(100)).spectrumDbfs).toBeNull();
+  });
+});
