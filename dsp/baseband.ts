@@ -64,7 +64,44 @@ export function mixDownDecimate(x: Float32Array, sampleRateHz: number, centreHz:
   const count = x.length >= taps ? Math.floor((x.length - taps) / factor) + 1 : 0;
   const re = new Float64Array(count);
   const im = new Float64Array(count);
-  for (let j = 0; j < count; j++) {
+  // Four outputs per pass over the taps (each tap is loaded once for all four); every output keeps
+  // its own sums in tap order, so the values are those of one output at a time.
+  let j = 0;
+  for (; j + 4 <= count; j += 4) {
+    const n0 = j * factor;
+    const n1 = n0 + factor;
+    const n2 = n1 + factor;
+    const n3 = n2 + factor;
+    let ar0 = 0;
+    let ai0 = 0;
+    let ar1 = 0;
+    let ai1 = 0;
+    let ar2 = 0;
+    let ai2 = 0;
+    let ar3 = 0;
+    let ai3 = 0;
+    for (let k = 0; k < taps; k++) {
+      const cr = hr[k];
+      const ci = hi[k];
+      const v0 = x[n0 + k];
+      const v1 = x[n1 + k];
+      const v2 = x[n2 + k];
+      const v3 = x[n3 + k];
+      ar0 += cr * v0;
+      ai0 += ci * v0;
+      ar1 += cr * v1;
+      ai1 += ci * v1;
+      ar2 += cr * v2;
+      ai2 += ci * v2;
+      ar3 += cr * v3;
+      ai3 += ci * v3;
+    }
+    mixOut(re, im, j, ar0, ai0, w * n0);
+    mixOut(re, im, j + 1, ar1, ai1, w * n1);
+    mixOut(re, im, j + 2, ar2, ai2, w * n2);
+    mixOut(re, im, j + 3, ar3, ai3, w * n3);
+  }
+  for (; j < count; j++) {
     const n0 = j * factor;
     let ar = 0;
     let ai = 0;
@@ -73,14 +110,18 @@ export function mixDownDecimate(x: Float32Array, sampleRateHz: number, centreHz:
       ar += hr[k] * v;
       ai += hi[k] * v;
     }
-    // Mixer phase at the first tap (float64: error ~ n0·w·1e-16 rad, negligible).
-    const ph = -w * n0;
-    const c = Math.cos(ph);
-    const s = Math.sin(ph);
-    re[j] = ar * c - ai * s;
-    im[j] = ar * s + ai * c;
+    mixOut(re, im, j, ar, ai, w * n0);
   }
   return { re, im, rateHz, startS: half / sampleRateHz };
+}
+
+/** Output j: the filtered sum (ar, ai) turned by the mixer phase −phase at its first tap (float64: error ~ n0·w·1e-16 rad, negligible). */
+function mixOut(re: Float64Array, im: Float64Array, j: number, ar: number, ai: number, phase: number): void {
+  const ph = -phase;
+  const c = Math.cos(ph);
+  const s = Math.sin(ph);
+  re[j] = ar * c - ai * s;
+  im[j] = ar * s + ai * c;
 }
 
 /** fft.js plans by size, with their interleaved work arrays (sizes are powers of two: a few at most). */
