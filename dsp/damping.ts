@@ -122,14 +122,18 @@ export function fitLorentzianWhittle(freqHz: Float64Array, periodogram: Float64A
       dl[2] = (-lor * 2 * g2) / den / s;
       dl[3] = b / s;
       const u = periodogram[k] / s - 1;
+      // The information is symmetric: accumulate its upper triangle (same products, same order).
       for (let a = 0; a < 4; a++) {
         score[a] += u * dl[a];
-        for (let e = 0; e < 4; e++) fisher[a * 4 + e] += dl[a] * dl[e];
+        for (let e = a; e < 4; e++) fisher[a * 4 + e] += dl[a] * dl[e];
       }
     }
+    for (let a = 1; a < 4; a++) for (let e = 0; e < a; e++) fisher[a * 4 + e] = fisher[e * 4 + a];
   };
   let best: Float64Array | null = null;
   let bestNll = Number.POSITIVE_INFINITY;
+  const step = new Float64Array(4);
+  const trial = new Float64Array(4);
   // Multi-start over the half-width; Fisher scoring with step halving from each.
   for (const gammaHz of [0.05, 0.3, 1, 3, 8]) {
     if (gammaHz < binHz / 4) continue;
@@ -139,14 +143,18 @@ export function fitLorentzianWhittle(freqHz: Float64Array, periodogram: Float64A
       scoreAndFisher(th);
       const inv = invertSmallMatrix(fisher, 4);
       if (inv === null) break;
-      const step = new Float64Array(4);
+      step.fill(0);
       for (let a = 0; a < 4; a++) for (let e = 0; e < 4; e++) step[a] += inv[a * 4 + e] * score[e];
       let t = 1;
       let isAccepted = false;
       for (let h = 0; h < 30; h++) {
-        const trial = Float64Array.from(th);
-        for (let a = 0; a < 4; a++) trial[a] += t * step[a];
-        const v = nll(trial);
+        let isSame = true;
+        for (let a = 0; a < 4; a++) {
+          trial[a] = th[a] + t * step[a];
+          if (trial[a] !== th[a]) isSame = false;
+        }
+        // A step lost below the parameters' rounding leaves them (and their likelihood) as they are.
+        const v = isSame ? cur : nll(trial);
         if (v <= cur) {
           const gain = cur - v;
           th.set(trial);
