@@ -64,6 +64,14 @@ export interface LorentzianFit {
 }
 
 /**
+ * Least decrease of the Whittle negative log-likelihood worth another scoring step. A parameter
+ * left this far from the optimum moves the likelihood by 1e-10, i.e. it lies within
+ * √(2·1e-10) ≈ 1.4e-5 standard deviations of it (the likelihood's curvature is the Fisher
+ * information).
+ */
+const WHITTLE_MIN_GAIN = 1e-10;
+
+/**
  * Whittle (1953) likelihood fit of S(f) = C/((f − f0)² + γ²) + B to periodogram ordinates
  * `periodogram` at frequencies `freqHz` (complex data: each ordinate ~ S·Exp(1)); α = 2πγ in 1/s
  * with a 95 % interval from the inverse Fisher information (normal quantile, log scale).
@@ -145,6 +153,11 @@ export function fitLorentzianWhittle(freqHz: Float64Array, periodogram: Float64A
       if (inv === null) break;
       step.fill(0);
       for (let a = 0; a < 4; a++) for (let e = 0; e < 4; e++) step[a] += inv[a * 4 + e] * score[e];
+      // Converged when the scoring step promises less than the least gain worth a step (its
+      // quadratic model: half the score along the step; NaN stops too).
+      let promised = 0;
+      for (let a = 0; a < 4; a++) promised += 0.5 * score[a] * step[a];
+      if (!(promised > WHITTLE_MIN_GAIN)) break;
       let t = 1;
       let isAccepted = false;
       for (let h = 0; h < 30; h++) {
@@ -159,7 +172,7 @@ export function fitLorentzianWhittle(freqHz: Float64Array, periodogram: Float64A
           const gain = cur - v;
           th.set(trial);
           cur = v;
-          isAccepted = gain > 1e-10;
+          isAccepted = gain > WHITTLE_MIN_GAIN;
           break;
         }
         t /= 2;
