@@ -27,7 +27,7 @@
  *    understate it. `combined` is therefore the Lorentzian estimate, or the autocorrelation one
  *    when the Lorentzian fit fails.
  */
-import { dftAnyLength, fftInPlace, mixDownDecimate, nextPow2, type Baseband } from './baseband';
+import { dftBand, fftInPlace, mixDownDecimate, nextPow2, type Baseband } from './baseband';
 import { invertSmallMatrix, studentTQuantile, Z_975 } from './stats';
 import type { DecayEstimate } from './types';
 
@@ -385,18 +385,16 @@ export function estimateNoiseDrivenDamping(
   const z = mixDownDecimate(x, sampleRateHz, opts.centreHz, halfWidthHz);
   const n = z.re.length;
   if (n < 64) return failAll('record too short');
-  const spec = dftAnyLength(z.re, z.im);
   const binHz = z.rateHz / n;
   const kMax = Math.floor(halfWidthHz / binHz);
+  const spec = dftBand(z.re, z.im, kMax);
   const count = 2 * kMax + 1;
   const freqHz = new Float64Array(count);
   const periodogram = new Float64Array(count);
   const norm = 1 / (n * z.rateHz);
   for (let j = 0; j < count; j++) {
-    const k = j - kMax;
-    const idx = k < 0 ? k + n : k;
-    freqHz[j] = k * binHz;
-    periodogram[j] = (spec.re[idx] * spec.re[idx] + spec.im[idx] * spec.im[idx]) * norm;
+    freqHz[j] = (j - kMax) * binHz;
+    periodogram[j] = (spec.re[j] * spec.re[j] + spec.im[j] * spec.im[j]) * norm;
   }
   const lor = fitLorentzianWhittle(freqHz, periodogram);
   let offsetHz = lor.offsetHz;

@@ -11,7 +11,7 @@
  * ±halfWidthHz), scaled so |u| is the tone's peak amplitude, and turned at the mean phase rate so
  * the mode sits at 0 Hz. Whole-stretch function: it allocates; it never throws.
  */
-import { basebandFilter, dftAnyLength, mixDownDecimate } from './baseband';
+import { basebandFilter, dftBand, mixDownDecimate } from './baseband';
 import { fitLorentzianWhittle } from './damping';
 import { estimateEnvelopeStatistics, type BandFilterEffect, type ComplexEnvelope, type RouteEstimate } from './envelope-statistics';
 import { incompleteBeta, Z_975 } from './stats';
@@ -235,16 +235,14 @@ export function estimateModeStatistics(
   const frequencyHz = centre + (omega * z.rateHz) / (2 * Math.PI);
   const stats = estimateEnvelopeStatistics(u, bandFilterEffect(sampleRateHz, halfWidth));
   // Periodogram over the flat band: the Lorentzian route and the second-mode test.
-  const spec = dftAnyLength(u.re, u.im);
   const binHz = u.rateHz / n;
   const kMax = Math.floor(halfWidth / binHz);
+  const spec = dftBand(u.re, u.im, kMax);
   const freq = new Float64Array(2 * kMax + 1);
   const per = new Float64Array(2 * kMax + 1);
   for (let j = 0; j <= 2 * kMax; j++) {
-    const k = j - kMax;
-    const idx = k < 0 ? k + n : k;
-    freq[j] = k * binHz;
-    per[j] = (spec.re[idx] ** 2 + spec.im[idx] ** 2) / (n * u.rateHz);
+    freq[j] = (j - kMax) * binHz;
+    per[j] = (spec.re[j] ** 2 + spec.im[j] ** 2) / (n * u.rateHz);
   }
   const lor = fitLorentzianWhittle(freq, per);
   const best12 = reconcileRoutes([
