@@ -244,16 +244,17 @@ export function estimateModeStatistics(
     freq[j] = (j - kMax) * binHz;
     per[j] = (spec.re[j] ** 2 + spec.im[j] ** 2) / (n * u.rateHz);
   }
-  const lor = fitLorentzianWhittle(freq, per);
   const best12 = reconcileRoutes([
     { name: 'amplitude-pdf', est: stats.pdf },
     { name: 'drift-diffusion', est: stats.driftDiffusion },
   ]);
-  let lorentzian: RouteEstimate = invalidRoute(lor.estimate.reason ?? 'applies to a stable mode only');
-  // A stable mode only (routes 1-2 say so). The Lorentzian width reads the statistically linearised
-  // rate −ν + 2κE|u|² (REFERENCES.md §42), so the saturation term from the PDF route is added back,
-  // its uncertainty in quadrature.
-  if (lor.estimate.isValid && best12 !== null && best12.est.ci95PerS[1] < 0 && stats.pdf.isValid && stats.pdf.saturationCi95 !== undefined) {
+  // A stable mode only (routes 1-2 say so): the Lorentzian is fitted only then. Its width reads the
+  // statistically linearised rate −ν + 2κE|u|² (REFERENCES.md §42), so the saturation term from the
+  // PDF route is added back, its uncertainty in quadrature.
+  const isStable = best12 !== null && best12.est.ci95PerS[1] < 0 && stats.pdf.isValid && stats.pdf.saturationCi95 !== undefined;
+  const lor = isStable ? fitLorentzianWhittle(freq, per) : null;
+  let lorentzian: RouteEstimate = invalidRoute(lor?.estimate.reason ?? 'applies to a stable mode only');
+  if (lor !== null && lor.estimate.isValid && stats.pdf.saturationCi95 !== undefined) {
     const shift = 2 * stats.pdf.saturation * stats.meanSquare;
     const sdShift = (stats.meanSquare * (stats.pdf.saturationCi95[1] - stats.pdf.saturationCi95[0])) / Z_975;
     const sdLor = (lor.estimate.ci95PerS[1] - lor.estimate.ci95PerS[0]) / (2 * Z_975);
