@@ -5,7 +5,7 @@
  * (complex taps h[k]·e^{−iωk}), to about 8 × the band's half-width. The FIR is flat (ripple ~1e-4)
  * over the band and rejects everything that would alias into it by about 74 dB (Blackman window;
  * Harris 1978, Proc. IEEE 66(1)). Also the complex FFT of those estimators (fft.js, the one FFT of
- * the tree) and a DFT of any length (Bluestein).
+ * the tree) and a DFT of any length over a band of bins (Bluestein).
  */
 import FFT from 'fft.js';
 
@@ -64,7 +64,44 @@ export function mixDownDecimate(x: Float32Array, sampleRateHz: number, centreHz:
   const count = x.length >= taps ? Math.floor((x.length - taps) / factor) + 1 : 0;
   const re = new Float64Array(count);
   const im = new Float64Array(count);
-  for (let j = 0; j < count; j++) {
+  // Four outputs per pass over the taps (each tap is loaded once for all four); every output keeps
+  // its own sums in tap order, so the values are those of one output at a time.
+  let j = 0;
+  for (; j + 4 <= count; j += 4) {
+    const n0 = j * factor;
+    const n1 = n0 + factor;
+    const n2 = n1 + factor;
+    const n3 = n2 + factor;
+    let ar0 = 0;
+    let ai0 = 0;
+    let ar1 = 0;
+    let ai1 = 0;
+    let ar2 = 0;
+    let ai2 = 0;
+    let ar3 = 0;
+    let ai3 = 0;
+    for (let k = 0; k < taps; k++) {
+      const cr = hr[k];
+      const ci = hi[k];
+      const v0 = x[n0 + k];
+      const v1 = x[n1 + k];
+      const v2 = x[n2 + k];
+      const v3 = x[n3 + k];
+      ar0 += cr * v0;
+      ai0 += ci * v0;
+      ar1 += cr * v1;
+      ai1 += ci * v1;
+      ar2 += cr * v2;
+      ai2 += ci * v2;
+      ar3 += cr * v3;
+      ai3 += ci * v3;
+    }
+    mixOut(re, im, j, ar0, ai0, w * n0);
+    mixOut(re, im, j + 1, ar1, ai1, w * n1);
+    mixOut(re, im, j + 2, ar2, ai2, w * n2);
+    mixOut(re, im, j + 3, ar3, ai3, w * n3);
+  }
+  for (; j < count; j++) {
     const n0 = j * factor;
     let ar = 0;
     let ai = 0;
@@ -73,14 +110,18 @@ export function mixDownDecimate(x: Float32Array, sampleRateHz: number, centreHz:
       ar += hr[k] * v;
       ai += hi[k] * v;
     }
-    // Mixer phase at the first tap (float64: error ~ n0·w·1e-16 rad, negligible).
-    const ph = -w * n0;
-    const c = Math.cos(ph);
-    const s = Math.sin(ph);
-    re[j] = ar * c - ai * s;
-    im[j] = ar * s + ai * c;
+    mixOut(re, im, j, ar, ai, w * n0);
   }
   return { re, im, rateHz, startS: half / sampleRateHz };
+}
+
+/** Output j: the filtered sum (ar, ai) turned by the mixer phase −phase at its first tap (float64: error ~ n0·w·1e-16 rad, negligible). */
+function mixOut(re: Float64Array, im: Float64Array, j: number, ar: number, ai: number, phase: number): void {
+  const ph = -phase;
+  const c = Math.cos(ph);
+  const s = Math.sin(ph);
+  re[j] = ar * c - ai * s;
+  im[j] = ar * s + ai * c;
 }
 
 /** fft.js plans by size, with their interleaved work arrays (sizes are powers of two: a few at most). */
@@ -124,38 +165,42 @@ export function nextPow2(n: number): number {
 }
 
 /**
- * DFT of any length N by Bluestein's chirp-z identity nk = (n² + k² − (k − n)²)/2 (Bluestein
- * 1970, "A linear filtering approach to the computation of the discrete Fourier transform",
- * IEEE Trans. Audio Electroacoust. 18(4)), through radix-2 FFTs; returns new arrays.
+ * The DFT X[k] = Σ_t x[t]·e^{−2πikt/N} of a complex record of any length N, at the bins
+ * k = −kMax … kMax only (returned in that order, index j ↔ k = j − kMax), by Bluestein's chirp-z
+ * identity nk = (n² + k² − (k − n)²)/2 (Bluestein 1970, "A linear filtering approach to the
+ * computation of the discrete Fourier transform", IEEE Trans. Audio Electroacoust. 18(4)) through
+ * radix-2 FFTs. The chirp convolution needs only the lags k − t ∈ [−(N − 1) − kMax, kMax], so its
+ * FFTs are nextPow2(N + 2·kMax) long rather than nextPow2(2N − 1) for all N bins.
  */
-export function dftAnyLength(re: Float64Array, im: Float64Array): { re: Float64Array; im: Float64Array } {
+export function dftBand(re: Float64Array, im: Float64Array, kMax: number): { re: Float64Array; im: Float64Array } {
   const n = re.length;
-  const m = nextPow2(2 * n - 1);
-  const cr = new Float64Array(n);
-  const ci = new Float64Array(n);
+  const reach = n - 1 + kMax;
+  const m = nextPow2(reach + kMax + 1);
+  // Chirp c[j] = e^{−iπj²/N} for |j| ≤ reach (even in j).
+  const cr = new Float64Array(reach + 1);
+  const ci = new Float64Array(reach + 1);
   const twoN = 2 * n;
-  for (let k = 0; k < n; k++) {
-    // n² mod 2N in exact integer arithmetic keeps the chirp phase accurate for long records.
-    const r = (k * k) % twoN;
+  for (let j = 0; j <= reach; j++) {
+    // j² mod 2N in exact integer arithmetic keeps the chirp phase accurate for long records.
+    const r = (j * j) % twoN;
     const ang = (Math.PI * r) / n;
-    cr[k] = Math.cos(ang);
-    ci[k] = -Math.sin(ang);
+    cr[j] = Math.cos(ang);
+    ci[j] = -Math.sin(ang);
   }
   const ar = new Float64Array(m);
   const ai = new Float64Array(m);
-  for (let k = 0; k < n; k++) {
-    ar[k] = re[k] * cr[k] - im[k] * ci[k];
-    ai[k] = re[k] * ci[k] + im[k] * cr[k];
+  for (let t = 0; t < n; t++) {
+    ar[t] = re[t] * cr[t] - im[t] * ci[t];
+    ai[t] = re[t] * ci[t] + im[t] * cr[t];
   }
+  // conj(c) at every lag, lag d stored at d mod m (the lags span reach + kMax + 1 ≤ m: no overlap).
   const br = new Float64Array(m);
   const bi = new Float64Array(m);
-  br[0] = cr[0];
-  bi[0] = -ci[0];
-  for (let k = 1; k < n; k++) {
-    br[k] = cr[k];
-    bi[k] = -ci[k];
-    br[m - k] = cr[k];
-    bi[m - k] = -ci[k];
+  for (let d = -reach; d <= kMax; d++) {
+    const a = d < 0 ? -d : d;
+    const at = d < 0 ? d + m : d;
+    br[at] = cr[a];
+    bi[at] = -ci[a];
   }
   fftInPlace(ar, ai, -1);
   fftInPlace(br, bi, -1);
@@ -165,13 +210,17 @@ export function dftAnyLength(re: Float64Array, im: Float64Array): { re: Float64A
     ar[k] = tr;
   }
   fftInPlace(ar, ai, 1);
-  const outR = new Float64Array(n);
-  const outI = new Float64Array(n);
-  for (let k = 0; k < n; k++) {
-    const vr = ar[k] / m;
-    const vi = ai[k] / m;
-    outR[k] = vr * cr[k] - vi * ci[k];
-    outI[k] = vr * ci[k] + vi * cr[k];
+  const count = 2 * kMax + 1;
+  const outR = new Float64Array(count);
+  const outI = new Float64Array(count);
+  for (let j = 0; j < count; j++) {
+    const k = j - kMax;
+    const at = k < 0 ? k + m : k;
+    const a = k < 0 ? -k : k;
+    const vr = ar[at] / m;
+    const vi = ai[at] / m;
+    outR[j] = vr * cr[a] - vi * ci[a];
+    outI[j] = vr * ci[a] + vi * cr[a];
   }
   return { re: outR, im: outI };
 }

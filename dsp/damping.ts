@@ -27,7 +27,7 @@
  *    understate it. `combined` is therefore the Lorentzian estimate, or the autocorrelation one
  *    when the Lorentzian fit fails.
  */
-import { dftAnyLength, fftInPlace, mixDownDecimate, nextPow2, type Baseband } from './baseband';
+import { dftBand, fftInPlace, mixDownDecimate, nextPow2, type Baseband } from './baseband';
 import { invertSmallMatrix, studentTQuantile, Z_975 } from './stats';
 import type { DecayEstimate } from './types';
 
@@ -61,6 +61,30 @@ export interface LorentzianFit {
   /** Fitted floor and peak spectral density (same unit as the periodogram). */
   floorDensity: number;
   peakDensity: number;
+}
+
+/**
+ * Least decrease of the Whittle negative log-likelihood worth another scoring step. A parameter
+ * left this far from the optimum moves the likelihood by 1e-10, i.e. it lies within
+ * √(2·1e-10) ≈ 1.4e-5 standard deviations of it (the likelihood's curvature is the Fisher
+ * information).
+ */
+const WHITTLE_MIN_GAIN = 1e-10;
+/**
+ * The looser tolerance each start of the multi-start is run to before the best is taken on: starts
+ * that reach the same optimum then stand within about this much of its likelihood, and optima whose
+ * likelihoods differ by less are not told apart by the data (a likelihood ratio of e^0.001).
+ */
+const WHITTLE_START_GAIN = 1e-3;
+/** Scoring iterations allowed per start. */
+const WHITTLE_MAX_ITERATIONS = 200;
+
+/** One start of the Whittle fit's multi-start: its parameters, negative log-likelihood, iterations left, and whether it stopped where going on cannot help. */
+interface ScoringRun {
+  th: Float64Array;
+  nll: number;
+  iterationsLeft: number;
+  isStuck: boolean;
 }
 
 /**
@@ -122,61 +146,87 @@ export function fitLorentzianWhittle(freqHz: Float64Array, periodogram: Float64A
       dl[2] = (-lor * 2 * g2) / den / s;
       dl[3] = b / s;
       const u = periodogram[k] / s - 1;
+      // The information is symmetric: accumulate its upper triangle (same products, same order).
       for (let a = 0; a < 4; a++) {
         score[a] += u * dl[a];
-        for (let e = 0; e < 4; e++) fisher[a * 4 + e] += dl[a] * dl[e];
+        for (let e = a; e < 4; e++) fisher[a * 4 + e] += dl[a] * dl[e];
       }
     }
+    for (let a = 1; a < 4; a++) for (let e = 0; e < a; e++) fisher[a * 4 + e] = fisher[e * 4 + a];
   };
-  let best: Float64Array | null = null;
-  let bestNll = Number.POSITIVE_INFINITY;
-  // Multi-start over the half-width; Fisher scoring with step halving from each.
-  for (const gammaHz of [0.05, 0.3, 1, 3, 8]) {
-    if (gammaHz < binHz / 4) continue;
-    const th = Float64Array.of(Math.log(Math.max(peak0 - floor0, peak0 * 0.5) * gammaHz * gammaHz), freqHz[kPeak], Math.log(gammaHz), Math.log(floor0));
-    let cur = nll(th);
-    for (let iter = 0; iter < 200; iter++) {
+  const step = new Float64Array(4);
+  const trial = new Float64Array(4);
+  /**
+   * Fisher scoring with step halving from run.th until a scoring step promises less than minGain
+   * (its quadratic model: half the score along the step; NaN stops too), a line search gains less
+   * than WHITTLE_MIN_GAIN, the information is singular or WHITTLE_MAX_ITERATIONS run out; the last
+   * three leave the run stuck (going on cannot help).
+   */
+  const descend = (run: ScoringRun, minGain: number): void => {
+    const th = run.th;
+    while (run.iterationsLeft > 0) {
+      run.iterationsLeft--;
       scoreAndFisher(th);
       const inv = invertSmallMatrix(fisher, 4);
       if (inv === null) break;
-      const step = new Float64Array(4);
+      step.fill(0);
       for (let a = 0; a < 4; a++) for (let e = 0; e < 4; e++) step[a] += inv[a * 4 + e] * score[e];
+      let promised = 0;
+      for (let a = 0; a < 4; a++) promised += 0.5 * score[a] * step[a];
+      if (!(promised > minGain)) {
+        // Converged to minGain; the iteration is redone if the run goes on.
+        run.iterationsLeft++;
+        return;
+      }
       let t = 1;
       let isAccepted = false;
       for (let h = 0; h < 30; h++) {
-        const trial = Float64Array.from(th);
-        for (let a = 0; a < 4; a++) trial[a] += t * step[a];
-        const v = nll(trial);
-        if (v <= cur) {
-          const gain = cur - v;
+        let isSame = true;
+        for (let a = 0; a < 4; a++) {
+          trial[a] = th[a] + t * step[a];
+          if (trial[a] !== th[a]) isSame = false;
+        }
+        // A step lost below the parameters' rounding leaves them (and their likelihood) as they are.
+        const v = isSame ? run.nll : nll(trial);
+        if (v <= run.nll) {
+          const gain = run.nll - v;
           th.set(trial);
-          cur = v;
-          isAccepted = gain > 1e-10;
+          run.nll = v;
+          isAccepted = gain > WHITTLE_MIN_GAIN;
           break;
         }
         t /= 2;
       }
       if (!isAccepted) break;
     }
-    if (cur < bestNll && Number.isFinite(cur)) {
-      bestNll = cur;
-      best = th;
-    }
+    run.isStuck = true;
+  };
+  // Multi-start over the half-width, each run to a loose tolerance; the best is then taken on to
+  // the full one (the runs that share its optimum would only have matched it).
+  let best: ScoringRun | null = null;
+  for (const gammaHz of [0.05, 0.3, 1, 3, 8]) {
+    if (gammaHz < binHz / 4) continue;
+    const th = Float64Array.of(Math.log(Math.max(peak0 - floor0, peak0 * 0.5) * gammaHz * gammaHz), freqHz[kPeak], Math.log(gammaHz), Math.log(floor0));
+    const run: ScoringRun = { th, nll: nll(th), iterationsLeft: WHITTLE_MAX_ITERATIONS, isStuck: false };
+    descend(run, WHITTLE_START_GAIN);
+    if (Number.isFinite(run.nll) && (best === null || run.nll < best.nll)) best = run;
   }
+  if (best !== null && !best.isStuck) descend(best, WHITTLE_MIN_GAIN);
   if (best === null) return fail("Lorentzian fit did not converge");
-  scoreAndFisher(best);
+  const th = best.th;
+  scoreAndFisher(th);
   // A floor far below the Lorentzian tails carries less than one bin's worth of information
   // (Σ (B/S)² < 1): it is not identified, so treat it as zero and invert the other three.
   const isFloorIdentified = fisher[15] >= 1;
   const cov = isFloorIdentified ? invertSmallMatrix(fisher, 4) : invertSmallMatrix(leadingBlock(fisher, 4, 3), 3);
-  const alpha = 2 * Math.PI * Math.exp(best[2]);
-  const f0 = best[1];
+  const alpha = 2 * Math.PI * Math.exp(th[2]);
+  const f0 = th[1];
   const span = Math.abs(freqHz[n - 1] - freqHz[0]);
   const lo = Math.min(freqHz[0], freqHz[n - 1]);
   const result = {
     offsetHz: f0,
-    floorDensity: isFloorIdentified ? Math.exp(best[3]) : 0,
-    peakDensity: Math.exp(best[0] - 2 * best[2]) + Math.exp(best[3]),
+    floorDensity: isFloorIdentified ? Math.exp(th[3]) : 0,
+    peakDensity: Math.exp(th[0] - 2 * th[2]) + Math.exp(th[3]),
   };
   const varLogGamma = cov === null ? Number.NaN : isFloorIdentified ? cov[10] : cov[8];
   if (!(varLogGamma > 0)) return { ...result, estimate: invalid('Lorentzian fit information is singular') };
@@ -364,18 +414,16 @@ export function estimateNoiseDrivenDamping(
   const z = mixDownDecimate(x, sampleRateHz, opts.centreHz, halfWidthHz);
   const n = z.re.length;
   if (n < 64) return failAll('record too short');
-  const spec = dftAnyLength(z.re, z.im);
   const binHz = z.rateHz / n;
   const kMax = Math.floor(halfWidthHz / binHz);
+  const spec = dftBand(z.re, z.im, kMax);
   const count = 2 * kMax + 1;
   const freqHz = new Float64Array(count);
   const periodogram = new Float64Array(count);
   const norm = 1 / (n * z.rateHz);
   for (let j = 0; j < count; j++) {
-    const k = j - kMax;
-    const idx = k < 0 ? k + n : k;
-    freqHz[j] = k * binHz;
-    periodogram[j] = (spec.re[idx] * spec.re[idx] + spec.im[idx] * spec.im[idx]) * norm;
+    freqHz[j] = (j - kMax) * binHz;
+    periodogram[j] = (spec.re[j] * spec.re[j] + spec.im[j] * spec.im[j]) * norm;
   }
   const lor = fitLorentzianWhittle(freqHz, periodogram);
   let offsetHz = lor.offsetHz;

@@ -8,9 +8,10 @@
  * fold is a floor the estimator removes). pushLiveMargin allocates nothing; estimateLiveMargin
  * works on the whole window and allocates.
  */
-import { fftInPlace, mixDownDecimate } from './baseband';
+import { mixDownDecimate } from './baseband';
 import { earlyWarningIndicators } from './early-warning';
 import { estimateModeStatistics } from './mode-statistics';
+import { createRealFft, realFftWindowed } from './real-fft';
 import { kthSmallest } from './stats';
 import { isMainsMultiple, MAINS_HZ } from './track';
 import type { Interval, NoiseRegime } from './types';
@@ -125,19 +126,18 @@ export function isLiveMarginDue(st: LiveMarginState): boolean {
 
 /** The most prominent peak of the window's Welch spectrum (Hann, 50 % overlap) away from mains lines; NaN when none stands out. */
 function findResonanceHz(x: Float32Array, rateHz: number, bandHighHz: number): number {
-  const n = Math.min(SEARCH_FRAME, 1 << Math.floor(Math.log2(Math.max(2, x.length / 4))));
-  const re = new Float64Array(n);
-  const im = new Float64Array(n);
+  const n = Math.min(SEARCH_FRAME, 1 << Math.floor(Math.log2(Math.max(4, x.length / 4))));
+  // The spectrum's real-input transform (half the work of a complex FFT with a zero imaginary part).
+  const fft = createRealFft(n);
+  const frame = new Float64Array(n);
+  const out = new Float64Array(2 * n);
   const acc = new Float64Array(n / 2);
   const hann = new Float64Array(n);
   for (let i = 0; i < n; i++) hann[i] = 0.5 - 0.5 * Math.cos((2 * Math.PI * i) / n);
   for (let s = 0; s + n <= x.length; s += n / 2) {
-    for (let i = 0; i < n; i++) {
-      re[i] = x[s + i] * hann[i];
-      im[i] = 0;
-    }
-    fftInPlace(re, im, -1);
-    for (let k = 0; k < n / 2; k++) acc[k] += re[k] * re[k] + im[k] * im[k];
+    frame.set(x.subarray(s, s + n));
+    realFftWindowed(fft, out, frame, 0, hann);
+    for (let k = 0; k < n / 2; k++) acc[k] += out[2 * k] * out[2 * k] + out[2 * k + 1] * out[2 * k + 1];
   }
   const binHz = rateHz / n;
   const half = Math.max(4, Math.round(20 / binHz));

@@ -11,7 +11,7 @@
  * ±halfWidthHz), scaled so |u| is the tone's peak amplitude, and turned at the mean phase rate so
  * the mode sits at 0 Hz. Whole-stretch function: it allocates; it never throws.
  */
-import { basebandFilter, dftAnyLength, mixDownDecimate } from './baseband';
+import { basebandFilter, dftBand, mixDownDecimate } from './baseband';
 import { fitLorentzianWhittle } from './damping';
 import { estimateEnvelopeStatistics, type BandFilterEffect, type ComplexEnvelope, type RouteEstimate } from './envelope-statistics';
 import { incompleteBeta, Z_975 } from './stats';
@@ -234,28 +234,34 @@ export function estimateModeStatistics(
   }
   const frequencyHz = centre + (omega * z.rateHz) / (2 * Math.PI);
   const stats = estimateEnvelopeStatistics(u, bandFilterEffect(sampleRateHz, halfWidth));
-  // Periodogram over the flat band: the Lorentzian route and the second-mode test.
-  const spec = dftAnyLength(u.re, u.im);
-  const binHz = u.rateHz / n;
-  const kMax = Math.floor(halfWidth / binHz);
-  const freq = new Float64Array(2 * kMax + 1);
-  const per = new Float64Array(2 * kMax + 1);
-  for (let j = 0; j <= 2 * kMax; j++) {
-    const k = j - kMax;
-    const idx = k < 0 ? k + n : k;
-    freq[j] = k * binHz;
-    per[j] = (spec.re[idx] ** 2 + spec.im[idx] ** 2) / (n * u.rateHz);
-  }
-  const lor = fitLorentzianWhittle(freq, per);
+  // Periodogram over the flat band, for the Lorentzian route and the second-mode test: computed
+  // when the first of them needs it.
+  let band: { freq: Float64Array; per: Float64Array } | null = null;
+  const periodogram = (): { freq: Float64Array; per: Float64Array } => {
+    if (band !== null) return band;
+    const binHz = u.rateHz / n;
+    const kMax = Math.floor(halfWidth / binHz);
+    const spec = dftBand(u.re, u.im, kMax);
+    const freq = new Float64Array(2 * kMax + 1);
+    const per = new Float64Array(2 * kMax + 1);
+    for (let j = 0; j <= 2 * kMax; j++) {
+      freq[j] = (j - kMax) * binHz;
+      per[j] = (spec.re[j] ** 2 + spec.im[j] ** 2) / (n * u.rateHz);
+    }
+    band = { freq, per };
+    return band;
+  };
   const best12 = reconcileRoutes([
     { name: 'amplitude-pdf', est: stats.pdf },
     { name: 'drift-diffusion', est: stats.driftDiffusion },
   ]);
-  let lorentzian: RouteEstimate = invalidRoute(lor.estimate.reason ?? 'applies to a stable mode only');
-  // A stable mode only (routes 1-2 say so). The Lorentzian width reads the statistically linearised
-  // rate −ν + 2κE|u|² (REFERENCES.md §42), so the saturation term from the PDF route is added back,
-  // its uncertainty in quadrature.
-  if (lor.estimate.isValid && best12 !== null && best12.est.ci95PerS[1] < 0 && stats.pdf.isValid && stats.pdf.saturationCi95 !== undefined) {
+  // A stable mode only (routes 1-2 say so): the Lorentzian is fitted only then. Its width reads the
+  // statistically linearised rate −ν + 2κE|u|² (REFERENCES.md §42), so the saturation term from the
+  // PDF route is added back, its uncertainty in quadrature.
+  const isStable = best12 !== null && best12.est.ci95PerS[1] < 0 && stats.pdf.isValid && stats.pdf.saturationCi95 !== undefined;
+  const lor = isStable ? fitLorentzianWhittle(periodogram().freq, periodogram().per) : null;
+  let lorentzian: RouteEstimate = invalidRoute(lor?.estimate.reason ?? 'applies to a stable mode only');
+  if (lor !== null && lor.estimate.isValid && stats.pdf.saturationCi95 !== undefined) {
     const shift = 2 * stats.pdf.saturation * stats.meanSquare;
     const sdShift = (stats.meanSquare * (stats.pdf.saturationCi95[1] - stats.pdf.saturationCi95[0])) / Z_975;
     const sdLor = (lor.estimate.ci95PerS[1] - lor.estimate.ci95PerS[0]) / (2 * Z_975);
@@ -273,7 +279,7 @@ export function estimateModeStatistics(
   let reason: string | undefined;
   if (durationS < MODE_STATISTICS_MIN_S) reason = `stretch shorter than ${MODE_STATISTICS_MIN_S} s`;
   else if (opts.isClipped) reason = 'the input clipped: the amplitude distribution is cut';
-  else if (hasSecondMode(freq, per, stats.relaxationRatePerS / (2 * Math.PI))) reason = `a second mode or line within ±${halfWidth.toFixed(0)} Hz`;
+  else if (hasSecondMode(periodogram().freq, periodogram().per, stats.relaxationRatePerS / (2 * Math.PI))) reason = `a second mode or line within ±${halfWidth.toFixed(0)} Hz`;
   const pdfOrDrift = stats.pdf.isValid ? stats.pdf : stats.driftDiffusion;
   return {
     isValid: true,

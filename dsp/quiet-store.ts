@@ -114,6 +114,11 @@ function findResonance(ctx: ResonanceContext, x: Float32Array): number | null {
   const spec = ctx.spec;
   const n = spec.frameSize;
   const hop = spec.hopSize;
+  const lo = Math.max(ctx.loBin + 1, Math.ceil(RESONANCE_EDGE_HZ / spec.binHz));
+  const hi = Math.min(ctx.hiBin - 1, Math.floor((ctx.bandHighHz - RESONANCE_EDGE_HZ) / spec.binHz));
+  // The search reads bins up to hi (peaks below hi, their right neighbour, the floor's prefix sums
+  // up to hi): the average is kept up to there only.
+  const used = Math.max(0, Math.min(spec.binCount, hi + 1));
   const acc = new Float64Array(spec.binCount);
   let frames = 0;
   const out = spec.fftOut;
@@ -121,18 +126,16 @@ function findResonance(ctx: ResonanceContext, x: Float32Array): number | null {
   for (let s = 0; s + n <= x.length; s += hop) {
     frame.set(x.subarray(s, s + n));
     realFftWindowed(spec.fft, out, frame, 0, spec.window);
-    for (let k = 0; k < spec.binCount; k++) acc[k] += out[2 * k] * out[2 * k] + out[2 * k + 1] * out[2 * k + 1];
+    for (let k = 0; k < used; k++) acc[k] += out[2 * k] * out[2 * k] + out[2 * k + 1] * out[2 * k + 1];
     frames++;
   }
   if (frames < 8) return null;
   // The spectrum's own floor helper on a view of the averaged spectrum.
   const pre = new Float64Array(spec.binCount + 1);
-  for (let k = 0; k < spec.binCount; k++) pre[k + 1] = pre[k] + acc[k];
+  for (let k = 0; k < used; k++) pre[k + 1] = pre[k] + acc[k];
   const view = { ...spec, smooth: acc, prefix: pre } as SpectrumState;
   let bestK = -1;
   let bestProm = RESONANCE_MIN_DB;
-  const lo = Math.max(ctx.loBin + 1, Math.ceil(RESONANCE_EDGE_HZ / spec.binHz));
-  const hi = Math.min(ctx.hiBin - 1, Math.floor((ctx.bandHighHz - RESONANCE_EDGE_HZ) / spec.binHz));
   for (let k = lo; k < hi; k++) {
     if (!(acc[k] > acc[k - 1] && acc[k] >= acc[k + 1])) continue;
     const f = k * spec.binHz;
