@@ -128,7 +128,7 @@ function mixOut(re: Float64Array, im: Float64Array, j: number, ar: number, ai: n
 const fftPlans = new Map<number, { fft: FFT; input: number[]; output: number[] }>();
 
 /**
- * In-place complex FFT of a power-of-two length through fft.js (the one FFT of the tree);
+ * In-place complex FFT of a power-of-two length through fft.js (the real-input transform of real-fft.ts is derived from the same library);
  * inverse when sign = +1, unscaled (the caller divides by the length).
  */
 export function fftInPlace(re: Float64Array, im: Float64Array, sign: -1 | 1): void {
