@@ -44,6 +44,7 @@ describe('live margin to humming (ν from the noise while listening)', () => {
   });
 
   it('on a full 60 s window, estimates again once a sixth of it (10 s) is new, not every 2 s', () => {
+    // The project's own cadence rule (dsp/live-margin.ts LIVE_MARGIN_NEW_SHARE, derived there), not a physical value.
     const fs = 16000;
     const st = createLiveMargin({ sampleRateHz: fs });
     pushLiveMargin(st, new Float32Array(fs * 60));
