@@ -4,6 +4,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import { createAnalysis } from '../../dsp/pipeline';
+import { ENVELOPE_BANDWIDTH_HZ } from '../../dsp/tone-store';
 import { humCycleEnvelope, mainsHum, noiseDrivenMode, steadyEnvelope, synthesize, type EnvelopeFn } from '../../dsp/synth';
 import type { Marker, Report, TrackFrame } from '../../dsp/types';
 
@@ -25,12 +26,11 @@ function analyse(x: Float32Array, fs: number, opts: { block?: number; markers?: 
 
 /**
  * Band background of the envelope for white noise of RMS sigma: |z|² noise power = 8σ²B/fs, B the
- * one-sided noise bandwidth of the envelope low-pass (fourth-order Butterworth at 5 Hz:
- * B = 5·(π/8)/sin(π/8) = 5.131 Hz). Derived in dsp/envelope.ts.
+ * one-sided noise bandwidth of the envelope low-pass (a Blackman FIR whose length is chosen for a
+ * noise bandwidth of ENVELOPE_BANDWIDTH_HZ; derived in dsp/envelope.ts).
  */
 function bandNoisePower(sigma: number, fs: number): number {
-  const b = 5 * (Math.PI / 8) / Math.sin(Math.PI / 8);
-  return (8 * sigma * sigma * b) / fs;
+  return (8 * sigma * sigma * ENVELOPE_BANDWIDTH_HZ) / fs;
 }
 
 /** Lower and upper ends of an interval widened by a factor about its centre. */
