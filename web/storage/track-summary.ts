@@ -2,6 +2,7 @@
  * A report built from a stored track alone, for a session whose recording was interrupted and
  * whose raw audio was not kept. Cruder than the analysis of dsp/ and says so in its warnings.
  */
+import { addLinePoint, createLineSums, lineRss, lineSxx, lineSxy } from '../../dsp/line-fit';
 import { REPORT_VERSION, type Interval, type Onset, type Report, type Segment, type TrackFrame } from '../../dsp/types';
 
 /** 20·log10(e): dB per neper, so a level slope in dB/s divided by it is an amplitude rate in 1/s (REFERENCES.md §5). */
@@ -15,35 +16,19 @@ interface LineFit {
   count: number;
 }
 
-/** Ordinary least squares of y on x over the finite pairs (common practice). */
-export function fitLine(x: ArrayLike<number>, y: ArrayLike<number>): LineFit | null {
-  let n = 0;
-  let sx = 0;
-  let sy = 0;
+/** Ordinary least squares of y on x over the finite pairs (dsp/line-fit.ts, unit weights; common practice). */
+function fitLine(x: ArrayLike<number>, y: ArrayLike<number>): LineFit | null {
+  const sums = createLineSums();
+  let origin = Number.NaN;
   for (let i = 0; i < x.length; i++) {
     if (!Number.isFinite(x[i]) || !Number.isFinite(y[i])) continue;
-    n++;
-    sx += x[i];
-    sy += y[i];
+    if (!Number.isFinite(origin)) origin = x[i];
+    addLinePoint(sums, x[i] - origin, y[i], 1);
   }
-  if (n < 3) return null;
-  const mx = sx / n;
-  const my = sy / n;
-  let sxx = 0;
-  let sxy = 0;
-  for (let i = 0; i < x.length; i++) {
-    if (!Number.isFinite(x[i]) || !Number.isFinite(y[i])) continue;
-    sxx += (x[i] - mx) ** 2;
-    sxy += (x[i] - mx) * (y[i] - my);
-  }
-  if (!(sxx > 0)) return null;
-  const slope = sxy / sxx;
-  let sse = 0;
-  for (let i = 0; i < x.length; i++) {
-    if (!Number.isFinite(x[i]) || !Number.isFinite(y[i])) continue;
-    sse += (y[i] - my - slope * (x[i] - mx)) ** 2;
-  }
-  return { slope, slopeSe: Math.sqrt(sse / (n - 2) / sxx), count: n };
+  const sxx = lineSxx(sums);
+  if (sums.n < 3 || !(sxx > 0)) return null;
+  const slope = lineSxy(sums) / sxx;
+  return { slope, slopeSe: Math.sqrt(lineRss(sums, slope) / (sums.n - 2) / sxx), count: sums.n };
 }
 
 function median(values: number[]): number {
