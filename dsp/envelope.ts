@@ -49,10 +49,16 @@ export interface EnvelopeState {
   wideLength: number;
   wideOffset: number;
   readonly wideBandwidthHz: number;
-  /** Double-written history of boxcar outputs (I and Q). */
+  /**
+   * Boxcar outputs (I and Q), oldest first: the last kernelLength − 1 already filtered, then those
+   * waiting for the low-pass (at most ENVELOPE_BATCH).
+   */
   histRe: Float64Array;
   histIm: Float64Array;
-  pos: number;
+  /** Boxcar outputs held in histRe/histIm. */
+  filled: number;
+  /** Kernel sums of four outputs (re, im pairs), scratch of the low-pass. */
+  sums: Float64Array;
   /** Oscillator phasor and its per-sample rotation. */
   oscRe: number;
   oscIm: number;
@@ -115,9 +121,10 @@ export function createEnvelopeState(cfg: EnvelopeConfig): EnvelopeState {
     delayS: (len - 1) / 2 / outRate + m / cfg.sampleRateHz,
     settleSamples: len + 2,
     kernel,
-    histRe: new Float64Array(2 * len),
-    histIm: new Float64Array(2 * len),
-    pos: 0,
+    histRe: new Float64Array(len - 1 + ENVELOPE_BATCH),
+    histIm: new Float64Array(len - 1 + ENVELOPE_BATCH),
+    filled: len - 1,
+    sums: new Float64Array(8),
     oscRe: 1,
     oscIm: 0,
     rotRe: 1,
@@ -149,7 +156,7 @@ export function setEnvelopeFrequency(st: EnvelopeState, freqHz: number): void {
 export function resetEnvelope(st: EnvelopeState, phase: number): void {
   st.histRe.fill(0);
   st.histIm.fill(0);
-  st.pos = 0;
+  st.filled = st.kernelLength - 1;
   st.accRe = 0;
   st.accIm = 0;
   st.ascRe = 0;
@@ -160,6 +167,100 @@ export function resetEnvelope(st: EnvelopeState, phase: number): void {
   st.oscIm = 0;
   st.phase = phase;
   st.produced = 0;
+}
+
+/**
+ * Boxcar outputs low-passed together (at most this many wait): the sums of neighbouring envelope
+ * samples are independent, so four at a time keep the processor busy where one sum would wait on
+ * its previous addition.
+ */
+const ENVELOPE_BATCH = 64;
+
+/**
+ * Kernel sums of four neighbouring outputs: acc[2r], acc[2r + 1] = Σ_q kernel[q] · (re, im)[j + r + q],
+ * r = 0..3, each over the taps in order.
+ */
+function kernelSumsOfFour(kernel: Float64Array, n: number, re: Float64Array, im: Float64Array, j: number, acc: Float64Array): void {
+  let re0 = 0;
+  let im0 = 0;
+  let re1 = 0;
+  let im1 = 0;
+  let re2 = 0;
+  let im2 = 0;
+  let re3 = 0;
+  let im3 = 0;
+  for (let q = 0; q < n; q++) {
+    const c = kernel[q];
+    const at = j + q;
+    re0 += c * re[at];
+    im0 += c * im[at];
+    re1 += c * re[at + 1];
+    im1 += c * im[at + 1];
+    re2 += c * re[at + 2];
+    im2 += c * im[at + 2];
+    re3 += c * re[at + 3];
+    im3 += c * im[at + 3];
+  }
+  acc[0] = re0;
+  acc[1] = im0;
+  acc[2] = re1;
+  acc[3] = im1;
+  acc[4] = re2;
+  acc[5] = im2;
+  acc[6] = re3;
+  acc[7] = im3;
+}
+
+/**
+ * Low-passes the boxcar outputs waiting in the history: writes |z|² and arg z of the narrow band
+ * and |z|² of the wide band of each into the outputs from k on, keeps the last kernelLength − 1
+ * boxcar outputs; returns the next k. Every sum runs over the taps in order, as one at a time would.
+ */
+function lowPassBatch(st: EnvelopeState, out: Float64Array, outWide: Float64Array, outPhase: Float64Array, k: number): number {
+  const h = st.kernel;
+  const len = st.kernelLength;
+  const hw = st.wideKernel;
+  const lw = st.wideLength;
+  const ow = st.wideOffset;
+  const hr = st.histRe;
+  const hi = st.histIm;
+  const acc = st.sums;
+  const filled = st.filled;
+  if (filled < len) return k;
+  // Output e low-passes history[e .. e + len − 1].
+  let e = 0;
+  for (; e + 3 + len <= filled; e += 4) {
+    kernelSumsOfFour(h, len, hr, hi, e, acc);
+    for (let r = 0; r < 4; r++) {
+      out[k + r] = acc[2 * r] * acc[2 * r] + acc[2 * r + 1] * acc[2 * r + 1];
+      outPhase[k + r] = Math.atan2(acc[2 * r + 1], acc[2 * r]);
+    }
+    kernelSumsOfFour(hw, lw, hr, hi, e + ow, acc);
+    for (let r = 0; r < 4; r++) outWide[k + r] = acc[2 * r] * acc[2 * r] + acc[2 * r + 1] * acc[2 * r + 1];
+    k += 4;
+  }
+  for (; e + len <= filled; e++) {
+    let re = 0;
+    let im = 0;
+    for (let q = 0; q < len; q++) {
+      re += h[q] * hr[e + q];
+      im += h[q] * hi[e + q];
+    }
+    let wr = 0;
+    let wi = 0;
+    for (let q = 0; q < lw; q++) {
+      wr += hw[q] * hr[e + ow + q];
+      wi += hw[q] * hi[e + ow + q];
+    }
+    out[k] = re * re + im * im;
+    outPhase[k] = Math.atan2(im, re);
+    outWide[k] = wr * wr + wi * wi;
+    k++;
+  }
+  hr.copyWithin(0, filled - len + 1, filled);
+  hi.copyWithin(0, filled - len + 1, filled);
+  st.filled = len - 1;
+  return k;
 }
 
 /**
@@ -179,11 +280,6 @@ export function stepEnvelope(
   outAt: number,
 ): number {
   const m = st.decimation;
-  const h = st.kernel;
-  const len = st.kernelLength;
-  const hw = st.wideKernel;
-  const lw = st.wideLength;
-  const ow = st.wideOffset;
   const hr = st.histRe;
   const hi = st.histIm;
   let or = st.oscRe;
@@ -232,31 +328,11 @@ export function stepEnvelope(
     ai = 0;
     br = 0;
     bi = 0;
-    const p = st.pos;
-    hr[p] = zr;
-    hr[p + len] = zr;
-    hi[p] = zi;
-    hi[p + len] = zi;
-    st.pos = p + 1 === len ? 0 : p + 1;
-    // history[pos + 1 .. pos + len] holds the last len boxcar outputs, oldest first.
-    const base = p + 1;
-    let re = 0;
-    let im = 0;
-    for (let q = 0; q < len; q++) {
-      re += h[q] * hr[base + q];
-      im += h[q] * hi[base + q];
-    }
-    out[k] = re * re + im * im;
-    outPhase[k] = Math.atan2(im, re);
-    let wr = 0;
-    let wi = 0;
-    for (let q = 0; q < lw; q++) {
-      wr += hw[q] * hr[base + ow + q];
-      wi += hw[q] * hi[base + ow + q];
-    }
-    outWide[k] = wr * wr + wi * wi;
-    k++;
+    hr[st.filled] = zr;
+    hi[st.filled] = zi;
+    if (++st.filled === hr.length) k = lowPassBatch(st, out, outWide, outPhase, k);
   }
+  k = lowPassBatch(st, out, outWide, outPhase, k);
   st.oscRe = or;
   st.oscIm = oi;
   st.accRe = ar;

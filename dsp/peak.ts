@@ -81,50 +81,72 @@ export function peakFrequencyHz(st: SpectrumState, k: number): number {
 }
 
 /**
+ * First bin of from .. to − 1 whose averaged power is not clearly below its local floor (the
+ * power ratio clearlyBelow), or `to`: the floor is localFloorMean's on both sides, compared as sums
+ * over the span bins without the divisions. For bins at least FLOOR_OUTER_BINS inside the band.
+ */
+function firstNotClearlyBelow(sm: Float64Array, pre: Float64Array, from: number, to: number, clearlyBelow: number): number {
+  const span = FLOOR_OUTER_BINS - FLOOR_INNER_BINS + 1;
+  for (let k = from; k < to; k++) {
+    const sum = Math.min(pre[k - FLOOR_INNER_BINS + 1] - pre[k - FLOOR_OUTER_BINS], pre[k + FLOOR_OUTER_BINS + 1] - pre[k + FLOOR_INNER_BINS]);
+    if (!(sum > 0 && sum < Infinity && sm[k] * span < clearlyBelow * sum)) return k;
+  }
+  return to;
+}
+
+/** Adds bin k to the peak list when it is a local maximum of prominence ≥ minProminenceDb (the strongest out.capacity kept). */
+function keepPeak(st: SpectrumState, k: number, lo: number, hi: number, minProminenceDb: number, out: PeakList): void {
+  const sm = st.smooth;
+  if (!(sm[k] > sm[k - 1] && sm[k] >= sm[k + 1])) return;
+  const prom = prominenceDb(st, k, lo, hi);
+  if (prom < minProminenceDb) return;
+  let slot = out.count;
+  if (slot >= out.capacity) {
+    // Replace the weakest kept peak when this one is stronger.
+    let weakest = 0;
+    for (let j = 1; j < out.count; j++) if (out.prominenceDb[j] < out.prominenceDb[weakest]) weakest = j;
+    if (out.prominenceDb[weakest] >= prom) return;
+    slot = weakest;
+  } else out.count++;
+  const f = peakFrequencyHz(st, k);
+  const response = hannAmplitudeResponse(f / st.binHz - k);
+  out.freqHz[slot] = f;
+  out.bin[slot] = k;
+  out.prominenceDb[slot] = prom;
+  out.power[slot] = sm[k] / (response * response);
+  out.harmonicOf[slot] = 0;
+}
+
+/**
  * Finds local maxima of the averaged spectrum between loBin and hiBin (exclusive) whose prominence
  * is at least minProminenceDb; keeps the strongest out.capacity by prominence. Allocates nothing.
  */
 export function findPeaks(st: SpectrumState, loBin: number, hiBin: number, minProminenceDb: number, out: PeakList): void {
-  const sm = st.smooth;
   const lo = Math.max(1, loBin);
   const hi = Math.min(st.binCount - 1, hiBin);
   out.count = 0;
   // Power ratio a little under the threshold: maxima clearly below it skip the logarithm (most of
-  // a noisy spectrum's maxima); the rest are decided on the exact value in dB, as before.
+  // a noisy spectrum's maxima); the rest are decided on the exact value in dB.
   const clearlyBelow = 10 ** (minProminenceDb / 10) * (1 - 1e-9);
   // The floor test comes first: it rejects almost every bin of a noisy spectrum, and so is
   // predicted well, where the test for a local maximum fails at random. Away from the band edges
-  // the floor is localFloorMean's, taken from the prefix sums in place (the same operations).
-  const pre = st.prefix;
-  const span = FLOOR_OUTER_BINS - FLOOR_INNER_BINS + 1;
+  // it runs as a scan of its own over the prefix sums.
   const kInner0 = lo + FLOOR_OUTER_BINS;
   const kInner1 = hi - FLOOR_OUTER_BINS - 1;
-  for (let k = lo; k < hi; k++) {
-    const v = sm[k];
-    let floor: number;
+  let k = lo;
+  while (k < hi) {
     if (k >= kInner0 && k <= kInner1) {
-      floor = Math.min((pre[k - FLOOR_INNER_BINS + 1] - pre[k - FLOOR_OUTER_BINS]) / span, (pre[k + FLOOR_OUTER_BINS + 1] - pre[k + FLOOR_INNER_BINS]) / span);
-      if (!(floor < Infinity)) floor = 0;
-    } else floor = localFloorMean(st, k, FLOOR_INNER_BINS, FLOOR_OUTER_BINS, lo, hi);
-    if (floor > 0 && v < clearlyBelow * floor) continue;
-    if (!(v > sm[k - 1] && v >= sm[k + 1])) continue;
-    const prom = prominenceDb(st, k, lo, hi);
-    if (prom < minProminenceDb) continue;
-    let slot = out.count;
-    if (slot >= out.capacity) {
-      // Replace the weakest kept peak when this one is stronger.
-      let weakest = 0;
-      for (let j = 1; j < out.count; j++) if (out.prominenceDb[j] < out.prominenceDb[weakest]) weakest = j;
-      if (out.prominenceDb[weakest] >= prom) continue;
-      slot = weakest;
-    } else out.count++;
-    const f = peakFrequencyHz(st, k);
-    const d = f / st.binHz - k;
-    out.freqHz[slot] = f;
-    out.bin[slot] = k;
-    out.prominenceDb[slot] = prom;
-    out.power[slot] = sm[k] / (hannAmplitudeResponse(d) * hannAmplitudeResponse(d));
-    out.harmonicOf[slot] = 0;
+      k = firstNotClearlyBelow(st.smooth, st.prefix, k, kInner1 + 1, clearlyBelow);
+      if (k > kInner1) continue;
+    } else {
+      const floor = localFloorMean(st, k, FLOOR_INNER_BINS, FLOOR_OUTER_BINS, lo, hi);
+      if (floor > 0 && st.smooth[k] < clearlyBelow * floor) {
+        k++;
+        continue;
+      }
+    }
+    keepPeak(st, k, lo, hi, minProminenceDb, out);
+    k++;
   }
 }
 

@@ -158,6 +158,22 @@ describe('clipping', () => {
   });
 });
 
+describe('block peak', () => {
+  it('reports the largest |x| of each block: NaN samples aside, infinity and −0 as they are', () => {
+    // Definition of the peak level; IEEE 754 ordering of magnitudes (−0 has magnitude 0).
+    const st = createConditionState({ sampleRateHz: 48000, ...band });
+    const peakOf = (values: number[]): number => {
+      stepCondition(st, Float32Array.from(values));
+      return st.peakAbs;
+    };
+    expect(peakOf([0.25, -0.75, 0.5, 0.1, -0.2])).toBe(Math.fround(0.75));
+    expect(peakOf([-0, -0, -0, -0, -0, -0])).toBe(0);
+    expect(peakOf([0.1, NaN, -0.3, 0.2, NaN])).toBe(Math.fround(0.3));
+    expect(peakOf([0.1, -Infinity, 0.2, NaN])).toBe(Infinity);
+    expect(peakOf([1e-40, -3e-41, 0, 0])).toBe(Math.fround(1e-40));
+  });
+});
+
 describe('block size', () => {
   it('gives identical output for blocks of 1, 127, 1000 and 8192 samples', () => {
     const fs = 44100;

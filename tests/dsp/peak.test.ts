@@ -11,6 +11,7 @@ import {
   hannPeakOffset,
   hannLeakagePower,
   neighbourNoisePower,
+  prominenceDb,
   suppressLeakage,
 } from '../../dsp/peak';
 import { computeSpectrumFrame, createSpectrumState, feedSpectrum, type SpectrumState } from '../../dsp/spectrum';
@@ -163,6 +164,34 @@ describe('peaks and harmonic grouping', () => {
     expect(f).toHaveLength(1);
     // Hann leakage envelope 1/(π d (d² − 1)) (Harris 1978): at 10 bins 20·log10(1/(990 π)) = −69.86 dB.
     expect(10 * Math.log10(hannLeakagePower(10))).toBeCloseTo(-69.86, 2);
+  });
+
+  it('lists exactly the local maxima whose prominence reaches the threshold (a scan of every bin by the definition)', () => {
+    // Two tones in noise; band edges inside the frame, so the edge bins take the one-sided floor.
+    const x = synthesize({
+      sampleRateHz: fs,
+      durationS: 2,
+      tones: [
+        { frequencyHz: 171, envelope: () => 0.05 },
+        { frequencyHz: 1990.5, envelope: () => 0.002 },
+      ],
+      noiseRms: 0.01,
+      seed: 9,
+    });
+    const st = spectrumOf(x, fs, 4096);
+    for (const [lo, hi] of [[5, st.binCount - 2], [40, 700]]) {
+      for (const minDb of [3, 6, 12]) {
+        const peaks = createPeakList(1024);
+        findPeaks(st, lo, hi, minDb, peaks);
+        const listed = Array.from(peaks.bin.subarray(0, peaks.count)).sort((a, b) => a - b);
+        const expected: number[] = [];
+        const sm = st.smooth;
+        for (let k = lo; k < hi; k++) if (sm[k] > sm[k - 1] && sm[k] >= sm[k + 1] && prominenceDb(st, k, lo, hi) >= minDb) expected.push(k);
+        expect(listed).toEqual(expected);
+        // Not a vacuous comparison: the tones at least, and at 3 dB many noise maxima.
+        expect(expected.length).toBeGreaterThan(minDb === 3 ? 10 : 0);
+      }
+    }
   });
 
   it('finds no tone in white noise', () => {
