@@ -16,7 +16,7 @@ import { breakHistory, createHistory, stepHistory, storeFrame, type History } fr
 import { beginLive, collectLive, createLiveState, emitRows, type LiveState } from './live';
 import { classifyTransitions } from './line-class';
 import { relabelNoiseSegments } from './noise-label';
-import { closeQuietStretch, createQuietStore, openQuietStretch, QUIET_AFTER_DECAY_S, QUIET_GUARD_S, stepQuietStore, type QuietStore, type ResonanceContext } from './quiet-store';
+import { closeQuietStretch, createQuietStore, openQuietStretch, QUIET_AFTER_DECAY_S, QUIET_GUARD_S, stepQuietFrame, stepQuietStore, type QuietStore, type ResonanceContext } from './quiet-store';
 import { beginRegimeStep, finishRegime, STATE_DECAY, STATE_GROWTH, STATE_QUIET, STATE_STEADY } from './regime';
 import { modeStatisticsEntry } from './mode-statistics';
 import { closeSteadyStretch, createSteadyStore, openSteadyStretch, STEADY_SETTLE_S, stepSteadyStore, type SteadyStore } from './steady-store';
@@ -81,7 +81,7 @@ function createPipelineState(config: AnalysisConfig): PipelineState {
   const envM = Math.max(1, Math.round(fsA / ENVELOPE_RATE_HZ));
   const probe = createToneEnvelope(fsA, envM);
   const loBin = Math.max(1, Math.floor(cond.bandLowHz / spec.binHz));
-  const quiet = createQuietStore(fsA);
+  const quiet = createQuietStore(fsA, spec);
   const hiBin = Math.min(spec.binCount - 1, Math.ceil(cond.bandHighHz / spec.binHz));
   return {
     cfg,
@@ -119,7 +119,7 @@ function resonanceContext(ps: PipelineState): ResonanceContext {
 function closeQuiet(ps: PipelineState, jEnd: number): void {
   if (!ps.quiet.isOpen) return;
   const timeOf = (j: number): number => timeOfJ(ps.tb, j);
-  closeQuietStretch(ps.quiet, jEnd, resonanceContext(ps), timeOf, ps.warnings, (x, centreHz, j0) =>
+  closeQuietStretch(ps.quiet, jEnd, ps.hist, resonanceContext(ps), timeOf, ps.warnings, (x, centreHz, j0) =>
     ps.quietModeStatistics.push(modeStatisticsEntry(x, ps.fsA, { centreHz, startS: Math.max(0, timeOf(j0)), endS: timeOf(jEnd - 1), isClipped: ps.hist.lastClipJ >= j0 })),
   );
 }
@@ -155,6 +155,7 @@ function processFrame(ps: PipelineState): void {
   const frameIdx = spec.frameCount - 1;
   const tF = timeOfJ(tb, tb.j - 1 - (spec.frameSize - 1) / 2);
   storeFrame(hist, frameIdx, spec.power, tF);
+  stepQuietFrame(ps.quiet, hist, frameIdx, tb.j);
   stepTonesAtFrame(tones, spec, hist, tb, frameIdx, tF, hist.lastClipJ >= tb.j - spec.frameSize);
   // Regimes up to the frame centre.
   let anyActive = false;

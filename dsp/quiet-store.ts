@@ -2,10 +2,13 @@
  * Quiet stretches for noise-driven damping (docs/DESIGN.md "Quiet store", stage 7): while no tone
  * is active the conditioned samples are kept (up to QUIET_STORE_S); when a tone becomes active, or
  * at a gap or the end, the stretch is closed and the most prominent resonance of its averaged
- * spectrum is handed to dsp/damping.ts.
+ * spectrum is handed to dsp/damping.ts. The averaged spectrum is that of the analysis's own
+ * frames lying in the stretch: their power spectra are summed as they leave the frame history
+ * (dsp/history.ts), so the search transforms nothing again unless the stretch outgrew the store
+ * or closed further back than the history reaches.
  */
 import { estimateNoiseDrivenDamping } from './damping';
-import { readRing, writeRing } from './history';
+import { readRing, writeRing, type History } from './history';
 import { realFftWindowed } from './real-fft';
 import { localFloorMean, type SpectrumState } from './spectrum';
 import type { NoiseDriven } from './types';
@@ -29,10 +32,60 @@ export interface QuietStore {
   isOpen: boolean;
   analysisRateHz: number;
   results: NoiseDriven[];
+  /** The analysis's frame grid: frame length and hop (samples), the latest frame's index and end (global analysis index). */
+  frameSize: number;
+  hopSize: number;
+  lastFrame: number;
+  lastFrameEndJ: number;
+  /** Sum of the power spectra of the open stretch's frames [sumFrom, sumTo) (empty when equal). */
+  frameSum: Float64Array;
+  sumFrom: number;
+  sumTo: number;
 }
 
-export function createQuietStore(analysisRateHz: number): QuietStore {
-  return { ring: new Float32Array(Math.ceil(QUIET_STORE_S * analysisRateHz)), startJ: 0, isOpen: true, analysisRateHz, results: [] };
+/** A quiet store at analysisRateHz for the analysis's frames (`spec`: length, hop and bins). */
+export function createQuietStore(analysisRateHz: number, spec: { frameSize: number; hopSize: number; binCount: number }): QuietStore {
+  return {
+    ring: new Float32Array(Math.ceil(QUIET_STORE_S * analysisRateHz)),
+    startJ: 0,
+    isOpen: true,
+    analysisRateHz,
+    results: [],
+    frameSize: spec.frameSize,
+    hopSize: spec.hopSize,
+    lastFrame: -1,
+    lastFrameEndJ: 0,
+    frameSum: new Float64Array(spec.binCount),
+    sumFrom: 0,
+    sumTo: 0,
+  };
+}
+
+/** Start (global analysis index) of frame f; valid for frames since the latest gap. */
+function frameStartJ(qs: QuietStore, f: number): number {
+  return qs.lastFrameEndJ - (qs.lastFrame - f) * qs.hopSize - qs.frameSize;
+}
+
+/**
+ * Notes frame frameIdx (just stored in the history, ending at global analysis index frameEndJ):
+ * the frame about to leave the history is added to the open stretch's sum when it lies in the
+ * stretch. Call at every frame, before the stretch is closed or opened.
+ */
+export function stepQuietFrame(qs: QuietStore, hist: History, frameIdx: number, frameEndJ: number): void {
+  qs.lastFrame = frameIdx;
+  qs.lastFrameEndJ = frameEndJ;
+  if (!qs.isOpen) return;
+  const held = hist.frameRing.length;
+  const f = frameIdx - held + 1;
+  if (f < 0 || f < hist.frameFloor || frameStartJ(qs, f) < qs.startJ) return;
+  const sum = qs.frameSum;
+  if (qs.sumTo === qs.sumFrom) {
+    sum.fill(0);
+    qs.sumFrom = f;
+  }
+  const p = hist.frameRing[f % held];
+  for (let k = 0; k < sum.length; k++) sum[k] += p[k];
+  qs.sumTo = f + 1;
 }
 
 /** Keeps conditioned samples x[from, to) starting at global analysis index j0 while a stretch is open. */
@@ -48,6 +101,8 @@ export function stepQuietStore(qs: QuietStore, x: Float32Array, from: number, to
 export function openQuietStretch(qs: QuietStore, j: number): void {
   qs.isOpen = true;
   qs.startJ = j;
+  qs.sumFrom = 0;
+  qs.sumTo = 0;
 }
 
 /** Where and what the search for a resonance may look at. */
@@ -64,10 +119,12 @@ export interface ResonanceContext {
  * Closes the open quiet stretch at global analysis index jEnd and estimates noise-driven damping
  * at its resonance; startS/endS come from timeOf (s of an analysis index). Warnings are appended.
  * `onStretch` receives the stretch, its resonance and first index (the growth rate from noise).
+ * `hist` holds the latest frames (those not yet summed).
  */
 export function closeQuietStretch(
   qs: QuietStore,
   jEnd: number,
+  hist: History,
   ctx: ResonanceContext,
   timeOf: (j: number) => number,
   warnings: string[],
@@ -80,7 +137,7 @@ export function closeQuietStretch(
   const len = jEnd - j0;
   if (len < QUIET_MIN_S * qs.analysisRateHz) return;
   const x = readRing(qs.ring, j0, len);
-  const centre = findResonance(ctx, x);
+  const centre = findResonance(ctx, stretchSpectrum(qs, hist, ctx.spec, x, j0, jEnd));
   if (centre === null) return;
   onStretch?.(x, centre, j0);
   const r = estimateNoiseDrivenDamping(x, qs.analysisRateHz, { centreHz: centre, searchHalfWidthHz: RESONANCE_SEARCH_HALF_WIDTH_HZ });
@@ -106,31 +163,65 @@ export function closeQuietStretch(
   qs.results.push(entry);
 }
 
+/** Summed power spectrum of the analysis frames lying wholly in a stretch, and how many. */
+interface StretchSpectrum {
+  sum: Float64Array;
+  frames: number;
+}
+
 /**
- * The most prominent peak of the long-averaged (Welch, Hann, the frames' hop: 50 % overlap) spectrum of a quiet
- * stretch, away from steady lines; null when none stands out.
+ * The summed power spectrum of the frames lying wholly in the stretch x = samples [j0, jEnd): the
+ * store's sum plus the frames still in the history; when the sum holds a frame outside the
+ * stretch (the stretch outgrew the store, or closed further back than the history reaches) the
+ * frames are transformed again from x, as the spectrum stage does (the same numbers: the power of
+ * dsp/spectrum.ts, kept as float32 like the history's frames).
  */
-function findResonance(ctx: ResonanceContext, x: Float32Array): number | null {
+function stretchSpectrum(qs: QuietStore, hist: History, spec: SpectrumState, x: Float32Array, j0: number, jEnd: number): StretchSpectrum {
+  const n = qs.frameSize;
+  const hop = qs.hopSize;
+  const last = qs.lastFrame;
+  const first = last - Math.floor((qs.lastFrameEndJ - n - j0) / hop);
+  const end = Math.min(last, last - Math.ceil((qs.lastFrameEndJ - jEnd) / hop));
+  const frames = Math.max(0, end - first + 1);
+  const sum = qs.frameSum;
+  const isSummed = qs.sumTo > qs.sumFrom;
+  if (frames === 0) return { sum, frames };
+  const held = hist.frameRing.length;
+  if (isSummed ? first === qs.sumFrom && end >= qs.sumTo - 1 : first > last - held) {
+    if (!isSummed) sum.fill(0);
+    for (let f = isSummed ? qs.sumTo : first; f <= end; f++) {
+      const p = hist.frameRing[f % held];
+      for (let k = 0; k < sum.length; k++) sum[k] += p[k];
+    }
+    return { sum, frames };
+  }
+  sum.fill(0);
+  const out = spec.fftOut;
+  const scale = spec.powerScale;
+  const frame = new Float64Array(n);
+  for (let f = first; f <= end; f++) {
+    const s = frameStartJ(qs, f) - j0;
+    frame.set(x.subarray(s, s + n));
+    realFftWindowed(spec.fft, out, frame, 0, spec.window);
+    for (let k = 0; k < sum.length; k++) sum[k] += Math.fround((out[2 * k] * out[2 * k] + out[2 * k + 1] * out[2 * k + 1]) * scale);
+  }
+  return { sum, frames };
+}
+
+/**
+ * The most prominent peak of the long-averaged (Welch: the analysis's Hann frames at its hop, 50 %
+ * overlap) spectrum of a quiet stretch, away from steady lines; null when none stands out.
+ */
+function findResonance(ctx: ResonanceContext, stretch: StretchSpectrum): number | null {
   const spec = ctx.spec;
-  const n = spec.frameSize;
-  const hop = spec.hopSize;
+  if (stretch.frames < 8) return null;
+  const acc = stretch.sum;
   const lo = Math.max(ctx.loBin + 1, Math.ceil(RESONANCE_EDGE_HZ / spec.binHz));
   const hi = Math.min(ctx.hiBin - 1, Math.floor((ctx.bandHighHz - RESONANCE_EDGE_HZ) / spec.binHz));
   // The search reads bins up to hi (peaks below hi, their right neighbour, the floor's prefix sums
-  // up to hi): the average is kept up to there only.
+  // up to hi).
   const used = Math.max(0, Math.min(spec.binCount, hi + 1));
-  const acc = new Float64Array(spec.binCount);
-  let frames = 0;
-  const out = spec.fftOut;
-  const frame = new Float64Array(n);
-  for (let s = 0; s + n <= x.length; s += hop) {
-    frame.set(x.subarray(s, s + n));
-    realFftWindowed(spec.fft, out, frame, 0, spec.window);
-    for (let k = 0; k < used; k++) acc[k] += out[2 * k] * out[2 * k] + out[2 * k + 1] * out[2 * k + 1];
-    frames++;
-  }
-  if (frames < 8) return null;
-  // The spectrum's own floor helper on a view of the averaged spectrum.
+  // The spectrum's own floor helper on a view of the summed spectrum (prominence is a ratio: the sum serves as the mean).
   const pre = new Float64Array(spec.binCount + 1);
   for (let k = 0; k < used; k++) pre[k + 1] = pre[k] + acc[k];
   const view = { ...spec, smooth: acc, prefix: pre } as SpectrumState;

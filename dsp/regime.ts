@@ -60,6 +60,10 @@ const WARMUP_HEAD_D2_S = 1.0;
 export const NOISE_D2 = 2.5;
 /** Time constant of the quiet baseline, s. */
 const BASELINE_TAU_S = 3;
+/** The excess thresholds as power ratios (the excess is compared as a ratio: no logarithm per sample). */
+const ON_RATIO = 10 ** (ON_DB / 10);
+const LOW_RATIO = 10 ** (LOW_DB / 10);
+const QUIET_RATIO = 10 ** (QUIET_DB / 10);
 
 /** A closed stretch of one regime, in envelope-sample indices of the track's store. */
 export interface RegimeSegment {
@@ -306,14 +310,15 @@ function stepCore(st: RegimeState, idx: number, p: number, bg: number): void {
   const ago = ring[idx % w];
   const haveWindow = idx - st.segStart >= w;
   ring[idx % w] = levelDb;
-  const excessDb = 10 * Math.log10(Math.max(ratio / st.baseline, 1e-30));
+  // The excess over the quiet baseline as a power ratio (compared with the thresholds' ratios).
+  const excess = ratio / st.baseline;
 
   switch (st.state) {
     case STATE_QUIET: {
       // Winsorised update: a rising tone cannot pull the baseline up by more than a few dB.
       st.baseline += st.baselineAlpha * (Math.min(ratio, 4 * st.baseline) - st.baseline);
-      if (excessDb <= LOW_DB) st.lastLowIdx = idx;
-      if (excessDb >= ON_DB) st.onHold++;
+      if (excess <= LOW_RATIO) st.lastLowIdx = idx;
+      if (excess >= ON_RATIO) st.onHold++;
       else st.onHold = 0;
       if (st.onHold >= st.onHoldMin) {
         const start = Math.max(st.lastLowIdx, st.segStart);
@@ -366,7 +371,7 @@ function stepCore(st: RegimeState, idx: number, p: number, bg: number): void {
       // over its level, clear of the background), from where it last held its level. From a line
       // that sounded faintly (not a limit cycle this tone grew into) the hum sets in there: an
       // onset; from a limit cycle it is a growth to a higher one, not an onset.
-      if (levelDb > st.steadyLevelDb + REGROW_DB && excessDb >= ON_DB) st.regrowHold++;
+      if (levelDb > st.steadyLevelDb + REGROW_DB && excess >= ON_RATIO) st.regrowHold++;
       else st.regrowHold = 0;
       if (st.regrowHold >= st.onHoldMin) {
         const start = Math.max(st.lastFlatIdx + 1, st.segStart);
@@ -388,7 +393,7 @@ function stepCore(st: RegimeState, idx: number, p: number, bg: number): void {
         st.minLevelDb = levelDb;
         st.minIdx = idx;
       }
-      if (excessDb < QUIET_DB) {
+      if (excess < QUIET_RATIO) {
         if (st.quietHold === 0) st.quietHoldStart = idx;
         st.quietHold++;
       } else st.quietHold = 0;
@@ -398,7 +403,7 @@ function stepCore(st: RegimeState, idx: number, p: number, bg: number): void {
         break;
       }
       // Re-growth must also stand clear of the background (a dip of the noise is not a minimum).
-      if (levelDb > st.minLevelDb + REGROW_DB && excessDb >= ON_DB) st.regrowHold++;
+      if (levelDb > st.minLevelDb + REGROW_DB && excess >= ON_RATIO) st.regrowHold++;
       else st.regrowHold = 0;
       if (st.regrowHold >= st.onHoldMin) {
         // The hum sets in again before it died away (the driving came back): an onset, at the
