@@ -307,9 +307,19 @@ function predictedDrop(jtj: Float64Array, jtr: Float64Array, size: number, from:
 /**
  * Levenberg–Marquardt polish of all parameters (Marquardt 1963), N² kept ≥ 0. Each trial point is
  * evaluated with its normal equations, so an accepted step needs no second pass over the data.
- * Returns the fraction by which it lowered the RSS.
+ * Returns the fraction by which it lowered the RSS. `isSettled`, when given, is asked before each
+ * lightly damped first attempt with the RSS and the drop that step's quadratic model predicts;
+ * true ends the polish there, the step not taken (for a caller that needs the RSS only to make a
+ * decision that no drop of that order could change).
  */
-export function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState, maxIter = 100): number {
+export function polish(
+  d: Prepared,
+  w: Float64Array,
+  model: ShapeModel,
+  state: FitState,
+  maxIter = 100,
+  isSettled?: (rss: number, predicted: number) => boolean,
+): number {
   const k = model.nNonlinear;
   const nFree = state.isBackgroundFixed ? k + 1 : k + 2;
   let jtj = new Float64Array(nFree * nFree);
@@ -341,7 +351,10 @@ export function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: F
       }
       // A first, lightly damped step whose quadratic model lowers the RSS by less than
       // PREDICTED_DROP_TOLERANCE would end the polish once evaluated: end it here, not taken.
-      if (attempt === 0 && lambda <= 1e-3 && predictedDrop(jtj, jtr, nFree, state.params, trial) <= PREDICTED_DROP_TOLERANCE * rss) break;
+      if (attempt === 0 && lambda <= 1e-3) {
+        const predicted = predictedDrop(jtj, jtr, nFree, state.params, trial);
+        if (predicted <= PREDICTED_DROP_TOLERANCE * rss || isSettled?.(rss, predicted) === true) break;
+      }
       const rssTrial = normalEquations(d, w, model, trial, nFree, trialJtj, trialJtr);
       if (rssTrial < rss) {
         const drop = (rss - rssTrial) / rss;
