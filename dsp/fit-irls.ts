@@ -56,33 +56,49 @@ function varianceOf(m: number, bg: number, bgFloor: number): number {
   return Math.max(b * (2 * m - b), b * b);
 }
 
+/** Sums of a series and its weights that do not depend on the shape: Σw, Σwy, Σwy². */
+interface DataSums {
+  sw: number;
+  sy: number;
+  swyy: number;
+}
+
+function dataSums(d: Prepared, w: Float64Array): DataSums {
+  let sw = 0;
+  let sy = 0;
+  let swyy = 0;
+  for (let i = 0; i < d.n; i++) {
+    sw += w[i];
+    sy += w[i] * d.y[i];
+    swyy += w[i] * d.y[i] * d.y[i];
+  }
+  return { sw, sy, swyy };
+}
+
 /**
  * For fixed nonlinear parameters: weighted linear fit of y ≈ L·g + N² with L > 0, N² ≥ 0 (or N²
  * fixed). Writes ln L and N² into `out`; returns the weighted RSS (Infinity if L ≤ 0), expanded
- * from the same sums (Σwy² − 2LΣwgy − 2N²Σwy + L²Σwg² + 2LN²Σwg + N⁴Σw, one pass over the data;
- * `swyy` = Σwy² is the caller's). The expansion loses the digits the RSS has below Σwy²·1e-16,
- * which does not matter to the grid it ranks (the polish that follows works on the residuals).
+ * from the same sums (Σwy² − 2LΣwgy − 2N²Σwy + L²Σwg² + 2LN²Σwg + N⁴Σw, one pass over the data
+ * for the sums with g; the others are the caller's, `data`). The expansion loses the digits the
+ * RSS has below Σwy²·1e-16, which does not matter to the grid it ranks (the polish that follows
+ * works on the residuals).
  */
 function solveLinear(
   d: Prepared,
   w: Float64Array,
   g: Float64Array,
   fixedBg: number | null,
-  swyy: number,
+  data: DataSums,
   out: { lnL: number; bg: number },
 ): number {
-  let sw = 0;
+  const { sw, sy, swyy } = data;
   let sg = 0;
-  let sy = 0;
   let sgg = 0;
   let sgy = 0;
   const y = d.y;
   for (let i = 0; i < d.n; i++) {
-    const wi = w[i];
-    const wg = wi * g[i];
-    sw += wi;
+    const wg = w[i] * g[i];
     sg += wg;
-    sy += wi * y[i];
     sgg += wg * g[i];
     sgy += wg * y[i];
   }
@@ -401,14 +417,13 @@ function gridSearch(
   let best: FitState | null = null;
   const counts = grid.values.map((v) => v.length);
   const bestAt = new Int32Array(k);
-  let swyy = 0;
-  for (let i = 0; i < d.n; i++) swyy += w[i] * d.y[i] * d.y[i];
+  const data = dataSums(d, w);
   // Every point of the box lo..hi (inclusive) taking every step-th value of each parameter.
   const searchBox = (lo: Int32Array, hi: Int32Array, step: number): void => {
     const at = Int32Array.from(lo);
     for (;;) {
       for (let j = 0; j < k; j++) theta[j] = grid.values[j][at[j]];
-      const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, swyy, lin);
+      const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, data, lin);
       if (rss < (best?.rss ?? Number.POSITIVE_INFINITY)) {
         const params = new Float64Array(k + 2);
         params[0] = lin.lnL;

@@ -453,10 +453,10 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
   const bg = params[k + 1];
   const p = chosen.p;
   if (!(s > 0)) return fail('no growth found', d.nEff);
-  const unidentified = unidentifiedRate(d, chosen, k);
+  const q = quantile975(chosen.fit);
+  const unidentified = unidentifiedRate(d, chosen, k, q);
   if (unidentified !== null) return { fit: { ...failFit(unidentified, d.nEff), model }, ratePerS: s, p, tcS: tc };
   const sdRate = Math.sqrt(chosen.fit.cov![1 * chosen.fit.nFree + 1]);
-  const q = studentTQuantile(0.975, Math.max(1, chosen.fit.nEff - chosen.fit.nFree));
   const atRef = saturationShape(p).evaluate(Float64Array.of(ref), 1, Float64Array.of(s, tc), false).g[0];
   const fit: SaturationFit = {
     isValid: true,
@@ -475,6 +475,11 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
   return { fit, ratePerS: s, p, tcS: tc };
 }
 
+/** Student-t 0.975 quantile of a fit's interval: N_eff − (free parameters) degrees of freedom, at least 1. */
+function quantile975(fit: IrlsResult): number {
+  return studentTQuantile(0.975, Math.max(1, fit.nEff - fit.nFree));
+}
+
 /**
  * Why the data do not identify a saturation fit's rate s (its parameters [ln A∞², s, t_c, (ln p,)
  * N²], k the index of N²), or null when they do. Not identified:
@@ -488,11 +493,11 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
  *   within one independent sample: it reads as a step, and every faster rate predicts the same
  *   data. An interval that reaches past that rate has not bounded s either.
  */
-function unidentifiedRate(d: Prepared, c: SaturationCandidate, k: number): string | null {
+function unidentifiedRate(d: Prepared, c: SaturationCandidate, k: number, q = quantile975(c.fit)): string | null {
   if (c.fit.cov === null) return 'fit covariance is singular';
   const params = c.fit.state.params;
   const s = params[1];
-  const half = studentTQuantile(0.975, Math.max(1, c.fit.nEff - c.fit.nFree)) * Math.sqrt(c.fit.cov[1 * c.fit.nFree + 1]);
+  const half = q * Math.sqrt(c.fit.cov[1 * c.fit.nFree + 1]);
   if (!Number.isFinite(s + half)) return 'rate variance undefined';
   const fastest = d.bandwidthHz * Math.log1p(Math.exp(params[0]) / params[k + 1]);
   if (s + half > fastest) return 'rate not resolved by the envelope band (the rise reads as a step)';
