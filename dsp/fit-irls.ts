@@ -56,33 +56,49 @@ function varianceOf(m: number, bg: number, bgFloor: number): number {
   return Math.max(b * (2 * m - b), b * b);
 }
 
+/** Sums of a series and its weights that do not depend on the shape: Σw, Σwy, Σwy². */
+interface DataSums {
+  sw: number;
+  sy: number;
+  swyy: number;
+}
+
+function dataSums(d: Prepared, w: Float64Array): DataSums {
+  let sw = 0;
+  let sy = 0;
+  let swyy = 0;
+  for (let i = 0; i < d.n; i++) {
+    sw += w[i];
+    sy += w[i] * d.y[i];
+    swyy += w[i] * d.y[i] * d.y[i];
+  }
+  return { sw, sy, swyy };
+}
+
 /**
  * For fixed nonlinear parameters: weighted linear fit of y ≈ L·g + N² with L > 0, N² ≥ 0 (or N²
  * fixed). Writes ln L and N² into `out`; returns the weighted RSS (Infinity if L ≤ 0), expanded
- * from the same sums (Σwy² − 2LΣwgy − 2N²Σwy + L²Σwg² + 2LN²Σwg + N⁴Σw, one pass over the data;
- * `swyy` = Σwy² is the caller's). The expansion loses the digits the RSS has below Σwy²·1e-16,
- * which does not matter to the grid it ranks (the polish that follows works on the residuals).
+ * from the same sums (Σwy² − 2LΣwgy − 2N²Σwy + L²Σwg² + 2LN²Σwg + N⁴Σw, one pass over the data
+ * for the sums with g; the others are the caller's, `data`). The expansion loses the digits the
+ * RSS has below Σwy²·1e-16, which does not matter to the grid it ranks (the polish that follows
+ * works on the residuals).
  */
 function solveLinear(
   d: Prepared,
   w: Float64Array,
   g: Float64Array,
   fixedBg: number | null,
-  swyy: number,
+  data: DataSums,
   out: { lnL: number; bg: number },
 ): number {
-  let sw = 0;
+  const { sw, sy, swyy } = data;
   let sg = 0;
-  let sy = 0;
   let sgg = 0;
   let sgy = 0;
   const y = d.y;
   for (let i = 0; i < d.n; i++) {
-    const wi = w[i];
-    const wg = wi * g[i];
-    sw += wi;
+    const wg = w[i] * g[i];
     sg += wg;
-    sy += wi * y[i];
     sgg += wg * g[i];
     sgy += wg * y[i];
   }
@@ -307,9 +323,19 @@ function predictedDrop(jtj: Float64Array, jtr: Float64Array, size: number, from:
 /**
  * Levenberg–Marquardt polish of all parameters (Marquardt 1963), N² kept ≥ 0. Each trial point is
  * evaluated with its normal equations, so an accepted step needs no second pass over the data.
- * Returns the fraction by which it lowered the RSS.
+ * Returns the fraction by which it lowered the RSS. `isSettled`, when given, is asked before each
+ * lightly damped first attempt with the RSS and the drop that step's quadratic model predicts;
+ * true ends the polish there, the step not taken (for a caller that needs the RSS only to make a
+ * decision that no drop of that order could change).
  */
-export function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: FitState, maxIter = 100): number {
+export function polish(
+  d: Prepared,
+  w: Float64Array,
+  model: ShapeModel,
+  state: FitState,
+  maxIter = 100,
+  isSettled?: (rss: number, predicted: number) => boolean,
+): number {
   const k = model.nNonlinear;
   const nFree = state.isBackgroundFixed ? k + 1 : k + 2;
   let jtj = new Float64Array(nFree * nFree);
@@ -341,7 +367,10 @@ export function polish(d: Prepared, w: Float64Array, model: ShapeModel, state: F
       }
       // A first, lightly damped step whose quadratic model lowers the RSS by less than
       // PREDICTED_DROP_TOLERANCE would end the polish once evaluated: end it here, not taken.
-      if (attempt === 0 && lambda <= 1e-3 && predictedDrop(jtj, jtr, nFree, state.params, trial) <= PREDICTED_DROP_TOLERANCE * rss) break;
+      if (attempt === 0 && lambda <= 1e-3) {
+        const predicted = predictedDrop(jtj, jtr, nFree, state.params, trial);
+        if (predicted <= PREDICTED_DROP_TOLERANCE * rss || isSettled?.(rss, predicted) === true) break;
+      }
       const rssTrial = normalEquations(d, w, model, trial, nFree, trialJtj, trialJtr);
       if (rssTrial < rss) {
         const drop = (rss - rssTrial) / rss;
@@ -388,14 +417,13 @@ function gridSearch(
   let best: FitState | null = null;
   const counts = grid.values.map((v) => v.length);
   const bestAt = new Int32Array(k);
-  let swyy = 0;
-  for (let i = 0; i < d.n; i++) swyy += w[i] * d.y[i] * d.y[i];
+  const data = dataSums(d, w);
   // Every point of the box lo..hi (inclusive) taking every step-th value of each parameter.
   const searchBox = (lo: Int32Array, hi: Int32Array, step: number): void => {
     const at = Int32Array.from(lo);
     for (;;) {
       for (let j = 0; j < k; j++) theta[j] = grid.values[j][at[j]];
-      const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, swyy, lin);
+      const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, data, lin);
       if (rss < (best?.rss ?? Number.POSITIVE_INFINITY)) {
         const params = new Float64Array(k + 2);
         params[0] = lin.lnL;

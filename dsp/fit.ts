@@ -115,14 +115,24 @@ export function invalidRateFit(reason: string, refTimeS: number, nEffective: num
 /** Rates whose e-folding covers more than this many times the record are outside what the record can tell. */
 const MAX_RATE_TIMES_SPAN = 150;
 
-/** Rate grid, 1/s: s·span = ±(e^v − 1) for v evenly spaced, dense near 0, up to ±MAX_RATE_TIMES_SPAN. */
-function rateGrid(spanS: number, count: number): Float64Array {
+/** Points of the exponential's rate grid. */
+const RATE_GRID_POINTS = 241;
+
+/** s·span = ±(e^v − 1) for v evenly spaced, dense near 0, up to ±MAX_RATE_TIMES_SPAN: the rate grid times the span, the same for every fit. */
+const RATE_GRID_TIMES_SPAN = ((count: number): Float64Array => {
   const out = new Float64Array(count);
   const vMax = Math.log(MAX_RATE_TIMES_SPAN + 1);
   for (let j = 0; j < count; j++) {
     const v = -vMax + (2 * vMax * j) / (count - 1);
-    out[j] = (Math.sign(v) * (Math.exp(Math.abs(v)) - 1)) / spanS;
+    out[j] = Math.sign(v) * (Math.exp(Math.abs(v)) - 1);
   }
+  return out;
+})(RATE_GRID_POINTS);
+
+/** Rate grid of a record spanning spanS, 1/s. */
+function rateGrid(spanS: number): Float64Array {
+  const out = new Float64Array(RATE_GRID_POINTS);
+  for (let j = 0; j < RATE_GRID_POINTS; j++) out[j] = RATE_GRID_TIMES_SPAN[j] / spanS;
   return out;
 }
 
@@ -145,7 +155,7 @@ export function fitExponential(series: EnvelopeSeries, opts?: { backgroundPower?
   const spanS = d.t[d.n - 1] - t0;
   const tm = t0 + spanS / 2;
   const model = exponentialShape(tm);
-  const grid: GridSpec = { values: [rateGrid(spanS, 241)] };
+  const grid: GridSpec = { values: [rateGrid(spanS)] };
   const fit = fitIrls(d, model, grid, fixedBg, null);
   if (fit === null) return invalidRateFit('no tone above the background', refTimeS, d.nEff);
   const s = fit.state.params[1];
