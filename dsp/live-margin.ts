@@ -6,11 +6,12 @@
  * decimation to about 8 kHz (a mode above 4 kHz is outside the default band; the boxcar's nulls
  * sit on the frequencies that would fold onto the band's low end, and the broadband noise it lets
  * fold is a floor the estimator removes). pushLiveMargin allocates nothing; estimateLiveMargin
- * works on the whole window and allocates.
+ * allocates. The bands around the mode are kept mixed down as audio arrives (baseband-stream.ts):
+ * an estimate mixes only the audio that came in since the last one.
  */
-import { mixDownDecimate } from './baseband';
+import { basebandOfWindow, createBasebandStream, type BasebandStream } from './baseband-stream';
 import { earlyWarningIndicators } from './early-warning';
-import { estimateModeStatistics } from './mode-statistics';
+import { MODE_BAND_MIN_HALF_WIDTH_HZ, MODE_ENVELOPE_RATE_MULTIPLE, modeBandHalfWidth, modeStatisticsOfBaseband } from './mode-statistics';
 import { createRealFft, realFftWindowed } from './real-fft';
 import { kthSmallest } from './stats';
 import { isMainsMultiple, MAINS_HZ } from './track';
@@ -52,6 +53,9 @@ export interface LiveMarginState {
   startS: number;
   inputSamples: number;
   lastEstimateCount: number;
+  /** The mode's band and the early-warning band, mixed down since the stretch began (null until an estimate needs them). */
+  modeBand: BasebandStream | null;
+  warningBand: BasebandStream | null;
 }
 
 export interface LiveMargin {
@@ -69,6 +73,8 @@ export interface LiveMargin {
 
 /** Half-width of the band whose envelope feeds the early-warning indicators, Hz (the estimator's default band, REFERENCES.md §41). */
 const WARNING_HALF_WIDTH_HZ = 25;
+/** Envelope rate of the early-warning band in multiples of its half-width (dsp/baseband.ts mixDownDecimate's default design). */
+const WARNING_RATE_MULTIPLE = 8;
 
 export function createLiveMargin(cfg: { sampleRateHz: number; windowS?: number }): LiveMarginState {
   const fs = cfg.sampleRateHz;
@@ -78,7 +84,7 @@ export function createLiveMargin(cfg: { sampleRateHz: number; windowS?: number }
   const factor = Math.max(1, Math.floor(fs / TARGET_RATE_HZ));
   const rateHz = fs / factor;
   const cap = Math.ceil(windowS * rateHz);
-  return { inputRateHz: fs, factor, rateHz, ring: new Float32Array(cap), writeAt: 0, window: new Float32Array(cap), count: 0, acc: 0, accN: 0, startS: 0, inputSamples: 0, lastEstimateCount: 0 };
+  return { inputRateHz: fs, factor, rateHz, ring: new Float32Array(cap), writeAt: 0, window: new Float32Array(cap), count: 0, acc: 0, accN: 0, startS: 0, inputSamples: 0, lastEstimateCount: 0, modeBand: null, warningBand: null };
 }
 
 /** Feeds input samples (never throws, allocates nothing). */
@@ -115,6 +121,8 @@ export function restartLiveMargin(st: LiveMarginState, missingSamples = 0): void
   st.acc = 0;
   st.accN = 0;
   st.lastEstimateCount = 0;
+  st.modeBand = null;
+  st.warningBand = null;
   st.startS = st.inputSamples / st.inputRateHz;
 }
 
@@ -169,6 +177,34 @@ function findResonanceHz(x: Float32Array, rateHz: number, bandHighHz: number): n
 }
 
 /**
+ * A mode band drawn again when the centre moves by more than this share of its half-width (a tone
+ * that drifts as the gas warms, a searched resonance that moves): the mode's offset within the band
+ * is measured by the estimator (its mean phase rate), and a tenth of the half-width keeps the mode
+ * and its Lorentzian shoulders well inside the flat band (common practice).
+ */
+const RECENTRE_SHARE = 0.1;
+
+/**
+ * The streams of the mode's band and of the early-warning band around `centreHz`, kept while the
+ * centre holds (RECENTRE_SHARE); null when the band is too narrow for the estimator (the mode
+ * lies too close to 0 Hz or to half the ring's rate).
+ */
+function bandsAround(st: LiveMarginState, centreHz: number, maxWindow: number): { mode: BasebandStream; warning: BasebandStream } | null {
+  const half = modeBandHalfWidth(st.rateHz, centreHz);
+  if (!(half >= MODE_BAND_MIN_HALF_WIDTH_HZ)) return null;
+  const mode = st.modeBand;
+  const warning = st.warningBand;
+  if (mode !== null && warning !== null && Math.abs(centreHz - mode.centreHz) <= RECENTRE_SHARE * mode.halfWidthHz) return { mode, warning };
+  const fresh = createBasebandStream(st.rateHz, centreHz, half, MODE_ENVELOPE_RATE_MULTIPLE, maxWindow);
+  const warningHalf = Math.min(WARNING_HALF_WIDTH_HZ, centreHz / 7);
+  // Below about 175 Hz both bands are f/7 wide: one stream serves both.
+  const freshWarning = Math.abs(warningHalf - half) <= 1e-9 * half ? fresh : createBasebandStream(st.rateHz, centreHz, warningHalf, WARNING_RATE_MULTIPLE, maxWindow);
+  st.modeBand = fresh;
+  st.warningBand = freshWarning;
+  return { mode: fresh, warning: freshWarning };
+}
+
+/**
  * ν with its 95 % interval over the current stretch (at most the window), at the tone's frequency
  * `centreHz` when one is tracked, else at the most prominent resonance; null when there is none
  * or no route gave an estimate.
@@ -185,11 +221,14 @@ export function estimateLiveMargin(st: LiveMarginState, centreHz: number, bandHi
   if (first + len > cap) x.set(st.ring.subarray(0, first + len - cap), cap - first);
   const f = Number.isFinite(centreHz) && centreHz > 0 ? centreHz : findResonanceHz(x, st.rateHz, bandHighHz);
   if (!Number.isFinite(f)) return null;
-  const r = estimateModeStatistics(x, st.rateHz, { centreHz: f });
+  const bands = bandsAround(st, f, cap);
+  if (bands === null) return null;
+  const x0 = st.count - len;
+  const r = modeStatisticsOfBaseband(basebandOfWindow(bands.mode, x, x0), st.rateHz, len / st.rateHz, { centreHz: bands.mode.centreHz, halfWidthHz: bands.mode.halfWidthHz });
   if (!r.isValid) return null;
   const endS = st.startS + (st.count * st.factor) / st.inputRateHz;
   // Early-warning trends on the envelope amplitude of the same band (REFERENCES.md §43).
-  const z = mixDownDecimate(x, st.rateHz, r.frequencyHz, Math.min(WARNING_HALF_WIDTH_HZ, r.frequencyHz / 7));
+  const z = basebandOfWindow(bands.warning, x, x0);
   const amp = Float64Array.from(z.re, (re, i) => Math.hypot(re, z.im[i]));
   const ew = earlyWarningIndicators(amp, z.rateHz);
   return {
