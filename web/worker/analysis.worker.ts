@@ -48,6 +48,8 @@ interface Run {
   stageMs: WorkerStageMs;
   /** Last frequency of the main tone the track followed, Hz (NaN before any). */
   mainFrequencyHz: number;
+  /** Regime of the newest track row (rows come in bursts: most update batches carry none). */
+  latestRegime: TrackFrame['state'] | null;
   /** Spectrogram columns not yet posted, the band they span, and the time of the last one, s. */
   pendingColumns: SpectrogramColumn[];
   columnBandHz: [number, number];
@@ -96,6 +98,7 @@ function createRun(id: number, config: AnalysisConfig, isKeepingAudio: boolean, 
     analysisMs: 0,
     stageMs: { input: 0, analysis: 0, collect: 0, spectrogram: 0, marginFeed: 0, marginEstimate: 0, marginEstimates: 0, marginLatestMs: 0, marginLatestWindowS: 0, audio: 0, update: 0, updates: 0 },
     mainFrequencyHz: Number.NaN,
+    latestRegime: null,
     pendingColumns: [],
     columnBandHz: [config.bandLowHz ?? DEFAULT_BAND_HZ[0], Math.min(config.bandHighHz ?? DEFAULT_BAND_HZ[1], config.sampleRateHz / 2)],
     lastColumnS: -Infinity,
@@ -142,6 +145,7 @@ function pushBlock(r: Run, samples: Float32Array): void {
   for (const f of u.frames) {
     r.pendingFrames.push({ ...f });
     if (Number.isFinite(f.frequencyHz)) r.mainFrequencyHz = f.frequencyHz;
+    r.latestRegime = f.state;
   }
   for (const o of u.onsets) r.pendingOnsets.push({ ...o });
   for (const s of u.segments) r.pendingSegments.push({ ...s, rateCi95PerS: s.rateCi95PerS ? [s.rateCi95PerS[0], s.rateCi95PerS[1]] : null });
@@ -213,7 +217,8 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
   if (isLiveMarginDue(r.liveMargin) && now - r.lastMarginMs >= LIVE_MARGIN_EVERY_S * 1000) {
     r.lastMarginMs = now;
     const tm = performance.now();
-    message.margin = estimateLiveMargin(r.liveMargin, last?.state === 'steady' ? r.mainFrequencyHz : Number.NaN, r.columnBandHz[1]);
+    // At the tracked tone while it holds steady (the newest row's regime, not this batch's: a batch often has no rows).
+    message.margin = estimateLiveMargin(r.liveMargin, r.latestRegime === 'steady' ? r.mainFrequencyHz : Number.NaN, r.columnBandHz[1]);
     marginMs = performance.now() - tm;
     r.stageMs.marginEstimate += marginMs;
     r.stageMs.marginEstimates++;
