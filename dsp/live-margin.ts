@@ -12,9 +12,9 @@
 import { basebandOfWindow, createBasebandStream, type BasebandStream } from './baseband-stream';
 import { earlyWarningIndicators } from './early-warning';
 import { MODE_BAND_MIN_HALF_WIDTH_HZ, MODE_ENVELOPE_RATE_MULTIPLE, modeBandHalfWidth, modeStatisticsOfBaseband } from './mode-statistics';
-import { createRealFft, realFftWindowed } from './real-fft';
 import { kthSmallest } from './stats';
 import { isMainsMultiple, MAINS_HZ } from './track';
+import { createWelchStream, welchOfWindow, type WelchStream } from './welch-stream';
 import type { Interval, NoiseRegime } from './types';
 
 /** Ring rate target, Hz; window, cadence and least data before a first estimate, s. */
@@ -56,6 +56,8 @@ export interface LiveMarginState {
   /** The mode's band and the early-warning band, mixed down since the stretch began (null until an estimate needs them). */
   modeBand: BasebandStream | null;
   warningBand: BasebandStream | null;
+  /** The resonance search's Welch spectrum since the stretch began (null until a search needs it). */
+  welch: WelchStream | null;
 }
 
 export interface LiveMargin {
@@ -84,7 +86,7 @@ export function createLiveMargin(cfg: { sampleRateHz: number; windowS?: number }
   const factor = Math.max(1, Math.floor(fs / TARGET_RATE_HZ));
   const rateHz = fs / factor;
   const cap = Math.ceil(windowS * rateHz);
-  return { inputRateHz: fs, factor, rateHz, ring: new Float32Array(cap), writeAt: 0, window: new Float32Array(cap), count: 0, acc: 0, accN: 0, startS: 0, inputSamples: 0, lastEstimateCount: 0, modeBand: null, warningBand: null };
+  return { inputRateHz: fs, factor, rateHz, ring: new Float32Array(cap), writeAt: 0, window: new Float32Array(cap), count: 0, acc: 0, accN: 0, startS: 0, inputSamples: 0, lastEstimateCount: 0, modeBand: null, warningBand: null, welch: null };
 }
 
 /** Feeds input samples (never throws, allocates nothing). */
@@ -123,6 +125,7 @@ export function restartLiveMargin(st: LiveMarginState, missingSamples = 0): void
   st.lastEstimateCount = 0;
   st.modeBand = null;
   st.warningBand = null;
+  st.welch = null;
   st.startS = st.inputSamples / st.inputRateHz;
 }
 
@@ -132,21 +135,16 @@ export function isLiveMarginDue(st: LiveMarginState): boolean {
   return st.count >= LIVE_MARGIN_MIN_S * st.rateHz && st.count - st.lastEstimateCount >= Math.max(LIVE_MARGIN_EVERY_S * st.rateHz, LIVE_MARGIN_NEW_SHARE * held);
 }
 
-/** The most prominent peak of the window's Welch spectrum (Hann, 50 % overlap) away from mains lines; NaN when none stands out. */
-function findResonanceHz(x: Float32Array, rateHz: number, bandHighHz: number): number {
+/**
+ * The most prominent peak of the window's Welch spectrum (Hann, 50 % overlap, kept up to date as
+ * audio arrives: welch-stream.ts) away from mains lines; NaN when none stands out.
+ */
+function findResonanceHz(st: LiveMarginState, x: Float32Array, x0: number, bandHighHz: number): number {
   const n = Math.min(SEARCH_FRAME, 1 << Math.floor(Math.log2(Math.max(4, x.length / 4))));
-  // The spectrum's real-input transform (half the work of a complex FFT with a zero imaginary part).
-  const fft = createRealFft(n);
-  const frame = new Float64Array(n);
-  const out = new Float64Array(2 * n);
-  const acc = new Float64Array(n / 2);
-  const hann = new Float64Array(n);
-  for (let i = 0; i < n; i++) hann[i] = 0.5 - 0.5 * Math.cos((2 * Math.PI * i) / n);
-  for (let s = 0; s + n <= x.length; s += n / 2) {
-    frame.set(x.subarray(s, s + n));
-    realFftWindowed(fft, out, frame, 0, hann);
-    for (let k = 0; k < n / 2; k++) acc[k] += out[2 * k] * out[2 * k] + out[2 * k + 1] * out[2 * k + 1];
-  }
+  if (st.welch === null || st.welch.n !== n) st.welch = createWelchStream(n, st.ring.length);
+  const { sum: acc, frames } = welchOfWindow(st.welch, x, x0);
+  if (frames === 0) return Number.NaN;
+  const rateHz = st.rateHz;
   const binHz = rateHz / n;
   const half = Math.max(4, Math.round(20 / binHz));
   const lo = Math.max(half + 1, Math.ceil(SEARCH_LOW_HZ / binHz));
@@ -219,11 +217,11 @@ export function estimateLiveMargin(st: LiveMarginState, centreHz: number, bandHi
   const first = (st.count - len) % cap;
   x.set(st.ring.subarray(first, Math.min(cap, first + len)));
   if (first + len > cap) x.set(st.ring.subarray(0, first + len - cap), cap - first);
-  const f = Number.isFinite(centreHz) && centreHz > 0 ? centreHz : findResonanceHz(x, st.rateHz, bandHighHz);
+  const x0 = st.count - len;
+  const f = Number.isFinite(centreHz) && centreHz > 0 ? centreHz : findResonanceHz(st, x, x0, bandHighHz);
   if (!Number.isFinite(f)) return null;
   const bands = bandsAround(st, f, cap);
   if (bands === null) return null;
-  const x0 = st.count - len;
   const r = modeStatisticsOfBaseband(basebandOfWindow(bands.mode, x, x0), st.rateHz, len / st.rateHz, { centreHz: bands.mode.centreHz, halfWidthHz: bands.mode.halfWidthHz });
   if (!r.isValid) return null;
   const endS = st.startS + (st.count * st.factor) / st.inputRateHz;
