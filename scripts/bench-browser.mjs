@@ -1,7 +1,9 @@
 // Browser bench of the field app (printed, never asserted):
 //   1. cost of the browser worker per second of 48 kHz audio (target ≤ 5 ms): all its jobs, by
 //      stage (the worker times each and sends the figures with its report), for the file read and
-//      for listening live (updates and margin estimates at their live cadence),
+//      for listening live (updates and margin estimates at their live cadence; a fresh worker, then
+//      a second session in the same worker), and the live worker thread's CPU time from /proc,
+//      which other processes on the machine do not inflate,
 //   2. initial JavaScript of the app, gzipped (target ≤ 200 KB),
 //   3. first paint of the installed app reloaded offline in headless Chromium (target ≤ 1 s),
 //   4. storage: opening a 10-minute recording and importing its bundle, each in a fresh profile:
