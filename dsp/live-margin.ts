@@ -6,14 +6,15 @@
  * decimation to about 8 kHz (a mode above 4 kHz is outside the default band; the boxcar's nulls
  * sit on the frequencies that would fold onto the band's low end, and the broadband noise it lets
  * fold is a floor the estimator removes). pushLiveMargin allocates nothing; estimateLiveMargin
- * works on the whole window and allocates.
+ * allocates. The bands around the mode are kept mixed down as audio arrives (baseband-stream.ts):
+ * an estimate mixes only the audio that came in since the last one.
  */
-import { mixDownDecimate } from './baseband';
+import { basebandOfWindow, createBasebandStream, type BasebandStream } from './baseband-stream';
 import { earlyWarningIndicators } from './early-warning';
-import { estimateModeStatistics } from './mode-statistics';
-import { createRealFft, realFftWindowed } from './real-fft';
+import { MODE_BAND_MIN_HALF_WIDTH_HZ, MODE_ENVELOPE_RATE_MULTIPLE, modeBandHalfWidth, modeStatisticsOfBaseband } from './mode-statistics';
 import { kthSmallest } from './stats';
 import { isMainsMultiple, MAINS_HZ } from './track';
+import { createWelchStream, welchOfWindow, type WelchStream } from './welch-stream';
 import type { Interval, NoiseRegime } from './types';
 
 /** Ring rate target, Hz; window, cadence and least data before a first estimate, s. */
@@ -52,6 +53,11 @@ export interface LiveMarginState {
   startS: number;
   inputSamples: number;
   lastEstimateCount: number;
+  /** The mode's band and the early-warning band, mixed down since the stretch began (null until an estimate needs them). */
+  modeBand: BasebandStream | null;
+  warningBand: BasebandStream | null;
+  /** The resonance search's Welch spectrum since the stretch began (null until a search needs it). */
+  welch: WelchStream | null;
 }
 
 export interface LiveMargin {
@@ -69,6 +75,8 @@ export interface LiveMargin {
 
 /** Half-width of the band whose envelope feeds the early-warning indicators, Hz (the estimator's default band, REFERENCES.md §41). */
 const WARNING_HALF_WIDTH_HZ = 25;
+/** Envelope rate of the early-warning band in multiples of its half-width (dsp/baseband.ts mixDownDecimate's default design). */
+const WARNING_RATE_MULTIPLE = 8;
 
 export function createLiveMargin(cfg: { sampleRateHz: number; windowS?: number }): LiveMarginState {
   const fs = cfg.sampleRateHz;
@@ -78,7 +86,7 @@ export function createLiveMargin(cfg: { sampleRateHz: number; windowS?: number }
   const factor = Math.max(1, Math.floor(fs / TARGET_RATE_HZ));
   const rateHz = fs / factor;
   const cap = Math.ceil(windowS * rateHz);
-  return { inputRateHz: fs, factor, rateHz, ring: new Float32Array(cap), writeAt: 0, window: new Float32Array(cap), count: 0, acc: 0, accN: 0, startS: 0, inputSamples: 0, lastEstimateCount: 0 };
+  return { inputRateHz: fs, factor, rateHz, ring: new Float32Array(cap), writeAt: 0, window: new Float32Array(cap), count: 0, acc: 0, accN: 0, startS: 0, inputSamples: 0, lastEstimateCount: 0, modeBand: null, warningBand: null, welch: null };
 }
 
 /** Feeds input samples (never throws, allocates nothing). */
@@ -115,6 +123,9 @@ export function restartLiveMargin(st: LiveMarginState, missingSamples = 0): void
   st.acc = 0;
   st.accN = 0;
   st.lastEstimateCount = 0;
+  st.modeBand = null;
+  st.warningBand = null;
+  st.welch = null;
   st.startS = st.inputSamples / st.inputRateHz;
 }
 
@@ -124,21 +135,16 @@ export function isLiveMarginDue(st: LiveMarginState): boolean {
   return st.count >= LIVE_MARGIN_MIN_S * st.rateHz && st.count - st.lastEstimateCount >= Math.max(LIVE_MARGIN_EVERY_S * st.rateHz, LIVE_MARGIN_NEW_SHARE * held);
 }
 
-/** The most prominent peak of the window's Welch spectrum (Hann, 50 % overlap) away from mains lines; NaN when none stands out. */
-function findResonanceHz(x: Float32Array, rateHz: number, bandHighHz: number): number {
+/**
+ * The most prominent peak of the window's Welch spectrum (Hann, 50 % overlap, kept up to date as
+ * audio arrives: welch-stream.ts) away from mains lines; NaN when none stands out.
+ */
+function findResonanceHz(st: LiveMarginState, x: Float32Array, x0: number, bandHighHz: number): number {
   const n = Math.min(SEARCH_FRAME, 1 << Math.floor(Math.log2(Math.max(4, x.length / 4))));
-  // The spectrum's real-input transform (half the work of a complex FFT with a zero imaginary part).
-  const fft = createRealFft(n);
-  const frame = new Float64Array(n);
-  const out = new Float64Array(2 * n);
-  const acc = new Float64Array(n / 2);
-  const hann = new Float64Array(n);
-  for (let i = 0; i < n; i++) hann[i] = 0.5 - 0.5 * Math.cos((2 * Math.PI * i) / n);
-  for (let s = 0; s + n <= x.length; s += n / 2) {
-    frame.set(x.subarray(s, s + n));
-    realFftWindowed(fft, out, frame, 0, hann);
-    for (let k = 0; k < n / 2; k++) acc[k] += out[2 * k] * out[2 * k] + out[2 * k + 1] * out[2 * k + 1];
-  }
+  if (st.welch === null || st.welch.n !== n) st.welch = createWelchStream(n, st.ring.length);
+  const { sum: acc, frames } = welchOfWindow(st.welch, x, x0);
+  if (frames === 0) return Number.NaN;
+  const rateHz = st.rateHz;
   const binHz = rateHz / n;
   const half = Math.max(4, Math.round(20 / binHz));
   const lo = Math.max(half + 1, Math.ceil(SEARCH_LOW_HZ / binHz));
@@ -169,6 +175,34 @@ function findResonanceHz(x: Float32Array, rateHz: number, bandHighHz: number): n
 }
 
 /**
+ * A mode band drawn again when the centre moves by more than this share of its half-width (a tone
+ * that drifts as the gas warms, a searched resonance that moves): the mode's offset within the band
+ * is measured by the estimator (its mean phase rate), and a tenth of the half-width keeps the mode
+ * and its Lorentzian shoulders well inside the flat band (common practice).
+ */
+const RECENTRE_SHARE = 0.1;
+
+/**
+ * The streams of the mode's band and of the early-warning band around `centreHz`, kept while the
+ * centre holds (RECENTRE_SHARE); null when the band is too narrow for the estimator (the mode
+ * lies too close to 0 Hz or to half the ring's rate).
+ */
+function bandsAround(st: LiveMarginState, centreHz: number, maxWindow: number): { mode: BasebandStream; warning: BasebandStream } | null {
+  const half = modeBandHalfWidth(st.rateHz, centreHz);
+  if (!(half >= MODE_BAND_MIN_HALF_WIDTH_HZ)) return null;
+  const mode = st.modeBand;
+  const warning = st.warningBand;
+  if (mode !== null && warning !== null && Math.abs(centreHz - mode.centreHz) <= RECENTRE_SHARE * mode.halfWidthHz) return { mode, warning };
+  const fresh = createBasebandStream(st.rateHz, centreHz, half, MODE_ENVELOPE_RATE_MULTIPLE, maxWindow);
+  const warningHalf = Math.min(WARNING_HALF_WIDTH_HZ, centreHz / 7);
+  // Below about 175 Hz both bands are f/7 wide: one stream serves both.
+  const freshWarning = Math.abs(warningHalf - half) <= 1e-9 * half ? fresh : createBasebandStream(st.rateHz, centreHz, warningHalf, WARNING_RATE_MULTIPLE, maxWindow);
+  st.modeBand = fresh;
+  st.warningBand = freshWarning;
+  return { mode: fresh, warning: freshWarning };
+}
+
+/**
  * ν with its 95 % interval over the current stretch (at most the window), at the tone's frequency
  * `centreHz` when one is tracked, else at the most prominent resonance; null when there is none
  * or no route gave an estimate.
@@ -183,13 +217,16 @@ export function estimateLiveMargin(st: LiveMarginState, centreHz: number, bandHi
   const first = (st.count - len) % cap;
   x.set(st.ring.subarray(first, Math.min(cap, first + len)));
   if (first + len > cap) x.set(st.ring.subarray(0, first + len - cap), cap - first);
-  const f = Number.isFinite(centreHz) && centreHz > 0 ? centreHz : findResonanceHz(x, st.rateHz, bandHighHz);
+  const x0 = st.count - len;
+  const f = Number.isFinite(centreHz) && centreHz > 0 ? centreHz : findResonanceHz(st, x, x0, bandHighHz);
   if (!Number.isFinite(f)) return null;
-  const r = estimateModeStatistics(x, st.rateHz, { centreHz: f });
+  const bands = bandsAround(st, f, cap);
+  if (bands === null) return null;
+  const r = modeStatisticsOfBaseband(basebandOfWindow(bands.mode, x, x0), st.rateHz, len / st.rateHz, { centreHz: bands.mode.centreHz, halfWidthHz: bands.mode.halfWidthHz });
   if (!r.isValid) return null;
   const endS = st.startS + (st.count * st.factor) / st.inputRateHz;
   // Early-warning trends on the envelope amplitude of the same band (REFERENCES.md §43).
-  const z = mixDownDecimate(x, st.rateHz, r.frequencyHz, Math.min(WARNING_HALF_WIDTH_HZ, r.frequencyHz / 7));
+  const z = basebandOfWindow(bands.warning, x, x0);
   const amp = Float64Array.from(z.re, (re, i) => Math.hypot(re, z.im[i]));
   const ew = earlyWarningIndicators(amp, z.rateHz);
   return {

@@ -11,7 +11,7 @@
  * ±halfWidthHz), scaled so |u| is the tone's peak amplitude, and turned at the mean phase rate so
  * the mode sits at 0 Hz. Whole-stretch function: it allocates; it never throws.
  */
-import { basebandFilter, dftBand, mixDownDecimate } from './baseband';
+import { basebandFilter, dftBand, mixDownDecimate, type Baseband } from './baseband';
 import { fitLorentzianWhittle } from './damping';
 import { estimateEnvelopeStatistics, type BandFilterEffect, type ComplexEnvelope, type RouteEstimate } from './envelope-statistics';
 import { incompleteBeta, Z_975 } from './stats';
@@ -21,6 +21,8 @@ import type { Interval, ModeStatistics, NoiseRegime } from './types';
 export const MODE_STATISTICS_MIN_S = 20;
 /** Default half-width of the band around the mode, Hz: passes the amplitude fluctuations of a hum at ν = 10 1/s (2ν/2π ≈ 3 Hz) with room, and keeps the Lorentzian tails lost outside it below 3 % of the variance at |ν| = 10 1/s ((2/π)·(ν/2π)/W). */
 export const MODE_BAND_HALF_WIDTH_HZ = 40;
+/** Narrowest band the estimator accepts, half-width in Hz (narrower: the mode lies too close to 0 Hz or to half the sample rate). */
+export const MODE_BAND_MIN_HALF_WIDTH_HZ = 2;
 /** The band filter's normalised autocorrelation below which its own correlation is taken as gone (its share of the increments' intercept is then < 0.1 %). */
 const FILTER_CORRELATION_FLOOR = 1e-3;
 /**
@@ -28,8 +30,8 @@ const FILTER_CORRELATION_FLOOR = 1e-3;
  * rate − W = 7W). Mixed down, a hum's second harmonic sits at +f and the real signal's image at −2f;
  * both must fall in the stopband, so 7W ≤ f caps the half-width (HARMONIC_WIDTH_FRACTION).
  */
-const ENVELOPE_RATE_MULTIPLE = 8;
-const HARMONIC_WIDTH_FRACTION = 1 / (ENVELOPE_RATE_MULTIPLE - 1);
+export const MODE_ENVELOPE_RATE_MULTIPLE = 8;
+const HARMONIC_WIDTH_FRACTION = 1 / (MODE_ENVELOPE_RATE_MULTIPLE - 1);
 /** Family-wise false-alarm probability of the second-mode test. */
 const SECOND_MODE_ALPHA = 1e-3;
 /** Smoothing span of the second-mode test, Hz, and the shoulders' distances in smoothing spans (1, 2 and 4 Hz: a second resonance of any half-width up to ~2 Hz stands out at one of them). */
@@ -61,7 +63,7 @@ function invalidRoute(reason: string): RouteEstimate {
 
 /** What the mix-down filter does to the increments (see BandFilterEffect; REFERENCES.md §41). */
 export function bandFilterEffect(sampleRateHz: number, halfWidthHz: number): BandFilterEffect {
-  const { h, factor } = basebandFilter(sampleRateHz, halfWidthHz, ENVELOPE_RATE_MULTIPLE);
+  const { h, factor } = basebandFilter(sampleRateHz, halfWidthHz, MODE_ENVELOPE_RATE_MULTIPLE);
   const taps = h.length;
   // Autocorrelation of the taps a(d), d in input samples.
   const a = new Float64Array(taps);
@@ -196,9 +198,37 @@ export function estimateModeStatistics(
   sampleRateHz: number,
   opts: { centreHz: number; halfWidthHz?: number; isClipped?: boolean },
 ): ModeStatisticsResult {
-  const durationS = x.length / sampleRateHz;
   const centre = opts.centreHz;
-  const halfWidth = Math.min(opts.halfWidthHz ?? MODE_BAND_HALF_WIDTH_HZ, HARMONIC_WIDTH_FRACTION * centre, 0.8 * (sampleRateHz / 2 - centre));
+  const halfWidth = modeBandHalfWidth(sampleRateHz, centre, opts.halfWidthHz);
+  const isBandValid = sampleRateHz > 0 && centre > 0 && halfWidth >= MODE_BAND_MIN_HALF_WIDTH_HZ;
+  const z = isBandValid ? modeBaseband(x, sampleRateHz, centre, halfWidth) : { re: new Float64Array(0), im: new Float64Array(0), rateHz: 0, startS: 0 };
+  return modeStatisticsOfBaseband(z, sampleRateHz, x.length / sampleRateHz, { centreHz: centre, halfWidthHz: halfWidth, isClipped: opts.isClipped });
+}
+
+/** The band's half-width around a mode at centreHz, Hz: `halfWidthHz` (default MODE_BAND_HALF_WIDTH_HZ) narrowed to keep clear of 0 Hz, the hum's harmonics and Nyquist. */
+export function modeBandHalfWidth(sampleRateHz: number, centreHz: number, halfWidthHz = MODE_BAND_HALF_WIDTH_HZ): number {
+  return Math.min(halfWidthHz, HARMONIC_WIDTH_FRACTION * centreHz, 0.8 * (sampleRateHz / 2 - centreHz));
+}
+
+/** The mode's complex baseband that the estimator reads: x mixed down by centreHz over ±halfWidthHz (dsp/baseband.ts), at the envelope rate of this estimator. */
+export function modeBaseband(x: Float32Array, sampleRateHz: number, centreHz: number, halfWidthHz: number): Baseband {
+  return mixDownDecimate(x, sampleRateHz, centreHz, halfWidthHz, MODE_ENVELOPE_RATE_MULTIPLE);
+}
+
+/**
+ * estimateModeStatistics on a baseband already mixed down (modeBaseband of a stretch of
+ * `durationS` at sampleRateHz, around centreHz over ±halfWidthHz): a caller that keeps the
+ * baseband as audio arrives (dsp/live-margin.ts) does not mix the whole stretch again. A constant
+ * phase of z changes nothing.
+ */
+export function modeStatisticsOfBaseband(
+  z: Baseband,
+  sampleRateHz: number,
+  durationS: number,
+  opts: { centreHz: number; halfWidthHz: number; isClipped?: boolean },
+): ModeStatisticsResult {
+  const centre = opts.centreHz;
+  const halfWidth = opts.halfWidthHz;
   const none = invalidRoute('not computed');
   const fail = (reason: string): ModeStatisticsResult => ({
     isValid: false,
@@ -213,8 +243,7 @@ export function estimateModeStatistics(
     routes: { pdf: none, driftDiffusion: none, lorentzian: none },
     durationS,
   });
-  if (!(sampleRateHz > 0) || !(centre > 0) || !(halfWidth >= 2)) return fail('the mode lies too close to 0 Hz or to half the sample rate');
-  const z = mixDownDecimate(x, sampleRateHz, centre, halfWidth, ENVELOPE_RATE_MULTIPLE);
+  if (!(sampleRateHz > 0) || !(centre > 0) || !(halfWidth >= MODE_BAND_MIN_HALF_WIDTH_HZ)) return fail('the mode lies too close to 0 Hz or to half the sample rate');
   const n = z.re.length;
   if (n < 256) return fail('stretch too short');
   // u = 2z: a real tone of peak amplitude A mixes down to a phasor of magnitude A/2.

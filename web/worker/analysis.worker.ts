@@ -18,6 +18,14 @@ declare const self: DedicatedWorkerGlobalScope;
 const UPDATE_INTERVAL_MS = 66;
 /** Samples per block when a whole file is analysed. */
 const FILE_BLOCK_SAMPLES = 4096;
+/**
+ * Live blocks are gathered to at least this much audio, s, before they are analysed: each wake-up
+ * of the worker has a fixed cost (the analysis state is fetched back into the caches, the update
+ * posted), and the capture worklet's blocks are short (2048 samples, 43 ms at 48 kHz). 0.1 s is
+ * under the 125 ms of a sound level meter's FAST time weighting (IEC 61672-1), and the track rows
+ * come out of the analysis about every 170 ms anyway.
+ */
+const LIVE_BATCH_S = 0.1;
 
 interface Run {
   id: number;
@@ -26,6 +34,9 @@ interface Run {
   samplesSeen: number;
   port: MessagePort | null;
   isKeepingAudio: boolean;
+  /** Live blocks not yet analysed (gathered to LIVE_BATCH_S), and their samples. */
+  liveBlocks: Float32Array[];
+  liveSamples: number;
   audioChunks: Float32Array[];
   audioSamples: number;
   pendingFrames: TrackFrame[];
@@ -48,6 +59,8 @@ interface Run {
   stageMs: WorkerStageMs;
   /** Last frequency of the main tone the track followed, Hz (NaN before any). */
   mainFrequencyHz: number;
+  /** Regime of the newest track row (rows come in bursts: most update batches carry none). */
+  latestRegime: TrackFrame['state'] | null;
   /** Spectrogram columns not yet posted, the band they span, and the time of the last one, s. */
   pendingColumns: SpectrogramColumn[];
   columnBandHz: [number, number];
@@ -79,6 +92,8 @@ function createRun(id: number, config: AnalysisConfig, isKeepingAudio: boolean, 
     samplesSeen: 0,
     port,
     isKeepingAudio,
+    liveBlocks: [],
+    liveSamples: 0,
     audioChunks: [],
     audioSamples: 0,
     pendingFrames: [],
@@ -96,6 +111,7 @@ function createRun(id: number, config: AnalysisConfig, isKeepingAudio: boolean, 
     analysisMs: 0,
     stageMs: { input: 0, analysis: 0, collect: 0, spectrogram: 0, marginFeed: 0, marginEstimate: 0, marginEstimates: 0, marginLatestMs: 0, marginLatestWindowS: 0, audio: 0, update: 0, updates: 0 },
     mainFrequencyHz: Number.NaN,
+    latestRegime: null,
     pendingColumns: [],
     columnBandHz: [config.bandLowHz ?? DEFAULT_BAND_HZ[0], Math.min(config.bandHighHz ?? DEFAULT_BAND_HZ[1], config.sampleRateHz / 2)],
     lastColumnS: -Infinity,
@@ -142,6 +158,7 @@ function pushBlock(r: Run, samples: Float32Array): void {
   for (const f of u.frames) {
     r.pendingFrames.push({ ...f });
     if (Number.isFinite(f.frequencyHz)) r.mainFrequencyHz = f.frequencyHz;
+    r.latestRegime = f.state;
   }
   for (const o of u.onsets) r.pendingOnsets.push({ ...o });
   for (const s of u.segments) r.pendingSegments.push({ ...s, rateCi95PerS: s.rateCi95PerS ? [s.rateCi95PerS[0], s.rateCi95PerS[1]] : null });
@@ -213,7 +230,8 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
   if (isLiveMarginDue(r.liveMargin) && now - r.lastMarginMs >= LIVE_MARGIN_EVERY_S * 1000) {
     r.lastMarginMs = now;
     const tm = performance.now();
-    message.margin = estimateLiveMargin(r.liveMargin, last?.state === 'steady' ? r.mainFrequencyHz : Number.NaN, r.columnBandHz[1]);
+    // At the tracked tone while it holds steady (the newest row's regime, not this batch's: a batch often has no rows).
+    message.margin = estimateLiveMargin(r.liveMargin, r.latestRegime === 'steady' ? r.mainFrequencyHz : Number.NaN, r.columnBandHz[1]);
     marginMs = performance.now() - tm;
     r.stageMs.marginEstimate += marginMs;
     r.stageMs.marginEstimates++;
@@ -238,6 +256,7 @@ function finishRun(r: Run): void {
     r.port.onmessage = null;
     r.port.close();
   }
+  flushLiveBlocks(r);
   maybePostUpdate(r, true);
   const ta = performance.now();
   flushAudio(r);
@@ -254,11 +273,37 @@ function onPortMessage(r: Run, ev: MessageEvent): void {
   const parsed = parseToWorker(ev.data);
   if (!parsed.ok || parsed.message.type !== 'block') return;
   try {
-    pushBlock(r, parsed.message.samples);
-    maybePostUpdate(r, false);
+    gatherLiveBlock(r, parsed.message.samples);
   } catch (err) {
     postError(r.id, err);
   }
+}
+
+/** Keeps a live block; analyses the gathered blocks as one once they hold LIVE_BATCH_S of audio. */
+function gatherLiveBlock(r: Run, samples: Float32Array): void {
+  r.liveBlocks.push(samples);
+  r.liveSamples += samples.length;
+  if (r.liveSamples >= LIVE_BATCH_S * r.sampleRateHz) flushLiveBlocks(r);
+}
+
+/** Analyses the live blocks gathered so far (before a gap, a marker or the end, so they keep their order and times). */
+function flushLiveBlocks(r: Run): void {
+  if (r.liveSamples === 0) return;
+  let block = r.liveBlocks[0];
+  if (r.liveBlocks.length > 1) {
+    const t0 = performance.now();
+    block = new Float32Array(r.liveSamples);
+    let at = 0;
+    for (const b of r.liveBlocks) {
+      block.set(b, at);
+      at += b.length;
+    }
+    r.stageMs.input += performance.now() - t0;
+  }
+  r.liveBlocks = [];
+  r.liveSamples = 0;
+  pushBlock(r, block);
+  maybePostUpdate(r, false);
 }
 
 function analyseFile(r: Run, channels: Float32Array[]): void {
@@ -383,15 +428,16 @@ function handle(message: ToWorker): void {
   }
   switch (message.type) {
     case 'block':
-      pushBlock(r, message.samples);
-      maybePostUpdate(r, false);
+      gatherLiveBlock(r, message.samples);
       return;
     case 'gap':
+      flushLiveBlocks(r);
       r.analysis.gap(Math.round(message.missingSamples));
       restartLiveMargin(r.liveMargin, Math.round(message.missingSamples));
       r.samplesSeen += Math.round(message.missingSamples);
       return;
     case 'mark': {
+      flushLiveBlocks(r);
       const marker: Marker = { ...message.marker, timeS: message.marker.timeS ?? r.samplesSeen / r.sampleRateHz };
       r.analysis.mark(marker);
       r.pendingMarkers.push(marker);

@@ -191,7 +191,7 @@ export interface ProgressMessage {
  * figures of the browser bench, scripts/bench-browser.mjs).
  */
 export interface WorkerStageMs {
-  /** Reading the input: WAV decoding, the mono mix and block copies of a file. */
+  /** Reading the input: WAV decoding, the mono mix and block copies of a file; joining the live blocks gathered for one analysis step. */
   input: number;
   /** dsp/ push() and finish(). */
   analysis: number;
