@@ -4,13 +4,11 @@
  * clipping, and digital silence (runs of exact zeros: a recorder stopped or muted, a dropout, a
  * file padded with zeros), neither of which is a measurement of the sound.
  *
- * Decimation is a cascade of half-band FIR stages (each halves the rate). Each stage is a
- * Kaiser-windowed sinc whose transition band runs from the top of the band of interest to the
- * image of that edge, so nothing aliases into the band (Kaiser 1974, "Nonrecursive digital filter
- * design using the I0-sinh window function"; half-band structure: every second tap is zero).
- * Every filter runs sample by sample on its own state, so the output does not depend on how the
- * input is cut into blocks.
+ * Decimation is a cascade of half-band FIR stages (each halves the rate; their design, Kaiser
+ * 1974, and the DC blocker after them are in half-band.ts). Every filter runs sample by sample on
+ * its own state, so the output does not depend on how the input is cut into blocks.
  */
+import { createDcBlocker, createHalfBandStage, dcStep, resetHalfBandStage, runHalfBand, type DcBlocker, type HalfBandStage } from './half-band';
 
 /** Largest block the conditioner takes in one step; longer input is fed in chunks by the caller. */
 export const CONDITION_MAX_BLOCK = 8192;
@@ -32,29 +30,10 @@ export const CLIP_MAX_SPANS = 2048;
  */
 const DIGITAL_SILENCE_S = 0.01;
 
-/** Stop-band attenuation of each half-band stage, dB. */
-const STOPBAND_DB = 80;
-
 export interface ConditionConfig {
   sampleRateHz: number;
   bandLowHz: number;
   bandHighHz: number;
-}
-
-interface HalfBandStage {
-  /** Number of non-zero odd offsets k = 1, 3, 5, ... from the centre (symmetric taps). */
-  tapCount: number;
-  centreTap: number;
-  length: number;
-  /**
-   * Linear work buffer: the last length − 1 inputs, then the current block; its last tapCount
-   * values hold the coefficients of the odd offsets, so that the filter's inner loop reads one
-   * typed array rather than two (V8 checks each array it reads on every pass of the loop; one
-   * array is about 6 % less time for the whole conditioning).
-   */
-  work: Float64Array;
-  /** Parity of the inputs seen: an output is produced on every second input. */
-  parity: number;
 }
 
 export interface ConditionState {
@@ -74,15 +53,8 @@ export interface ConditionState {
   /** A copy of the input block and its bit patterns (the same memory), for the peak scan. */
   peakCopy: Float32Array;
   peakBits: Int32Array;
-  /**
-   * DC blocker: y = g·(x − x1) + r·y1 (dcStep). The gain g = (1 + r)/2 makes its response exactly
-   * 1 at Nyquist and flat within 0.001 dB across the band (without it the pass band rises by up
-   * to (1 − r)/2).
-   */
-  dcR: number;
-  dcGain: number;
-  dcX1: number;
-  dcY1: number;
+  /** DC blocker after the decimation (half-band.ts). */
+  dc: DcBlocker;
   /** Outputs of the last step (valid up to outCount). */
   out: Float32Array;
   /** 1 where the input samples that fed this output held clipping or digital silence. */
@@ -121,50 +93,6 @@ function createSpanList(): SpanList {
   return { startS: new Float64Array(CLIP_MAX_SPANS), endS: new Float64Array(CLIP_MAX_SPANS), count: 0, dropped: 0 };
 }
 
-/** Zeroth-order modified Bessel function of the first kind, power series (for the Kaiser window). */
-function besselI0(x: number): number {
-  let sum = 1;
-  let term = 1;
-  const q = (x * x) / 4;
-  for (let k = 1; k < 60; k++) {
-    term *= q / (k * k);
-    sum += term;
-    if (term < 1e-17 * sum) break;
-  }
-  return sum;
-}
-
-/**
- * Designs one half-band low-pass stage (cut-off at a quarter of its input rate) whose pass band
- * reaches passHz at input rate rateHz. Length from Kaiser's formula N = (A − 7.95)/(2.285 Δω).
- */
-function createHalfBandStage(rateHz: number, passHz: number): HalfBandStage {
-  const transition = (rateHz / 2 - 2 * passHz) / rateHz;
-  if (!(transition > 0)) throw new RangeError(`bandHighHz too close to the analysis Nyquist frequency (${passHz} Hz at ${rateHz} Hz)`);
-  const estimate = Math.ceil((STOPBAND_DB - 7.95) / (2.285 * 2 * Math.PI * transition)) + 1;
-  // Half-band length 4K + 3: the outermost taps sit at odd offsets and are non-zero.
-  const k = Math.max(0, Math.ceil((estimate - 3) / 4));
-  const length = 4 * k + 3;
-  const half = (length - 1) / 2;
-  const beta = 0.1102 * (STOPBAND_DB - 8.7);
-  const i0b = besselI0(beta);
-  const oddTaps = new Float64Array((half + 1) / 2);
-  let sum = 0.5;
-  for (let j = 0; j < oddTaps.length; j++) {
-    const off = 2 * j + 1;
-    const r = off / half;
-    const w = besselI0(beta * Math.sqrt(1 - r * r)) / i0b;
-    const h = (Math.sin((Math.PI * off) / 2) / (Math.PI * off)) * w;
-    oddTaps[j] = h;
-    sum += 2 * h;
-  }
-  // Unit gain at DC.
-  for (let j = 0; j < oddTaps.length; j++) oddTaps[j] /= sum;
-  const work = new Float64Array(length - 1 + CONDITION_MAX_BLOCK + oddTaps.length);
-  work.set(oddTaps, work.length - oddTaps.length);
-  return { tapCount: oddTaps.length, centreTap: 0.5 / sum, length, work, parity: 0 };
-}
-
 /**
  * Sample rates the analysis accepts, Hz: from pressure-sensor logs at 500 Hz (a band up to 200 Hz,
  * 0.4 × the rate, holds the low modes of boilers and flues) to 192 kHz audio.
@@ -201,15 +129,13 @@ export function createConditionState(cfg: ConditionConfig): ConditionState {
   let delayS = 0;
   let rate = fs;
   for (let d = decimation; d > 1; d /= 2) {
-    const st = createHalfBandStage(rate, passHz);
+    const st = createHalfBandStage(rate, passHz, CONDITION_MAX_BLOCK);
     stages.push(st);
     delayS += (st.length - 1) / 2 / rate;
     rate /= 2;
   }
   const outRate = fs / decimation;
   const outCap = Math.ceil(CONDITION_MAX_BLOCK / decimation) + 2;
-  // DC blocker corner a quarter of the band's low edge: removes offset and drift, leaves the band flat.
-  const dcR = Math.exp((-2 * Math.PI * (cfg.bandLowHz / 4)) / outRate);
   const peakCopy = new Float32Array(CONDITION_MAX_BLOCK);
   return {
     inputRateHz: fs,
@@ -223,10 +149,8 @@ export function createConditionState(cfg: ConditionConfig): ConditionState {
     clipScratch: new Uint8Array(CONDITION_MAX_BLOCK),
     peakCopy,
     peakBits: new Int32Array(peakCopy.buffer),
-    dcR,
-    dcGain: 0.5 * (1 + dcR),
-    dcX1: 0,
-    dcY1: 0,
+    // Corner a quarter of the band's low edge: removes offset and drift, leaves the band flat.
+    dc: createDcBlocker(cfg.bandLowHz / 4, outRate),
     out: new Float32Array(outCap),
     outUnusable: new Uint8Array(outCap),
     outCount: 0,
@@ -257,113 +181,6 @@ function recordSpanSample(list: SpanList, timeS: number, runStartS: number): voi
   list.startS[n] = runStartS;
   list.endS[n] = timeS;
   list.count = n + 1;
-}
-
-/** One output of the DC blocker (ConditionState.dcR): input x after x1, previous output y1. */
-function dcStep(st: ConditionState, x: number, x1: number, y1: number): number {
-  return st.dcGain * (x - x1) + st.dcR * y1;
-}
-
-/**
- * Runs one half-band stage over the n inputs already in its work buffer (after the history) into
- * the next stage's work buffer (after its history); returns the number of outputs. The last stage
- * (next null) hands its outputs to the DC blocker in the same pass and writes st.out: the
- * blocker's recursion, which waits on its previous output, then overlaps the filter's sums
- * instead of running alone after them.
- */
-function runHalfBand(st: ConditionState, stg: HalfBandStage, n: number, next: HalfBandStage | null): number {
-  const L = stg.length;
-  const w = stg.work;
-  const hist = L - 1;
-  const nt = stg.tapCount;
-  const tapsAt = w.length - nt;
-  const c0 = stg.centreTap;
-  const h = (L - 1) / 2;
-  const dst = next !== null ? next.work : null;
-  const dstAt = next !== null ? next.length - 1 : 0;
-  let m = dstAt;
-  const out = st.out;
-  let x1 = st.dcX1;
-  let y1 = st.dcY1;
-  // Input i completes a pair when the running count is odd; its window is w[i .. i + L − 1].
-  // Each output folds the mirrored samples first (symmetric taps) and sums its terms in tap order.
-  let i = stg.parity === 1 ? 0 : 1;
-  // Four outputs per pass (windows two inputs apart) share the loop over the taps. Tap j of output
-  // r (centre c + 2r) reads L_{j−r} = w[c − 1 − 2(j − r)] and R_{j+r} = w[c + 1 + 2(j + r)]; the
-  // four left and four right samples slide by one per tap, so each tap loads two new samples.
-  for (; i + 6 < n; i += 8) {
-    const centre = i + h;
-    let a0 = c0 * w[centre];
-    let a1 = c0 * w[centre + 2];
-    let a2 = c0 * w[centre + 4];
-    let a3 = c0 * w[centre + 6];
-    let l1 = w[centre + 1];
-    let l2 = w[centre + 3];
-    let l3 = w[centre + 5];
-    let r0 = l1;
-    let r1 = l2;
-    let r2 = l3;
-    let lo = centre - 1;
-    let hi = centre + 7;
-    for (let j = 0; j < nt; j++) {
-      const t = w[tapsAt + j];
-      const l0 = w[lo];
-      const r3 = w[hi];
-      a0 += t * (l0 + r0);
-      a1 += t * (l1 + r1);
-      a2 += t * (l2 + r2);
-      a3 += t * (l3 + r3);
-      l3 = l2;
-      l2 = l1;
-      l1 = l0;
-      r0 = r1;
-      r1 = r2;
-      r2 = r3;
-      lo -= 2;
-      hi += 2;
-    }
-    if (dst !== null) {
-      dst[m++] = a0;
-      dst[m++] = a1;
-      dst[m++] = a2;
-      dst[m++] = a3;
-    } else {
-      const d0 = dcStep(st, a0, x1, y1);
-      const d1 = dcStep(st, a1, a0, d0);
-      const d2 = dcStep(st, a2, a1, d1);
-      const d3 = dcStep(st, a3, a2, d2);
-      out[m++] = d0;
-      out[m++] = d1;
-      out[m++] = d2;
-      out[m++] = d3;
-      x1 = a3;
-      y1 = d3;
-    }
-  }
-  for (; i < n; i += 2) {
-    const centre = i + h;
-    let acc = c0 * w[centre];
-    let lo = centre - 1;
-    let hi = centre + 1;
-    for (let j = 0; j < nt; j++) {
-      acc += w[tapsAt + j] * (w[lo] + w[hi]);
-      lo -= 2;
-      hi += 2;
-    }
-    if (dst !== null) dst[m++] = acc;
-    else {
-      y1 = dcStep(st, acc, x1, y1);
-      x1 = acc;
-      out[m++] = y1;
-    }
-  }
-  if (dst === null) {
-    st.dcX1 = x1;
-    st.dcY1 = y1;
-  }
-  stg.parity = (stg.parity + n) & 1;
-  w.copyWithin(0, n, n + hist);
-  return m - dstAt;
 }
 
 /**
@@ -485,21 +302,22 @@ export function stepCondition(st: ConditionState, block: Float32Array): void {
   // last one writes st.out through the DC blocker.
   let len = n;
   const stages = st.stages;
-  for (let s = 0; s < stages.length; s++) len = runHalfBand(st, stages[s], len, s + 1 < stages.length ? stages[s + 1] : null);
+  for (let s = 0; s < stages.length; s++) len = runHalfBand(stages[s], len, s + 1 < stages.length ? stages[s + 1] : null, st.dc, st.out);
   const outUnusable = st.outUnusable;
   if (stages.length === 0) {
     // No decimation: the DC blocker alone, on the block in scratchA.
     const out = st.out;
-    let x1 = st.dcX1;
-    let y1 = st.dcY1;
+    const dc = st.dc;
+    let x1 = dc.x1;
+    let y1 = dc.y1;
     for (let i = 0; i < len; i++) {
       const x = a[i];
-      y1 = dcStep(st, x, x1, y1);
+      y1 = dcStep(dc, x, x1, y1);
       x1 = x;
       out[i] = y1;
     }
-    st.dcX1 = x1;
-    st.dcY1 = y1;
+    dc.x1 = x1;
+    dc.y1 = y1;
   }
   if (mayClip) for (let i = 0; i < len; i++) outUnusable[i] = st.clipScratch[i];
   else {
@@ -516,16 +334,13 @@ export function stepCondition(st: ConditionState, block: Float32Array): void {
 
 /** Restarts the filters after missing input (a gap of missingSamples input samples). */
 export function gapCondition(st: ConditionState, missingSamples: number): void {
-  for (const stg of st.stages) {
-    stg.work.fill(0, 0, stg.work.length - stg.tapCount);
-    stg.parity = 0;
-  }
+  for (const stg of st.stages) resetHalfBandStage(stg);
   st.clipCarry = 0;
   // Clip times continue from the restart: the decimation phase starts afresh after the gap.
   st.timeOffsetS += (st.inputCount + missingSamples) / st.inputRateHz;
   st.inputCount = 0;
-  st.dcX1 = 0;
-  st.dcY1 = 0;
+  st.dc.x1 = 0;
+  st.dc.y1 = 0;
   st.clipRun = 0;
   st.zeroRun = 0;
 }
