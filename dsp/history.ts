@@ -123,12 +123,15 @@ export function writeRing(ring: Float32Array, x: Float32Array, from: number, to:
   if (from + first < to) ring.set(x.subarray(from + first, to), 0);
 }
 
-/** The samples of global analysis indices j0 .. j0 + len − 1 (len ≤ ring.length) from a ring written by writeRing, as a new array. */
-export function readRing(ring: Float32Array, j0: number, len: number): Float32Array {
+/**
+ * The samples of global analysis indices j0 .. j0 + len − 1 (len ≤ ring.length) from a ring
+ * written by writeRing, as a new array (or into `out`, from its start).
+ */
+export function readRing<T extends Float32Array | Float64Array = Float32Array>(ring: Float32Array, j0: number, len: number, out?: T): T {
   const cap = ring.length;
   const p = j0 % cap;
   const first = Math.min(len, cap - p);
-  const x = new Float32Array(len);
+  const x = out ?? (new Float32Array(len) as T);
   x.set(ring.subarray(p, p + first));
   if (first < len) x.set(ring.subarray(0, len - first), first);
   return x;

@@ -61,6 +61,12 @@ export function createQuietStore(analysisRateHz: number, spec: { frameSize: numb
   };
 }
 
+/** Adds a frame's power spectrum to `sum` up to bin hiBin (the resonance search reads no further). */
+function addFrame(sum: Float64Array, power: Float32Array, hiBin: number): void {
+  const bins = Math.min(sum.length, hiBin + 1);
+  for (let k = 0; k < bins; k++) sum[k] += power[k];
+}
+
 /** Start (global analysis index) of frame f; valid for frames since the latest gap. */
 function frameStartJ(qs: QuietStore, f: number): number {
   return qs.lastFrameEndJ - (qs.lastFrame - f) * qs.hopSize - qs.frameSize;
@@ -83,8 +89,7 @@ export function stepQuietFrame(qs: QuietStore, hist: History, frameIdx: number, 
     sum.fill(0);
     qs.sumFrom = f;
   }
-  const p = hist.frameRing[f % held];
-  for (let k = 0; k < sum.length; k++) sum[k] += p[k];
+  addFrame(sum, hist.frameRing[f % held], hist.hiBin);
   qs.sumTo = f + 1;
 }
 
@@ -136,9 +141,9 @@ export function closeQuietStretch(
   const j0 = Math.max(qs.startJ, jEnd - cap);
   const len = jEnd - j0;
   if (len < QUIET_MIN_S * qs.analysisRateHz) return;
-  const x = readRing(qs.ring, j0, len);
-  const centre = findResonance(ctx, stretchSpectrum(qs, hist, ctx.spec, x, j0, jEnd));
+  const centre = findResonance(ctx, stretchSpectrum(qs, hist, ctx.spec, j0, jEnd));
   if (centre === null) return;
+  const x = readRing(qs.ring, j0, len);
   onStretch?.(x, centre, j0);
   const r = estimateNoiseDrivenDamping(x, qs.analysisRateHz, { centreHz: centre, searchHalfWidthHz: RESONANCE_SEARCH_HALF_WIDTH_HZ });
   if (!r.combined.isValid) {
@@ -170,13 +175,13 @@ interface StretchSpectrum {
 }
 
 /**
- * The summed power spectrum of the frames lying wholly in the stretch x = samples [j0, jEnd): the
- * store's sum plus the frames still in the history; when the sum holds a frame outside the
- * stretch (the stretch outgrew the store, or closed further back than the history reaches) the
- * frames are transformed again from x, as the spectrum stage does (the same numbers: the power of
- * dsp/spectrum.ts, kept as float32 like the history's frames).
+ * The summed power spectrum of the frames lying wholly in the stretch [j0, jEnd): the store's sum
+ * plus the frames still in the history; when the sum holds a frame outside the stretch (the
+ * stretch outgrew the store, or closed further back than the history reaches) the frames are
+ * transformed again from the store's samples, as the spectrum stage does (the same numbers: the
+ * power of dsp/spectrum.ts, kept as float32 like the history's frames).
  */
-function stretchSpectrum(qs: QuietStore, hist: History, spec: SpectrumState, x: Float32Array, j0: number, jEnd: number): StretchSpectrum {
+function stretchSpectrum(qs: QuietStore, hist: History, spec: SpectrumState, j0: number, jEnd: number): StretchSpectrum {
   const n = qs.frameSize;
   const hop = qs.hopSize;
   const last = qs.lastFrame;
@@ -189,21 +194,18 @@ function stretchSpectrum(qs: QuietStore, hist: History, spec: SpectrumState, x: 
   const held = hist.frameRing.length;
   if (isSummed ? first === qs.sumFrom && end >= qs.sumTo - 1 : first > last - held) {
     if (!isSummed) sum.fill(0);
-    for (let f = isSummed ? qs.sumTo : first; f <= end; f++) {
-      const p = hist.frameRing[f % held];
-      for (let k = 0; k < sum.length; k++) sum[k] += p[k];
-    }
+    for (let f = isSummed ? qs.sumTo : first; f <= end; f++) addFrame(sum, hist.frameRing[f % held], hist.hiBin);
     return { sum, frames };
   }
   sum.fill(0);
   const out = spec.fftOut;
   const scale = spec.powerScale;
   const frame = new Float64Array(n);
+  const bins = Math.min(sum.length, hist.hiBin + 1);
   for (let f = first; f <= end; f++) {
-    const s = frameStartJ(qs, f) - j0;
-    frame.set(x.subarray(s, s + n));
+    readRing(qs.ring, frameStartJ(qs, f), n, frame);
     realFftWindowed(spec.fft, out, frame, 0, spec.window);
-    for (let k = 0; k < sum.length; k++) sum[k] += Math.fround((out[2 * k] * out[2 * k] + out[2 * k + 1] * out[2 * k + 1]) * scale);
+    for (let k = 0; k < bins; k++) sum[k] += Math.fround((out[2 * k] * out[2 * k] + out[2 * k + 1] * out[2 * k + 1]) * scale);
   }
   return { sum, frames };
 }
