@@ -449,22 +449,24 @@ function gridSearch(
   const k = model.nNonlinear;
   const theta = new Float64Array(k);
   const lin = { lnL: 0, bg: 0 };
-  let best: FitState | null = null;
+  // The best point so far: its grid position, linear parameters and RSS (the state is built once, at the end).
+  let bestRss = Number.POSITIVE_INFINITY;
+  let bestLnL = 0;
+  let bestBg = 0;
   const counts = grid.values.map((v) => v.length);
   const bestAt = new Int32Array(k);
+  const at = new Int32Array(k);
   const data = dataSums(d, w);
   // Every point of the box lo..hi (inclusive) taking every step-th value of each parameter.
   const searchBox = (lo: Int32Array, hi: Int32Array, step: number): void => {
-    const at = Int32Array.from(lo);
+    at.set(lo);
     for (;;) {
       for (let j = 0; j < k; j++) theta[j] = grid.values[j][at[j]];
       const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, data, lin);
-      if (rss < (best?.rss ?? Number.POSITIVE_INFINITY)) {
-        const params = new Float64Array(k + 2);
-        params[0] = lin.lnL;
-        params.set(theta, 1);
-        params[k + 1] = lin.bg;
-        best = { params, isBackgroundFixed: fixedBg !== null, rss };
+      if (rss < bestRss) {
+        bestRss = rss;
+        bestLnL = lin.lnL;
+        bestBg = lin.bg;
         bestAt.set(at);
       }
       let j = 0;
@@ -475,11 +477,15 @@ function gridSearch(
   };
   if (counts.some((c) => c === 0)) return null;
   searchBox(new Int32Array(k), Int32Array.from(counts, (c) => c - 1), GRID_COARSE);
-  if (best === null) return null;
+  if (bestRss === Number.POSITIVE_INFINITY) return null;
   const lo = Int32Array.from(bestAt, (b) => Math.max(0, b - GRID_COARSE + 1));
   const hi = Int32Array.from(bestAt, (b, j) => Math.min(counts[j] - 1, b + GRID_COARSE - 1));
   searchBox(lo, hi, 1);
-  return best;
+  const params = new Float64Array(k + 2);
+  params[0] = bestLnL;
+  for (let j = 0; j < k; j++) params[1 + j] = grid.values[j][bestAt[j]];
+  params[k + 1] = bestBg;
+  return { params, isBackgroundFixed: fixedBg !== null, rss: bestRss };
 }
 
 /** Most samples the grid search looks at; longer series are block-averaged for it. */
@@ -598,8 +604,9 @@ export function fitIrls(
     updateWeights(d, gridModel, state, w, bgFloor);
   }
   polish(d, w, model, state);
+  const before = new Float64Array(state.params.length);
   for (let pass = 0; pass < 8; pass++) {
-    const before = Float64Array.from(state.params);
+    before.set(state.params);
     updateWeights(d, model, state, w, bgFloor);
     // The exponential grid is cheap: search it again under the IRLS weights in case they move
     // the optimum to another basin. (The saturation grid is 20× larger; its LM polish suffices.)
