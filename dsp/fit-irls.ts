@@ -123,12 +123,26 @@ function solveLinear(
   return Math.max(0, rss);
 }
 
+/**
+ * Scratch of the evaluations below, which run one at a time and read their contents before
+ * returning (a model keeps its own copy of the parameters it remembers): the nonlinear parameters
+ * (the models here have at most three) and the lower triangle of the normal equations' products.
+ */
+const THETA_SCRATCH = new Float64Array(3);
+const LOWER_SCRATCH = new Float64Array(15);
+
+/** The nonlinear parameters θ of a full parameter vector [ln L, θ…, N²] (k of them), in the first k entries of THETA_SCRATCH. */
+function nonlinearOf(params: Float64Array, k: number): Float64Array {
+  for (let j = 0; j < k; j++) THETA_SCRATCH[j] = params[1 + j];
+  return THETA_SCRATCH;
+}
+
 /** Weighted RSS of a full parameter vector. */
 export function rssOf(d: Prepared, w: Float64Array, model: ShapeModel, params: Float64Array): number {
   const k = model.nNonlinear;
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
-  const g = model.evaluate(d.t, d.n, params.subarray(1, k + 1), false).g;
+  const g = model.evaluate(d.t, d.n, nonlinearOf(params, k), false).g;
   let rss = 0;
   for (let i = 0; i < d.n; i++) {
     const r = d.y[i] - amp * g[i] - bg;
@@ -156,7 +170,7 @@ function normalEquations(
   const k = model.nNonlinear;
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
-  const v = model.evaluate(d.t, d.n, params.subarray(1, k + 1), true);
+  const v = model.evaluate(d.t, d.n, nonlinearOf(params, k), true);
   const grad = v.grad;
   const y = d.y;
   const bgColumn = nFree === k + 2 ? 1 : 0;
@@ -265,14 +279,27 @@ function normalEquations(
     s44 += w4 * x4;
   }
   // Lower triangle of the 5 × 5 products, row by row; free parameter a is column a (the background, when free, column 4).
-  const lower = [s00, s10, s11, s20, s21, s22, s30, s31, s32, s33, s40, s41, s42, s43, s44];
-  const right = [r0, r1, r2, r3, r4];
-  const columnOf = (a: number): number => (a <= k ? a : 4);
+  const lower = LOWER_SCRATCH;
+  lower[0] = s00;
+  lower[1] = s10;
+  lower[2] = s11;
+  lower[3] = s20;
+  lower[4] = s21;
+  lower[5] = s22;
+  lower[6] = s30;
+  lower[7] = s31;
+  lower[8] = s32;
+  lower[9] = s33;
+  lower[10] = s40;
+  lower[11] = s41;
+  lower[12] = s42;
+  lower[13] = s43;
+  lower[14] = s44;
   for (let a = 0; a < nFree; a++) {
-    const ca = columnOf(a);
-    jtr[a] = right[ca];
+    const ca = a <= k ? a : 4;
+    jtr[a] = ca === 0 ? r0 : ca === 1 ? r1 : ca === 2 ? r2 : ca === 3 ? r3 : r4;
     for (let b = 0; b <= a; b++) {
-      const cb = columnOf(b);
+      const cb = b <= k ? b : 4;
       const value = lower[(ca * (ca + 1)) / 2 + cb];
       jtj[a * nFree + b] = value;
       jtj[b * nFree + a] = value;
@@ -320,6 +347,18 @@ function predictedDrop(jtj: Float64Array, jtr: Float64Array, size: number, from:
   return drop;
 }
 
+/** Most parameters of a fit: ln L, at most three nonlinear ones (normalEquations), N². */
+const MAX_PARAMS = 5;
+const POLISH_SCRATCH = {
+  jtj: new Float64Array(MAX_PARAMS * MAX_PARAMS),
+  jtr: new Float64Array(MAX_PARAMS),
+  trialJtj: new Float64Array(MAX_PARAMS * MAX_PARAMS),
+  trialJtr: new Float64Array(MAX_PARAMS),
+  trial: new Float64Array(MAX_PARAMS),
+  stepA: new Float64Array(MAX_PARAMS * MAX_PARAMS),
+  stepB: new Float64Array(MAX_PARAMS),
+};
+
 /**
  * Levenberg–Marquardt polish of all parameters (Marquardt 1963), N² kept ≥ 0. Each trial point is
  * evaluated with its normal equations, so an accepted step needs no second pass over the data.
@@ -338,13 +377,9 @@ export function polish(
 ): number {
   const k = model.nNonlinear;
   const nFree = state.isBackgroundFixed ? k + 1 : k + 2;
-  let jtj = new Float64Array(nFree * nFree);
-  let jtr = new Float64Array(nFree);
-  let trialJtj = new Float64Array(nFree * nFree);
-  let trialJtr = new Float64Array(nFree);
-  const trial = new Float64Array(state.params.length);
-  const stepA = new Float64Array(nFree * nFree);
-  const stepB = new Float64Array(nFree);
+  // Scratch for at most MAX_PARAMS parameters, used from its start (a polish runs to its end before another begins).
+  let { jtj, jtr, trialJtj, trialJtr } = POLISH_SCRATCH;
+  const { trial, stepA, stepB } = POLISH_SCRATCH;
   let lambda = 1e-3;
   let rss = normalEquations(d, w, model, state.params, nFree, jtj, jtr);
   const startRss = rss;
@@ -374,7 +409,7 @@ export function polish(
       const rssTrial = normalEquations(d, w, model, trial, nFree, trialJtj, trialJtr);
       if (rssTrial < rss) {
         const drop = (rss - rssTrial) / rss;
-        state.params.set(trial);
+        for (let j = 0; j < state.params.length; j++) state.params[j] = trial[j];
         rss = rssTrial;
         [jtj, trialJtj] = [trialJtj, jtj];
         [jtr, trialJtr] = [trialJtr, jtr];
@@ -414,22 +449,24 @@ function gridSearch(
   const k = model.nNonlinear;
   const theta = new Float64Array(k);
   const lin = { lnL: 0, bg: 0 };
-  let best: FitState | null = null;
+  // The best point so far: its grid position, linear parameters and RSS (the state is built once, at the end).
+  let bestRss = Number.POSITIVE_INFINITY;
+  let bestLnL = 0;
+  let bestBg = 0;
   const counts = grid.values.map((v) => v.length);
   const bestAt = new Int32Array(k);
+  const at = new Int32Array(k);
   const data = dataSums(d, w);
   // Every point of the box lo..hi (inclusive) taking every step-th value of each parameter.
   const searchBox = (lo: Int32Array, hi: Int32Array, step: number): void => {
-    const at = Int32Array.from(lo);
+    at.set(lo);
     for (;;) {
       for (let j = 0; j < k; j++) theta[j] = grid.values[j][at[j]];
       const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, data, lin);
-      if (rss < (best?.rss ?? Number.POSITIVE_INFINITY)) {
-        const params = new Float64Array(k + 2);
-        params[0] = lin.lnL;
-        params.set(theta, 1);
-        params[k + 1] = lin.bg;
-        best = { params, isBackgroundFixed: fixedBg !== null, rss };
+      if (rss < bestRss) {
+        bestRss = rss;
+        bestLnL = lin.lnL;
+        bestBg = lin.bg;
         bestAt.set(at);
       }
       let j = 0;
@@ -440,11 +477,15 @@ function gridSearch(
   };
   if (counts.some((c) => c === 0)) return null;
   searchBox(new Int32Array(k), Int32Array.from(counts, (c) => c - 1), GRID_COARSE);
-  if (best === null) return null;
+  if (bestRss === Number.POSITIVE_INFINITY) return null;
   const lo = Int32Array.from(bestAt, (b) => Math.max(0, b - GRID_COARSE + 1));
   const hi = Int32Array.from(bestAt, (b, j) => Math.min(counts[j] - 1, b + GRID_COARSE - 1));
   searchBox(lo, hi, 1);
-  return best;
+  const params = new Float64Array(k + 2);
+  params[0] = bestLnL;
+  for (let j = 0; j < k; j++) params[1 + j] = grid.values[j][bestAt[j]];
+  params[k + 1] = bestBg;
+  return { params, isBackgroundFixed: fixedBg !== null, rss: bestRss };
 }
 
 /** Most samples the grid search looks at; longer series are block-averaged for it. */
@@ -500,7 +541,7 @@ function updateWeights(d: Prepared, model: ShapeModel, state: FitState, w: Float
   const k = model.nNonlinear;
   const amp = Math.exp(state.params[0]);
   const bg = state.params[k + 1];
-  const g = model.evaluate(d.t, d.n, state.params.subarray(1, k + 1), false).g;
+  const g = model.evaluate(d.t, d.n, nonlinearOf(state.params, k), false).g;
   for (let i = 0; i < d.n; i++) w[i] = 1 / varianceOf(amp * g[i] + bg, bg, bgFloor);
   // Normalise so that RSS values stay of order n (the scale of w is irrelevant to the estimates).
   let mean = 0;
@@ -563,8 +604,9 @@ export function fitIrls(
     updateWeights(d, gridModel, state, w, bgFloor);
   }
   polish(d, w, model, state);
+  const before = new Float64Array(state.params.length);
   for (let pass = 0; pass < 8; pass++) {
-    const before = Float64Array.from(state.params);
+    before.set(state.params);
     updateWeights(d, model, state, w, bgFloor);
     // The exponential grid is cheap: search it again under the IRLS weights in case they move
     // the optimum to another basin. (The saturation grid is 20× larger; its LM polish suffices.)
@@ -633,7 +675,7 @@ function residualCorrelationTime(d: Prepared, model: ShapeModel, params: Float64
   const k = model.nNonlinear;
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
-  const g = model.evaluate(d.t, d.n, params.subarray(1, k + 1), false).g;
+  const g = model.evaluate(d.t, d.n, nonlinearOf(params, k), false).g;
   const e = new Float64Array(d.n);
   let c0 = 0;
   for (let i = 0; i < d.n; i++) {

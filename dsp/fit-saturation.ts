@@ -53,6 +53,26 @@ function saturationShape(fixedP: number | null, isAmplitude = false): ShapeModel
       const twoOverP = 2 / p;
       const from = steppedDecay(t, n, prefixOf(t, n), Math.abs(ps), tc, decay);
       for (let i = from; i < n; i++) decay[i] = Math.exp(-Math.abs(ps * (t[i] - tc)));
+      if (isLandau) {
+        // Stuart–Landau, g = q (or √q): its own loop, with no logarithm or exponential per time.
+        const values = v.g;
+        const grad = v.grad;
+        for (let i = 0; i < n; i++) {
+          const dt = t[i] - tc;
+          const e = decay[i];
+          const inv = 1 / (1 + e);
+          const isUpper = ps * dt >= 0;
+          const g = isAmplitude ? Math.sqrt(isUpper ? inv : e * inv) : isUpper ? inv : e * inv;
+          values[i] = g;
+          if (!withGrad) continue;
+          // ∂g/∂s = 2g·(1 − q)·(t − tc), ∂g/∂tc = −2g·(1 − q)·s; those of √g are √g·(1 − q)·(t − tc), −√g·(1 − q)·s.
+          const scale = isAmplitude ? g : 2 * g;
+          const oneMinusQ = isUpper ? e * inv : inv;
+          grad[2 * i] = scale * oneMinusQ * dt;
+          grad[2 * i + 1] = -(scale * oneMinusQ * s);
+        }
+        return v;
+      }
       for (let i = 0; i < n; i++) {
         const dt = t[i] - tc;
         const z = ps * dt;
@@ -61,18 +81,12 @@ function saturationShape(fixedP: number | null, isAmplitude = false): ShapeModel
         const isUpper = z >= 0;
         const oneMinusQ = isUpper ? e * inv : inv;
         // u = (2/p)·ln q.
-        let g: number;
-        let u = 0;
-        if (isLandau) g = isUpper ? inv : e * inv;
-        else {
-          const tail = twoOverP * Math.log1p(e);
-          u = isUpper ? -tail : 2 * s * dt - tail;
-          g = Math.exp(isAmplitude ? 0.5 * u : u);
-        }
-        if (isAmplitude && isLandau) g = Math.sqrt(g);
+        const tail = twoOverP * Math.log1p(e);
+        const u = isUpper ? -tail : 2 * s * dt - tail;
+        const g = Math.exp(isAmplitude ? 0.5 * u : u);
         v.g[i] = g;
         if (!withGrad) continue;
-        // ∂g/∂s = 2g·(1 − q)·(t − tc), ∂g/∂tc = −2g·(1 − q)·s; those of √g are √g·(1 − q)·(t − tc), −√g·(1 − q)·s.
+        // ∂g/∂s and ∂g/∂tc as for Stuart–Landau above; ∂g/∂ln p = g·(2·(1 − q)·s·(t − tc) − u), halved for √g.
         const scale = isAmplitude ? g : 2 * g;
         v.grad[i * nn] = scale * oneMinusQ * dt;
         v.grad[i * nn + 1] = -(scale * oneMinusQ * s);

@@ -49,14 +49,17 @@ export interface Grouping {
   artefacts: Set<ToneRuntime>;
   /** Segments told already by an earlier track of the same tone. */
   dropped: Set<RegimeSegment>;
+  /** The segments' phase-slope frequencies, each worked out once (for the segment fits too). */
+  frequencyOf: FrequencyOf;
 }
 
 /**
  * A segment's phase-slope frequency (segment-fit.ts segmentFrequency), Hz, worked out once per
- * segment: grouping asks for it up to five times per segment, and each answer is a pass over the
- * segment's store entries. Segments do not change while they are grouped.
+ * segment: grouping asks for it up to five times per segment and the segment fits once more, and
+ * each answer is a pass over the segment's store entries. Segments do not change once the record
+ * is finished.
  */
-type FrequencyOf = (tr: ToneRuntime, s: RegimeSegment) => number;
+export type FrequencyOf = (tr: ToneRuntime, s: RegimeSegment) => number;
 
 function memoisedSegmentFrequency(): FrequencyOf {
   const known = new Map<RegimeSegment, number>();
@@ -324,7 +327,7 @@ export function groupTones(all: ToneRuntime[], binHz: number, floorPower = 0): G
   }
   const artefacts = new Set(families.filter((f) => f.parent !== null).flatMap((f) => f.tracks));
   families.sort((a, b) => b.strength - a.strength);
-  return { families, tones: families.filter((f) => f.parent === null), artefacts, dropped };
+  return { families, tones: families.filter((f) => f.parent === null), artefacts, dropped, frequencyOf };
 }
 
 /**

@@ -309,7 +309,7 @@ function finish(ps: PipelineState): Report {
     for (let i = 0; i < segs.length; i++) {
       if (segs[i].endIdx <= segs[i].startIdx || grouping.dropped.has(segs[i])) continue;
       const isWide = segs[i].state !== STATE_QUIET && wideBandIsClear(tr, ...fitReachS(tr, segs[i]), others, grouping.artefacts, spec.binHz);
-      fitted.push(fitSegment(tr, segs, i, { isWide, markers: ps.markers, warnings: ps.warnings }));
+      fitted.push(fitSegment(tr, segs, i, { isWide, markers: ps.markers, warnings: ps.warnings, frequencyOf: grouping.frequencyOf }));
     }
   }
   const spansOf = (l: SpanList): ClippedSpan[] => Array.from({ length: l.count }, (_, i) => ({ startS: l.startS[i], endS: l.endS[i] }));

@@ -131,12 +131,12 @@ export function phaseFrequency(tr: ToneRuntime, i0: number, i1: number, kEnd = i
 }
 
 /** A segment's times and frequency, with no rate yet. */
-export function unfittedSegment(tr: ToneRuntime, s: RegimeSegment, kind: RegimeKind): Segment {
+export function unfittedSegment(tr: ToneRuntime, s: RegimeSegment, kind: RegimeKind, frequencyOf = segmentFrequency): Segment {
   return {
     kind,
     startS: tr.timeS[s.startIdx],
     endS: tr.timeS[Math.max(s.startIdx, s.endIdx - 1)],
-    frequencyHz: segmentFrequency(tr, s),
+    frequencyHz: frequencyOf(tr, s),
     ratePerS: null,
     rateCi95PerS: null,
     model: null,
@@ -149,12 +149,14 @@ export interface SegmentFitContext {
   isWide: boolean;
   markers: Marker[];
   warnings: string[];
+  /** The segments' frequencies already worked out (grouping.ts Grouping.frequencyOf); segmentFrequency otherwise. */
+  frequencyOf?: (tr: ToneRuntime, s: RegimeSegment) => number;
 }
 
 /** Fits segment i of a tone and fills its report entry (and the onset time for onsets). */
 export function fitSegment(tr: ToneRuntime, segs: RegimeSegment[], i: number, ctx: SegmentFitContext): FittedSegment {
   const seg = segs[i];
-  const out: FittedSegment = { tr, seg, report: unfittedSegment(tr, seg, regimeKind(seg.state)), fit: null, onsetTimeS: null, onsetCi95S: null, limitCi95Dbfs: null };
+  const out: FittedSegment = { tr, seg, report: unfittedSegment(tr, seg, regimeKind(seg.state), ctx.frequencyOf), fit: null, onsetTimeS: null, onsetCi95S: null, limitCi95Dbfs: null };
   if (seg.isImpulse === true) out.report.isImpulseResponse = true;
   if (seg.state === STATE_QUIET) return out;
   if (seg.state === STATE_GROWTH) fitGrowthSegment(out, segs, i, ctx);
