@@ -8,11 +8,11 @@
 //   3. first paint of the installed app reloaded offline in headless Chromium (target ≤ 1 s),
 //   4. storage: opening a 10-minute recording and importing its bundle, each in a fresh profile:
 //      time, peak renderer memory and the longest main-thread stall (target: every stall < 100 ms).
-// Usage: node scripts/bench-browser.mjs [--dist dist] [--port 4196] [--seconds 120] [--live-seconds 30] [--no-store] [--js-flags FLAGS] [--live-block 2048]
+// Usage: node scripts/bench-browser.mjs [--dist dist] [--port 4196] [--seconds 120] [--live-seconds 30] [--no-store] [--js-flags FLAGS] [--live-block 4864]
 // (the port defaults to E2E_PORT when set, as for the browser tests, else 4196; --js-flags passes V8
 // flags to Chromium, e.g. "--prof" writes a tick log per isolate into the current folder, the
 // worker's included, for `node --prof-process`; --live-block sets the live blocks' length, samples,
-// 2048 as the capture worklet posts them).
+// 4864 as the capture worklet posts them at 48 kHz).
 // Needs a built app (npx vite build) and Debian's chromium (or CHROMIUM_PATH).
 import { spawn, execSync } from 'node:child_process';
 import { mkdtempSync, readFileSync, writeFileSync, existsSync, mkdirSync, readdirSync, copyFileSync } from 'node:fs';
@@ -32,7 +32,8 @@ const SECONDS = Number(opt('seconds', '120'));
 const LIVE_SECONDS = Number(opt('live-seconds', '30'));
 const URL = `http://127.0.0.1:${PORT}/`;
 const JS_FLAGS = opt('js-flags', '');
-const LIVE_BLOCK = Number(opt('live-block', '2048'));
+// The capture worklet's block at 48 kHz: 0.1 s in whole 128-sample render quanta (web/capture/live-block.ts).
+const LIVE_BLOCK = Number(opt('live-block', '4864'));
 
 function line(name, value, unit, target, isPass) {
   const shown = Number.isFinite(value) ? value.toFixed(value < 10 ? 2 : 1) : '—';
@@ -114,7 +115,7 @@ function threadCpuMs(profileDir, prefix) {
 
 /**
  * Listening live without a microphone: the app's analysis worker is started as for the
- * microphone and fed 2048-sample blocks (the capture worklet's) at the pace of the audio, so
+ * microphone and fed blocks of LIVE_BLOCK samples (the capture worklet's) at the pace of the audio, so
  * updates and margin estimates come at their live cadence (they are timed by the wall clock). The
  * signal: noise, then a hum that grows at 2 s and holds steady to the end (the margin is
  * estimated over the steady stretch once it is 10 s long). Two sessions in one worker, as the app

@@ -1,8 +1,9 @@
 /**
  * Audio worklet of the capture: mixes the input to mono, gathers 128-sample render quanta into
- * blocks of BLOCK_SAMPLES and posts each block (transferred, not copied) to the analysis worker
- * over the MessagePort it receives first. It has no outputs: nothing is played back.
+ * blocks of about 0.1 s (live-block.ts) and posts each block (transferred, not copied) to the
+ * analysis worker over the MessagePort it receives first. It has no outputs: nothing is played back.
  */
+import { liveBlockSamples } from './live-block';
 
 // The DOM library lacks the worklet scope; these are the few names used here.
 declare class AudioWorkletProcessor {
@@ -10,9 +11,10 @@ declare class AudioWorkletProcessor {
   constructor(options?: unknown);
 }
 declare function registerProcessor(name: string, ctor: new (options?: unknown) => AudioWorkletProcessor): void;
+declare const sampleRate: number;
 
-/** Samples per posted block: 2048 is about 46 ms at 44.1 kHz. */
-const BLOCK_SAMPLES = 2048;
+/** Samples per posted block at the context's rate (4480 at 44.1 kHz, 4864 at 48 kHz). */
+const BLOCK_SAMPLES = liveBlockSamples(sampleRate);
 
 class CaptureProcessor extends AudioWorkletProcessor {
   private target: MessagePort | null = null;
@@ -49,7 +51,7 @@ class CaptureProcessor extends AudioWorkletProcessor {
       if (this.filled === BLOCK_SAMPLES) {
         const full = this.block;
         this.target.postMessage({ type: 'block', id: this.runId, samples: full }, [full.buffer]);
-        // The posted buffer now belongs to the worker: start a new one (once per ~46 ms, not per sample).
+        // The posted buffer now belongs to the worker: start a new one (once per ~0.1 s, not per sample).
         this.block = new Float32Array(BLOCK_SAMPLES);
         this.filled = 0;
       }

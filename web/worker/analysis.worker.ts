@@ -9,6 +9,7 @@ import { createLiveMargin, estimateLiveMargin, feedLiveMargin, isLiveMarginDue, 
 import { createWavDecoder, wavSampleBits } from '../../dsp/io/wav';
 import { InputError } from '../../dsp/io/errors';
 import type { Analysis, AnalysisConfig, Marker, Onset, Segment, TrackFrame } from '../../dsp/types';
+import { LIVE_BLOCK_S } from '../capture/live-block';
 import { emptyLiveSummary, updateLiveSummary, type LiveSummary } from './live-summary';
 import { logRowBins, parseToWorker, reduceWithRowBins, SPECTROGRAM_ROWS, SPECTROGRAM_STEP_S, transferablesOf, type FromWorker, type SpectrogramColumn, type ToWorker, type UpdateMessage, type WorkerStageMs } from './protocol';
 
@@ -18,14 +19,7 @@ declare const self: DedicatedWorkerGlobalScope;
 const UPDATE_INTERVAL_MS = 66;
 /** Samples per block when a whole file is analysed. */
 const FILE_BLOCK_SAMPLES = 4096;
-/**
- * Live blocks are gathered to at least this much audio, s, before they are analysed: each wake-up
- * of the worker has a fixed cost (the analysis state is fetched back into the caches, the update
- * posted), and the capture worklet's blocks are short (2048 samples, 43 ms at 48 kHz). 0.1 s is
- * under the 125 ms of a sound level meter's FAST time weighting (IEC 61672-1), and the track rows
- * come out of the analysis about every 170 ms anyway.
- */
-const LIVE_BATCH_S = 0.1;
+
 
 interface Run {
   id: number;
@@ -34,7 +28,7 @@ interface Run {
   samplesSeen: number;
   port: MessagePort | null;
   isKeepingAudio: boolean;
-  /** Live blocks not yet analysed (gathered to LIVE_BATCH_S), and their samples. */
+  /** Live blocks not yet analysed (gathered to LIVE_BLOCK_S), and their samples. */
   liveBlocks: Float32Array[];
   liveSamples: number;
   audioChunks: Float32Array[];
@@ -279,11 +273,11 @@ function onPortMessage(r: Run, ev: MessageEvent): void {
   }
 }
 
-/** Keeps a live block; analyses the gathered blocks as one once they hold LIVE_BATCH_S of audio. */
+/** Keeps a live block; analyses the gathered blocks as one once they hold LIVE_BLOCK_S of audio. */
 function gatherLiveBlock(r: Run, samples: Float32Array): void {
   r.liveBlocks.push(samples);
   r.liveSamples += samples.length;
-  if (r.liveSamples >= LIVE_BATCH_S * r.sampleRateHz) flushLiveBlocks(r);
+  if (r.liveSamples >= LIVE_BLOCK_S * r.sampleRateHz) flushLiveBlocks(r);
 }
 
 /** Analyses the live blocks gathered so far (before a gap, a marker or the end, so they keep their order and times). */
