@@ -13,7 +13,7 @@
 import { CONDITION_MAX_BLOCK, createConditionState, gapCondition, stepCondition, type ConditionState, type SpanList } from './condition';
 import { groupTones, wideBandIsClear } from './grouping';
 import { breakHistory, createHistory, stepHistory, storeFrame, type History } from './history';
-import { beginLive, collectLive, createLiveState, emitRows, liveSegments, type ClosedSegment, type LiveState } from './live';
+import { beginLive, collectLive, createLiveState, emitRows, liveSegments, type LiveState } from './live';
 import { classifyTransitions } from './line-class';
 import { relabelNoiseSegments } from './noise-label';
 import { closeQuietStretch, createQuietStore, openQuietStretch, QUIET_AFTER_DECAY_S, QUIET_GUARD_S, stepQuietFrame, stepQuietStore, type QuietStore, type ResonanceContext } from './quiet-store';
@@ -28,7 +28,7 @@ import { createToneEnvelope, ENVELOPE_RATE_HZ } from './tone-store';
 import { createLiveOnsetState, gapLiveOnset, stepLiveOnset, type LiveOnsetState } from './live-onset';
 import { advanceRegime, breakTones, createToneSet, maxEnvelopeChunk, resumeTonesAfterGap, retireIdleTones, stepToneEnvelopes, stepTonesAtFrame, type ToneSet } from './tones';
 import { quantisationFloorDbfs } from './levels';
-import type { Analysis, AnalysisConfig, AnalysisUpdate, ClippedSpan, Marker, ModeStatistics, Onset, Report, Segment, TrackFrame } from './types';
+import type { Analysis, AnalysisConfig, AnalysisUpdate, ClippedSpan, Marker, ModeStatistics, Report, Segment } from './types';
 
 /** Analysis frame length, s (rounded to a power of two of samples): ~3 Hz bins. */
 const FRAME_S = 0.32;
@@ -233,7 +233,7 @@ function push(ps: PipelineState, block: Float32Array): AnalysisUpdate {
   let peak = 0;
   let isClipped = false;
   for (let s = 0; s < block.length; s += CONDITION_MAX_BLOCK) {
-    const part = block.length <= CONDITION_MAX_BLOCK ? block : block.subarray(s, Math.min(block.length, s + CONDITION_MAX_BLOCK));
+    const part = block.subarray(s, Math.min(block.length, s + CONDITION_MAX_BLOCK));
     stepCondition(ps.cond, part);
     if (ps.cond.peakAbs > peak) peak = ps.cond.peakAbs;
     if (ps.cond.isClipped) isClipped = true;
@@ -244,42 +244,24 @@ function push(ps: PipelineState, block: Float32Array): AnalysisUpdate {
     ps.hasSpectrum = true;
     ps.isSpectrumDbStale = true;
   }
-  return new PushUpdate(ps, peak, isClipped);
-}
-
-/**
- * What push() returns. The closed segments' entries are fitted, and the spectrum converted to
- * dBFS, when first read: a reader of the report alone pays for neither. (A class: its getters
- * live on the prototype, not made anew at every push.)
- */
-class PushUpdate implements AnalysisUpdate {
-  readonly frames: TrackFrame[];
-  readonly onsets: Onset[];
-  readonly spectrumBinHz: number;
-  readonly peakAbs: number;
-  readonly isClipped: boolean;
-  readonly #ps: PipelineState;
-  readonly #closed: ClosedSegment[];
-  #segments: Segment[] | null = null;
-
-  constructor(ps: PipelineState, peakAbs: number, isClipped: boolean) {
-    this.frames = ps.live.frames;
-    this.onsets = ps.live.onsets;
-    this.spectrumBinHz = ps.spec.binHz;
-    this.peakAbs = peakAbs;
-    this.isClipped = isClipped;
-    this.#ps = ps;
-    this.#closed = ps.live.closed;
-  }
-
-  get segments(): Segment[] {
-    this.#segments ??= liveSegments(this.#closed);
-    return this.#segments;
-  }
-
-  get spectrumDbfs(): Float32Array | null {
-    return latestSpectrumDbfs(this.#ps);
-  }
+  const closed = ps.live.closed;
+  let segments: Segment[] | null = null;
+  return {
+    frames: ps.live.frames,
+    onsets: ps.live.onsets,
+    // Fitted when first read (a reader of the report alone never pays for the live fits).
+    get segments() {
+      segments ??= liveSegments(closed);
+      return segments;
+    },
+    // Converted when first read (a reader of the report alone never pays for the logarithms).
+    get spectrumDbfs() {
+      return latestSpectrumDbfs(ps);
+    },
+    spectrumBinHz: ps.spec.binHz,
+    peakAbs: peak,
+    isClipped,
+  };
 }
 
 function gap(ps: PipelineState, missingSamples: number): void {
