@@ -1,7 +1,10 @@
 /**
  * Live outputs of push() (docs/DESIGN.md "Live outputs"): track rows (about ROW_RATE_HZ a second,
- * * the main tone of the moment), onsets of the short-frame detector (live-onset.ts), and each closed segment with a
- * provisional rate. finish() fits every segment again (segment-fit.ts); these are for the view.
+ * the main tone of the moment), onsets of the short-frame detector (live-onset.ts), and each closed
+ * segment with a provisional rate. finish() fits every segment again (segment-fit.ts); these are
+ * for the view. A closed segment's entry (its noise test and provisional fit) is computed when the
+ * update is first read, from the tone as it stood when the segment closed, so a reader of the
+ * report alone never pays for the fits.
  */
 import { fitExponential } from './fit';
 import { studentTQuantile } from './stats';
@@ -31,21 +34,33 @@ export interface LiveState {
   rowG: number;
   rowEvery: number;
   rowAfterGap: boolean;
-  /** What the current push added. */
+  /** What the current push added (segments closed: entries computed when read, liveSegments). */
   frames: TrackFrame[];
   onsets: Onset[];
-  segments: Segment[];
+  closed: ClosedSegment[];
+}
+
+/** A segment closed during a push, with the tone as it stood then. */
+export interface ClosedSegment {
+  /**
+   * The tone's store as it stood: a shallow copy keeping its counts (n, processed, validFrom) and
+   * its track's; the store and the track only append, so the entries below those counts read the
+   * same later.
+   */
+  tr: ToneRuntime;
+  seg: RegimeSegment;
+  prev: RegimeSegment | null;
 }
 
 export function createLiveState(envRateHz: number): LiveState {
-  return { rowG: 0, rowEvery: Math.max(1, Math.round(envRateHz / ROW_RATE_HZ)), rowAfterGap: false, frames: [], onsets: [], segments: [] };
+  return { rowG: 0, rowEvery: Math.max(1, Math.round(envRateHz / ROW_RATE_HZ)), rowAfterGap: false, frames: [], onsets: [], closed: [] };
 }
 
 /** Starts the outputs of a new push. */
 export function beginLive(lv: LiveState): void {
   lv.frames = [];
   lv.onsets = [];
-  lv.segments = [];
+  lv.closed = [];
 }
 
 /**
@@ -130,15 +145,24 @@ function liveSegment(tr: ToneRuntime, s: RegimeSegment, prev: RegimeSegment | nu
 export function collectLive(lv: LiveState, tr: ToneRuntime): void {
   const rg = tr.regime;
   if (tr.isSteadyLine) return;
+  let asNow: ToneRuntime | null = null;
   for (let i = rg.segments.length - rg.closedInStep; i < rg.segments.length; i++) {
     const s = rg.segments[i];
     if (s.endIdx <= s.startIdx) continue;
+    asNow ??= { ...tr, tone: { ...tr.tone } };
+    // Copies: finish() relabels and joins the segments themselves.
+    lv.closed.push({ tr: asNow, seg: { ...s }, prev: i > 0 ? { ...rg.segments[i - 1] } : null });
+  }
+}
+
+/** The live entries of closed segments. */
+export function liveSegments(closed: ClosedSegment[]): Segment[] {
+  return closed.map(({ tr, seg: s, prev }) => {
     const isRate = s.state === STATE_GROWTH || s.state === STATE_DECAY;
     // A growth or decay of the noise is shown as quiet (the report's test on the envelope seen so far).
     const isNoise = isRate && isNoiseSegment(tr, s, tr.processed);
-    if (isRate && !isNoise) lv.segments.push(liveSegment(tr, s, i > 0 ? rg.segments[i - 1] : null));
-    else lv.segments.push(unfittedSegment(tr, s, isNoise ? 'quiet' : regimeKind(s.state)));
-  }
+    return isRate && !isNoise ? liveSegment(tr, s, prev) : unfittedSegment(tr, s, isNoise ? 'quiet' : regimeKind(s.state));
+  });
 }
 
 /** Emits track rows up to time tMax (s) for the envelope samples produced so far. */

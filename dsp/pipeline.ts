@@ -13,7 +13,7 @@
 import { CONDITION_MAX_BLOCK, createConditionState, gapCondition, stepCondition, type ConditionState, type SpanList } from './condition';
 import { groupTones, wideBandIsClear } from './grouping';
 import { breakHistory, createHistory, stepHistory, storeFrame, type History } from './history';
-import { beginLive, collectLive, createLiveState, emitRows, type LiveState } from './live';
+import { beginLive, collectLive, createLiveState, emitRows, liveSegments, type LiveState } from './live';
 import { classifyTransitions } from './line-class';
 import { relabelNoiseSegments } from './noise-label';
 import { closeQuietStretch, createQuietStore, openQuietStretch, QUIET_AFTER_DECAY_S, QUIET_GUARD_S, stepQuietFrame, stepQuietStore, type QuietStore, type ResonanceContext } from './quiet-store';
@@ -28,7 +28,7 @@ import { createToneEnvelope, ENVELOPE_RATE_HZ } from './tone-store';
 import { createLiveOnsetState, gapLiveOnset, stepLiveOnset, type LiveOnsetState } from './live-onset';
 import { advanceRegime, breakTones, createToneSet, maxEnvelopeChunk, resumeTonesAfterGap, retireIdleTones, stepToneEnvelopes, stepTonesAtFrame, type ToneSet } from './tones';
 import { quantisationFloorDbfs } from './levels';
-import type { Analysis, AnalysisConfig, AnalysisUpdate, ClippedSpan, Marker, ModeStatistics, Report } from './types';
+import type { Analysis, AnalysisConfig, AnalysisUpdate, ClippedSpan, Marker, ModeStatistics, Report, Segment } from './types';
 
 /** Analysis frame length, s (rounded to a power of two of samples): ~3 Hz bins. */
 const FRAME_S = 0.32;
@@ -244,10 +244,16 @@ function push(ps: PipelineState, block: Float32Array): AnalysisUpdate {
     ps.hasSpectrum = true;
     ps.isSpectrumDbStale = true;
   }
+  const closed = ps.live.closed;
+  let segments: Segment[] | null = null;
   return {
     frames: ps.live.frames,
     onsets: ps.live.onsets,
-    segments: ps.live.segments,
+    // Fitted when first read (a reader of the report alone never pays for the live fits).
+    get segments() {
+      segments ??= liveSegments(closed);
+      return segments;
+    },
     // Converted when first read (a reader of the report alone never pays for the logarithms).
     get spectrumDbfs() {
       return latestSpectrumDbfs(ps);

@@ -7,7 +7,7 @@
 import { describe, expect, it } from 'vitest';
 import { createAnalysis } from '../../dsp/pipeline';
 import { humCycleEnvelope, synthesize } from '../../dsp/synth';
-import type { Onset, Report, Segment, TrackFrame } from '../../dsp/types';
+import type { AnalysisUpdate, Onset, Report, Segment, TrackFrame } from '../../dsp/types';
 
 interface Run {
   report: Report;
@@ -65,6 +65,17 @@ describe('block-size invariance', () => {
       expect(r.segments).toEqual(reference.segments);
     });
   }
+
+  it('live segments read after finish() are those read at once (their fits are made when first read, from the tone as it stood)', () => {
+    const a = createAnalysis({ sampleRateHz: fs });
+    a.mark({ timeS: 5, kind: 'driving-off', label: 'heater off' });
+    const updates: AnalysisUpdate[] = [];
+    for (let i = 0; i < x.length; i += 4096) updates.push(a.push(x.subarray(i, Math.min(x.length, i + 4096))));
+    a.finish();
+    const late = updates.flatMap((u) => u.segments.map((s) => ({ ...s })));
+    expect(late.some((s) => s.ratePerS !== null)).toBe(true);
+    expect(late).toEqual(reference.segments);
+  });
 
   it('a block of uneven, changing sizes gives the same report', () => {
     const a = createAnalysis({ sampleRateHz: fs });
