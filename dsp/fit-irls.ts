@@ -34,6 +34,43 @@ export interface Prepared {
   nEff: number;
   /** One-sided noise-equivalent bandwidth of the envelope low-pass, Hz. */
   bandwidthHz: number;
+  /** Work arrays of the fits to this series (allocated once, not on every step). */
+  work: FitWork;
+}
+
+/** Most parameters of a fit: ln L, at most three nonlinear ones (normalEquations), N². */
+const MAX_PARAMS = 5;
+
+/**
+ * Work arrays of the polish and of the evaluations below, which run one at a time and have read
+ * them before they return (a model keeps its own copy of the parameters it remembers): the normal
+ * equations and a Levenberg–Marquardt step for at most MAX_PARAMS parameters, the nonlinear
+ * parameters of an evaluation, and the lower triangle of the normal equations' products.
+ */
+interface FitWork {
+  jtj: Float64Array;
+  jtr: Float64Array;
+  trialJtj: Float64Array;
+  trialJtr: Float64Array;
+  trial: Float64Array;
+  stepA: Float64Array;
+  stepB: Float64Array;
+  theta: Float64Array;
+  lower: Float64Array;
+}
+
+function createFitWork(): FitWork {
+  return {
+    jtj: new Float64Array(MAX_PARAMS * MAX_PARAMS),
+    jtr: new Float64Array(MAX_PARAMS),
+    trialJtj: new Float64Array(MAX_PARAMS * MAX_PARAMS),
+    trialJtr: new Float64Array(MAX_PARAMS),
+    trial: new Float64Array(MAX_PARAMS),
+    stepA: new Float64Array(MAX_PARAMS * MAX_PARAMS),
+    stepB: new Float64Array(MAX_PARAMS),
+    theta: new Float64Array(MAX_PARAMS - 2),
+    lower: new Float64Array((MAX_PARAMS * (MAX_PARAMS + 1)) / 2),
+  };
 }
 
 export function prepare(series: EnvelopeSeries): Prepared | string {
@@ -47,7 +84,7 @@ export function prepare(series: EnvelopeSeries): Prepared | string {
     if (i > 0 && !(series.timeS[i] > series.timeS[i - 1])) return 'times must increase';
   }
   const spacingS = (series.timeS[n - 1] - series.timeS[0]) / (n - 1);
-  return { t: series.timeS, y: series.power, n, spacingS, nEff: effectiveSampleCount(n, spacingS, series.bandwidthHz), bandwidthHz: series.bandwidthHz };
+  return { t: series.timeS, y: series.power, n, spacingS, nEff: effectiveSampleCount(n, spacingS, series.bandwidthHz), bandwidthHz: series.bandwidthHz, work: createFitWork() };
 }
 
 /** Variance function of the envelope power: V(m) = N²(2m − N²), floored for a noise-free record. */
@@ -123,18 +160,10 @@ function solveLinear(
   return Math.max(0, rss);
 }
 
-/**
- * Scratch of the evaluations below, which run one at a time and read their contents before
- * returning (a model keeps its own copy of the parameters it remembers): the nonlinear parameters
- * (the models here have at most three) and the lower triangle of the normal equations' products.
- */
-const THETA_SCRATCH = new Float64Array(3);
-const LOWER_SCRATCH = new Float64Array(15);
-
-/** The nonlinear parameters θ of a full parameter vector [ln L, θ…, N²] (k of them), in the first k entries of THETA_SCRATCH. */
-function nonlinearOf(params: Float64Array, k: number): Float64Array {
-  for (let j = 0; j < k; j++) THETA_SCRATCH[j] = params[1 + j];
-  return THETA_SCRATCH;
+/** The nonlinear parameters θ of a full parameter vector [ln L, θ…, N²] (k of them), in the first k entries of the series' work.theta. */
+function nonlinearOf(d: Prepared, params: Float64Array, k: number): Float64Array {
+  for (let j = 0; j < k; j++) d.work.theta[j] = params[1 + j];
+  return d.work.theta;
 }
 
 /** Weighted RSS of a full parameter vector. */
@@ -142,7 +171,7 @@ export function rssOf(d: Prepared, w: Float64Array, model: ShapeModel, params: F
   const k = model.nNonlinear;
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
-  const g = model.evaluate(d.t, d.n, nonlinearOf(params, k), false).g;
+  const g = model.evaluate(d.t, d.n, nonlinearOf(d, params, k), false).g;
   let rss = 0;
   for (let i = 0; i < d.n; i++) {
     const r = d.y[i] - amp * g[i] - bg;
@@ -170,7 +199,7 @@ function normalEquations(
   const k = model.nNonlinear;
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
-  const v = model.evaluate(d.t, d.n, nonlinearOf(params, k), true);
+  const v = model.evaluate(d.t, d.n, nonlinearOf(d, params, k), true);
   const grad = v.grad;
   const y = d.y;
   const bgColumn = nFree === k + 2 ? 1 : 0;
@@ -279,7 +308,7 @@ function normalEquations(
     s44 += w4 * x4;
   }
   // Lower triangle of the 5 × 5 products, row by row; free parameter a is column a (the background, when free, column 4).
-  const lower = LOWER_SCRATCH;
+  const lower = d.work.lower;
   lower[0] = s00;
   lower[1] = s10;
   lower[2] = s11;
@@ -347,18 +376,6 @@ function predictedDrop(jtj: Float64Array, jtr: Float64Array, size: number, from:
   return drop;
 }
 
-/** Most parameters of a fit: ln L, at most three nonlinear ones (normalEquations), N². */
-const MAX_PARAMS = 5;
-const POLISH_SCRATCH = {
-  jtj: new Float64Array(MAX_PARAMS * MAX_PARAMS),
-  jtr: new Float64Array(MAX_PARAMS),
-  trialJtj: new Float64Array(MAX_PARAMS * MAX_PARAMS),
-  trialJtr: new Float64Array(MAX_PARAMS),
-  trial: new Float64Array(MAX_PARAMS),
-  stepA: new Float64Array(MAX_PARAMS * MAX_PARAMS),
-  stepB: new Float64Array(MAX_PARAMS),
-};
-
 /**
  * Levenberg–Marquardt polish of all parameters (Marquardt 1963), N² kept ≥ 0. Each trial point is
  * evaluated with its normal equations, so an accepted step needs no second pass over the data.
@@ -377,9 +394,9 @@ export function polish(
 ): number {
   const k = model.nNonlinear;
   const nFree = state.isBackgroundFixed ? k + 1 : k + 2;
-  // Scratch for at most MAX_PARAMS parameters, used from its start (a polish runs to its end before another begins).
-  let { jtj, jtr, trialJtj, trialJtr } = POLISH_SCRATCH;
-  const { trial, stepA, stepB } = POLISH_SCRATCH;
+  // The series' work arrays, used from their start (a polish runs to its end before another begins).
+  let { jtj, jtr, trialJtj, trialJtr } = d.work;
+  const { trial, stepA, stepB } = d.work;
   let lambda = 1e-3;
   let rss = normalEquations(d, w, model, state.params, nFree, jtj, jtr);
   const startRss = rss;
@@ -533,7 +550,7 @@ export function blockMeans(d: Prepared, w: Float64Array, maxSamples: number): { 
     y[j] = sy / (i1 - i0);
     wm[j] = sw;
   }
-  return { d: { t, y, n: m, spacingS: d.spacingS * block, nEff: d.nEff, bandwidthHz: d.bandwidthHz }, w: wm };
+  return { d: { t, y, n: m, spacingS: d.spacingS * block, nEff: d.nEff, bandwidthHz: d.bandwidthHz, work: d.work }, w: wm };
 }
 
 /** Updates the IRLS weights 1/V(m̂) from the current parameters. */
@@ -541,7 +558,7 @@ function updateWeights(d: Prepared, model: ShapeModel, state: FitState, w: Float
   const k = model.nNonlinear;
   const amp = Math.exp(state.params[0]);
   const bg = state.params[k + 1];
-  const g = model.evaluate(d.t, d.n, nonlinearOf(state.params, k), false).g;
+  const g = model.evaluate(d.t, d.n, nonlinearOf(d, state.params, k), false).g;
   for (let i = 0; i < d.n; i++) w[i] = 1 / varianceOf(amp * g[i] + bg, bg, bgFloor);
   // Normalise so that RSS values stay of order n (the scale of w is irrelevant to the estimates).
   let mean = 0;
@@ -675,7 +692,7 @@ function residualCorrelationTime(d: Prepared, model: ShapeModel, params: Float64
   const k = model.nNonlinear;
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
-  const g = model.evaluate(d.t, d.n, nonlinearOf(params, k), false).g;
+  const g = model.evaluate(d.t, d.n, nonlinearOf(d, params, k), false).g;
   const e = new Float64Array(d.n);
   let c0 = 0;
   for (let i = 0; i < d.n; i++) {

@@ -111,19 +111,26 @@ function trackInfo(tr: ToneRuntime, frequencyOf: FrequencyOf): TrackInfo {
  */
 function dropOverlaps(fam: Family, dropped: Set<RegimeSegment>): void {
   const tracks = [...fam.tracks].sort((a, b) => a.tone.id - b.tone.id);
-  const active: [number, number][] = [];
-  const stores: [number, number][] = [];
+  // Spans kept so far, [start, end] (s), as flat lists of numbers (searched once per segment).
+  const active: number[] = [];
+  const stores: number[] = [];
   for (const tr of tracks) {
     for (const s of tr.regime.segments) {
       if (s.endIdx <= s.startIdx || dropped.has(s)) continue;
       const a = tr.timeS[s.startIdx];
       const b = tr.timeS[s.endIdx - 1];
       if (s.state !== STATE_QUIET) {
-        if (active.some(([p0, p1]) => a < p1 && b > p0)) dropped.add(s);
-        else active.push([a, b]);
-      } else if (stores.some(([p0, p1]) => a >= p0 && b <= p1)) dropped.add(s);
+        let overlaps = false;
+        for (let j = 0; j < active.length && !overlaps; j += 2) overlaps = a < active[j + 1] && b > active[j];
+        if (overlaps) dropped.add(s);
+        else active.push(a, b);
+      } else {
+        let isWithin = false;
+        for (let j = 0; j < stores.length && !isWithin; j += 2) isWithin = a >= stores[j] && b <= stores[j + 1];
+        if (isWithin) dropped.add(s);
+      }
     }
-    if (tr.n > 0) stores.push([tr.timeS[0], tr.timeS[tr.n - 1]]);
+    if (tr.n > 0) stores.push(tr.timeS[0], tr.timeS[tr.n - 1]);
   }
 }
 
