@@ -111,6 +111,8 @@ export interface LiveOnsetState {
   isStepRun: Uint8Array;
   /** Least rise over one frame length that marks a step, Np (STEP_RATE_FACTOR). */
   readonly stepNp: number;
+  /** Ratio under which no rise reaches stepNp (isStepRise): e^stepNp·(1 − 1e-9). */
+  readonly stepRatioScreen: number;
   /**
    * Background mean power of each bin before a rise took its mean over (an onset, or a new level
    * taken as background); 0 when none. The bin returns to it when its recent power falls below it.
@@ -170,6 +172,7 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
   const threshold = thresholdFor(arl0, inflation);
   const s1 = designSnr(threshold, hopS, RATE_MAX_PER_S);
   const runMax = Math.max(2 * HOPS_PER_FRAME, Math.round(RUN_MAX_S / hopS));
+  const stepNp = 2 * STEP_RATE_FACTOR * RATE_MAX_PER_S * (n / fs);
   return {
     spec,
     loBin,
@@ -187,7 +190,8 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
     zeroHops: new Int32Array(bins),
     lastZero: new Float64Array(bins),
     isStepRun: new Uint8Array(bins),
-    stepNp: 2 * STEP_RATE_FACTOR * RATE_MAX_PER_S * (n / fs),
+    stepNp,
+    stepRatioScreen: Math.exp(stepNp) * (1 - 1e-9),
     floor: new Float64Array(bins),
     recent: new Float64Array(bins),
     holdUntil: new Float64Array(bins).fill(-1),
@@ -240,6 +244,21 @@ function logRatioAt(st: LiveOnsetState, b: number, f: number): number {
     st.logFrame[i] = f;
   }
   return st.logRing[i];
+}
+
+/**
+ * True when bin b rose by more than stepNp over the last frame length, its earlier frame read as
+ * no lower than the background: ln r(f) − max(0, ln r(f − kernel)) > stepNp. Most alarms rise far
+ * less, which the ratios themselves show without a log: r(f) < max(1, r(f − kernel))·e^stepNp·(1 − 1e-9)
+ * puts the difference of the logs 1e-9 under stepNp, far beyond their rounding (a few ulps of
+ * logs of doubles, under 745: about 1e-13), so the screen never changes the answer in logs.
+ */
+function isStepRise(st: LiveOnsetState, b: number, f: number): boolean {
+  const bins = st.hiBin - st.loBin + 1;
+  const now = st.ratioRing[(f % st.runMax) * bins + b];
+  const before = st.ratioRing[((f - HOPS_PER_FRAME) % st.runMax) * bins + b];
+  if (now < Math.max(1, before) * st.stepRatioScreen) return false;
+  return logRatioAt(st, b, f) - Math.max(0, logRatioAt(st, b, f - HOPS_PER_FRAME)) > st.stepNp;
 }
 
 /**
@@ -356,7 +375,7 @@ function onAlarm(st: LiveOnsetState, b: number, pw: number, s: number): void {
   const frame = st.frame;
   st.zeroHops[b] = 0;
   // A run that rose faster than any growth (a step or a knock entering the frame) is never an onset.
-  if (frame >= HOPS_PER_FRAME && logRatioAt(st, b, frame) - Math.max(0, logRatioAt(st, b, frame - HOPS_PER_FRAME)) > st.stepNp) st.isStepRun[b] = 1;
+  if (st.isStepRun[b] === 0 && frame >= HOPS_PER_FRAME && isStepRise(st, b, frame)) st.isStepRun[b] = 1;
   if (s < st.threshold) return;
   const len = Math.min(frame - st.runStart[b], st.runMax);
   if (frame >= st.holdUntil[b] && st.heldBy[b] < 0 && st.isStepRun[b] === 0 && isPeak(st, b) && isRising(st, b, len)) {
@@ -384,7 +403,7 @@ function processFrame(st: LiveOnsetState): void {
   const bins = st.hiBin - st.loBin + 1;
   const frame = st.frame;
   const isWarm = frame >= st.warmFrames;
-  const { mean, band, recent, floor, cusum, ratioRing, zeroHops, lastZero, runMax, threshold, slope, offset } = st;
+  const { mean, band, recent, floor, cusum, ratioRing, zeroHops, lastZero, runStart, isStepRun, runMax, threshold, slope, offset } = st;
   const slot = (frame % runMax) * bins;
   // A plain running mean until the exponential one has as many frames behind it.
   const follow = Math.max(st.alpha, 1 / (frame + 1));
@@ -413,8 +432,8 @@ function processFrame(st: LiveOnsetState): void {
       // RESTART_HOPS at zero (see there).
       lastZero[b] = frame;
       if (++zeroHops[b] >= RESTART_HOPS) {
-        st.runStart[b] = frame;
-        st.isStepRun[b] = 0;
+        runStart[b] = frame;
+        isStepRun[b] = 0;
       }
       mean[b] += follow * (pw - mean[b]);
     }
