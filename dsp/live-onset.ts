@@ -102,7 +102,10 @@ export interface LiveOnsetState {
   /** Background mean power of each bin (in control), spectrum units. */
   mean: Float64Array;
   cusum: Float64Array;
-  /** Frame at which each bin's run began: the CUSUM's last zero after a whole frame length at zero. */
+  /**
+   * Frame at which each bin's run began: the CUSUM's last zero after a whole frame length at zero.
+   * This, lastZero and isStepRun are brought up to date when a stretch at zero ends (closeZeroStretch).
+   */
   runStart: Float64Array;
   /** Hops each bin's CUSUM has stood at zero in a row, and the last frame it stood at zero. */
   zeroHops: Int32Array;
@@ -367,13 +370,29 @@ function commonLevel(st: LiveOnsetState): number {
 }
 
 /**
+ * Bin b's stretch of zeroHops hops at zero ends before `frame` (an alarm, or a gap): what the
+ * stretch implies, set here once rather than at every hop in control. Its last zero was the frame
+ * before; a stretch of RESTART_HOPS or more started a new run there, not a step.
+ */
+function closeZeroStretch(st: LiveOnsetState, b: number, frame: number): void {
+  const z = st.zeroHops[b];
+  if (z === 0) return;
+  st.lastZero[b] = frame - 1;
+  if (z >= RESTART_HOPS) {
+    st.runStart[b] = frame - 1;
+    st.isStepRun[b] = 0;
+  }
+  st.zeroHops[b] = 0;
+}
+
+/**
  * Bin b's CUSUM s stands above zero at power pw (loudness-corrected): a rise faster than any growth
  * marks the run as a step; at the threshold a steady rise is an onset, and a run that never
  * showed itself as a growth makes its level the bin's background.
  */
 function onAlarm(st: LiveOnsetState, b: number, pw: number, s: number): void {
   const frame = st.frame;
-  st.zeroHops[b] = 0;
+  closeZeroStretch(st, b, frame);
   // A run that rose faster than any growth (a step or a knock entering the frame) is never an onset.
   if (st.isStepRun[b] === 0 && frame >= HOPS_PER_FRAME && isStepRise(st, b, frame)) st.isStepRun[b] = 1;
   if (s < st.threshold) return;
@@ -403,7 +422,7 @@ function processFrame(st: LiveOnsetState): void {
   const bins = st.hiBin - st.loBin + 1;
   const frame = st.frame;
   const isWarm = frame >= st.warmFrames;
-  const { mean, band, recent, floor, cusum, ratioRing, zeroHops, lastZero, runStart, isStepRun, runMax, threshold, slope, offset } = st;
+  const { mean, band, recent, floor, cusum, ratioRing, zeroHops, runMax, threshold, slope, offset } = st;
   const slot = (frame % runMax) * bins;
   // A plain running mean until the exponential one has as many frames behind it.
   const follow = Math.max(st.alpha, 1 / (frame + 1));
@@ -429,12 +448,8 @@ function processFrame(st: LiveOnsetState): void {
     if (s > 0) onAlarm(st, b, pw, s);
     else if (s === 0) {
       // In control: the background follows (loudness-corrected). A run starts afresh only after
-      // RESTART_HOPS at zero (see there).
-      lastZero[b] = frame;
-      if (++zeroHops[b] >= RESTART_HOPS) {
-        runStart[b] = frame;
-        isStepRun[b] = 0;
-      }
+      // RESTART_HOPS at zero (see there and closeZeroStretch).
+      zeroHops[b]++;
       mean[b] += follow * (pw - mean[b]);
     }
   }
@@ -462,6 +477,7 @@ export function gapLiveOnset(st: LiveOnsetState, jNext: number): void {
   resetSpectrumFraming(st.spec);
   st.j = jNext;
   st.cusum.fill(0);
+  for (let b = 0; b < st.cusum.length; b++) closeZeroStretch(st, b, st.frame);
   st.runStart.fill(st.frame);
   st.zeroHops.fill(0);
   st.lastZero.fill(st.frame);
