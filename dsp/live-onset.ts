@@ -46,6 +46,11 @@ const RATE_MAX_PER_S = 50;
  * where the later frame cannot yet stand 4.8 Np over the background.
  */
 const STEP_RATE_FACTOR = 3;
+/**
+ * Relative margin of the step test's screen in ratios (isStepRise): a speed choice only, far
+ * beyond the rounding of the logs it stands in for, so the test's answers are those in logs.
+ */
+const STEP_SCREEN_MARGIN = 1e-9;
 /** Least rise between two consecutive windows of a run for an onset, Np (about 1 dB of power). */
 const RISE_MIN_NP = 0.25;
 /**
@@ -114,7 +119,7 @@ export interface LiveOnsetState {
   isStepRun: Uint8Array;
   /** Least rise over one frame length that marks a step, Np (STEP_RATE_FACTOR). */
   readonly stepNp: number;
-  /** Ratio under which no rise reaches stepNp (isStepRise): e^stepNp·(1 − 1e-9). */
+  /** Ratio under which no rise reaches stepNp (isStepRise): e^stepNp·(1 − STEP_SCREEN_MARGIN). */
   readonly stepRatioScreen: number;
   /**
    * Background mean power of each bin before a rise took its mean over (an onset, or a new level
@@ -194,7 +199,7 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
     lastZero: new Float64Array(bins),
     isStepRun: new Uint8Array(bins),
     stepNp,
-    stepRatioScreen: Math.exp(stepNp) * (1 - 1e-9),
+    stepRatioScreen: Math.exp(stepNp) * (1 - STEP_SCREEN_MARGIN),
     floor: new Float64Array(bins),
     recent: new Float64Array(bins),
     holdUntil: new Float64Array(bins).fill(-1),
@@ -252,9 +257,10 @@ function logRatioAt(st: LiveOnsetState, b: number, f: number): number {
 /**
  * True when bin b rose by more than stepNp over the last frame length, its earlier frame read as
  * no lower than the background: ln r(f) − max(0, ln r(f − kernel)) > stepNp. Most alarms rise far
- * less, which the ratios themselves show without a log: r(f) < max(1, r(f − kernel))·e^stepNp·(1 − 1e-9)
- * puts the difference of the logs 1e-9 under stepNp, far beyond their rounding (a few ulps of
- * logs of doubles, under 745: about 1e-13), so the screen never changes the answer in logs.
+ * less, which the ratios themselves show without a log: r(f) < max(1, r(f − kernel))·e^stepNp·(1 − ε),
+ * ε = STEP_SCREEN_MARGIN, puts the difference of the logs ε under stepNp, far beyond their
+ * rounding (a few ulps of logs of doubles, under 745: about 1e-13), so the screen never changes
+ * the answer in logs.
  */
 function isStepRise(st: LiveOnsetState, b: number, f: number): boolean {
   const bins = st.hiBin - st.loBin + 1;
