@@ -46,6 +46,11 @@ const RATE_MAX_PER_S = 50;
  * where the later frame cannot yet stand 4.8 Np over the background.
  */
 const STEP_RATE_FACTOR = 3;
+/**
+ * Relative margin of the step test's screen in ratios (isStepRise): a speed choice only, far
+ * beyond the rounding of the logs it stands in for, so the test's answers are those in logs.
+ */
+const STEP_SCREEN_MARGIN = 1e-9;
 /** Least rise between two consecutive windows of a run for an onset, Np (about 1 dB of power). */
 const RISE_MIN_NP = 0.25;
 /**
@@ -102,7 +107,10 @@ export interface LiveOnsetState {
   /** Background mean power of each bin (in control), spectrum units. */
   mean: Float64Array;
   cusum: Float64Array;
-  /** Frame at which each bin's run began: the CUSUM's last zero after a whole frame length at zero. */
+  /**
+   * Frame at which each bin's run began: the CUSUM's last zero after a whole frame length at zero.
+   * This, lastZero and isStepRun are brought up to date when a stretch at zero ends (closeZeroStretch).
+   */
   runStart: Float64Array;
   /** Hops each bin's CUSUM has stood at zero in a row, and the last frame it stood at zero. */
   zeroHops: Int32Array;
@@ -111,6 +119,8 @@ export interface LiveOnsetState {
   isStepRun: Uint8Array;
   /** Least rise over one frame length that marks a step, Np (STEP_RATE_FACTOR). */
   readonly stepNp: number;
+  /** Ratio under which no rise reaches stepNp (isStepRise): e^stepNp·(1 − STEP_SCREEN_MARGIN). */
+  readonly stepRatioScreen: number;
   /**
    * Background mean power of each bin before a rise took its mean over (an onset, or a new level
    * taken as background); 0 when none. The bin returns to it when its recent power falls below it.
@@ -170,6 +180,7 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
   const threshold = thresholdFor(arl0, inflation);
   const s1 = designSnr(threshold, hopS, RATE_MAX_PER_S);
   const runMax = Math.max(2 * HOPS_PER_FRAME, Math.round(RUN_MAX_S / hopS));
+  const stepNp = 2 * STEP_RATE_FACTOR * RATE_MAX_PER_S * (n / fs);
   return {
     spec,
     loBin,
@@ -187,7 +198,8 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
     zeroHops: new Int32Array(bins),
     lastZero: new Float64Array(bins),
     isStepRun: new Uint8Array(bins),
-    stepNp: 2 * STEP_RATE_FACTOR * RATE_MAX_PER_S * (n / fs),
+    stepNp,
+    stepRatioScreen: Math.exp(stepNp) * (1 - STEP_SCREEN_MARGIN),
     floor: new Float64Array(bins),
     recent: new Float64Array(bins),
     holdUntil: new Float64Array(bins).fill(-1),
@@ -240,6 +252,22 @@ function logRatioAt(st: LiveOnsetState, b: number, f: number): number {
     st.logFrame[i] = f;
   }
   return st.logRing[i];
+}
+
+/**
+ * True when bin b rose by more than stepNp over the last frame length, its earlier frame read as
+ * no lower than the background: ln r(f) − max(0, ln r(f − kernel)) > stepNp. Most alarms rise far
+ * less, which the ratios themselves show without a log: r(f) < max(1, r(f − kernel))·e^stepNp·(1 − ε),
+ * ε = STEP_SCREEN_MARGIN, puts the difference of the logs ε under stepNp, far beyond their
+ * rounding (a few ulps of logs of doubles, under 745: about 1e-13), so the screen never changes
+ * the answer in logs.
+ */
+function isStepRise(st: LiveOnsetState, b: number, f: number): boolean {
+  const bins = st.hiBin - st.loBin + 1;
+  const now = st.ratioRing[(f % st.runMax) * bins + b];
+  const before = st.ratioRing[((f - HOPS_PER_FRAME) % st.runMax) * bins + b];
+  if (now < Math.max(1, before) * st.stepRatioScreen) return false;
+  return logRatioAt(st, b, f) - Math.max(0, logRatioAt(st, b, f - HOPS_PER_FRAME)) > st.stepNp;
 }
 
 /**
@@ -348,15 +376,31 @@ function commonLevel(st: LiveOnsetState): number {
 }
 
 /**
+ * Bin b's stretch of zeroHops hops at zero ends before `frame` (an alarm, or a gap): what the
+ * stretch implies, set here once rather than at every hop in control. Its last zero was the frame
+ * before; a stretch of RESTART_HOPS or more started a new run there, not a step.
+ */
+function closeZeroStretch(st: LiveOnsetState, b: number, frame: number): void {
+  const z = st.zeroHops[b];
+  if (z === 0) return;
+  st.lastZero[b] = frame - 1;
+  if (z >= RESTART_HOPS) {
+    st.runStart[b] = frame - 1;
+    st.isStepRun[b] = 0;
+  }
+  st.zeroHops[b] = 0;
+}
+
+/**
  * Bin b's CUSUM s stands above zero at power pw (loudness-corrected): a rise faster than any growth
  * marks the run as a step; at the threshold a steady rise is an onset, and a run that never
  * showed itself as a growth makes its level the bin's background.
  */
 function onAlarm(st: LiveOnsetState, b: number, pw: number, s: number): void {
   const frame = st.frame;
-  st.zeroHops[b] = 0;
+  closeZeroStretch(st, b, frame);
   // A run that rose faster than any growth (a step or a knock entering the frame) is never an onset.
-  if (frame >= HOPS_PER_FRAME && logRatioAt(st, b, frame) - Math.max(0, logRatioAt(st, b, frame - HOPS_PER_FRAME)) > st.stepNp) st.isStepRun[b] = 1;
+  if (st.isStepRun[b] === 0 && frame >= HOPS_PER_FRAME && isStepRise(st, b, frame)) st.isStepRun[b] = 1;
   if (s < st.threshold) return;
   const len = Math.min(frame - st.runStart[b], st.runMax);
   if (frame >= st.holdUntil[b] && st.heldBy[b] < 0 && st.isStepRun[b] === 0 && isPeak(st, b) && isRising(st, b, len)) {
@@ -384,7 +428,7 @@ function processFrame(st: LiveOnsetState): void {
   const bins = st.hiBin - st.loBin + 1;
   const frame = st.frame;
   const isWarm = frame >= st.warmFrames;
-  const { mean, band, recent, floor, cusum, ratioRing, zeroHops, lastZero, runMax, threshold, slope, offset } = st;
+  const { mean, band, recent, floor, cusum, ratioRing, zeroHops, runMax, threshold, slope, offset } = st;
   const slot = (frame % runMax) * bins;
   // A plain running mean until the exponential one has as many frames behind it.
   const follow = Math.max(st.alpha, 1 / (frame + 1));
@@ -410,12 +454,8 @@ function processFrame(st: LiveOnsetState): void {
     if (s > 0) onAlarm(st, b, pw, s);
     else if (s === 0) {
       // In control: the background follows (loudness-corrected). A run starts afresh only after
-      // RESTART_HOPS at zero (see there).
-      lastZero[b] = frame;
-      if (++zeroHops[b] >= RESTART_HOPS) {
-        st.runStart[b] = frame;
-        st.isStepRun[b] = 0;
-      }
+      // RESTART_HOPS at zero (see there and closeZeroStretch).
+      zeroHops[b]++;
       mean[b] += follow * (pw - mean[b]);
     }
   }
@@ -443,6 +483,7 @@ export function gapLiveOnset(st: LiveOnsetState, jNext: number): void {
   resetSpectrumFraming(st.spec);
   st.j = jNext;
   st.cusum.fill(0);
+  for (let b = 0; b < st.cusum.length; b++) closeZeroStretch(st, b, st.frame);
   st.runStart.fill(st.frame);
   st.zeroHops.fill(0);
   st.lastZero.fill(st.frame);
