@@ -56,7 +56,7 @@ export function createLiveState(envRateHz: number): LiveState {
   return { rowG: 0, rowEvery: Math.max(1, Math.round(envRateHz / ROW_RATE_HZ)), rowAfterGap: false, frames: [], onsets: [], closed: [] };
 }
 
-/** Starts the outputs of a new push. */
+/** Starts the outputs of the next push (called as a push hands over its own). */
 export function beginLive(lv: LiveState): void {
   lv.frames = [];
   lv.onsets = [];

@@ -228,7 +228,6 @@ function latestSpectrumDbfs(ps: PipelineState): Float32Array | null {
 
 function push(ps: PipelineState, block: Float32Array): AnalysisUpdate {
   if (ps.isFinished) throw new Error('push() after finish(): start a new analysis');
-  beginLive(ps.live);
   ps.sawFrame = false;
   let peak = 0;
   let isClipped = false;
@@ -244,11 +243,14 @@ function push(ps: PipelineState, block: Float32Array): AnalysisUpdate {
     ps.hasSpectrum = true;
     ps.isSpectrumDbStale = true;
   }
-  const closed = ps.live.closed;
+  const { frames, onsets, closed } = ps.live;
+  // Fresh outputs from here on: rows and segments a gap() settles before the next push go there,
+  // not into this update, which its reader may already have copied.
+  beginLive(ps.live);
   let segments: Segment[] | null = null;
   return {
-    frames: ps.live.frames,
-    onsets: ps.live.onsets,
+    frames,
+    onsets,
     // Fitted when first read (a reader of the report alone never pays for the live fits).
     get segments() {
       segments ??= liveSegments(closed);

@@ -224,7 +224,7 @@ export interface Report {
   warnings?: string[];
 }
 
-/** What push() reports: the rows added since the previous call and events that closed. Valid until the next push(). */
+/** What push() reports: the rows added since the previous call (those a gap() settled included) and events that closed. Valid until the next push(). */
 export interface AnalysisUpdate {
   frames: TrackFrame[];
   onsets: Onset[];

@@ -5,6 +5,7 @@
  * results are expected to be identical, not merely close.
  */
 import { describe, expect, it } from 'vitest';
+import { ROW_RATE_HZ } from '../../dsp/live';
 import { createAnalysis } from '../../dsp/pipeline';
 import { humCycleEnvelope, synthesize } from '../../dsp/synth';
 import type { AnalysisUpdate, Onset, Report, Segment, TrackFrame } from '../../dsp/types';
@@ -89,5 +90,43 @@ describe('block-size invariance', () => {
       i += n;
     }
     expect(a.finish()).toEqual(reference.report);
+  });
+});
+
+describe('a gap between pushes', () => {
+  // A steady 233 Hz tone, 4 s, then 1 s of input missing (suspended capture), then 3 s more.
+  const fs = 16000;
+  const x = synthesize({ sampleRateHz: fs, durationS: 8, tones: [{ frequencyHz: 233, envelope: () => 0.1 }], noiseRms: 0.003, seed: 5 });
+  const a = createAnalysis({ sampleRateHz: fs });
+  const copied: TrackFrame[] = [];
+  const handed: TrackFrame[][] = [];
+  const feed = (from: number, to: number): void => {
+    for (let i = from; i < to; i += 1024) {
+      const u = a.push(x.subarray(i, Math.min(to, i + 1024)));
+      // A reader that copies each update at once (what "valid until the next push" allows) ...
+      for (const f of u.frames) copied.push({ ...f });
+      // ... and the arrays the updates handed over, read at the end.
+      handed.push(u.frames);
+    }
+  };
+  feed(0, 4 * fs);
+  a.gap(fs);
+  feed(5 * fs, 8 * fs);
+  a.finish();
+
+  it('the rows a gap settles reach the next update, not the one already handed over', () => {
+    const later = handed.flat();
+    expect(copied.length).toBe(later.length);
+    expect(copied.map((f) => f.timeS)).toEqual(later.map((f) => f.timeS));
+  });
+
+  it('rows run up to the gap and resume after it, in time order', () => {
+    const before = copied.filter((f) => f.timeS < 4);
+    const after = copied.filter((f) => f.timeS >= 5);
+    expect(before.length + after.length).toBe(copied.length);
+    // Rows every 1/ROW_RATE_HZ s (dsp/live.ts; on the envelope grid, so to within one envelope sample) on each side of the gap.
+    for (const side of [before, after]) for (let i = 1; i < side.length; i++) expect(side[i].timeS - side[i - 1].timeS).toBeCloseTo(1 / ROW_RATE_HZ, 3);
+    expect(after[0].isAfterGap).toBe(true);
+    for (let i = 1; i < copied.length; i++) expect(copied[i].timeS).toBeGreaterThan(copied[i - 1].timeS);
   });
 });
