@@ -20,7 +20,6 @@ const UPDATE_INTERVAL_MS = 66;
 /** Samples per block when a whole file is analysed. */
 const FILE_BLOCK_SAMPLES = 4096;
 
-
 interface Run {
   id: number;
   analysis: Analysis;
