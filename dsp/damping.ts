@@ -88,16 +88,117 @@ interface ScoringRun {
 }
 
 /**
- * Whittle (1953) likelihood fit of S(f) = C/((f − f0)² + γ²) + B to periodogram ordinates
- * `periodogram` at frequencies `freqHz` (complex data: each ordinate ~ S·Exp(1)); α = 2πγ in 1/s
- * with a 95 % interval from the inverse Fisher information (normal quantile, log scale).
+ * The Whittle negative log-likelihood of S(f) = C/((f − f0)² + γ²) + B over θ = (ln C, f0, ln γ,
+ * ln B), and its score and Fisher information (written into `score` and `fisher`, row-major 4×4).
  */
-export function fitLorentzianWhittle(freqHz: Float64Array, periodogram: Float64Array): LorentzianFit {
+interface WhittleObjective {
+  nll(th: Float64Array): number;
+  scoreAndFisher(th: Float64Array): void;
+  score: Float64Array;
+  fisher: Float64Array;
+}
+
+function whittleObjective(freqHz: Float64Array, periodogram: Float64Array): WhittleObjective {
   const n = freqHz.length;
-  const fail = (reason: string): LorentzianFit => ({ estimate: invalid(reason), offsetHz: Number.NaN, floorDensity: Number.NaN, peakDensity: Number.NaN });
-  if (n < 16) return fail('too few spectral bins in the search band (record too short)');
+  const fisher = new Float64Array(16);
+  const score = new Float64Array(4);
+  const dl = new Float64Array(4);
+  return {
+    score,
+    fisher,
+    nll(th) {
+      const c = Math.exp(th[0]);
+      const g2 = Math.exp(2 * th[2]);
+      const b = Math.exp(th[3]);
+      let v = 0;
+      for (let k = 0; k < n; k++) {
+        const df = freqHz[k] - th[1];
+        const s = c / (df * df + g2) + b;
+        v += Math.log(s) + periodogram[k] / s;
+      }
+      return v;
+    },
+    scoreAndFisher(th) {
+      const c = Math.exp(th[0]);
+      const g2 = Math.exp(2 * th[2]);
+      const b = Math.exp(th[3]);
+      fisher.fill(0);
+      score.fill(0);
+      for (let k = 0; k < n; k++) {
+        const df = freqHz[k] - th[1];
+        const den = df * df + g2;
+        const lor = c / den;
+        const s = lor + b;
+        dl[0] = lor / s;
+        dl[1] = (lor * 2 * df) / den / s;
+        dl[2] = (-lor * 2 * g2) / den / s;
+        dl[3] = b / s;
+        const u = periodogram[k] / s - 1;
+        // The information is symmetric: accumulate its upper triangle (same products, same order).
+        for (let a = 0; a < 4; a++) {
+          score[a] += u * dl[a];
+          for (let e = a; e < 4; e++) fisher[a * 4 + e] += dl[a] * dl[e];
+        }
+      }
+      for (let a = 1; a < 4; a++) for (let e = 0; e < a; e++) fisher[a * 4 + e] = fisher[e * 4 + a];
+    },
+  };
+}
+
+/**
+ * Fisher scoring with step halving from run.th until a scoring step promises less than minGain
+ * (its quadratic model: half the score along the step; NaN stops too), a line search gains less
+ * than WHITTLE_MIN_GAIN, the information is singular or WHITTLE_MAX_ITERATIONS run out; the last
+ * three leave the run stuck (going on cannot help). `step` and `trial` are work arrays of 4.
+ */
+function descend(obj: WhittleObjective, run: ScoringRun, minGain: number, step: Float64Array, trial: Float64Array): void {
+  const th = run.th;
+  const score = obj.score;
+  while (run.iterationsLeft > 0) {
+    run.iterationsLeft--;
+    obj.scoreAndFisher(th);
+    const inv = invertSmallMatrix(obj.fisher, 4);
+    if (inv === null) break;
+    step.fill(0);
+    for (let a = 0; a < 4; a++) for (let e = 0; e < 4; e++) step[a] += inv[a * 4 + e] * score[e];
+    let promised = 0;
+    for (let a = 0; a < 4; a++) promised += 0.5 * score[a] * step[a];
+    if (!(promised > minGain)) {
+      // Converged to minGain; the iteration is redone if the run goes on.
+      run.iterationsLeft++;
+      return;
+    }
+    let t = 1;
+    let isAccepted = false;
+    for (let h = 0; h < 30; h++) {
+      let isSame = true;
+      for (let a = 0; a < 4; a++) {
+        trial[a] = th[a] + t * step[a];
+        if (trial[a] !== th[a]) isSame = false;
+      }
+      // A step lost below the parameters' rounding leaves them (and their likelihood) as they are.
+      const v = isSame ? run.nll : obj.nll(trial);
+      if (v <= run.nll) {
+        const gain = run.nll - v;
+        th.set(trial);
+        run.nll = v;
+        isAccepted = gain > WHITTLE_MIN_GAIN;
+        break;
+      }
+      t /= 2;
+    }
+    if (!isAccepted) break;
+  }
+  run.isStuck = true;
+}
+
+/**
+ * Starting values of the Whittle fit: the peak of the periodogram smoothed by a running mean over
+ * ~0.5 Hz (at least 3 bins), its bin, and the floor from the median ordinate.
+ */
+function whittleStart(freqHz: Float64Array, periodogram: Float64Array): { kPeak: number; floor0: number; peak0: number } {
+  const n = freqHz.length;
   const binHz = Math.abs(freqHz[1] - freqHz[0]);
-  // Smoothed periodogram for the starting values (running mean over ~0.5 Hz, at least 3 bins).
   const half = Math.max(1, Math.round(0.25 / binHz));
   const smooth = new Float64Array(n);
   let kPeak = 0;
@@ -114,107 +215,43 @@ export function fitLorentzianWhittle(freqHz: Float64Array, periodogram: Float64A
   const sorted = Float64Array.from(periodogram).sort();
   // The median of an Exp(1) variable is ln 2 times its mean.
   const floor0 = Math.max(sorted[Math.floor(n / 2)] / Math.LN2, 1e-300);
-  const peak0 = smooth[kPeak];
-  const nll = (th: Float64Array): number => {
-    const c = Math.exp(th[0]);
-    const g2 = Math.exp(2 * th[2]);
-    const b = Math.exp(th[3]);
-    let v = 0;
-    for (let k = 0; k < n; k++) {
-      const df = freqHz[k] - th[1];
-      const s = c / (df * df + g2) + b;
-      v += Math.log(s) + periodogram[k] / s;
-    }
-    return v;
-  };
-  const fisher = new Float64Array(16);
-  const score = new Float64Array(4);
-  const dl = new Float64Array(4);
-  const scoreAndFisher = (th: Float64Array): void => {
-    const c = Math.exp(th[0]);
-    const g2 = Math.exp(2 * th[2]);
-    const b = Math.exp(th[3]);
-    fisher.fill(0);
-    score.fill(0);
-    for (let k = 0; k < n; k++) {
-      const df = freqHz[k] - th[1];
-      const den = df * df + g2;
-      const lor = c / den;
-      const s = lor + b;
-      dl[0] = lor / s;
-      dl[1] = (lor * 2 * df) / den / s;
-      dl[2] = (-lor * 2 * g2) / den / s;
-      dl[3] = b / s;
-      const u = periodogram[k] / s - 1;
-      // The information is symmetric: accumulate its upper triangle (same products, same order).
-      for (let a = 0; a < 4; a++) {
-        score[a] += u * dl[a];
-        for (let e = a; e < 4; e++) fisher[a * 4 + e] += dl[a] * dl[e];
-      }
-    }
-    for (let a = 1; a < 4; a++) for (let e = 0; e < a; e++) fisher[a * 4 + e] = fisher[e * 4 + a];
-  };
+  return { kPeak, floor0, peak0: smooth[kPeak] };
+}
+
+/**
+ * Whittle (1953) likelihood fit of S(f) = C/((f − f0)² + γ²) + B to periodogram ordinates
+ * `periodogram` at frequencies `freqHz` (complex data: each ordinate ~ S·Exp(1)); α = 2πγ in 1/s
+ * with a 95 % interval from the inverse Fisher information (normal quantile, log scale).
+ */
+export function fitLorentzianWhittle(freqHz: Float64Array, periodogram: Float64Array): LorentzianFit {
+  const n = freqHz.length;
+  const fail = (reason: string): LorentzianFit => ({ estimate: invalid(reason), offsetHz: Number.NaN, floorDensity: Number.NaN, peakDensity: Number.NaN });
+  if (n < 16) return fail('too few spectral bins in the search band (record too short)');
+  const binHz = Math.abs(freqHz[1] - freqHz[0]);
+  const { kPeak, floor0, peak0 } = whittleStart(freqHz, periodogram);
+  const obj = whittleObjective(freqHz, periodogram);
   const step = new Float64Array(4);
   const trial = new Float64Array(4);
-  /**
-   * Fisher scoring with step halving from run.th until a scoring step promises less than minGain
-   * (its quadratic model: half the score along the step; NaN stops too), a line search gains less
-   * than WHITTLE_MIN_GAIN, the information is singular or WHITTLE_MAX_ITERATIONS run out; the last
-   * three leave the run stuck (going on cannot help).
-   */
-  const descend = (run: ScoringRun, minGain: number): void => {
-    const th = run.th;
-    while (run.iterationsLeft > 0) {
-      run.iterationsLeft--;
-      scoreAndFisher(th);
-      const inv = invertSmallMatrix(fisher, 4);
-      if (inv === null) break;
-      step.fill(0);
-      for (let a = 0; a < 4; a++) for (let e = 0; e < 4; e++) step[a] += inv[a * 4 + e] * score[e];
-      let promised = 0;
-      for (let a = 0; a < 4; a++) promised += 0.5 * score[a] * step[a];
-      if (!(promised > minGain)) {
-        // Converged to minGain; the iteration is redone if the run goes on.
-        run.iterationsLeft++;
-        return;
-      }
-      let t = 1;
-      let isAccepted = false;
-      for (let h = 0; h < 30; h++) {
-        let isSame = true;
-        for (let a = 0; a < 4; a++) {
-          trial[a] = th[a] + t * step[a];
-          if (trial[a] !== th[a]) isSame = false;
-        }
-        // A step lost below the parameters' rounding leaves them (and their likelihood) as they are.
-        const v = isSame ? run.nll : nll(trial);
-        if (v <= run.nll) {
-          const gain = run.nll - v;
-          th.set(trial);
-          run.nll = v;
-          isAccepted = gain > WHITTLE_MIN_GAIN;
-          break;
-        }
-        t /= 2;
-      }
-      if (!isAccepted) break;
-    }
-    run.isStuck = true;
-  };
   // Multi-start over the half-width, each run to a loose tolerance; the best is then taken on to
   // the full one (the runs that share its optimum would only have matched it).
   let best: ScoringRun | null = null;
   for (const gammaHz of [0.05, 0.3, 1, 3, 8]) {
     if (gammaHz < binHz / 4) continue;
     const th = Float64Array.of(Math.log(Math.max(peak0 - floor0, peak0 * 0.5) * gammaHz * gammaHz), freqHz[kPeak], Math.log(gammaHz), Math.log(floor0));
-    const run: ScoringRun = { th, nll: nll(th), iterationsLeft: WHITTLE_MAX_ITERATIONS, isStuck: false };
-    descend(run, WHITTLE_START_GAIN);
+    const run: ScoringRun = { th, nll: obj.nll(th), iterationsLeft: WHITTLE_MAX_ITERATIONS, isStuck: false };
+    descend(obj, run, WHITTLE_START_GAIN, step, trial);
     if (Number.isFinite(run.nll) && (best === null || run.nll < best.nll)) best = run;
   }
-  if (best !== null && !best.isStuck) descend(best, WHITTLE_MIN_GAIN);
+  if (best !== null && !best.isStuck) descend(obj, best, WHITTLE_MIN_GAIN, step, trial);
   if (best === null) return fail("Lorentzian fit did not converge");
-  const th = best.th;
-  scoreAndFisher(th);
+  return lorentzianResult(obj, best.th, freqHz);
+}
+
+/** The fit at its optimum θ: the decay rate α = 2πγ with its interval, or why there is none. */
+function lorentzianResult(obj: WhittleObjective, th: Float64Array, freqHz: Float64Array): LorentzianFit {
+  const n = freqHz.length;
+  obj.scoreAndFisher(th);
+  const fisher = obj.fisher;
   // A floor far below the Lorentzian tails carries less than one bin's worth of information
   // (Σ (B/S)² < 1): it is not identified, so treat it as zero and invert the other three.
   const isFloorIdentified = fisher[15] >= 1;
