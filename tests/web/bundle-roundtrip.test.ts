@@ -7,7 +7,7 @@ import fc from 'fast-check';
 import { strFromU8, unzipSync } from 'fflate';
 import type { Cycle, Interval, Marker, Report, Segment, TrackFrame } from '../../dsp/types';
 import { openSessionDb } from '../../web/storage/db';
-import { buildBundle, toJsonText, toSessionFile } from '../../web/storage/export';
+import { buildBundle, bundleStoredSessions, toJsonText, toSessionFile } from '../../web/storage/export';
 import { importBundle, readBundle } from '../../web/storage/import';
 import { deleteSession, loadFullSession, type FullSession } from '../../web/storage/sessions';
 import { bundleOptions, defaultSettings, loadSettings, SETTINGS_KEY } from '../../web/settings';
@@ -67,6 +67,27 @@ describe('the bundle audio setting', () => {
     const store = new Map<string, string>([[SETTINGS_KEY, JSON.stringify({ isExportingFloatAudio: 'yes' })]]);
     const kv = { getItem: (k: string) => store.get(k) ?? null, setItem: (k: string, v: string) => void store.set(k, v) };
     expect(bundleOptions(loadSettings(kv))).toEqual({ audio: 'pcm16' });
+  });
+});
+
+describe('bundles of stored sessions (zipped in the storage worker)', () => {
+  it('hold the chosen sessions still stored, in the order chosen, and import back identical', async () => {
+    const a = sampleSession({ id: 'stored-a', site: 'Bench rig A' });
+    const b = sampleSession({ id: 'stored-b', site: 'Boiler room B', withAudio: false });
+    const db = await openSessionDb({ name: uniqueName() });
+    await importBundle(db, buildBundle([a, b], AT, { audio: 'float32' }));
+    const { bytes, sessionCount } = await bundleStoredSessions(db, ['stored-b', 'gone', 'stored-a'], AT, { audio: 'float32' });
+    expect(sessionCount).toBe(2);
+    const back = await readBundle(bytes);
+    expect(back.map((s) => s.record.meta.site)).toEqual(['Boiler room B', 'Bench rig A']);
+    expect(carried(back[1])).toEqual(carried((await loadFullSession(db, 'stored-a'))!));
+    db.close();
+  });
+
+  it('refuse with a message when none of the chosen sessions is stored any more', async () => {
+    const db = await openSessionDb({ name: uniqueName() });
+    await expect(bundleStoredSessions(db, ['gone'], AT)).rejects.toThrow(/None of the chosen sessions is stored/);
+    db.close();
   });
 });
 

@@ -9,9 +9,9 @@ import type { Report, TrackFrame } from '../../dsp/types';
 import { encodeWav } from '../../dsp/io/wav-write';
 import { BUNDLE_FORMAT, BUNDLE_SCHEMA_VERSION, SESSION_FORMAT, SESSION_JSON_MAX_BYTES, encodeNumber } from './bundle-schema';
 import { DEFAULT_ZIP_LIMITS, formatBytes } from './zip-read';
-import type { SessionRecord } from './db';
+import type { SessionDb, SessionRecord } from './db';
 import { buildReportHtml } from './report-html';
-import type { FullSession } from './sessions';
+import { loadFullSession, type FullSession } from './sessions';
 
 /** JSON text in which NaN and ±∞ travel as "NaN", "Infinity", "-Infinity" (see bundle-schema.ts). Compact: tracks are long. */
 export function toJsonText(value: unknown): string {
@@ -143,6 +143,28 @@ export function buildBundle(sessions: readonly FullSession[], exportedAtMs = Dat
   files['manifest.json'] = strToU8(toJsonText({ format: BUNDLE_FORMAT, schemaVersion: BUNDLE_SCHEMA_VERSION, exportedAtMs: Math.round(exportedAtMs), sessions: listed }));
   // Zip (DOS) dates start in 1980.
   return zipSync(files, { level: 1, mtime: new Date(Math.max(exportedAtMs, Date.UTC(1980, 0, 2))) });
+}
+
+/** A bundle and how many sessions it holds. */
+export interface StoredBundle {
+  bytes: Uint8Array;
+  sessionCount: number;
+}
+
+/**
+ * The bundle of the stored sessions `ids` that are still stored, in that order, read and zipped
+ * where the store is read (the storage worker, off-thread.ts callStore): the page neither stalls
+ * on the zip nor holds the sessions' audio. Throws RangeError when none of them is stored, or as
+ * buildBundle does.
+ */
+export async function bundleStoredSessions(db: SessionDb, ids: readonly string[], exportedAtMs: number, options: BundleOptions = {}): Promise<StoredBundle> {
+  const sessions: FullSession[] = [];
+  for (const id of ids) {
+    const s = await loadFullSession(db, id);
+    if (s) sessions.push(s);
+  }
+  if (sessions.length === 0) throw new RangeError('None of the chosen sessions is stored any more: nothing was exported.');
+  return { bytes: buildBundle(sessions, exportedAtMs, options), sessionCount: sessions.length };
 }
 
 /** The WAV alone: 16-bit PCM, the most widely readable form (float when a sample lies beyond full scale). */

@@ -7,7 +7,7 @@ import type { Report } from '../../dsp/types';
 import { formatClock, formatDb, formatHz, formatMissing, formatQ, formatRate, formatRatio, formatSeconds, isShowable } from '../format';
 import { TEXT_LIMITS } from '../storage/bundle-schema';
 import { bundleOptions } from '../settings';
-import { buildBundle, sessionBaseName, sessionWav, shareOrDownload, trackCsv } from '../storage/export';
+import { sessionBaseName, sessionWav, shareOrDownload, trackCsv } from '../storage/export';
 import { buildReportHtml } from '../storage/report-html';
 import type { FullSession } from '../storage/sessions';
 import { callStore } from '../storage/off-thread';
@@ -136,8 +136,9 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
 
   // Exports.
   const base = sessionBaseName(record);
-  const deliver = async (bytes: Uint8Array, name: string, type: string): Promise<void> => {
+  const deliver = async (make: () => Uint8Array | Promise<Uint8Array>, name: string, type: string): Promise<void> => {
     try {
+      const bytes = await make();
       const how = await shareOrDownload(bytes, name, type);
       if (how !== 'cancelled') ctx.app.notify(`${how === 'shared' ? 'Shared' : 'Saved'} ${name} (${formatBytes(bytes.length)}).`, 'info');
     } catch (err) {
@@ -154,10 +155,10 @@ export async function renderDetail(host: HTMLElement, ctx: SessionsContext, id: 
   const actions = h(
     'div',
     { className: 'controls session-actions' },
-    button('Export bundle (.zip)', 'export-bundle', () => deliver(buildBundle([current()], Date.now(), bundleOptions()), `${base}.zip`, 'application/zip')),
-    button('Track (.csv)', 'export-csv', () => deliver(new TextEncoder().encode(trackCsv(track, offset, current().record.report)), `${base}-track.csv`, 'text/csv')),
-    button('Audio (.wav)', 'export-wav', () => deliver(sessionWav(full.audio as Float32Array, m.sampleRateHz), `${base}.wav`, 'audio/wav'), !full.audio),
-    button('Printable report (.html)', 'export-html', () => deliver(new TextEncoder().encode(buildReportHtml(current().record, track, Date.now())), `${base}-report.html`, 'text/html')),
+    button('Export bundle (.zip)', 'export-bundle', () => deliver(async () => (await callStore('bundle', [id], Date.now(), bundleOptions())).bytes, `${base}.zip`, 'application/zip')),
+    button('Track (.csv)', 'export-csv', () => deliver(() => new TextEncoder().encode(trackCsv(track, offset, current().record.report)), `${base}-track.csv`, 'text/csv')),
+    button('Audio (.wav)', 'export-wav', () => deliver(() => sessionWav(full.audio as Float32Array, m.sampleRateHz), `${base}.wav`, 'audio/wav'), !full.audio),
+    button('Printable report (.html)', 'export-html', () => deliver(() => new TextEncoder().encode(buildReportHtml(current().record, track, Date.now())), `${base}-report.html`, 'text/html')),
     button('Delete', 'delete-session', () => ctx.deleteWithUndo(id, sessionTitle(current().record.meta.site, current().record.meta.equipment, current().record.meta.fileName))),
   );
 

@@ -7,10 +7,10 @@ import type { MountScreen } from '../app-context';
 import { formatHz, formatRate, formatSeconds } from '../format';
 import type { SessionRecord } from '../storage/db';
 import { bundleOptions } from '../settings';
-import { buildBundle, shareOrDownload } from '../storage/export';
+import { shareOrDownload } from '../storage/export';
 import { ImportError } from '../storage/import';
 import { callStore, importBundleFile, recoverInterruptedOffThread } from '../storage/off-thread';
-import { getSessionDb, onDatabaseBlocked, onDatabaseVersionChange, requestPersistentStorage, storageFigures, type DeletedSession, type FullSession } from '../storage/sessions';
+import { getSessionDb, onDatabaseBlocked, onDatabaseVersionChange, requestPersistentStorage, storageFigures, type DeletedSession } from '../storage/sessions';
 import { renderCompare } from './session-compare';
 import type { SessionsContext, SessionView } from './session-context';
 import { formatLocalStamp, sessionTitle } from './session-context';
@@ -218,17 +218,12 @@ async function renderList(host: HTMLElement, ctx: SessionsContext): Promise<Sess
   compareBtn.addEventListener('click', () => ctx.go(`compare:${[...selected].join(',')}`));
   mapBtn.addEventListener('click', () => ctx.go(selected.size >= 1 ? `map:${[...selected].join(',')}` : 'map'));
   exportBtn.addEventListener('click', async () => {
-    const full: FullSession[] = [];
-    for (const id of selected) {
-      const s = await callStore('load', id);
-      if (s) full.push(s);
-    }
-    if (!full.length) return;
+    if (selected.size === 0) return;
     try {
-      const bytes = buildBundle(full, Date.now(), bundleOptions());
+      const { bytes, sessionCount } = await callStore('bundle', [...selected], Date.now(), bundleOptions());
       const stamp = new Date().toISOString().slice(0, 10);
-      const how = await shareOrDownload(bytes, `humgauge-${full.length}-sessions-${stamp}.zip`, 'application/zip');
-      if (how !== 'cancelled') ctx.app.notify(`Exported ${full.length} session${full.length === 1 ? '' : 's'} (${formatBytes(bytes.length)}).`, 'info');
+      const how = await shareOrDownload(bytes, `humgauge-${sessionCount}-sessions-${stamp}.zip`, 'application/zip');
+      if (how !== 'cancelled') ctx.app.notify(`Exported ${sessionCount} session${sessionCount === 1 ? '' : 's'} (${formatBytes(bytes.length)}).`, 'info');
     } catch (err) {
       ctx.app.notify(`Export failed: ${err instanceof Error ? err.message : String(err)}`, 'error');
     }
