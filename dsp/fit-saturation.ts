@@ -151,16 +151,19 @@ export interface EnvelopeKernel {
 /** Most kernel taps the smoothed model evaluates per sample. */
 const MAX_KERNEL_TAPS = 24;
 
+/** A kernel's taps as the smoothed models sum them (h, Σh = 1) and their tap planner: built once per fit and shared by its models, which all read the same series. */
+interface KernelTaps {
+  h: Float64Array;
+  planOf: (t: Float64Array, n: number) => TapPlan;
+}
+
 /**
- * The model seen through an amplitude kernel: G(t) = (Σ h_k √g(t − τ_k))², with
- * ∂G/∂θ = 2·(Σ h_k √g_k)·Σ h_k ∂√g_k/∂θ. L·G is then the mean power of the smoothed amplitude
- * √L·√g. The amplitude model `root` (√g and ∂√g/∂θ: saturationShape with isAmplitude) is
- * evaluated once at each time the taps need (TapPlan), and each sample sums its taps from there.
+ * The taps of a kernel. Long kernels are merged into at most MAX_KERNEL_TAPS groups, each at its
+ * weighted centre (a midpoint rule: the amplitude is smooth over one group, whose error is second
+ * order in its width).
  */
-function smoothedShape(root: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
+function kernelTaps(kernel: EnvelopeKernel): KernelTaps {
   const n = kernel.weights.length;
-  // Long kernels are merged into at most MAX_KERNEL_TAPS groups, each at its weighted centre (a
-  // midpoint rule: the amplitude is smooth over one group, whose error is second order in its width).
   const group = Math.ceil(n / MAX_KERNEL_TAPS);
   const taps = Math.ceil(n / group);
   const h = new Float64Array(taps);
@@ -177,10 +180,21 @@ function smoothedShape(root: ShapeModel, kernel: EnvelopeKernel): ShapeModel {
     h[j] = w / sum;
     offsets[j] = w !== 0 ? wt / w : (j * group + (group - 1) / 2 - (n - 1) / 2) * kernel.spacingS;
   }
+  return { h, planOf: tapPlanner(offsets, group === 1 ? kernel.spacingS : 0) };
+}
+
+/**
+ * The model seen through an amplitude kernel: G(t) = (Σ h_k √g(t − τ_k))², with
+ * ∂G/∂θ = 2·(Σ h_k √g_k)·Σ h_k ∂√g_k/∂θ. L·G is then the mean power of the smoothed amplitude
+ * √L·√g. The amplitude model `root` (√g and ∂√g/∂θ: saturationShape with isAmplitude) is
+ * evaluated once at each time the taps need (TapPlan), and each sample sums its taps from there.
+ */
+function smoothedShape(root: ShapeModel, kernel: KernelTaps): ShapeModel {
+  const { h, planOf } = kernel;
+  const taps = h.length;
   // The saturation shapes have two or three nonlinear parameters; the tap loops below sum at most three.
   const nn = root.nNonlinear;
   const buffers = shapeBuffers(nn);
-  const planOf = tapPlanner(offsets, group === 1 ? kernel.spacingS : 0);
   return memoised({
     nNonlinear: nn,
     evaluate(t, count, theta, withGrad) {
@@ -388,7 +402,8 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
     }
   }
   // Seen through the kernel when one is given; the grid only seeks the basin, without it (K× cheaper).
-  const through = (p: number | null): ShapeModel => (kernel === undefined ? saturationShape(p) : smoothedShape(saturationShape(p, true), kernel));
+  const taps = kernel === undefined ? null : kernelTaps(kernel);
+  const through = (p: number | null): ShapeModel => (taps === null ? saturationShape(p) : smoothedShape(saturationShape(p, true), taps));
   const grid = saturationGrid(d);
   const landau = fitIrls(d, through(2), grid, fixedBg, null, saturationShape(2));
   if (landau === null) return fail('no tone above the background', d.nEff);
