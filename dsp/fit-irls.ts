@@ -114,7 +114,7 @@ function dataSums(d: Prepared, w: Float64Array): DataSums {
 
 /**
  * For fixed nonlinear parameters: weighted linear fit of y ≈ L·g + N² with L > 0, N² ≥ 0 (or N²
- * fixed). Writes ln L and N² into `out`; returns the weighted RSS (Infinity if L ≤ 0), expanded
+ * fixed). Writes L and N² into `out` (the grid takes the logarithm of the best L only); returns the weighted RSS (Infinity if L ≤ 0), expanded
  * from the same sums (Σwy² − 2LΣwgy − 2N²Σwy + L²Σwg² + 2LN²Σwg + N⁴Σw, one pass over the data
  * for the sums with g; the others are the caller's, `data`). The expansion loses the digits the
  * RSS has below Σwy²·1e-16, which does not matter to the grid it ranks (the polish that follows
@@ -126,7 +126,7 @@ function solveLinear(
   g: Float64Array,
   fixedBg: number | null,
   data: DataSums,
-  out: { lnL: number; bg: number },
+  out: { amp: number; bg: number },
 ): number {
   const { sw, sy, swyy } = data;
   let sg = 0;
@@ -155,7 +155,7 @@ function solveLinear(
   }
   if (!(amp > 0) || !Number.isFinite(amp)) return Number.POSITIVE_INFINITY;
   const rss = swyy - 2 * amp * sgy - 2 * bg * sy + amp * amp * sgg + 2 * amp * bg * sg + bg * bg * sw;
-  out.lnL = Math.log(amp);
+  out.amp = amp;
   out.bg = bg;
   return Math.max(0, rss);
 }
@@ -200,6 +200,7 @@ function normalEquations(
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
   const v = model.evaluate(d.t, d.n, nonlinearOf(d, params, k), true);
+  const g = v.g;
   const grad = v.grad;
   const y = d.y;
   const bgColumn = nFree === k + 2 ? 1 : 0;
@@ -211,7 +212,7 @@ function normalEquations(
   if (bgColumn === 0 && k === 1) {
     for (let i = 0; i < d.n; i++) {
       const wi = w[i];
-      const x0 = amp * v.g[i];
+      const x0 = amp * g[i];
       const x1 = amp * grad[i];
       const r = y[i] - x0 - bg;
       rss += wi * r * r;
@@ -226,7 +227,7 @@ function normalEquations(
   } else if (bgColumn === 0 && k === 2) {
     for (let i = 0; i < d.n; i++) {
       const wi = w[i];
-      const x0 = amp * v.g[i];
+      const x0 = amp * g[i];
       const x1 = amp * grad[2 * i];
       const x2 = amp * grad[2 * i + 1];
       const r = y[i] - x0 - bg;
@@ -247,7 +248,7 @@ function normalEquations(
   } else if (bgColumn === 0 && k === 3) {
     for (let i = 0; i < d.n; i++) {
       const wi = w[i];
-      const x0 = amp * v.g[i];
+      const x0 = amp * g[i];
       const x1 = amp * grad[3 * i];
       const x2 = amp * grad[3 * i + 1];
       const x3 = amp * grad[3 * i + 2];
@@ -274,7 +275,7 @@ function normalEquations(
     }
   } else for (let i = 0; i < d.n; i++) {
     const wi = w[i];
-    const x0 = amp * v.g[i];
+    const x0 = amp * g[i];
     const x1 = amp * grad[i * k];
     const x2 = k > 1 ? amp * grad[i * k + 1] : 0;
     const x3 = k > 2 ? amp * grad[i * k + 2] : 0;
@@ -465,10 +466,10 @@ function gridSearch(
 ): FitState | null {
   const k = model.nNonlinear;
   const theta = new Float64Array(k);
-  const lin = { lnL: 0, bg: 0 };
+  const lin = { amp: 0, bg: 0 };
   // The best point so far: its grid position, linear parameters and RSS (the state is built once, at the end).
   let bestRss = Number.POSITIVE_INFINITY;
-  let bestLnL = 0;
+  let bestAmp = 0;
   let bestBg = 0;
   const counts = grid.values.map((v) => v.length);
   const bestAt = new Int32Array(k);
@@ -482,7 +483,7 @@ function gridSearch(
       const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, data, lin);
       if (rss < bestRss) {
         bestRss = rss;
-        bestLnL = lin.lnL;
+        bestAmp = lin.amp;
         bestBg = lin.bg;
         bestAt.set(at);
       }
@@ -499,7 +500,7 @@ function gridSearch(
   const hi = Int32Array.from(bestAt, (b, j) => Math.min(counts[j] - 1, b + GRID_COARSE - 1));
   searchBox(lo, hi, 1);
   const params = new Float64Array(k + 2);
-  params[0] = bestLnL;
+  params[0] = Math.log(bestAmp);
   for (let j = 0; j < k; j++) params[1 + j] = grid.values[j][bestAt[j]];
   params[k + 1] = bestBg;
   return { params, isBackgroundFixed: fixedBg !== null, rss: bestRss };

@@ -51,15 +51,17 @@ function saturationShape(fixedP: number | null, isAmplitude = false): ShapeModel
       const isLandau = p === 2 && fixedP !== null;
       const ps = p * s;
       const twoOverP = 2 / p;
-      const from = steppedDecay(t, n, prefixOf(t, n), Math.abs(ps), tc, decay);
-      for (let i = from; i < n; i++) decay[i] = Math.exp(-Math.abs(ps * (t[i] - tc)));
+      // Locals for the buffers: the loops below then read no closure variable or property per time.
+      const e0 = decay;
+      const values = v.g;
+      const grad = v.grad;
+      const from = steppedDecay(t, n, prefixOf(t, n), Math.abs(ps), tc, e0);
+      for (let i = from; i < n; i++) e0[i] = Math.exp(-Math.abs(ps * (t[i] - tc)));
       if (isLandau) {
         // Stuart–Landau, g = q (or √q): its own loop, with no logarithm or exponential per time.
-        const values = v.g;
-        const grad = v.grad;
         for (let i = 0; i < n; i++) {
           const dt = t[i] - tc;
-          const e = decay[i];
+          const e = e0[i];
           const inv = 1 / (1 + e);
           const isUpper = ps * dt >= 0;
           const g = isAmplitude ? Math.sqrt(isUpper ? inv : e * inv) : isUpper ? inv : e * inv;
@@ -76,7 +78,7 @@ function saturationShape(fixedP: number | null, isAmplitude = false): ShapeModel
       for (let i = 0; i < n; i++) {
         const dt = t[i] - tc;
         const z = ps * dt;
-        const e = decay[i];
+        const e = e0[i];
         const inv = 1 / (1 + e);
         const isUpper = z >= 0;
         const oneMinusQ = isUpper ? e * inv : inv;
@@ -84,13 +86,13 @@ function saturationShape(fixedP: number | null, isAmplitude = false): ShapeModel
         const tail = twoOverP * Math.log1p(e);
         const u = isUpper ? -tail : 2 * s * dt - tail;
         const g = Math.exp(isAmplitude ? 0.5 * u : u);
-        v.g[i] = g;
+        values[i] = g;
         if (!withGrad) continue;
         // ∂g/∂s and ∂g/∂tc as for Stuart–Landau above; ∂g/∂ln p = g·(2·(1 − q)·s·(t − tc) − u), halved for √g.
         const scale = isAmplitude ? g : 2 * g;
-        v.grad[i * nn] = scale * oneMinusQ * dt;
-        v.grad[i * nn + 1] = -(scale * oneMinusQ * s);
-        if (fixedP === null) v.grad[i * nn + 2] = (isAmplitude ? 0.5 * g : g) * (2 * oneMinusQ * s * dt - u);
+        grad[i * nn] = scale * oneMinusQ * dt;
+        grad[i * nn + 1] = -(scale * oneMinusQ * s);
+        if (fixedP === null) grad[i * nn + 2] = (isAmplitude ? 0.5 * g : g) * (2 * oneMinusQ * s * dt - u);
       }
       return v;
     },
@@ -203,6 +205,8 @@ function smoothedShape(root: ShapeModel, kernel: KernelTaps): ShapeModel {
       const r = at.g;
       const rGrad = at.grad;
       const v = buffers(count);
+      const values = v.g;
+      const grad = v.grad;
       const origin = plan.origin;
       const dir = plan.dir;
       for (let i = 0; i < count; i++) {
@@ -210,7 +214,7 @@ function smoothedShape(root: ShapeModel, kernel: KernelTaps): ShapeModel {
         let amp = 0;
         if (!withGrad) {
           for (let k = 0; k < taps; k++) amp += h[k] * r[o + dir * k];
-          v.g[i] = amp * amp;
+          values[i] = amp * amp;
           continue;
         }
         // One pass over the taps for the amplitude and its (at most three) derivatives; the loops
@@ -242,10 +246,10 @@ function smoothedShape(root: ShapeModel, kernel: KernelTaps): ShapeModel {
             a0 += h[k] * rGrad[m];
           }
         }
-        v.g[i] = amp * amp;
-        v.grad[i * nn] = 2 * amp * a0;
-        if (nn > 1) v.grad[i * nn + 1] = 2 * amp * a1;
-        if (nn > 2) v.grad[i * nn + 2] = 2 * amp * a2;
+        values[i] = amp * amp;
+        grad[i * nn] = 2 * amp * a0;
+        if (nn > 1) grad[i * nn + 1] = 2 * amp * a1;
+        if (nn > 2) grad[i * nn + 2] = 2 * amp * a2;
       }
       return v;
     },
