@@ -104,10 +104,11 @@ function dataSums(d: Prepared, w: Float64Array): DataSums {
   let sw = 0;
   let sy = 0;
   let swyy = 0;
-  for (let i = 0; i < d.n; i++) {
+  const { n, y } = d;
+  for (let i = 0; i < n; i++) {
     sw += w[i];
-    sy += w[i] * d.y[i];
-    swyy += w[i] * d.y[i] * d.y[i];
+    sy += w[i] * y[i];
+    swyy += w[i] * y[i] * y[i];
   }
   return { sw, sy, swyy };
 }
@@ -132,8 +133,8 @@ function solveLinear(
   let sg = 0;
   let sgg = 0;
   let sgy = 0;
-  const y = d.y;
-  for (let i = 0; i < d.n; i++) {
+  const { n, y } = d;
+  for (let i = 0; i < n; i++) {
     const wg = w[i] * g[i];
     sg += wg;
     sgg += wg * g[i];
@@ -171,10 +172,11 @@ export function rssOf(d: Prepared, w: Float64Array, model: ShapeModel, params: F
   const k = model.nNonlinear;
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
-  const g = model.evaluate(d.t, d.n, nonlinearOf(d, params, k), false).g;
+  const { n, y } = d;
+  const g = model.evaluate(d.t, n, nonlinearOf(d, params, k), false).g;
   let rss = 0;
-  for (let i = 0; i < d.n; i++) {
-    const r = d.y[i] - amp * g[i] - bg;
+  for (let i = 0; i < n; i++) {
+    const r = y[i] - amp * g[i] - bg;
     rss += w[i] * r * r;
   }
   return Number.isFinite(rss) ? rss : Number.POSITIVE_INFINITY;
@@ -202,7 +204,7 @@ function normalEquations(
   const v = model.evaluate(d.t, d.n, nonlinearOf(d, params, k), true);
   const g = v.g;
   const grad = v.grad;
-  const y = d.y;
+  const { n, y } = d;
   const bgColumn = nFree === k + 2 ? 1 : 0;
   let s00 = 0, s10 = 0, s11 = 0, s20 = 0, s21 = 0, s22 = 0, s30 = 0, s31 = 0, s32 = 0, s33 = 0;
   let s40 = 0, s41 = 0, s42 = 0, s43 = 0, s44 = 0, r0 = 0, r1 = 0, r2 = 0, r3 = 0, r4 = 0;
@@ -210,7 +212,7 @@ function normalEquations(
   // The common cases (background fixed; one to three nonlinear parameters) sum only the products
   // they have: the same sums in the same order as the general loop, without its zero columns.
   if (bgColumn === 0 && k === 1) {
-    for (let i = 0; i < d.n; i++) {
+    for (let i = 0; i < n; i++) {
       const wi = w[i];
       const x0 = amp * g[i];
       const x1 = amp * grad[i];
@@ -225,7 +227,7 @@ function normalEquations(
       s11 += w1 * x1;
     }
   } else if (bgColumn === 0 && k === 2) {
-    for (let i = 0; i < d.n; i++) {
+    for (let i = 0; i < n; i++) {
       const wi = w[i];
       const x0 = amp * g[i];
       const x1 = amp * grad[2 * i];
@@ -246,7 +248,7 @@ function normalEquations(
       s22 += w2 * x2;
     }
   } else if (bgColumn === 0 && k === 3) {
-    for (let i = 0; i < d.n; i++) {
+    for (let i = 0; i < n; i++) {
       const wi = w[i];
       const x0 = amp * g[i];
       const x1 = amp * grad[3 * i];
@@ -273,7 +275,7 @@ function normalEquations(
       s32 += w3 * x2;
       s33 += w3 * x3;
     }
-  } else for (let i = 0; i < d.n; i++) {
+  } else for (let i = 0; i < n; i++) {
     const wi = w[i];
     const x0 = amp * g[i];
     const x1 = amp * grad[i * k];
@@ -531,6 +533,7 @@ export const START_MAX_SAMPLES = 80;
 
 /** A block-averaged copy of a series (at most maxSamples blocks: mean time, mean power, summed weight). */
 export function blockMeans(d: Prepared, w: Float64Array, maxSamples: number): { d: Prepared; w: Float64Array } {
+  const { t: t0, y: y0 } = d;
   const block = Math.ceil(d.n / maxSamples);
   const m = Math.ceil(d.n / block);
   const t = new Float64Array(m);
@@ -543,8 +546,8 @@ export function blockMeans(d: Prepared, w: Float64Array, maxSamples: number): { 
     let sy = 0;
     let sw = 0;
     for (let i = i0; i < i1; i++) {
-      st += d.t[i];
-      sy += d.y[i];
+      st += t0[i];
+      sy += y0[i];
       sw += w[i];
     }
     t[j] = st / (i1 - i0);
@@ -559,13 +562,14 @@ function updateWeights(d: Prepared, model: ShapeModel, state: FitState, w: Float
   const k = model.nNonlinear;
   const amp = Math.exp(state.params[0]);
   const bg = state.params[k + 1];
-  const g = model.evaluate(d.t, d.n, nonlinearOf(d, state.params, k), false).g;
-  for (let i = 0; i < d.n; i++) w[i] = 1 / varianceOf(amp * g[i] + bg, bg, bgFloor);
+  const n = d.n;
+  const g = model.evaluate(d.t, n, nonlinearOf(d, state.params, k), false).g;
+  for (let i = 0; i < n; i++) w[i] = 1 / varianceOf(amp * g[i] + bg, bg, bgFloor);
   // Normalise so that RSS values stay of order n (the scale of w is irrelevant to the estimates).
   let mean = 0;
-  for (let i = 0; i < d.n; i++) mean += w[i];
-  mean /= d.n;
-  for (let i = 0; i < d.n; i++) w[i] /= mean;
+  for (let i = 0; i < n; i++) mean += w[i];
+  mean /= n;
+  for (let i = 0; i < n; i++) w[i] /= mean;
 }
 
 export interface IrlsResult {
@@ -595,23 +599,24 @@ export function fitIrls(
   start: FitState | null,
   gridModel: ShapeModel = model,
 ): IrlsResult | null {
+  const { n, y } = d;
   let maxY = 0;
-  for (let i = 0; i < d.n; i++) maxY = Math.max(maxY, d.y[i]);
+  for (let i = 0; i < n; i++) maxY = Math.max(maxY, y[i]);
   // Numerical guard only: keeps V(m) > 0 for a record with no noise at all.
   const bgFloor = 1e-12 * maxY;
-  const w = new Float64Array(d.n);
+  const w = new Float64Array(n);
   // First pass: weights of a constant relative error, 1/y² smoothed (the log-fit weighting), then IRLS.
-  for (let i = 0; i < d.n; i++) {
+  for (let i = 0; i < n; i++) {
     const lo = Math.max(0, i - 2);
-    const hi = Math.min(d.n - 1, i + 2);
+    const hi = Math.min(n - 1, i + 2);
     let s = 0;
-    for (let j = lo; j <= hi; j++) s += d.y[j];
+    for (let j = lo; j <= hi; j++) s += y[j];
     const ym = Math.max(s / (hi - lo + 1), 1e-9 * maxY, 1e-300);
     w[i] = 1 / (ym * ym);
   }
   let mean = 0;
-  for (let i = 0; i < d.n; i++) mean += w[i];
-  for (let i = 0; i < d.n; i++) w[i] /= mean / d.n;
+  for (let i = 0; i < n; i++) mean += w[i];
+  for (let i = 0; i < n; i++) w[i] /= mean / n;
   let state = start ?? gridSearchThinned(d, w, gridModel, grid, fixedBg);
   if (state === null) return null;
   if (fixedBg !== null) state.params[model.nNonlinear + 1] = fixedBg;
@@ -693,21 +698,22 @@ function residualCorrelationTime(d: Prepared, model: ShapeModel, params: Float64
   const k = model.nNonlinear;
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
-  const g = model.evaluate(d.t, d.n, nonlinearOf(d, params, k), false).g;
-  const e = new Float64Array(d.n);
+  const { n, y } = d;
+  const g = model.evaluate(d.t, n, nonlinearOf(d, params, k), false).g;
+  const e = new Float64Array(n);
   let c0 = 0;
-  for (let i = 0; i < d.n; i++) {
-    e[i] = (d.y[i] - amp * g[i] - bg) * Math.sqrt(w[i]);
+  for (let i = 0; i < n; i++) {
+    e[i] = (y[i] - amp * g[i] - bg) * Math.sqrt(w[i]);
     c0 += e[i] * e[i];
   }
   if (!(c0 > 0)) return 1;
   const lagOf = (lag: number): number => {
     let c = 0;
-    for (let i = 0; i + lag < d.n; i++) c += e[i] * e[i + lag];
+    for (let i = 0; i + lag < n; i++) c += e[i] * e[i + lag];
     return c / c0;
   };
   let tau = -1;
-  const maxLag = Math.floor(d.n / 4);
+  const maxLag = Math.floor(n / 4);
   for (let m = 0; 2 * m + 1 <= maxLag; m++) {
     const pair = (m === 0 ? 1 : lagOf(2 * m)) + lagOf(2 * m + 1);
     if (!(pair > 0)) break;

@@ -107,15 +107,16 @@ export function phaseFrequency(tr: ToneRuntime, i0: number, i1: number, kEnd = i
   // Only where the tone dominates: within 20 dB of its strongest sample (early in a growth the
   // band may hold other sound, e.g. a noise-driven resonance, with its own phase).
   const maxP = topPowerIn(tr, i0, i1);
+  const { power, clipped, bg, demodHz, phase, timeS } = tr;
   for (let k = Math.max(i0, tr.validFrom); k < kEnd; k++) {
-    const w = tr.power[k];
-    const usable = !tr.clipped[k] && w > PHASE_MIN_OVER_BG * tr.bg[k] && w >= PHASE_MIN_OF_PEAK * maxP;
-    if (!usable || (line.n > 0 && tr.demodHz[k] !== demod)) close();
+    const w = power[k];
+    const usable = !clipped[k] && w > PHASE_MIN_OVER_BG * bg[k] && w >= PHASE_MIN_OF_PEAK * maxP;
+    if (!usable || (line.n > 0 && demodHz[k] !== demod)) close();
     if (!usable) continue;
-    const th = tr.phase[k];
+    const th = phase[k];
     if (line.n === 0) {
       unwrapped = th;
-      demod = tr.demodHz[k];
+      demod = demodHz[k];
     } else {
       let d = th - prev;
       if (d > Math.PI) d -= 2 * Math.PI;
@@ -124,7 +125,7 @@ export function phaseFrequency(tr: ToneRuntime, i0: number, i1: number, kEnd = i
     }
     prev = th;
     // Times relative to the window start keep the sums well conditioned.
-    addLinePoint(line, tr.timeS[k] - tr.timeS[i0], unwrapped, w);
+    addLinePoint(line, timeS[k] - timeS[i0], unwrapped, w);
   }
   close();
   return sumW > 0 ? sumWF / sumW : Number.NaN;
