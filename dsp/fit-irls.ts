@@ -458,6 +458,44 @@ export interface GridSpec {
  */
 const GRID_COARSE = 3;
 
+/** A grid search under way: its series, model and grid, and the best point so far (its grid position, linear parameters and RSS). */
+interface GridScan {
+  d: Prepared;
+  w: Float64Array;
+  model: ShapeModel;
+  values: Float64Array[];
+  fixedBg: number | null;
+  data: DataSums;
+  theta: Float64Array;
+  at: Int32Array;
+  lin: { amp: number; bg: number };
+  bestRss: number;
+  bestAmp: number;
+  bestBg: number;
+  bestAt: Int32Array;
+}
+
+/** Every point of the box lo..hi (inclusive) taking every step-th value of each parameter. */
+function searchBox(scan: GridScan, lo: Int32Array, hi: Int32Array, step: number): void {
+  const { d, w, model, values, fixedBg, data, theta, at, lin } = scan;
+  const k = model.nNonlinear;
+  at.set(lo);
+  for (;;) {
+    for (let j = 0; j < k; j++) theta[j] = values[j][at[j]];
+    const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, data, lin);
+    if (rss < scan.bestRss) {
+      scan.bestRss = rss;
+      scan.bestAmp = lin.amp;
+      scan.bestBg = lin.bg;
+      scan.bestAt.set(at);
+    }
+    let j = 0;
+    while (j < k && at[j] + step > hi[j]) at[j] = lo[j++];
+    if (j === k) return;
+    at[j] += step;
+  }
+}
+
 /** Grid over the nonlinear parameters (coarse, then refined: GRID_COARSE) with the linear ones in closed form. */
 function gridSearch(
   d: Prepared,
@@ -467,45 +505,34 @@ function gridSearch(
   fixedBg: number | null,
 ): FitState | null {
   const k = model.nNonlinear;
-  const theta = new Float64Array(k);
-  const lin = { amp: 0, bg: 0 };
-  // The best point so far: its grid position, linear parameters and RSS (the state is built once, at the end).
-  let bestRss = Number.POSITIVE_INFINITY;
-  let bestAmp = 0;
-  let bestBg = 0;
   const counts = grid.values.map((v) => v.length);
-  const bestAt = new Int32Array(k);
-  const at = new Int32Array(k);
-  const data = dataSums(d, w);
-  // Every point of the box lo..hi (inclusive) taking every step-th value of each parameter.
-  const searchBox = (lo: Int32Array, hi: Int32Array, step: number): void => {
-    at.set(lo);
-    for (;;) {
-      for (let j = 0; j < k; j++) theta[j] = grid.values[j][at[j]];
-      const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, data, lin);
-      if (rss < bestRss) {
-        bestRss = rss;
-        bestAmp = lin.amp;
-        bestBg = lin.bg;
-        bestAt.set(at);
-      }
-      let j = 0;
-      while (j < k && at[j] + step > hi[j]) at[j] = lo[j++];
-      if (j === k) return;
-      at[j] += step;
-    }
-  };
   if (counts.some((c) => c === 0)) return null;
-  searchBox(new Int32Array(k), Int32Array.from(counts, (c) => c - 1), GRID_COARSE);
-  if (bestRss === Number.POSITIVE_INFINITY) return null;
+  const scan: GridScan = {
+    d,
+    w,
+    model,
+    values: grid.values,
+    fixedBg,
+    data: dataSums(d, w),
+    theta: new Float64Array(k),
+    at: new Int32Array(k),
+    lin: { amp: 0, bg: 0 },
+    bestRss: Number.POSITIVE_INFINITY,
+    bestAmp: 0,
+    bestBg: 0,
+    bestAt: new Int32Array(k),
+  };
+  searchBox(scan, new Int32Array(k), Int32Array.from(counts, (c) => c - 1), GRID_COARSE);
+  if (scan.bestRss === Number.POSITIVE_INFINITY) return null;
+  const { bestAt } = scan;
   const lo = Int32Array.from(bestAt, (b) => Math.max(0, b - GRID_COARSE + 1));
   const hi = Int32Array.from(bestAt, (b, j) => Math.min(counts[j] - 1, b + GRID_COARSE - 1));
-  searchBox(lo, hi, 1);
+  searchBox(scan, lo, hi, 1);
   const params = new Float64Array(k + 2);
-  params[0] = Math.log(bestAmp);
+  params[0] = Math.log(scan.bestAmp);
   for (let j = 0; j < k; j++) params[1 + j] = grid.values[j][bestAt[j]];
-  params[k + 1] = bestBg;
-  return { params, isBackgroundFixed: fixedBg !== null, rss: bestRss };
+  params[k + 1] = scan.bestBg;
+  return { params, isBackgroundFixed: fixedBg !== null, rss: scan.bestRss };
 }
 
 /** Most samples the grid search looks at; longer series are block-averaged for it. */

@@ -19,7 +19,7 @@ import {
   type IrlsResult,
   type Prepared,
 } from './fit-irls';
-import { memoised, RESTART_STEPS, shapeBuffers, uniformPrefix, type ShapeModel } from './fit-shape';
+import { memoised, RESTART_STEPS, ShapeBuffers, UniformPrefix, type ShapeModel, type ShapeValues } from './fit-shape';
 import { CHI2_1DOF_99, studentTQuantile } from './stats';
 import type { EnvelopeSeries, RateFit, SaturationFit } from './types';
 
@@ -35,75 +35,88 @@ import type { EnvelopeSeries, RateFit, SaturationFit } from './types';
  * amplitude √g = e^(u/2) (u = (2/p)·ln q; √q for Stuart–Landau) and ∂√g/∂θ = √g·(∂g/∂θ)/(2g)
  * instead: what a kernel sums (smoothedShape), without a square root and a division per time.
  */
-function saturationShape(fixedP: number | null, isAmplitude = false): ShapeModel {
-  const nn = fixedP === null ? 3 : 2;
-  const buffers = shapeBuffers(nn);
-  const prefixOf = uniformPrefix();
-  let decay = new Float64Array(0);
-  return memoised({
-    nNonlinear: nn,
-    evaluate(t, n, theta, withGrad) {
-      const v = buffers(n);
-      if (decay.length < n) decay = new Float64Array(v.g.length);
-      const s = theta[0];
-      const tc = theta[1];
-      const p = fixedP === null ? Math.exp(theta[2]) : fixedP;
-      const isLandau = p === 2 && fixedP !== null;
-      const ps = p * s;
-      const twoOverP = 2 / p;
-      // Locals for the buffers: the loops below then read no closure variable or property per time.
-      const e0 = decay;
-      const values = v.g;
-      const grad = v.grad;
-      const from = steppedDecay(t, n, prefixOf(t, n), Math.abs(ps), tc, e0);
-      for (let i = from; i < n; i++) e0[i] = Math.exp(-Math.abs(ps * (t[i] - tc)));
-      if (isLandau) {
-        // Stuart–Landau, g = q (or √q): its own loop, with no logarithm or exponential per time.
-        for (let i = 0; i < n; i++) {
-          const dt = t[i] - tc;
-          const e = e0[i];
-          const inv = 1 / (1 + e);
-          const isUpper = ps * dt >= 0;
-          const g = isAmplitude ? Math.sqrt(isUpper ? inv : e * inv) : isUpper ? inv : e * inv;
-          values[i] = g;
-          if (!withGrad) continue;
-          // ∂g/∂s = 2g·(1 − q)·(t − tc), ∂g/∂tc = −2g·(1 − q)·s; those of √g are √g·(1 − q)·(t − tc), −√g·(1 − q)·s.
-          const scale = isAmplitude ? g : 2 * g;
-          const oneMinusQ = isUpper ? e * inv : inv;
-          grad[2 * i] = scale * oneMinusQ * dt;
-          grad[2 * i + 1] = -(scale * oneMinusQ * s);
-        }
-        return v;
-      }
+class SaturationShape implements ShapeModel {
+  readonly nNonlinear: number;
+  private readonly fixedP: number | null;
+  private readonly isAmplitude: boolean;
+  private readonly buffers: ShapeBuffers;
+  private readonly prefix = new UniformPrefix();
+  private decay = new Float64Array(0);
+
+  constructor(fixedP: number | null, isAmplitude: boolean) {
+    this.fixedP = fixedP;
+    this.isAmplitude = isAmplitude;
+    this.nNonlinear = fixedP === null ? 3 : 2;
+    this.buffers = new ShapeBuffers(this.nNonlinear);
+  }
+
+  evaluate(t: Float64Array, n: number, theta: Float64Array, withGrad: boolean): ShapeValues {
+    const { fixedP, isAmplitude, nNonlinear: nn } = this;
+    const v = this.buffers.get(n);
+    if (this.decay.length < n) this.decay = new Float64Array(v.g.length);
+    const s = theta[0];
+    const tc = theta[1];
+    const p = fixedP === null ? Math.exp(theta[2]) : fixedP;
+    const isLandau = p === 2 && fixedP !== null;
+    const ps = p * s;
+    const twoOverP = 2 / p;
+    // Locals for the buffers: the loops below then read no property per time.
+    const e0 = this.decay;
+    const values = v.g;
+    const grad = v.grad;
+    const from = steppedDecay(t, n, this.prefix.of(t, n), Math.abs(ps), tc, e0);
+    for (let i = from; i < n; i++) e0[i] = Math.exp(-Math.abs(ps * (t[i] - tc)));
+    if (isLandau) {
+      // Stuart–Landau, g = q (or √q): its own loop, with no logarithm or exponential per time.
       for (let i = 0; i < n; i++) {
         const dt = t[i] - tc;
-        const z = ps * dt;
         const e = e0[i];
         const inv = 1 / (1 + e);
-        const isUpper = z >= 0;
-        const oneMinusQ = isUpper ? e * inv : inv;
-        // u = (2/p)·ln q.
-        const tail = twoOverP * Math.log1p(e);
-        const u = isUpper ? -tail : 2 * s * dt - tail;
-        const g = Math.exp(isAmplitude ? 0.5 * u : u);
+        const isUpper = ps * dt >= 0;
+        const g = isAmplitude ? Math.sqrt(isUpper ? inv : e * inv) : isUpper ? inv : e * inv;
         values[i] = g;
         if (!withGrad) continue;
-        // ∂g/∂s and ∂g/∂tc as for Stuart–Landau above; ∂g/∂ln p = g·(2·(1 − q)·s·(t − tc) − u), halved for √g.
+        // ∂g/∂s = 2g·(1 − q)·(t − tc), ∂g/∂tc = −2g·(1 − q)·s; those of √g are √g·(1 − q)·(t − tc), −√g·(1 − q)·s.
         const scale = isAmplitude ? g : 2 * g;
-        grad[i * nn] = scale * oneMinusQ * dt;
-        grad[i * nn + 1] = -(scale * oneMinusQ * s);
-        if (fixedP === null) grad[i * nn + 2] = (isAmplitude ? 0.5 * g : g) * (2 * oneMinusQ * s * dt - u);
+        const oneMinusQ = isUpper ? e * inv : inv;
+        grad[2 * i] = scale * oneMinusQ * dt;
+        grad[2 * i + 1] = -(scale * oneMinusQ * s);
       }
       return v;
-    },
-  });
+    }
+    for (let i = 0; i < n; i++) {
+      const dt = t[i] - tc;
+      const z = ps * dt;
+      const e = e0[i];
+      const inv = 1 / (1 + e);
+      const isUpper = z >= 0;
+      const oneMinusQ = isUpper ? e * inv : inv;
+      // u = (2/p)·ln q.
+      const tail = twoOverP * Math.log1p(e);
+      const u = isUpper ? -tail : 2 * s * dt - tail;
+      const g = Math.exp(isAmplitude ? 0.5 * u : u);
+      values[i] = g;
+      if (!withGrad) continue;
+      // ∂g/∂s and ∂g/∂tc as for Stuart–Landau above; ∂g/∂ln p = g·(2·(1 − q)·s·(t − tc) − u), halved for √g.
+      const scale = isAmplitude ? g : 2 * g;
+      grad[i * nn] = scale * oneMinusQ * dt;
+      grad[i * nn + 1] = -(scale * oneMinusQ * s);
+      if (fixedP === null) grad[i * nn + 2] = (isAmplitude ? 0.5 * g : g) * (2 * oneMinusQ * s * dt - u);
+    }
+    return v;
+  }
+}
+
+/** The saturation shape (SaturationShape), with a memory of its last evaluation. */
+function saturationShape(fixedP: number | null, isAmplitude = false): ShapeModel {
+  return memoised(new SaturationShape(fixedP, isAmplitude));
 }
 
 /** Below this a running product of exponentials is taken as 0 (no subnormal arithmetic). */
 const TINY = 1e-300;
 
 /**
- * e^(−rate·|t_i − tc|) for the first m times of `t` (a uniform grid, uniformPrefix) into `out`,
+ * e^(−rate·|t_i − tc|) for the first m times of `t` (a uniform grid, UniformPrefix) into `out`,
  * by running products outward from tc; returns how many it wrote (0 when m < 3 or the inputs are
  * not finite: the caller computes the rest directly).
  */
@@ -153,36 +166,37 @@ export interface EnvelopeKernel {
 /** Most kernel taps the smoothed model evaluates per sample. */
 const MAX_KERNEL_TAPS = 24;
 
-/** A kernel's taps as the smoothed models sum them (h, Σh = 1) and their tap planner: built once per fit and shared by its models, which all read the same series. */
-interface KernelTaps {
-  h: Float64Array;
-  planOf: (t: Float64Array, n: number) => TapPlan;
-}
-
 /**
- * The taps of a kernel. Long kernels are merged into at most MAX_KERNEL_TAPS groups, each at its
- * weighted centre (a midpoint rule: the amplitude is smooth over one group, whose error is second
- * order in its width).
+ * The taps of a kernel as the smoothed models sum them (h, Σh = 1) and their tap planner: built
+ * once per fit and shared by its models, which all read the same series. Long kernels are merged
+ * into at most MAX_KERNEL_TAPS groups, each at its weighted centre (a midpoint rule: the amplitude
+ * is smooth over one group, whose error is second order in its width).
  */
-function kernelTaps(kernel: EnvelopeKernel): KernelTaps {
-  const n = kernel.weights.length;
-  const group = Math.ceil(n / MAX_KERNEL_TAPS);
-  const taps = Math.ceil(n / group);
-  const h = new Float64Array(taps);
-  const offsets = new Float64Array(taps);
-  let sum = 0;
-  for (let k = 0; k < n; k++) sum += kernel.weights[k];
-  for (let j = 0; j < taps; j++) {
-    let w = 0;
-    let wt = 0;
-    for (let k = j * group; k < Math.min(n, (j + 1) * group); k++) {
-      w += kernel.weights[k];
-      wt += kernel.weights[k] * (k - (n - 1) / 2) * kernel.spacingS;
+class KernelTaps {
+  readonly h: Float64Array;
+  readonly planner: TapPlanner;
+
+  constructor(kernel: EnvelopeKernel) {
+    const n = kernel.weights.length;
+    const group = Math.ceil(n / MAX_KERNEL_TAPS);
+    const taps = Math.ceil(n / group);
+    const h = new Float64Array(taps);
+    const offsets = new Float64Array(taps);
+    let sum = 0;
+    for (let k = 0; k < n; k++) sum += kernel.weights[k];
+    for (let j = 0; j < taps; j++) {
+      let w = 0;
+      let wt = 0;
+      for (let k = j * group; k < Math.min(n, (j + 1) * group); k++) {
+        w += kernel.weights[k];
+        wt += kernel.weights[k] * (k - (n - 1) / 2) * kernel.spacingS;
+      }
+      h[j] = w / sum;
+      offsets[j] = w !== 0 ? wt / w : (j * group + (group - 1) / 2 - (n - 1) / 2) * kernel.spacingS;
     }
-    h[j] = w / sum;
-    offsets[j] = w !== 0 ? wt / w : (j * group + (group - 1) / 2 - (n - 1) / 2) * kernel.spacingS;
+    this.h = h;
+    this.planner = new TapPlanner(offsets, group === 1 ? kernel.spacingS : 0);
   }
-  return { h, planOf: tapPlanner(offsets, group === 1 ? kernel.spacingS : 0) };
 }
 
 /**
@@ -191,69 +205,82 @@ function kernelTaps(kernel: EnvelopeKernel): KernelTaps {
  * √L·√g. The amplitude model `root` (√g and ∂√g/∂θ: saturationShape with isAmplitude) is
  * evaluated once at each time the taps need (TapPlan), and each sample sums its taps from there.
  */
-function smoothedShape(root: ShapeModel, kernel: KernelTaps): ShapeModel {
-  const { h, planOf } = kernel;
-  const taps = h.length;
-  // The saturation shapes have two or three nonlinear parameters; the tap loops below sum at most three.
-  const nn = root.nNonlinear;
-  const buffers = shapeBuffers(nn);
-  return memoised({
-    nNonlinear: nn,
-    evaluate(t, count, theta, withGrad) {
-      const plan = planOf(t, count);
-      const at = root.evaluate(plan.times, plan.times.length, theta, withGrad);
-      const r = at.g;
-      const rGrad = at.grad;
-      const v = buffers(count);
-      const values = v.g;
-      const grad = v.grad;
-      const origin = plan.origin;
-      const dir = plan.dir;
-      for (let i = 0; i < count; i++) {
-        const o = origin[i];
-        let amp = 0;
-        if (!withGrad) {
-          for (let k = 0; k < taps; k++) amp += h[k] * r[o + dir * k];
-          values[i] = amp * amp;
-          continue;
-        }
-        // One pass over the taps for the amplitude and its (at most three) derivatives; the loops
-        // for three and for two parameters are written out (no test per tap).
-        let a0 = 0;
-        let a1 = 0;
-        let a2 = 0;
-        if (nn === 3) {
-          for (let k = 0; k < taps; k++) {
-            const m = o + dir * k;
-            const hk = h[k];
-            amp += hk * r[m];
-            a0 += hk * rGrad[3 * m];
-            a1 += hk * rGrad[3 * m + 1];
-            a2 += hk * rGrad[3 * m + 2];
-          }
-        } else if (nn === 2) {
-          for (let k = 0; k < taps; k++) {
-            const m = o + dir * k;
-            const hk = h[k];
-            amp += hk * r[m];
-            a0 += hk * rGrad[2 * m];
-            a1 += hk * rGrad[2 * m + 1];
-          }
-        } else {
-          for (let k = 0; k < taps; k++) {
-            const m = o + dir * k;
-            amp += h[k] * r[m];
-            a0 += h[k] * rGrad[m];
-          }
-        }
+class SmoothedShape implements ShapeModel {
+  readonly nNonlinear: number;
+  private readonly root: ShapeModel;
+  private readonly kernel: KernelTaps;
+  private readonly buffers: ShapeBuffers;
+
+  constructor(root: ShapeModel, kernel: KernelTaps) {
+    this.root = root;
+    this.kernel = kernel;
+    // The saturation shapes have two or three nonlinear parameters; the tap loops below sum at most three.
+    this.nNonlinear = root.nNonlinear;
+    this.buffers = new ShapeBuffers(root.nNonlinear);
+  }
+
+  evaluate(t: Float64Array, count: number, theta: Float64Array, withGrad: boolean): ShapeValues {
+    const nn = this.nNonlinear;
+    const h = this.kernel.h;
+    const taps = h.length;
+    const plan = this.kernel.planner.planOf(t, count);
+    const at = this.root.evaluate(plan.times, plan.times.length, theta, withGrad);
+    const r = at.g;
+    const rGrad = at.grad;
+    const v = this.buffers.get(count);
+    const values = v.g;
+    const grad = v.grad;
+    const origin = plan.origin;
+    const dir = plan.dir;
+    for (let i = 0; i < count; i++) {
+      const o = origin[i];
+      let amp = 0;
+      if (!withGrad) {
+        for (let k = 0; k < taps; k++) amp += h[k] * r[o + dir * k];
         values[i] = amp * amp;
-        grad[i * nn] = 2 * amp * a0;
-        if (nn > 1) grad[i * nn + 1] = 2 * amp * a1;
-        if (nn > 2) grad[i * nn + 2] = 2 * amp * a2;
+        continue;
       }
-      return v;
-    },
-  });
+      // One pass over the taps for the amplitude and its (at most three) derivatives; the loops
+      // for three and for two parameters are written out (no test per tap).
+      let a0 = 0;
+      let a1 = 0;
+      let a2 = 0;
+      if (nn === 3) {
+        for (let k = 0; k < taps; k++) {
+          const m = o + dir * k;
+          const hk = h[k];
+          amp += hk * r[m];
+          a0 += hk * rGrad[3 * m];
+          a1 += hk * rGrad[3 * m + 1];
+          a2 += hk * rGrad[3 * m + 2];
+        }
+      } else if (nn === 2) {
+        for (let k = 0; k < taps; k++) {
+          const m = o + dir * k;
+          const hk = h[k];
+          amp += hk * r[m];
+          a0 += hk * rGrad[2 * m];
+          a1 += hk * rGrad[2 * m + 1];
+        }
+      } else {
+        for (let k = 0; k < taps; k++) {
+          const m = o + dir * k;
+          amp += h[k] * r[m];
+          a0 += h[k] * rGrad[m];
+        }
+      }
+      values[i] = amp * amp;
+      grad[i * nn] = 2 * amp * a0;
+      if (nn > 1) grad[i * nn + 1] = 2 * amp * a1;
+      if (nn > 2) grad[i * nn + 2] = 2 * amp * a2;
+    }
+    return v;
+  }
+}
+
+/** The smoothed shape (SmoothedShape), with a memory of its last evaluation. */
+function smoothedShape(root: ShapeModel, kernel: KernelTaps): ShapeModel {
+  return memoised(new SmoothedShape(root, kernel));
 }
 
 /** The times at which the taps of a series' samples read the amplitude model: tap k of sample i reads times[origin[i] + dir·k]. */
@@ -263,24 +290,58 @@ interface TapPlan {
   dir: 1 | -1;
 }
 
+/** Two tap positions within this fraction of the spacing count as on one grid. */
+const TAP_GRID_TOLERANCE = 1e-6;
+
 /**
- * For kernel taps at `offsets`, a function giving the tap plan of a series of sample times (the
- * plan of the latest series is kept). When the taps lie `spacingS` apart (0: they do not) and
- * every sample time falls on that spacing's grid, the taps share one grid of times: the
- * envelope series are block means of envelope samples on the kernel's own clock, so the inner
- * model is evaluated once per clock tick the series spans instead of once per tap and sample.
- * Otherwise every tap of every sample has its own time t_i − τ_k.
+ * For kernel taps at `offsets`, the tap plan of a series of sample times (the plan of the latest
+ * series is kept). When the taps lie `spacingS` apart (0: they do not) and every sample time falls
+ * on that spacing's grid, the taps share one grid of times: the envelope series are block means
+ * of envelope samples on the kernel's own clock, so the inner model is evaluated once per clock
+ * tick the series spans instead of once per tap and sample. Otherwise every tap of every sample
+ * has its own time t_i − τ_k.
  */
-function tapPlanner(offsets: Float64Array, spacingS: number): (t: Float64Array, n: number) => TapPlan {
-  const taps = offsets.length;
-  let lastT: Float64Array | null = null;
-  let lastN = -1;
-  let last: TapPlan = { times: new Float64Array(0), origin: new Int32Array(0), dir: 1 };
-  const tolerance = 1e-6;
-  let isUniform = spacingS > 0;
-  for (let k = 1; k < taps && isUniform; k++) if (Math.abs((offsets[k] - offsets[0]) / spacingS - k) > tolerance) isUniform = false;
-  const onGrid = (t: Float64Array, n: number): TapPlan | null => {
-    if (!isUniform || n < 2) return null;
+class TapPlanner {
+  private readonly offsets: Float64Array;
+  private readonly spacingS: number;
+  private readonly isUniform: boolean;
+  private lastT: Float64Array | null = null;
+  private lastN = -1;
+  private last: TapPlan = { times: new Float64Array(0), origin: new Int32Array(0), dir: 1 };
+
+  constructor(offsets: Float64Array, spacingS: number) {
+    this.offsets = offsets;
+    this.spacingS = spacingS;
+    let isUniform = spacingS > 0;
+    for (let k = 1; k < offsets.length && isUniform; k++) if (Math.abs((offsets[k] - offsets[0]) / spacingS - k) > TAP_GRID_TOLERANCE) isUniform = false;
+    this.isUniform = isUniform;
+  }
+
+  planOf(t: Float64Array, n: number): TapPlan {
+    if (t === this.lastT && n === this.lastN) return this.last;
+    this.lastT = t;
+    this.lastN = n;
+    const shared = this.onGrid(t, n);
+    if (shared !== null) {
+      this.last = shared;
+      return shared;
+    }
+    const { offsets } = this;
+    const taps = offsets.length;
+    const times = new Float64Array(n * taps);
+    const origin = new Int32Array(n);
+    for (let i = 0; i < n; i++) {
+      origin[i] = i * taps;
+      for (let k = 0; k < taps; k++) times[i * taps + k] = t[i] - offsets[k];
+    }
+    this.last = { times, origin, dir: 1 };
+    return this.last;
+  }
+
+  private onGrid(t: Float64Array, n: number): TapPlan | null {
+    const { offsets, spacingS } = this;
+    const taps = offsets.length;
+    if (!this.isUniform || n < 2) return null;
     // Tap k of a sample at t reads t − τ_k = start + (m + taps − 1 − k)·spacing, m its grid position.
     const start = t[0] - offsets[taps - 1];
     const len = Math.round((t[n - 1] - offsets[0] - start) / spacingS) + 1;
@@ -289,31 +350,13 @@ function tapPlanner(offsets: Float64Array, spacingS: number): (t: Float64Array, 
     for (let i = 0; i < n; i++) {
       const pos = (t[i] - offsets[taps - 1] - start) / spacingS;
       const m = Math.round(pos);
-      if (Math.abs(pos - m) > tolerance || m < 0 || m + taps > len) return null;
+      if (Math.abs(pos - m) > TAP_GRID_TOLERANCE || m < 0 || m + taps > len) return null;
       origin[i] = m + taps - 1;
     }
     const times = new Float64Array(len);
     for (let m = 0; m < len; m++) times[m] = start + m * spacingS;
     return { times, origin, dir: -1 };
-  };
-  return (t, n) => {
-    if (t === lastT && n === lastN) return last;
-    lastT = t;
-    lastN = n;
-    const shared = onGrid(t, n);
-    if (shared !== null) {
-      last = shared;
-      return last;
-    }
-    const times = new Float64Array(n * taps);
-    const origin = new Int32Array(n);
-    for (let i = 0; i < n; i++) {
-      origin[i] = i * taps;
-      for (let k = 0; k < taps; k++) times[i * taps + k] = t[i] - offsets[k];
-    }
-    last = { times, origin, dir: 1 };
-    return last;
-  };
+  }
 }
 
 /**
@@ -406,7 +449,7 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
     }
   }
   // Seen through the kernel when one is given; the grid only seeks the basin, without it (K× cheaper).
-  const taps = kernel === undefined ? null : kernelTaps(kernel);
+  const taps = kernel === undefined ? null : new KernelTaps(kernel);
   const through = (p: number | null): ShapeModel => (taps === null ? saturationShape(p) : smoothedShape(saturationShape(p, true), taps));
   const grid = saturationGrid(d);
   const landau = fitIrls(d, through(2), grid, fixedBg, null, saturationShape(2));
