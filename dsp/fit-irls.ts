@@ -713,6 +713,13 @@ export function covarianceAt(
   return { cov, nFree, dispersion, nEff };
 }
 
+/** Σ e_i·e_{i+lag} over the first n values of e. */
+function lagProduct(e: Float64Array, n: number, lag: number): number {
+  let c = 0;
+  for (let i = 0; i + lag < n; i++) c += e[i] * e[i + lag];
+  return c;
+}
+
 /**
  * Integrated autocorrelation time (samples) of the standardised residuals (y − m)·√w: Geyer's
  * initial positive sequence estimator, τ = −1 + 2·Σ_{m=0}^{M} (ρ_{2m} + ρ_{2m+1}) summed while
@@ -734,15 +741,10 @@ function residualCorrelationTime(d: Prepared, model: ShapeModel, params: Float64
     c0 += e[i] * e[i];
   }
   if (!(c0 > 0)) return 1;
-  const lagOf = (lag: number): number => {
-    let c = 0;
-    for (let i = 0; i + lag < n; i++) c += e[i] * e[i + lag];
-    return c / c0;
-  };
   let tau = -1;
   const maxLag = Math.floor(n / 4);
   for (let m = 0; 2 * m + 1 <= maxLag; m++) {
-    const pair = (m === 0 ? 1 : lagOf(2 * m)) + lagOf(2 * m + 1);
+    const pair = (m === 0 ? 1 : lagProduct(e, n, 2 * m) / c0) + lagProduct(e, n, 2 * m + 1) / c0;
     if (!(pair > 0)) break;
     tau += 2 * pair;
   }
