@@ -505,8 +505,13 @@ function gridSearch(
   fixedBg: number | null,
 ): FitState | null {
   const k = model.nNonlinear;
-  const counts = grid.values.map((v) => v.length);
-  if (counts.some((c) => c === 0)) return null;
+  // The whole grid, then the box within GRID_COARSE − 1 steps of its best point.
+  const lo = new Int32Array(k);
+  const hi = new Int32Array(k);
+  for (let j = 0; j < k; j++) {
+    if (grid.values[j].length === 0) return null;
+    hi[j] = grid.values[j].length - 1;
+  }
   const scan: GridScan = {
     d,
     w,
@@ -522,11 +527,13 @@ function gridSearch(
     bestBg: 0,
     bestAt: new Int32Array(k),
   };
-  searchBox(scan, new Int32Array(k), Int32Array.from(counts, (c) => c - 1), GRID_COARSE);
+  searchBox(scan, lo, hi, GRID_COARSE);
   if (scan.bestRss === Number.POSITIVE_INFINITY) return null;
   const { bestAt } = scan;
-  const lo = Int32Array.from(bestAt, (b) => Math.max(0, b - GRID_COARSE + 1));
-  const hi = Int32Array.from(bestAt, (b, j) => Math.min(counts[j] - 1, b + GRID_COARSE - 1));
+  for (let j = 0; j < k; j++) {
+    lo[j] = Math.max(0, bestAt[j] - GRID_COARSE + 1);
+    hi[j] = Math.min(grid.values[j].length - 1, bestAt[j] + GRID_COARSE - 1);
+  }
   searchBox(scan, lo, hi, 1);
   const params = new Float64Array(k + 2);
   params[0] = Math.log(scan.bestAmp);
