@@ -104,17 +104,18 @@ function dataSums(d: Prepared, w: Float64Array): DataSums {
   let sw = 0;
   let sy = 0;
   let swyy = 0;
-  for (let i = 0; i < d.n; i++) {
+  const { n, y } = d;
+  for (let i = 0; i < n; i++) {
     sw += w[i];
-    sy += w[i] * d.y[i];
-    swyy += w[i] * d.y[i] * d.y[i];
+    sy += w[i] * y[i];
+    swyy += w[i] * y[i] * y[i];
   }
   return { sw, sy, swyy };
 }
 
 /**
  * For fixed nonlinear parameters: weighted linear fit of y ≈ L·g + N² with L > 0, N² ≥ 0 (or N²
- * fixed). Writes ln L and N² into `out`; returns the weighted RSS (Infinity if L ≤ 0), expanded
+ * fixed). Writes L and N² into `out` (the grid takes the logarithm of the best L only); returns the weighted RSS (Infinity if L ≤ 0), expanded
  * from the same sums (Σwy² − 2LΣwgy − 2N²Σwy + L²Σwg² + 2LN²Σwg + N⁴Σw, one pass over the data
  * for the sums with g; the others are the caller's, `data`). The expansion loses the digits the
  * RSS has below Σwy²·1e-16, which does not matter to the grid it ranks (the polish that follows
@@ -126,14 +127,14 @@ function solveLinear(
   g: Float64Array,
   fixedBg: number | null,
   data: DataSums,
-  out: { lnL: number; bg: number },
+  out: { amp: number; bg: number },
 ): number {
   const { sw, sy, swyy } = data;
   let sg = 0;
   let sgg = 0;
   let sgy = 0;
-  const y = d.y;
-  for (let i = 0; i < d.n; i++) {
+  const { n, y } = d;
+  for (let i = 0; i < n; i++) {
     const wg = w[i] * g[i];
     sg += wg;
     sgg += wg * g[i];
@@ -155,7 +156,7 @@ function solveLinear(
   }
   if (!(amp > 0) || !Number.isFinite(amp)) return Number.POSITIVE_INFINITY;
   const rss = swyy - 2 * amp * sgy - 2 * bg * sy + amp * amp * sgg + 2 * amp * bg * sg + bg * bg * sw;
-  out.lnL = Math.log(amp);
+  out.amp = amp;
   out.bg = bg;
   return Math.max(0, rss);
 }
@@ -171,10 +172,11 @@ export function rssOf(d: Prepared, w: Float64Array, model: ShapeModel, params: F
   const k = model.nNonlinear;
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
-  const g = model.evaluate(d.t, d.n, nonlinearOf(d, params, k), false).g;
+  const { n, y } = d;
+  const g = model.evaluate(d.t, n, nonlinearOf(d, params, k), false).g;
   let rss = 0;
-  for (let i = 0; i < d.n; i++) {
-    const r = d.y[i] - amp * g[i] - bg;
+  for (let i = 0; i < n; i++) {
+    const r = y[i] - amp * g[i] - bg;
     rss += w[i] * r * r;
   }
   return Number.isFinite(rss) ? rss : Number.POSITIVE_INFINITY;
@@ -200,8 +202,9 @@ function normalEquations(
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
   const v = model.evaluate(d.t, d.n, nonlinearOf(d, params, k), true);
+  const g = v.g;
   const grad = v.grad;
-  const y = d.y;
+  const { n, y } = d;
   const bgColumn = nFree === k + 2 ? 1 : 0;
   let s00 = 0, s10 = 0, s11 = 0, s20 = 0, s21 = 0, s22 = 0, s30 = 0, s31 = 0, s32 = 0, s33 = 0;
   let s40 = 0, s41 = 0, s42 = 0, s43 = 0, s44 = 0, r0 = 0, r1 = 0, r2 = 0, r3 = 0, r4 = 0;
@@ -209,9 +212,9 @@ function normalEquations(
   // The common cases (background fixed; one to three nonlinear parameters) sum only the products
   // they have: the same sums in the same order as the general loop, without its zero columns.
   if (bgColumn === 0 && k === 1) {
-    for (let i = 0; i < d.n; i++) {
+    for (let i = 0; i < n; i++) {
       const wi = w[i];
-      const x0 = amp * v.g[i];
+      const x0 = amp * g[i];
       const x1 = amp * grad[i];
       const r = y[i] - x0 - bg;
       rss += wi * r * r;
@@ -224,9 +227,9 @@ function normalEquations(
       s11 += w1 * x1;
     }
   } else if (bgColumn === 0 && k === 2) {
-    for (let i = 0; i < d.n; i++) {
+    for (let i = 0; i < n; i++) {
       const wi = w[i];
-      const x0 = amp * v.g[i];
+      const x0 = amp * g[i];
       const x1 = amp * grad[2 * i];
       const x2 = amp * grad[2 * i + 1];
       const r = y[i] - x0 - bg;
@@ -245,9 +248,9 @@ function normalEquations(
       s22 += w2 * x2;
     }
   } else if (bgColumn === 0 && k === 3) {
-    for (let i = 0; i < d.n; i++) {
+    for (let i = 0; i < n; i++) {
       const wi = w[i];
-      const x0 = amp * v.g[i];
+      const x0 = amp * g[i];
       const x1 = amp * grad[3 * i];
       const x2 = amp * grad[3 * i + 1];
       const x3 = amp * grad[3 * i + 2];
@@ -272,9 +275,9 @@ function normalEquations(
       s32 += w3 * x2;
       s33 += w3 * x3;
     }
-  } else for (let i = 0; i < d.n; i++) {
+  } else for (let i = 0; i < n; i++) {
     const wi = w[i];
-    const x0 = amp * v.g[i];
+    const x0 = amp * g[i];
     const x1 = amp * grad[i * k];
     const x2 = k > 1 ? amp * grad[i * k + 1] : 0;
     const x3 = k > 2 ? amp * grad[i * k + 2] : 0;
@@ -455,6 +458,44 @@ export interface GridSpec {
  */
 const GRID_COARSE = 3;
 
+/** A grid search under way: its series, model and grid, and the best point so far (its grid position, linear parameters and RSS). */
+interface GridScan {
+  d: Prepared;
+  w: Float64Array;
+  model: ShapeModel;
+  values: Float64Array[];
+  fixedBg: number | null;
+  data: DataSums;
+  theta: Float64Array;
+  at: Int32Array;
+  lin: { amp: number; bg: number };
+  bestRss: number;
+  bestAmp: number;
+  bestBg: number;
+  bestAt: Int32Array;
+}
+
+/** Every point of the box lo..hi (inclusive) taking every step-th value of each parameter. */
+function searchBox(scan: GridScan, lo: Int32Array, hi: Int32Array, step: number): void {
+  const { d, w, model, values, fixedBg, data, theta, at, lin } = scan;
+  const k = model.nNonlinear;
+  at.set(lo);
+  for (;;) {
+    for (let j = 0; j < k; j++) theta[j] = values[j][at[j]];
+    const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, data, lin);
+    if (rss < scan.bestRss) {
+      scan.bestRss = rss;
+      scan.bestAmp = lin.amp;
+      scan.bestBg = lin.bg;
+      scan.bestAt.set(at);
+    }
+    let j = 0;
+    while (j < k && at[j] + step > hi[j]) at[j] = lo[j++];
+    if (j === k) return;
+    at[j] += step;
+  }
+}
+
 /** Grid over the nonlinear parameters (coarse, then refined: GRID_COARSE) with the linear ones in closed form. */
 function gridSearch(
   d: Prepared,
@@ -464,45 +505,41 @@ function gridSearch(
   fixedBg: number | null,
 ): FitState | null {
   const k = model.nNonlinear;
-  const theta = new Float64Array(k);
-  const lin = { lnL: 0, bg: 0 };
-  // The best point so far: its grid position, linear parameters and RSS (the state is built once, at the end).
-  let bestRss = Number.POSITIVE_INFINITY;
-  let bestLnL = 0;
-  let bestBg = 0;
-  const counts = grid.values.map((v) => v.length);
-  const bestAt = new Int32Array(k);
-  const at = new Int32Array(k);
-  const data = dataSums(d, w);
-  // Every point of the box lo..hi (inclusive) taking every step-th value of each parameter.
-  const searchBox = (lo: Int32Array, hi: Int32Array, step: number): void => {
-    at.set(lo);
-    for (;;) {
-      for (let j = 0; j < k; j++) theta[j] = grid.values[j][at[j]];
-      const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, data, lin);
-      if (rss < bestRss) {
-        bestRss = rss;
-        bestLnL = lin.lnL;
-        bestBg = lin.bg;
-        bestAt.set(at);
-      }
-      let j = 0;
-      while (j < k && at[j] + step > hi[j]) at[j] = lo[j++];
-      if (j === k) return;
-      at[j] += step;
-    }
+  // The whole grid, then the box within GRID_COARSE − 1 steps of its best point.
+  const lo = new Int32Array(k);
+  const hi = new Int32Array(k);
+  for (let j = 0; j < k; j++) {
+    if (grid.values[j].length === 0) return null;
+    hi[j] = grid.values[j].length - 1;
+  }
+  const scan: GridScan = {
+    d,
+    w,
+    model,
+    values: grid.values,
+    fixedBg,
+    data: dataSums(d, w),
+    theta: new Float64Array(k),
+    at: new Int32Array(k),
+    lin: { amp: 0, bg: 0 },
+    bestRss: Number.POSITIVE_INFINITY,
+    bestAmp: 0,
+    bestBg: 0,
+    bestAt: new Int32Array(k),
   };
-  if (counts.some((c) => c === 0)) return null;
-  searchBox(new Int32Array(k), Int32Array.from(counts, (c) => c - 1), GRID_COARSE);
-  if (bestRss === Number.POSITIVE_INFINITY) return null;
-  const lo = Int32Array.from(bestAt, (b) => Math.max(0, b - GRID_COARSE + 1));
-  const hi = Int32Array.from(bestAt, (b, j) => Math.min(counts[j] - 1, b + GRID_COARSE - 1));
-  searchBox(lo, hi, 1);
+  searchBox(scan, lo, hi, GRID_COARSE);
+  if (scan.bestRss === Number.POSITIVE_INFINITY) return null;
+  const { bestAt } = scan;
+  for (let j = 0; j < k; j++) {
+    lo[j] = Math.max(0, bestAt[j] - GRID_COARSE + 1);
+    hi[j] = Math.min(grid.values[j].length - 1, bestAt[j] + GRID_COARSE - 1);
+  }
+  searchBox(scan, lo, hi, 1);
   const params = new Float64Array(k + 2);
-  params[0] = bestLnL;
+  params[0] = Math.log(scan.bestAmp);
   for (let j = 0; j < k; j++) params[1 + j] = grid.values[j][bestAt[j]];
-  params[k + 1] = bestBg;
-  return { params, isBackgroundFixed: fixedBg !== null, rss: bestRss };
+  params[k + 1] = scan.bestBg;
+  return { params, isBackgroundFixed: fixedBg !== null, rss: scan.bestRss };
 }
 
 /** Most samples the grid search looks at; longer series are block-averaged for it. */
@@ -530,6 +567,7 @@ export const START_MAX_SAMPLES = 80;
 
 /** A block-averaged copy of a series (at most maxSamples blocks: mean time, mean power, summed weight). */
 export function blockMeans(d: Prepared, w: Float64Array, maxSamples: number): { d: Prepared; w: Float64Array } {
+  const { t: t0, y: y0 } = d;
   const block = Math.ceil(d.n / maxSamples);
   const m = Math.ceil(d.n / block);
   const t = new Float64Array(m);
@@ -542,8 +580,8 @@ export function blockMeans(d: Prepared, w: Float64Array, maxSamples: number): { 
     let sy = 0;
     let sw = 0;
     for (let i = i0; i < i1; i++) {
-      st += d.t[i];
-      sy += d.y[i];
+      st += t0[i];
+      sy += y0[i];
       sw += w[i];
     }
     t[j] = st / (i1 - i0);
@@ -558,13 +596,14 @@ function updateWeights(d: Prepared, model: ShapeModel, state: FitState, w: Float
   const k = model.nNonlinear;
   const amp = Math.exp(state.params[0]);
   const bg = state.params[k + 1];
-  const g = model.evaluate(d.t, d.n, nonlinearOf(d, state.params, k), false).g;
-  for (let i = 0; i < d.n; i++) w[i] = 1 / varianceOf(amp * g[i] + bg, bg, bgFloor);
+  const n = d.n;
+  const g = model.evaluate(d.t, n, nonlinearOf(d, state.params, k), false).g;
+  for (let i = 0; i < n; i++) w[i] = 1 / varianceOf(amp * g[i] + bg, bg, bgFloor);
   // Normalise so that RSS values stay of order n (the scale of w is irrelevant to the estimates).
   let mean = 0;
-  for (let i = 0; i < d.n; i++) mean += w[i];
-  mean /= d.n;
-  for (let i = 0; i < d.n; i++) w[i] /= mean;
+  for (let i = 0; i < n; i++) mean += w[i];
+  mean /= n;
+  for (let i = 0; i < n; i++) w[i] /= mean;
 }
 
 export interface IrlsResult {
@@ -594,23 +633,24 @@ export function fitIrls(
   start: FitState | null,
   gridModel: ShapeModel = model,
 ): IrlsResult | null {
+  const { n, y } = d;
   let maxY = 0;
-  for (let i = 0; i < d.n; i++) maxY = Math.max(maxY, d.y[i]);
+  for (let i = 0; i < n; i++) maxY = Math.max(maxY, y[i]);
   // Numerical guard only: keeps V(m) > 0 for a record with no noise at all.
   const bgFloor = 1e-12 * maxY;
-  const w = new Float64Array(d.n);
+  const w = new Float64Array(n);
   // First pass: weights of a constant relative error, 1/y² smoothed (the log-fit weighting), then IRLS.
-  for (let i = 0; i < d.n; i++) {
+  for (let i = 0; i < n; i++) {
     const lo = Math.max(0, i - 2);
-    const hi = Math.min(d.n - 1, i + 2);
+    const hi = Math.min(n - 1, i + 2);
     let s = 0;
-    for (let j = lo; j <= hi; j++) s += d.y[j];
+    for (let j = lo; j <= hi; j++) s += y[j];
     const ym = Math.max(s / (hi - lo + 1), 1e-9 * maxY, 1e-300);
     w[i] = 1 / (ym * ym);
   }
   let mean = 0;
-  for (let i = 0; i < d.n; i++) mean += w[i];
-  for (let i = 0; i < d.n; i++) w[i] /= mean / d.n;
+  for (let i = 0; i < n; i++) mean += w[i];
+  for (let i = 0; i < n; i++) w[i] /= mean / n;
   let state = start ?? gridSearchThinned(d, w, gridModel, grid, fixedBg);
   if (state === null) return null;
   if (fixedBg !== null) state.params[model.nNonlinear + 1] = fixedBg;
@@ -680,6 +720,13 @@ export function covarianceAt(
   return { cov, nFree, dispersion, nEff };
 }
 
+/** Σ e_i·e_{i+lag} over the first n values of e. */
+function lagProduct(e: Float64Array, n: number, lag: number): number {
+  let c = 0;
+  for (let i = 0; i + lag < n; i++) c += e[i] * e[i + lag];
+  return c;
+}
+
 /**
  * Integrated autocorrelation time (samples) of the standardised residuals (y − m)·√w: Geyer's
  * initial positive sequence estimator, τ = −1 + 2·Σ_{m=0}^{M} (ρ_{2m} + ρ_{2m+1}) summed while
@@ -692,23 +739,19 @@ function residualCorrelationTime(d: Prepared, model: ShapeModel, params: Float64
   const k = model.nNonlinear;
   const amp = Math.exp(params[0]);
   const bg = params[k + 1];
-  const g = model.evaluate(d.t, d.n, nonlinearOf(d, params, k), false).g;
-  const e = new Float64Array(d.n);
+  const { n, y } = d;
+  const g = model.evaluate(d.t, n, nonlinearOf(d, params, k), false).g;
+  const e = new Float64Array(n);
   let c0 = 0;
-  for (let i = 0; i < d.n; i++) {
-    e[i] = (d.y[i] - amp * g[i] - bg) * Math.sqrt(w[i]);
+  for (let i = 0; i < n; i++) {
+    e[i] = (y[i] - amp * g[i] - bg) * Math.sqrt(w[i]);
     c0 += e[i] * e[i];
   }
   if (!(c0 > 0)) return 1;
-  const lagOf = (lag: number): number => {
-    let c = 0;
-    for (let i = 0; i + lag < d.n; i++) c += e[i] * e[i + lag];
-    return c / c0;
-  };
   let tau = -1;
-  const maxLag = Math.floor(d.n / 4);
+  const maxLag = Math.floor(n / 4);
   for (let m = 0; 2 * m + 1 <= maxLag; m++) {
-    const pair = (m === 0 ? 1 : lagOf(2 * m)) + lagOf(2 * m + 1);
+    const pair = (m === 0 ? 1 : lagProduct(e, n, 2 * m) / c0) + lagProduct(e, n, 2 * m + 1) / c0;
     if (!(pair > 0)) break;
     tau += 2 * pair;
   }

@@ -25,16 +25,33 @@ export interface ShapeValues {
   grad: Float64Array;
 }
 
+/*
+ * The models and these helpers are classes, so each kind of evaluation is one function that the
+ * engine optimises with the calls it makes inlined. As closures made per model (a fit makes
+ * several models, a record hundreds of fits) every model called its own copies of the helpers,
+ * calls the engine could not inline. Measured on the bench's fits of a 10-minute record of 50
+ * cycles, replayed: 9 % less time for the saturation fits, 12 % for the exponential ones;
+ * identical results.
+ */
+
 /** Output buffers of a model's evaluations, grown to the longest series seen. */
-export function shapeBuffers(nNonlinear: number): (n: number) => ShapeValues {
-  const values: ShapeValues = { g: new Float64Array(0), grad: new Float64Array(0) };
-  return (n) => {
+export class ShapeBuffers {
+  private values: ShapeValues = { g: new Float64Array(0), grad: new Float64Array(0) };
+  private readonly nNonlinear: number;
+
+  constructor(nNonlinear: number) {
+    this.nNonlinear = nNonlinear;
+  }
+
+  /** The buffers, at least n long. */
+  get(n: number): ShapeValues {
+    const values = this.values;
     if (values.g.length < n) {
       values.g = new Float64Array(n);
-      values.grad = new Float64Array(n * nNonlinear);
+      values.grad = new Float64Array(n * this.nNonlinear);
     }
     return values;
-  };
+  }
 }
 
 /**
@@ -43,46 +60,60 @@ export function shapeBuffers(nNonlinear: number): (n: number) => ShapeValues {
  * parameters the polish ended on, the next polish starts there, and the covariance reads the same
  * point twice. The buffers are valid until the next evaluation anyway, so nothing else changes.
  */
+class Memoised implements ShapeModel {
+  readonly nNonlinear: number;
+  private readonly model: ShapeModel;
+  private readonly lastTheta: Float64Array;
+  private lastT: Float64Array | null = null;
+  private lastN = -1;
+  private hasGrad = false;
+  private last: ShapeValues | null = null;
+
+  constructor(model: ShapeModel) {
+    this.model = model;
+    this.nNonlinear = model.nNonlinear;
+    this.lastTheta = new Float64Array(model.nNonlinear);
+  }
+
+  evaluate(t: Float64Array, n: number, theta: Float64Array, withGrad: boolean): ShapeValues {
+    const k = this.nNonlinear;
+    const lastTheta = this.lastTheta;
+    if (this.last !== null && t === this.lastT && n === this.lastN && (this.hasGrad || !withGrad)) {
+      let isSame = true;
+      for (let j = 0; j < k && isSame; j++) isSame = theta[j] === lastTheta[j];
+      if (isSame) return this.last;
+    }
+    const last = this.model.evaluate(t, n, theta, withGrad);
+    this.last = last;
+    this.lastT = t;
+    this.lastN = n;
+    this.hasGrad = withGrad;
+    for (let j = 0; j < k; j++) lastTheta[j] = theta[j];
+    return last;
+  }
+}
+
+/** The model with a memory of its last evaluation (Memoised). */
 export function memoised(model: ShapeModel): ShapeModel {
-  const k = model.nNonlinear;
-  const lastTheta = new Float64Array(k);
-  let lastT: Float64Array | null = null;
-  let lastN = -1;
-  let hasGrad = false;
-  let last: ShapeValues | null = null;
-  return {
-    nNonlinear: k,
-    evaluate(t, n, theta, withGrad) {
-      if (last !== null && t === lastT && n === lastN && (hasGrad || !withGrad)) {
-        let isSame = true;
-        for (let j = 0; j < k && isSame; j++) isSame = theta[j] === lastTheta[j];
-        if (isSame) return last;
-      }
-      last = model.evaluate(t, n, theta, withGrad);
-      lastT = t;
-      lastN = n;
-      hasGrad = withGrad;
-      for (let j = 0; j < k; j++) lastTheta[j] = theta[j];
-      return last;
-    },
-  };
+  return new Memoised(model);
 }
 
 /**
  * How many leading times of `t` lie on one uniform grid t_0 + i·Δ, Δ = (t_{m−1} − t_0)/(m − 1)
  * for the returned m (to 1e-9 of Δ; the envelope's sample clock, or block means of it, whose last
- * block may be shorter). A function of the latest series it was asked about: the same arrays come
+ * block may be shorter). Remembers the latest series it was asked about: the same arrays come
  * back for every evaluation of a fit.
  */
-export function uniformPrefix(): (t: Float64Array, n: number) => number {
-  let lastT: Float64Array | null = null;
-  let lastN = -1;
-  let last = 0;
-  return (t, n) => {
-    if (t === lastT && n === lastN) return last;
-    lastT = t;
-    lastN = n;
-    last = Math.min(n, 2);
+export class UniformPrefix {
+  private lastT: Float64Array | null = null;
+  private lastN = -1;
+  private last = 0;
+
+  of(t: Float64Array, n: number): number {
+    if (t === this.lastT && n === this.lastN) return this.last;
+    this.lastT = t;
+    this.lastN = n;
+    let last = Math.min(n, 2);
     for (let m = n; m > 2; m--) {
       const step = (t[m - 1] - t[0]) / (m - 1);
       let isUniform = step > 0;
@@ -94,8 +125,9 @@ export function uniformPrefix(): (t: Float64Array, n: number) => number {
       // Only a shorter last block can break the grid: try without the last time, then give up.
       if (m < n) break;
     }
+    this.last = last;
     return last;
-  };
+  }
 }
 
 /**

@@ -54,7 +54,7 @@
  * reason; the remedy is an envelope bandwidth of at least the growth rate in hertz.
  */
 import { fitIrls, prepare, type GridSpec } from './fit-irls';
-import { memoised, RESTART_STEPS, shapeBuffers, uniformPrefix, type ShapeModel } from './fit-shape';
+import { memoised, RESTART_STEPS, ShapeBuffers, UniformPrefix, type ShapeModel, type ShapeValues } from './fit-shape';
 import { studentTQuantile } from './stats';
 import type { EnvelopeSeries, Interval, RateFit, SaturationFit } from './types';
 
@@ -67,37 +67,51 @@ const MAX_STEPPED_EXPONENT = 600;
  * g = exp(2 s (t − tm)); θ = [s]. On a uniform grid of times g_i = g_0·r^i with r = exp(2 s Δ):
  * one exponential per RESTART_STEPS samples instead of one per sample.
  */
-function exponentialShape(tm: number): ShapeModel {
-  const buffers = shapeBuffers(1);
-  const prefixOf = uniformPrefix();
-  return memoised({
-    nNonlinear: 1,
-    evaluate(t, n, theta, withGrad) {
-      const v = buffers(n);
-      const s2 = 2 * theta[0];
-      let from = 0;
-      const m = prefixOf(t, n);
-      if (m > 2 && Math.max(Math.abs(s2 * (t[0] - tm)), Math.abs(s2 * (t[m - 1] - tm))) < MAX_STEPPED_EXPONENT) {
-        const ratio = Math.exp((s2 * (t[m - 1] - t[0])) / (m - 1));
-        // Blocks of RESTART_STEPS samples, each opened by an exact exponential.
-        for (let i0 = 0; i0 < m; i0 += RESTART_STEPS) {
-          let g = Math.exp(s2 * (t[i0] - tm));
-          v.g[i0] = g;
-          const i1 = Math.min(m, i0 + RESTART_STEPS);
-          for (let i = i0 + 1; i < i1; i++) {
-            g *= ratio;
-            v.g[i] = g;
-          }
+class ExponentialShape implements ShapeModel {
+  readonly nNonlinear = 1;
+  private readonly tm: number;
+  private readonly buffers = new ShapeBuffers(1);
+  private readonly prefix = new UniformPrefix();
+
+  constructor(tm: number) {
+    this.tm = tm;
+  }
+
+  evaluate(t: Float64Array, n: number, theta: Float64Array, withGrad: boolean): ShapeValues {
+    const tm = this.tm;
+    const v = this.buffers.get(n);
+    // Locals for the buffers: the loops below then read no property per time.
+    const values = v.g;
+    const s2 = 2 * theta[0];
+    let from = 0;
+    const m = this.prefix.of(t, n);
+    if (m > 2 && Math.max(Math.abs(s2 * (t[0] - tm)), Math.abs(s2 * (t[m - 1] - tm))) < MAX_STEPPED_EXPONENT) {
+      const ratio = Math.exp((s2 * (t[m - 1] - t[0])) / (m - 1));
+      // Blocks of RESTART_STEPS samples, each opened by an exact exponential.
+      for (let i0 = 0; i0 < m; i0 += RESTART_STEPS) {
+        let g = Math.exp(s2 * (t[i0] - tm));
+        values[i0] = g;
+        const i1 = Math.min(m, i0 + RESTART_STEPS);
+        for (let i = i0 + 1; i < i1; i++) {
+          g *= ratio;
+          values[i] = g;
         }
-        from = m;
       }
-      for (let i = from; i < n; i++) v.g[i] = Math.exp(s2 * (t[i] - tm));
-      if (withGrad) for (let i = 0; i < n; i++) v.grad[i] = 2 * (t[i] - tm) * v.g[i];
-      return v;
-    },
-  });
+      from = m;
+    }
+    for (let i = from; i < n; i++) values[i] = Math.exp(s2 * (t[i] - tm));
+    if (withGrad) {
+      const grad = v.grad;
+      for (let i = 0; i < n; i++) grad[i] = 2 * (t[i] - tm) * values[i];
+    }
+    return v;
+  }
 }
 
+/** The exponential shape about tm, with a memory of its last evaluation. */
+function exponentialShape(tm: number): ShapeModel {
+  return memoised(new ExponentialShape(tm));
+}
 
 export function invalidRateFit(reason: string, refTimeS: number, nEffective: number): RateFit {
   return {

@@ -62,15 +62,30 @@ export function isNoiseSegment(tr: ToneRuntime, s: RegimeSegment, limit: number)
   return !(top > 10 ** (ON_DB / 10) * noiseMean);
 }
 
-/** Growth and decay segments of noise become quiet (isNoiseSegment), and neighbouring quiet segments join. */
-export function relabelNoiseSegments(tr: ToneRuntime): void {
+/**
+ * Segments that the noise test found to hold a tone, with the store span [startIdx, endIdx) it
+ * read: the test depends on nothing else while the record stands still, so a later relabelling
+ * tests again only the segments that are new or have moved (finish() relabels before and after
+ * the transitions are classified, which moves a few segments and leaves the rest).
+ */
+export type ClearedSegments = Map<RegimeSegment, [startIdx: number, endIdx: number]>;
+
+/**
+ * Growth and decay segments of noise become quiet (isNoiseSegment), and neighbouring quiet
+ * segments join. `cleared`, when given, is read and extended (ClearedSegments; the store must not
+ * have grown since it was first filled); returns it.
+ */
+export function relabelNoiseSegments(tr: ToneRuntime, cleared: ClearedSegments = new Map()): ClearedSegments {
   const segs = tr.regime.segments;
   for (const s of segs) {
-    if ((s.state === STATE_GROWTH || s.state === STATE_DECAY) && isNoiseSegment(tr, s, tr.processed)) {
+    if (s.state !== STATE_GROWTH && s.state !== STATE_DECAY) continue;
+    const span = cleared.get(s);
+    if (span !== undefined && span[0] === s.startIdx && span[1] === s.endIdx) continue;
+    if (isNoiseSegment(tr, s, tr.processed)) {
       s.state = STATE_QUIET;
       s.isOnset = false;
       s.reachedSteady = false;
-    }
+    } else cleared.set(s, [s.startIdx, s.endIdx]);
   }
   let w = 0;
   for (let r = 0; r < segs.length; r++) {
@@ -82,4 +97,5 @@ export function relabelNoiseSegments(tr: ToneRuntime): void {
     segs[w++] = s;
   }
   segs.length = w;
+  return cleared;
 }

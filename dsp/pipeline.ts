@@ -298,10 +298,10 @@ function finish(ps: PipelineState): Report {
   closeSteady(ps, ps.tb.j);
   const all = [...tones.retired, ...tones.alive.filter((t) => t.regime.segments.length > 0)];
   for (const tr of all) {
-    relabelNoiseSegments(tr);
+    const cleared = relabelNoiseSegments(tr);
     classifyTransitions(tr);
-    // A ring-down now starts at its step: the noise test again, on the segment as it stands.
-    relabelNoiseSegments(tr);
+    // A ring-down now starts at its step: the noise test again, on the segments that moved.
+    relabelNoiseSegments(tr, cleared);
   }
   // A line that never rises above the input format's quantisation error may be a product of quantising a strong tone.
   const floorPower = ps.cfg.sampleBits > 0 ? 10 ** (quantisationFloorDbfs(ps.cfg.sampleBits) / 10) : 0;

@@ -8,7 +8,7 @@ import { backgroundCrossingTimeS, effectiveSampleCount, fitExponential } from '.
 import { fitGrowthIntoLimit } from './fit-saturation';
 import { Z_975 } from './stats';
 import { decayStartNearMarker, MARKER_SEARCH_S } from './kink';
-import { addLinePoint, createLineSums, lineSxx, lineSxy, resetLineSums } from './line-fit';
+import { addLinePoint, createLineSums, lineSxx, lineSxy, resetLineSums, type LineSums } from './line-fit';
 import { ON_DB, regimeKind, STATE_DECAY, STATE_GROWTH, STATE_QUIET, STATE_STEADY, type RegimeSegment } from './regime';
 import { buildSeries, contiguousEnd, contiguousStart, meanBg, meanPower, topPowerIn, type ToneRuntime } from './tone-store';
 import { medianFrequencyHz } from './track';
@@ -87,35 +87,24 @@ export function segmentFrequency(tr: ToneRuntime, s: RegimeSegment): number {
  * [i0, i1)), Hz; NaN when no piece of PHASE_MIN_SAMPLES usable samples exists.
  */
 export function phaseFrequency(tr: ToneRuntime, i0: number, i1: number, kEnd = i1): number {
-  let sumW = 0;
-  let sumWF = 0;
+  const pieces: PhasePieces = { sumW: 0, sumWF: 0 };
   const line = createLineSums();
   let unwrapped = 0;
   let prev = 0;
   let demod = 0;
-  const close = (): void => {
-    if (line.n >= PHASE_MIN_SAMPLES) {
-      const sxx = lineSxx(line);
-      if (sxx > 0) {
-        const slope = lineSxy(line) / sxx;
-        sumW += sxx;
-        sumWF += sxx * (demod + slope / (2 * Math.PI));
-      }
-    }
-    resetLineSums(line);
-  };
   // Only where the tone dominates: within 20 dB of its strongest sample (early in a growth the
   // band may hold other sound, e.g. a noise-driven resonance, with its own phase).
   const maxP = topPowerIn(tr, i0, i1);
+  const { power, clipped, bg, demodHz, phase, timeS } = tr;
   for (let k = Math.max(i0, tr.validFrom); k < kEnd; k++) {
-    const w = tr.power[k];
-    const usable = !tr.clipped[k] && w > PHASE_MIN_OVER_BG * tr.bg[k] && w >= PHASE_MIN_OF_PEAK * maxP;
-    if (!usable || (line.n > 0 && tr.demodHz[k] !== demod)) close();
+    const w = power[k];
+    const usable = !clipped[k] && w > PHASE_MIN_OVER_BG * bg[k] && w >= PHASE_MIN_OF_PEAK * maxP;
+    if (!usable || (line.n > 0 && demodHz[k] !== demod)) closePiece(line, demod, pieces);
     if (!usable) continue;
-    const th = tr.phase[k];
+    const th = phase[k];
     if (line.n === 0) {
       unwrapped = th;
-      demod = tr.demodHz[k];
+      demod = demodHz[k];
     } else {
       let d = th - prev;
       if (d > Math.PI) d -= 2 * Math.PI;
@@ -124,10 +113,29 @@ export function phaseFrequency(tr: ToneRuntime, i0: number, i1: number, kEnd = i
     }
     prev = th;
     // Times relative to the window start keep the sums well conditioned.
-    addLinePoint(line, tr.timeS[k] - tr.timeS[i0], unwrapped, w);
+    addLinePoint(line, timeS[k] - timeS[i0], unwrapped, w);
   }
-  close();
-  return sumW > 0 ? sumWF / sumW : Number.NaN;
+  closePiece(line, demod, pieces);
+  return pieces.sumW > 0 ? pieces.sumWF / pieces.sumW : Number.NaN;
+}
+
+/** Sums over the pieces of a phase line: Σ Sxx and Σ Sxx·f of each piece's frequency f, Hz. */
+interface PhasePieces {
+  sumW: number;
+  sumWF: number;
+}
+
+/** Ends a piece of the phase line (demodulated at `demod` Hz): adds its frequency, weighted by Sxx, when it has PHASE_MIN_SAMPLES samples; empties `line`. */
+function closePiece(line: LineSums, demod: number, pieces: PhasePieces): void {
+  if (line.n >= PHASE_MIN_SAMPLES) {
+    const sxx = lineSxx(line);
+    if (sxx > 0) {
+      const slope = lineSxy(line) / sxx;
+      pieces.sumW += sxx;
+      pieces.sumWF += sxx * (demod + slope / (2 * Math.PI));
+    }
+  }
+  resetLineSums(line);
 }
 
 /** A segment's times and frequency, with no rate yet. */

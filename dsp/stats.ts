@@ -59,18 +59,34 @@ function betaContinuedFraction(a: number, b: number, x: number): number {
   return h;
 }
 
+/** ln Γ(a + b) − ln Γ(a) − ln Γ(b) = −ln B(a, b), the part of the incomplete beta function's front factor that x does not change. */
+function lnInverseBeta(a: number, b: number): number {
+  return logGamma(a + b) - logGamma(a) - logGamma(b);
+}
+
 /** Regularised incomplete beta I_x(a, b), 0 ≤ x ≤ 1 (Press et al. 2007, Numerical Recipes, §6.4). */
 export function incompleteBeta(x: number, a: number, b: number): number {
   if (x <= 0) return 0;
   if (x >= 1) return 1;
-  const lnFront = logGamma(a + b) - logGamma(a) - logGamma(b) + a * Math.log(x) + b * Math.log(1 - x);
+  return incompleteBetaFrom(x, a, b, lnInverseBeta(a, b));
+}
+
+/** incompleteBeta with −ln B(a, b) given (lnInverseBeta; a caller that varies x only computes it once), 0 < x < 1. */
+function incompleteBetaFrom(x: number, a: number, b: number, lnInvBeta: number): number {
+  const lnFront = lnInvBeta + a * Math.log(x) + b * Math.log(1 - x);
   if (x < (a + 1) / (a + b + 2)) return (Math.exp(lnFront) * betaContinuedFraction(a, b, x)) / a;
   return 1 - (Math.exp(lnFront) * betaContinuedFraction(b, a, 1 - x)) / b;
 }
 
 /** Student-t cumulative distribution P(T ≤ t) for ν > 0 degrees of freedom (A&S 1964, 26.7.1 via 26.5.27). */
 export function studentTCdf(t: number, dof: number): number {
-  const tail = 0.5 * incompleteBeta(dof / (dof + t * t), dof / 2, 0.5);
+  return studentTCdfFrom(t, dof, lnInverseBeta(dof / 2, 0.5));
+}
+
+/** studentTCdf with lnInverseBeta(ν/2, 1/2) given. */
+function studentTCdfFrom(t: number, dof: number, lnInvBeta: number): number {
+  const x = dof / (dof + t * t);
+  const tail = 0.5 * (x <= 0 ? 0 : x >= 1 ? 1 : incompleteBetaFrom(x, dof / 2, 0.5, lnInvBeta));
   return t >= 0 ? 1 - tail : tail;
 }
 
@@ -81,13 +97,20 @@ export function studentTCdf(t: number, dof: number): number {
  */
 export function studentTQuantile(p: number, dof: number): number {
   if (!(dof > 0)) return Number.NaN;
+  // The CDF's beta-function factor does not depend on t: computed once for every CDF below.
+  const lnInvBeta = lnInverseBeta(dof / 2, 0.5);
   let lo = 0;
   let hi = 1;
-  while (studentTCdf(hi, dof) < p && hi < 1e12) hi *= 2;
+  // The CDF at hi/2, the last bracket end tried (NaN while there is none): the first Newton point.
+  let cdfHalf = Number.NaN;
+  for (let cdf = studentTCdfFrom(hi, dof, lnInvBeta); cdf < p && hi < 1e12; cdf = studentTCdfFrom(hi, dof, lnInvBeta)) {
+    hi *= 2;
+    cdfHalf = cdf;
+  }
   const logNorm = logGamma((dof + 1) / 2) - logGamma(dof / 2) - 0.5 * Math.log(dof * Math.PI);
   let t = 0.5 * (lo + hi);
   for (let i = 0; i < 200; i++) {
-    const excess = studentTCdf(t, dof) - p;
+    const excess = (i === 0 && !Number.isNaN(cdfHalf) ? cdfHalf : studentTCdfFrom(t, dof, lnInvBeta)) - p;
     if (excess === 0) return t;
     if (excess < 0) lo = t;
     else hi = t;
