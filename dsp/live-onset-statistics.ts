@@ -48,8 +48,10 @@ function overlapCorrelations(window: Float64Array, hop: number): Float64Array {
 export function riseErrorFactors(window: Float64Array, hop: number, wMax: number): Float64Array {
   const c = overlapCorrelations(window, hop);
   const out = new Float64Array(wMax + 1);
+  // r_k for the noise model at hand (R is banded: r_k = 0 from k = c.length on).
+  const r = new Float64Array(c.length);
   for (const power of [1, 2]) {
-    const r = (k: number): number => (k < c.length ? c[k] ** power : 0);
+    for (let k = 0; k < c.length; k++) r[k] = c[k] ** power;
     for (let w = 2; w <= wMax; w++) {
       const n = 3 * w;
       // XᵀRX (entries a = Σ R, b = Σ R·t_j, d = Σ R·t_i·t_j) and aᵀRa, with R banded.
@@ -58,12 +60,12 @@ export function riseErrorFactors(window: Float64Array, hop: number, wMax: number
       let xd = 0;
       let v = 0;
       for (let i = 0; i < n; i++) {
+        const ai = i < w ? 1 / w : i < 2 * w ? -1 / w : 0;
         for (let j = Math.max(0, i - c.length + 1); j < Math.min(n, i + c.length); j++) {
-          const rij = r(Math.abs(i - j));
+          const rij = r[Math.abs(i - j)];
           xa += rij;
           xb += rij * j;
           xd += rij * i * j;
-          const ai = i < w ? 1 / w : i < 2 * w ? -1 / w : 0;
           const aj = j < w ? 1 / w : j < 2 * w ? -1 / w : 0;
           v += ai * aj * rij;
         }

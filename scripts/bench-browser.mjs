@@ -8,11 +8,18 @@
 //   3. first paint of the installed app reloaded offline in headless Chromium (target ≤ 1 s),
 //   4. storage: opening a 10-minute recording and importing its bundle, each in a fresh profile:
 //      time, peak renderer memory and the longest main-thread stall (target: every stall < 100 ms).
-// Usage: node scripts/bench-browser.mjs [--dist dist] [--port 4196] [--seconds 120] [--live-seconds 30] [--no-store] [--js-flags FLAGS] [--live-block 4864]
+// Section 1 also says where the worker's dsp/ time goes against the command line's bench (which
+// times warm code back to back, best of several runs): the same recording analysed twice in one
+// worker (the first pays V8's warm-up, the second does not) and a live session fed back to back
+// rather than at the pace of the audio (idle between blocks, the analysis's code and data go cold).
+// Usage: node scripts/bench-browser.mjs [--dist dist] [--port 4196] [--seconds 120] [--live-seconds 30] [--no-store] [--js-flags FLAGS] [--live-block 4864] [--cpu-prof DIR]
 // (the port defaults to E2E_PORT when set, as for the browser tests, else 4196; --js-flags passes V8
 // flags to Chromium, e.g. "--prof" writes a tick log per isolate into the current folder, the
 // worker's included, for `node --prof-process`; --live-block sets the live blocks' length, samples,
-// 4864 as the capture worklet posts them at 48 kHz).
+// 4864 as the capture worklet posts them at 48 kHz); --cpu-prof writes a CPU profile of each analysis
+// worker (DevTools protocol) into DIR, to open in Chromium's DevTools, and prints its costliest
+// functions; for readable names build with `npx vite build --minify false --outDir dist-prof` and
+// pass `--dist dist-prof`).
 // Needs a built app (npx vite build) and Debian's chromium (or CHROMIUM_PATH).
 import { spawn, execSync } from 'node:child_process';
 import { mkdtempSync, readFileSync, writeFileSync, existsSync, mkdirSync, readdirSync, copyFileSync } from 'node:fs';
@@ -34,6 +41,7 @@ const URL = `http://127.0.0.1:${PORT}/`;
 const JS_FLAGS = opt('js-flags', '');
 // The capture worklet's block at 48 kHz: 0.1 s in whole 128-sample render quanta (web/capture/live-block.ts).
 const LIVE_BLOCK = Number(opt('live-block', '4864'));
+const CPU_PROF_DIR = opt('cpu-prof', '');
 
 function line(name, value, unit, target, isPass) {
   const shown = Number.isFinite(value) ? value.toFixed(value < 10 ? 2 : 1) : '—';
@@ -94,7 +102,14 @@ function workerStageRows(st, audioS, label) {
  */
 const CLOCK_TICK_MS = 1000 / Number(execSync('getconf CLK_TCK').toString().trim() || '100');
 function threadCpuMs(profileDir, prefix) {
-  let ticks = 0;
+  let ms = 0;
+  for (const v of threadCpuMsByThread(profileDir, prefix).values()) ms += v;
+  return ms;
+}
+
+/** As threadCpuMs, each thread apart: thread id → CPU time, ms. */
+function threadCpuMsByThread(profileDir, prefix) {
+  const byThread = new Map();
   for (const pid of readdirSync('/proc')) {
     if (!/^\d+$/.test(pid)) continue;
     try {
@@ -104,13 +119,85 @@ function threadCpuMs(profileDir, prefix) {
       for (const tid of readdirSync(`/proc/${pid}/task`)) {
         if (!readFileSync(`/proc/${pid}/task/${tid}/comm`, 'utf8').startsWith(prefix)) continue;
         const f = readFileSync(`/proc/${pid}/task/${tid}/stat`, 'utf8').split(') ')[1].split(' ');
-        ticks += Number(f[11]) + Number(f[12]);
+        byThread.set(tid, (Number(f[11]) + Number(f[12])) * CLOCK_TICK_MS);
       }
     } catch {
       /* the process or thread ended meanwhile */
     }
   }
-  return ticks * CLOCK_TICK_MS;
+  return byThread;
+}
+
+/**
+ * CPU profiles of the app's analysis workers through the DevTools protocol: every analysis worker
+ * the page starts is attached as it starts (Target.setAutoAttach) and sampled (Profiler.start);
+ * stopAll(label) writes each running profile to CPU_PROF_DIR/<label>.cpuprofile and prints its
+ * costliest functions by self time. A no-op without --cpu-prof.
+ */
+async function workerProfiler(page) {
+  if (!CPU_PROF_DIR) return { stopAll: async () => {} };
+  mkdirSync(CPU_PROF_DIR, { recursive: true });
+  const cdp = await page.context().newCDPSession(page);
+  let nextId = 1;
+  const replies = new Map();
+  const running = new Set();
+  cdp.on('Target.receivedMessageFromTarget', (ev) => {
+    const m = JSON.parse(ev.message);
+    if (m.id && replies.has(m.id)) {
+      replies.get(m.id)(m.result ?? {});
+      replies.delete(m.id);
+    }
+  });
+  const send = (sessionId, method, params = {}) =>
+    new Promise((resolveReply) => {
+      const id = nextId++;
+      replies.set(id, resolveReply);
+      cdp.send('Target.sendMessageToTarget', { sessionId, message: JSON.stringify({ id, method, params }) }).catch(() => resolveReply({}));
+    });
+  cdp.on('Target.attachedToTarget', async (ev) => {
+    if (ev.targetInfo.type !== 'worker' || !ev.targetInfo.url.includes('analysis')) return;
+    await send(ev.sessionId, 'Profiler.enable');
+    await send(ev.sessionId, 'Profiler.setSamplingInterval', { interval: 250 });
+    await send(ev.sessionId, 'Profiler.start');
+    running.add(ev.sessionId);
+  });
+  await cdp.send('Target.setAutoAttach', { autoAttach: true, flatten: false, waitForDebuggerOnStart: false });
+  return {
+    async stopAll(label) {
+      let k = 0;
+      for (const sessionId of running) {
+        const { profile } = await send(sessionId, 'Profiler.stop');
+        running.delete(sessionId);
+        if (!profile) continue;
+        const name = `${label}${k++ ? `-${k}` : ''}.cpuprofile`;
+        writeFileSync(join(CPU_PROF_DIR, name), JSON.stringify(profile));
+        printProfileTop(name, profile);
+      }
+    },
+  };
+}
+
+/**
+ * The functions of a CPU profile with the most samples (self), as shares of the busy samples.
+ * Counted, not summed from the profile's time deltas: on a loaded machine the sampling thread waits
+ * for a core too, and the sample before such a wait would be charged all of it. Even so the shares
+ * are indicative only; the stage timings above are the figures.
+ */
+function printProfileTop(name, profile, top = 12) {
+  const nodes = new Map(profile.nodes.map((n) => [n.id, n]));
+  const counts = new Map();
+  let busy = 0;
+  for (const id of profile.samples) {
+    const cf = nodes.get(id).callFrame;
+    if (cf.functionName === '(idle)') continue;
+    const key = `${cf.functionName || '(anonymous)'} ${cf.url.split('/').pop()}:${cf.lineNumber + 1}`;
+    counts.set(key, (counts.get(key) ?? 0) + 1);
+    busy++;
+  }
+  console.log(`  CPU profile ${name}: ${busy} busy samples; the functions with the most (self):`);
+  for (const [key, n] of [...counts].sort((a, b) => b[1] - a[1]).slice(0, top)) {
+    console.log(`    ${((100 * n) / busy).toFixed(1).padStart(5)} %  ${key}`);
+  }
 }
 
 /**
@@ -121,19 +208,23 @@ function threadCpuMs(profileDir, prefix) {
  * estimated over the steady stretch once it is 10 s long). Two sessions in one worker, as the app
  * keeps one worker for all its runs: the first pays V8's warm-up (the code runs interpreted until
  * it is compiled, on this 2-core machine in the same seconds as the audio), the second is the
- * steady cost. Resolves with the worker's stageMs of each, and the CPU time of the worker thread
- * and of the renderer's thread pool (V8's compilation and garbage collection) during each.
+ * steady cost; then a third session with the same blocks sent back to back, not paced (how much
+ * of the cost is the pace: between blocks the worker idles and the analysis's code and data go
+ * cold). Resolves with the worker's stageMs of each, and the CPU time of the worker thread and of
+ * the renderer's thread pool (V8's compilation and garbage collection) during each.
  */
-async function liveRun(page, seconds, profileDir) {
+async function liveRun(page, seconds, profileDir, profiler) {
   await page.evaluate(() => {
     const w = new window.__NativeWorker(window.__analysisWorkerUrl, { type: 'module' });
     window.__liveWorker = w;
-    window.__liveSession = async (id, seconds, blockSamples) => {
+    window.__liveSession = async (id, seconds, blockSamples, isPaced) => {
       const fs = 48_000;
+      let finishPostedMs = 0;
       const report = new Promise((resolveReport, rejectReport) => {
         const onMessage = (e) => {
           if (e.data?.id !== id) return;
-          if (e.data.type === 'report') resolveReport(e.data.stageMs);
+          // The end of the session as the page sees it: finish() and the last update and audio (wall time).
+          if (e.data.type === 'report') resolveReport({ ...e.data.stageMs, endMs: performance.now() - finishPostedMs });
           if (e.data.type === 'error') rejectReport(new Error(e.data.message));
           if (e.data.type === 'report' || e.data.type === 'error') w.removeEventListener('message', onMessage);
         };
@@ -145,7 +236,7 @@ async function liveRun(page, seconds, profileDir) {
       const t0 = performance.now();
       for (let k = 0; k * blockSamples < seconds * fs; k++) {
         const wait = t0 + ((k * blockSamples) / fs) * 1000 - performance.now();
-        if (wait > 0) await new Promise((r) => setTimeout(r, wait));
+        if (isPaced && wait > 0) await new Promise((r) => setTimeout(r, wait));
         const x = new Float32Array(blockSamples);
         for (let i = 0; i < blockSamples; i++) {
           const t = (k * blockSamples + i) / fs;
@@ -154,26 +245,89 @@ async function liveRun(page, seconds, profileDir) {
         }
         w.postMessage({ type: 'block', id, samples: x }, [x.buffer]);
       }
+      finishPostedMs = performance.now();
       w.postMessage({ type: 'finish', id });
       return report;
     };
   });
-  const session = async (id) => {
+  const session = async (id, isPaced) => {
     const worker0 = threadCpuMs(profileDir, 'DedicatedWorker');
     const pool0 = threadCpuMs(profileDir, 'ThreadPoolForeg');
-    const stageMs = await page.evaluate(([id, seconds, block]) => window.__liveSession(id, seconds, block), [id, seconds, LIVE_BLOCK]);
+    const stageMs = await page.evaluate(([id, seconds, block, paced]) => window.__liveSession(id, seconds, block, paced), [id, seconds, LIVE_BLOCK, isPaced]);
     return { stageMs, workerCpuMs: threadCpuMs(profileDir, 'DedicatedWorker') - worker0, poolCpuMs: threadCpuMs(profileDir, 'ThreadPoolForeg') - pool0 };
   };
-  const first = await session(1);
-  const second = await session(2);
+  const first = await session(1, true);
+  const second = await session(2, true);
+  const unpaced = await session(3, false);
+  await profiler.stopAll('worker-live');
   await page.evaluate(() => window.__liveWorker.terminate());
-  return { first, second };
+  return { first, second, unpaced };
 }
 
-/** A hum recording of our own: cycles of growth, steady tone and decay at 171 Hz in noise, 48 kHz mono 16-bit. */
-function writeBenchWav(path, seconds) {
+/**
+ * The bench's recording (benchSamplesInt16, decoded as the WAV reader does: value / 32768)
+ * analysed twice in one fresh worker, posted whole ('analyse-file'): the first run pays V8's
+ * warm-up (the code runs in its lower tiers until compiled), the second is the warm cost the
+ * command line's bench measures. Resolves with the worker's stageMs of each.
+ */
+async function fileTwiceRun(page, seconds, profiler) {
+  await page.evaluate(`window.__benchSamplesInt16 = ${benchSamplesInt16.toString()}`);
+  const run = (id) =>
+    page.evaluate(
+      ([id, seconds]) =>
+        new Promise((resolveReport, rejectReport) => {
+          window.__fileWorker ??= new window.__NativeWorker(window.__analysisWorkerUrl, { type: 'module' });
+          const w = window.__fileWorker;
+          const x16 = window.__benchSamplesInt16(seconds);
+          const x = new Float32Array(x16.length);
+          for (let i = 0; i < x.length; i++) x[i] = x16[i] / 32768;
+          const onMessage = (e) => {
+            if (e.data?.id !== id || (e.data.type !== 'report' && e.data.type !== 'error')) return;
+            w.removeEventListener('message', onMessage);
+            if (e.data.type === 'report') resolveReport(e.data.stageMs);
+            else rejectReport(new Error(e.data.message));
+          };
+          w.addEventListener('message', onMessage);
+          w.postMessage({ type: 'analyse-file', id, config: { sampleRateHz: 48_000, sampleBits: 16 }, channels: [x], isKeepingAudio: true }, [x.buffer]);
+        }),
+      [id, seconds],
+    );
+  const fresh = await run(21);
+  const warm = await run(22);
+  await profiler.stopAll('worker-file-twice');
+  await page.evaluate(() => window.__fileWorker.terminate());
+  return { fresh, warm };
+}
+
+/**
+ * The bench's hum recording: cycles of growth, steady tone and decay at 171 Hz in noise, 48 kHz,
+ * as 16-bit sample values. Self-contained, so the page can run the same function (page.evaluate).
+ */
+function benchSamplesInt16(seconds) {
   const fs = 48_000;
   const n = Math.round(seconds * fs);
+  const out = new Int16Array(n);
+  let seed = 12345;
+  const rand = () => ((seed = (seed * 1664525 + 1013904223) >>> 0) / 4294967296);
+  const cycleS = 10;
+  for (let i = 0; i < n; i++) {
+    const t = i / fs;
+    const c = t % cycleS;
+    let a = 0;
+    if (c >= 2 && c < 6) a = Math.min(0.3, 0.003 * Math.exp(7 * (c - 2)));
+    else if (c >= 6) a = 0.3 * Math.exp(-4.5 * (c - 6));
+    const noise = 0.0005 * Math.sqrt(-2 * Math.log(rand() + 1e-12)) * Math.cos(2 * Math.PI * rand());
+    const v = Math.max(-1, Math.min(1, a * Math.sin(2 * Math.PI * 171 * t) + noise));
+    out[i] = Math.round(v * 32767);
+  }
+  return out;
+}
+
+/** The bench's hum recording (benchSamplesInt16) as a 48 kHz mono 16-bit WAV file. */
+function writeBenchWav(path, seconds) {
+  const fs = 48_000;
+  const samples = benchSamplesInt16(seconds);
+  const n = samples.length;
   const data = Buffer.alloc(44 + 2 * n);
   data.write('RIFF', 0, 'ascii');
   data.writeUInt32LE(36 + 2 * n, 4);
@@ -187,19 +341,7 @@ function writeBenchWav(path, seconds) {
   data.writeUInt16LE(16, 34);
   data.write('data', 36, 'ascii');
   data.writeUInt32LE(2 * n, 40);
-  let seed = 12345;
-  const rand = () => ((seed = (seed * 1664525 + 1013904223) >>> 0) / 4294967296);
-  const cycleS = 10;
-  for (let i = 0; i < n; i++) {
-    const t = i / fs;
-    const c = t % cycleS;
-    let a = 0;
-    if (c >= 2 && c < 6) a = Math.min(0.3, 0.003 * Math.exp(7 * (c - 2)));
-    else if (c >= 6) a = 0.3 * Math.exp(-4.5 * (c - 6));
-    const noise = 0.0005 * Math.sqrt(-2 * Math.log(rand() + 1e-12)) * Math.cos(2 * Math.PI * rand());
-    const v = Math.max(-1, Math.min(1, a * Math.sin(2 * Math.PI * 171 * t) + noise));
-    data.writeInt16LE(Math.round(v * 32767), 44 + 2 * i);
-  }
+  for (let i = 0; i < n; i++) data.writeInt16LE(samples[i], 44 + 2 * i);
   writeFileSync(path, data);
 }
 
@@ -357,6 +499,8 @@ async function main() {
   let liveWarmMsPerS = Number.NaN;
   let liveCpu = null;
   const stageRows = [];
+  /** dsp/ push() and finish() per s of audio in runs that tell warm-up and pace apart: [label, ms/s]. */
+  const whereRows = [];
   let firstPaintMs = Number.NaN;
   let detail = '';
   let store = null;
@@ -379,6 +523,7 @@ async function main() {
       args: ['--headless', '--no-sandbox', '--disable-gpu', '--no-first-run', '--disable-background-networking', ...(JS_FLAGS ? [`--js-flags=${JS_FLAGS}`] : [])],
     });
     const page = context.pages()[0] ?? (await context.newPage());
+    const profiler = await workerProfiler(page);
     // The worker's report carries the time it spent on each job: keep a copy as the app receives it.
     await page.addInitScript(() => {
       const NativeWorker = window.Worker;
@@ -401,8 +546,12 @@ async function main() {
     await page.goto(URL);
     await page.waitForSelector('#listen-button');
     if (await page.locator('#first-run-ok').count()) await page.click('#first-run-ok');
+    const workersBefore = threadCpuMsByThread(benchProfile, 'DedicatedWorker');
     await page.setInputFiles('#file-input', wav);
     await page.waitForSelector('#analysis-cost', { timeout: 300_000 });
+    // The analysis worker is the worker thread that ran longest meanwhile (the page's storage workers do far less).
+    let fileWorkerCpuMs = 0;
+    for (const [tid, ms] of threadCpuMsByThread(benchProfile, 'DedicatedWorker')) fileWorkerCpuMs = Math.max(fileWorkerCpuMs, ms - (workersBefore.get(tid) ?? 0));
     const cost = page.locator('#analysis-cost');
     const analysisMs = Number(await cost.getAttribute('data-analysis-ms'));
     const audioS = Number(await cost.getAttribute('data-audio-s'));
@@ -411,16 +560,26 @@ async function main() {
       const file = workerStageRows(stages, audioS, 'file');
       costMsPerS = file.msPerS;
       stageRows.push(...file.rows);
+      stageRows.push(`${'file:'.padEnd(22)} ${'the worker thread\'s CPU time (/proc) over its jobs\' wall time'.padEnd(48)} ${(fileWorkerCpuMs / audioS).toFixed(2).padStart(6)} ms/s of ${file.msPerS.toFixed(2)} (the rest it waited for a core: the page drawing, the session being stored, other processes)`);
     }
+    await profiler.stopAll('worker-file');
     if (LIVE_SECONDS > 0) {
-      const { first, second } = await liveRun(page, LIVE_SECONDS, benchProfile);
+      const { first, second, unpaced } = await liveRun(page, LIVE_SECONDS, benchProfile, profiler);
       const live = workerStageRows(first.stageMs, LIVE_SECONDS, 'live, fresh worker');
       const warm = workerStageRows(second.stageMs, LIVE_SECONDS, 'live, second session');
       liveMsPerS = live.msPerS;
       liveWarmMsPerS = warm.msPerS;
       liveCpu = { first, second };
       stageRows.push(...live.rows, ...warm.rows);
+      whereRows.push([`live, ${LIVE_SECONDS} s, paced as the audio arrives (the second session above)`, second.stageMs.analysis / LIVE_SECONDS]);
+      whereRows.push([`  of which the session's end (finish message to report, as the page waits for it)`, second.stageMs.endMs / LIVE_SECONDS]);
+      whereRows.push([`live, the same blocks back to back in the same worker (not paced)`, unpaced.stageMs.analysis / LIVE_SECONDS]);
     }
+    const twice = await fileTwiceRun(page, SECONDS, profiler);
+    whereRows.unshift(
+      [`file, ${SECONDS} s posted whole to a fresh worker (V8 warm-up included)`, twice.fresh.analysis / SECONDS],
+      ['file, the same again in the same worker (its code compiled)', twice.warm.analysis / SECONDS],
+    );
     // Wall time inside the worker: other load on the machine inflates it (the load average says how much).
     detail = `${audioS.toFixed(0)} s of 48 kHz audio, dsp/ push + finish ${analysisMs.toFixed(0)} ms (${(audioS / (analysisMs / 1000)).toFixed(0)}× real time; load average ${loadavg()[0].toFixed(1)} on ${cpus().length} CPUs)`;
 
@@ -461,6 +620,10 @@ async function main() {
   line(`browser worker, all jobs, per s of 48 kHz (live, ${LIVE_SECONDS} s, fresh worker)`, liveMsPerS, 'ms', '≤ 5 ms', liveMsPerS <= 5);
   line(`browser worker, all jobs, per s of 48 kHz (live, ${LIVE_SECONDS} s, second session)`, liveWarmMsPerS, 'ms', '≤ 5 ms', liveWarmMsPerS <= 5);
   for (const r of stageRows) console.log(`  ${r}`);
+  if (whereRows.length) {
+    console.log('  where the worker\'s dsp/ time goes (dsp/ push() and finish(), ms per s of audio; the command line\'s bench times warm code back to back, best of 8):');
+    for (const [label, v] of whereRows) console.log(`    ${label.padEnd(86)} ${v.toFixed(2).padStart(6)} ms/s`);
+  }
   if (liveCpu) {
     for (const [label, c] of [['fresh worker', liveCpu.first], ['second session', liveCpu.second]]) {
       const v = c.workerCpuMs / LIVE_SECONDS;
