@@ -230,7 +230,8 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
     markers: r.pendingMarkers,
     columns: r.pendingColumns,
     columnBandHz: r.columnBandHz,
-    summary: { ...r.summary },
+    // Cloned by the post itself (structured clone copies at once), so the run keeps updating its own.
+    summary: r.summary,
     mainFrequencyHz: r.mainFrequencyHz,
     audio: r.audioReady,
   };
