@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { isFromWorker, logRowBins, parseToWorker, reduceToLogRows, transferablesOf, type ToWorker } from '../../web/worker/protocol';
+import { isFromWorker, logRowBins, parseToWorker, reduceToLogRows, transferablesOf, type FromWorker, type ToWorker } from '../../web/worker/protocol';
 import { emptyLiveSummary, isSameTone, updateLiveSummary } from '../../web/worker/live-summary';
 import type { Segment } from '../../dsp/types';
 import { MIN_GAP_S, missingSeconds } from '../../web/capture/gap';
@@ -74,6 +74,23 @@ describe('worker protocol: messages to the worker', () => {
     expect(Array.from((copy as { samples: Float32Array }).samples)).toEqual([0.5, -0.25]);
     // The sender's buffer is detached: the block was moved, not copied.
     expect(samples.length).toBe(0);
+  });
+
+  it('an update moves its kept audio, spectrum and spectrogram columns to the app instead of copying them', () => {
+    const audio = [new Float32Array([0.25, -0.5]), new Float32Array([0.125])];
+    const spectrumDbfs = new Float32Array([-60, -20]);
+    const dbfs = new Float32Array([-80]);
+    const msg: FromWorker = {
+      type: 'update', id: 4, samplesAnalysed: 3, timeS: 3 / 48_000, frames: [], onsets: [], segments: [], spectrumDbfs, spectrumBinHz: 12,
+      peakAbs: 0.5, isClipped: false, markers: [], summary: emptyLiveSummary(), mainFrequencyHz: Number.NaN,
+      columns: [{ timeS: 0, dbfs }], columnBandHz: [20, 4000], audio,
+    };
+    expect(transferablesOf(msg)).toHaveLength(4);
+    const copy = structuredClone(msg, { transfer: transferablesOf(msg) }) as Extract<FromWorker, { type: 'update' }>;
+    expect(isFromWorker(copy)).toBe(true);
+    expect(copy.audio.map((a) => Array.from(a))).toEqual([[0.25, -0.5], [0.125]]);
+    // Moved (HTML structured clone with transfer: the sender's buffers are detached), not copied.
+    expect([...audio, spectrumDbfs, dbfs].map((a) => a.length)).toEqual([0, 0, 0, 0]);
   });
 });
 

@@ -1,7 +1,7 @@
 /**
  * The app's side of the analysis worker: one worker, started on first use, whose messages are
  * handed to a single listener. A worker that failed at top level is dropped; the next request
- * starts a fresh one.
+ * starts a fresh one. The audio an update carries reaches the listener first, as `audio` messages.
  */
 import { isFromWorker, transferablesOf, type FromWorker, type ToWorker } from '../worker/protocol';
 
@@ -21,7 +21,10 @@ export function createWorkerClient(onMessage: (m: FromWorker) => void, onCrash: 
     if (worker) return worker;
     const w = new Worker(new URL('../worker/analysis.worker.ts', import.meta.url), { type: 'module', name: 'analysis' });
     w.onmessage = (ev: MessageEvent) => {
-      if (isFromWorker(ev.data)) onMessage(ev.data);
+      if (!isFromWorker(ev.data)) return;
+      const m = ev.data;
+      if (m.type === 'update' && Array.isArray(m.audio)) for (const samples of m.audio) if (samples instanceof Float32Array) onMessage({ type: 'audio', id: m.id, samples });
+      onMessage(m);
     };
     w.onerror = (ev) => {
       ev.preventDefault();

@@ -20,21 +20,26 @@ export interface AudioWriter {
   drop(): Promise<void>;
 }
 
-/** Joins blocks into consecutive chunks of at most `maxSamples` (the last may be shorter). */
+/**
+ * Joins blocks into consecutive chunks of at most `maxSamples` (every chunk full but the last). A
+ * block that fills its own buffer and starts a chunk is stored as it is when it fills the chunk or
+ * ends the input (no copy: the analysis worker hands over whole one-second chunks).
+ */
 export function secondChunks(blocks: readonly Float32Array[], maxSamples: number): Float32Array[] {
-  // A single block that fills its own buffer and fits is stored as it is (no copy).
-  if (blocks.length === 1) {
-    const b = blocks[0] as Float32Array;
-    if (b.length <= maxSamples && b.byteOffset === 0 && b.byteLength === b.buffer.byteLength) return [b];
-  }
   let total = 0;
   for (const b of blocks) total += b.length;
   const out: Float32Array[] = [];
-  let current = new Float32Array(Math.min(maxSamples, total));
+  let current: Float32Array | null = null;
   let filled = 0;
   for (const b of blocks) {
+    if (current === null && b.byteOffset === 0 && b.byteLength === b.buffer.byteLength && (b.length === maxSamples || (b.length === total && total <= maxSamples))) {
+      if (b.length > 0) out.push(b);
+      total -= b.length;
+      continue;
+    }
     let at = 0;
     while (at < b.length) {
+      current ??= new Float32Array(Math.min(maxSamples, total));
       const n = Math.min(b.length - at, current.length - filled);
       current.set(b.subarray(at, at + n), filled);
       filled += n;
@@ -42,7 +47,7 @@ export function secondChunks(blocks: readonly Float32Array[], maxSamples: number
       total -= n;
       if (filled === current.length) {
         out.push(current);
-        current = new Float32Array(Math.min(maxSamples, total));
+        current = null;
         filled = 0;
       }
     }

@@ -19,6 +19,8 @@ declare const self: DedicatedWorkerGlobalScope;
 const UPDATE_INTERVAL_MS = 66;
 /** Samples per block when a whole file is analysed. */
 const FILE_BLOCK_SAMPLES = 4096;
+/** Length of the audio chunks handed to the session store, s (it writes a chunk of at most a second at a time: web/storage/audio-writer.ts). */
+const AUDIO_CHUNK_S = 1;
 
 interface Run {
   id: number;
@@ -30,8 +32,10 @@ interface Run {
   /** Live blocks not yet analysed (gathered to LIVE_BLOCK_S), and their samples. */
   liveBlocks: Float32Array[];
   liveSamples: number;
-  audioChunks: Float32Array[];
-  audioSamples: number;
+  /** Audio kept for the session store: the chunk of AUDIO_CHUNK_S being filled, how much of it is, and the full chunks the next update takes along. */
+  audioChunk: Float32Array;
+  audioFilled: number;
+  audioReady: Float32Array[];
   pendingFrames: TrackFrame[];
   pendingOnsets: Onset[];
   pendingSegments: Segment[];
@@ -87,8 +91,9 @@ function createRun(id: number, config: AnalysisConfig, isKeepingAudio: boolean, 
     isKeepingAudio,
     liveBlocks: [],
     liveSamples: 0,
-    audioChunks: [],
-    audioSamples: 0,
+    audioChunk: new Float32Array(isKeepingAudio ? Math.max(1, Math.round(AUDIO_CHUNK_S * config.sampleRateHz)) : 0),
+    audioFilled: 0,
+    audioReady: [],
     pendingFrames: [],
     pendingOnsets: [],
     pendingSegments: [],
@@ -141,7 +146,10 @@ function collectSpectrum(r: Run, spectrumDbfs: Float32Array, binHz: number): voi
   }
 }
 
-/** Analyses one block and collects what changed; the update object from dsp/ is copied, it is reused. */
+/**
+ * Analyses one block and collects what changed. dsp/ hands over fresh rows, onsets and segments at
+ * every push (it starts new ones for the next), so they are kept as they are, not copied.
+ */
 function pushBlock(r: Run, samples: Float32Array): void {
   const t0 = performance.now();
   const u = r.analysis.push(samples);
@@ -149,12 +157,12 @@ function pushBlock(r: Run, samples: Float32Array): void {
   r.analysisMs += t1 - t0;
   r.samplesSeen += samples.length;
   for (const f of u.frames) {
-    r.pendingFrames.push({ ...f });
+    r.pendingFrames.push(f);
     if (Number.isFinite(f.frequencyHz)) r.mainFrequencyHz = f.frequencyHz;
     r.latestRegime = f.state;
   }
-  for (const o of u.onsets) r.pendingOnsets.push({ ...o });
-  for (const s of u.segments) r.pendingSegments.push({ ...s, rateCi95PerS: s.rateCi95PerS ? [s.rateCi95PerS[0], s.rateCi95PerS[1]] : null });
+  for (const o of u.onsets) r.pendingOnsets.push(o);
+  for (const s of u.segments) r.pendingSegments.push(s);
   if (u.spectrumDbfs) collectSpectrum(r, u.spectrumDbfs, u.spectrumBinHz);
   if (u.peakAbs > r.peakAbs) r.peakAbs = u.peakAbs;
   if (u.isClipped) r.isClipped = true;
@@ -174,23 +182,29 @@ function sameValues(a: Float32Array, b: Float32Array): boolean {
   return true;
 }
 
+/**
+ * Copies samples into the audio chunk being filled (the one copy of kept audio: the blocks analysed
+ * are the decoder's or the worklet's own); a full chunk waits for the next update to go out with it.
+ */
 function keepAudio(r: Run, samples: Float32Array): void {
-  r.audioChunks.push(samples);
-  r.audioSamples += samples.length;
-  if (r.audioSamples >= r.sampleRateHz) flushAudio(r);
+  for (let at = 0; at < samples.length; ) {
+    const n = Math.min(samples.length - at, r.audioChunk.length - r.audioFilled);
+    r.audioChunk.set(at === 0 && n === samples.length ? samples : samples.subarray(at, at + n), r.audioFilled);
+    r.audioFilled += n;
+    at += n;
+    if (r.audioFilled === r.audioChunk.length) {
+      r.audioReady.push(r.audioChunk);
+      r.audioChunk = new Float32Array(r.audioChunk.length);
+      r.audioFilled = 0;
+    }
+  }
 }
 
-function flushAudio(r: Run): void {
-  if (r.audioSamples === 0) return;
-  const all = new Float32Array(r.audioSamples);
-  let at = 0;
-  for (const c of r.audioChunks) {
-    all.set(c, at);
-    at += c.length;
-  }
-  r.audioChunks = [];
-  r.audioSamples = 0;
-  post({ type: 'audio', id: r.id, samples: all });
+/** The part-filled audio chunk joins the ready ones (at the end of a run). */
+function closeAudioChunk(r: Run): void {
+  if (r.audioFilled === 0) return;
+  r.audioReady.push(r.audioChunk.slice(0, r.audioFilled));
+  r.audioFilled = 0;
 }
 
 /** Posts the collected changes if enough time has passed (or always, when `isForced`). */
@@ -216,8 +230,10 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
     markers: r.pendingMarkers,
     columns: r.pendingColumns,
     columnBandHz: r.columnBandHz,
-    summary: { ...r.summary },
+    // Cloned by the post itself (structured clone copies at once), so the run keeps updating its own.
+    summary: r.summary,
     mainFrequencyHz: r.mainFrequencyHz,
+    audio: r.audioReady,
   };
   // At most every LIVE_MARGIN_EVERY_S of wall time, so a file read fast is not held up.
   if (isLiveMarginDue(r.liveMargin) && now - r.lastMarginMs >= LIVE_MARGIN_EVERY_S * 1000) {
@@ -236,6 +252,7 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
   r.pendingSegments = [];
   r.pendingMarkers = [];
   r.pendingColumns = [];
+  if (r.audioReady.length) r.audioReady = [];
   r.peakAbs = 0;
   r.isClipped = false;
   r.isSpectrumNew = false;
@@ -250,11 +267,11 @@ function finishRun(r: Run): void {
     r.port.close();
   }
   flushLiveBlocks(r);
-  maybePostUpdate(r, true);
   const ta = performance.now();
-  flushAudio(r);
+  closeAudioChunk(r);
+  r.stageMs.audio += performance.now() - ta;
+  maybePostUpdate(r, true);
   const t0 = performance.now();
-  r.stageMs.audio += t0 - ta;
   const report = r.analysis.finish();
   const dt = performance.now() - t0;
   r.analysisMs += dt;
@@ -302,13 +319,20 @@ function flushLiveBlocks(r: Run): void {
 function analyseFile(r: Run, channels: Float32Array[]): void {
   const length = Math.min(...channels.map((c) => c.length));
   const scale = 1 / channels.length;
+  // One channel is analysed in place; several are mixed to mono into one reused block.
+  const mix = channels.length > 1 ? new Float32Array(FILE_BLOCK_SAMPLES) : null;
   let nextProgress = 0;
   for (let start = 0; start < length; start += FILE_BLOCK_SAMPLES) {
     const n = Math.min(FILE_BLOCK_SAMPLES, length - start);
-    // Mono mix of all channels (a fresh block each time: the session store may keep it).
     const t0 = performance.now();
-    const block = new Float32Array(n);
-    for (const ch of channels) for (let i = 0; i < n; i++) block[i] += ch[start + i] * scale;
+    let block: Float32Array;
+    if (mix) {
+      block = mix.subarray(0, n);
+      block.fill(0);
+      for (const ch of channels) for (let i = 0; i < n; i++) block[i] += ch[start + i] * scale;
+    } else {
+      block = (channels[0] as Float32Array).subarray(start, start + n);
+    }
     r.stageMs.input += performance.now() - t0;
     pushBlock(r, block);
     maybePostUpdate(r, false);
@@ -322,13 +346,10 @@ function analyseFile(r: Run, channels: Float32Array[]): void {
   finishRun(r);
 }
 
-/** Feeds decoded samples to the run in blocks of FILE_BLOCK_SAMPLES (copied: the decoder reuses its buffer). */
+/** Feeds decoded samples to the run in blocks of FILE_BLOCK_SAMPLES: views of the decoder's buffer, analysed before its next push reuses it. */
 function feedSamples(r: Run, samples: Float32Array): void {
   for (let start = 0; start < samples.length; start += FILE_BLOCK_SAMPLES) {
-    const t0 = performance.now();
-    const block = samples.slice(start, Math.min(samples.length, start + FILE_BLOCK_SAMPLES));
-    r.stageMs.input += performance.now() - t0;
-    pushBlock(r, block);
+    pushBlock(r, samples.subarray(start, Math.min(samples.length, start + FILE_BLOCK_SAMPLES)));
     maybePostUpdate(r, false);
   }
 }

@@ -170,9 +170,15 @@ export interface UpdateMessage extends AnalysisUpdate {
   columnBandHz: [number, number];
   /** Latest margin of the quiet system, when the analysis has one (absent: unchanged). */
   margin?: MarginEstimate | null;
+  /**
+   * Samples for the session store since the previous update (transferred), in chunks of about a
+   * second, when the run keeps its audio: they travel with the update rather than in a message of
+   * their own (each message wakes the page). The worker client hands each on as an `audio` message.
+   */
+  audio: Float32Array[];
 }
 
-/** Worker → app: samples for the session store (mono, run sample rate). */
+/** Samples for the session store (mono, run sample rate): what the worker client makes of each chunk of an update's `audio`. */
 export interface AudioMessage {
   type: 'audio';
   id: number;
@@ -325,7 +331,11 @@ export function transferablesOf(message: ToWorker | FromWorker): Transferable[] 
     case 'start':
       return message.port ? [message.port] : [];
     case 'update':
-      return [...(message.spectrumDbfs ? [message.spectrumDbfs.buffer as ArrayBuffer] : []), ...message.columns.map((c) => c.dbfs.buffer as ArrayBuffer)];
+      return [
+        ...(message.spectrumDbfs ? [message.spectrumDbfs.buffer as ArrayBuffer] : []),
+        ...message.columns.map((c) => c.dbfs.buffer as ArrayBuffer),
+        ...message.audio.map((a) => a.buffer as ArrayBuffer),
+      ];
     default:
       return [];
   }
