@@ -17,8 +17,8 @@
 // flags to Chromium, e.g. "--prof" writes a tick log per isolate into the current folder, the
 // worker's included, for `node --prof-process`; --live-block sets the live blocks' length, samples,
 // 4864 as the capture worklet posts them at 48 kHz); --cpu-prof writes a CPU profile of each analysis
-// worker (DevTools protocol) into DIR, to open in Chromium's DevTools, and prints its costliest
-// functions; for readable names build with `npx vite build --minify false --outDir dist-prof` and
+// worker (DevTools protocol) into DIR, to open in Chromium's DevTools, and prints the functions it
+// sampled most; for readable names build with `npx vite build --minify false --outDir dist-prof` and
 // pass `--dist dist-prof`).
 // Needs a built app (npx vite build) and Debian's chromium (or CHROMIUM_PATH).
 import { spawn, execSync } from 'node:child_process';
@@ -131,8 +131,8 @@ function threadCpuMsByThread(profileDir, prefix) {
 /**
  * CPU profiles of the app's analysis workers through the DevTools protocol: every analysis worker
  * the page starts is attached as it starts (Target.setAutoAttach) and sampled (Profiler.start);
- * stopAll(label) writes each running profile to CPU_PROF_DIR/<label>.cpuprofile and prints its
- * costliest functions by self time. A no-op without --cpu-prof.
+ * stopAll(label) writes each running profile to CPU_PROF_DIR/<label>.cpuprofile and prints the
+ * functions it sampled most (printProfileTop). A no-op without --cpu-prof.
  */
 async function workerProfiler(page) {
   if (!CPU_PROF_DIR) return { stopAll: async () => {} };
@@ -181,7 +181,7 @@ async function workerProfiler(page) {
  * The functions of a CPU profile with the most samples (self), as shares of the busy samples.
  * Counted, not summed from the profile's time deltas: on a loaded machine the sampling thread waits
  * for a core too, and the sample before such a wait would be charged all of it. Even so the shares
- * are indicative only; the stage timings above are the figures.
+ * are indicative only; the worker's stage timings are the figures.
  */
 function printProfileTop(name, profile, top = 12) {
   const nodes = new Map(profile.nodes.map((n) => [n.id, n]));
