@@ -114,6 +114,11 @@ describe('the field app', () => {
     expect(Math.abs(growth - hum.truth.steps[1].growthRatePerS) / hum.truth.steps[1].growthRatePerS).toBeLessThan(0.1);
     // After the hum the frequency stays beside its rates.
     expect(firstNumber(await page.locator('#readout-frequency .tile-value').textContent())).toBeGreaterThan(170);
+    // The onset of the file, timed by the report's fitted growth with its interval, while the heater was on (simulation steps: on at 2 s, off at 10 s).
+    const onsetText = (await page.locator('#readout-onset .tile-value').textContent()) ?? '';
+    expect(onsetText).toMatch(/^at [\d.]+ s \(95 % CI [\d.]+–[\d.]+\)$/);
+    expect(firstNumber(onsetText)).toBeGreaterThan(2);
+    expect(firstNumber(onsetText)).toBeLessThan(10);
     await screenshot(page, 'verdict-humming');
     // Its cycle (report version 2): onset, growth and decay rates with their intervals, under its tone.
     const cycles = page.locator('#run-result #cycles');

@@ -88,6 +88,13 @@ describe('live listening with a hum cycle as the microphone', () => {
     expect(Math.abs(firstNumber(growthText) - HUM_CYCLE.growthPerS) / HUM_CYCLE.growthPerS).toBeLessThan(0.1);
     expect(Math.abs(firstNumber(decayText) - HUM_CYCLE.decayPerS) / HUM_CYCLE.decayPerS).toBeLessThan(0.1);
 
+    // The onset, timed by the report's fitted growth with its interval, where the tone set in
+    // (truth HUM_CYCLE.onsetS; the fake device may start the file a stutter late, hence the slack).
+    const onsetText = (await page.locator('#readout-onset .tile-value').textContent()) ?? '';
+    expect(onsetText).toMatch(/^at [\d.]+ s \(95 % CI [\d.]+–[\d.]+\)$/);
+    expect(firstNumber(onsetText)).toBeGreaterThan(HUM_CYCLE.onsetS - 0.5);
+    expect(firstNumber(onsetText)).toBeLessThan(HUM_CYCLE.onsetS + 1);
+
     // Derived figures follow from the shown decay rate and frequency (REFERENCES.md §5: ζ = α/ωn, Q = 1/(2ζ)).
     const alpha = firstNumber(decayText);
     const zeta = firstNumber(await page.locator('#readout-damping .tile-value').textContent());

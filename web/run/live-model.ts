@@ -4,7 +4,7 @@
  * readouts need (calibration, sensor scaling, band). Views read it on requestAnimationFrame;
  * only the controller writes it.
  */
-import type { Marker } from '../../dsp/types';
+import type { Marker, Onset } from '../../dsp/types';
 import type { UpdateMessage, MarginEstimate } from '../worker/protocol';
 import { emptyLiveSummary, isSameTone, type LiveSummary } from '../worker/live-summary';
 import type { Calibration } from '../settings';
@@ -22,6 +22,9 @@ export interface LiveModel {
   summary: LiveSummary;
   /** Latest margin of the quiet system (linear growth rate from the noise), when the analysis gives one. */
   margin: MarginEstimate | null;
+  /** The latest onset announced as it happened (microphone runs; dsp/live-onset.ts), and how many were announced. */
+  lastOnset: Onset | null;
+  onsetCount: number;
   /** Broadband level of the band, time-weighted, never below the tone's (dBFS, full-scale sine = 0 dBFS). */
   level: TimeWeightedLevel;
   /** The tone's level, time-weighted the same way. */
@@ -43,6 +46,8 @@ export function createLiveModel(weighting: TimeWeighting): LiveModel {
     buffer: createLiveBuffer(BUFFER_ROWS),
     summary: emptyLiveSummary(),
     margin: null,
+    lastOnset: null,
+    onsetCount: 0,
     level: createTimeWeightedLevel(weighting),
     toneLevel: createTimeWeightedLevel(weighting),
     weighting,
@@ -62,6 +67,8 @@ export function resetLiveModel(model: LiveModel, facts: Pick<LiveModel, 'inputKi
   resetLiveBuffer(model.buffer);
   model.summary = emptyLiveSummary();
   model.margin = null;
+  model.lastOnset = null;
+  model.onsetCount = 0;
   if (model.weighting !== facts.weighting) {
     model.level = createTimeWeightedLevel(facts.weighting);
     model.toneLevel = createTimeWeightedLevel(facts.weighting);
@@ -95,6 +102,10 @@ export function applyUpdate(model: LiveModel, m: UpdateMessage): Marker[] {
   b.version++;
   model.summary = m.summary;
   if (m.margin !== undefined) model.margin = m.margin;
+  if (m.onsets.length > 0) {
+    model.lastOnset = m.onsets[m.onsets.length - 1];
+    model.onsetCount += m.onsets.length;
+  }
   model.timeS = m.timeS;
   for (const f of m.frames) {
     // Both levels are in dBFS re a full-scale sine; the band's mean square holds the tone's, so

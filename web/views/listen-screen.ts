@@ -158,7 +158,7 @@ export const mountListenScreen: MountScreen = (root, app) => {
   // --- drawing ----------------------------------------------------------------------------
   function readoutInput(isFinal = false): Parameters<typeof readouts.update>[0] {
     const { levelDbfs, toneDbfs } = liveLevels(model);
-    return { summary: model.summary, margin: model.margin, levelDbfs, toneDbfs, calibration: model.calibration, isAWeighted: model.isAWeighted, inputKind: model.inputKind, weighting: model.weighting, isFinal };
+    return { summary: model.summary, margin: model.margin, lastOnset: model.lastOnset, onsetCount: model.onsetCount, levelDbfs, toneDbfs, calibration: model.calibration, isAWeighted: model.isAWeighted, inputKind: model.inputKind, weighting: model.weighting, isFinal };
   }
 
   function frame(): void {

@@ -3,7 +3,7 @@
  * level, regime, growth and decay rates, effective gain, damping ratio and Q, each with its unit
  * and 95 % interval. Text changes only when the value changes, so screen readers are not flooded.
  */
-import type { Report } from '../../dsp/types';
+import type { Interval, Onset, Report } from '../../dsp/types';
 import type { LiveSummary } from '../worker/live-summary';
 import type { MarginEstimate } from '../worker/protocol';
 import type { Calibration } from '../settings';
@@ -28,6 +28,9 @@ export const UPPER_ACTION_DBA = EU_EXPOSURE_VALUES.upperAction.lex8hDba;
 export interface ReadoutInput {
   summary: LiveSummary;
   margin: MarginEstimate | null;
+  /** The latest onset announced as it happened, and how many were (microphone runs; a file's come with its report). */
+  lastOnset: Onset | null;
+  onsetCount: number;
   /** Time-weighted levels, dBFS (full-scale sine = 0 dBFS). */
   levelDbfs: number;
   toneDbfs: number;
@@ -58,6 +61,21 @@ export function splitInterval(text: string): [string, string] {
   return at < 0 ? [text, ''] : [text.slice(0, at), text.slice(at + 1)];
 }
 
+/** The record's latest onset as the report times it (from the fitted growth curve, with its interval), and how many it found. */
+export function latestReportOnset(report: Report): { timeS: number; ci95S: Interval | null; frequencyHz: number; count: number } | null {
+  let best: { timeS: number; ci95S: Interval | null; frequencyHz: number; count: number } | null = null;
+  for (const tone of report.tones ?? []) {
+    for (const c of tone.cycles ?? []) {
+      if (c.onsetS !== null && (best === null || c.onsetS > best.timeS)) best = { timeS: c.onsetS, ci95S: c.onsetCi95S, frequencyHz: tone.frequencyHz, count: 0 };
+    }
+  }
+  // A report without cycles (version 1) lists its onsets alone.
+  const last = report.onsets[report.onsets.length - 1];
+  if (best === null && last !== undefined) best = { timeS: last.timeS, ci95S: null, frequencyHz: last.frequencyHz, count: 0 };
+  if (best !== null) best.count = report.onsets.length;
+  return best;
+}
+
 /** The readouts inside `host`. */
 export function createReadouts(host: HTMLElement): Readouts {
   const add = (key: string, label: string, isBig = false): Tile => {
@@ -76,6 +94,7 @@ export function createReadouts(host: HTMLElement): Readouts {
   const freq = add('frequency', 'Frequency', true);
   const level = add('level', 'Level', true);
   const regime = add('regime', 'Regime', true);
+  const onset = add('onset', 'Onset (tone set in)');
   const growth = add('growth', 'Growth rate');
   const decay = add('decay', 'Decay rate');
   const gain = add('gain', 'Effective gain (growth + decay)');
@@ -146,6 +165,21 @@ export function createReadouts(host: HTMLElement): Readouts {
     return Number.NaN;
   };
 
+  /** Live: the latest onset announced as it happened; at the end, the report's, timed by the fitted growth curve. */
+  const showOnset = (input: ReadoutInput, report?: Report): void => {
+    const plural = (n: number): string => `${n} onset${n === 1 ? '' : 's'}`;
+    if (input.isFinal && report) {
+      const o = latestReportOnset(report);
+      if (o === null) setValue(onset, formatSeconds(null, null, 'no onset in this record'));
+      else setValue(onset, `at ${formatSeconds(o.timeS, o.ci95S)}`, `${formatHz(o.frequencyHz)} · ${plural(o.count)} in the record · from the fitted growth`);
+      return;
+    }
+    const o = input.lastOnset;
+    if (o === null) setValue(onset, formatSeconds(null, null, input.inputKind === 'microphone' ? 'none seen yet' : 'a file\'s onsets come with its report'));
+    // The short frame's bin (tens of Hz wide) places the tone only roughly: the Frequency tile gives it.
+    else setValue(onset, `at ${formatSeconds(o.timeS)}`, `${plural(input.onsetCount)} so far · announced as it happened; the report times it from the fitted growth`);
+  };
+
   const update = (input: ReadoutInput, report?: Report): void => {
     const { summary, isFinal } = input;
     // The frequency stays beside its rates after the tone stops: the latest tracked one, else the rates' own.
@@ -181,6 +215,7 @@ export function createReadouts(host: HTMLElement): Readouts {
     regime.root.dataset.regime = summary.regime;
     setText(regime.detail, isFinal ? 'at the end of the record' : '');
 
+    showOnset(input, report);
     setValue(growth, formatRate(summary.growthRatePerS, summary.growthRateCi95PerS, 'no growth seen yet'), isShowable(summary.doublingTimeS) ? `doubling time ${formatSeconds(summary.doublingTimeS)}` : '');
     setValue(decay, formatRate(summary.decayRatePerS, summary.decayRateCi95PerS, 'no decay seen yet'), isShowable(summary.t60S) ? `T60 ${formatSeconds(summary.t60S)}` : '');
     setValue(gain, formatRate(summary.effectiveGainPerS, summary.effectiveGainCi95PerS, 'needs growth and decay'));
