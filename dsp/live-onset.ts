@@ -15,8 +15,10 @@
  * A CUSUM alarm is an onset only when the rise goes on for longer than the short kernel: three
  * consecutive windows of the run step up by similar, significant amounts (isRising). A step (a line
  * or mains switched on, a loudness change) rises within one kernel and then holds; a knock rises
- * within one kernel and then decays: neither passes, and the bin takes the new level as its
- * background. A growth rises steadily and passes.
+ * within one kernel and then decays: neither passes, and once the step has wholly entered the
+ * frame the bin takes its new level as its background and starts a fresh run, so a tone that
+ * enters well above the noise and then grows is announced by its growth. A growth rises steadily
+ * and passes.
  *
  * State is allocated once by createLiveOnsetState; stepLiveOnset allocates nothing.
  */
@@ -115,8 +117,9 @@ export interface LiveOnsetState {
   /** Hops each bin's CUSUM has stood at zero in a row, and the last frame it stood at zero. */
   zeroHops: Int32Array;
   lastZero: Float64Array;
-  /** 1 while a bin's run holds a rise over one frame length steeper than any growth (stepNp). */
+  /** 1 while a bin's run holds a rise over one frame length steeper than any growth (stepNp), and the frame that showed it. */
   isStepRun: Uint8Array;
+  stepFrame: Float64Array;
   /** Least rise over one frame length that marks a step, Np (STEP_RATE_FACTOR). */
   readonly stepNp: number;
   /** Ratio under which no rise reaches stepNp (isStepRise): e^stepNp·(1 − STEP_SCREEN_MARGIN). */
@@ -198,6 +201,7 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
     zeroHops: new Int32Array(bins),
     lastZero: new Float64Array(bins),
     isStepRun: new Uint8Array(bins),
+    stepFrame: new Float64Array(bins),
     stepNp,
     stepRatioScreen: Math.exp(stepNp) * (1 - STEP_SCREEN_MARGIN),
     floor: new Float64Array(bins),
@@ -400,7 +404,18 @@ function onAlarm(st: LiveOnsetState, b: number, pw: number, s: number): void {
   const frame = st.frame;
   closeZeroStretch(st, b, frame);
   // A run that rose faster than any growth (a step or a knock entering the frame) is never an onset.
-  if (st.isStepRun[b] === 0 && frame >= HOPS_PER_FRAME && isStepRise(st, b, frame)) st.isStepRun[b] = 1;
+  if (st.isStepRun[b] === 0 && frame >= HOPS_PER_FRAME && isStepRise(st, b, frame)) {
+    st.isStepRun[b] = 1;
+    st.stepFrame[b] = frame;
+  } else if (st.isStepRun[b] === 1 && frame - st.stepFrame[b] >= HOPS_PER_FRAME) {
+    // The step has wholly entered the frame: its level is the bin's background and a fresh run
+    // starts from it, so a tone that enters well above the noise and then grows is judged by its
+    // growth (a step that holds, or a knock that decays, gives no rise after it).
+    restartAt(st, b, pw, frame);
+    st.isStepRun[b] = 0;
+    st.lastZero[b] = frame;
+    return;
+  }
   if (s < st.threshold) return;
   const len = Math.min(frame - st.runStart[b], st.runMax);
   if (frame >= st.holdUntil[b] && st.heldBy[b] < 0 && st.isStepRun[b] === 0 && isPeak(st, b) && isRising(st, b, len)) {
@@ -413,13 +428,17 @@ function onAlarm(st: LiveOnsetState, b: number, pw: number, s: number): void {
     }
     silenceAround(st, b, frame + Math.round(HOLD_S / st.hopS));
   } else if (len >= st.runMax) {
-    // A rise that never showed itself as a growth is a new level: the bin takes it as background
-    // until its power falls back to the one before.
-    keepFloor(st, b);
-    st.mean[b] = pw;
-    st.cusum[b] = 0;
-    st.runStart[b] = frame;
+    // A rise that never showed itself as a growth is a new level.
+    restartAt(st, b, pw, frame);
   }
+}
+
+/** Bin b takes power pw as its background, until its power falls back to the one before, and its run starts afresh. */
+function restartAt(st: LiveOnsetState, b: number, pw: number, frame: number): void {
+  keepFloor(st, b);
+  st.mean[b] = pw;
+  st.cusum[b] = 0;
+  st.runStart[b] = frame;
 }
 
 function processFrame(st: LiveOnsetState): void {

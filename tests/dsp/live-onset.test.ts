@@ -52,6 +52,27 @@ describe('live onset detector', () => {
     }
   });
 
+  it('announces a tone that enters 40 dB over the noise of its bin and then grows, during its growth; the same tone entering at its limit is a step', () => {
+    // A hum set off by a firing burst: the tone appears well above the noise (a step, never an
+    // onset by itself) and grows at 7 1/s from there into its limit 0.66 s later. Truth: the
+    // synthetic envelope (dsp/synth.ts humCycleEnvelope), onset at 2.5 s; the record ends while
+    // the tone holds.
+    const rng = createRng(17);
+    for (const freq of [120, 171.3, 200 + 600 * rng.uniform()]) {
+      const tone = (startAmplitude: number): Float32Array => {
+        const env = humCycleEnvelope({ onsetS: 2.5, startAmplitude, growthPerS: 7, limitAmplitude: 0.4, offS: 10, decayPerS: 4.5 });
+        return synthesize({ sampleRateHz: FS, durationS: 5.5, tones: [{ frequencyHz: freq, envelope: env }], noiseRms: 0.0004, seed: Math.round(freq) });
+      };
+      const found = detect(tone(0.004));
+      expect(found.length, `${freq.toFixed(1)} Hz`).toBe(1);
+      expect(Math.abs(found[0].freqHz - freq)).toBeLessThanOrEqual(FS / 128);
+      // Announced while it grows: it reaches its limit at 2.5 + ln(100)/7 = 3.16 s.
+      expect(found[0].atS, `${freq.toFixed(1)} Hz`).toBeLessThan(2.5 + Math.log(100) / 7);
+      expect(found[0].timeS).toBeGreaterThanOrEqual(2.5);
+      expect(detect(tone(0.4)), `${freq.toFixed(1)} Hz`).toEqual([]);
+    }
+  });
+
   it('announces nothing on 60 s of toneless noise with ±10 dB steps', () => {
     const rng = createRng(42);
     const x = new Float32Array(60 * FS);
