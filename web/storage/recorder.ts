@@ -297,7 +297,7 @@ export async function createSessionRecorder(meta: NewSessionMeta, opts: Recorder
     },
     appendFrames(frames) {
       if (isFinished) return;
-      // The analysis reuses its frame objects after the next push: keep copies.
+      // A caller may write to its row objects again after handing them over: keep copies.
       for (const f of frames) pendingFrames.push({ ...f });
     },
     addMarker(marker) {
