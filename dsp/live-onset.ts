@@ -23,7 +23,7 @@
  * State is allocated once by createLiveOnsetState; stepLiveOnset allocates nothing.
  */
 import { designSnr, overlapInflation, riseErrorFactors, thresholdFor } from './live-onset-statistics';
-import { kthSmallest } from './stats';
+import { commonLevel, createCommonLevel, isOnSkirt, type CommonLevel } from './live-onset-level';
 import { computeSpectrumFrame, createSpectrumState, feedSpectrum, resetSpectrumFraming, type SpectrumState } from './spectrum';
 
 /** Short frame, s (rounded to a power of two of samples): 16 ms, under one e-folding time of a 50 1/s growth. */
@@ -81,8 +81,6 @@ const RUN_MAX_S = 1.2;
 const HOLD_BINS = 3;
 const HOLD_S = 3;
 const MAX_HARMONIC = 10;
-/** The band's median ratio is first looked for within this factor of the previous frame's (a speed choice only: the result is exact either way). */
-const MEDIAN_NEAR = 1.5;
 /** Most onsets announced by one step. */
 const MAX_ONSETS_PER_STEP = 8;
 
@@ -146,12 +144,10 @@ export interface LiveOnsetState {
    */
   logRing: Float64Array;
   logFrame: Float64Array;
-  /** The latest frame's power of each bin (+1e-30), and its ratio to the background (reordered by the median's selection). */
+  /** The latest frame's power of each bin (+1e-30). */
   band: Float64Array;
-  scratch: Float64Array;
-  /** Values of scratch near the previous frame's median (selectNear), and that median (NaN: none yet). */
-  nearMedian: Float64Array;
-  lastMedian: number;
+  /** The band's common level (dsp/live-onset-level.ts). */
+  level: CommonLevel;
   winMean: Float64Array;
   /** var(m1 − m2) / E[RSS] of the rise test for each window length (riseErrorFactors). */
   readonly riseFactor: Float64Array;
@@ -212,9 +208,7 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
     logRing: new Float64Array(bins * runMax),
     logFrame: new Float64Array(bins * runMax).fill(-1),
     band: new Float64Array(bins),
-    scratch: new Float64Array(bins),
-    nearMedian: new Float64Array(bins),
-    lastMedian: Number.NaN,
+    level: createCommonLevel(bins),
     winMean: new Float64Array(3),
     riseFactor: riseErrorFactors(spec.window, hop, Math.floor(runMax / 3)),
     frame: 0,
@@ -223,29 +217,6 @@ export function createLiveOnsetState(cfg: LiveOnsetConfig): LiveOnsetState {
     onsetFreqHz: new Float64Array(MAX_ONSETS_PER_STEP),
     onsetCount: 0,
   };
-}
-
-/**
- * The k-th smallest of a[0..n), the value kthSmallest returns, found faster when it lies in
- * [lo, hi): one pass counts the values under lo and gathers those in [lo, hi) into `near`, where
- * the k-th is the (k − below)-th. Otherwise (or when a value does not compare) kthSmallest on a as it stands.
- */
-function selectNear(a: Float64Array, n: number, k: number, lo: number, hi: number, near: Float64Array): number {
-  let below = 0;
-  let m = 0;
-  let above = 0;
-  // Counts by arithmetic on the comparisons rather than branches (the values fall either side at random).
-  for (let i = 0; i < n; i++) {
-    const v = a[i];
-    const isBelow = +(v < lo);
-    const isAbove = +(v >= hi);
-    near[m] = v;
-    m += +(v >= lo) & +(v < hi);
-    below += isBelow;
-    above += isAbove;
-  }
-  if (below + m + above === n && k >= below && k < below + m) return kthSmallest(near, m, k - below);
-  return kthSmallest(a, n, k);
 }
 
 /** Ln of bin b's power over its background at frame f (one of the last runMax frames), taken once. */
@@ -355,28 +326,15 @@ function keepFloor(st: LiveOnsetState, q: number): void {
   if (st.floor[q] === 0) st.floor[q] = st.mean[q];
 }
 
-/**
- * The band's common level of the latest frame: the median over the band of each bin's power over
- * its background, over ln 2 (the median of an exponential power is ln 2 of its mean). A broadband
- * loudness step scales every bin alike, so dividing by it cancels the step. Fills st.band.
- */
-function commonLevel(st: LiveOnsetState): number {
+/** The band's common level of the latest frame (dsp/live-onset-level.ts), which fills st.band with each bin's power. */
+function bandLevel(st: LiveOnsetState): number {
   const bins = st.hiBin - st.loBin + 1;
   const p = st.spec.power;
   const loBin = st.loBin;
   const mean = st.mean;
   const band = st.band;
-  const ratio = st.scratch;
   if (st.frame === 0) for (let b = 0; b < bins; b++) mean[b] = p[loBin + b] + 1e-30;
-  for (let b = 0; b < bins; b++) {
-    const pw = p[loBin + b] + 1e-30;
-    band[b] = pw;
-    ratio[b] = pw / mean[b];
-  }
-  // The median moves little from frame to frame: look for it near the previous one first.
-  const median = selectNear(ratio, bins, bins >> 1, st.lastMedian / MEDIAN_NEAR, st.lastMedian * MEDIAN_NEAR, st.nearMedian);
-  st.lastMedian = median;
-  return median / Math.LN2;
+  return commonLevel(st.level, p, loBin, band, mean, bins);
 }
 
 /**
@@ -418,7 +376,7 @@ function onAlarm(st: LiveOnsetState, b: number, pw: number, s: number): void {
   }
   if (s < st.threshold) return;
   const len = Math.min(frame - st.runStart[b], st.runMax);
-  if (frame >= st.holdUntil[b] && st.heldBy[b] < 0 && st.isStepRun[b] === 0 && isPeak(st, b) && isRising(st, b, len)) {
+  if (frame >= st.holdUntil[b] && st.heldBy[b] < 0 && st.isStepRun[b] === 0 && isPeak(st, b) && !isOnSkirt(st.level, st.band, b) && isRising(st, b, len)) {
     if (st.onsetCount < MAX_ONSETS_PER_STEP) {
       // The change point of the CUSUM: the last frame it stood at zero; its centre is where the rise began.
       const framesBack = frame - st.lastZero[b];
@@ -443,7 +401,7 @@ function restartAt(st: LiveOnsetState, b: number, pw: number, frame: number): vo
 
 function processFrame(st: LiveOnsetState): void {
   computeSpectrumFrame(st.spec);
-  const common = commonLevel(st);
+  const common = bandLevel(st);
   const bins = st.hiBin - st.loBin + 1;
   const frame = st.frame;
   const isWarm = frame >= st.warmFrames;

@@ -73,6 +73,22 @@ describe('live onset detector', () => {
     }
   });
 
+  it('announces a loud hum cycle once: its die-away is no onset anywhere in the band', () => {
+    // A tone 90 dB over the noise of a bin spreads through the short Hann frame over much of the
+    // band (REFERENCES.md §97); as it dies away, that spread must not read as rising power in
+    // other bins. Truth: the synthetic envelope (dsp/synth.ts humCycleEnvelope), onset at 2.5 s.
+    const rng = createRng(23);
+    for (let k = 0; k < 16; k++) {
+      const freq = 60 + 1600 * rng.uniform();
+      const env = humCycleEnvelope({ onsetS: 2.5, startAmplitude: k % 2 === 0 ? 0.004 : 0.0001, growthPerS: 5 + 40 * rng.uniform(), limitAmplitude: 0.4, offS: 5.5, decayPerS: 3 + 10 * rng.uniform() });
+      const x = synthesize({ sampleRateHz: FS, durationS: 9, tones: [{ frequencyHz: freq, envelope: env }], noiseRms: 0.0004, seed: 300 + k });
+      const found = detect(x);
+      expect(found.map((o) => o.freqHz), `${freq.toFixed(1)} Hz`).toHaveLength(1);
+      expect(Math.abs(found[0].freqHz - freq), `${freq.toFixed(1)} Hz`).toBeLessThanOrEqual(FS / 128);
+      expect(found[0].timeS).toBeGreaterThanOrEqual(2.5);
+    }
+  });
+
   it('announces nothing on 60 s of toneless noise with ±10 dB steps', () => {
     const rng = createRng(42);
     const x = new Float32Array(60 * FS);
