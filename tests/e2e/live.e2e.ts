@@ -53,6 +53,13 @@ describe('live listening with a hum cycle as the microphone', () => {
     // wide (a short stretch of envelope), so only its presence and form are checked here; the 10 %
     // check applies to the figures of the whole record shown once stopped.
     await expect.poll(async () => growthValue.textContent(), { timeout: 15_000, interval: 200 }).toMatch(/^\d+\.\d+ 1\/s \(95 % CI [\d.]+–[\d.]+\)$/);
+    // The onset as announced while listening (the short-frame detector), where the tone set in
+    // (truth HUM_CYCLE.onsetS; the fake device may start the file a stutter late, hence the slack).
+    const onsetValue = page.locator('#readout-onset .tile-value');
+    await expect.poll(async () => onsetValue.textContent(), { timeout: 15_000, interval: 200 }).toMatch(/^at [\d.]+ s$/);
+    const liveOnsetS = firstNumber(await onsetValue.textContent());
+    expect(liveOnsetS).toBeGreaterThan(HUM_CYCLE.onsetS - 0.5);
+    expect(liveOnsetS).toBeLessThan(HUM_CYCLE.onsetS + 1);
     await screenshot(page, 'listen-live');
 
     // A "setting changed" marker with a control value while the tone is steady.
