@@ -22,7 +22,7 @@ export interface LiveModel {
   summary: LiveSummary;
   /** Latest margin of the quiet system (linear growth rate from the noise), when the analysis gives one. */
   margin: MarginEstimate | null;
-  /** The latest onset announced as it happened (microphone runs; dsp/live-onset.ts), and how many were announced. */
+  /** The latest onset announced as it happened (dsp/live-onset.ts), and how many were announced. */
   lastOnset: Onset | null;
   onsetCount: number;
   /** Broadband level of the band, time-weighted, never below the tone's (dBFS, full-scale sine = 0 dBFS). */

@@ -28,7 +28,7 @@ export const UPPER_ACTION_DBA = EU_EXPOSURE_VALUES.upperAction.lex8hDba;
 export interface ReadoutInput {
   summary: LiveSummary;
   margin: MarginEstimate | null;
-  /** The latest onset announced as it happened, and how many were (microphone runs; a file's come with its report). */
+  /** The latest onset announced as it happened, and how many were. */
   lastOnset: Onset | null;
   onsetCount: number;
   /** Time-weighted levels, dBFS (full-scale sine = 0 dBFS). */
@@ -175,7 +175,7 @@ export function createReadouts(host: HTMLElement): Readouts {
       return;
     }
     const o = input.lastOnset;
-    if (o === null) setValue(onset, formatSeconds(null, null, input.inputKind === 'microphone' ? 'none seen yet' : 'a file\'s onsets come with its report'));
+    if (o === null) setValue(onset, formatSeconds(null, null, 'none seen yet'));
     // The short frame's bin (tens of Hz wide) places the tone only roughly: the Frequency tile gives it.
     else setValue(onset, `at ${formatSeconds(o.timeS)}`, `${plural(input.onsetCount)} so far · announced as it happened; the report times it from the fitted growth`);
   };

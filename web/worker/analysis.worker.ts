@@ -72,14 +72,6 @@ const DEFAULT_BAND_HZ: [number, number] = [20, 4000];
 
 let run: Run | null = null;
 
-/**
- * What a file's analysis leaves out: announcing onsets as they happen (dsp/live-onset.ts, the
- * largest stage of push()). A file is read many times faster than it plays, so its report, whose
- * onsets are timed by the fitted growth curves, follows within moments; the Listen screen shows
- * those. The report is the same either way (dsp/types.ts AnalysisConfig.announceOnsets).
- */
-const FILE_RUN: Partial<AnalysisConfig> = { announceOnsets: false };
-
 function post(message: FromWorker): void {
   self.postMessage(message, transferablesOf(message));
 }
@@ -384,7 +376,7 @@ async function analyseWavStream(message: Extract<ToWorker, { type: 'analyse-wav'
       const decodeMs = performance.now() - t0;
       const format = decoder.format;
       if (!r && format) {
-        r = createRun(id, { ...FILE_RUN, sampleRateHz: format.sampleRateHz, bandLowHz: message.bandLowHz, bandHighHz: message.bandHighHz, sampleBits: wavSampleBits(format) }, message.isKeepingAudio, null);
+        r = createRun(id, { sampleRateHz: format.sampleRateHz, bandLowHz: message.bandLowHz, bandHighHz: message.bandHighHz, sampleBits: wavSampleBits(format) }, message.isKeepingAudio, null);
         run = r;
         const frames = decoder.declaredFrames;
         post({
@@ -429,7 +421,7 @@ function handle(message: ToWorker): void {
       return;
     }
     case 'analyse-file': {
-      run = createRun(message.id, { ...message.config, ...FILE_RUN }, message.isKeepingAudio, null);
+      run = createRun(message.id, message.config, message.isKeepingAudio, null);
       post({ type: 'ready', id: message.id });
       analyseFile(run, message.channels);
       return;
