@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { modeStatisticsLines } from '../../dsp/cli/format-noise';
+import { modeStatisticsLines } from '../../dsp/cli/format';
 import type { Report } from '../../dsp/types';
 
 const base: Report = {
