@@ -4,10 +4,10 @@
  * page never stalls and the memory they used is given back at once. Where workers are missing
  * (unit tests in Node) the same code runs on this thread.
  */
-import { getSessionDb, recoverInterruptedSessions } from './sessions';
+import { getSessionDb, recoverInterruptedSessions, type StoredAnalysisOptions } from './sessions';
 import { STORE_METHODS, type Result, type StoreMethod, type Tail } from './store-methods';
 import { ImportError, importBundle, type ImportResult } from './import';
-import { analyseStoredAudio, reanalyseInThread, type StoredAnalysisOptions } from './reanalyse';
+import { analyseStoredAudio, reanalyseInThread } from './reanalyse';
 import type { Report } from '../../dsp/types';
 import { createAudioWriter, type AudioWriter } from './audio-writer';
 import type { SessionDb } from './db';

@@ -6,22 +6,15 @@
  * in blocks and yields between batches, so a thread running it also stays responsive.
  */
 import { MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ } from '../../dsp/condition';
-import { createAnalysis, type Marker, type Report } from '../../dsp/index';
+import { createAnalysis, type Report } from '../../dsp/index';
 import type { SessionDb } from './db';
-import { loadAudio } from './sessions';
+import { loadAudio, type StoredAnalysisOptions } from './sessions';
 
 const BLOCK_SAMPLES = 4096;
 /** Blocks analysed between two yields to the event loop (and between two progress reports). */
 const BLOCKS_PER_SLICE = 64;
 
 const yieldToPage = (): Promise<void> => new Promise((r) => setTimeout(r, 0));
-
-/** How to analyse: the user's markers, and the band (Hz) when not the analysis's default. */
-export interface StoredAnalysisOptions {
-  markers: readonly Marker[];
-  bandLowHz?: number;
-  bandHighHz?: number;
-}
 
 /**
  * Analyses `audio` (full scale ±1) at `sampleRateHz`; resolves with the report, or null at a rate

@@ -3,7 +3,6 @@
  * runs in one IndexedDB transaction, so it lands whole or not at all.
  */
 import type { Marker, Report, TrackFrame } from '../../dsp/types';
-import type { StoredAnalysisOptions } from './reanalyse';
 import {
   BYTES_PER_AUDIO_SAMPLE,
   BYTES_PER_FRAME,
@@ -282,6 +281,13 @@ export async function findInterruptedSessions(db: SessionDb, nowMs = Date.now(),
  * covering it: two write intervals (frames of the last block can land one write after its audio).
  */
 const AUDIO_TRACK_SLACK_S = 2;
+
+/** How to analyse: the user's markers, and the band (Hz) when not the analysis's default. */
+export interface StoredAnalysisOptions {
+  markers: readonly Marker[];
+  bandLowHz?: number;
+  bandHighHz?: number;
+}
 
 /** Re-analyses stored audio into a report (the streaming analysis of dsp/). Null when not possible. */
 export type AudioAnalyser = (audio: Float32Array, sampleRateHz: number, options: StoredAnalysisOptions) => Promise<Report | null>;
