@@ -161,21 +161,13 @@ export function appendEnvelope(tr: ToneRuntime, scratch: EnvelopeScratch, count:
 /** Builds the envelope series of store entries [i0, i1) of a tone, without clipped stretches. */
 export function buildSeries(tr: ToneRuntime, i0: number, i1: number, isWide: boolean): EnvelopeSeries {
   const src = isWide ? tr.powerWide : tr.power;
-  const guard = Math.round(CLIP_GUARD_S * tr.env.outputRateHz);
-  const keep = new Uint8Array(Math.max(0, i1 - i0));
-  let lastClip = -Infinity;
-  for (let k = i0 - guard; k < i1 + guard; k++) {
-    if (k >= 0 && k < tr.n && tr.clipped[k]) lastClip = k;
-    // Forward pass marks samples within guard after a clip; the backward pass those before one.
-    if (k >= i0 && k < i1) keep[k - i0] = k - lastClip > guard ? 1 : 0;
+  const times = tr.timeS;
+  const keep = clipFreeMask(tr, i0, i1);
+  let count = i1 - i0;
+  if (keep !== null) {
+    count = 0;
+    for (let q = 0; q < keep.length; q++) count += keep[q];
   }
-  let nextClip = Infinity;
-  for (let k = i1 + guard - 1; k >= i0; k--) {
-    if (k < tr.n && tr.clipped[k]) nextClip = k;
-    if (k < i1 && nextClip - k <= guard) keep[k - i0] = 0;
-  }
-  let count = 0;
-  for (let q = 0; q < keep.length; q++) count += keep[q];
   // Neighbouring envelope samples are correlated over about 1/(2B): averaging blocks of up to a
   // quarter of that keeps at least 2 samples per correlation time (so N_eff = 2·B·D is unchanged)
   // and makes the fits several times faster. The fit's dispersion absorbs the smaller scatter.
@@ -189,9 +181,9 @@ export function buildSeries(tr: ToneRuntime, i0: number, i1: number, isWide: boo
   let accT = 0;
   let inBlock = 0;
   for (let k = i0; k < i1; k++) {
-    if (!keep[k - i0]) continue;
+    if (keep !== null && !keep[k - i0]) continue;
     acc += src[k];
-    accT += tr.timeS[k];
+    accT += times[k];
     inBlock++;
     if (inBlock === block) {
       timeS[o] = accT / block;
@@ -208,6 +200,32 @@ export function buildSeries(tr: ToneRuntime, i0: number, i1: number, isWide: boo
     o++;
   }
   return { timeS: timeS.subarray(0, o), power: power.subarray(0, o), bandwidthHz: bw };
+}
+
+/**
+ * Which envelope samples of [i0, i1) lie more than CLIP_GUARD_S from any clipped one (1 = kept);
+ * null when none is that close (every sample kept).
+ */
+function clipFreeMask(tr: ToneRuntime, i0: number, i1: number): Uint8Array | null {
+  const guard = Math.round(CLIP_GUARD_S * tr.env.outputRateHz);
+  const clipped = tr.clipped;
+  const n = tr.n;
+  let isAnyClip = false;
+  for (let k = Math.max(0, i0 - guard); k < Math.min(n, i1 + guard) && !isAnyClip; k++) if (clipped[k]) isAnyClip = true;
+  if (!isAnyClip) return null;
+  const keep = new Uint8Array(Math.max(0, i1 - i0));
+  let lastClip = -Infinity;
+  for (let k = i0 - guard; k < i1 + guard; k++) {
+    if (k >= 0 && k < n && clipped[k]) lastClip = k;
+    // Forward pass marks samples within guard after a clip; the backward pass those before one.
+    if (k >= i0 && k < i1) keep[k - i0] = k - lastClip > guard ? 1 : 0;
+  }
+  let nextClip = Infinity;
+  for (let k = i1 + guard - 1; k >= i0; k--) {
+    if (k < n && clipped[k]) nextClip = k;
+    if (k < i1 && nextClip - k <= guard) keep[k - i0] = 0;
+  }
+  return keep;
 }
 
 /** First index ≥ lo of a contiguous run (no gap in time) ending at idx, stepping back at most maxBack entries. */
