@@ -32,10 +32,13 @@ const LINE_OVER_MEDIAN = 30;
 const MIN_KEPT_SHARE = 0.25;
 /**
  * The band's median power (what a line stands over) is taken afresh at least every this many
- * frames, and whenever a bin stands over LINE_OVER_MEDIAN times the one last taken (a speed choice:
- * with no strong line, most frames need only the band's largest power).
+ * frames, and when a bin stands over LINE_OVER_MEDIAN times the one last taken while the band's
+ * largest power has moved by more than a factor TOP_MOVE since then (a line came, or grew or died
+ * away, and its leakage with it). A speed choice: with no strong line, or a line that holds, most
+ * frames need only the band's largest power.
  */
 const TYPICAL_EVERY_FRAMES = 16;
+const TOP_MOVE = 2;
 /** Steps per bin of the line's position within its bin when the leakage envelope is computed. */
 const OFFSET_STEPS = 50;
 
@@ -57,8 +60,9 @@ export interface CommonLevel {
   near: Float64Array;
   lastMedian: number;
   lastRawMedian: number;
-  /** Frames since the band's median power was last taken. */
+  /** Frames since the band's median power was last taken, and the band's largest power then. */
   typicalAge: number;
+  topThen: number;
 }
 
 /** Work arrays for a band of `bins` bins. */
@@ -87,6 +91,7 @@ export function createCommonLevel(bins: number): CommonLevel {
     lastMedian: Number.NaN,
     lastRawMedian: Number.NaN,
     typicalAge: TYPICAL_EVERY_FRAMES - 1,
+    topThen: 0,
   };
 }
 
@@ -119,11 +124,14 @@ function selectNear(a: Float64Array, n: number, k: number, lo: number, hi: numbe
  */
 function markLeakage(c: CommonLevel, band: Float64Array, bins: number, top: number): number {
   c.lineCount = 0;
-  if (++c.typicalAge >= TYPICAL_EVERY_FRAMES || top > LINE_OVER_MEDIAN * c.lastRawMedian) {
+  const isLine = top > LINE_OVER_MEDIAN * c.lastRawMedian;
+  const hasTopMoved = top > TOP_MOVE * c.topThen || top * TOP_MOVE < c.topThen;
+  if (++c.typicalAge >= TYPICAL_EVERY_FRAMES || (isLine && hasTopMoved)) {
     const raw = c.raw;
     raw.set(band.subarray(0, bins));
     c.lastRawMedian = selectNear(raw, bins, bins >> 1, c.lastRawMedian / MEDIAN_NEAR, c.lastRawMedian * MEDIAN_NEAR, c.near);
     c.typicalAge = 0;
+    c.topThen = top;
   }
   const typical = c.lastRawMedian;
   if (!(top > LINE_OVER_MEDIAN * typical)) return 0;
