@@ -128,7 +128,7 @@ function markLeakage(c: CommonLevel, band: Float64Array, bins: number, top: numb
   const hasTopMoved = top > TOP_MOVE * c.topThen || top * TOP_MOVE < c.topThen;
   if (++c.typicalAge >= TYPICAL_EVERY_FRAMES || (isLine && hasTopMoved)) {
     const raw = c.raw;
-    raw.set(band.subarray(0, bins));
+    raw.set(band); // band and raw both hold one value per bin of the band
     c.lastRawMedian = selectNear(raw, bins, bins >> 1, c.lastRawMedian / MEDIAN_NEAR, c.lastRawMedian * MEDIAN_NEAR, c.near);
     c.typicalAge = 0;
     c.topThen = top;
