@@ -220,7 +220,28 @@ interface BlockSums {
   m2a: Float64Array;
 }
 
-function blockSums(u: ComplexEnvelope, lags: Int32Array, segments: number): BlockSums {
+/** |u|² and |u| of every sample, which every lag's sums read (computed once per envelope). */
+interface Powers {
+  y: Float64Array;
+  amp: Float64Array;
+}
+
+function powersOf(u: ComplexEnvelope): Powers {
+  const { re, im } = u;
+  const y = new Float64Array(re.length);
+  const amp = new Float64Array(re.length);
+  for (let t = 0; t < re.length; t++) {
+    y[t] = re[t] * re[t] + im[t] * im[t];
+    amp[t] = Math.sqrt(y[t]);
+  }
+  return { y, amp };
+}
+
+/**
+ * The sums of each block, one lag at a time: every sum is still taken over t in increasing order,
+ * so the values are those of summing all lags at each t; the running sums stay in registers.
+ */
+function blockSums(u: ComplexEnvelope, p: Powers, lags: Int32Array, segments: number): BlockSums {
   const L = lags.length;
   const kMax = lags[L - 1];
   const usable = u.re.length - kMax;
@@ -237,34 +258,57 @@ function blockSums(u: ComplexEnvelope, lags: Int32Array, segments: number): Bloc
     m2a: new Float64Array(segments * L),
   };
   const { re, im } = u;
+  const { y, amp } = p;
   for (let g = 0; g < segments; g++) {
     const t0 = Math.floor((g * usable) / segments);
     const t1 = Math.floor(((g + 1) * usable) / segments);
+    let sy = 0;
+    let sy2 = 0;
+    let sy3 = 0;
     for (let t = t0; t < t1; t++) {
-      const ar = re[t];
-      const ai = im[t];
-      const y = ar * ar + ai * ai;
-      s.count[g] += 1;
-      s.sy[g] += y;
-      s.sy2[g] += y * y;
-      s.sy3[g] += y * y * y;
-      for (let l = 0; l < L; l++) {
-        const br = re[t + lags[l]];
-        const bi = im[t + lags[l]];
+      const yt = y[t];
+      sy += yt;
+      sy2 += yt * yt;
+      sy3 += yt * yt * yt;
+    }
+    s.count[g] = Math.max(0, t1 - t0);
+    s.sy[g] = sy;
+    s.sy2[g] = sy2;
+    s.sy3[g] = sy3;
+    for (let l = 0; l < L; l++) {
+      const k = lags[l];
+      let c1r = 0;
+      let c1i = 0;
+      let c3r = 0;
+      let c3i = 0;
+      let m2 = 0;
+      let m2a = 0;
+      for (let t = t0; t < t1; t++) {
+        const ar = re[t];
+        const ai = im[t];
+        const br = re[t + k];
+        const bi = im[t + k];
         // conj(u(t)) · u(t+k)
         const pr = ar * br + ai * bi;
         const pi = ar * bi - ai * br;
-        const q = g * L + l;
-        s.c1r[q] += pr;
-        s.c1i[q] += pi;
-        s.c3r[q] += y * pr;
-        s.c3i[q] += y * pi;
+        const yt = y[t];
+        c1r += pr;
+        c1i += pi;
+        c3r += yt * pr;
+        c3i += yt * pi;
         const dr = br - ar;
         const di = bi - ai;
-        s.m2[q] += dr * dr + di * di;
-        const da = Math.sqrt(br * br + bi * bi) - Math.sqrt(y);
-        s.m2a[q] += da * da;
+        m2 += dr * dr + di * di;
+        const da = amp[t + k] - amp[t];
+        m2a += da * da;
       }
+      const q = g * L + l;
+      s.c1r[q] = c1r;
+      s.c1i[q] = c1i;
+      s.c3r[q] = c3r;
+      s.c3i[q] = c3i;
+      s.m2[q] = m2;
+      s.m2a[q] = m2a;
     }
   }
   return s;
@@ -465,8 +509,8 @@ function invalidRoute(reason: string): RouteEstimate {
   return { isValid: false, growthRatePerS: Number.NaN, ci95PerS: [Number.NaN, Number.NaN], saturation: Number.NaN, noiseIntensity: Number.NaN, reason };
 }
 
-function analyseWithLags(u: ComplexEnvelope, lags: Int32Array, filter: BandFilterEffect): { full: Solution; reps: Solution[]; lagsS: Float64Array } {
-  const sums = blockSums(u, lags, SEGMENTS);
+function analyseWithLags(u: ComplexEnvelope, p: Powers, lags: Int32Array, filter: BandFilterEffect): { full: Solution; reps: Solution[]; lagsS: Float64Array } {
+  const sums = blockSums(u, p, lags, SEGMENTS);
   const L = lags.length;
   const design = lagDesign(lags, u.rateHz, filter);
   const lagsS = design.lagsS;
@@ -516,11 +560,12 @@ export function estimateEnvelopeStatistics(u: ComplexEnvelope, filter: BandFilte
   if (maxHi < lo + LAG_MIN_COUNT - 1) return fail('record too short for the envelope statistics');
   // Pass 1 on a short lag window, pass 2 on a window sized by the relaxation rate found (the drift
   // fits start at the filter's correlation length lo).
-  let pass = analyseWithLags(u, lagSet(lagSpan(FIRST_PASS_SPAN_S)), filter);
+  const powers = powersOf(u);
+  let pass = analyseWithLags(u, powers, lagSet(lagSpan(FIRST_PASS_SPAN_S)), filter);
   const p1 = pass.full;
   let rate = relaxationRate(Number.isFinite(p1.nuPdf) ? p1.nuPdf : p1.nuDrift, Number.isFinite(p1.kappaPdf) ? p1.kappaPdf : p1.kappaDrift, p1.sigma2);
   if (Number.isFinite(rate) && rate > 0) {
-    pass = analyseWithLags(u, lagSet(lagSpan(LAG_SPAN_RELAXATIONS / rate)), filter);
+    pass = analyseWithLags(u, powers, lagSet(lagSpan(LAG_SPAN_RELAXATIONS / rate)), filter);
   }
   const { full, reps, lagsS } = pass;
   rate = relaxationRate(Number.isFinite(full.nuPdf) ? full.nuPdf : full.nuDrift, full.kappaPdf, full.sigma2);
