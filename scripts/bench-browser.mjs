@@ -88,7 +88,8 @@ function workerStageRows(st, audioS, label) {
       // Its cost grows with the stretch it looks at (up to 60 s, dsp/live-margin.ts LIVE_MARGIN_WINDOW_S), one every 2 s live.
       extra = ` (${st.marginEstimates} estimates, ${(st.marginEstimate / st.marginEstimates).toFixed(1)} ms each; the latest ${st.marginLatestMs.toFixed(1)} ms over ${st.marginLatestWindowS.toFixed(0)} s of audio)`;
     }
-    if (key === 'update') extra = ` (${st.updates} batches, ${(st.updates ? st.update / st.updates : 0).toFixed(2)} ms each)`;
+    // The post itself is most of a batch's time, whatever it carries: a message's fixed cost (it wakes the page's thread), wall time.
+    if (key === 'update') extra = ` (${st.updates} batches, ${(st.updates ? st.update / st.updates : 0).toFixed(2)} ms each, ${(st.updates ? st.updatePost / st.updates : 0).toFixed(2)} of it inside postMessage)`;
     rows.push(`${`${label}:`.padEnd(22)} ${name.padEnd(48)} ${(st[key] / audioS).toFixed(2).padStart(6)} ms/s${extra}`);
   }
   return { msPerS: total / audioS, rows };

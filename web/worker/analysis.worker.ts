@@ -107,7 +107,7 @@ function createRun(id: number, config: AnalysisConfig, isKeepingAudio: boolean, 
     lastPostMs: 0,
     summary: emptyLiveSummary(),
     analysisMs: 0,
-    stageMs: { input: 0, analysis: 0, collect: 0, spectrogram: 0, marginFeed: 0, marginEstimate: 0, marginEstimates: 0, marginLatestMs: 0, marginLatestWindowS: 0, audio: 0, update: 0, updates: 0 },
+    stageMs: { input: 0, analysis: 0, collect: 0, spectrogram: 0, marginFeed: 0, marginEstimate: 0, marginEstimates: 0, marginLatestMs: 0, marginLatestWindowS: 0, audio: 0, update: 0, updates: 0, updatePost: 0 },
     mainFrequencyHz: Number.NaN,
     latestRegime: null,
     pendingColumns: [],
@@ -256,8 +256,11 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
   r.peakAbs = 0;
   r.isClipped = false;
   r.isSpectrumNew = false;
+  const tp = performance.now();
   post(message);
-  r.stageMs.update += performance.now() - now - marginMs;
+  const end = performance.now();
+  r.stageMs.updatePost += end - tp;
+  r.stageMs.update += end - now - marginMs;
   r.stageMs.updates++;
 }
 

@@ -218,6 +218,12 @@ export interface WorkerStageMs {
   /** Building and posting update batches (the summary and the structured clone), and how many were posted. */
   update: number;
   updates: number;
+  /**
+   * Of `update`: inside postMessage itself, ms. Wall time: a post wakes the page's thread, and on a
+   * busy machine the worker may wait for a core meanwhile (the worker thread's own CPU per post is
+   * a fraction of it).
+   */
+  updatePost: number;
 }
 
 /** Worker → app: the run finished; the report of the whole run. */
