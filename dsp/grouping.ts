@@ -4,7 +4,7 @@
  * only held a louder tone through its band's skirt is a duplicate, and a weaker line that belongs
  * to a stronger tone (a harmonic, a sidelobe or intermodulation line) is grouped under it.
  */
-import { STATE_GROWTH, STATE_QUIET, STATE_STEADY, type RegimeSegment } from './regime';
+import { STATE_DECAY, STATE_GROWTH, STATE_QUIET, STATE_STEADY, type RegimeSegment } from './regime';
 import { isLockedHarmonic } from './locking';
 import { segmentFrequency } from './segment-fit';
 import { ENVELOPE_WIDE_BANDWIDTH_HZ, indexAtTime, peakPower, topIndexIn, topPowerIn, type ToneRuntime } from './tone-store';
@@ -180,9 +180,14 @@ function indexOffset(tr: ToneRuntime, i0: number, tS: number): number {
   return Math.max(0, Math.round((tS - tr.timeS[i0]) * tr.env.outputRateHz));
 }
 
+/** Spans [start, end] (s) of a family's segments in `state`. */
+function stateSpans(q: Family, state: number): [number, number][] {
+  return q.tracks.flatMap((t) => t.regime.segments.filter((g) => g.state === state && g.endIdx > g.startIdx).map((g): [number, number] => [t.timeS[g.startIdx], t.timeS[g.endIdx - 1]]));
+}
+
 /** Growth spans [start, end] (s) of a family's tracks. */
 function growthSpans(q: Family): [number, number][] {
-  return q.tracks.flatMap((t) => t.regime.segments.filter((g) => g.state === STATE_GROWTH && g.endIdx > g.startIdx).map((g): [number, number] => [t.timeS[g.startIdx], t.timeS[g.endIdx - 1]]));
+  return stateSpans(q, STATE_GROWTH);
 }
 
 /**
@@ -208,6 +213,7 @@ function assignParents(families: Family[], binHz: number, dropped: Set<RegimeSeg
       if (kFam >= 2 && kFam <= MAX_HARMONIC) {
         let isAllLocked = true;
         const parGrowths = growthSpans(par);
+        const parDecays = stateSpans(par, STATE_DECAY);
         for (const tr of fam.tracks) {
           for (const s of tr.regime.segments) {
             if (s.state === STATE_QUIET || s.endIdx <= s.startIdx || dropped.has(s)) continue;
@@ -216,7 +222,11 @@ function assignParents(families: Family[], binHz: number, dropped: Set<RegimeSeg
             const k = Number.isFinite(f) ? Math.round(f / par.freqHz) : kFam;
             const isOnHarmonic = k >= 2 && k <= MAX_HARMONIC && (!Number.isFinite(f) || Math.abs(f - k * par.freqHz) <= harmonicToleranceHz(binHz, par.freqHz, k));
             const risesWith = s.state === STATE_GROWTH && parGrowths.some(([p0, p1]) => a >= p0 - WITHIN_MARGIN_S && a <= p1 + WITHIN_MARGIN_S);
-            if (isOnHarmonic && isLockedHarmonic(tr, s.startIdx, s.endIdx, par.tracks, k, risesWith)) dropped.add(s);
+            // A decay on the harmonic that starts as the tone's own decay starts is the harmonic
+            // dying with the tone: the driving that shaped the waveform has stopped, so neither A^k
+            // nor the phase relation holds any more (the tone's frequency moves as it is released).
+            const diesWith = s.state === STATE_DECAY && parDecays.some(([p0]) => Math.abs(a - p0) <= WITHIN_MARGIN_S);
+            if (isOnHarmonic && (diesWith || isLockedHarmonic(tr, s.startIdx, s.endIdx, par.tracks, k, risesWith))) dropped.add(s);
             else isAllLocked = false;
           }
         }

@@ -114,19 +114,9 @@ describe.each([
     // rate of the two rigs cover the ±6 dB spread of a noise-driven starting amplitude).
     expect(report.onsets, JSON.stringify(report.onsets)).toHaveLength(1);
     expect(Math.abs(report.onsets[0].timeS - demo.onS)).toBeLessThan(0.4);
-    // Harmonics of the limit cycle are no tones of their own: no growth or steady segment sits on
-    // k·f0. After the switch-off a duct mode near k·f0 rings down at its own rate (the simulator's
-    // passive mode, within 5 % of the segment's frequency): a decay there must hold that rate
-    // within its 95 % interval, not the harmonic's (k times the tone's).
-    for (const s of report.segments.filter((x) => isHarmonicOf(x.frequencyHz, f0))) {
-      expect(s.kind, JSON.stringify(s)).toBe('decay');
-      const ci = s.rateCi95PerS ?? [Number.NaN, Number.NaN];
-      const own = off.modes.filter((m) => Math.abs(m.frequencyHz - s.frequencyHz) < 0.05 * s.frequencyHz && m.growthRatePerS >= ci[0] && m.growthRatePerS <= ci[1]);
-      expect(own, JSON.stringify(s)).not.toHaveLength(0);
-    }
-    for (const t of report.tones?.filter((x) => isHarmonicOf(x.frequencyHz, f0)) ?? []) {
-      expect((t.cycles ?? []).every((c) => c.growthRatePerS === null && c.decayRatePerS !== null), JSON.stringify(t)).toBe(true);
-    }
+    // Harmonics of the limit cycle are no tones of their own: no segment sits on k·f0.
+    expect(report.segments.filter((s) => isHarmonicOf(s.frequencyHz, f0))).toHaveLength(0);
+    expect(report.tones?.filter((t) => isHarmonicOf(t.frequencyHz, f0)) ?? []).toHaveLength(0);
     // The main tone: one growth, one steady, one decay (no second track of the same tone, no
     // chatter of the noise after the decay).
     const main = report.segments.filter((s) => Math.abs(s.frequencyHz - f0) < 0.05 * f0);
