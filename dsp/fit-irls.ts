@@ -114,8 +114,7 @@ function dataSums(d: Prepared, w: Float64Array): DataSums {
 }
 
 /**
- * For fixed nonlinear parameters: weighted linear fit of y ≈ L·g + N² (g the n values of `g` from
- * index `from`) with L > 0, N² ≥ 0 (or N²
+ * For fixed nonlinear parameters: weighted linear fit of y ≈ L·g + N² with L > 0, N² ≥ 0 (or N²
  * fixed). Writes L and N² into `out` (the grid takes the logarithm of the best L only); returns the weighted RSS (Infinity if L ≤ 0), expanded
  * from the same sums (Σwy² − 2LΣwgy − 2N²Σwy + L²Σwg² + 2LN²Σwg + N⁴Σw, one pass over the data
  * for the sums with g; the others are the caller's, `data`). The expansion loses the digits the
@@ -126,7 +125,6 @@ function solveLinear(
   d: Prepared,
   w: Float64Array,
   g: Float64Array,
-  from: number,
   fixedBg: number | null,
   data: DataSums,
   out: { amp: number; bg: number },
@@ -137,10 +135,9 @@ function solveLinear(
   let sgy = 0;
   const { n, y } = d;
   for (let i = 0; i < n; i++) {
-    const gi = g[from + i];
-    const wg = w[i] * gi;
+    const wg = w[i] * g[i];
     sg += wg;
-    sgg += wg * gi;
+    sgg += wg * g[i];
     sgy += wg * y[i];
   }
   let amp: number;
@@ -476,55 +473,16 @@ interface GridScan {
   bestAmp: number;
   bestBg: number;
   bestAt: Int32Array;
-  /** The shape at the coarse points, kept for another search of the same grid (CoarseShapes), or null. */
-  coarse: CoarseShapes | null;
-}
-
-/**
- * The shape at every coarse point of a grid (every GRID_COARSE-th value of each parameter) on one
- * series, kept as the first search reaches it: the shape does not depend on the weights, so a
- * second search of the same grid on the same times under other weights (fitIrls's regrid) only
- * sums. Coarse point (a_0, a_1, …) is number Σ (a_j / GRID_COARSE)·stride_j.
- */
-interface CoarseShapes {
-  g: Float64Array;
-  isKept: Uint8Array;
-  stride: Int32Array;
-}
-
-function createCoarseShapes(grid: GridSpec, n: number): CoarseShapes {
-  const k = grid.values.length;
-  const stride = new Int32Array(k);
-  let count = 1;
-  for (let j = 0; j < k; j++) {
-    stride[j] = count;
-    count *= Math.ceil(grid.values[j].length / GRID_COARSE);
-  }
-  return { g: new Float64Array(count * n), isKept: new Uint8Array(count), stride };
 }
 
 /** Every point of the box lo..hi (inclusive) taking every step-th value of each parameter. */
 function searchBox(scan: GridScan, lo: Int32Array, hi: Int32Array, step: number): void {
   const { d, w, model, values, fixedBg, data, theta, at, lin } = scan;
   const k = model.nNonlinear;
-  const coarse = step === GRID_COARSE ? scan.coarse : null;
   at.set(lo);
   for (;;) {
-    let point = 0;
-    if (coarse !== null) for (let j = 0; j < k; j++) point += (at[j] / GRID_COARSE) * coarse.stride[j];
-    let rss: number;
-    if (coarse !== null && coarse.isKept[point] === 1) rss = solveLinear(d, w, coarse.g, point * d.n, fixedBg, data, lin);
-    else {
-      for (let j = 0; j < k; j++) theta[j] = values[j][at[j]];
-      const g = model.evaluate(d.t, d.n, theta, false).g;
-      if (coarse !== null) {
-        const kept = coarse.g;
-        const from = point * d.n;
-        for (let i = 0; i < d.n; i++) kept[from + i] = g[i];
-        coarse.isKept[point] = 1;
-      }
-      rss = solveLinear(d, w, g, 0, fixedBg, data, lin);
-    }
+    for (let j = 0; j < k; j++) theta[j] = values[j][at[j]];
+    const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, data, lin);
     if (rss < scan.bestRss) {
       scan.bestRss = rss;
       scan.bestAmp = lin.amp;
@@ -538,17 +496,13 @@ function searchBox(scan: GridScan, lo: Int32Array, hi: Int32Array, step: number)
   }
 }
 
-/**
- * Grid over the nonlinear parameters (coarse, then refined: GRID_COARSE) with the linear ones in
- * closed form; `coarse` (for this series and grid, or null) keeps the shape at the coarse points.
- */
+/** Grid over the nonlinear parameters (coarse, then refined: GRID_COARSE) with the linear ones in closed form. */
 function gridSearch(
   d: Prepared,
   w: Float64Array,
   model: ShapeModel,
   grid: GridSpec,
   fixedBg: number | null,
-  coarse: CoarseShapes | null,
 ): FitState | null {
   const k = model.nNonlinear;
   // The whole grid, then the box within GRID_COARSE − 1 steps of its best point.
@@ -572,7 +526,6 @@ function gridSearch(
     bestAmp: 0,
     bestBg: 0,
     bestAt: new Int32Array(k),
-    coarse,
   };
   searchBox(scan, lo, hi, GRID_COARSE);
   if (scan.bestRss === Number.POSITIVE_INFINITY) return null;
@@ -600,17 +553,9 @@ const GRID_MAX_SAMPLES = 48;
  * returned is the block means'). Cost falls from (grid points × n) to (grid points ×
  * GRID_MAX_SAMPLES) shape evaluations.
  */
-function gridSearchThinned(
-  d: Prepared,
-  thin: BlockSeries | null,
-  w: Float64Array,
-  model: ShapeModel,
-  grid: GridSpec,
-  fixedBg: number | null,
-  coarse: CoarseShapes | null,
-): FitState | null {
-  if (thin === null) return gridSearch(d, w, model, grid, fixedBg, coarse);
-  return gridSearch(thin.d, blockWeights(thin, w), model, grid, fixedBg, coarse);
+function gridSearchThinned(d: Prepared, thin: BlockSeries | null, w: Float64Array, model: ShapeModel, grid: GridSpec, fixedBg: number | null): FitState | null {
+  if (thin === null) return gridSearch(d, w, model, grid, fixedBg);
+  return gridSearch(thin.d, blockWeights(thin, w), model, grid, fixedBg);
 }
 
 /**
@@ -623,8 +568,8 @@ export const START_MAX_SAMPLES = 80;
 interface BlockSeries {
   d: Prepared;
   block: number;
-  /** Samples of the series averaged. */
-  from: number;
+  /** Length of the series averaged. */
+  seriesLength: number;
 }
 
 /** The block means of a series' times and powers (BlockSeries); its weights are summed by blockWeights. */
@@ -646,7 +591,7 @@ function blockSeries(d: Prepared, maxSamples: number): BlockSeries {
     t[j] = st / (i1 - i0);
     y[j] = sy / (i1 - i0);
   }
-  return { d: { t, y, n: m, spacingS: d.spacingS * block, nEff: d.nEff, bandwidthHz: d.bandwidthHz, work: d.work }, block, from: d.n };
+  return { d: { t, y, n: m, spacingS: d.spacingS * block, nEff: d.nEff, bandwidthHz: d.bandwidthHz, work: d.work }, block, seriesLength: d.n };
 }
 
 /** The weights of a block-averaged series: the sum of each block's. */
@@ -655,7 +600,7 @@ function blockWeights(b: BlockSeries, w: Float64Array): Float64Array {
   const wm = new Float64Array(m);
   for (let j = 0; j < m; j++) {
     const i0 = j * b.block;
-    const i1 = Math.min(b.from, i0 + b.block);
+    const i1 = Math.min(b.seriesLength, i0 + b.block);
     let sw = 0;
     for (let i = i0; i < i1; i++) sw += w[i];
     wm[j] = sw;
@@ -729,12 +674,9 @@ export function fitIrls(
   let mean = 0;
   for (let i = 0; i < n; i++) mean += w[i];
   for (let i = 0; i < n; i++) w[i] /= mean / n;
-  // The grid's block means, made once for the grid search and the regrid below, which searches the
-  // same grid with the same model on the same times (the exponential's, a one-parameter grid).
+  // The grid's block means, made once for the grid search and the regrid below.
   const thin = start === null && n > GRID_MAX_SAMPLES ? blockSeries(d, GRID_MAX_SAMPLES) : null;
-  const isRegridded = start === null && model.nNonlinear === 1;
-  const coarse = isRegridded && gridModel === model ? createCoarseShapes(grid, thin === null ? n : thin.d.n) : null;
-  let state = start ?? gridSearchThinned(d, thin, w, gridModel, grid, fixedBg, coarse);
+  let state = start ?? gridSearchThinned(d, thin, w, gridModel, grid, fixedBg);
   if (state === null) return null;
   if (fixedBg !== null) state.params[model.nNonlinear + 1] = fixedBg;
   if (start === null && gridModel !== model) {
@@ -750,8 +692,8 @@ export function fitIrls(
     updateWeights(d, model, state, w, bgFloor);
     // The exponential grid is cheap: search it again under the IRLS weights in case they move
     // the optimum to another basin. (The saturation grid is 20× larger; its LM polish suffices.)
-    if (pass === 0 && isRegridded) {
-      const regrid = gridSearchThinned(d, thin, w, model, grid, fixedBg, coarse);
+    if (pass === 0 && start === null && model.nNonlinear === 1) {
+      const regrid = gridSearchThinned(d, thin, w, model, grid, fixedBg);
       // A regrid landing on the grid value next to the current parameter is in its basin: the
       // polish below reaches the same optimum from either, so only one is polished.
       if (regrid !== null && !isNextOnGrid(grid.values[0], regrid.params[1], state.params[1])) {
