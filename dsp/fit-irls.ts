@@ -745,11 +745,22 @@ export function covarianceAt(
   return { cov, nFree, dispersion, nEff };
 }
 
-/** Σ e_i·e_{i+lag} over the first n values of e. */
-function lagProduct(e: Float64Array, n: number, lag: number): number {
+/**
+ * Σ e_i·e_{i+lag} over the first n values of e, for lag and lag + 1 at once (into out[0], out[1]):
+ * each sum in its own order, the two chains of additions overlapping.
+ */
+function lagProducts(e: Float64Array, n: number, lag: number, out: Float64Array): void {
   let c = 0;
-  for (let i = 0; i + lag < n; i++) c += e[i] * e[i + lag];
-  return c;
+  let c1 = 0;
+  let i = 0;
+  for (; i + lag + 1 < n; i++) {
+    const ei = e[i];
+    c += ei * e[i + lag];
+    c1 += ei * e[i + lag + 1];
+  }
+  if (i + lag < n) c += e[i] * e[i + lag];
+  out[0] = c;
+  out[1] = c1;
 }
 
 /**
@@ -775,8 +786,10 @@ function residualCorrelationTime(d: Prepared, model: ShapeModel, params: Float64
   if (!(c0 > 0)) return 1;
   let tau = -1;
   const maxLag = Math.floor(n / 4);
+  const lags = new Float64Array(2);
   for (let m = 0; 2 * m + 1 <= maxLag; m++) {
-    const pair = (m === 0 ? 1 : lagProduct(e, n, 2 * m) / c0) + lagProduct(e, n, 2 * m + 1) / c0;
+    lagProducts(e, n, 2 * m, lags);
+    const pair = (m === 0 ? 1 : lags[0] / c0) + lags[1] / c0;
     if (!(pair > 0)) break;
     tau += 2 * pair;
   }
