@@ -24,28 +24,27 @@ class SaturationShape implements ShapeModel {
   private readonly isAmplitude: boolean;
   private readonly buffers: ShapeBuffers;
   private readonly prefix = new UniformPrefix();
-  private decay = new Float64Array(0);
 
-  constructor(fixedP: number | null, isAmplitude: boolean) {
+  constructor(fixedP: number | null, isAmplitude: boolean, capacity: number) {
     this.fixedP = fixedP;
     this.isAmplitude = isAmplitude;
     this.nNonlinear = fixedP === null ? 3 : 2;
-    this.buffers = new ShapeBuffers(this.nNonlinear);
+    this.buffers = new ShapeBuffers(this.nNonlinear, capacity);
   }
 
   evaluate(t: Float64Array, n: number, theta: Float64Array, withGrad: boolean): ShapeValues {
     const { fixedP, isAmplitude, nNonlinear: nn } = this;
-    const v = this.buffers.get(n);
-    if (this.decay.length < n) this.decay = new Float64Array(v.g.length);
+    const v = this.buffers.get(n, withGrad);
     const s = theta[0];
     const tc = theta[1];
     const p = fixedP === null ? Math.exp(theta[2]) : fixedP;
     const isLandau = p === 2 && fixedP !== null;
     const ps = p * s;
     const twoOverP = 2 / p;
-    // Locals for the buffers: the loops below then read no property per time.
-    const e0 = this.decay;
+    // Locals for the buffers: the loops below then read no property per time. e^(−|z|) is written
+    // into the values' buffer, each time's read just before its value replaces it.
     const values = v.g;
+    const e0 = values;
     const grad = v.grad;
     const from = steppedDecay(t, n, this.prefix.of(t, n), Math.abs(ps), tc, e0);
     for (let i = from; i < n; i++) e0[i] = Math.exp(-Math.abs(ps * (t[i] - tc)));
@@ -90,9 +89,9 @@ class SaturationShape implements ShapeModel {
   }
 }
 
-/** The saturation shape (SaturationShape), with a memory of its last evaluation. */
-export function saturationShape(fixedP: number | null, isAmplitude = false): ShapeModel {
-  return memoised(new SaturationShape(fixedP, isAmplitude));
+/** The saturation shape (SaturationShape), with a memory of its last evaluation; buffers for `capacity` times (ShapeBuffers). */
+export function saturationShape(fixedP: number | null, isAmplitude = false, capacity = 0): ShapeModel {
+  return memoised(new SaturationShape(fixedP, isAmplitude, capacity));
 }
 
 /** Below this a running product of exponentials is taken as 0 (no subnormal arithmetic). */
@@ -210,7 +209,7 @@ class SmoothedShape implements ShapeModel {
     const at = this.root.evaluate(plan.times, plan.times.length, theta, withGrad);
     const r = at.g;
     const rGrad = at.grad;
-    const v = this.buffers.get(count);
+    const v = this.buffers.get(count, withGrad);
     const values = v.g;
     const grad = v.grad;
     const { origin, dir } = plan;
