@@ -15,10 +15,10 @@ import {
   rssOf,
   START_MAX_SAMPLES,
   type FitState,
-  type GridSpec,
   type IrlsResult,
   type Prepared,
 } from './fit-irls';
+import type { GridSpec } from './fit-grid';
 import { RESTART_STEPS, type ShapeModel } from './fit-shape';
 import { KernelTaps, saturationShape, smoothedShape, type EnvelopeKernel } from './fit-saturation-shape';
 import { CHI2_1DOF_99, studentTQuantile } from './stats';

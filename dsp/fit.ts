@@ -53,7 +53,8 @@
  * reads as a softer knee (p < 2), so at high SNR the model choice below may switch for that
  * reason; the remedy is an envelope bandwidth of at least the growth rate in hertz.
  */
-import { fitIrls, prepare, type GridSpec } from './fit-irls';
+import type { GridSpec } from './fit-grid';
+import { fitIrls, prepare } from './fit-irls';
 import { memoised, RESTART_STEPS, ShapeBuffers, UniformPrefix, type ShapeModel, type ShapeValues } from './fit-shape';
 import { studentTQuantile } from './stats';
 import type { EnvelopeSeries, Interval, RateFit, SaturationFit } from './types';
