@@ -31,15 +31,11 @@
  * 9(3)), as in dsp/damping.ts: every statistic is a smooth function of sums over the record, so
  * the replicates carry the samples' autocorrelation; Student-t with K − 1 degrees of freedom.
  */
+import { blockSums, powersOf, type ComplexEnvelope, type Powers } from './envelope-sums';
 import { invertSmallMatrix, studentTQuantile } from './stats';
 import type { Interval } from './types';
 
-/** A complex envelope u (unit: peak amplitude of the tone) sampled at rateHz. */
-export interface ComplexEnvelope {
-  re: Float64Array;
-  im: Float64Array;
-  rateHz: number;
-}
+export type { ComplexEnvelope };
 
 /**
  * What the band filter in front of the envelope does to the increments (REFERENCES.md §41): for a
@@ -203,71 +199,6 @@ export function amplitudePdfLogNormaliser(nuPerS: number, kappa: number, sigma2:
   if (x >= 0) return lnHalfRoot + Math.log(erfcx(x));
   // erfcx(x) = 2e^{x²} − erfcx(−x) for x < 0.
   return lnHalfRoot + x * x + Math.log(2 - erfcx(-x) * Math.exp(-x * x));
-}
-
-/** Per-block sums from which every statistic (and its jackknife replicates) is formed. */
-interface BlockSums {
-  count: Float64Array;
-  sy: Float64Array;
-  sy2: Float64Array;
-  sy3: Float64Array;
-  /** Per block × lag: Σ u* u(t+k), Σ |u|² u* u(t+k) (complex), Σ |u(t+k) − u(t)|², Σ (|u(t+k)| − |u(t)|)². */
-  c1r: Float64Array;
-  c1i: Float64Array;
-  c3r: Float64Array;
-  c3i: Float64Array;
-  m2: Float64Array;
-  m2a: Float64Array;
-}
-
-function blockSums(u: ComplexEnvelope, lags: Int32Array, segments: number): BlockSums {
-  const L = lags.length;
-  const kMax = lags[L - 1];
-  const usable = u.re.length - kMax;
-  const s: BlockSums = {
-    count: new Float64Array(segments),
-    sy: new Float64Array(segments),
-    sy2: new Float64Array(segments),
-    sy3: new Float64Array(segments),
-    c1r: new Float64Array(segments * L),
-    c1i: new Float64Array(segments * L),
-    c3r: new Float64Array(segments * L),
-    c3i: new Float64Array(segments * L),
-    m2: new Float64Array(segments * L),
-    m2a: new Float64Array(segments * L),
-  };
-  const { re, im } = u;
-  for (let g = 0; g < segments; g++) {
-    const t0 = Math.floor((g * usable) / segments);
-    const t1 = Math.floor(((g + 1) * usable) / segments);
-    for (let t = t0; t < t1; t++) {
-      const ar = re[t];
-      const ai = im[t];
-      const y = ar * ar + ai * ai;
-      s.count[g] += 1;
-      s.sy[g] += y;
-      s.sy2[g] += y * y;
-      s.sy3[g] += y * y * y;
-      for (let l = 0; l < L; l++) {
-        const br = re[t + lags[l]];
-        const bi = im[t + lags[l]];
-        // conj(u(t)) · u(t+k)
-        const pr = ar * br + ai * bi;
-        const pi = ar * bi - ai * br;
-        const q = g * L + l;
-        s.c1r[q] += pr;
-        s.c1i[q] += pi;
-        s.c3r[q] += y * pr;
-        s.c3i[q] += y * pi;
-        const dr = br - ar;
-        const di = bi - ai;
-        s.m2[q] += dr * dr + di * di;
-        const da = Math.sqrt(br * br + bi * bi) - Math.sqrt(y);
-        s.m2a[q] += da * da;
-      }
-    }
-  }
-  return s;
 }
 
 /** Least-squares polynomial (degree 1 or 2) through (x, y); returns the coefficients, lowest first. */
@@ -465,8 +396,8 @@ function invalidRoute(reason: string): RouteEstimate {
   return { isValid: false, growthRatePerS: Number.NaN, ci95PerS: [Number.NaN, Number.NaN], saturation: Number.NaN, noiseIntensity: Number.NaN, reason };
 }
 
-function analyseWithLags(u: ComplexEnvelope, lags: Int32Array, filter: BandFilterEffect): { full: Solution; reps: Solution[]; lagsS: Float64Array } {
-  const sums = blockSums(u, lags, SEGMENTS);
+function analyseWithLags(u: ComplexEnvelope, p: Powers, lags: Int32Array, filter: BandFilterEffect): { full: Solution; reps: Solution[]; lagsS: Float64Array } {
+  const sums = blockSums(u, p, lags, SEGMENTS);
   const L = lags.length;
   const design = lagDesign(lags, u.rateHz, filter);
   const lagsS = design.lagsS;
@@ -516,11 +447,12 @@ export function estimateEnvelopeStatistics(u: ComplexEnvelope, filter: BandFilte
   if (maxHi < lo + LAG_MIN_COUNT - 1) return fail('record too short for the envelope statistics');
   // Pass 1 on a short lag window, pass 2 on a window sized by the relaxation rate found (the drift
   // fits start at the filter's correlation length lo).
-  let pass = analyseWithLags(u, lagSet(lagSpan(FIRST_PASS_SPAN_S)), filter);
+  const powers = powersOf(u);
+  let pass = analyseWithLags(u, powers, lagSet(lagSpan(FIRST_PASS_SPAN_S)), filter);
   const p1 = pass.full;
   let rate = relaxationRate(Number.isFinite(p1.nuPdf) ? p1.nuPdf : p1.nuDrift, Number.isFinite(p1.kappaPdf) ? p1.kappaPdf : p1.kappaDrift, p1.sigma2);
   if (Number.isFinite(rate) && rate > 0) {
-    pass = analyseWithLags(u, lagSet(lagSpan(LAG_SPAN_RELAXATIONS / rate)), filter);
+    pass = analyseWithLags(u, powers, lagSet(lagSpan(LAG_SPAN_RELAXATIONS / rate)), filter);
   }
   const { full, reps, lagsS } = pass;
   rate = relaxationRate(Number.isFinite(full.nuPdf) ? full.nuPdf : full.nuDrift, full.kappaPdf, full.sigma2);

@@ -5,9 +5,11 @@
  * data comes in. The input is kept in a ring after a boxcar
  * decimation to about 8 kHz (a mode above 4 kHz is outside the default band; the boxcar's nulls
  * sit on the frequencies that would fold onto the band's low end, and the broadband noise it lets
- * fold is a floor the estimator removes). pushLiveMargin allocates nothing; estimateLiveMargin
- * allocates. The bands around the mode are kept mixed down as audio arrives (baseband-stream.ts):
- * an estimate mixes only the audio that came in since the last one.
+ * fold is a floor the estimator removes). The ring holds each sample twice, at i and i + its
+ * capacity, so the window is always one contiguous view of it, never copied. pushLiveMargin
+ * allocates nothing; estimateLiveMargin allocates. The bands around the mode are kept mixed down
+ * as audio arrives (baseband-stream.ts): an estimate mixes only the audio that came in since the
+ * last one.
  */
 import { basebandOfWindow, createBasebandStream, type BasebandStream } from './baseband-stream';
 import { earlyWarningIndicators } from './early-warning';
@@ -33,6 +35,8 @@ export const LIVE_MARGIN_NEW_SHARE = 1 / 6;
 /** Welch frame for the resonance search (~1 Hz bins at 8 kHz) and the least prominence over the local median, dB. */
 const SEARCH_FRAME = 8192;
 const RESONANCE_MIN_DB = 6;
+/** Margin below the best prominence so far within which a peak's median is still taken, dB (far above the rounding of the bound, far below any difference that matters). */
+const PROMINENCE_TIE_DB = 1e-9;
 /** Lowest mode searched, Hz (the estimator's band is capped at f/7; below this it is too narrow to hold a mode). */
 const SEARCH_LOW_HZ = 30;
 
@@ -40,12 +44,13 @@ export interface LiveMarginState {
   inputRateHz: number;
   factor: number;
   rateHz: number;
+  /** Samples the window holds at most. */
+  capacity: number;
+  /** The ring, twice the capacity long: sample i of the ring sits at i and at i + capacity. */
   ring: Float32Array;
-  /** Where the next ring sample goes (count modulo the ring's length). */
+  /** Where the next ring sample goes (count modulo the capacity). */
   writeAt: number;
-  /** The window in time order for an estimate (allocated once; an estimate reads its first min(count, ring length) samples). */
-  window: Float32Array;
-  /** Samples written since the last restart (may exceed the ring), and the boxcar accumulator. */
+  /** Samples written since the last restart (may exceed the capacity), and the boxcar accumulator. */
   count: number;
   acc: number;
   accN: number;
@@ -86,12 +91,12 @@ export function createLiveMargin(cfg: { sampleRateHz: number; windowS?: number }
   const factor = Math.max(1, Math.floor(fs / TARGET_RATE_HZ));
   const rateHz = fs / factor;
   const cap = Math.ceil(windowS * rateHz);
-  return { inputRateHz: fs, factor, rateHz, ring: new Float32Array(cap), writeAt: 0, window: new Float32Array(cap), count: 0, acc: 0, accN: 0, startS: 0, inputSamples: 0, lastEstimateCount: 0, modeBand: null, warningBand: null, welch: null };
+  return { inputRateHz: fs, factor, rateHz, capacity: cap, ring: new Float32Array(2 * cap), writeAt: 0, count: 0, acc: 0, accN: 0, startS: 0, inputSamples: 0, lastEstimateCount: 0, modeBand: null, warningBand: null, welch: null };
 }
 
 /** Feeds input samples (never throws, allocates nothing). */
 export function pushLiveMargin(st: LiveMarginState, block: Float32Array): void {
-  const cap = st.ring.length;
+  const cap = st.capacity;
   const ring = st.ring;
   const factor = st.factor;
   let acc = st.acc;
@@ -101,7 +106,9 @@ export function pushLiveMargin(st: LiveMarginState, block: Float32Array): void {
   for (let i = 0; i < block.length; i++) {
     acc += block[i];
     if (++accN === factor) {
-      ring[at] = acc / factor;
+      const v = acc / factor;
+      ring[at] = v;
+      ring[at + cap] = v;
       at = at + 1 === cap ? 0 : at + 1;
       count++;
       acc = 0;
@@ -131,7 +138,7 @@ export function restartLiveMargin(st: LiveMarginState, missingSamples = 0): void
 
 /** True when enough new data has come in for a fresh estimate. */
 export function isLiveMarginDue(st: LiveMarginState): boolean {
-  const held = Math.min(st.count, st.ring.length);
+  const held = Math.min(st.count, st.capacity);
   return st.count >= LIVE_MARGIN_MIN_S * st.rateHz && st.count - st.lastEstimateCount >= Math.max(LIVE_MARGIN_EVERY_S * st.rateHz, LIVE_MARGIN_NEW_SHARE * held);
 }
 
@@ -141,7 +148,7 @@ export function isLiveMarginDue(st: LiveMarginState): boolean {
  */
 function findResonanceHz(st: LiveMarginState, x: Float32Array, x0: number, bandHighHz: number): number {
   const n = Math.min(SEARCH_FRAME, 1 << Math.floor(Math.log2(Math.max(4, x.length / 4))));
-  if (st.welch === null || st.welch.n !== n) st.welch = createWelchStream(n, st.ring.length);
+  if (st.welch === null || st.welch.n !== n) st.welch = createWelchStream(n, st.capacity);
   const { sum: acc, frames } = welchOfWindow(st.welch, x, x0);
   if (frames === 0) return Number.NaN;
   const rateHz = st.rateHz;
@@ -159,11 +166,15 @@ function findResonanceHz(st: LiveMarginState, x: Float32Array, x0: number, bandH
     // Local median of ±20 Hz, the peak's own ±2 bins left out (sorting only when a value does not compare).
     let m = 0;
     let isComparable = true;
+    let lowest = Infinity;
     for (let j = k - half; j <= k + half; j++) {
       if (Math.abs(j - k) <= 2) continue;
       around[m++] = acc[j];
       if (Number.isNaN(acc[j])) isComparable = false;
+      if (acc[j] < lowest) lowest = acc[j];
     }
+    // The median is no lower than the lowest: a peak that stands over even that by less than the best so far cannot win (most bins of a noise spectrum), so its median is not taken.
+    if (isComparable && 10 * Math.log10(acc[k] / lowest) < bestProm - PROMINENCE_TIE_DB) continue;
     const med = isComparable ? kthSmallest(around, m, m >> 1) : around.subarray(0, m).sort()[m >> 1];
     const prom = 10 * Math.log10(acc[k] / med);
     if (prom > bestProm) {
@@ -203,31 +214,39 @@ function bandsAround(st: LiveMarginState, centreHz: number, maxWindow: number): 
 }
 
 /**
+ * The samples an estimate reads: the latest min(count, capacity) of the ring in time order, one
+ * view of the doubled ring (never copied), and the count of the first of them since the restart.
+ */
+export function liveMarginWindow(st: LiveMarginState): { x: Float32Array; x0: number } {
+  const len = Math.min(st.count, st.capacity);
+  const x0 = st.count - len;
+  const first = x0 % st.capacity;
+  return { x: st.ring.subarray(first, first + len), x0 };
+}
+
+/**
  * ν with its 95 % interval over the current stretch (at most the window), at the tone's frequency
  * `centreHz` when one is tracked, else at the most prominent resonance; null when there is none
  * or no route gave an estimate.
  */
 export function estimateLiveMargin(st: LiveMarginState, centreHz: number, bandHighHz = 4000): LiveMargin | null {
   st.lastEstimateCount = st.count;
-  const cap = st.ring.length;
+  const cap = st.capacity;
   const len = Math.min(st.count, cap);
   if (len < LIVE_MARGIN_MIN_S * st.rateHz) return null;
-  // The window in time order: the oldest sample sits where the next one goes once the ring is full.
-  const x = st.window.subarray(0, len);
-  const first = (st.count - len) % cap;
-  x.set(st.ring.subarray(first, Math.min(cap, first + len)));
-  if (first + len > cap) x.set(st.ring.subarray(0, first + len - cap), cap - first);
-  const x0 = st.count - len;
+  const { x, x0 } = liveMarginWindow(st);
   const f = Number.isFinite(centreHz) && centreHz > 0 ? centreHz : findResonanceHz(st, x, x0, bandHighHz);
   if (!Number.isFinite(f)) return null;
   const bands = bandsAround(st, f, cap);
   if (bands === null) return null;
-  const r = modeStatisticsOfBaseband(basebandOfWindow(bands.mode, x, x0), st.rateHz, len / st.rateHz, { centreHz: bands.mode.centreHz, halfWidthHz: bands.mode.halfWidthHz });
+  const mode = basebandOfWindow(bands.mode, x, x0);
+  const r = modeStatisticsOfBaseband(mode, st.rateHz, len / st.rateHz, { centreHz: bands.mode.centreHz, halfWidthHz: bands.mode.halfWidthHz });
   if (!r.isValid) return null;
   const endS = st.startS + (st.count * st.factor) / st.inputRateHz;
   // Early-warning trends on the envelope amplitude of the same band (REFERENCES.md §43).
-  const z = basebandOfWindow(bands.warning, x, x0);
-  const amp = Float64Array.from(z.re, (re, i) => Math.hypot(re, z.im[i]));
+  const z = bands.warning === bands.mode ? mode : basebandOfWindow(bands.warning, x, x0);
+  const amp = new Float64Array(z.re.length);
+  for (let i = 0; i < amp.length; i++) amp[i] = Math.hypot(z.re[i], z.im[i]);
   const ew = earlyWarningIndicators(amp, z.rateHz);
   return {
     frequencyHz: r.frequencyHz,

@@ -91,6 +91,20 @@ export function bandFilterEffect(sampleRateHz: number, halfWidthHz: number): Ban
   return { minLagSamples: minLag, structureOffsetS: (2 * acc) / sampleRateHz, wienerM2S, noiseCorrelation };
 }
 
+/**
+ * The latest band filter's effect, kept: it depends only on the sample rate and the half-width, and
+ * a live caller (dsp/live-margin.ts) estimates again and again in the same band. Read-only.
+ */
+let lastFilterEffect: { sampleRateHz: number; halfWidthHz: number; effect: BandFilterEffect } | null = null;
+
+function bandFilterEffectOf(sampleRateHz: number, halfWidthHz: number): BandFilterEffect {
+  const last = lastFilterEffect;
+  if (last !== null && last.sampleRateHz === sampleRateHz && last.halfWidthHz === halfWidthHz) return last.effect;
+  const effect = bandFilterEffect(sampleRateHz, halfWidthHz);
+  lastFilterEffect = { sampleRateHz, halfWidthHz, effect };
+  return effect;
+}
+
 /** Quantile of the F(d1, d2) distribution by bisection on its CDF I_{d1x/(d1x+d2)}(d1/2, d2/2) (A&S 26.6.2). */
 function fQuantile(p: number, d1: number, d2: number): number {
   const cdf = (x: number): number => incompleteBeta((d1 * x) / (d1 * x + d2), d1 / 2, d2 / 2);
@@ -262,7 +276,7 @@ export function modeStatisticsOfBaseband(
     u.im[t] = 2 * (z.re[t] * s + z.im[t] * c);
   }
   const frequencyHz = centre + (omega * z.rateHz) / (2 * Math.PI);
-  const stats = estimateEnvelopeStatistics(u, bandFilterEffect(sampleRateHz, halfWidth));
+  const stats = estimateEnvelopeStatistics(u, bandFilterEffectOf(sampleRateHz, halfWidth));
   // Periodogram over the flat band, for the Lorentzian route and the second-mode test: computed
   // when the first of them needs it.
   let band: { freq: Float64Array; per: Float64Array } | null = null;

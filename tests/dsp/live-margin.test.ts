@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { createLiveMargin, estimateLiveMargin, isLiveMarginDue, pushLiveMargin, restartLiveMargin } from '../../dsp/live-margin';
+import { createLiveMargin, estimateLiveMargin, isLiveMarginDue, liveMarginWindow, pushLiveMargin, restartLiveMargin } from '../../dsp/live-margin';
 import { noiseDrivenMode, synthesize } from '../../dsp/synth';
 
 describe('live margin to humming (ν from the noise while listening)', () => {
@@ -41,6 +41,26 @@ describe('live margin to humming (ν from the noise while listening)', () => {
     expect(isLiveMarginDue(st)).toBe(false);
     expect(st.startS).toBeCloseTo(12, 9);
     expect(() => createLiveMargin({ sampleRateHz: 100 })).toThrow(/sampleRateHz/);
+  });
+
+  it('reads the latest window in time order, after the ring wrapped, as boxcar means of the input', () => {
+    // Boxcar decimation by definition (common practice): ring sample j is the mean of input samples
+    // j·factor … (j + 1)·factor − 1; the window holds the latest `capacity` of them, oldest first.
+    const fs = 16000;
+    const st = createLiveMargin({ sampleRateHz: fs, windowS: 10 });
+    const factor = st.factor;
+    const input = new Float32Array(fs * 27 + 5);
+    for (let i = 0; i < input.length; i++) input[i] = Math.sin(0.001 * i) + ((i * 7919) % 13) / 13;
+    for (let i = 0; i < input.length; i += 777) pushLiveMargin(st, input.subarray(i, i + 777));
+    const { x, x0 } = liveMarginWindow(st);
+    const count = Math.floor(input.length / factor);
+    expect(x.length).toBe(st.capacity);
+    expect(x0).toBe(count - st.capacity);
+    for (const j of [0, 1, st.capacity >> 1, st.capacity - 2, st.capacity - 1]) {
+      let acc = 0;
+      for (let k = 0; k < factor; k++) acc += input[(x0 + j) * factor + k];
+      expect(x[j]).toBe(Math.fround(acc / factor));
+    }
   });
 
   it('on a full 60 s window, estimates again once a sixth of it (10 s) is new, not every 2 s', () => {

@@ -245,7 +245,7 @@ function maybePostUpdate(r: Run, isForced: boolean): void {
     r.stageMs.marginEstimate += marginMs;
     r.stageMs.marginEstimates++;
     r.stageMs.marginLatestMs = marginMs;
-    r.stageMs.marginLatestWindowS = Math.min(r.liveMargin.count, r.liveMargin.ring.length) / r.liveMargin.rateHz;
+    r.stageMs.marginLatestWindowS = Math.min(r.liveMargin.count, r.liveMargin.capacity) / r.liveMargin.rateHz;
   }
   r.pendingFrames = [];
   r.pendingOnsets = [];
