@@ -1,12 +1,13 @@
 /**
  * The weighted least-squares machinery of the envelope fits (dsp/fit.ts, dsp/fit-saturation.ts):
  * shape models of the mean envelope power, the quasi-likelihood fit by iteratively reweighted
- * least squares (a grid over the nonlinear parameters with the linear ones in closed form, then
- * Levenberg–Marquardt polish), and the covariance corrected for correlated samples (N_eff). The
+ * least squares (a grid over the nonlinear parameters with the linear ones in closed form,
+ * dsp/fit-grid.ts, then Levenberg–Marquardt polish), and the covariance corrected for correlated samples (N_eff). The
  * derivation (model, variance function, weights, N_eff, the interval) is in the header of
  * dsp/fit.ts.
  */
 import { invertSmallMatrix, solveSmallSystem } from './stats';
+import { gridSearch, type GridSpec } from './fit-grid';
 import type { ShapeModel } from './fit-shape';
 import type { EnvelopeSeries } from './types';
 
@@ -91,74 +92,6 @@ export function prepare(series: EnvelopeSeries): Prepared | string {
 function varianceOf(m: number, bg: number, bgFloor: number): number {
   const b = Math.max(bg, bgFloor);
   return Math.max(b * (2 * m - b), b * b);
-}
-
-/** Sums of a series and its weights that do not depend on the shape: Σw, Σwy, Σwy². */
-interface DataSums {
-  sw: number;
-  sy: number;
-  swyy: number;
-}
-
-function dataSums(d: Prepared, w: Float64Array): DataSums {
-  let sw = 0;
-  let sy = 0;
-  let swyy = 0;
-  const { n, y } = d;
-  for (let i = 0; i < n; i++) {
-    sw += w[i];
-    sy += w[i] * y[i];
-    swyy += w[i] * y[i] * y[i];
-  }
-  return { sw, sy, swyy };
-}
-
-/**
- * For fixed nonlinear parameters: weighted linear fit of y ≈ L·g + N² with L > 0, N² ≥ 0 (or N²
- * fixed). Writes L and N² into `out` (the grid takes the logarithm of the best L only); returns the weighted RSS (Infinity if L ≤ 0), expanded
- * from the same sums (Σwy² − 2LΣwgy − 2N²Σwy + L²Σwg² + 2LN²Σwg + N⁴Σw, one pass over the data
- * for the sums with g; the others are the caller's, `data`). The expansion loses the digits the
- * RSS has below Σwy²·1e-16, which does not matter to the grid it ranks (the polish that follows
- * works on the residuals).
- */
-function solveLinear(
-  d: Prepared,
-  w: Float64Array,
-  g: Float64Array,
-  fixedBg: number | null,
-  data: DataSums,
-  out: { amp: number; bg: number },
-): number {
-  const { sw, sy, swyy } = data;
-  let sg = 0;
-  let sgg = 0;
-  let sgy = 0;
-  const { n, y } = d;
-  for (let i = 0; i < n; i++) {
-    const wg = w[i] * g[i];
-    sg += wg;
-    sgg += wg * g[i];
-    sgy += wg * y[i];
-  }
-  let amp: number;
-  let bg: number;
-  if (fixedBg !== null) {
-    bg = fixedBg;
-    amp = (sgy - bg * sg) / sgg;
-  } else {
-    const det = sw * sgg - sg * sg;
-    amp = det > 0 ? (sw * sgy - sg * sy) / det : Number.NaN;
-    bg = det > 0 ? (sgg * sy - sg * sgy) / det : Number.NaN;
-    if (!(bg >= 0)) {
-      bg = 0;
-      amp = sgy / sgg;
-    }
-  }
-  if (!(amp > 0) || !Number.isFinite(amp)) return Number.POSITIVE_INFINITY;
-  const rss = swyy - 2 * amp * sgy - 2 * bg * sy + amp * amp * sgg + 2 * amp * bg * sg + bg * bg * sw;
-  out.amp = amp;
-  out.bg = bg;
-  return Math.max(0, rss);
 }
 
 /** The nonlinear parameters θ of a full parameter vector [ln L, θ…, N²] (k of them), in the first k entries of the series' work.theta. */
@@ -445,118 +378,20 @@ export function polish(
   return startRss > 0 && Number.isFinite(startRss) ? (startRss - rss) / startRss : 0;
 }
 
-export interface GridSpec {
-  /** Candidate values of each nonlinear parameter. */
-  values: Float64Array[];
-}
-
-/**
- * The grid search looks first at every GRID_COARSE-th value of each parameter, then at every
- * value within GRID_COARSE − 1 steps of the best of those: the RSS over a grid whose steps are
- * small against the width of its basin (the grids below) varies smoothly, so its least value lies
- * next to the best coarse point, and only a dip narrower than GRID_COARSE steps can be missed.
- */
-const GRID_COARSE = 3;
-
-/** A grid search under way: its series, model and grid, and the best point so far (its grid position, linear parameters and RSS). */
-interface GridScan {
-  d: Prepared;
-  w: Float64Array;
-  model: ShapeModel;
-  values: Float64Array[];
-  fixedBg: number | null;
-  data: DataSums;
-  theta: Float64Array;
-  at: Int32Array;
-  lin: { amp: number; bg: number };
-  bestRss: number;
-  bestAmp: number;
-  bestBg: number;
-  bestAt: Int32Array;
-}
-
-/** Every point of the box lo..hi (inclusive) taking every step-th value of each parameter. */
-function searchBox(scan: GridScan, lo: Int32Array, hi: Int32Array, step: number): void {
-  const { d, w, model, values, fixedBg, data, theta, at, lin } = scan;
-  const k = model.nNonlinear;
-  at.set(lo);
-  for (;;) {
-    for (let j = 0; j < k; j++) theta[j] = values[j][at[j]];
-    const rss = solveLinear(d, w, model.evaluate(d.t, d.n, theta, false).g, fixedBg, data, lin);
-    if (rss < scan.bestRss) {
-      scan.bestRss = rss;
-      scan.bestAmp = lin.amp;
-      scan.bestBg = lin.bg;
-      scan.bestAt.set(at);
-    }
-    let j = 0;
-    while (j < k && at[j] + step > hi[j]) at[j] = lo[j++];
-    if (j === k) return;
-    at[j] += step;
-  }
-}
-
-/** Grid over the nonlinear parameters (coarse, then refined: GRID_COARSE) with the linear ones in closed form. */
-function gridSearch(
-  d: Prepared,
-  w: Float64Array,
-  model: ShapeModel,
-  grid: GridSpec,
-  fixedBg: number | null,
-): FitState | null {
-  const k = model.nNonlinear;
-  // The whole grid, then the box within GRID_COARSE − 1 steps of its best point.
-  const lo = new Int32Array(k);
-  const hi = new Int32Array(k);
-  for (let j = 0; j < k; j++) {
-    if (grid.values[j].length === 0) return null;
-    hi[j] = grid.values[j].length - 1;
-  }
-  const scan: GridScan = {
-    d,
-    w,
-    model,
-    values: grid.values,
-    fixedBg,
-    data: dataSums(d, w),
-    theta: new Float64Array(k),
-    at: new Int32Array(k),
-    lin: { amp: 0, bg: 0 },
-    bestRss: Number.POSITIVE_INFINITY,
-    bestAmp: 0,
-    bestBg: 0,
-    bestAt: new Int32Array(k),
-  };
-  searchBox(scan, lo, hi, GRID_COARSE);
-  if (scan.bestRss === Number.POSITIVE_INFINITY) return null;
-  const { bestAt } = scan;
-  for (let j = 0; j < k; j++) {
-    lo[j] = Math.max(0, bestAt[j] - GRID_COARSE + 1);
-    hi[j] = Math.min(grid.values[j].length - 1, bestAt[j] + GRID_COARSE - 1);
-  }
-  searchBox(scan, lo, hi, 1);
-  const params = new Float64Array(k + 2);
-  params[0] = Math.log(scan.bestAmp);
-  for (let j = 0; j < k; j++) params[1 + j] = grid.values[j][bestAt[j]];
-  params[k + 1] = scan.bestBg;
-  return { params, isBackgroundFixed: fixedBg !== null, rss: scan.bestRss };
-}
-
 /** Most samples the grid search looks at; longer series are block-averaged for it. */
 const GRID_MAX_SAMPLES = 48;
 
 /**
- * The grid search on a block-averaged copy of the series (at most GRID_MAX_SAMPLES blocks: mean
- * time, mean power, summed weight). The grid only has to land in the right basin, which the
- * averaged curve shows as well; the Levenberg–Marquardt polish that follows uses every sample.
- * Cost falls from (grid points × n) to (grid points × GRID_MAX_SAMPLES) shape evaluations.
+ * The grid search on a block-averaged copy of the series (`thin`: at most GRID_MAX_SAMPLES blocks,
+ * blockSeries; null for a series that short already) under the weights `w` summed per block. The
+ * grid only has to land in the right basin, which the averaged curve shows as well; the
+ * Levenberg–Marquardt polish that follows uses every sample (and sets the state's RSS: the one
+ * returned is the block means'). Cost falls from (grid points × n) to (grid points ×
+ * GRID_MAX_SAMPLES) shape evaluations.
  */
-function gridSearchThinned(d: Prepared, w: Float64Array, model: ShapeModel, grid: GridSpec, fixedBg: number | null): FitState | null {
-  if (d.n <= GRID_MAX_SAMPLES) return gridSearch(d, w, model, grid, fixedBg);
-  const thin = blockMeans(d, w, GRID_MAX_SAMPLES);
-  const state = gridSearch(thin.d, thin.w, model, grid, fixedBg);
-  if (state !== null) state.rss = rssOf(d, w, model, state.params);
-  return state;
+function gridSearchThinned(d: Prepared, thin: BlockSeries | null, w: Float64Array, model: ShapeModel, grid: GridSpec, fixedBg: number | null): FitState | null {
+  const best = thin === null ? gridSearch(d, w, model, grid, fixedBg) : gridSearch(thin.d, blockWeights(thin, w), model, grid, fixedBg);
+  return best === null ? null : { params: best.params, isBackgroundFixed: fixedBg !== null, rss: best.rss };
 }
 
 /**
@@ -565,30 +400,54 @@ function gridSearchThinned(d: Prepared, w: Float64Array, model: ShapeModel, grid
  */
 export const START_MAX_SAMPLES = 80;
 
-/** A block-averaged copy of a series (at most maxSamples blocks: mean time, mean power, summed weight). */
-export function blockMeans(d: Prepared, w: Float64Array, maxSamples: number): { d: Prepared; w: Float64Array } {
+/** A block-averaged copy of a series: at most maxSamples blocks of `block` samples (the last may be shorter), mean time and mean power. */
+interface BlockSeries {
+  d: Prepared;
+  block: number;
+  /** Length of the series averaged. */
+  seriesLength: number;
+}
+
+/** The block means of a series' times and powers (BlockSeries); its weights are summed by blockWeights. */
+function blockSeries(d: Prepared, maxSamples: number): BlockSeries {
   const { t: t0, y: y0 } = d;
   const block = Math.ceil(d.n / maxSamples);
   const m = Math.ceil(d.n / block);
   const t = new Float64Array(m);
   const y = new Float64Array(m);
-  const wm = new Float64Array(m);
   for (let j = 0; j < m; j++) {
     const i0 = j * block;
     const i1 = Math.min(d.n, i0 + block);
     let st = 0;
     let sy = 0;
-    let sw = 0;
     for (let i = i0; i < i1; i++) {
       st += t0[i];
       sy += y0[i];
-      sw += w[i];
     }
     t[j] = st / (i1 - i0);
     y[j] = sy / (i1 - i0);
+  }
+  return { d: { t, y, n: m, spacingS: d.spacingS * block, nEff: d.nEff, bandwidthHz: d.bandwidthHz, work: d.work }, block, seriesLength: d.n };
+}
+
+/** The weights of a block-averaged series: the sum of each block's. */
+function blockWeights(b: BlockSeries, w: Float64Array): Float64Array {
+  const m = b.d.n;
+  const wm = new Float64Array(m);
+  for (let j = 0; j < m; j++) {
+    const i0 = j * b.block;
+    const i1 = Math.min(b.seriesLength, i0 + b.block);
+    let sw = 0;
+    for (let i = i0; i < i1; i++) sw += w[i];
     wm[j] = sw;
   }
-  return { d: { t, y, n: m, spacingS: d.spacingS * block, nEff: d.nEff, bandwidthHz: d.bandwidthHz, work: d.work }, w: wm };
+  return wm;
+}
+
+/** A block-averaged copy of a series and its weights (at most maxSamples blocks: mean time, mean power, summed weight). */
+export function blockMeans(d: Prepared, w: Float64Array, maxSamples: number): { d: Prepared; w: Float64Array } {
+  const b = blockSeries(d, maxSamples);
+  return { d: b.d, w: blockWeights(b, w) };
 }
 
 /** Updates the IRLS weights 1/V(m̂) from the current parameters. */
@@ -651,7 +510,9 @@ export function fitIrls(
   let mean = 0;
   for (let i = 0; i < n; i++) mean += w[i];
   for (let i = 0; i < n; i++) w[i] /= mean / n;
-  let state = start ?? gridSearchThinned(d, w, gridModel, grid, fixedBg);
+  // The grid's block means, made once for the grid search and the regrid below.
+  const thin = start === null && n > GRID_MAX_SAMPLES ? blockSeries(d, GRID_MAX_SAMPLES) : null;
+  let state = start ?? gridSearchThinned(d, thin, w, gridModel, grid, fixedBg);
   if (state === null) return null;
   if (fixedBg !== null) state.params[model.nNonlinear + 1] = fixedBg;
   if (start === null && gridModel !== model) {
@@ -668,7 +529,7 @@ export function fitIrls(
     // The exponential grid is cheap: search it again under the IRLS weights in case they move
     // the optimum to another basin. (The saturation grid is 20× larger; its LM polish suffices.)
     if (pass === 0 && start === null && model.nNonlinear === 1) {
-      const regrid = gridSearchThinned(d, w, model, grid, fixedBg);
+      const regrid = gridSearchThinned(d, thin, w, model, grid, fixedBg);
       // A regrid landing on the grid value next to the current parameter is in its basin: the
       // polish below reaches the same optimum from either, so only one is polished.
       if (regrid !== null && !isNextOnGrid(grid.values[0], regrid.params[1], state.params[1])) {
@@ -720,11 +581,22 @@ export function covarianceAt(
   return { cov, nFree, dispersion, nEff };
 }
 
-/** Σ e_i·e_{i+lag} over the first n values of e. */
-function lagProduct(e: Float64Array, n: number, lag: number): number {
+/**
+ * Σ e_i·e_{i+lag} over the first n values of e, for lag and lag + 1 at once (into out[0], out[1]):
+ * each sum in its own order, the two chains of additions overlapping.
+ */
+function lagProducts(e: Float64Array, n: number, lag: number, out: Float64Array): void {
   let c = 0;
-  for (let i = 0; i + lag < n; i++) c += e[i] * e[i + lag];
-  return c;
+  let c1 = 0;
+  let i = 0;
+  for (; i + lag + 1 < n; i++) {
+    const ei = e[i];
+    c += ei * e[i + lag];
+    c1 += ei * e[i + lag + 1];
+  }
+  if (i + lag < n) c += e[i] * e[i + lag];
+  out[0] = c;
+  out[1] = c1;
 }
 
 /**
@@ -750,8 +622,10 @@ function residualCorrelationTime(d: Prepared, model: ShapeModel, params: Float64
   if (!(c0 > 0)) return 1;
   let tau = -1;
   const maxLag = Math.floor(n / 4);
+  const lags = new Float64Array(2);
   for (let m = 0; 2 * m + 1 <= maxLag; m++) {
-    const pair = (m === 0 ? 1 : lagProduct(e, n, 2 * m) / c0) + lagProduct(e, n, 2 * m + 1) / c0;
+    lagProducts(e, n, 2 * m, lags);
+    const pair = (m === 0 ? 1 : lags[0] / c0) + lags[1] / c0;
     if (!(pair > 0)) break;
     tau += 2 * pair;
   }

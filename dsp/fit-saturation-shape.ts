@@ -24,28 +24,27 @@ class SaturationShape implements ShapeModel {
   private readonly isAmplitude: boolean;
   private readonly buffers: ShapeBuffers;
   private readonly prefix = new UniformPrefix();
-  private decay = new Float64Array(0);
 
-  constructor(fixedP: number | null, isAmplitude: boolean) {
+  constructor(fixedP: number | null, isAmplitude: boolean, capacity: number) {
     this.fixedP = fixedP;
     this.isAmplitude = isAmplitude;
     this.nNonlinear = fixedP === null ? 3 : 2;
-    this.buffers = new ShapeBuffers(this.nNonlinear);
+    this.buffers = new ShapeBuffers(this.nNonlinear, capacity);
   }
 
   evaluate(t: Float64Array, n: number, theta: Float64Array, withGrad: boolean): ShapeValues {
     const { fixedP, isAmplitude, nNonlinear: nn } = this;
-    const v = this.buffers.get(n);
-    if (this.decay.length < n) this.decay = new Float64Array(v.g.length);
+    const v = this.buffers.get(n, withGrad);
     const s = theta[0];
     const tc = theta[1];
     const p = fixedP === null ? Math.exp(theta[2]) : fixedP;
     const isLandau = p === 2 && fixedP !== null;
     const ps = p * s;
     const twoOverP = 2 / p;
-    // Locals for the buffers: the loops below then read no property per time.
-    const e0 = this.decay;
+    // Locals for the buffers: the loops below then read no property per time. e^(−|z|) is written
+    // into the values' buffer, each time's read just before its value replaces it.
     const values = v.g;
+    const e0 = values;
     const grad = v.grad;
     const from = steppedDecay(t, n, this.prefix.of(t, n), Math.abs(ps), tc, e0);
     for (let i = from; i < n; i++) e0[i] = Math.exp(-Math.abs(ps * (t[i] - tc)));
@@ -90,9 +89,9 @@ class SaturationShape implements ShapeModel {
   }
 }
 
-/** The saturation shape (SaturationShape), with a memory of its last evaluation. */
-export function saturationShape(fixedP: number | null, isAmplitude = false): ShapeModel {
-  return memoised(new SaturationShape(fixedP, isAmplitude));
+/** The saturation shape (SaturationShape), with a memory of its last evaluation; buffers for `capacity` times (ShapeBuffers). */
+export function saturationShape(fixedP: number | null, isAmplitude = false, capacity = 0): ShapeModel {
+  return memoised(new SaturationShape(fixedP, isAmplitude, capacity));
 }
 
 /** Below this a running product of exponentials is taken as 0 (no subnormal arithmetic). */
@@ -210,54 +209,124 @@ class SmoothedShape implements ShapeModel {
     const at = this.root.evaluate(plan.times, plan.times.length, theta, withGrad);
     const r = at.g;
     const rGrad = at.grad;
-    const v = this.buffers.get(count);
+    const v = this.buffers.get(count, withGrad);
     const values = v.g;
     const grad = v.grad;
-    const origin = plan.origin;
-    const dir = plan.dir;
-    for (let i = 0; i < count; i++) {
-      const o = origin[i];
-      let amp = 0;
-      if (!withGrad) {
-        for (let k = 0; k < taps; k++) amp += h[k] * r[o + dir * k];
+    const { origin, dir } = plan;
+    if (!withGrad) tapSums(h, r, origin, dir, count, values);
+    else if (nn === 2) tapSumsWithGrad2(h, r, rGrad, origin, dir, count, values, grad);
+    else if (nn === 3) tapSumsWithGrad3(h, r, rGrad, origin, dir, count, values, grad);
+    else {
+      for (let i = 0; i < count; i++) {
+        let amp = 0;
+        for (let k = 0; k < taps; k++) amp += h[k] * r[origin[i] + dir * k];
         values[i] = amp * amp;
-        continue;
-      }
-      // One pass over the taps for the amplitude and its (at most three) derivatives; the loops
-      // for three and for two parameters are written out (no test per tap).
-      let a0 = 0;
-      let a1 = 0;
-      let a2 = 0;
-      if (nn === 3) {
-        for (let k = 0; k < taps; k++) {
-          const m = o + dir * k;
-          const hk = h[k];
-          amp += hk * r[m];
-          a0 += hk * rGrad[3 * m];
-          a1 += hk * rGrad[3 * m + 1];
-          a2 += hk * rGrad[3 * m + 2];
-        }
-      } else if (nn === 2) {
-        for (let k = 0; k < taps; k++) {
-          const m = o + dir * k;
-          const hk = h[k];
-          amp += hk * r[m];
-          a0 += hk * rGrad[2 * m];
-          a1 += hk * rGrad[2 * m + 1];
-        }
-      } else {
-        for (let k = 0; k < taps; k++) {
-          const m = o + dir * k;
-          amp += h[k] * r[m];
-          a0 += h[k] * rGrad[m];
+        for (let j = 0; j < nn; j++) {
+          let a = 0;
+          for (let k = 0; k < taps; k++) a += h[k] * rGrad[(origin[i] + dir * k) * nn + j];
+          grad[i * nn + j] = 2 * amp * a;
         }
       }
-      values[i] = amp * amp;
-      grad[i * nn] = 2 * amp * a0;
-      if (nn > 1) grad[i * nn + 1] = 2 * amp * a1;
-      if (nn > 2) grad[i * nn + 2] = 2 * amp * a2;
     }
     return v;
+  }
+}
+
+/*
+ * The tap sums below take two samples at a time (i and j = i + 1, or i again for the last one):
+ * each sum still adds its taps in order, k ascending, and the two samples' sums are independent
+ * chains of additions that the processor overlaps. Summed one sample at a time, each tap waited
+ * for the previous tap's addition.
+ */
+
+/** values[i] = (Σ_k h_k·r[origin[i] + dir·k])². */
+function tapSums(h: Float64Array, r: Float64Array, origin: Int32Array, dir: number, count: number, values: Float64Array): void {
+  const taps = h.length;
+  for (let i = 0; i < count; i += 2) {
+    const j = Math.min(i + 1, count - 1);
+    const oi = origin[i];
+    const oj = origin[j];
+    let ampI = 0;
+    let ampJ = 0;
+    for (let k = 0; k < taps; k++) {
+      const hk = h[k];
+      ampI += hk * r[oi + dir * k];
+      ampJ += hk * r[oj + dir * k];
+    }
+    values[i] = ampI * ampI;
+    values[j] = ampJ * ampJ;
+  }
+}
+
+/** tapSums with the two derivatives: ∂G/∂θ = 2·(Σ h_k √g_k)·Σ h_k ∂√g_k/∂θ (rGrad and grad two per time). */
+function tapSumsWithGrad2(h: Float64Array, r: Float64Array, rGrad: Float64Array, origin: Int32Array, dir: number, count: number, values: Float64Array, grad: Float64Array): void {
+  const taps = h.length;
+  for (let i = 0; i < count; i += 2) {
+    const j = Math.min(i + 1, count - 1);
+    const oi = origin[i];
+    const oj = origin[j];
+    let ampI = 0;
+    let i0 = 0;
+    let i1 = 0;
+    let ampJ = 0;
+    let j0 = 0;
+    let j1 = 0;
+    for (let k = 0; k < taps; k++) {
+      const hk = h[k];
+      const mi = oi + dir * k;
+      const mj = oj + dir * k;
+      ampI += hk * r[mi];
+      i0 += hk * rGrad[2 * mi];
+      i1 += hk * rGrad[2 * mi + 1];
+      ampJ += hk * r[mj];
+      j0 += hk * rGrad[2 * mj];
+      j1 += hk * rGrad[2 * mj + 1];
+    }
+    values[i] = ampI * ampI;
+    grad[2 * i] = 2 * ampI * i0;
+    grad[2 * i + 1] = 2 * ampI * i1;
+    values[j] = ampJ * ampJ;
+    grad[2 * j] = 2 * ampJ * j0;
+    grad[2 * j + 1] = 2 * ampJ * j1;
+  }
+}
+
+/** tapSums with the three derivatives (rGrad and grad three per time). */
+function tapSumsWithGrad3(h: Float64Array, r: Float64Array, rGrad: Float64Array, origin: Int32Array, dir: number, count: number, values: Float64Array, grad: Float64Array): void {
+  const taps = h.length;
+  for (let i = 0; i < count; i += 2) {
+    const j = Math.min(i + 1, count - 1);
+    const oi = origin[i];
+    const oj = origin[j];
+    let ampI = 0;
+    let i0 = 0;
+    let i1 = 0;
+    let i2 = 0;
+    let ampJ = 0;
+    let j0 = 0;
+    let j1 = 0;
+    let j2 = 0;
+    for (let k = 0; k < taps; k++) {
+      const hk = h[k];
+      const mi = oi + dir * k;
+      const mj = oj + dir * k;
+      ampI += hk * r[mi];
+      i0 += hk * rGrad[3 * mi];
+      i1 += hk * rGrad[3 * mi + 1];
+      i2 += hk * rGrad[3 * mi + 2];
+      ampJ += hk * r[mj];
+      j0 += hk * rGrad[3 * mj];
+      j1 += hk * rGrad[3 * mj + 1];
+      j2 += hk * rGrad[3 * mj + 2];
+    }
+    values[i] = ampI * ampI;
+    grad[3 * i] = 2 * ampI * i0;
+    grad[3 * i + 1] = 2 * ampI * i1;
+    grad[3 * i + 2] = 2 * ampI * i2;
+    values[j] = ampJ * ampJ;
+    grad[3 * j] = 2 * ampJ * j0;
+    grad[3 * j + 1] = 2 * ampJ * j1;
+    grad[3 * j + 2] = 2 * ampJ * j2;
   }
 }
 

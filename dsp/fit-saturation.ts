@@ -15,10 +15,10 @@ import {
   rssOf,
   START_MAX_SAMPLES,
   type FitState,
-  type GridSpec,
   type IrlsResult,
   type Prepared,
 } from './fit-irls';
+import type { GridSpec } from './fit-grid';
 import { RESTART_STEPS, type ShapeModel } from './fit-shape';
 import { KernelTaps, saturationShape, smoothedShape, type EnvelopeKernel } from './fit-saturation-shape';
 import { CHI2_1DOF_99, studentTQuantile } from './stats';
@@ -117,7 +117,7 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
   const taps = kernel === undefined ? null : new KernelTaps(kernel);
   const through = (p: number | null): ShapeModel => (taps === null ? saturationShape(p) : smoothedShape(saturationShape(p, true), taps));
   const grid = saturationGrid(d);
-  const landau = fitIrls(d, through(2), grid, fixedBg, null, saturationShape(2));
+  const landau = fitIrls(d, through(2), grid, fixedBg, null, saturationShape(2, false, d.n));
   if (landau === null) return fail('no tone above the background', d.nEff);
   let chosen: SaturationCandidate = { fit: landau, p: 2 };
   let model: SaturationFit['model'] = 'stuart-landau';

@@ -34,22 +34,27 @@ export interface ShapeValues {
  * identical results.
  */
 
-/** Output buffers of a model's evaluations, grown to the longest series seen. */
+/**
+ * Output buffers of a model's evaluations, grown to the longest series seen (at least `capacity`
+ * times, the longest its fit will ask for when known: a fit's grid looks at block means first),
+ * the gradient's only once one is asked for.
+ */
 export class ShapeBuffers {
   private values: ShapeValues = { g: new Float64Array(0), grad: new Float64Array(0) };
   private readonly nNonlinear: number;
+  private readonly capacity: number;
 
-  constructor(nNonlinear: number) {
+  constructor(nNonlinear: number, capacity = 0) {
     this.nNonlinear = nNonlinear;
+    this.capacity = capacity;
   }
 
-  /** The buffers, at least n long. */
-  get(n: number): ShapeValues {
+  /** The buffers, at least n long (the gradient's n·nNonlinear when withGrad). */
+  get(n: number, withGrad: boolean): ShapeValues {
     const values = this.values;
-    if (values.g.length < n) {
-      values.g = new Float64Array(n);
-      values.grad = new Float64Array(n * this.nNonlinear);
-    }
+    const size = Math.max(n, this.capacity);
+    if (values.g.length < n) values.g = new Float64Array(size);
+    if (withGrad && values.grad.length < n * this.nNonlinear) values.grad = new Float64Array(size * this.nNonlinear);
     return values;
   }
 }

@@ -53,7 +53,8 @@
  * reads as a softer knee (p < 2), so at high SNR the model choice below may switch for that
  * reason; the remedy is an envelope bandwidth of at least the growth rate in hertz.
  */
-import { fitIrls, prepare, type GridSpec } from './fit-irls';
+import type { GridSpec } from './fit-grid';
+import { fitIrls, prepare } from './fit-irls';
 import { memoised, RESTART_STEPS, ShapeBuffers, UniformPrefix, type ShapeModel, type ShapeValues } from './fit-shape';
 import { studentTQuantile } from './stats';
 import type { EnvelopeSeries, Interval, RateFit, SaturationFit } from './types';
@@ -70,16 +71,17 @@ const MAX_STEPPED_EXPONENT = 600;
 class ExponentialShape implements ShapeModel {
   readonly nNonlinear = 1;
   private readonly tm: number;
-  private readonly buffers = new ShapeBuffers(1);
+  private readonly buffers: ShapeBuffers;
   private readonly prefix = new UniformPrefix();
 
-  constructor(tm: number) {
+  constructor(tm: number, capacity: number) {
     this.tm = tm;
+    this.buffers = new ShapeBuffers(1, capacity);
   }
 
   evaluate(t: Float64Array, n: number, theta: Float64Array, withGrad: boolean): ShapeValues {
     const tm = this.tm;
-    const v = this.buffers.get(n);
+    const v = this.buffers.get(n, withGrad);
     // Locals for the buffers: the loops below then read no property per time.
     const values = v.g;
     const s2 = 2 * theta[0];
@@ -108,9 +110,9 @@ class ExponentialShape implements ShapeModel {
   }
 }
 
-/** The exponential shape about tm, with a memory of its last evaluation. */
-function exponentialShape(tm: number): ShapeModel {
-  return memoised(new ExponentialShape(tm));
+/** The exponential shape about tm, with a memory of its last evaluation; buffers for `capacity` times (ShapeBuffers). */
+function exponentialShape(tm: number, capacity: number): ShapeModel {
+  return memoised(new ExponentialShape(tm, capacity));
 }
 
 export function invalidRateFit(reason: string, refTimeS: number, nEffective: number): RateFit {
@@ -168,7 +170,7 @@ export function fitExponential(series: EnvelopeSeries, opts?: { backgroundPower?
   const t0 = d.t[0];
   const spanS = d.t[d.n - 1] - t0;
   const tm = t0 + spanS / 2;
-  const model = exponentialShape(tm);
+  const model = exponentialShape(tm, d.n);
   const grid: GridSpec = { values: [rateGrid(spanS)] };
   const fit = fitIrls(d, model, grid, fixedBg, null);
   if (fit === null) return invalidRateFit('no tone above the background', refTimeS, d.nEff);

@@ -4,10 +4,10 @@
  * only held a louder tone through its band's skirt is a duplicate, and a weaker line that belongs
  * to a stronger tone (a harmonic, a sidelobe or intermodulation line) is grouped under it.
  */
-import { STATE_GROWTH, STATE_QUIET, STATE_STEADY, type RegimeSegment } from './regime';
+import { STATE_DECAY, STATE_GROWTH, STATE_QUIET, STATE_STEADY, type RegimeSegment } from './regime';
 import { isLockedHarmonic } from './locking';
 import { segmentFrequency } from './segment-fit';
-import { ENVELOPE_WIDE_BANDWIDTH_HZ, indexAtTime, peakPower, topPowerIn, type ToneRuntime } from './tone-store';
+import { ENVELOPE_WIDE_BANDWIDTH_HZ, indexAtTime, peakPower, topIndexIn, topPowerIn, type ToneRuntime } from './tone-store';
 import { harmonicToleranceHz, isSameToneHz, matchToleranceHz, MAX_HARMONIC, medianFrequencyHz } from './track';
 
 /** A weaker line within this fraction of a tone's frequency and this many dB below it is its sidelobe or intermodulation product. */
@@ -104,10 +104,10 @@ function trackInfo(tr: ToneRuntime, frequencyOf: FrequencyOf): TrackInfo {
 
 /**
  * Tracks of one tone overlap where a later track was started (its envelope rebuilt from the
- * history) while an earlier one still held the tone, or where a track beside a loud tone held
- * that tone through its band's skirt. Each stretch of the record is told once: a later track's
- * active segment that overlaps an active segment kept from an earlier track is dropped, and so is
- * a later track's quiet segment that lies within an earlier track's store.
+ * history) while an earlier one still held the tone. Each stretch of the record is told once
+ * (after dropSkirtDuplicates, which keeps the stronger reading of one line): a later track's
+ * active segment that still overlaps an active segment kept from an earlier track is dropped, and
+ * so is a later track's quiet segment that lies within an earlier track's store.
  */
 function dropOverlaps(fam: Family, dropped: Set<RegimeSegment>): void {
   const tracks = [...fam.tracks].sort((a, b) => a.tone.id - b.tone.id);
@@ -135,12 +135,12 @@ function dropOverlaps(fam: Family, dropped: Set<RegimeSegment>): void {
 }
 
 /**
- * Tracks of two tones that tell one line at once: a track left on a nearby resonance reads a hum
- * that rose beside it through the skirt of its band (phase-slope frequency of the segment on the
- * hum, level clearly lower). Where active segments of tracks of different families overlap in
- * time and lie within the match tolerance of each other, the line is told by the track that sees
- * it more than DUPLICATE_SKIRT_DB stronger over the overlap; between two that see it alike, by the
- * one started first. Segments further apart but within the wide envelope band's half-width
+ * Tracks that tell one line at once: a track left on a nearby resonance, or a track of the same
+ * tone left a few hertz off by a drift, reads a hum that rose beside it through the skirt of its
+ * band (phase-slope frequency of the segment on the hum, level clearly lower). Where active
+ * segments of two tracks overlap in time and lie within the match tolerance of each other, the
+ * line is told by the track that sees it more than DUPLICATE_SKIRT_DB stronger over the overlap;
+ * between two that see it alike, by the one started first. Segments further apart but within the wide envelope band's half-width
  * (ENVELOPE_WIDE_BANDWIDTH_HZ, the band through whose skirt a track can read a neighbour) are
  * a skirt read only when one is more than DUPLICATE_SKIRT_DB weaker. The other's segment is dropped.
  */
@@ -158,7 +158,7 @@ function dropSkirtDuplicates(families: Family[], binHz: number, dropped: Set<Reg
   }
   for (const x of segs) {
     for (const y of segs) {
-      if (x.fam === y.fam || dropped.has(x.s) || dropped.has(y.s) || !(x.a < y.b && x.b > y.a)) continue;
+      if (x.tr === y.tr || dropped.has(x.s) || dropped.has(y.s) || !(x.a < y.b && x.b > y.a)) continue;
       const df = Math.abs(x.f - y.f);
       if (df > ENVELOPE_WIDE_BANDWIDTH_HZ) continue;
       const isSameLine = df <= matchToleranceHz(binHz, Math.max(x.f, y.f));
@@ -180,9 +180,14 @@ function indexOffset(tr: ToneRuntime, i0: number, tS: number): number {
   return Math.max(0, Math.round((tS - tr.timeS[i0]) * tr.env.outputRateHz));
 }
 
+/** Spans [start, end] (s) of a family's segments in `state`. */
+function stateSpans(q: Family, state: number): [number, number][] {
+  return q.tracks.flatMap((t) => t.regime.segments.filter((g) => g.state === state && g.endIdx > g.startIdx).map((g): [number, number] => [t.timeS[g.startIdx], t.timeS[g.endIdx - 1]]));
+}
+
 /** Growth spans [start, end] (s) of a family's tracks. */
 function growthSpans(q: Family): [number, number][] {
-  return q.tracks.flatMap((t) => t.regime.segments.filter((g) => g.state === STATE_GROWTH && g.endIdx > g.startIdx).map((g): [number, number] => [t.timeS[g.startIdx], t.timeS[g.endIdx - 1]]));
+  return stateSpans(q, STATE_GROWTH);
 }
 
 /**
@@ -208,6 +213,7 @@ function assignParents(families: Family[], binHz: number, dropped: Set<RegimeSeg
       if (kFam >= 2 && kFam <= MAX_HARMONIC) {
         let isAllLocked = true;
         const parGrowths = growthSpans(par);
+        const parDecays = stateSpans(par, STATE_DECAY);
         for (const tr of fam.tracks) {
           for (const s of tr.regime.segments) {
             if (s.state === STATE_QUIET || s.endIdx <= s.startIdx || dropped.has(s)) continue;
@@ -216,7 +222,11 @@ function assignParents(families: Family[], binHz: number, dropped: Set<RegimeSeg
             const k = Number.isFinite(f) ? Math.round(f / par.freqHz) : kFam;
             const isOnHarmonic = k >= 2 && k <= MAX_HARMONIC && (!Number.isFinite(f) || Math.abs(f - k * par.freqHz) <= harmonicToleranceHz(binHz, par.freqHz, k));
             const risesWith = s.state === STATE_GROWTH && parGrowths.some(([p0, p1]) => a >= p0 - WITHIN_MARGIN_S && a <= p1 + WITHIN_MARGIN_S);
-            if (isOnHarmonic && isLockedHarmonic(tr, s.startIdx, s.endIdx, par.tracks, k, risesWith)) dropped.add(s);
+            // A decay on the harmonic that starts as the tone's own decay starts is the harmonic
+            // dying with the tone: the driving that shaped the waveform has stopped, so neither A^k
+            // nor the phase relation holds any more (the tone's frequency moves as it is released).
+            const diesWith = s.state === STATE_DECAY && parDecays.some(([p0]) => Math.abs(a - p0) <= WITHIN_MARGIN_S);
+            if (isOnHarmonic && (diesWith || isLockedHarmonic(tr, s.startIdx, s.endIdx, par.tracks, k, risesWith))) dropped.add(s);
             else isAllLocked = false;
           }
         }
@@ -306,8 +316,8 @@ export function groupTones(all: ToneRuntime[], binHz: number, floorPower = 0): G
       families.push(f);
     }
   }
-  for (const fam of families) dropOverlaps(fam, dropped);
   dropSkirtDuplicates(families, binHz, dropped, frequencyOf);
+  for (const fam of families) dropOverlaps(fam, dropped);
   families = mergeDisjointFamilies(families, binHz, dropped, frequencyOf);
   for (const fam of families) {
     dropOverlaps(fam, dropped);
@@ -341,15 +351,22 @@ export function groupTones(all: ToneRuntime[], binHz: number, floorPower = 0): G
  * True when no other tone sounds within the wide envelope band's reach of this tone over times
  * [t0S, t1S] (what one fit reads): lines of other tones (or of this tone's other cycles) heard only
  * at other times do not count, nor lines of a stronger tone, nor lines NEAR_LINE_DB weaker than
- * this tone there.
+ * this tone there. Frequencies are those of the window itself (each track's demodulator where its
+ * power peaks there), not a track's latest: a tone that drifts over a long record is held by
+ * several tracks, whose latest frequencies say nothing of where they sat at this time.
  */
 export function wideBandIsClear(tr: ToneRuntime, t0S: number, t1S: number, others: ToneRuntime[], artefacts: Set<ToneRuntime>, binHz: number): boolean {
-  const f = tr.tone.freqHz;
+  const k = topIndexIn(tr, indexAtTime(tr, t0S), indexAtTime(tr, t1S));
+  if (k < 0) return true;
+  const f = tr.demodHz[k];
   const same = matchToleranceHz(binHz, f);
-  const floor = topPowerIn(tr, indexAtTime(tr, t0S), indexAtTime(tr, t1S)) * 10 ** (-NEAR_LINE_DB / 10);
+  const floor = tr.power[k] * 10 ** (-NEAR_LINE_DB / 10);
   for (const o of others) {
-    if (o === tr || artefacts.has(o) || !(Math.abs(o.tone.freqHz - f) > same && Math.abs(o.tone.freqHz - f) < WIDE_CLEARANCE_HZ)) continue;
-    if (topPowerIn(o, indexAtTime(o, t0S), indexAtTime(o, t1S)) > floor) return false;
+    if (o === tr || artefacts.has(o)) continue;
+    const ko = topIndexIn(o, indexAtTime(o, t0S), indexAtTime(o, t1S));
+    if (ko < 0 || !(o.power[ko] > floor)) continue;
+    const apart = Math.abs(o.demodHz[ko] - f);
+    if (apart > same && apart < WIDE_CLEARANCE_HZ) return false;
   }
   return true;
 }

@@ -269,16 +269,23 @@ function endWarmup(st: RegimeState): void {
     // then the level of those first samples, before the samples that stand ON_DB over the
     // background, so that the hum does not set the quiet level.
     const ratioAt = (i: number): number => (st.warmBg[i] > 0 ? st.warmP[i] / st.warmBg[i] : 1);
+    const medianLevel = (from: number, to: number, below: number): number => {
+      const ratios: number[] = [];
+      for (let i = from; i < to; i++) if (ratioAt(i) < below) ratios.push(ratioAt(i));
+      ratios.sort((a, b) => a - b);
+      return ratios.length > 0 ? ratios[Math.floor(ratios.length / 2)] / Math.LN2 : Number.NaN;
+    };
     let m = isNoiseLike ? n : head;
     if (headExcessDb >= START_DB) {
       let lead = 0;
-      while (lead < head && ratioAt(lead) < 10 ** (ON_DB / 10)) lead++;
+      while (lead < head && ratioAt(lead) < ON_RATIO) lead++;
       if (lead >= WARMUP_LEAD_MIN) m = lead;
     }
-    const ratios: number[] = [];
-    for (let i = 0; i < m; i++) ratios.push(ratioAt(i));
-    ratios.sort((a, b) => a - b);
-    st.baseline = Math.max(0.25, ratios[Math.floor(m / 2)] / Math.LN2);
+    // A noise-like warm-up whose head is quiet may still hold a hum rising after the head (the
+    // noisy head makes the whole look like noise): its samples ON_DB over the head's level are no
+    // quiet (for noise alone that leaves out a share e^−16 of them).
+    const isHeadQuiet = isNoiseLike && !(headExcessDb >= START_DB);
+    st.baseline = Math.max(0.25, medianLevel(0, m, isHeadQuiet ? ON_RATIO * medianLevel(0, head, Infinity) : Infinity));
     enterQuiet(st, first);
   }
   st.warmCount = 0;

@@ -286,9 +286,21 @@ export function indexAtTime(tr: ToneRuntime, t: number): number {
 
 /** Largest valid, unclipped envelope power over store entries [i0, i1). */
 export function topPowerIn(tr: ToneRuntime, i0: number, i1: number): number {
+  const k = topIndexIn(tr, i0, i1);
+  return k < 0 ? 0 : tr.power[k];
+}
+
+/** Store index of the largest valid, unclipped envelope power in entries [i0, i1) (the first of equals); −1 when none is above 0. */
+export function topIndexIn(tr: ToneRuntime, i0: number, i1: number): number {
   let top = 0;
-  for (let k = Math.max(i0, tr.validFrom); k < i1; k++) if (!tr.clipped[k] && tr.power[k] > top) top = tr.power[k];
-  return top;
+  let at = -1;
+  for (let k = Math.max(i0, tr.validFrom); k < i1; k++) {
+    if (!tr.clipped[k] && tr.power[k] > top) {
+      top = tr.power[k];
+      at = k;
+    }
+  }
+  return at;
 }
 
 /** Peak envelope power of a tone over its valid, unclipped samples (computed once, at finish). */

@@ -22,7 +22,7 @@ import { num } from './format';
 type Row = (figure: string, measured: string, target: string, verdict: 'PASS' | 'MISS' | 'info') => void;
 
 /** One generated cycle, in record time. */
-interface TrueCycle {
+export interface TrueCycle {
   onsetS: number;
   offS: number;
   endS: number;
@@ -43,7 +43,7 @@ function uniform(rng: Rng, lo: number, hi: number): number {
 }
 
 /** Draws the cycles of a record of `durationS` around `baseHz`. */
-function drawCycles(rng: Rng, durationS: number, baseHz: number, noiseRms: number): TrueCycle[] {
+export function drawCycles(rng: Rng, durationS: number, baseHz: number, noiseRms: number): TrueCycle[] {
   const cycles: TrueCycle[] = [];
   let t = uniform(rng, 0.5, 10);
   let drift = 0;
@@ -79,7 +79,7 @@ function amplitudeAt(c: TrueCycle, t: number): number {
 }
 
 /** Streams the record through one analysis in blocks, the tone's phase continuous across cycles. */
-function analyseRecord(fs: number, durationS: number, cycles: TrueCycle[], noiseRms: number, seed: number): Report {
+export function analyseRecord(fs: number, durationS: number, cycles: TrueCycle[], noiseRms: number, seed: number): Report {
   const a = createAnalysis({ sampleRateHz: fs });
   const rng = createRng(seed);
   const block = new Float32Array(4096);
@@ -135,7 +135,7 @@ function growthBound(c: TrueCycle, noiseVariance: number): number {
 }
 
 /** The report cycle that belongs to a true cycle: its onset (or start) within the true cycle's span. */
-function matchCycle(c: TrueCycle, found: Cycle[]): Cycle[] {
+export function matchCycle(c: TrueCycle, found: Cycle[]): Cycle[] {
   return found.filter((f) => {
     const t = f.onsetS ?? f.startS;
     return t >= c.onsetS - 1 && t < c.offS;

@@ -61,6 +61,21 @@ describe('regime state machine on envelope sequences', () => {
     expect(Math.abs(st.segments[3].startIdx / RATE_HZ - 7)).toBeLessThan(0.1);
   });
 
+  it('sets the quiet level from the quiet samples when a hum rises after a noisy head of the warm-up, and finds the hum that returns', () => {
+    // A track started on the history just before a hum: 0.5 s of band noise, then a hum 50 dB over
+    // it (rising at 30 1/s in amplitude) for 2 s, quiet for 5 s, and the hum again. The warm-up
+    // (2 s) is mostly hum; its noisy head makes it look noise-like as a whole, and a quiet level
+    // taken over all of it sat 50 dB up, so that the returning hum was never seen.
+    const bg = 1e-6;
+    const hum = (t0: number, t1: number) => (t: number): number => (t < t0 || t >= t1 ? 0 : bg * Math.min(1e5, Math.exp(60 * (t - t0))));
+    const first = hum(0.5, 2.5);
+    const second = hum(7.5, 10);
+    const st = createRegimeState(RATE_HZ, true);
+    feed(st, 12, (t) => first(t) + second(t), () => bg, 7);
+    const growths = st.segments.filter((s) => s.state === STATE_GROWTH);
+    expect(growths.map((s) => s.startIdx / RATE_HZ).filter((t) => Math.abs(t - 7.5) < 0.2), JSON.stringify(st.segments)).toHaveLength(1);
+  });
+
   it('takes a tone sounding from the start as steady, with no onset', () => {
     const st = createRegimeState(RATE_HZ, true);
     feed(st, 10, () => 1e-3, () => 1e-6, 3);
