@@ -85,7 +85,7 @@ function workerStageRows(st, audioS, label) {
     total += st[key];
     let extra = '';
     if (key === 'marginEstimate' && st.marginEstimates > 0) {
-      // Its cost grows with the stretch it looks at (up to 60 s, dsp/live-margin.ts LIVE_MARGIN_WINDOW_S), one every 2 s live.
+      // Its cost grows with the stretch it looks at (up to 60 s, dsp/live-margin.ts LIVE_MARGIN_WINDOW_S), live one when LIVE_MARGIN_EVERY_S (2 s) and LIVE_MARGIN_NEW_SHARE (a sixth) of the stretch are new since the last.
       extra = ` (${st.marginEstimates} estimates, ${(st.marginEstimate / st.marginEstimates).toFixed(1)} ms each; the latest ${st.marginLatestMs.toFixed(1)} ms over ${st.marginLatestWindowS.toFixed(0)} s of audio)`;
     }
     // The post itself is most of a batch's time, whatever it carries: a message's fixed cost (it wakes the page's thread), wall time.
