@@ -359,7 +359,8 @@ export function polish(
         const predicted = predictedDrop(jtj, jtr, nFree, state.params, trial);
         if (predicted <= PREDICTED_DROP_TOLERANCE * rss || isSettled?.(rss, predicted) === true) break;
       }
-      const rssTrial = normalEquations(d, w, model, trial, nFree, trialJtj, trialJtr);
+      // The last iteration's trials need only their RSS: no step follows them.
+      const rssTrial = iter === maxIter - 1 ? rssOf(d, w, model, trial) : normalEquations(d, w, model, trial, nFree, trialJtj, trialJtr);
       if (rssTrial < rss) {
         const drop = (rss - rssTrial) / rss;
         for (let j = 0; j < state.params.length; j++) state.params[j] = trial[j];
