@@ -140,9 +140,10 @@ function dropOverlaps(fam: Family, dropped: Set<RegimeSegment>): void {
  * band (phase-slope frequency of the segment on the hum, level clearly lower). Where active
  * segments of two tracks overlap in time and lie within the match tolerance of each other, the
  * line is told by the track that sees it more than DUPLICATE_SKIRT_DB stronger over the overlap;
- * between two that see it alike, by the one started first. Segments further apart but within the wide envelope band's half-width
- * (ENVELOPE_WIDE_BANDWIDTH_HZ, the band through whose skirt a track can read a neighbour) are
- * a skirt read only when one is more than DUPLICATE_SKIRT_DB weaker. The other's segment is dropped.
+ * between two that see it alike, by the one started first. Segments further apart but within the
+ * wide envelope band's half-width (ENVELOPE_WIDE_BANDWIDTH_HZ, the band through whose skirt a
+ * track can read a neighbour) are a skirt read only when one is more than DUPLICATE_SKIRT_DB
+ * weaker. The other's segment is dropped.
  */
 function dropSkirtDuplicates(families: Family[], binHz: number, dropped: Set<RegimeSegment>, frequencyOf: FrequencyOf): void {
   const skirt = 10 ** (DUPLICATE_SKIRT_DB / 10);
