@@ -206,10 +206,12 @@ function recordRows(row: Row, name: string, fs: number, durationS: number, baseH
   );
 }
 
-/** Section 2d rows: 1-hour records at a mains multiple (120 Hz) and off the mains grid (237 Hz). */
+/** Section 2d rows: 1-hour records at a mains multiple (120 Hz) and off the mains grid (237 Hz), and 20 minutes at 48 kHz. */
 export function cyclesBench(row: Row): void {
-  const fs = 16000;
-  recordRows(row, '1 h at 120 Hz ±3 %', fs, 3600, 120, 811);
-  recordRows(row, '1 h at 237 Hz ±3 %', fs, 3600, 237, 812);
-  row('set-up', `fs ${fs} Hz, noise −50 dBFS rms, gaps 0.5–10 s, growth 3–25 1/s, limit −30…−10 dBFS, hold 1–8 s, decay 3–20 1/s`, '', 'info');
+  recordRows(row, '1 h at 120 Hz ±3 %', 16000, 3600, 120, 811);
+  recordRows(row, '1 h at 237 Hz ±3 %', 16000, 3600, 237, 812);
+  // A phone's rate: the same white noise spread over 24 kHz leaves 4.8 dB less of it in the tone's
+  // band than at 16 kHz, so small systematic errors of the fits weigh more against the bound.
+  recordRows(row, '20 min at 171 Hz ±3 %, 48 kHz', 48000, 1200, 171, 813);
+  row('set-up', 'fs 16 kHz (48 kHz where named), noise −50 dBFS rms, gaps 0.5–10 s, growth 3–25 1/s, limit −30…−10 dBFS, hold 1–8 s, decay 3–20 1/s', '', 'info');
 }
