@@ -197,12 +197,15 @@ export function retireTone(ts: ToneSet, hist: History, frameCount: number, idx: 
 /**
  * Two tracks on one tone (a second track can start while the first is still moving, e.g. during a
  * fast growth whose frequency drifts) are merged: the older keeps its envelope history and takes
- * the latest frequency; the younger is dropped, so one tone gives one segment history. When the
- * younger saw the tone clearly stronger (DUPLICATE_SKIRT_DB, grouping.ts) the older held it
- * through the skirt of its band (left on a nearby resonance while the tone moved further than the
- * match tolerance) and is the one dropped: the younger's envelope was rebuilt from the history.
+ * the latest frequency; the younger is retired. When the younger saw the tone clearly stronger
+ * (DUPLICATE_SKIRT_DB, grouping.ts) the older held it through the skirt of its band (left on a
+ * nearby resonance while the tone moved further than the match tolerance) and is the one retired:
+ * the younger's envelope was rebuilt from the history. A retired track keeps its segments: its
+ * history may hold a cycle that the other's does not reach back to (a track that wandered onto
+ * the line of one started at the next cycle), and the grouping tells each stretch once (grouping.ts).
  */
-function mergeDuplicateTones(ts: ToneSet, binHz: number): void {
+function mergeDuplicateTones(ts: ToneSet, hist: History, spec: SpectrumState): void {
+  const binHz = spec.binHz;
   for (let a = ts.alive.length - 1; a >= 1; a--) {
     const ta = ts.alive[a];
     for (let b = 0; b < a; b++) {
@@ -218,8 +221,7 @@ function mergeDuplicateTones(ts: ToneSet, binHz: number): void {
         keep.tone.misses = 0;
       }
       if (drop.maxExcessDb > keep.maxExcessDb) keep.maxExcessDb = drop.maxExcessDb;
-      ts.alive.splice(at, 1);
-      ts.aliveTones.splice(at, 1);
+      retireTone(ts, hist, spec.frameCount, at);
       break;
     }
   }
@@ -257,7 +259,7 @@ export function stepTonesAtFrame(ts: ToneSet, spec: SpectrumState, hist: History
   noteHarmonics(ts, spec.binHz);
   groupHarmonics(spec, ts.peaks, hist.loBin, hist.hiBin, SUBHARMONIC_MIN_DB);
   stepTracker(ts.tracker, ts.aliveTones, ts.peaks, frameIdx, tF, NEW_TRACK_MIN_DB);
-  mergeDuplicateTones(ts, spec.binHz);
+  mergeDuplicateTones(ts, hist, spec);
   const fr = hist.frameTimeS.length;
   for (const tr of ts.alive) {
     // Retune only when the tone has moved well inside the band: a fixed demodulation frequency
