@@ -20,7 +20,7 @@ import {
 } from './fit-irls';
 import type { GridSpec } from './fit-grid';
 import { RESTART_STEPS, type ShapeModel } from './fit-shape';
-import { KernelTaps, saturationShape, smoothedShape, type EnvelopeKernel } from './fit-saturation-shape';
+import { KernelTaps, overBlocks, saturationShape, smoothedShape, type EnvelopeKernel } from './fit-saturation-shape';
 import { CHI2_1DOF_99, studentTQuantile } from './stats';
 import type { EnvelopeSeries, RateFit, SaturationFit } from './types';
 
@@ -115,7 +115,7 @@ function fitSaturationWithShape(series: EnvelopeSeries, opts?: { backgroundPower
   }
   // Seen through the kernel when one is given; the grid only seeks the basin, without it (K× cheaper).
   const taps = kernel === undefined ? null : new KernelTaps(kernel);
-  const through = (p: number | null): ShapeModel => (taps === null ? saturationShape(p) : smoothedShape(saturationShape(p, true), taps));
+  const through = (p: number | null): ShapeModel => overBlocks(taps === null ? saturationShape(p) : smoothedShape(saturationShape(p, true), taps), series);
   const grid = saturationGrid(d);
   const landau = fitIrls(d, through(2), grid, fixedBg, null, saturationShape(2, false, d.n));
   if (landau === null) return fail('no tone above the background', d.nEff);

@@ -176,19 +176,25 @@ export function buildSeries(tr: ToneRuntime, i0: number, i1: number, isWide: boo
   const nOut = Math.ceil(count / block);
   const timeS = new Float64Array(nOut);
   const power = new Float64Array(nOut);
+  // The ticks behind each mean, for models that must average over them (EnvelopeBlocks).
+  const tickS = block > 1 ? new Float64Array(count) : null;
+  const start = block > 1 ? new Int32Array(nOut + 1) : null;
   let o = 0;
   let acc = 0;
   let accT = 0;
   let inBlock = 0;
+  let ticks = 0;
   for (let k = i0; k < i1; k++) {
     if (keep !== null && !keep[k - i0]) continue;
     acc += src[k];
     accT += times[k];
+    if (tickS !== null) tickS[ticks++] = times[k];
     inBlock++;
     if (inBlock === block) {
       timeS[o] = accT / block;
       power[o] = acc / block;
       o++;
+      if (start !== null) start[o] = ticks;
       acc = 0;
       accT = 0;
       inBlock = 0;
@@ -198,8 +204,11 @@ export function buildSeries(tr: ToneRuntime, i0: number, i1: number, isWide: boo
     timeS[o] = accT / inBlock;
     power[o] = acc / inBlock;
     o++;
+    if (start !== null) start[o] = ticks;
   }
-  return { timeS: timeS.subarray(0, o), power: power.subarray(0, o), bandwidthHz: bw };
+  const series: EnvelopeSeries = { timeS: timeS.subarray(0, o), power: power.subarray(0, o), bandwidthHz: bw };
+  if (tickS !== null && start !== null) series.blocks = { tickS: tickS.subarray(0, ticks), start: start.subarray(0, o + 1) };
+  return series;
 }
 
 /**

@@ -255,6 +255,14 @@ export interface EnvelopeSeries {
   timeS: Float64Array;
   power: Float64Array;
   bandwidthHz: number;
+  /** When each sample is the mean of several envelope samples (tone-store.ts buildSeries): theirs. */
+  blocks?: EnvelopeBlocks;
+}
+
+/** The envelope samples behind block means: sample i of a series averages ticks start[i] .. start[i + 1] − 1 of tickS (their times, s). */
+export interface EnvelopeBlocks {
+  tickS: Float64Array;
+  start: Int32Array;
 }
 
 /** Result of fitting A²(t) = P0·exp(2 s (t − t0)) + N² (dsp/fit.ts fitExponential). */
