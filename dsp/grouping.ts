@@ -186,11 +186,6 @@ function stateSpans(q: Family, state: number): [number, number][] {
   return q.tracks.flatMap((t) => t.regime.segments.filter((g) => g.state === state && g.endIdx > g.startIdx).map((g): [number, number] => [t.timeS[g.startIdx], t.timeS[g.endIdx - 1]]));
 }
 
-/** Growth spans [start, end] (s) of a family's tracks. */
-function growthSpans(q: Family): [number, number][] {
-  return stateSpans(q, STATE_GROWTH);
-}
-
 /**
  * Lines that belong to a stronger tone. A line near k·f (k = 2..MAX_HARMONIC) is that tone's
  * harmonic over each of its segments whose envelope is locked to the tone's (locking.ts): those
@@ -213,7 +208,7 @@ function assignParents(families: Family[], binHz: number, dropped: Set<RegimeSeg
       const kFam = Math.round(fam.freqHz / par.freqHz);
       if (kFam >= 2 && kFam <= MAX_HARMONIC) {
         let isAllLocked = true;
-        const parGrowths = growthSpans(par);
+        const parGrowths = stateSpans(par, STATE_GROWTH);
         const parDecays = stateSpans(par, STATE_DECAY);
         for (const tr of fam.tracks) {
           for (const s of tr.regime.segments) {
@@ -236,13 +231,13 @@ function assignParents(families: Family[], binHz: number, dropped: Set<RegimeSeg
       }
       const isNear = Math.abs(fam.freqHz - par.freqHz) <= NEAR_LINE_FRACTION * par.freqHz && fam.peakPower * 10 ** (NEAR_LINE_DB / 10) < par.peakPower;
       if (!isNear) continue;
-      const parGrowths = growthSpans(par);
+      const parGrowths = stateSpans(par, STATE_GROWTH);
       const within =
         Number.isNaN(fam.activeFromS) ||
         par.isSteadyLine ||
         (fam.activeFromS >= par.activeFromS - WITHIN_MARGIN_S &&
           fam.activeToS <= par.activeToS + WITHIN_MARGIN_S &&
-          growthSpans(fam).every(([a]) => parGrowths.some(([p0, p1]) => a >= p0 - WITHIN_MARGIN_S && a <= p1 + WITHIN_MARGIN_S)));
+          stateSpans(fam, STATE_GROWTH).every(([a]) => parGrowths.some(([p0, p1]) => a >= p0 - WITHIN_MARGIN_S && a <= p1 + WITHIN_MARGIN_S)));
       if (within) fam.parent = par;
     }
   }
