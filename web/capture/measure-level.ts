@@ -14,8 +14,15 @@ export interface LevelMeasurement {
   spreadDb: number;
   deviceKey: string;
   deviceLabel: string;
-  /** Tracked tone frequency (median), Hz, NaN when none. */
+  /** Frequency of the loudest line of the spectra (median over them), Hz, NaN when none. */
   toneHz: number;
+}
+
+/** Index of the largest value of a spectrum above its DC bin; 0 when none is finite. */
+function loudestBin(spectrumDbfs: Float32Array): number {
+  let best = 0;
+  for (let k = 1; k < spectrumDbfs.length; k++) if (spectrumDbfs[k] > (best > 0 ? spectrumDbfs[best] : -Infinity)) best = k;
+  return best;
 }
 
 /** Listens for `durationS` seconds and returns the mean level. Throws CaptureError for microphone problems. */
@@ -38,7 +45,13 @@ export async function measureLevel(durationS: number, onProgress: (fraction: num
           // Skip the first half second: the capture settles and the frames fill.
           if (f.timeS < 0.5) continue;
           if (Number.isFinite(f.levelDbfs)) levels.push(f.levelDbfs);
-          if (Number.isFinite(f.frequencyHz)) tones.push(f.frequencyHz);
+        }
+        // The calibrator's tone is the loudest line of the spectrum. (A track row names the main
+        // tone of a hum, where a steady line gives way to any other line over its background: a
+        // quantisation product of the calibrator's own tone could take the rows.)
+        if (m.spectrumDbfs && m.timeS >= 0.5) {
+          const top = loudestBin(m.spectrumDbfs);
+          if (top > 0) tones.push(top * m.spectrumBinHz);
         }
         onProgress(Math.min(1, m.timeS / (durationS + 0.5)));
         if (m.timeS >= durationS + 0.5) resolve();
